@@ -8,3 +8,25 @@ are small frozen result dataclasses.
 from builder.analysis.moments import Moments, MomentTree, merge, merge_all, moments_of
 
 __all__ = ["Moments", "MomentTree", "merge", "merge_all", "moments_of"]
+
+from builder.analysis.elementary import (DEFAULT_WARN_CONDITION, ElementaryRegressions, choose_reference,
+                                         elementary_regressions)
+from builder.analysis.equal_noise import EqualNoise, EqualNoiseCorank, equal_noise
+from builder.analysis.bounded import (BOUND_FORM, BoundedCorank, BoundedNoise, NoiseTolerance, bounded_noise,
+                                      tolerance_eps)
+from builder.analysis.stability import (ZERO_SIGN_TOL, CoefficientSwing, CorankSequence, SubspaceStability,
+                                        coefficient_swing, corank_sequence, principal_angles,
+                                        subspace_stability)
+from builder.analysis.flat import DEFAULT_NEAR_ZERO, ElementaryFlat, elementary_flat
+from builder.analysis.identified import (DEFAULT_ZERO_TOL, CoefficientStatus, Identified,
+                                         identified_quantities)
+
+__all__ += [
+    "ElementaryRegressions", "elementary_regressions", "choose_reference", "DEFAULT_WARN_CONDITION",
+    "EqualNoise", "EqualNoiseCorank", "equal_noise",
+    "BoundedNoise", "BoundedCorank", "NoiseTolerance", "bounded_noise", "tolerance_eps", "BOUND_FORM",
+    "principal_angles", "SubspaceStability", "subspace_stability", "CoefficientSwing",
+    "coefficient_swing", "CorankSequence", "corank_sequence", "ZERO_SIGN_TOL",
+    "ElementaryFlat", "elementary_flat", "DEFAULT_NEAR_ZERO",
+    "Identified", "CoefficientStatus", "identified_quantities", "DEFAULT_ZERO_TOL",
+]

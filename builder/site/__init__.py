@@ -1,1 +1,30 @@
-"""builder.site"""
+"""builder.site: SiteContent in, a folder of bytes out.
+
+Markdown to HTML (:mod:`.markdown`), one layout (``templates/base.html``), one
+stylesheet (``assets/site.css``), formula images (:mod:`.formulas`), styled
+blocks (:mod:`.blocks`), rendering with relative links and ``SHA256SUMS``
+(:mod:`.render`), the atomic writer (:mod:`.writer`) and the link checker
+(:mod:`.links`).
+"""
+
+from __future__ import annotations
+
+from builder.site.blocks import CARD_KINDS, VERDICTS, badge, callout, card, cards, details, figure
+from builder.site.content import SECTIONS, NavItem, Page, SiteContent, SiteFile
+from builder.site.formulas import FormulaImage, formula_image, formula_svg
+from builder.site.links import PROBLEM_KINDS, Problem, check_files, check_site
+from builder.site.markdown import (Heading, RenderedMarkdown, escape_cell, escape_text,
+                                   render_markdown, slugify)
+from builder.site.render import (SUMS_NAME, relative_url, render_site, rewrite_links,
+                                 sha256sums, source_date)
+from builder.site.writer import MARKER, write_site
+
+__all__ = [
+    "SECTIONS", "Page", "SiteFile", "NavItem", "SiteContent",
+    "render_markdown", "RenderedMarkdown", "Heading", "escape_text", "escape_cell", "slugify",
+    "CARD_KINDS", "VERDICTS", "card", "cards", "badge", "callout", "details", "figure",
+    "formula_svg", "formula_image", "FormulaImage",
+    "render_site", "relative_url", "rewrite_links", "sha256sums", "source_date", "SUMS_NAME",
+    "write_site", "MARKER",
+    "check_site", "check_files", "Problem", "PROBLEM_KINDS",
+]

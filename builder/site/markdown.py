@@ -1,0 +1,197 @@
+"""Markdown to HTML for the site, and escaping of user text.
+
+Python-Markdown passes raw HTML through unchanged. Report code therefore
+never pastes user-supplied text (titles, labels, summaries, column names,
+claim text) into Markdown directly: it goes through :func:`escape_text`
+(running text, headings, link text, image alt text) or :func:`escape_cell`
+(table cells). Both return Markdown that renders as exactly the same literal
+text, with no element or attribute of its own.
+
+Each call of :func:`render_markdown` uses a fresh ``markdown.Markdown``
+instance, so no state (footnote counters, used ids) leaks between pages and
+the output depends on the input text only.
+"""
+
+from __future__ import annotations
+
+import html as _html
+import re
+import unicodedata
+import xml.etree.ElementTree as etree
+from dataclasses import dataclass
+
+import markdown as _md
+from markdown.extensions import Extension
+from markdown.treeprocessors import Treeprocessor
+
+__all__ = ["Heading", "RenderedMarkdown", "render_markdown", "slugify", "escape_text",
+           "escape_cell"]
+
+# Characters that would start HTML or an entity; replaced by entities.
+_HTML_ENTITIES = {"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;"}
+# Characters Python-Markdown treats specially (its ESCAPED_CHARS with the
+# tables extension, minus '>' which becomes an entity); backslash-escaped.
+_MD_SPECIALS = frozenset("\\`*_{}[]()#+-.!|")
+# Whitespace the browser collapses into one space, plus Unicode line breaks
+# that Markdown or HTML might treat as line ends.
+_WHITESPACE = re.compile(r"[ \t\n\r\f\v\u0085\u2028\u2029]+")
+# C0/C1 controls (Python-Markdown uses \x02/\x03 internally as placeholders).
+_CONTROLS = re.compile(r"[\x00-\x08\x0e-\x1f\x7f-\x84\x86-\x9f]")
+
+
+def _normalise_plain(text: str) -> str:
+    if not isinstance(text, str):
+        raise TypeError(f"escape_text expects str; got {type(text).__name__}.")
+    return _WHITESPACE.sub(" ", _CONTROLS.sub("", text))
+
+
+def escape_text(text: str) -> str:
+    """Markdown that renders as ``text`` literally, with no markup.
+
+    HTML-significant characters (``& < > " '``) become entities and Markdown
+    specials are backslash-escaped. Runs of whitespace (including line
+    breaks) become one space, exactly as a browser would show them, so the
+    result is always one line and safe inside headings, list items, link
+    text and image alt text. Other Unicode spaces (no-break space, ...)
+    become numeric entities so Markdown cannot strip them. Control
+    characters are dropped.
+
+    Parameters
+    ----------
+    text : str
+        User-supplied plain text.
+
+    Returns
+    -------
+    str
+        Markdown source.
+
+    Examples
+    --------
+    >>> escape_text('<b>"R&D"</b> *x*')
+    '&lt;b&gt;&quot;R&amp;D&quot;&lt;/b&gt; \\\\*x\\\\*'
+    """
+    out = []
+    for ch in _normalise_plain(text):
+        if ch in _HTML_ENTITIES:
+            out.append(_HTML_ENTITIES[ch])
+        elif ch in _MD_SPECIALS:
+            out.append("\\" + ch)
+        elif ch != " " and ch.isspace():
+            out.append(f"&#{ord(ch)};")  # no-break and other Unicode spaces survive stripping
+        else:
+            out.append(ch)
+    return "".join(out)
+
+
+def escape_cell(text: str) -> str:
+    """Like :func:`escape_text`, for a cell of a Markdown pipe table.
+
+    Pipes are escaped so they cannot split the cell, the result is one line,
+    and leading/trailing spaces are trimmed (the table syntax trims them
+    anyway).
+    """
+    return escape_text(text).strip(" ")
+
+
+def slugify(value: str, separator: str = "-") -> str:
+    """Deterministic, Unicode-keeping heading id.
+
+    Letters and digits of every script are kept (after NFKC normalisation
+    and case folding to lower case); every other run of characters becomes
+    one ``separator``. An empty result becomes ``"section"``. The toc
+    extension de-duplicates repeated slugs by appending ``_1``, ``_2``, ...
+    """
+    value = unicodedata.normalize("NFKC", value).lower()
+    value = re.sub(r"[^\w]+|_+", separator, value)
+    value = value.strip(separator)
+    return value or "section"
+
+
+@dataclass(frozen=True, slots=True)
+class Heading:
+    """A heading found in a rendered page (for an on-page table of contents)."""
+
+    level: int
+    id: str
+    text: str
+
+
+@dataclass(frozen=True, slots=True)
+class RenderedMarkdown:
+    """HTML of one Markdown document and its headings in order."""
+
+    html: str
+    headings: tuple[Heading, ...]
+
+
+class _TableWrapper(Treeprocessor):
+    """Wrap every table in a focusable, labelled region that scrolls sideways.
+
+    A wide table then scrolls inside its own box instead of widening the page,
+    and keyboard users can scroll it (WCAG 2.1.1 Keyboard).
+    """
+
+    def run(self, root: etree.Element) -> None:
+        count = 0
+        for parent in list(root.iter()):
+            for index, child in enumerate(list(parent)):
+                if child.tag != "table":
+                    continue
+                if parent.tag == "div" and "table-scroll" in parent.get("class", ""):
+                    continue
+                count += 1
+                wrapper = etree.Element("div", {
+                    "class": "table-scroll", "tabindex": "0", "role": "region",
+                    "aria-label": f"Table {count} (scrolls sideways when wide)"})
+                wrapper.tail = child.tail
+                child.tail = None
+                parent.remove(child)
+                wrapper.append(child)
+                parent.insert(index, wrapper)
+
+
+class _SiteExtension(Extension):
+    def extendMarkdown(self, md: _md.Markdown) -> None:  # noqa: N802 (API name)
+        # Run after inline processing (priority 20) and before prettify (10).
+        md.treeprocessors.register(_TableWrapper(md), "relspan_tables", 15)
+
+
+def _new_markdown() -> _md.Markdown:
+    return _md.Markdown(
+        extensions=["tables", "attr_list", "footnotes", "toc", "md_in_html", "fenced_code",
+                    _SiteExtension()],
+        extension_configs={"toc": {"slugify": slugify, "permalink": False},
+                           "footnotes": {"BACKLINK_TITLE": "Back to reference %d"}},
+        output_format="html",
+    )
+
+
+def _flatten(tokens: list[dict]) -> list[Heading]:
+    out: list[Heading] = []
+    for tok in tokens:
+        out.append(Heading(level=int(tok["level"]), id=str(tok["id"]), text=_html.unescape(str(tok["name"]))))
+        out.extend(_flatten(tok.get("children", [])))
+    return out
+
+
+def render_markdown(text: str) -> RenderedMarkdown:
+    """Render one Markdown document with the site's extensions.
+
+    Enabled: tables (each wrapped in a scrolling region), attr_list,
+    footnotes, toc (ids from :func:`slugify`), md_in_html, fenced_code.
+    A fresh ``Markdown`` instance is used per call.
+
+    Parameters
+    ----------
+    text : str
+        Markdown source; user text inside it must already be escaped.
+
+    Returns
+    -------
+    RenderedMarkdown
+    """
+    md = _new_markdown()
+    html = md.convert(text)
+    headings = tuple(_flatten(getattr(md, "toc_tokens", [])))
+    return RenderedMarkdown(html=html, headings=headings)

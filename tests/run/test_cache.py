@@ -1,0 +1,213 @@
+"""builder.run.cache: content keys and the on-disk result cache."""
+
+from __future__ import annotations
+
+import os
+import pickle
+import subprocess
+import sys
+import textwrap
+from dataclasses import dataclass
+from pathlib import Path, PurePosixPath
+
+import numpy as np
+import pytest
+
+from builder.errors import OutputError, RelspanWarning
+from builder.run import cache as cache_module
+from builder.run.cache import ResultCache, canonical_json, task_key
+
+KEY = task_key(task="demo", n=1)
+
+
+@dataclass(frozen=True, slots=True)
+class Result:
+    corank: int
+    angles: np.ndarray
+
+
+class TestTaskKey:
+    def test_is_64_hex_digits(self):
+        assert len(KEY) == 64 and set(KEY) <= set("0123456789abcdef")
+
+    def test_does_not_depend_on_argument_or_dict_order(self):
+        a = task_key(spec={"width": 40, "step": 8}, task="t")
+        b = task_key(task="t", spec={"step": 8, "width": 40})
+        assert a == b
+
+    def test_tuples_and_lists_with_equal_items_agree(self):
+        assert task_key(cols=("a", "b")) == task_key(cols=["a", "b"])
+
+    def test_numpy_scalars_agree_with_python_numbers(self):
+        assert task_key(x=np.float64(0.1), k=np.int64(3)) == task_key(x=0.1, k=3)
+
+    def test_minus_zero_and_zero_agree(self):
+        assert task_key(x=-0.0) == task_key(x=0.0)
+
+    def test_paths_are_normalised_to_posix_text(self):
+        assert task_key(p=Path("data/./x.csv")) == task_key(p=PurePosixPath("data/x.csv"))
+
+    def test_integer_and_float_are_kept_apart(self):
+        assert task_key(width=1) != task_key(width=1.0)
+
+    def test_a_path_is_not_the_same_as_its_text(self):
+        assert task_key(p=Path("x.csv")) != task_key(p="x.csv")
+
+    def test_any_changed_part_changes_the_key(self):
+        base = dict(spec={"width": 40}, data_sha256="ab" * 32, version="0.1.0", task="frisch")
+        k = task_key(**base)
+        for name, value in [("spec", {"width": 41}), ("data_sha256", "cd" * 32),
+                            ("version", "0.1.1"), ("task", "equal")]:
+            assert task_key(**{**base, name: value}) != k
+
+    def test_floats_use_shortest_round_trip_text(self):
+        assert '"0.1"' in canonical_json(x=0.1)
+        assert task_key(x=0.1 + 0.2) != task_key(x=0.3)  # 0.30000000000000004 is another float
+
+    def test_non_finite_floats_are_allowed(self):
+        assert task_key(x=float("nan")) == task_key(x=float("nan"))
+        assert task_key(x=float("inf")) != task_key(x=float("-inf"))
+
+    def test_arrays_key_on_dtype_shape_and_bytes(self):
+        a = np.arange(6.0).reshape(2, 3)
+        assert task_key(a=a) == task_key(a=a.copy(order="F"))
+        assert task_key(a=a) != task_key(a=a.reshape(3, 2))
+        assert task_key(a=a) != task_key(a=a.astype(np.float32))
+
+    def test_dataclasses_key_on_type_and_fields(self):
+        assert task_key(r=Result(1, np.zeros(2))) == task_key(r=Result(1, np.zeros(2)))
+        assert task_key(r=Result(1, np.zeros(2))) != task_key(r={"corank": 1, "angles": np.zeros(2)})
+
+    def test_unsupported_values_are_refused_by_type_name(self):
+        with pytest.raises(TypeError, match="type object"):
+            task_key(x=object())
+
+    def test_is_the_same_in_other_processes_and_hash_seeds(self):
+        code = textwrap.dedent("""
+            from builder.run.cache import task_key
+            print(task_key(cols={"b", "a", "c", "d"}, spec={"z": 1.5, "a": [1, 2]}))
+        """)
+        keys = set()
+        for seed in ("1", "2", "12345"):
+            env = {**os.environ, "PYTHONHASHSEED": seed}
+            out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True,
+                                 text=True, check=True)
+            keys.add(out.stdout.strip())
+        keys.add(task_key(cols={"b", "a", "c", "d"}, spec={"z": 1.5, "a": [1, 2]}))
+        assert len(keys) == 1
+
+
+class TestResultCache:
+    def test_round_trips_a_result(self, tmp_path):
+        c = ResultCache(tmp_path / "cache")
+        value = Result(2, np.array([0.5, 1.25]))
+        assert c.put(KEY, value)
+        got = c.get(KEY)
+        assert got.corank == 2 and np.array_equal(got.angles, value.angles)
+
+    def test_entry_is_a_protocol_5_pickle(self, tmp_path):
+        c = ResultCache(tmp_path)
+        c.put(KEY, [1, 2])
+        blob = c.path_for(KEY).read_bytes()
+        assert b"\x80\x05" in blob[:120]  # pickle protocol 5 opcode PROTO 5 starts the payload
+
+    def test_counts_hits_and_misses(self, tmp_path):
+        c = ResultCache(tmp_path)
+        assert c.get(KEY) is None
+        c.put(KEY, 1)
+        c.get(KEY)
+        c.get(KEY)
+        assert (c.hits, c.misses, c.stats.writes) == (2, 1, 1)
+
+    def test_miss_returns_the_given_default(self, tmp_path):
+        sentinel = object()
+        assert ResultCache(tmp_path).get(KEY, sentinel) is sentinel
+
+    def test_none_is_a_storable_value(self, tmp_path):
+        c = ResultCache(tmp_path)
+        c.put(KEY, None)
+        assert c.get(KEY, "miss") is None
+
+    def test_creates_the_folder_with_a_readme_saying_it_is_safe_to_delete(self, tmp_path):
+        folder = tmp_path / "a" / "b"
+        ResultCache(folder)
+        assert "safe to delete" in (folder / "README.txt").read_text()
+
+    def test_disabled_cache_misses_and_writes_nothing(self, tmp_path):
+        c = ResultCache(None)
+        assert not c.enabled
+        assert c.put(KEY, 1) is False
+        assert c.get(KEY, "miss") == "miss"
+        assert c.misses == 1 and c.hits == 0
+
+    def test_is_shared_by_two_instances_on_one_folder(self, tmp_path):
+        ResultCache(tmp_path).put(KEY, {"x": 1.5})
+        assert ResultCache(tmp_path).get(KEY) == {"x": 1.5}
+
+    @pytest.mark.parametrize("damage", ["truncate", "flip", "garbage", "empty", "other_key"])
+    def test_damaged_entries_are_misses(self, tmp_path, damage):
+        c = ResultCache(tmp_path)
+        c.put(KEY, list(range(100)))
+        path = c.path_for(KEY)
+        blob = bytearray(path.read_bytes())
+        if damage == "truncate":
+            blob = blob[:-10]
+        elif damage == "flip":
+            blob[-5] ^= 0xFF
+        elif damage == "garbage":
+            blob = bytearray(b"not a cache entry at all")
+        elif damage == "empty":
+            blob = bytearray()
+        else:
+            other = task_key(task="other")
+            c.put(other, "other")
+            blob = bytearray(c.path_for(other).read_bytes())
+        path.write_bytes(bytes(blob))
+        assert c.get(KEY, "miss") == "miss"
+        assert c.stats.corrupt == 1
+
+    def test_entry_whose_class_is_gone_is_a_miss(self, tmp_path):
+        c = ResultCache(tmp_path)
+        payload = pickle.dumps(Result(1, np.zeros(1)), protocol=5).replace(b"Result", b"Rezult")
+        c.put(KEY, 0)
+        path = c.path_for(KEY)
+        import hashlib
+        path.write_bytes(cache_module._MAGIC + KEY.encode() + hashlib.sha256(payload).digest() + payload)
+        assert c.get(KEY, "miss") == "miss"
+
+    def test_failed_write_keeps_the_old_entry_and_leaves_no_temp_file(self, tmp_path, monkeypatch):
+        c = ResultCache(tmp_path)
+        c.put(KEY, "old")
+
+        def refuse(src, dst):
+            raise OSError(28, "No space left on device")
+
+        monkeypatch.setattr(cache_module.os, "replace", refuse)
+        with pytest.warns(RelspanWarning, match="No space left on device"):
+            assert c.put(KEY, "new") is False
+        monkeypatch.undo()
+        assert c.get(KEY) == "old"
+        assert c.stats.write_errors == 1
+        assert not list(tmp_path.rglob("*.part"))
+
+    def test_unpicklable_value_is_a_programming_error(self, tmp_path):
+        with pytest.raises(Exception):
+            ResultCache(tmp_path).put(KEY, lambda: 0)
+        assert not list(tmp_path.rglob("*.part"))
+
+    def test_a_file_where_the_folder_should_be_is_an_output_error(self, tmp_path):
+        f = tmp_path / "cache"
+        f.write_text("x")
+        with pytest.raises(OutputError, match="not a folder") as info:
+            ResultCache(f)
+        assert "--no-cache" in info.value.fix
+
+    def test_uncreatable_folder_is_an_output_error(self, tmp_path):
+        parent = tmp_path / "file"
+        parent.write_text("x")
+        with pytest.raises(OutputError, match="cannot create the cache folder"):
+            ResultCache(parent / "cache")
+
+    def test_rejects_keys_not_made_by_task_key(self, tmp_path):
+        with pytest.raises(ValueError, match="64 lower-case hex"):
+            ResultCache(tmp_path).get("../../etc/passwd")
