@@ -23,7 +23,7 @@ column ``quarter`` in the form ``1990Q1``) and the true structure behind them:
     four are published with independent errors. One relation holds, and the
     diagonal-noise (Frisch) bounds on its coefficients are finite: every
     elementary regression lies in one orthant.
-``shift``
+``shift.csv``
     Ferry fares follow fuel costs and crew wages through a fare formula that
     the (invented) Vessmoor Ferry Board changed on 2008-01-01: before, fares
     tracked fuel; after, mostly wages. One relation holds within each period,

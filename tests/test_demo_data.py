@@ -351,8 +351,9 @@ def spec() -> dict:
 
 
 class TestDemoSpec:
-    def test_metadata_is_complete_and_says_the_authors_are_fictional(self, spec):
+    def test_metadata_is_complete_and_says_the_authors_are_fictional(self, spec, truth):
         report = spec["report"]
+        assert f"seed {truth['seed']}" in " ".join(report["cite"].split())
         assert spec["relspan"] == 1
         assert report["title"] and report["summary"] and report["cite"]
         assert report["licence"] == "CC-BY-4.0"
@@ -430,7 +431,11 @@ class TestSpecLoader:
                                               "accounts-weight-bounded", "accounts-weight-sign",
                                               "fares-one-relation-per-era"]
         assert spec.dataset("accounts").noise_shape == (0.4093, 0.81, 0.49, 1.44)
-        assert spec.site.out_path is None or Path(spec.site.out_path) == ROOT / "site_demo"
+        assert Path(spec.site.out_path) == ROOT / "site_demo"
+        assert "shaped" in spec.dataset("accounts").checks.assumptions
+        assert "shaped" not in spec.dataset("trio").checks.assumptions
+        assert spec.dataset("trio").checks.normalise_on == "cargo"
+        assert spec.plan("eras").periods[1].start == "2008-01-01"
 
     def test_failing_fixture_loads_with_data_outside_its_folder(self, load_spec):
         spec = load_spec(FIXTURE)

@@ -169,7 +169,7 @@ def _subspace_findings(result) -> list[Finding]:
         fr = full.diagonal
         if fr is not None and q >= 2:
             ok = q * (q + 1) >= 2 * n
-            spread = fr.spread_for(q) if hasattr(fr, "spread_for") else None
+            spread = (fr.spread.max_angle_deg if fr.spread is not None and fr.spread.q == q else None)
             if not ok:
                 extra = (f" Distinct exact solutions differ by up to {spread:.2g} degrees."
                          if spread is not None and np.isfinite(spread) else "")
@@ -180,7 +180,7 @@ def _subspace_findings(result) -> list[Finding]:
                                    f"{q * (q + 1)} < {2 * n}.", {"corank": q, "spread_deg": spread},
                                    "assumptions"))
         if ident is not None and q >= 2:
-            targets = [result.labels[t] for t in ident.targets]
+            targets = [result.labels[result.names.index(t)] for t in ident.targets]
             out.append(Finding("not_identified", "coefficient",
                                f"No single coefficient of one relation is pinned down: with {q} relations, "
                                "any mix of them is also a relation.",
@@ -191,8 +191,8 @@ def _subspace_findings(result) -> list[Finding]:
                                f"A reduced form is pinned down: {', '.join(targets)} expressed through the "
                                "other variables.",
                                f"Reduced form from the equal-noise subspace; condition number of the choice "
-                               f"{ident.condition:.3g}.", {"corank": q, "targets": targets,
-                                                           "condition": ident.condition}, "identified"))
+                               f"{ident.reduced_condition:.3g}.", {"corank": q, "targets": targets,
+                                                           "condition": ident.reduced_condition}, "identified"))
     return out
 
 

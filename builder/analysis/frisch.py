@@ -785,13 +785,17 @@ class MinimumTrace:
 
 
 def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: float = 20.0,
-                   max_newton: int = 400) -> tuple[np.ndarray, np.ndarray, int]:
+                   max_newton: int = 400, d0: np.ndarray | None = None,
+                   t0: np.ndarray | None = None, warm_gap: float = 1e-2):
     """Log-barrier Newton method for ``max w_b'd s.t. R - diag(d) PD, d > 0``, many ``w_b`` at once.
 
     ``r`` (n, n) must be positive definite; ``w`` is (B, n). All B problems
-    run in lockstep on stacked arrays. Returns ``(d, upper_bound, steps)``:
-    the solutions (B, n), rigorous dual upper bounds (B,) and the number of
-    (batched) Newton steps.
+    run in lockstep on stacked arrays. ``d0`` and ``t0`` (strictly feasible
+    points and barrier parameters, e.g. a previous call's ``warm``) start
+    the path part-way. Returns ``(d, upper_bound, steps, warm)``: the
+    solutions (B, n), rigorous dual upper bounds (B,), the number of
+    (batched) Newton steps, and ``warm = (d, t)``, the centred points where
+    the relative gap first fell below ``warm_gap`` (for warm starts).
     """
     w = np.atleast_2d(np.asarray(w, dtype=float))
     nb, n = w.shape
@@ -800,12 +804,18 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
     wscale = np.where(wscale > 0, wscale, 1.0)
     wn = w / wscale[:, None]
     bound = 1.0 / np.diag(np.linalg.inv(r))
-    # sum_j d_j / bound_j <= 1 makes diag(d) a convex combination of matrices <= R.
-    d = np.tile(bound / (2.0 * n), (nb, 1))
-    t = np.ones(nb)
+    if d0 is None:
+        # sum_j d_j / bound_j <= 1 makes diag(d) a convex combination of matrices <= R.
+        d = np.tile(bound / (2.0 * n), (nb, 1))
+        t = np.ones(nb)
+    else:
+        d = np.array(d0, dtype=float)
+        t = np.array(t0, dtype=float)
     wd_scale = np.maximum(1.0, np.abs(wn) @ bound)
     eye = np.eye(n)
     active = np.ones(nb, dtype=bool)
+    warm_d, warm_t = d.copy(), t.copy()
+    warm_set = np.zeros(nb, dtype=bool)
     steps = 0
     while active.any() and steps < max_newton:
         idx = np.flatnonzero(active)
@@ -816,9 +826,20 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
             li = np.linalg.inv(lc)
             wm = np.swapaxes(li, 1, 2) @ li
             g = -tt[:, None] * ww + np.diagonal(wm, axis1=1, axis2=2) - 1.0 / dd
-            h = wm * wm + (1.0 / dd ** 2)[:, :, None] * eye
-            dx = -np.linalg.solve(h, g[:, :, None])[:, :, 0]
+            # Newton system scaled by diag(d): (d W d) o (d W d) + I is well conditioned
+            # even when some d_j -> 0.
+            h = dd[:, :, None] * (wm * wm) * dd[:, None, :] + eye
+            try:
+                y = np.linalg.solve(h, (dd * g)[:, :, None])[:, :, 0]
+            except np.linalg.LinAlgError:
+                y = np.zeros_like(dd)
+                for b in range(dd.shape[0]):
+                    y[b] = np.linalg.lstsq(h[b], dd[b] * g[b], rcond=None)[0]
+            dx = -dd * y
             lam2 = -np.sum(g * dx, axis=1)
+            bad = ~np.all(np.isfinite(dx), axis=1) | ~np.isfinite(lam2)
+            dx[bad] = 0.0
+            lam2[bad] = 0.0
             steps += 1
             done = lam2 <= 1e-8
             if done.all():
@@ -826,7 +847,8 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
             # Inside the Dikin ellipsoid (lam2 < 1/4) the full Newton step is
             # feasible and converges quadratically (self-concordance).
             step = np.where(done, 0.0, 1.0)
-            damp = np.flatnonzero((lam2 >= 0.25) & ~done)
+            full_ok = np.all(dd + dx > 0, axis=1)
+            damp = np.flatnonzero(((lam2 >= 0.25) | ~full_ok) & ~done)
             if damp.size:
                 lid, dxd, ddd = li[damp], dx[damp], dd[damp]
                 gm = (lid * dxd[:, None, :]) @ np.swapaxes(lid, 1, 2)
@@ -859,7 +881,11 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
                 step[damp] = s
             dd = dd + step[:, None] * dx
         d[idx] = dd
-        fin = 2.0 * n / tt <= gap_tol * wd_scale[idx]
+        rel_gap = 2.0 * n / tt / wd_scale[idx]
+        snap = (rel_gap <= warm_gap) & ~warm_set[idx]
+        warm_d[idx[snap]], warm_t[idx[snap]] = dd[snap], tt[snap]
+        warm_set[idx[snap]] = True
+        fin = rel_gap <= gap_tol
         active[idx[fin]] = False
         t[idx[~fin]] *= mu
     # Dual bound: Y = W/t lifted so that diag(Y) >= w; tr(R Y) >= max w'd.
@@ -867,13 +893,15 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
     dy = np.diagonal(y, axis1=1, axis2=2)
     y = y + np.maximum(wn - dy, 0.0)[:, :, None] * eye
     upper = np.sum(r[None] * y, axis=(1, 2)) * wscale
-    return d, upper, steps
+    warm_d[~warm_set], warm_t[~warm_set] = d[~warm_set], t[~warm_set]
+    return d, upper, steps, (warm_d, warm_t)
 
 
 def _barrier_trace(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10,
                    mu: float = 20.0) -> tuple[np.ndarray, float, int]:
     """One weighted trace problem (see :func:`_barrier_batch`)."""
-    d, upper, steps = _barrier_batch(r, np.asarray(w, dtype=float)[None, :], gap_tol=gap_tol, mu=mu)
+    d, upper, steps, _ = _barrier_batch(r, np.asarray(w, dtype=float)[None, :], gap_tol=gap_tol,
+                                        mu=mu)
     return d[0], float(upper[0]), steps
 
 
@@ -1089,10 +1117,11 @@ class _Searcher:
         self.gap = min(1e-9, 1e-3 * eps)
         self.bound = 1.0 / np.diag(np.linalg.inv(self.rb))
 
-    def solve(self, w: np.ndarray) -> np.ndarray:
-        """Weighted trace problems, one per row of ``w``."""
-        d, _, _ = _barrier_batch(self.rb, w, gap_tol=self.gap)
-        return d
+    def solve(self, w: np.ndarray, warm: tuple[np.ndarray, np.ndarray] | None = None):
+        """Weighted trace problems, one per row of ``w``; returns ``(d, warm)``."""
+        d0, t0 = (None, None) if warm is None else warm
+        d, _, _, new_warm = _barrier_batch(self.rb, w, gap_tol=self.gap, d0=d0, t0=t0)
+        return d, new_warm
 
     def random_starts(self, rng: np.random.Generator, k: int) -> np.ndarray:
         """``k`` random feasible noise vectors (rows): ``sum_j d_j / bound_j < 1``."""
@@ -1119,6 +1148,9 @@ class _Searcher:
         active = np.ones(nb, dtype=bool)
         eye = np.eye(n)
         solves = 0
+        warm_d = np.zeros_like(d)
+        warm_t = np.zeros(nb)
+        has_warm = False
         for it in range(1, max_iter + 1):
             idx = np.flatnonzero(active)
             lam, vec = np.linalg.eigh(self.r[None] - d[idx][:, :, None] * eye)
@@ -1144,7 +1176,10 @@ class _Searcher:
             w = np.sum(vec[keep][:, :, :q] ** 2, axis=2)
             if push:
                 w = w + push * directions[idx[keep]]
-            d[idx[keep]] = self.solve(w)
+            rows = idx[keep]
+            d_new, (wd, wt) = self.solve(w, (warm_d[rows], warm_t[rows]) if has_warm else None)
+            d[rows], warm_d[rows], warm_t[rows] = d_new, wd, wt
+            has_warm = True
             solves += int(keep.sum())
         return d, solves
 
@@ -1518,7 +1553,7 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     r, sd = _correlation(s)
     search = _Searcher(r, eps)
     rng = np.random.default_rng(seed)
-    d_mt = search.solve(np.ones((1, n)))[0]
+    d_mt = search.solve(np.ones((1, n)))[0][0]
     members: list[np.ndarray] = []
     bases: list[np.ndarray] = []
 

@@ -421,8 +421,7 @@ def corank_sequence(coranks: Mapping[str, Sequence[int | None]], *, labels: Sequ
     if not coranks:
         raise OptionsError("corank_sequence needs at least one assumption.", key="coranks",
                            fix="Pass {assumption: [corank per window]}.")
-    first = next(iter(coranks.values()))
-    labels_t = check_names_len(labels, len(list(first)), key="labels")
+    labels_t = check_names_len(labels, len(list(labels)), key="labels")
     out, const, vals, chg = {}, {}, {}, {}
     for a, seq in coranks.items():
         seq_t = tuple(None if c is None else int(c) for c in seq)

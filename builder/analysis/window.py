@@ -173,11 +173,9 @@ class WindowAnalysis:
         """Diagonal-noise (q = 1) interval of one normalised coefficient, data units."""
         if self.diagonal is None:
             return None
-        lo, hi = self.diagonal.interval_for(normalise_on)
         std = np.sqrt(np.diag(self.cov)) if self.scale == "correlation" else np.ones(self.n)
-        factor = std[normalise_on] / std[variable]
-        a, b = sorted((float(lo[variable] * factor), float(hi[variable] * factor)))
-        return a, b
+        lo, hi = _frisch_bounds(self.diagonal, normalise_on, std)
+        return float(lo[variable]), float(hi[variable])
 
     def to_dict(self) -> dict:
         """JSON-ready summary (the full method results have their own ``to_dict``)."""
@@ -321,19 +319,15 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
         from builder.analysis.frisch import frisch_analysis
 
         fr = frisch_analysis(mat, names=names, eps=eps, starts=options.frisch_starts,
-                             seed=options.seed, ref=ref)
-        coranks["diagonal"] = fr.max_certified_corank if not fr.undetermined_above else None
+                             seed=options.seed, ref=None)
+        coranks["diagonal"] = _frisch_corank(fr)
         fb = {}
         for q in keep:
-            rep = fr.basis_for(q)
-            if rep is not None:
-                fb[q] = _common(to_data_units(rep), common_std)
+            cert = fr.corank.certificate(q)
+            if cert.status == "certified" and cert.relations is not None:
+                fb[q] = _common(to_data_units(cert.relations), common_std)
         bases["diagonal"] = fb
-        lo, hi = fr.interval_for(ref)
-        # intervals on the analysed scale -> data units: b_k(data) = b_k(analysed) * std_ref / std_k
-        factor = tstd[ref] / tstd
-        lower = np.where(factor > 0, lo * factor, np.nan)
-        upper = np.where(factor > 0, hi * factor, np.nan)
+        lower, upper = _frisch_bounds(fr, ref, tstd)
 
     return WindowAnalysis(
         label=label, count=int(moments.count), names=names, cov=cov, common_std=common_std,
@@ -342,6 +336,33 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
         bounded=bd, diagonal=fr, coranks=coranks, bases=bases, coefficients=coefficients,
         frisch_lower=lower, frisch_upper=upper, notes=tuple(dict.fromkeys(notes)),
     )
+
+
+def _frisch_corank(fr) -> int | None:
+    """Largest certified corank, or None when a larger one is neither certified nor ruled out."""
+    top = fr.corank.max_certified
+    for cert in fr.corank.certificates:
+        if cert.q > top and cert.status == "undetermined":
+            return None
+    return int(top)
+
+
+def _frisch_bounds(fr, ref: int, std: np.ndarray):
+    """Frisch q = 1 intervals of the normalised coefficients b_k = -a_k (equation for ``ref``), data units."""
+    n = len(fr.names)
+    lower = np.full(n, np.nan)
+    upper = np.full(n, np.nan)
+    on = fr.names[ref]
+    for iv in fr.q1.intervals:
+        if iv.normalised_on != on:
+            continue
+        k = fr.names.index(iv.variable)
+        factor = std[ref] / std[k]
+        # relation form a (a_ref = 1) -> equation form b = -a, then to data units
+        lower[k] = -iv.high * factor
+        upper[k] = -iv.low * factor
+    lower[ref] = upper[ref] = 0.0
+    return lower, upper
 
 
 def reference_index(cov: np.ndarray, names: Sequence[str], normalise_on: str) -> int:

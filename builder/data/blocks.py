@@ -55,6 +55,10 @@ class BlockTable:
         The same rows as 1-based data rows of the file.
     first_time, last_time : (k,) datetime64[s] or None
         Times of those rows (None without a time column).
+    origin : (n,) float
+        The block means are relative to this point (the first analysed row):
+        merging means near 1e8 in absolute form would lose about eight
+        digits of the deviations between blocks, relative means keep them.
     """
 
     counts: np.ndarray
@@ -66,6 +70,7 @@ class BlockTable:
     last_source_row: np.ndarray
     first_time: np.ndarray | None
     last_time: np.ndarray | None
+    origin: np.ndarray
 
     def __len__(self) -> int:
         return int(self.counts.shape[0])
@@ -75,9 +80,10 @@ class BlockTable:
         """Analysed rows in all blocks."""
         return int(self.counts.sum())
 
-    def moments(self, i: int) -> Moments:
-        """Block ``i`` as a :class:`Moments`."""
-        return Moments(int(self.counts[i]), self.means[i].copy(), self.comoments[i].copy())
+    def moments(self, i: int, *, relative: bool = False) -> Moments:
+        """Block ``i`` as a :class:`Moments` (mean relative to ``origin`` if ``relative``)."""
+        mean = self.means[i].copy() if relative else self.means[i] + self.origin
+        return Moments(int(self.counts[i]), mean, self.comoments[i].copy())
 
 
 class _Grow:
@@ -152,8 +158,8 @@ class BlockBuilder:
         self._carry = (y[last:].copy(), pos[last:].copy(), source_rows[last:].copy(),
                        None if times is None else times[last:].copy())
 
-    def finish(self) -> BlockTable:
-        """Close the last block and return all blocks."""
+    def finish(self, origin: np.ndarray) -> BlockTable:
+        """Close the last block and return all blocks (rows were pushed minus ``origin``)."""
         if self._carry is not None:
             cy, cp, cs, ct = self._carry
             self._carry = None
@@ -165,7 +171,8 @@ class BlockBuilder:
             first_pos=meta[:, 0], last_pos=meta[:, 1], first_source_row=meta[:, 2],
             last_source_row=meta[:, 3],
             first_time=t[:, 0].astype("datetime64[s]") if self._timed else None,
-            last_time=t[:, 1].astype("datetime64[s]") if self._timed else None)
+            last_time=t[:, 1].astype("datetime64[s]") if self._timed else None,
+            origin=np.asarray(origin, dtype=float).copy())
 
     def _emit(self, y: np.ndarray, starts: np.ndarray, pos: np.ndarray, src: np.ndarray,
               times: np.ndarray | None) -> None:
@@ -235,7 +242,8 @@ def _levels(blocks: BlockTable) -> list[tuple[np.ndarray, np.ndarray, np.ndarray
     return levels
 
 
-def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray) -> list[Moments]:
+def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
+             relative: bool = False) -> list[Moments]:
     """Moments of many windows, each the run of blocks ``lo[i] .. hi[i]-1``.
 
     A segment tree over the blocks is built once (pairwise merges, level by
@@ -248,6 +256,8 @@ def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray) -> list[Moments
     blocks : BlockTable
     lo, hi : (w,) int arrays
         Half-open block ranges, ``0 <= lo < hi <= len(blocks)``.
+    relative : bool
+        Return means relative to ``blocks.origin`` (as merged) instead of absolute.
     """
     lo = np.asarray(lo, dtype=np.int64)
     hi = np.asarray(hi, dtype=np.int64)
@@ -282,5 +292,7 @@ def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray) -> list[Moments
             L //= 2
             H //= 2
         tc, tm, tcm = _merge_arrays(lc, lm, lcm, rc, rm, rcm)
+        if not relative:
+            tm = tm + blocks.origin
         out.extend(Moments(int(tc[j]), tm[j].copy(), tcm[j].copy()) for j in range(w))
     return out

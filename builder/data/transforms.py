@@ -225,11 +225,18 @@ def affine_for(transforms: Sequence[str], full: Moments) -> tuple[np.ndarray, np
     return shift, scale
 
 
-def affine_moments(m: Moments, shift: np.ndarray, scale: np.ndarray) -> Moments:
-    """Moments of ``(y - shift) / scale`` from the moments of ``y`` (exact, no rows needed)."""
-    if not np.any(shift) and np.all(scale == 1.0):
-        return m
+def affine_moments(m: Moments, shift: np.ndarray, scale: np.ndarray,
+                   offset: np.ndarray | None = None) -> Moments:
+    """Moments of ``(y - shift) / scale + offset`` from the moments of ``y`` (no rows needed).
+
+    The co-moment only scales (``C_ij / (scale_i scale_j)``); shift and offset
+    move the mean alone.
+    """
     mean = (m.mean - shift) / scale
+    if offset is not None:
+        mean = mean + offset
+    if np.all(scale == 1.0):
+        return Moments(m.count, mean, m.comoment)
     c = m.comoment / np.outer(scale, scale)
     return Moments(m.count, mean, 0.5 * (c + c.T))
 

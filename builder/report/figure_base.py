@@ -413,6 +413,11 @@ def num(x: float, sig: int = 3) -> str:
     return text
 
 
+def num_fig(x: float, sig: int = 3) -> str:
+    """:func:`num` with a typographic minus, for text drawn inside figures."""
+    return num(x, sig).replace("-", "\u2212")
+
+
 def angle_text(deg: float) -> str:
     """An angle in degrees as printed: one decimal, or two significant digits below 0.1."""
     deg = float(deg)
@@ -477,10 +482,13 @@ def spread_1d(values: Sequence[float], min_gap: float, lo: float, hi: float) -> 
 
 def place_point_labels(fig: Figure, ax, xy: np.ndarray, texts: Sequence[str], *,
                        colors: Sequence[str] | None = None, fontsize: float = 9.5,
-                       avoid: np.ndarray | None = None, gap_pt: float = 5.0) -> list:
+                       avoid: np.ndarray | None = None, gap_pt: float = 5.0,
+                       boxes: Sequence | None = None) -> list:
     """Label points directly, choosing for each label the offset (right, left,
     above, below or a diagonal) that overlaps least with earlier labels, with
-    the points in ``xy`` and ``avoid``, and with the axes edge.
+    the points in ``xy`` and ``avoid``, with the display-space ``boxes``
+    (``(x0, y0, x1, y1)``, e.g. other labels) and with the axes edge; offsets
+    of 5 and then 14 points are tried.
 
     The figure layout must be final (call ``fig.draw_without_rendering()``
     first); labels are excluded from the layout so they do not move it.
@@ -493,11 +501,13 @@ def place_point_labels(fig: Figure, ax, xy: np.ndarray, texts: Sequence[str], *,
     box = ax.get_window_extent(renderer)
     px_per_pt = fig.dpi / 72.0
     pad = 4.0 * px_per_pt
+    fixed: list[tuple[float, float, float, float]] = [tuple(b) for b in (boxes or [])]
     placed: list[tuple[float, float, float, float]] = []
     artists = []
-    cands = [(1, 0, "left", "center"), (-1, 0, "right", "center"), (0, 1, "center", "bottom"),
-             (0, -1, "center", "top"), (1, 1, "left", "bottom"), (-1, 1, "right", "bottom"),
-             (1, -1, "left", "top"), (-1, -1, "right", "top")]
+    base = [(1, 0, "left", "center"), (-1, 0, "right", "center"), (0, 1, "center", "bottom"),
+            (0, -1, "center", "top"), (1, 1, "left", "bottom"), (-1, 1, "right", "bottom"),
+            (1, -1, "left", "top"), (-1, -1, "right", "top")]
+    cands = [(dx * f, dy * f, ha, va) for f in (1.0, 2.8) for dx, dy, ha, va in base]
     for i, (p, text) in enumerate(zip(pts, texts)):
         best = None
         for dx, dy, ha, va in cands:
@@ -509,7 +519,7 @@ def place_point_labels(fig: Figure, ax, xy: np.ndarray, texts: Sequence[str], *,
             t.remove()
             x0, y0, x1, y1 = bb.x0, bb.y0, bb.x1, bb.y1
             cost = 0.0
-            for q in placed:
+            for q in placed + fixed:
                 ox = max(0.0, min(x1, q[2]) - max(x0, q[0]))
                 oy = max(0.0, min(y1, q[3]) - max(y0, q[1]))
                 cost += ox * oy * 4
@@ -522,14 +532,18 @@ def place_point_labels(fig: Figure, ax, xy: np.ndarray, texts: Sequence[str], *,
             out_x = max(0.0, box.x0 - x0) + max(0.0, x1 - box.x1)
             out_y = max(0.0, box.y0 - y0) + max(0.0, y1 - box.y1)
             cost += (out_x * (y1 - y0) + out_y * (x1 - x0)) * 6
+            cost += 1e-3 * (abs(dx) + abs(dy))  # prefer the near ring when costs tie
             if best is None or cost < best[0] - 1e-9:
                 best = (cost, dx, dy, ha, va, (x0, y0, x1, y1))
         _, dx, dy, ha, va, bbox = best
         placed.append(bbox)
+        far = max(abs(dx), abs(dy)) > 1.5
         t = ax.annotate(text, xy=tuple(ax.transData.inverted().transform(p)),
                         xytext=(dx * gap_pt, dy * gap_pt), textcoords="offset points",
                         ha=ha, va=va, fontsize=fontsize,
-                        color=INK if colors is None else colors[i], annotation_clip=False)
+                        color=INK if colors is None else colors[i], annotation_clip=False,
+                        arrowprops=dict(arrowstyle="-", color=MUTED, lw=0.6, shrinkA=1, shrinkB=4)
+                        if far else None)
         t.set_in_layout(False)
         artists.append(t)
     return artists

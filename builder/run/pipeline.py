@@ -249,7 +249,7 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     from builder.data.prepare import window_moments
     from builder.run.executors import SerialExecutor, map_in_chunks
 
-    names = tuple(prepared.names)
+    names = tuple(prepared.variables)
     full_m: Moments = prepared.full
     common_std = full_m.std()
     ref = reference_index(full_m.covariance(), names, ds.checks.normalise_on)
@@ -349,7 +349,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
             prepared = prepare_dataset(ds, plans)
             if executor is None:
                 executor = stack.enter_context(open_executor(jobs, scheduler))
-            total = 1 + sum(len(prepared.windows_of(p.id)) for p in plans)
+            total = 1 + sum(len(prepared.plan(p.id).windows) for p in plans)
             sink: list[str] = []
             with Progress(f"analysis of {ds.id}", total, enabled=None if progress else False) as bar:
                 result = analyse_prepared(ds, prepared, plans, executor=executor, progress=bar,

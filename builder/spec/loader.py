@@ -217,8 +217,9 @@ def _parse_yaml(text: str, ctx: _Context) -> LineDict:
         where, key, first, second = dup
         full = join_key(where, key)
         raise ctx.error(
-            f"key {_show_key(key)} is written twice in the same mapping{_in(where)} (lines "
-            f"{first} and {second}); YAML would silently keep only the last one.",
+            (f"{full} is written twice in the same mapping" if where and isinstance(key, str)
+             else f"key {_show_key(key)} is written twice in the same mapping{_in(where)}")
+            + f" (lines {first} and {second}); YAML would silently keep only the last one.",
             line=second, key=full,
             fix="keep one of the two and delete or rename the other.")
     if not isinstance(raw, LineDict):
@@ -232,7 +233,7 @@ def _parse_yaml(text: str, ctx: _Context) -> LineDict:
 
 def _yaml_fix(problem: str) -> str:
     p = problem.lower()
-    if "tab" in p:
+    if "tab" in p or "'\\t'" in p or "\t" in p:
         return "indent with spaces; YAML does not allow tabs for indentation."
     if "mapping values are not allowed" in p:
         return ("a value contains ': '; put the value in quotes, or check the indentation of "
@@ -432,7 +433,7 @@ def _validate(value: Any, schema: dict, key: str, line: int, ctx: _Context,
         if len(value) < schema.get("minLength", 0):
             raise fail("must not be empty.")
         pat = schema.get("pattern")
-        if pat is not None and re.search(pat, value) is None:
+        if pat is not None and not _search(pat, value):
             raise fail(f"must be {expected}; got {_describe(value)}.")
 
     if _is_type(value, "number") and t in ("number", "integer"):
@@ -475,7 +476,19 @@ def _validate(value: Any, schema: dict, key: str, line: int, ctx: _Context,
 
 
 def _same(a: Any, b: Any) -> bool:
+    """Equality as JSON Schema means it: true is not 1, but 1 is 1.0."""
+    if isinstance(a, bool) or isinstance(b, bool):
+        return isinstance(a, bool) and isinstance(b, bool) and a == b
+    if isinstance(a, (int, float)) and isinstance(b, (int, float)):
+        return a == b
     return type(a) is type(b) and a == b
+
+
+def _search(pattern: str, text: str) -> bool:
+    """ECMA-262 reading of a schema pattern: ``$`` ends the text (Python's allows a newline)."""
+    if pattern.endswith("$") and not pattern.endswith("\\$"):
+        pattern = pattern[:-1] + r"\Z"
+    return re.search(pattern, text) is not None
 
 
 def _validate_object(value: dict, schema: dict, key: str, line: int, ctx: _Context) -> None:
@@ -493,12 +506,13 @@ def _validate_object(value: dict, schema: dict, key: str, line: int, ctx: _Conte
                 f"{', '.join(valid)}.", line=kline, key=key,
                 fix="write keys as plain words from the list above.")
         near = difflib.get_close_matches(k, valid, n=1, cutoff=0.6)
+        what = f"unknown key {key}.{k}" if key else f"unknown key '{k}' at the top level"
+        here = f"Valid keys in {key} are" if key else "Valid keys are"
         if near:
-            msg = (f"unknown key '{k}' in {name}; did you mean '{near[0]}'? Valid keys are: "
-                   f"{', '.join(valid)}.")
+            msg = f"{what}; did you mean '{near[0]}'? {here}: {', '.join(valid)}."
             fix = f"rename '{k}' to '{near[0]}'."
         else:
-            msg = f"unknown key '{k}' in {name}. Valid keys are: {', '.join(valid)}."
+            msg = f"{what}. {here}: {', '.join(valid)}."
             fix = f"remove '{k}', or use one of the valid keys."
         raise ctx.error(msg, line=kline, key=join_key(key, k), fix=fix, got=k,
                         expected=", ".join(valid))
@@ -508,7 +522,7 @@ def _validate_object(value: dict, schema: dict, key: str, line: int, ctx: _Conte
             ex = sub.get("examples")
             example = f" such as `{req}: {_inline(ex[0])}`" if ex else ""
             raise ctx.error(
-                f"{name} has no '{req}', which is required.", line=line,
+                f"{join_key(key, req)} is required but missing.", line=line,
                 key=join_key(key, req),
                 fix=f"add a line{example}{' under ' + key if key else ''}.")
     n = len(value)
@@ -648,7 +662,8 @@ class _Builder:
                 for need in ("width", "step"):
                     if need not in w:
                         raise self.err(
-                            f"{key} is a {kind} plan but has no '{need}'.", line=line,
+                            f"{key}.{need} is missing; a {kind} plan needs width and step.",
+                            line=line,
                             key=f"{key}.{need}",
                             fix=f"add `{need}:` as a number of rows (e.g. `width: 40, step: 8`)"
                                 f" or in time units (e.g. `width: \"10 years\", "
@@ -670,7 +685,8 @@ class _Builder:
             elif kind == "periods":
                 if "periods" not in w:
                     raise self.err(
-                        f"{key} is a periods plan but has no 'periods'.", line=line,
+                        f"{key}.periods is missing; a periods plan lists its periods.",
+                        line=line,
                         key=f"{key}.periods",
                         fix="add `periods:` with items such as `- {label: Early, from: "
                             "\"1990-01-01\", to: \"1999-12-31\"}`.")
@@ -956,7 +972,8 @@ class _Builder:
                         f"dataset's `plans:`.")
             assumption = c.get("assumption", _CLAIM_DEFAULT_ASSUMPTION[kind])
             if assumption is None:
-                raise self.err(f"{key} is a {kind} claim but names no assumption.", line=line,
+                raise self.err(f"{key}.assumption is missing; a {kind} claim must name the "
+                               f"assumption it is made under.", line=line,
                                key=f"{key}.assumption",
                                fix=f"add `assumption:` with one of "
                                    f"{', '.join(ds.checks.assumptions)}.")
@@ -983,7 +1000,7 @@ class _Builder:
                 if not bounds:
                     raise self.err(
                         f"{key} is a corank claim but gives none of equals, at_least, at_most.",
-                        line=line, key=f"{key}.equals",
+                        line=line, key=key,
                         fix="add `equals: 2` (or `at_least:` / `at_most:`) to state the "
                             "corank claimed.")
                 if "equals" in c and len(bounds) > 1:
@@ -1005,8 +1022,8 @@ class _Builder:
             if kind == "subspace_stable":
                 if "corank" not in c:
                     raise self.err(
-                        f"{key} is a subspace_stable claim but gives no corank.", line=line,
-                        key=f"{key}.corank",
+                        f"{key}.corank is missing; a subspace_stable claim compares the "
+                        f"subspace of that many relations.", line=line, key=f"{key}.corank",
                         fix="add `corank:` with the number of relations whose subspace is "
                             "compared.")
                 if c["corank"] >= n:
@@ -1021,7 +1038,7 @@ class _Builder:
                 for k in ("normalise_on", "variable"):
                     if k not in c:
                         raise self.err(
-                            f"{key} is a {kind} claim but gives no {k}.", line=line,
+                            f"{key}.{k} is missing; a {kind} claim needs it.", line=line,
                             key=f"{key}.{k}",
                             fix=f"add `{k}:` with one of {', '.join(ds.columns)}.")
                     if c[k] not in ds.columns:

@@ -56,14 +56,14 @@ class TestEqualNoise:
 
     def test_tls_subspace_recovers_known_relations_over_many_seeds(self):
         # simulation with known truth: 10% equal noise, T = 2000, n = 5, q = 2; over 30 seeds
-        # the largest principal angle to the true relation subspace stays under 5 degrees
+        # the largest principal angle to the true relation subspace stays under 2.5 degrees (measured worst: 1.3)
         worst = 0.0
         for seed in range(30):
             x, truth, sigma2 = _factor_data(100 + seed, t=2000, n=5, q=2, noise_share=0.1)
             en = equal_noise(np.cov(x.T), names=list("abcde"))
             worst = max(worst, float(principal_angles(en.corank(2).basis, truth).max()))
             assert en.corank(2).noise_scale_mean == pytest.approx(sigma2, rel=0.15)
-        assert worst < 5.0, worst
+        assert worst < 2.5, worst
 
     def test_gap_ratio_is_small_only_at_the_true_corank(self):
         x, _, _ = _factor_data(2, t=5000, n=5, q=2, noise_share=0.05)

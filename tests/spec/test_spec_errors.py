@@ -31,8 +31,9 @@ def _line_of(text: str, needle: str) -> int:
 
 def test_unknown_key_reports_line_and_nearest_valid_key(write_spec):
     text = MINIMAL.replace("      - column: jobs\n", "      - colum: jobs\n")
-    with pytest.raises(SpecError, match=r"unknown key 'colum' in datasets\[0\]\.variables\[2\]; "
-                                        r"did you mean 'column'\? Valid keys are: column, label, "
+    with pytest.raises(SpecError, match=r"unknown key datasets\[0\]\.variables\[2\]\.colum; "
+                                        r"did you mean 'column'\? Valid keys in "
+                                        r"datasets\[0\]\.variables\[2\] are: column, label, "
                                         r"noise_share, transform, unit\.\n  Fix: rename 'colum' "
                                         r"to 'column'\."):
         load_spec(write_spec(text))
@@ -43,7 +44,7 @@ def test_unknown_key_reports_line_and_nearest_valid_key(write_spec):
 
 def test_unknown_key_without_near_match_lists_valid_keys(write_spec):
     err = _error(write_spec, MINIMAL + "zzz: 1\n")
-    assert re.search(r"unknown key 'zzz' in the top level of the spec\. Valid keys are: checks, "
+    assert re.search(r"unknown key 'zzz' at the top level\. Valid keys are: checks, "
                      r"claims, datasets, relspan, report, site, windows\.", str(err))
     assert err.line == 11
 
@@ -51,7 +52,7 @@ def test_unknown_key_without_near_match_lists_valid_keys(write_spec):
 def test_missing_required_key_names_it_and_gives_an_example(write_spec):
     text = MINIMAL.replace("    source: data/harbour.csv\n", "")
     err = _error(write_spec, text)
-    assert re.search(r"datasets\[0\] has no 'source', which is required\.\n  Fix: add a line "
+    assert re.search(r"datasets\[0\]\.source is required but missing\.\n  Fix: add a line "
                      r"such as `source: data/harbour.csv` under datasets\[0\]\.", str(err))
     assert err.line == _line_of(text, "- id: harbour")
     assert err.key == "datasets[0].source"
@@ -241,15 +242,16 @@ def test_shaped_listed_without_noise_shares_is_rejected(write_spec):
 
 
 def test_periods_plan_without_periods_is_rejected(write_spec):
-    with pytest.raises(SpecError, match=r":12: windows\[0\] is a periods plan but has no "
-                                        r"'periods'\."):
+    with pytest.raises(SpecError, match=r":13: windows\[0\]\.periods is missing; a periods "
+                                        r"plan lists its periods\.\n  Fix"):
         load_spec(write_spec(WITH_TIME + "windows:\n  - {id: eras, kind: periods}\n"))
 
 
 @pytest.mark.parametrize("missing", ["width", "step"])
 def test_rolling_plan_without_width_or_step_is_rejected(write_spec, missing):
     plan = {"width": "step: 8", "step": "width: 40"}[missing]
-    with pytest.raises(SpecError, match=rf"windows\[0\] is a rolling plan but has no '{missing}'"):
+    with pytest.raises(SpecError, match=rf"windows\[0\]\.{missing} is missing; a rolling plan "
+                                         r"needs width and step\."):
         load_spec(write_spec(MINIMAL + f"windows:\n  - {{id: r, kind: rolling, {plan}}}\n"))
 
 
@@ -350,7 +352,7 @@ def test_corank_claim_without_bound_is_rejected(write_spec):
 
 
 def test_corank_claim_without_assumption_is_rejected(write_spec):
-    with pytest.raises(SpecError, match=r"claims\[0\] is a corank claim but names no assumption"):
+    with pytest.raises(SpecError, match=r"claims\[0\]\.assumption is missing; a corank claim must name"):
         load_spec(write_spec(_claim(assumption=None)))
 
 
@@ -378,8 +380,8 @@ def test_claim_field_of_another_kind_is_rejected(write_spec):
 
 
 def test_subspace_claim_without_corank_is_rejected(write_spec):
-    with pytest.raises(SpecError, match=r"claims\[0\] is a subspace_stable claim but gives no "
-                                        r"corank"):
+    with pytest.raises(SpecError, match=r"claims\[0\]\.corank is missing; a subspace_stable "
+                                        r"claim compares"):
         load_spec(write_spec(_claim(kind="subspace_stable", equals=None)))
 
 

@@ -1,0 +1,58 @@
+"""Same content, same bytes: independent of the hash seed and of the process."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+from builder.site import formula_svg, render_site
+from sample_content import build_sample_content
+
+_HERE = Path(__file__).resolve().parent
+
+_SCRIPT = """
+import hashlib, json, sys
+sys.path.insert(0, sys.argv[1])
+from sample_content import build_sample_content
+from builder.site import render_site
+out = render_site(build_sample_content())
+print(json.dumps({p: hashlib.sha256(b).hexdigest() for p, b in out.items()}, sort_keys=True))
+"""
+
+
+def _digests_in_subprocess(seed: str) -> dict[str, str]:
+    env = {k: v for k, v in os.environ.items() if k != "SOURCE_DATE_EPOCH"}
+    env["PYTHONHASHSEED"] = seed
+    run = subprocess.run([sys.executable, "-c", _SCRIPT, str(_HERE)], env=env,
+                         capture_output=True, text=True, check=True, timeout=300)
+    return json.loads(run.stdout)
+
+
+def test_rendering_in_processes_with_different_hash_seeds_gives_identical_bytes():
+    first = _digests_in_subprocess("1")
+    second = _digests_in_subprocess("2")
+    assert first == second
+    here = {p: hashlib.sha256(b).hexdigest() for p, b in
+            render_site(build_sample_content()).items()}
+    assert here == first
+
+
+def test_rendered_site_holds_no_absolute_path_of_this_machine():
+    out = render_site(build_sample_content())
+    needles = [str(_HERE.parents[1]).encode(), os.path.expanduser("~").encode()]
+    for path, data in out.items():
+        for needle in needles:
+            assert needle not in data, (path, needle)
+
+
+def test_formula_bytes_do_not_depend_on_global_matplotlib_settings():
+    import matplotlib
+    before = formula_svg(r"x_1 = \beta x_2")
+    with matplotlib.rc_context({"svg.hashsalt": None, "mathtext.fontset": "stix",
+                                "text.color": "red"}):
+        during = formula_svg(r"x_1 = \beta x_2")
+    assert during == before
