@@ -90,14 +90,24 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
     spec = _load(spec_path)
     out_dir = Path(out) if out is not None else (spec.site.out_path or spec.folder / spec.site.out)
     protected = [spec.folder] + [ds.source_path for ds in spec.datasets]
-    from builder.site.writer import check_target
-
-    check_target(out_dir, protected=protected)  # before the (long) analysis, so bad --out fails fast
+    _precheck_output(out_dir, protected)  # before the (long) analysis, so a bad --out fails fast
     run = run_analysis(spec, jobs=jobs, scheduler=scheduler, use_cache=use_cache, cache_dir=cache_dir,
                        progress=progress)
     files = render_site(site_content(run))
     write_site(files, out_dir, protected=protected)
     return Outcome(run, out_dir, time.perf_counter() - t0)
+
+
+def _precheck_output(out_dir: Path, protected) -> None:
+    """The writer's own safety checks on the output folder, run before any work."""
+    import os
+
+    from builder.site.writer import _check_target
+
+    out = Path(os.path.abspath(out_dir))
+    if out.parent.exists():
+        out = out.parent.resolve() / out.name
+    _check_target(out, [Path(p) for p in protected])
 
 
 @dataclass(frozen=True, slots=True, eq=False)

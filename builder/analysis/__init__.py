@@ -30,3 +30,17 @@ __all__ += [
     "ElementaryFlat", "elementary_flat", "DEFAULT_NEAR_ZERO",
     "Identified", "CoefficientStatus", "identified_quantities", "DEFAULT_ZERO_TOL",
 ]
+
+from builder.analysis.frisch import (CoefficientInterval, CorankCertificate, FailingTriple, FrischCorank,
+                                     FrischIdentification, FrischResult, FrischSet, MinimumTrace,
+                                     OrthantTest, SolutionSpread, TriadResult, frisch_analysis,
+                                     frisch_identification, frisch_max_corank, frisch_q1,
+                                     ledermann_corank, minimum_trace, one_orthant, solution_spread,
+                                     triad)
+
+__all__ += [
+    "FailingTriple", "OrthantTest", "CoefficientInterval", "FrischSet", "TriadResult", "MinimumTrace",
+    "CorankCertificate", "FrischCorank", "FrischIdentification", "SolutionSpread", "FrischResult",
+    "one_orthant", "frisch_q1", "triad", "minimum_trace", "ledermann_corank", "frisch_max_corank",
+    "frisch_identification", "solution_spread", "frisch_analysis",
+]

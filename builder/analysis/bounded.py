@@ -100,7 +100,8 @@ def tolerance_eps(cov, *, absolute: float | None = None, relative: float | None 
     s, _ = check_cov(cov, names=None, names_required=False)
     value = absolute if absolute is not None else relative
     kind = "absolute" if absolute is not None else "relative"
-    if not isinstance(value, (int, float, np.floating, np.integer)) or not math.isfinite(value) or value < 0:
+    if (isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer))
+            or not math.isfinite(value) or value < 0):
         raise OptionsError(f"tolerance.{kind} must be a finite number >= 0; got {value!r}.",
                            key=f"tolerance.{kind}", fix="Use a small non-negative number such as 0.05.")
     n = s.shape[0]
@@ -240,7 +241,8 @@ def bounded_noise(cov, *, names: Sequence[str], eps: float) -> BoundedNoise:
     .. [2] C. Davis and W. M. Kahan, SIAM J. Numer. Anal. 7(1), 1-46, 1970.
     """
     s, names_t = check_cov(cov, names=names)
-    if not isinstance(eps, (int, float, np.floating, np.integer)) or not math.isfinite(eps) or eps < 0:
+    if (isinstance(eps, bool) or not isinstance(eps, (int, float, np.floating, np.integer))
+            or not math.isfinite(eps) or eps < 0):
         raise OptionsError(f"eps must be a finite number >= 0; got {eps!r}.", key="eps",
                            fix="Pass the noise bound from tolerance_eps(...).eps.")
     eps = float(eps)

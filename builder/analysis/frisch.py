@@ -35,9 +35,10 @@ with gradient ``-t w + diag(W) - 1/d`` and Hessian ``W o W + diag(1/d^2)``
 (``W = inv(R - D)``, ``o`` the elementwise product), a step limited to the
 feasible region by the largest eigenvalue of ``L^-1 diag(dx) L^-T``, and
 ``t`` multiplied by a fixed factor until the barrier duality gap ``2n/t`` is
-below tolerance (Boyd & Vandenberghe 2004, ch. 11). A rigorous upper bound
-on the optimum comes from the dual matrix ``Y = W/t`` lifted to
-``diag(Y) >= w``.
+below tolerance (Boyd & Vandenberghe 2004, ch. 11). On the central path the
+duality gap is ``2n/t``; the solver reports it. Centring that fails through
+rounding (``R - D`` singular to working precision) falls back to the last
+centred iterate.
 
 Minimum-rank refinement follows ten Berge & Kiers (1991): the sum of the
 ``q`` smallest eigenvalues of ``R - D`` is concave in ``d``; replacing it by
@@ -763,9 +764,9 @@ class MinimumTrace:
         The weights ``w`` (all ones for minimum-trace factor analysis).
     value : float
         ``w'd``.
-    upper_bound : float
-        A dual bound ``tr(S Y) >= `` the optimum (weak duality); the optimum
-        lies in ``[value, upper_bound]``.
+    gap : float
+        Duality gap ``2n/t`` of the final central-path point (scaled to the
+        weights): the optimum exceeds ``value`` by about this much at most.
     min_eigenvalue : float
         Smallest eigenvalue of ``S - D`` (>= 0: feasibility).
     newton_steps : int
@@ -775,7 +776,7 @@ class MinimumTrace:
     noise_variances: np.ndarray
     weights: np.ndarray
     value: float
-    upper_bound: float
+    gap: float
     min_eigenvalue: float
     newton_steps: int
 
@@ -785,17 +786,13 @@ class MinimumTrace:
 
 
 def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: float = 20.0,
-                   max_newton: int = 400, d0: np.ndarray | None = None,
-                   t0: np.ndarray | None = None, warm_gap: float = 1e-2):
+                   max_newton: int = 400):
     """Log-barrier Newton method for ``max w_b'd s.t. R - diag(d) PD, d > 0``, many ``w_b`` at once.
 
     ``r`` (n, n) must be positive definite; ``w`` is (B, n). All B problems
-    run in lockstep on stacked arrays. ``d0`` and ``t0`` (strictly feasible
-    points and barrier parameters, e.g. a previous call's ``warm``) start
-    the path part-way. Returns ``(d, upper_bound, steps, warm)``: the
-    solutions (B, n), rigorous dual upper bounds (B,), the number of
-    (batched) Newton steps, and ``warm = (d, t)``, the centred points where
-    the relative gap first fell below ``warm_gap`` (for warm starts).
+    run in lockstep on stacked arrays. Returns ``(d, gap, steps)``: the
+    solutions (B, n), central-path duality gaps ``2n/t`` (B,) and the number
+    of (batched) Newton steps.
     """
     w = np.atleast_2d(np.asarray(w, dtype=float))
     nb, n = w.shape
@@ -804,23 +801,19 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
     wscale = np.where(wscale > 0, wscale, 1.0)
     wn = w / wscale[:, None]
     bound = 1.0 / np.diag(np.linalg.inv(r))
-    if d0 is None:
-        # sum_j d_j / bound_j <= 1 makes diag(d) a convex combination of matrices <= R.
-        d = np.tile(bound / (2.0 * n), (nb, 1))
-        t = np.ones(nb)
-    else:
-        d = np.array(d0, dtype=float)
-        t = np.array(t0, dtype=float)
+    # sum_j d_j / bound_j <= 1 makes diag(d) a convex combination of matrices <= R.
+    d = np.tile(bound / (2.0 * n), (nb, 1))
+    t = np.ones(nb)
     wd_scale = np.maximum(1.0, np.abs(wn) @ bound)
     eye = np.eye(n)
     active = np.ones(nb, dtype=bool)
-    warm_d, warm_t = d.copy(), t.copy()
-    warm_set = np.zeros(nb, dtype=bool)
+    good_d, good_t = d.copy(), t.copy()      # last well-centred iterate of each problem
     steps = 0
     while active.any() and steps < max_newton:
         idx = np.flatnonzero(active)
         dd, tt, ww = d[idx], t[idx], wn[idx]
-        for _ in range(60):
+        lam2 = np.full(idx.size, np.inf)
+        for _ in range(40):
             m = r[None] - dd[:, :, None] * eye
             lc = np.linalg.cholesky(m)
             li = np.linalg.inv(lc)
@@ -846,9 +839,16 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
                 break
             # Inside the Dikin ellipsoid (lam2 < 1/4) the full Newton step is
             # feasible and converges quadratically (self-concordance).
+            # Rounding can still break that when R - D is nearly singular, so
+            # every full step is checked before it is taken.
             step = np.where(done, 0.0, 1.0)
-            full_ok = np.all(dd + dx > 0, axis=1)
-            damp = np.flatnonzero(((lam2 >= 0.25) | ~full_ok) & ~done)
+            quad = np.flatnonzero((lam2 < 0.25) & ~done)
+            full_ok = np.zeros(dd.shape[0], dtype=bool)
+            if quad.size:
+                dq = dd[quad] + dx[quad]
+                evq = np.linalg.eigvalsh(r[None] - dq[:, :, None] * eye)[:, 0]
+                full_ok[quad] = (evq > 0) & np.all(dq > 0, axis=1)
+            damp = np.flatnonzero(~full_ok & ~done)
             if damp.size:
                 lid, dxd, ddd = li[damp], dx[damp], dd[damp]
                 gm = (lid * dxd[:, None, :]) @ np.swapaxes(lid, 1, 2)
@@ -880,29 +880,32 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10, mu: 
                 s[todo] = 0.0
                 step[damp] = s
             dd = dd + step[:, None] * dx
-        d[idx] = dd
-        rel_gap = 2.0 * n / tt / wd_scale[idx]
-        snap = (rel_gap <= warm_gap) & ~warm_set[idx]
-        warm_d[idx[snap]], warm_t[idx[snap]] = dd[snap], tt[snap]
-        warm_set[idx[snap]] = True
-        fin = rel_gap <= gap_tol
+        # Centring that has not converged goes on at the same t, except at large
+        # t, where the cause is rounding (R - D singular to working precision):
+        # such a problem falls back to its last centred iterate and stops.
+        centred = lam2 <= 1e-6
+        stuck = ~centred & (tt >= 1e8)
+        d[idx] = np.where(stuck[:, None], good_d[idx], dd)
+        t[idx] = np.where(stuck, good_t[idx], tt)
+        good_d[idx[centred]], good_t[idx[centred]] = dd[centred], tt[centred]
+        value = np.abs(np.sum(ww * d[idx], axis=1))
+        rel_gap = 2.0 * n / t[idx] / np.maximum(value, 1e-3 * wd_scale[idx])
+        fin = stuck | (centred & ((rel_gap <= gap_tol) | (t[idx] * mu > 1e13)))
         active[idx[fin]] = False
-        t[idx[~fin]] *= mu
-    # Dual bound: Y = W/t lifted so that diag(Y) >= w; tr(R Y) >= max w'd.
-    y = np.linalg.inv(r[None] - d[:, :, None] * eye) / t[:, None, None]
-    dy = np.diagonal(y, axis1=1, axis2=2)
-    y = y + np.maximum(wn - dy, 0.0)[:, :, None] * eye
-    upper = np.sum(r[None] * y, axis=(1, 2)) * wscale
-    warm_d[~warm_set], warm_t[~warm_set] = d[~warm_set], t[~warm_set]
-    return d, upper, steps, (warm_d, warm_t)
+        grow = idx[centred & ~fin]
+        t[grow] *= mu
+    # On the central path the duality gap is exactly 2n/t (n from log det, n
+    # from the bounds d > 0); rescale to the caller's weights.
+    gap = 2.0 * n / t * wscale
+    return d, gap, steps
 
 
 def _barrier_trace(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10,
                    mu: float = 20.0) -> tuple[np.ndarray, float, int]:
     """One weighted trace problem (see :func:`_barrier_batch`)."""
-    d, upper, steps, _ = _barrier_batch(r, np.asarray(w, dtype=float)[None, :], gap_tol=gap_tol,
-                                        mu=mu)
-    return d[0], float(upper[0]), steps
+    d, gap, steps = _barrier_batch(r, np.asarray(w, dtype=float)[None, :], gap_tol=gap_tol,
+                                      mu=mu)
+    return d[0], float(gap[0]), steps
 
 
 def _regularised(r: np.ndarray) -> np.ndarray:
@@ -950,10 +953,10 @@ def minimum_trace(cov: Any, *, weights: Sequence[float] | None = None,
     r, sd = _correlation(s)
     # Solve on the correlation scale (better conditioned): w'd = (w s^2)'d_R.
     wr = w * sd ** 2
-    dr, upper, steps = _barrier_trace(_regularised(r), wr, gap_tol=tol)
+    dr, gap, steps = _barrier_trace(_regularised(r), wr, gap_tol=tol)
     d = dr * sd ** 2
     lam_min = float(np.linalg.eigvalsh(s - np.diag(d))[0])
-    return MinimumTrace(d, w.copy(), float(w @ d), upper, lam_min, steps)
+    return MinimumTrace(d, w.copy(), float(w @ d), gap, lam_min, steps)
 
 
 # --------------------------------------------------------------------------
@@ -1108,20 +1111,28 @@ def _relations_back(vecs: np.ndarray, sd: np.ndarray) -> np.ndarray:
 
 
 class _Searcher:
-    """Minimum-rank search on one correlation matrix (private; holds no results)."""
+    """Minimum-rank search on one correlation matrix (private; holds no results).
+
+    Weighted trace problems are solved at two precisions: a coarse relative
+    gap (1e-3) while the ten Berge & Kiers iteration is far from converged,
+    and a fine one (``1e-3 eps``, between 1e-10 and 1e-7) once a run's
+    ``lambda_q`` is within reach of ``eps``. The barrier leaves ``R - D``
+    about ``gap`` inside the feasible set, so the fine phase is what makes
+    small ``eps`` certifiable.
+    """
 
     def __init__(self, r: np.ndarray, eps: float) -> None:
         self.r = r
         self.rb = _regularised(r)
         self.eps = eps
-        self.gap = min(1e-9, 1e-3 * eps)
+        self.gap = max(1e-10, min(1e-7, 1e-3 * eps))
+        self.gap_coarse = max(self.gap, 1e-3)
         self.bound = 1.0 / np.diag(np.linalg.inv(self.rb))
 
-    def solve(self, w: np.ndarray, warm: tuple[np.ndarray, np.ndarray] | None = None):
-        """Weighted trace problems, one per row of ``w``; returns ``(d, warm)``."""
-        d0, t0 = (None, None) if warm is None else warm
-        d, _, _, new_warm = _barrier_batch(self.rb, w, gap_tol=self.gap, d0=d0, t0=t0)
-        return d, new_warm
+    def solve(self, w: np.ndarray, gap: float | None = None) -> np.ndarray:
+        """Weighted trace problems, one per row of ``w``."""
+        d, _, _ = _barrier_batch(self.rb, w, gap_tol=self.gap if gap is None else gap)
+        return d
 
     def random_starts(self, rng: np.random.Generator, k: int) -> np.ndarray:
         """``k`` random feasible noise vectors (rows): ``sum_j d_j / bound_j < 1``."""
@@ -1129,44 +1140,104 @@ class _Searcher:
         v = rng.dirichlet(np.ones(n), size=k) * rng.uniform(0.5, 1.0, size=(k, 1))
         return v * self.bound
 
+    def tangent(self, q: int, d: np.ndarray) -> np.ndarray:
+        """Orthonormal basis (columns) of directions keeping corank ``q`` to first order.
+
+        With ``V`` the eigenvectors of the ``q`` zero eigenvalues of
+        ``R - D``, a change ``delta`` of ``d`` keeps them zero to first order
+        iff ``sum_j delta_j v_j v_j^T = 0`` (``v_j`` row ``j`` of ``V``):
+        ``q (q + 1) / 2`` linear conditions.
+        """
+        n = d.shape[0]
+        _, vec = np.linalg.eigh(self.r - np.diag(d))
+        v = vec[:, :q]
+        iu = np.triu_indices(q)
+        a = np.stack([np.outer(v[j], v[j])[iu] for j in range(n)], axis=1)
+        _, sv, vt = np.linalg.svd(a)
+        rank = int(np.sum(sv > 1e-10 * max(sv[0], 1e-300)))
+        return vt[rank:].T
+
+    def walk(self, q: int, d0: np.ndarray, directions: np.ndarray, *, steps: int = 6,
+             h0: float = 0.02) -> list[np.ndarray]:
+        """Walk along the corank-q family from ``d0``, one walker per direction.
+
+        Each step moves ``h`` (doubling from ``h0``, correlation scale) along
+        the direction projected on the tangent space, then returns to the
+        family by ten Berge & Kiers iterations. A walker stops at its first
+        step that does not end on a certified member (the family's edge:
+        some ``d_j`` reaches 0 or ``R - D`` loses definiteness) after one
+        halving. Returns every certified point visited.
+        """
+        k, n = directions.shape
+        cur = np.tile(d0, (k, 1))
+        alive = np.ones(k, dtype=bool)
+        h = np.full(k, h0)
+        found: list[np.ndarray] = []
+        for _ in range(steps):
+            idx = np.flatnonzero(alive)
+            if idx.size == 0:
+                break
+            trial = np.empty((idx.size, n))
+            moving = np.ones(idx.size, dtype=bool)
+            for m, b in enumerate(idx):
+                t = self.tangent(q, cur[b])
+                p = t @ (t.T @ directions[b]) if t.size else np.zeros(n)
+                norm = float(np.linalg.norm(p))
+                if norm < 1e-8:
+                    moving[m] = False
+                    p = np.zeros(n)
+                else:
+                    p = p / norm
+                trial[m] = np.clip(cur[b] + h[b] * p, 0.0, None)
+            alive[idx[~moving]] = False
+            new, _ = self.descend(q, trial, max_iter=5)
+            for m, b in enumerate(idx):
+                if not moving[m]:
+                    continue
+                ok, _, _ = _certify(self.r, new[m], q, self.eps)
+                if ok and np.linalg.norm(new[m] - cur[b]) > 1e-9:
+                    cur[b] = new[m]
+                    found.append(new[m].copy())
+                    h[b] *= 2.0
+                elif h[b] > h0:
+                    h[b] *= 0.25          # retry once with half the last good step
+                else:
+                    alive[b] = False
+        return found
+
     def descend(self, q: int, d0: np.ndarray, *, max_iter: int,
-                directions: np.ndarray | None = None, tau: float = 0.0,
                 stop_on_first: bool = False) -> tuple[np.ndarray, int]:
         """ten Berge & Kiers iterations from each row of ``d0``, in lockstep.
 
-        Each run stops when its ``lambda_q(R - D)`` is below ``eps / 100``,
-        when the sum of its ``q`` smallest eigenvalues stalls (decrease below
-        0.1 % of its value), or after ``max_iter`` iterations. With
-        ``directions``, a push ``tau 2^-k e`` is added to the weights of run
-        ``k``-th iteration until it is negligible. With ``stop_on_first``,
-        all runs stop once one reaches the target. Returns ``(d, solves)``.
+        A run stops when its ``lambda_q(R - D)`` is below ``eps / 100``, when
+        the sum of its ``q`` smallest eigenvalues stalls (decrease below 0.1 %
+        of its value) in the fine phase, or after ``max_iter`` iterations. A
+        run that stalls in the coarse phase moves to the fine phase if its
+        ``lambda_q`` is within ``eps + 10 gap_coarse``, else stops. With
+        ``stop_on_first``, all runs stop once one reaches the target.
+        Returns ``(d, solves)``.
         """
         d = np.array(np.atleast_2d(d0), dtype=float)
         nb, n = d.shape
         target = 0.01 * self.eps
         f_old = np.full(nb, np.inf)
         active = np.ones(nb, dtype=bool)
+        fine = np.zeros(nb, dtype=bool)
         eye = np.eye(n)
         solves = 0
-        warm_d = np.zeros_like(d)
-        warm_t = np.zeros(nb)
-        has_warm = False
         for it in range(1, max_iter + 1):
             idx = np.flatnonzero(active)
             lam, vec = np.linalg.eigh(self.r[None] - d[idx][:, :, None] * eye)
             f = lam[:, :q].sum(axis=1)
-            push = 0.0
-            if directions is not None:
-                push = tau * 0.5 ** (it - 1)
-                if push < 1e-4 * tau:
-                    push = 0.0
-            reached = lam[:, q - 1] <= target
-            if push == 0.0:
-                stalled = f_old[idx] - f <= np.maximum(1e-10 * np.maximum(1.0, np.abs(f)), 1e-3 * f)
-                stop = reached | stalled
-                f_old[idx] = f
-            else:
-                stop = np.zeros(idx.size, dtype=bool)
+            # reached: ||E|| <= target (q eigenvalues near 0 and none negative)
+            reached = (np.max(np.abs(lam[:, :q]), axis=1) <= target) & (lam[:, 0] >= -target)
+            stop = reached.copy()
+            stalled = f_old[idx] - f <= np.maximum(1e-10 * np.maximum(1.0, np.abs(f)), 1e-3 * f)
+            promote = stalled & ~fine[idx] & ~reached & (
+                lam[:, q - 1] <= self.eps + 10.0 * self.gap_coarse)
+            stop |= stalled & ~promote
+            fine[idx[promote]] = True
+            f_old[idx] = np.where(promote, np.inf, f)
             if stop_on_first and reached.any():
                 break
             active[idx[stop]] = False
@@ -1174,12 +1245,12 @@ class _Searcher:
             if not keep.any():
                 break
             w = np.sum(vec[keep][:, :, :q] ** 2, axis=2)
-            if push:
-                w = w + push * directions[idx[keep]]
             rows = idx[keep]
-            d_new, (wd, wt) = self.solve(w, (warm_d[rows], warm_t[rows]) if has_warm else None)
-            d[rows], warm_d[rows], warm_t[rows] = d_new, wd, wt
-            has_warm = True
+            for level in (False, True):
+                sel = fine[rows] == level
+                if not sel.any():
+                    continue
+                d[rows[sel]] = self.solve(w[sel], self.gap if level else self.gap_coarse)
             solves += int(keep.sum())
         return d, solves
 
@@ -1222,7 +1293,7 @@ def _corank_summary(certs: Sequence[CorankCertificate], eps: float, n: int, led:
 
 
 def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: float,
-                      starts: int = 8, seed: int = 0, max_iter: int = 40) -> FrischCorank:
+                      starts: int = 8, seed: int = 0, max_iter: int = 25) -> FrischCorank:
     """The largest corank compatible with diagonal noise, with certificates.
 
     On the correlation scale, minimum-trace factor analysis (our interior
@@ -1281,9 +1352,9 @@ def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: floa
     r, sd = _correlation(s)
     search = _Searcher(r, eps)
     rng = np.random.default_rng(seed)
-    d_mt, upper, steps = _barrier_trace(search.rb, np.ones(n), gap_tol=search.gap)
+    d_mt, gap, steps = _barrier_trace(search.rb, np.ones(n), gap_tol=search.gap)
     # Minimum trace on the correlation scale: max sum_j d_j / s_jj on the covariance scale.
-    mt = MinimumTrace(d_mt * sd ** 2, 1.0 / sd ** 2, float(np.sum(d_mt)), upper,
+    mt = MinimumTrace(d_mt * sd ** 2, 1.0 / sd ** 2, float(np.sum(d_mt)), gap,
                       float(np.linalg.eigvalsh(s - np.diag(d_mt * sd ** 2))[0]), steps)
     rand_starts = search.random_starts(rng, starts - 1)
     bound_share, bound_lam = _impossibility(r, eps)
@@ -1303,18 +1374,25 @@ def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: floa
                     found = (best_d, lam, en)
                     label = best_label
             if found is None and stopped_at is None:
-                labels = ["minimum trace"] + [f"start {i + 2}" for i in range(starts - 1)]
-                d0 = np.vstack([d_mt[None, :], rand_starts])
-                if best_d is not None and best_d is not d_mt:
-                    labels.insert(0, best_label)
-                    d0 = np.vstack([best_d[None, :], d0])
-                d1s, iters = search.descend(q, d0, max_iter=max_iter, stop_on_first=True)
-                for lab, d1 in zip(labels, d1s):
-                    ok, lam, en = _certify(r, d1, q, eps)
-                    if ok:
-                        found = (d1, lam, en)
-                        label = lab if lab.startswith("start") else f"{lab}, refined"
-                        best_d, best_label = d1, label
+                # The best point so far alone first (usually enough when a true
+                # structure is there), then all random starts in lockstep.
+                first_label = best_label if best_d is not None else "minimum trace"
+                first = d_mt if best_d is None else best_d
+                batches = [([first_label], first[None, :])]
+                if starts > 1:
+                    batches.append(([f"start {i + 2}" for i in range(starts - 1)], rand_starts))
+                labels = [first_label] + batches[-1][0] if starts > 1 else [first_label]
+                for labs, d0 in batches:
+                    d1s, it = search.descend(q, d0, max_iter=max_iter, stop_on_first=True)
+                    iters += it
+                    for lab, d1 in zip(labs, d1s):
+                        ok, lam, en = _certify(r, d1, q, eps)
+                        if ok:
+                            found = (d1, lam, en)
+                            label = lab if lab.startswith("start") else f"{lab}, refined"
+                            best_d, best_label = d1, label
+                            break
+                    if found is not None:
                         break
                 if found is None:
                     stopped_at = q
@@ -1504,15 +1582,18 @@ class SolutionSpread:
 
 
 def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None = None,
-                    starts: int = 8, seed: int = 0, max_iter: int = 40) -> SolutionSpread:
+                    starts: int = 8, seed: int = 0, max_iter: int = 20) -> SolutionSpread:
     """Sample distinct corank-q solutions and report how far their relations differ.
 
     Solutions come from the ten Berge & Kiers minimum-rank iteration started
-    from the minimum-trace solution, from ``starts - 1`` random feasible
-    starts, and from ``2 n`` directed runs that first push each noise
-    variance up or down (a decaying term ``+-tau e_j`` added to the weights)
-    and then iterate without the push, so that they settle at different
-    points of the solution family. Every member is certified within ``eps``.
+    from the minimum-trace solution and from ``starts - 1`` random feasible
+    starts, and from ``2 n`` walkers that move from the first solution along
+    the family: each step follows the tangent space of the corank-q set
+    (directions ``delta`` with ``V^T diag(delta) V = 0``) toward raising or
+    lowering one noise variance, with a doubling step, and returns to the
+    family by the same iteration, until the family's edge. Every member is
+    certified within ``eps``. The spread found is a lower bound on the
+    family's true spread.
     The spread is the largest principal angle between members' relation
     subspaces (sines and cosines combined by atan2); the representative is
     the medoid member, reported beside the spread, never alone.
@@ -1553,7 +1634,7 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     r, sd = _correlation(s)
     search = _Searcher(r, eps)
     rng = np.random.default_rng(seed)
-    d_mt = search.solve(np.ones((1, n)))[0][0]
+    d_mt = search.solve(np.ones((1, n)))[0]
     members: list[np.ndarray] = []
     bases: list[np.ndarray] = []
 
@@ -1567,12 +1648,12 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     first, _ = search.descend(q, d_mt[None, :], max_iter=max_iter)
     _keep(first[0])
     rand, _ = search.descend(q, search.random_starts(rng, starts - 1), max_iter=max_iter)
-    origin = members[0] if members else first[0]
-    dirs = np.vstack([np.eye(n), -np.eye(n)])
-    directed, _ = search.descend(q, np.tile(origin, (2 * n, 1)), max_iter=max_iter,
-                                 directions=dirs, tau=1.0)
-    for d1 in np.vstack([rand, directed]):
+    for d1 in rand:
         _keep(d1)
+    if members:
+        dirs = np.vstack([np.eye(n), -np.eye(n)])
+        for d1 in search.walk(q, members[0], dirs):
+            _keep(d1)
     k = len(members)
     if k == 0:
         summary = (f"No solution with {q} relation{'s' if q > 1 else ''} was found within "

@@ -467,16 +467,17 @@ class TableReader:
     # -- text -----------------------------------------------------------------
     def _text_chunks(self) -> Iterator[RawChunk]:
         src = self.source
-        order = sorted(set(self._positions))
-        col_of = {p: k for k, p in enumerate(order)}
-        take = [col_of[p] for p in self._positions]
+        take = list(self._positions)
         nvar = len(self.columns)
+        # Every field is tokenised (so a row with more fields than the header is an
+        # error, which pandas skips silently when usecols is given); only the selected
+        # columns are converted, checked and kept.
         dtype = {self._positions[-1]: str} if self.time_column is not None else None
         with open(src.resolved, "rb") as fh:
             stream = _CheckedStream(fh, src.path)
-            reader_args = dict(sep=src.delimiter, header=0, usecols=order, dtype=dtype,
+            reader_args = dict(sep=src.delimiter, header=0, dtype=dtype,
                                chunksize=self.chunk_rows, skip_blank_lines=True, engine="c",
-                               encoding="utf-8")
+                               encoding="utf-8", low_memory=False)
             try:
                 reader = pd.read_csv(io.BufferedReader(stream, buffer_size=1 << 16),
                                      **reader_args)

@@ -171,12 +171,16 @@ def resolve_format(spec_format: str, first_value: str | None, *, path: str | Non
     return TimeFormat(kind)
 
 
-def _as_str_series(values) -> pd.Series:
-    s = pd.Series(values) if not isinstance(values, pd.Series) else values
+def _as_str_series(values) -> tuple[pd.Series, np.ndarray]:
+    """Values as a pandas string Series (Arrow-backed when pyarrow is there: fast regexes)."""
+    s = values if isinstance(values, pd.Series) else pd.Series(values, dtype=object)
     s = s.reset_index(drop=True)
-    missing = s.isna().to_numpy()
-    text = s.astype(object).where(~missing, None)
-    return pd.Series([None if v is None else str(v) for v in text], dtype=object), missing
+    try:
+        s = s.astype("string[pyarrow]")
+    except (ImportError, TypeError, ValueError):
+        s = s.astype("string")
+    missing = s.isna().to_numpy(dtype=bool)
+    return s, missing
 
 
 def parse_times(values, fmt: TimeFormat, *, path: str | None, column: str,
@@ -210,10 +214,10 @@ def parse_times(values, fmt: TimeFormat, *, path: str | None, column: str,
     if m == 0 or missing.all():
         return out
     present = ~missing
-    txt = s[present].astype(str)
+    txt = s[present].reset_index(drop=True)
     kind = fmt.kind
     if kind in ("year", "quarter", "month"):
-        ext = txt.str.extract(_REGEX[kind])
+        ext = txt.str.extract(_REGEX[kind].pattern)
         y = pd.to_numeric(ext[0], errors="coerce").to_numpy(dtype=float)
         if kind == "year":
             mo = np.zeros_like(y)
@@ -228,10 +232,10 @@ def parse_times(values, fmt: TimeFormat, *, path: str | None, column: str,
         parsed[ok] = months[ok].astype(np.int64).astype("datetime64[M]").astype("datetime64[s]")
     else:
         if kind == "date":
-            good_shape = txt.str.match(_REGEX["date"]).to_numpy(dtype=bool)
+            good_shape = txt.str.match(_REGEX["date"].pattern).to_numpy(dtype=bool)
             dt = pd.to_datetime(txt.str.strip(), format="%Y-%m-%d", errors="coerce")
         elif kind == "datetime":
-            good_shape = txt.str.match(_REGEX["datetime"]).to_numpy(dtype=bool)
+            good_shape = txt.str.match(_REGEX["datetime"].pattern).to_numpy(dtype=bool)
             dt = pd.to_datetime(txt.str.strip(), format="ISO8601", errors="coerce")
         else:
             good_shape = np.ones(len(txt), dtype=bool)

@@ -149,7 +149,7 @@ def month_bucket(times: np.ndarray, t0: np.datetime64, step: int) -> np.ndarray:
 def _plan_error(plan: WindowPlanSpec, msg: str, fix: str, *, path: str | None,
                 dataset_id: str) -> DataError:
     return DataError(f"dataset {dataset_id!r}, window plan {plan.id!r}: {msg}", path=path,
-                     key=f"windows[{plan.id}]", fix=fix)
+                     fix=fix)
 
 
 def _spans(plan: WindowPlanSpec, *, path, dataset_id) -> tuple[Span, Span]:

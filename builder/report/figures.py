@@ -28,7 +28,7 @@ import pandas as pd
 
 from builder.report.figure_base import (
     FAINT, INK, MUTED, PALETTE, FigureResult, as_float_array, as_labels, as_times, check_mapping,
-    fail, fit_alt, join_words, new_figure, num, plural, render_figure, series_style, spread_1d,
+    fail, fit_alt, join_words, new_figure, num, num_fig, plural, render_figure, series_style, spread_1d,
     style_context, table_csv, time_text, time_values,
 )
 from builder.report.figures_corank import corank_evidence, corank_timeline
@@ -402,7 +402,7 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
             for side, unb in (("lower", lo_unb[i]), ("upper", hi_unb[i])):
                 if not unb:
                     v = lo[i] if side == "lower" else hi[i]
-                    ax.annotate(num(v), xy=(v, y), xytext=(-6 if side == "lower" else 6, 0),
+                    ax.annotate(num_fig(v), xy=(v, y), xytext=(-6 if side == "lower" else 6, 0),
                                 textcoords="offset points", ha="right" if side == "lower" else "left",
                                 va="center", fontsize=9, color=INK)
             if pt is not None and np.isfinite(pt[i]):
@@ -413,8 +413,9 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
             ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.0), ncol=1, borderaxespad=0.2,
                       handletextpad=0.3)
         if unbounded_reason and (lo_unb.any() or hi_unb.any()):
-            fig.text(0.01, 0.005, f"Unbounded: {unbounded_reason}", ha="left", va="bottom",
-                     fontsize=9, color=INK, wrap=True)
+            import textwrap
+            fig.supxlabel("\n".join(textwrap.wrap(f"Unbounded: {unbounded_reason}", 95)), x=0.01,
+                          ha="left", fontsize=9, color=INK, fontstyle="italic")
         # 2) widen the axis so no end label leaves it
         for _ in range(2):
             fig.draw_without_rendering()
@@ -467,17 +468,20 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
                           "lower_unbounded": lo_unb, "upper_unbounded": hi_unb,
                           "point": pt if pt is not None else np.full(k, np.nan), "status": status})
 
-    def side(v: float, unb: bool) -> str:
-        return "unbounded" if unb else num(v)
+    def span_text(i: int, short: bool = False) -> str:
+        if status[i] == "point":
+            return f"exactly {num(lo[i])}"
+        if status[i] == "bounded":
+            return f"{num(lo[i])} to {num(hi[i])}" if short else f"from {num(lo[i])} to {num(hi[i])}"
+        if status[i] == "unbounded below":
+            return f"unbounded below, up to {num(hi[i])}"
+        if status[i] == "unbounded above":
+            return f"unbounded above, from {num(lo[i])}"
+        return "unbounded on both sides"
 
     parts = []
     for i in range(k):
-        if status[i] == "point":
-            txt = f"{labels[i]}: exactly {num(lo[i])}"
-        else:
-            txt = f"{labels[i]}: from {side(lo[i], lo_unb[i])} to {side(hi[i], hi_unb[i])}"
-            if status[i] != "bounded":
-                txt += f" ({status[i]})"
+        txt = f"{labels[i]}: {span_text(i)}"
         if pt is not None and np.isfinite(pt[i]):
             txt += f", {point_label} {num(pt[i])}"
         parts.append(txt)
@@ -497,7 +501,7 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
                  f"{'that coefficient' if len(zero_in) == 1 else 'those coefficients'} is not pinned down.")
     else:
         desc += "No range contains zero, so every sign is pinned down."
-    short = "; ".join(f"{labels[i]} {side(lo[i], lo_unb[i])} to {side(hi[i], hi_unb[i])}" for i in range(k))
+    short = "; ".join(f"{labels[i]} {span_text(i, short=True)}" for i in range(k))
     alt = fit_alt(f"Frisch bounds: {short}.",
                   f"Frisch bounds for {plural(k, 'coefficient')}; {n_unb} unbounded; "
                   f"{len(zero_in)} contain zero.")

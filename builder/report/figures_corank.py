@@ -27,7 +27,7 @@ from matplotlib.patches import Rectangle
 
 from builder.report.figure_base import (
     INK, MUTED, PALETTE, SEQUENTIAL, FigureResult, as_float_array, as_labels, check_mapping, fail,
-    fit_alt, join_words, new_figure, num, plural, spread_1d, style_context, text_color_on,
+    fit_alt, join_words, new_figure, num, num_fig, plural, spread_1d, style_context, text_color_on,
 )
 
 __all__ = ["corank_evidence", "corank_timeline"]
@@ -120,13 +120,15 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
         ax.set_ylim(bottom, top)
         ax.set_xlim(0.4, n + 0.6)
         x = np.arange(1, n + 1)
+        # admissible region of each eps: positions 1..k, from the bottom up to its line
         for rank, i in enumerate(order):
             k = ks[i]
             if k == 0:
                 continue
             fill, hatch = _SHADES[rank % len(_SHADES)]
-            ax.add_patch(Rectangle((0.5, bottom), k, top - bottom, facecolor=fill, edgecolor="#9aa3b5",
-                                   hatch=hatch, linewidth=0.0, zorder=0))
+            ax.add_patch(Rectangle((0.5, bottom), k, epss[i][1] - bottom, facecolor=fill,
+                                   edgecolor=_EPS_STYLES[i % len(_EPS_STYLES)][0], hatch=hatch,
+                                   linewidth=0.0, zorder=0))
         shown = np.where(lam > 0, lam, floor)
         ax.vlines(x, bottom, shown, color="#9a9a9a", linewidth=1.0, zorder=2)
         pos = lam > 0
@@ -135,7 +137,7 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
             ax.plot(x[~pos], np.full((~pos).sum(), floor), linestyle="none", marker="v", markersize=8,
                     color=PALETTE[0], zorder=4)
         for xi, v in zip(x, lam):
-            ax.annotate(num(v) if v > 0 else "0", xy=(xi, v if v > 0 else floor), xytext=(7, 0),
+            ax.annotate(num_fig(v) if v > 0 else "0", xy=(xi, v if v > 0 else floor), xytext=(7, 0),
                         textcoords="offset points", ha="left", va="center", fontsize=8.5, color=INK, zorder=5)
         ax.set_xticks(x, tick_labels)
         ax.grid(axis="x", visible=False)
@@ -149,7 +151,7 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
         ys = spread_1d(logs, gap, lo + gap, hi - gap)
         for (lab, v), (colr, ls), y, k in zip(epss, _EPS_STYLES * 4, ys, ks):
             ax.axhline(v, color=colr, linestyle=ls, linewidth=1.5, zorder=3)
-            text = f"eps = {num(v)}" if lab == "eps" else f"{lab}: eps = {num(v)}"
+            text = f"eps = {num_fig(v)}" if lab == "eps" else f"{lab}: eps = {num_fig(v)}"
             ax.annotate(text + f" (corank ≤ {k})", xy=(1.0, 10 ** y), xycoords=("axes fraction", "data"),
                         xytext=(-3, 3), textcoords="offset points", ha="right", va="bottom", fontsize=8.5,
                         color=colr, fontweight="bold",
@@ -277,9 +279,10 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                 t.set_rotation_mode("anchor")
         ax.tick_params(length=0)
         if any(v is None for row in grid for v in row):
-            fig.text(0.01, 0.005, "Hatched cells with ?: corank undetermined in that window.",
-                     ha="left", va="bottom", fontsize=8.5, color=INK)
-        ax.set_xlabel("window")
+            from matplotlib.patches import Patch
+            fig.legend(handles=[Patch(facecolor="white", edgecolor=MUTED, hatch="xxx", linewidth=0.8)],
+                       labels=["? corank undetermined in that window"], loc="outside upper right",
+                       fontsize=8.5, handlelength=1.6, handleheight=1.1)
 
     rows = [{"assumption": nm, "window": wl[c], "corank": v,
              "status": "undetermined" if v is None else "determined"}

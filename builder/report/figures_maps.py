@@ -28,7 +28,7 @@ from matplotlib.patches import Circle, Polygon
 
 from builder.report.figure_base import (
     FAINT, INK, MUTED, PALETTE, FigureResult, as_float_array, as_labels, fail, fit_alt,
-    new_figure, num, place_point_labels, plural, series_style, style_context,
+    new_figure, num, num_fig, place_point_labels, plural, series_style, style_context,
 )
 
 __all__ = ["ElementaryMapData", "elementary_map", "window_gallery"]
@@ -227,7 +227,8 @@ def _limits(maps: Sequence[ElementaryMapData], frame: _Frame) -> tuple[float, fl
     x0, y0 = xy.min(axis=0) - pad_r
     x1, y1 = xy.max(axis=0) + pad_r
     span = max(x1 - x0, y1 - y0, 1e-9)
-    px, py = max(0.12 * span, 1e-9), max(0.12 * span, 1e-9)
+    px = max(0.1 * (x1 - x0), 0.04 * span)
+    py = max(0.1 * (y1 - y0), 0.04 * span)
     return x0 - px, x1 + px, y0 - py, y1 + py
 
 
@@ -239,7 +240,8 @@ def _draw_flat(ax, m: ElementaryMapData, frame: _Frame, *, color: str, band: boo
     rms = m.rms
     if main is None:
         if band and rms > 0:
-            ax.add_patch(Circle(p0, rms, facecolor=FAINT, edgecolor="none", alpha=0.9, zorder=1))
+            ax.add_patch(Circle(p0, rms, facecolor="none", edgecolor=MUTED, linestyle=(0, (4, 2)),
+                                linewidth=1.0, zorder=1))
         ax.plot([p0[0]], [p0[1]], marker="+", markersize=12, markeredgewidth=2, color=color,
                 linestyle="none", zorder=zorder)
         return p0, None
@@ -265,7 +267,7 @@ def _draw_flat(ax, m: ElementaryMapData, frame: _Frame, *, color: str, band: boo
 def _draw_simplex(ax, m: ElementaryMapData, frame: _Frame) -> None:
     xy = frame.coords(m.simplex)
     hull = _hull_2d(xy)
-    ax.add_patch(Polygon(hull, closed=True, facecolor="#e9efe6", edgecolor=PALETTE[2], linewidth=1.0,
+    ax.add_patch(Polygon(hull, closed=True, facecolor="#d5e8e2", edgecolor=PALETTE[2], linewidth=1.3,
                          hatch="////", zorder=0.5))
 
 
@@ -315,34 +317,100 @@ def _flat_word(q: int) -> str:
     return {1: "point", 2: "line", 3: "plane"}.get(q, f"{q - 1}-dimensional flat")
 
 
-def _label_flat(fig, ax, p0: np.ndarray, dvec: np.ndarray | None, text: str) -> None:
-    """Write ``text`` along the flat line near the right/upper end of the visible part."""
+def _set_limits(fig, ax, lims: tuple[float, float, float, float]) -> bool:
+    """Set the limits; use equal scales on both axes (so distances look true) unless
+    that would squeeze the data into a sliver (range ratio beyond 2.5 either way).
+    Returns whether the scales are equal."""
+    x0, x1, y0, y1 = lims
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(y0, y1)
+    fig.draw_without_rendering()
+    bb = ax.get_window_extent()
+    rb = bb.width / max(bb.height, 1.0)
+    rd = (x1 - x0) / (y1 - y0)
+    if not (1 / 2.5 <= rd / rb <= 2.5):
+        return False
+    if rd > rb:
+        c, h = 0.5 * (y0 + y1), (x1 - x0) / rb
+        ax.set_ylim(c - h / 2, c + h / 2)
+    else:
+        c, wd = 0.5 * (x0 + x1), (y1 - y0) * rb
+        ax.set_xlim(c - wd / 2, c + wd / 2)
+    ax.set_aspect("equal", adjustable="box")
+    return True
+
+
+def _label_flat(fig, ax, p0: np.ndarray, dvec: np.ndarray, text: str, avoid=None):
+    """Write ``text`` along the flat line, ending near the right end of its visible
+    part, where it covers the fewest points; returns display boxes covering the
+    label (for the point labels to avoid), or None when the line is not visible."""
     fig.draw_without_rendering()
     x0, x1 = ax.get_xlim()
     y0, y1 = ax.get_ylim()
-    if dvec is None:
-        ax.annotate(text, xy=tuple(p0), xytext=(8, -10), textcoords="offset points", fontsize=8.5,
-                    color=MUTED, ha="left", va="top")
-        return
     ts = []
     for lim, c, dc in ((x0, p0[0], dvec[0]), (x1, p0[0], dvec[0]), (y0, p0[1], dvec[1]), (y1, p0[1], dvec[1])):
         if abs(dc) > 1e-12:
             ts.append((lim - c) / dc)
+    tol_x, tol_y = 1e-9 * (x1 - x0), 1e-9 * (y1 - y0)
     inside = [t for t in ts
-              if x0 - 1e-9 <= p0[0] + t * dvec[0] <= x1 + 1e-9 and y0 - 1e-9 <= p0[1] + t * dvec[1] <= y1 + 1e-9]
+              if x0 - tol_x <= p0[0] + t * dvec[0] <= x1 + tol_x and y0 - tol_y <= p0[1] + t * dvec[1] <= y1 + tol_y]
     if len(inside) < 2:
-        return
-    ta, tb = min(inside), max(inside)
-    at = p0 + (ta + 0.97 * (tb - ta)) * dvec
-    disp = ax.transData.transform([at, at + dvec]) - ax.transData.transform([at, at])[0]
-    ang = math.degrees(math.atan2(disp[1][1], disp[1][0]))
-    if ang > 90:
-        ang -= 180
-    elif ang < -90:
-        ang += 180
-    t = ax.annotate(text, xy=tuple(at), xytext=(0, 5), textcoords="offset points", fontsize=8.5,
-                    color=INK, ha="right", va="bottom", rotation=ang, rotation_mode="anchor")
+        return None
+    ends = [p0 + min(inside) * dvec, p0 + max(inside) * dvec]
+    disp = ax.transData.transform(np.array(ends))
+    far, near = (ends[1], ends[0]) if disp[1][0] >= disp[0][0] else (ends[0], ends[1])
+    d = ax.transData.transform([far])[0] - ax.transData.transform([near])[0]
+    ang = math.degrees(math.atan2(d[1], d[0]))
+    renderer = fig.canvas.get_renderer()
+    box = ax.get_window_extent(renderer)
+    pts = ax.transData.transform(np.asarray(avoid, float)) if avoid is not None else np.zeros((0, 2))
+    px_pt = fig.dpi / 72.0
+    pad = 6.0 * px_pt
+    probe = ax.annotate(text, xy=tuple(near), fontsize=8.5, ha="center", va="bottom",
+                        multialignment="center")
+    ext = probe.get_window_extent(renderer)
+    probe.remove()
+    length, height = ext.width, ext.height
+    c, s_ = math.cos(math.radians(ang)), math.sin(math.radians(ang))
+    best = None
+    off = 5.0
+    for side in (1, -1):
+        for frac in (0.5, 0.35, 0.65, 0.2, 0.8, 0.1, 0.9):
+            at = near + frac * (far - near)
+            t = ax.annotate(text, xy=tuple(at), xytext=(-side * off * s_, side * off * c),
+                            textcoords="offset points", fontsize=8.5, color=INK, ha="center",
+                            va="bottom" if side > 0 else "top", rotation=ang, rotation_mode="anchor",
+                            multialignment="center")
+            bb = t.get_window_extent(renderer)
+            t.remove()
+            anchor = ax.transData.transform([at])[0]
+            cost = 0.0
+            for p in pts:  # points under the text's own (rotated) rectangle
+                u = (p[0] - anchor[0]) * c + (p[1] - anchor[1]) * s_
+                v = side * (-(p[0] - anchor[0]) * s_ + (p[1] - anchor[1]) * c)
+                if abs(u) <= length / 2 + pad and -pad <= v <= off * px_pt + height + pad:
+                    cost += 1.0
+            cost += 2.0 * (max(0.0, box.x0 - bb.x0) + max(0.0, bb.x1 - box.x1) + max(0.0, box.y0 - bb.y0)
+                           + max(0.0, bb.y1 - box.y1)) / pad
+            if best is None or cost < best[0] - 1e-9:
+                best = (cost, at, anchor, side)
+    side = best[3]
+    t = ax.annotate(text, xy=tuple(best[1]), xytext=(-side * off * s_, side * off * c),
+                    textcoords="offset points", fontsize=8.5, color=INK, ha="center",
+                    va="bottom" if side > 0 else "top", rotation=ang, rotation_mode="anchor",
+                    multialignment="center",
+                    bbox=dict(boxstyle="square,pad=0.1", facecolor="white", edgecolor="none", alpha=0.75))
     t.set_in_layout(False)
+    # the rotated label as a chain of small squares, for the point labels to avoid
+    anchor = best[2]
+    nrm = np.array([-s_, c])
+    centre = anchor + side * nrm * (off * px_pt + height / 2)
+    k = max(2, int(length / max(height, 1.0)))
+    boxes = []
+    for u in np.linspace(-length / 2, length / 2, k):
+        q = centre + u * np.array([c, s_])
+        boxes.append((q[0] - height / 2, q[1] - height / 2, q[0] + height / 2, q[1] + height / 2))
+    return boxes
 
 
 def _point_rows(m: ElementaryMapData, frame: _Frame, extra: dict) -> list[dict]:
@@ -426,32 +494,34 @@ def elementary_map(points, *, names: Sequence[str], ref: str, flat_point, flat_d
         ax = fig.add_subplot(1, 1, 1)
         if title:
             ax.set_title(title)
-        x0, x1, y0, y1 = _limits([m], frame)
+        lims = _limits([m], frame)
         if m.simplex is not None:
             _draw_simplex(ax, m, frame)
         p0, dvec = _draw_flat(ax, m, frame, color=PALETTE[0])
         xy = _draw_points(ax, m, frame)
-        ax.set_xlim(x0, x1)
-        ax.set_ylim(y0, y1)
-        ax.set_aspect("equal", adjustable="datalim")
         xl, yl = _axis_labels(m, frame)
         ax.set_xlabel(xl)
         ax.set_ylabel(yl)
-        flat_text = f"fitted {_flat_word(q)} (corank {q})"
-        if frame.axes is not None and q >= 3:
-            flat_text += ", seen edge-on"
-        flat_text += f"; band: RMS distance {num(m.rms)}" if dvec is not None else \
-            f"; circle: RMS distance {num(m.rms)}"
-        _label_flat(fig, ax, p0, dvec, flat_text)
-        place_point_labels(fig, ax, xy, [f"{v} alone noisy" for v in m.names],
-                           colors=[series_style(j).color for j in range(n)])
+        equal = _set_limits(fig, ax, lims)
+        anchors = [xy]
+        texts = [f"{v} alone noisy" for v in m.names]
+        colors = [series_style(j).color for j in range(n)]
+        boxes = []
+        if dvec is not None:
+            flat_text = f"fitted {_flat_word(q)} (corank {q})"
+            if frame.axes is not None and q >= 3:
+                flat_text += ", seen edge-on"
+            flat_text += f"\nband: RMS distance {num_fig(m.rms)}"
+            boxes += _label_flat(fig, ax, p0, dvec, flat_text, avoid=xy) or []
+        else:
+            anchors.append(p0[None, :])
+            texts.append(f"fitted point (corank 1)\ncircle: RMS distance {num_fig(m.rms)}")
+            colors.append(MUTED)
         if m.simplex is not None:
-            c = _hull_2d(frame.coords(m.simplex)).mean(axis=0)
-            t = ax.annotate("Frisch set", xy=tuple(c), ha="center", va="center", fontsize=8.5,
-                            color=PALETTE[2], fontweight="bold",
-                            bbox=dict(boxstyle="round,pad=0.15", facecolor="white", edgecolor="none",
-                                      alpha=0.85))
-            t.set_in_layout(False)
+            anchors.append(_hull_2d(frame.coords(m.simplex)).mean(axis=0)[None, :])
+            texts.append("Frisch set")
+            colors.append(PALETTE[2])
+        place_point_labels(fig, ax, np.vstack(anchors), texts, colors=colors, boxes=boxes)
 
     table = pd.DataFrame(_point_rows(m, frame, {}))
     desc = (f"Scatter of the {n} elementary regressions of {', '.join(m.names)}, each normalised so "
@@ -459,7 +529,7 @@ def elementary_map(points, *, names: Sequence[str], ref: str, flat_point, flat_d
             f"alone is treated as noisy. ")
     if frame.axes is None:
         desc += (f"Horizontal axis: coefficient on {m.coef_names[0]}; vertical axis: coefficient on "
-                 f"{m.coef_names[1]}. ")
+                 f"{m.coef_names[1]}" + ("" if equal else " (the two axes are not to the same scale)") + ". ")
         pts = "; ".join(f"{v} alone noisy at {_vec(m.points[j])}, distance {num(m.distances[j])}"
                         for j, v in enumerate(m.names))
     else:
@@ -584,15 +654,13 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
             _draw_flat(ax, m, frame, color=PALETTE[0])
             _draw_points(ax, m, frame, size=6 if ncols <= 3 else 5)
             ax.set_title(wl[k], fontsize=9, fontweight="normal", loc="left", pad=3)
-            ax.annotate(f"RMS {num(m.rms)}", xy=(1, 0), xycoords="axes fraction", xytext=(-3, 3),
+            ax.annotate(f"RMS {num_fig(m.rms)}", xy=(1, 0), xycoords="axes fraction", xytext=(-3, 3),
                         textcoords="offset points", ha="right", va="bottom", fontsize=7.5, color=MUTED)
             ax.tick_params(labelsize=8)
         ax0 = axs[0][0]
-        ax0.set_xlim(x0, x1)
-        ax0.set_ylim(y0, y1)
-        for row in axs:
-            for ax in row:
-                ax.set_aspect("equal", adjustable="box")
+        for k in range(w):
+            if k + ncols >= w:  # nothing below this panel: it carries the x tick labels
+                axs[k // ncols][k % ncols].tick_params(labelbottom=True)
         xl, yl = _axis_labels(m0, frame)
         fig.supxlabel(xl, fontsize=9.5)
         fig.supylabel(yl, fontsize=9.5)
@@ -601,8 +669,13 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
             from matplotlib.lines import Line2D
             handles.append(Line2D([], [], color=MUTED, linestyle=(0, (4, 2)), linewidth=1.1))
             hl.append("full-sample flat")
-        fig.legend(handles, hl, loc="outside lower center", ncol=min(len(hl), 3 if n > 3 else 4),
+        fig.legend(handles, hl, loc="outside upper center", ncol=min(len(hl), 3 if n > 3 else 4),
                    fontsize=8.5, handletextpad=0.3, columnspacing=1.0)
+        equal = _set_limits(fig, ax0, (x0, x1, y0, y1))
+        if equal:
+            for row in axs:
+                for ax in row:
+                    ax.set_aspect("equal", adjustable="box")
         fig.draw_without_rendering()
         place_point_labels(fig, ax0, frame.coords(m0.points), list(m0.names),
                            colors=[series_style(j).color for j in range(n)], fontsize=8)

@@ -21,7 +21,7 @@ import pandas as pd
 
 from builder.report.figure_base import (
     INK, MUTED, PALETTE, SEQUENTIAL, FigureResult, angle_text, as_float_array, as_labels,
-    as_times, check_mapping, fail, fit_alt, join_words, new_figure, num, plural, spread_1d,
+    as_times, check_mapping, fail, fit_alt, join_words, new_figure, num, num_fig, plural, spread_1d,
     style_context, styles_for, text_color_on, time_text, time_values,
 )
 
@@ -69,7 +69,7 @@ def _angle_panel(ax, x, angles, threshold, is_dt) -> None:
                 color=PALETTE[3], markeredgecolor=INK, markeredgewidth=0.6, zorder=4)
     top = max(threshold * 1.25, float(angles.max()) * 1.15, 1e-6)
     ax.set_ylim(0, top)
-    _threshold_line(ax, threshold, f"threshold {num(threshold)}°")
+    _threshold_line(ax, threshold, f"threshold {num_fig(threshold)}°")
     if is_dt:
         ax.xaxis_date()
 
@@ -302,11 +302,18 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
                     markerfacecolor="white" if st.slot % 2 else st.color)
         # sign flips: one dotted line and label per location, a tick in each flipping series' colour
         locations: dict[float, list[str]] = {}
+        spacing = float(np.min(np.diff(x))) if w > 1 else 1.0
         for nm, st in zip(names, styles):
             for i, j in flips[nm]:
                 xm = 0.5 * (x[i] + x[j])
                 locations.setdefault(round(float(xm), 9), []).append(nm)
-                ax.plot([xm], [0], marker="|", markersize=16, markeredgewidth=2.4, color=st.color, zorder=4)
+        for xm, who in locations.items():
+            # one tick per flipping series, side by side when several flip at the same place
+            for r, nm in enumerate(who):
+                st = styles[names.index(nm)]
+                dx = (r - (len(who) - 1) / 2) * 0.07 * spacing
+                ax.plot([xm + dx], [0], marker="|", markersize=16, markeredgewidth=2.4, color=st.color,
+                        zorder=4)
         for xm in sorted(locations):
             ax.axvline(xm, color=MUTED, linewidth=0.8, linestyle=(0, (1, 2)), zorder=1)
             ax.annotate("sign flip", xy=(xm, 1), xycoords=("data", "axes fraction"), xytext=(-2, -3),

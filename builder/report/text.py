@@ -126,41 +126,53 @@ GLOSSARY = (
 )
 
 
-#: (key, title, assumption in one sentence, formula TeX list, limits, reference keys)
+#: (key, title, assumption in one sentence, [(formula TeX, alt text in words)], limits, reference keys)
 METHODS = (
     ("elementary", "Elementary regressions (ordinary least squares)",
      "One variable at a time is the only noisy one.",
-     [r"$a^{(j)} = P_{j\cdot}/P_{jj},\quad P = S^{-1}$",
-      r"$\hat\beta_{jk} = -P_{jk}/P_{jj},\quad \hat\sigma^2_j = 1/P_{jj}$"],
+     [(r"$a^{(j)} = P_{j\cdot}/P_{jj},\quad P = S^{-1}$",
+       "relation j is row j of the inverse covariance P divided by its diagonal entry"),
+      (r"$\hat\beta_{jk} = -P_{jk}/P_{jj},\quad \hat\sigma^2_j = 1/P_{jj}$",
+       "least-squares coefficient of x k in the regression of x j is minus P j k over P j j; "
+       "residual variance is one over P j j")],
      "Presupposes exactly one relation. With several relations each regression lands on an arbitrary "
      "member of the relation subspace. Exactly collinear data make S singular: relspan then reports the "
      "exact relations (the null space of S) instead.",
      ("frisch1934",)),
     ("equal", "Equal noise: total least squares",
      "Every variable carries noise of the same variance on the scale analysed.",
-     [r"$S\,v_i = \lambda_i v_i,\quad \lambda_1 \leq \cdots \leq \lambda_n$",
-      r"$\mathrm{relations} = \mathrm{span}(v_1,\ldots,v_q),\quad \sigma^2 = \lambda_q$"],
+     [(r"$S\,v_i = \lambda_i v_i,\quad \lambda_1 \leq \cdots \leq \lambda_n$",
+       "eigenvectors v i of S with eigenvalues in ascending order"),
+      (r"$\mathrm{relations} = \mathrm{span}(v_1,\ldots,v_q),\quad \sigma^2 = \lambda_q$",
+       "the relations span the eigenvectors of the q smallest eigenvalues; the noise variance is the "
+       "q-th smallest eigenvalue")],
      "Not invariant to the units: relspan analyses a stated scale (the correlation scale when the "
      "tolerance is relative). Corank q is supported when the q smallest eigenvalues are at most eps.",
      ("eckart1936", "golub1980")),
     ("shaped", "Noise of known relative size (generalised eigenproblem)",
      "Noise variances are known up to one common factor: N = s\u00b2 W.",
-     [r"$S\,v = \lambda\,W v$"],
+     [(r"$S\,v = \lambda\,W v$", "S v equals lambda times W v, with W the known noise shape")],
      "Only as good as the stated shape W; for two variables this is Deming regression.",
      ("koopmans1937", "deming1943")),
     ("bounded", "Bounded noise (Weyl and Davis-Kahan)",
      "The noise covariance may have any shape but its spectral norm is at most eps.",
-     [r"$q \ \mathrm{admissible} \iff \lambda_q(S) \leq \varepsilon$",
-      r"$\sin\theta \leq \varepsilon / (\lambda_{q+1}(S) - \varepsilon)$"],
+     [(r"$q\ \mathrm{admissible}\ \Leftrightarrow\ \lambda_q(S) \leq \varepsilon$",
+       "corank q is admissible exactly when the q-th smallest eigenvalue of S is at most eps"),
+      (r"$\sin\theta \leq \varepsilon / \lambda_{q+1}(S)$",
+       "the sine of the largest angle to the eigenvector subspace is at most eps over the next eigenvalue")],
      "The angle bound is vacuous when eps approaches the next eigenvalue; it bounds the largest principal "
      "angle between the relation subspace and the eigenvectors.",
      ("weyl1912", "daviskahan1970")),
     ("diagonal", "Independent noise of unknown size: the Frisch scheme",
      "Each variable has independent noise of unknown variance: N = diag(d), d \u2265 0, S \u2212 N "
      "positive semidefinite.",
-     [r"$0 \leq d_j \leq 1/P_{jj}$",
-      r"$q = 1:\ P_{ij}P_{jk}P_{ki} > 0\ \forall i,j,k \Rightarrow \mathrm{hull\ of\ elementary\ regressions}$",
-      r"$\mathrm{point\ identification\ needs}\ q(q+1) \geq 2n$"],
+     [(r"$0 \leq d_j \leq 1/P_{jj}$", "each noise variance d j lies between 0 and one over P j j"),
+      (r"$q = 1:\ P_{ij}P_{jk}P_{ki} > 0\ \mathrm{for\ all}\ i,j,k\ \Rightarrow\ \mathrm{hull\ of\ "
+       r"elementary\ regressions}$",
+       "with one relation, if every product P i j P j k P k i is positive, the solutions are the convex hull "
+       "of the elementary regressions"),
+      (r"$\mathrm{point\ identification\ needs}\ q(q+1) \geq 2n$",
+       "point identification needs q times q plus one to be at least 2 n")],
      "With one relation the coefficients are bounded only when all elementary regressions lie in one "
      "orthant. For several relations relspan searches for the largest corank by minimum-trace and "
      "minimum-rank factor analysis from several starts and states a certificate, a proof of "
@@ -170,12 +182,15 @@ METHODS = (
       "shapiro2002", "ning2015", "ledermann1937", "spearman1904")),
     ("angles", "Principal angles between subspaces",
      "Two relation subspaces are compared by the angles between them.",
-     [r"$\theta_i = \mathrm{atan2}(\sigma_i((I - Q_A Q_A^T)Q_B),\ \sigma_i(Q_A^T Q_B))$"],
+     [(r"$\theta_i = \mathrm{atan2}(\sigma_i((I - Q_A Q_A^T)Q_B),\ \sigma_i(Q_A^T Q_B))$",
+       "each principal angle is atan2 of a singular value of the residual projection and of the cosine "
+       "matrix")],
      "Sines and cosines are both computed so that small angles keep their accuracy.",
      ("bjorck1973",)),
     ("moments", "Window statistics from mergeable blocks",
      "Windows are merged from block statistics, never recomputed from raw rows.",
-     [r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$"],
+     [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
+       "merged mean and co-moment of two blocks A and B, with delta the difference of their means")],
      "Blocks use a shifted two-pass sum; windows are merged pairwise without subtraction.",
      ("chan1979", "welford1962")),
 )

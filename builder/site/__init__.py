@@ -4,7 +4,7 @@ Markdown to HTML (:mod:`.markdown`), one layout (``templates/base.html``), one
 stylesheet (``assets/site.css``), formula images (:mod:`.formulas`), styled
 blocks (:mod:`.blocks`), rendering with relative links and ``SHA256SUMS``
 (:mod:`.render`), the atomic writer (:mod:`.writer`) and the link checker
-(:mod:`.links`).
+(:mod:`.links`), and a local preview server (:mod:`.serve`).
 """
 
 from __future__ import annotations
@@ -17,7 +17,8 @@ from builder.site.markdown import (Heading, RenderedMarkdown, escape_cell, escap
                                    render_markdown, slugify)
 from builder.site.render import (SUMS_NAME, relative_url, render_site, rewrite_links,
                                  sha256sums, source_date)
-from builder.site.writer import MARKER, write_site
+from builder.site.serve import make_server, serve_folder
+from builder.site.writer import MARKER, check_output, write_site
 
 __all__ = [
     "SECTIONS", "Page", "SiteFile", "NavItem", "SiteContent",
@@ -25,6 +26,6 @@ __all__ = [
     "CARD_KINDS", "VERDICTS", "card", "cards", "badge", "callout", "details", "figure",
     "formula_svg", "formula_image", "FormulaImage",
     "render_site", "relative_url", "rewrite_links", "sha256sums", "source_date", "SUMS_NAME",
-    "write_site", "MARKER",
+    "write_site", "check_output", "MARKER", "serve_folder", "make_server",
     "check_site", "check_files", "Problem", "PROBLEM_KINDS",
 ]

@@ -24,8 +24,11 @@ import markdown as _md
 from markdown.extensions import Extension
 from markdown.treeprocessors import Treeprocessor
 
-__all__ = ["Heading", "RenderedMarkdown", "render_markdown", "slugify", "escape_text",
+__all__ = ["RESERVED_IDS", "Heading", "RenderedMarkdown", "render_markdown", "slugify", "escape_text",
            "escape_cell"]
+
+#: Element ids the page layout uses itself (``<main id="main">``); headings never get them.
+RESERVED_IDS = ("main",)
 
 # Characters that would start HTML or an entity; replaced by entities.
 _HTML_ENTITIES = {"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;"}
@@ -151,10 +154,27 @@ class _TableWrapper(Treeprocessor):
                 parent.insert(index, wrapper)
 
 
+class _ReserveIds(Treeprocessor):
+    """Hold the layout's own ids so toc never gives them to a heading."""
+
+    def run(self, root: etree.Element) -> None:
+        for ident in RESERVED_IDS:
+            root.append(etree.Element("div", {"id": ident, "data-relspan-reserved": ""}))
+
+
+class _ReleaseIds(Treeprocessor):
+    def run(self, root: etree.Element) -> None:
+        for el in [e for e in root if e.get("data-relspan-reserved") is not None]:
+            root.remove(el)
+
+
 class _SiteExtension(Extension):
     def extendMarkdown(self, md: _md.Markdown) -> None:  # noqa: N802 (API name)
-        # Run after inline processing (priority 20) and before prettify (10).
+        # Run after inline processing (priority 20) and before prettify (10);
+        # the toc ids are made at 5, between reserving and releasing ours.
         md.treeprocessors.register(_TableWrapper(md), "relspan_tables", 15)
+        md.treeprocessors.register(_ReserveIds(md), "relspan_reserve_ids", 14)
+        md.treeprocessors.register(_ReleaseIds(md), "relspan_release_ids", 4)
 
 
 def _new_markdown() -> _md.Markdown:

@@ -201,17 +201,31 @@ def _assets() -> dict[str, bytes]:
     return out
 
 
-def _nav_view(items: tuple[NavItem, ...], current: str, ancestors: set[str]) -> list[dict]:
-    """Nav tree for the template; only the branch holding the page is expanded."""
-    view = []
-    for item in items:
-        children = _nav_view(item.children, current, ancestors)
-        in_branch = item.path == current or item.path in ancestors or any(
-            c["state"] in ("current", "open") for c in children)
-        state = "current" if item.path == current else ("open" if in_branch else "")
-        view.append({"title": item.title, "path": item.path, "state": state,
-                     "children": children if in_branch else []})
-    return view
+def _nav_rows(items: tuple[NavItem, ...], current: str, ancestors: set[str]) -> list[dict]:
+    """Navigation as rows: the top level, then the children of the open entry, and so on.
+
+    An entry is *current* when it is this page and *open* when this page lies
+    below it (by breadcrumbs or by nesting); only open branches show a row.
+    """
+    def holds(item: NavItem) -> bool:
+        return (item.path == current or item.path in ancestors
+                or any(holds(c) for c in item.children))
+
+    rows: list[dict] = []
+    level, label = items, ""
+    while level:
+        row = []
+        nxt: tuple[NavItem, ...] = ()
+        for item in level:
+            state = "current" if item.path == current else ("open" if holds(item) else "")
+            row.append({"title": item.title, "path": item.path, "state": state})
+            if state and item.children and not nxt:
+                nxt, nxt_label = item.children, item.title
+        rows.append({"entries": row, "label": label})
+        if not nxt:
+            break
+        level, label = nxt, nxt_label
+    return rows
 
 
 def _check_layout(content: SiteContent, assets: Mapping[str, bytes]) -> None:
@@ -257,7 +271,7 @@ def _render_page(env: jinja2.Environment, content: SiteContent, page: Page,
         description=" ".join(description.split()),
         site_title=content.title,
         page=page,
-        nav=_nav_view(content.nav, page.path, ancestors),
+        nav=_nav_rows(content.nav, page.path, ancestors) if content.nav else [],
         breadcrumbs=page.breadcrumbs,
         show_title=show_title,
         toc=toc,

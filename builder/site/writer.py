@@ -32,7 +32,7 @@ from pathlib import Path
 
 from builder.errors import OutputError
 
-__all__ = ["MARKER", "write_site"]
+__all__ = ["MARKER", "write_site", "check_output"]
 
 #: Marker file at the root of every folder relspan writes.
 MARKER = ".relspan-site"
@@ -232,6 +232,23 @@ def _make_tmp(parent: Path, name: str) -> Path:
 
 
 # --------------------------------------------------------------------- API
+
+def check_output(out_dir: Path | str, *, protected: Sequence[Path | str] = ()) -> Path:
+    """Run the writer's safety checks on ``out_dir`` without writing anything.
+
+    Lets a caller fail fast on a bad output folder before a long analysis.
+    Returns the absolute folder; raises :class:`OutputError` like
+    :func:`write_site`.
+    """
+    out = Path(os.path.abspath(out_dir))
+    if out.parent == out:
+        raise OutputError(f"refusing to write the site to the filesystem root {out}.",
+                          path=str(out), fix="choose an output folder of its own.")
+    if out.parent.exists():
+        out = out.parent.resolve() / out.name
+    _check_target(out, [Path(p) for p in protected])
+    return out
+
 
 def write_site(files: Mapping[str, bytes], out_dir: Path | str, *,
                protected: Sequence[Path | str] = (),

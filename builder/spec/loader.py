@@ -403,15 +403,14 @@ def _validate(value: Any, schema: dict, key: str, line: int, ctx: _Context,
 
     if "const" in schema:
         c = schema["const"]
-        if not (type(value) is type(c) and value == c) and not (
-                _is_type(value, "integer") and isinstance(c, int) and value == c):
+        if not _same(value, c):
             raise fail(f"must be {expected}; got {_describe(value)}.",
                        fix=f"write `{_leaf(key)}: {_inline(c)}`.")
 
     t = schema.get("type")
     if isinstance(t, str) and not _is_type(value, t):
         extra = ""
-        if t == "string" and isinstance(value, (bool, int, float)) and value is not None:
+        if t == "string" and isinstance(value, (bool, int, float)):
             extra = " (YAML reads yes/no/on/off as true/false and bare digits as numbers)"
         fix = f"write {expected}{_example_fix(schema, key)}"
         if t == "string" and (isinstance(value, (bool, int, float))):
@@ -420,8 +419,7 @@ def _validate(value: Any, schema: dict, key: str, line: int, ctx: _Context,
             fix += "; indent its keys below it"
         raise fail(f"must be {_TYPE_WORDS[t]}; got {_describe(value)}{extra}.", fix=fix + ".")
 
-    if "enum" in schema and value not in schema["enum"] or (
-            "enum" in schema and isinstance(value, bool)):
+    if "enum" in schema and not any(_same(value, e) for e in schema["enum"]):
         allowed = ", ".join(str(v) for v in schema["enum"])
         near = difflib.get_close_matches(str(value), [str(v) for v in schema["enum"]], n=1)
         hint_txt = f" Did you mean '{near[0]}'?" if near else ""

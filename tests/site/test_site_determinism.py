@@ -24,17 +24,22 @@ print(json.dumps({p: hashlib.sha256(b).hexdigest() for p, b in out.items()}, sor
 """
 
 
-def _digests_in_subprocess(seed: str) -> dict[str, str]:
+def _start(seed: str) -> subprocess.Popen:
     env = {k: v for k, v in os.environ.items() if k != "SOURCE_DATE_EPOCH"}
     env["PYTHONHASHSEED"] = seed
-    run = subprocess.run([sys.executable, "-c", _SCRIPT, str(_HERE)], env=env,
-                         capture_output=True, text=True, check=True, timeout=300)
-    return json.loads(run.stdout)
+    return subprocess.Popen([sys.executable, "-c", _SCRIPT, str(_HERE)], env=env,
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+
+
+def _digests(proc: subprocess.Popen) -> dict[str, str]:
+    out, err = proc.communicate(timeout=300)
+    assert proc.returncode == 0, err
+    return json.loads(out)
 
 
 def test_rendering_in_processes_with_different_hash_seeds_gives_identical_bytes():
-    first = _digests_in_subprocess("1")
-    second = _digests_in_subprocess("2")
+    procs = [_start("1"), _start("2")]  # run side by side
+    first, second = (_digests(p) for p in procs)
     assert first == second
     here = {p: hashlib.sha256(b).hexdigest() for p, b in
             render_site(build_sample_content()).items()}

@@ -100,6 +100,11 @@ class TestSlugify:
         assert [h.id for h in first.headings] == ["über", "über_1", "über_2"]
         assert render_markdown(md).html == first.html
 
+    def test_headings_never_take_the_layouts_own_ids(self):
+        out = render_markdown("## Main\n\n## Main\n")
+        assert [h.id for h in out.headings] == ["main_1", "main_2"]
+        assert "data-relspan-reserved" not in out.html
+
     def test_heading_text_is_plain_text(self):
         out = render_markdown("## A &amp; B <i>x</i>")
         assert out.headings[0].text == "A & B x"

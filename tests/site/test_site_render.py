@@ -134,8 +134,10 @@ class TestLayout:
         assert [(element_text(e), e.attrs["href"]) for e in current] == [("Claims",
                                                                           "claims.html")]
         win = _pages(site)["datasets/trio/windows/w-001.html"]
-        assert 'class="nav-open"' in win and "nav-level-2" in win
-        assert "nav-level-2" not in _pages(site)["claims.html"]
+        assert 'class="nav-open"' in win and 'class="nav-row nav-row-2"' in win
+        assert "nav-row-2" not in _pages(site)["claims.html"]
+        row2 = win[win.index("nav-row-2"):]
+        assert row2.index("Trio:") < row2.index("</ul>")  # the dataset's siblings, then done
 
     def test_window_pages_link_prev_and_next(self, site):
         pages = _pages(site)

@@ -205,3 +205,13 @@ class TestStaleFolders:
         writer._clean_stale(tmp_path, "site", tmp_path / "site")
         assert (tmp_path / "site" / "index.html").read_bytes() == b"old"
         assert not aside.exists()
+
+
+class TestCheckOutput:
+    def test_refuses_what_write_site_refuses_without_writing(self, tmp_path):
+        spec = tmp_path / "spec.yaml"
+        spec.write_text("relspan: 1\n")
+        with pytest.raises(OutputError, match="refusing to write the site to"):
+            writer.check_output(tmp_path, protected=[spec])
+        assert writer.check_output(tmp_path / "_site", protected=[spec]) == tmp_path / "_site"
+        assert not (tmp_path / "_site").exists()

@@ -1,0 +1,356 @@
+"""Browser checks of a built site: headless Chromium (Debian) driven by Playwright.
+
+Which site: the folder in ``RELSPAN_BROWSER_SITE``; else ``site_demo/`` at the
+repo root if it exists; else the synthetic sample rendered into a temporary
+folder. Every page is loaded over http (a local threaded server on
+127.0.0.1, port 0) and over ``file://``. Accessibility is audited with
+axe-core (npm; ``npm install --prefix .ci/node axe-core@4``), injected from
+disk, so nothing is fetched from the network.
+
+Missing Chromium, Playwright or axe-core skips these tests with the reason,
+unless ``RELSPAN_CI=1``, in which case they fail.
+"""
+
+from __future__ import annotations
+
+import functools
+import http.server
+import os
+import posixpath
+import threading
+from pathlib import Path
+from urllib.parse import unquote, urlsplit
+
+import pytest
+
+from builder.site import render_site, write_site
+from sample_content import build_sample_content
+
+pytestmark = pytest.mark.browser
+
+REPO = Path(__file__).resolve().parents[2]
+CHROMIUM = Path("/usr/bin/chromium")
+CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+                 "--no-first-run", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync"]
+AXE = REPO / ".ci" / "node" / "node_modules" / "axe-core" / "axe.min.js"
+ARTIFACTS = REPO / "test-artifacts"
+IN_CI = os.environ.get("RELSPAN_CI") == "1"
+
+# One script per page visit: everything the checks need, in one round trip.
+_PAGE_FACTS_JS = """() => {
+  const el = document.documentElement;
+  const bad = [...document.images].filter(i => !(i.complete && i.naturalWidth > 0));
+  const handlers = [...document.querySelectorAll('*')].flatMap(e =>
+      [...e.attributes].filter(a => a.name.startsWith('on')).map(a => e.tagName + '@' + a.name));
+  return {
+    injected: window.__relspanInjected === undefined ? null : String(window.__relspanInjected),
+    scripts: document.querySelectorAll('script').length,
+    handlers: handlers,
+    brokenImages: bad.map(i => i.getAttribute('src')),
+    images: document.images.length,
+    links: [...document.querySelectorAll('a[href]')].map(a => a.href),
+    ids: [...document.querySelectorAll('[id]')].map(e => e.id),
+    overflow: el.scrollWidth - el.clientWidth,
+    section: document.body.className,
+    text: document.body.innerText.includes('__relspanInjected'),
+  };
+}"""
+
+
+def _unavailable(reason: str) -> None:
+    if IN_CI:
+        pytest.fail(f"{reason} (RELSPAN_CI=1 requires the browser suite to run)")
+    pytest.skip(reason)
+
+
+# ------------------------------------------------------------------ fixtures
+
+@pytest.fixture(scope="module")
+def site_dir(tmp_path_factory) -> Path:
+    given = os.environ.get("RELSPAN_BROWSER_SITE")
+    if given:
+        folder = Path(given)
+        if not (folder / "index.html").is_file():
+            pytest.fail(f"RELSPAN_BROWSER_SITE={given!r} has no index.html; point it at a "
+                        "built site folder.")
+        return folder.resolve()
+    demo = REPO / "site_demo"
+    if (demo / "index.html").is_file():
+        return demo
+    return write_site(render_site(build_sample_content()),
+                      tmp_path_factory.mktemp("browser") / "site")
+
+
+@pytest.fixture(scope="module")
+def pages(site_dir) -> list[str]:
+    return sorted(p.relative_to(site_dir).as_posix() for p in site_dir.rglob("*.html"))
+
+
+SUB_PATH = "/some/sub-path/"
+
+
+class _QuietHandler(http.server.SimpleHTTPRequestHandler):
+    """Static files under SUB_PATH only (anything else is a 404)."""
+
+    def translate_path(self, path):
+        if not path.startswith(SUB_PATH):
+            return str(Path(self.directory) / ".no-such-file")
+        return super().translate_path("/" + path[len(SUB_PATH):])
+
+    def log_message(self, format, *args):  # noqa: A002 (stdlib signature)
+        pass
+
+
+@pytest.fixture(scope="module")
+def base_url(site_dir):
+    handler = functools.partial(_QuietHandler, directory=str(site_dir))
+    server = http.server.ThreadingHTTPServer(("127.0.0.1", 0), handler)
+    server.daemon_threads = True
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    try:
+        # Serve under a sub-path to prove the site does not assume it sits at the root.
+        yield f"http://127.0.0.1:{server.server_address[1]}{SUB_PATH}"
+    finally:
+        server.shutdown()
+        server.server_close()
+
+
+@pytest.fixture(scope="module")
+def browser():
+    if not CHROMIUM.exists():
+        _unavailable(f"Chromium not found at {CHROMIUM} (apt-get install chromium)")
+    try:
+        from playwright.sync_api import sync_playwright
+    except ImportError:
+        _unavailable("Playwright for Python is not installed (pip install playwright)")
+    manager = sync_playwright().start()
+    try:
+        chromium = manager.chromium.launch(executable_path=str(CHROMIUM), args=CHROMIUM_ARGS,
+                                           headless=True)
+    except Exception as err:  # noqa: BLE001 (report any launch failure as the reason)
+        manager.stop()
+        _unavailable(f"Chromium did not start: {str(err).splitlines()[0]}")
+    try:
+        yield chromium
+    finally:
+        chromium.close()
+        manager.stop()
+
+
+def _visit_all(browser, urls: dict[str, str], *, viewport: dict | None = None) -> dict:
+    """Load every page once, recording errors, failed requests and page facts."""
+    context = browser.new_context(viewport=viewport or {"width": 1280, "height": 900})
+    page = context.new_page()
+    current = {"path": ""}
+    problems: dict[str, list[str]] = {}
+    requests: list[tuple[str, str]] = []
+
+    def note(kind):
+        return lambda item: problems.setdefault(current["path"], []).append(
+            f"{kind}: {getattr(item, 'text', None) or getattr(item, 'url', None) or item}")
+
+    page.on("console", lambda m: m.type == "error" and note("console error")(m))
+    page.on("pageerror", note("page error"))
+    page.on("requestfailed", lambda r: problems.setdefault(current["path"], []).append(
+        f"failed request: {r.url} ({r.failure})"))
+    page.on("response", lambda r: r.status >= 400 and problems.setdefault(
+        current["path"], []).append(f"HTTP {r.status}: {r.url}"))
+    page.on("request", lambda r: requests.append((current["path"], r.url)))
+    facts = {}
+    try:
+        for path, url in urls.items():
+            current["path"] = path
+            page.goto(url, wait_until="load")
+            facts[path] = page.evaluate(_PAGE_FACTS_JS)
+    finally:
+        context.close()
+    return {"facts": facts, "problems": problems, "requests": requests}
+
+
+@pytest.fixture(scope="module")
+def http_visits(browser, base_url, pages):
+    return _visit_all(browser, {p: base_url + p for p in pages})
+
+
+@pytest.fixture(scope="module")
+def file_visits(browser, site_dir, pages):
+    root = site_dir.as_uri()
+    return _visit_all(browser, {p: f"{root}/{p}" for p in pages},
+                      viewport={"width": 360, "height": 740})
+
+
+# --------------------------------------------------------------------- tests
+
+def _fail_if(found: dict[str, list[str]], what: str) -> None:
+    found = {k: v for k, v in found.items() if v}
+    assert not found, f"{what}:\n" + "\n".join(f"  {p}: {v}" for p, v in sorted(found.items()))
+
+
+def test_every_page_loads_over_http_without_errors_or_failed_requests(http_visits):
+    _fail_if(http_visits["problems"], "errors while loading over http")
+
+
+def test_every_page_loads_from_file_urls_without_errors_or_failed_requests(file_visits):
+    _fail_if(file_visits["problems"], "errors while loading from file://")
+
+
+def test_no_request_leaves_the_site(http_visits, file_visits, base_url, site_dir):
+    root = site_dir.as_uri()
+    outside = {}
+    for visits, prefix in ((http_visits, base_url), (file_visits, root)):
+        for path, url in visits["requests"]:
+            if not (url.startswith(prefix) or url.startswith("data:")):
+                outside.setdefault(path, []).append(url)
+    _fail_if(outside, "requests outside the site")
+
+
+def test_every_image_loads(http_visits, file_visits):
+    for visits in (http_visits, file_visits):
+        _fail_if({p: f["brokenImages"] for p, f in visits["facts"].items()},
+                 "images that did not load (naturalWidth 0)")
+
+
+def test_every_internal_link_resolves_to_a_page_and_fragment(http_visits, base_url, site_dir):
+    ids = {p: set(f["ids"]) for p, f in http_visits["facts"].items()}
+    broken: dict[str, list[str]] = {}
+    for path, facts in http_visits["facts"].items():
+        for href in facts["links"]:
+            if not href.startswith(base_url):
+                broken.setdefault(path, []).append(f"not internal: {href}")
+                continue
+            parts = urlsplit(href)
+            target = posixpath.normpath(unquote(parts.path[len(urlsplit(base_url).path):]))
+            if not (site_dir / target).is_file():
+                broken.setdefault(path, []).append(f"no such file: {href}")
+            elif parts.fragment and target.endswith(".html") and \
+                    unquote(parts.fragment) not in ids.get(target, set()):
+                broken.setdefault(path, []).append(f"no such id: {href}")
+    _fail_if(broken, "broken internal links")
+
+
+def test_no_injected_script_or_handler_runs(http_visits, file_visits, site_dir):
+    for visits in (http_visits, file_visits):
+        _fail_if({p: [f"window.__relspanInjected={f['injected']}"] if f["injected"] else []
+                  for p, f in visits["facts"].items()}, "injected scripts that ran")
+        _fail_if({p: [f"{f['scripts']} script elements"] if f["scripts"] else []
+                  for p, f in visits["facts"].items()}, "pages with script elements")
+        _fail_if({p: f["handlers"] for p, f in visits["facts"].items()},
+                 "elements with event-handler attributes")
+    if not os.environ.get("RELSPAN_BROWSER_SITE") and not (REPO / "site_demo").is_dir():
+        # On the synthetic sample the payloads are present as text: the check has teeth.
+        assert any(f["text"] for f in http_visits["facts"].values())
+
+
+def test_no_page_scrolls_sideways_at_360_px(file_visits):
+    _fail_if({p: [f"{f['overflow']} px wider than the viewport"] if f["overflow"] > 0 else []
+              for p, f in file_visits["facts"].items()}, "horizontal page scroll at 360 px")
+
+
+def _tab_trail(page, presses: int = 80) -> list[str]:
+    trail = []
+    for _ in range(presses):
+        page.keyboard.press("Tab")
+        trail.append(page.evaluate("""() => {
+            const a = document.activeElement;
+            if (!a || a === document.body) return 'body';
+            if (a.classList.contains('skip-link')) return 'skip';
+            if (a.closest('nav.site-nav')) return 'nav';
+            if (a.closest('main')) return 'main';
+            return 'other';
+        }"""))
+    return trail
+
+
+def _sample_paths(pages: list[str], http_visits) -> list[str]:
+    dataset = next((p for p in pages if http_visits["facts"][p]["section"] == "section-dataset"
+                    and p.count("/") >= 2), None)
+    return [p for p in ("index.html", dataset) if p]
+
+
+def test_keyboard_reaches_skip_link_first_then_nav_then_main(browser, base_url, pages,
+                                                              http_visits):
+    context = browser.new_context()
+    try:
+        page = context.new_page()
+        for path in _sample_paths(pages, http_visits):
+            page.goto(base_url + path)
+            trail = _tab_trail(page)
+            assert trail[0] == "skip", (path, trail[:5])
+            assert "nav" in trail and "main" in trail, (path, trail)
+            assert trail.index("nav") < trail.index("main"), (path, trail)
+            page.goto(base_url + path)
+            page.keyboard.press("Tab")
+            page.keyboard.press("Enter")
+            assert page.evaluate("document.activeElement.id") == "main", path
+    finally:
+        context.close()
+
+
+def _axe_violations(browser, urls: dict[str, str], scheme: str) -> dict[str, list[str]]:
+    if not AXE.is_file():
+        _unavailable(f"axe-core not found at {AXE} "
+                     "(npm install --prefix .ci/node axe-core@4)")
+    # bypass_csp lets the test inject axe; the pages themselves allow no script.
+    context = browser.new_context(bypass_csp=True, color_scheme=scheme)
+    found: dict[str, list[str]] = {}
+    try:
+        page = context.new_page()
+        for path, url in urls.items():
+            page.goto(url, wait_until="load")
+            # Without the page's CSP as a safety net, escaping alone must stop user scripts.
+            ran = page.evaluate("() => window.__relspanInjected === undefined ? null : "
+                                "String(window.__relspanInjected)")
+            if ran is not None:
+                found.setdefault(path, []).append(f"injected script ran: {ran}")
+            page.add_script_tag(path=str(AXE))
+            result = page.evaluate("""async () => {
+                const r = await axe.run(document, {resultTypes: ['violations']});
+                return r.violations.filter(v => v.impact === 'serious' || v.impact === 'critical')
+                  .map(v => v.id + ' (' + v.impact + '): ' +
+                       v.nodes.slice(0, 3).map(n => n.target.join(' ')).join(', '));
+            }""")
+            if result:
+                found[path] = result
+    finally:
+        context.close()
+    return found
+
+
+def test_axe_finds_no_serious_or_critical_violation_in_light_mode(browser, base_url, pages):
+    _fail_if(_axe_violations(browser, {p: base_url + p for p in pages}, "light"),
+             "axe-core serious/critical violations (light)")
+
+
+def test_axe_finds_no_serious_or_critical_violation_in_dark_mode(browser, base_url, pages,
+                                                                 http_visits):
+    # One page per section (the layouts differ by section, not by page).
+    first: dict[str, str] = {}
+    for p in pages:
+        first.setdefault(http_visits["facts"][p]["section"], p)
+    _fail_if(_axe_violations(browser, {p: base_url + p for p in first.values()}, "dark"),
+             "axe-core serious/critical violations (dark)")
+
+
+def test_screenshots_of_home_dataset_and_caution_pages(browser, base_url, pages, http_visits):
+    ARTIFACTS.mkdir(exist_ok=True)
+    wanted = {"home": "index.html"}
+    sample = _sample_paths(pages, http_visits)
+    if len(sample) > 1:
+        wanted["dataset"] = sample[1]
+    caution = next((p for p in pages if http_visits["facts"][p]["section"] == "section-caution"),
+                   None)
+    if caution:
+        wanted["caution"] = caution
+    context = browser.new_context(viewport={"width": 1280, "height": 900})
+    try:
+        page = context.new_page()
+        for name, path in wanted.items():
+            page.goto(base_url + path, wait_until="load")
+            shot = ARTIFACTS / f"site-{name}-{os.getpid()}.png"
+            page.screenshot(path=str(shot), full_page=True)
+            os.replace(shot, ARTIFACTS / f"site-{name}.png")
+            assert (ARTIFACTS / f"site-{name}.png").stat().st_size > 1000
+    finally:
+        context.close()

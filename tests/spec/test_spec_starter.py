@@ -1,0 +1,135 @@
+"""starter_spec writes a commented spec that loads, from the head of a CSV and a row count."""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from builder.errors import DataError
+from builder.spec import load_spec, starter_spec
+from builder.spec.starter import HEAD_ROWS, guess_time_column, prettify
+
+
+def _csv(path, rows=400, time=("quarter", None), text_col=False, seed=0):
+    rng = np.random.default_rng(seed)
+    name, values = time
+    frame = {}
+    if name is not None:
+        frame[name] = values if values is not None else [f"{1900 + i // 4}Q{i % 4 + 1}"
+                                                         for i in range(rows)]
+    frame["cargo_handled"] = rng.normal(size=rows)
+    frame["shipCalls"] = rng.integers(0, 100, size=rows)
+    frame["jobs"] = rng.normal(size=rows)
+    if text_col:
+        frame["berth"] = ["north"] * rows
+    path.parent.mkdir(parents=True, exist_ok=True)
+    pd.DataFrame(frame).to_csv(path, index=False)
+    return path
+
+
+def _write(tmp_path, csv, name="spec.yaml"):
+    spec_path = tmp_path / name
+    spec_path.parent.mkdir(parents=True, exist_ok=True)
+    text = starter_spec(csv, spec_path)
+    spec_path.write_text(text, encoding="utf-8")
+    return text, load_spec(spec_path)
+
+
+def test_starter_spec_loads_without_error(tmp_path):
+    text, spec = _write(tmp_path, _csv(tmp_path / "data" / "harbour.csv"))
+    (ds,) = spec.datasets
+    assert ds.source == "data/harbour.csv"
+    assert [w.id for w in spec.windows] == ["full", "rolling"]
+    assert spec.claims == ()
+
+
+def test_numeric_columns_become_variables_with_prettified_labels(tmp_path):
+    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv", text_col=True))
+    (ds,) = spec.datasets
+    assert ds.columns == ("cargo_handled", "shipCalls", "jobs")
+    assert [v.label for v in ds.variables] == ["Cargo handled", "Ship Calls", "Jobs"]
+
+
+def test_time_column_is_guessed_from_its_name(tmp_path):
+    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv"))
+    assert spec.datasets[0].time.column == "quarter"
+
+
+def test_time_column_is_guessed_from_values_that_parse_as_dates(tmp_path):
+    dates = pd.date_range("2000-01-01", periods=400, freq="D").strftime("%Y-%m-%d").tolist()
+    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv", time=("obs", dates)))
+    assert spec.datasets[0].time.column == "obs"
+    assert "obs" not in spec.datasets[0].columns
+
+
+def test_numeric_year_column_is_the_time_column_not_a_variable(tmp_path):
+    years = list(range(1601, 2001))
+    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv", time=("Year", years)))
+    assert spec.datasets[0].time.column == "Year"
+    assert "Year" not in spec.datasets[0].columns
+
+
+def test_measurement_named_like_time_is_not_taken_for_the_time_column():
+    head = pd.DataFrame({"time_at_berth": [1.5, 2.25, 3.0], "cargo": [1.0, 2.0, 3.0]})
+    assert guess_time_column(head) is None
+
+
+def test_no_time_column_gives_no_time_key(tmp_path):
+    text, spec = _write(tmp_path, _csv(tmp_path / "h.csv", time=(None, None)))
+    assert spec.datasets[0].time is None and "time:" not in text
+
+
+def test_rolling_plan_is_a_quarter_of_the_rows_stepping_a_fifth_of_that(tmp_path):
+    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv", rows=1000))
+    rolling = spec.plan("rolling")
+    assert (rolling.width.count, rolling.width.unit) == (250, "rows")
+    assert (rolling.step.count, rolling.step.unit) == (50, "rows")
+
+
+def test_row_count_covers_the_whole_file_beyond_the_head(tmp_path):
+    rows = HEAD_ROWS * 3 + 7
+    text, _ = _write(tmp_path, _csv(tmp_path / "h.csv", rows=rows))
+    assert f"({rows} rows, 3 numeric columns)" in text
+
+
+def test_every_key_has_a_comment_above_it(tmp_path):
+    text, _ = _write(tmp_path, _csv(tmp_path / "h.csv"))
+    lines = text.splitlines()
+    for i, line in enumerate(lines):
+        if re.match(r"^\s*(- )?[a-z_]+:", line):
+            assert lines[i - 1].lstrip().startswith("#"), line
+
+
+def test_data_outside_the_spec_folder_sets_allow_outside(tmp_path):
+    csv = _csv(tmp_path / "shared" / "h.csv")
+    text, spec = _write(tmp_path, csv, name="specs/spec.yaml")
+    assert "allow_outside: true" in text
+    assert spec.datasets[0].source_path == csv.resolve()
+
+
+def test_default_checks_are_written_and_equal_the_loaded_defaults(tmp_path):
+    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv"))
+    assert spec.checks == spec.datasets[0].checks
+
+
+def test_csv_with_fewer_than_two_numeric_columns_is_a_data_error(tmp_path):
+    path = tmp_path / "words.csv"
+    path.write_text("date,name,count\n2000-01-01,a,1\n2000-01-02,b,2\n", encoding="utf-8")
+    with pytest.raises(DataError, match=r"words\.csv: the file has 1 numeric column besides the "
+                                        r"time column; relations need at least two"):
+        starter_spec(path, tmp_path / "spec.yaml")
+
+
+def test_missing_csv_is_a_data_error(tmp_path):
+    with pytest.raises(DataError, match=r"nope\.csv: data file not found\."):
+        starter_spec(tmp_path / "nope.csv", tmp_path / "spec.yaml")
+
+
+@pytest.mark.parametrize("column, label", [("cargo_handled", "Cargo handled"),
+                                           ("GDP", "GDP"), ("ship-calls", "Ship calls"),
+                                           ("jobsTotal", "Jobs Total")])
+def test_prettify_makes_readable_labels(column, label):
+    assert prettify(column) == label
