@@ -100,14 +100,9 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
 
 def _precheck_output(out_dir: Path, protected) -> None:
     """The writer's own safety checks on the output folder, run before any work."""
-    import os
+    from builder.site.writer import check_output
 
-    from builder.site.writer import _check_target
-
-    out = Path(os.path.abspath(out_dir))
-    if out.parent.exists():
-        out = out.parent.resolve() / out.name
-    _check_target(out, [Path(p) for p in protected])
+    check_output(out_dir, protected=protected)
 
 
 @dataclass(frozen=True, slots=True, eq=False)

@@ -50,7 +50,7 @@ __all__ = [
     "window_moments",
 ]
 
-DEFAULT_CHUNK_ROWS = 65536
+DEFAULT_CHUNK_ROWS = 16384
 #: up to this many analysed rows the overview keeps every row
 OVERVIEW_ROWS = 20000
 #: above it, the overview keeps at most this many equal-size bins (means, minima, maxima)
@@ -332,13 +332,16 @@ class _Pass:
                 self.order.fmt = self.fmt
             return t
         if self.fmt is None:
-            present = [i for i, v in enumerate(chunk.times) if v is not None]
-            if not present:
+            ts = chunk.times if isinstance(chunk.times, pd.Series) else pd.Series(
+                chunk.times, dtype=object)
+            present = ts.notna().to_numpy(dtype=bool)
+            if not present.any():
                 if self.time.format == "auto":
-                    return np.full(len(chunk.times), np.datetime64("NaT", "s"))
+                    return np.full(len(ts), np.datetime64("NaT", "s"))
                 first, row = None, None
             else:
-                first, row = chunk.times[present[0]], int(chunk.rows[present[0]])
+                i = int(np.argmax(present))
+                first, row = str(ts.iloc[i]), int(chunk.rows[i])
             self.fmt = resolve_format(self.time.format, first, path=self.path, column=col,
                                       row=row)
             self.order = OrderCheck(path=self.path, column=col, fmt=self.fmt)

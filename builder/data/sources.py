@@ -58,9 +58,10 @@ class RawChunk:
     ----------
     values : (m, n) float ndarray
         Variables in the order asked for; NaN marks an empty cell.
-    times : ndarray or None
-        The time column: object array of str/None (text files) or
-        datetime64 (typed Parquet columns); None without a time column.
+    times : Series, ndarray or None
+        The time column: text (a pandas string Series, or an object array
+        of str/None) or datetime64 (typed Parquet columns); None without a
+        time column.
     times_typed : bool
         True when ``times`` is datetime64 already.
     rows : (m,) int64 ndarray
@@ -68,7 +69,7 @@ class RawChunk:
     """
 
     values: np.ndarray
-    times: np.ndarray | None
+    times: pd.Series | np.ndarray | None
     times_typed: bool
     rows: np.ndarray
 
@@ -440,7 +441,7 @@ class TableReader:
     """
 
     def __init__(self, source: TableSource, columns: Sequence[str], *, time_column: str | None,
-                 chunk_rows: int = 65536, keys: Sequence[str] | None = None) -> None:
+                 chunk_rows: int = 16384, keys: Sequence[str] | None = None) -> None:
         if chunk_rows < 1:
             raise ValueError("chunk_rows must be at least 1")
         self.source = source
@@ -504,8 +505,7 @@ class TableReader:
                     values = numeric_block(sub.iloc[:, :nvar], self.columns, rows, path=src.path)
                     times = None
                     if self.time_column is not None:
-                        t = sub.iloc[:, nvar]
-                        times = t.astype(object).where(t.notna(), None).to_numpy(dtype=object)
+                        times = sub.iloc[:, nvar].reset_index(drop=True)
                     yield RawChunk(values, times, False, rows)
             stream.drain()
             self.sha256 = stream.sha.hexdigest()

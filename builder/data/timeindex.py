@@ -175,12 +175,27 @@ def _as_str_series(values) -> tuple[pd.Series, np.ndarray]:
     """Values as a pandas string Series (Arrow-backed when pyarrow is there: fast regexes)."""
     s = values if isinstance(values, pd.Series) else pd.Series(values, dtype=object)
     s = s.reset_index(drop=True)
+    if isinstance(s.dtype, pd.StringDtype):
+        return s, s.isna().to_numpy(dtype=bool)
     try:
         s = s.astype("string[pyarrow]")
     except (ImportError, TypeError, ValueError):
         s = s.astype("string")
     missing = s.isna().to_numpy(dtype=bool)
     return s, missing
+
+
+def _match(txt: pd.Series, pattern: str) -> np.ndarray:
+    """Rows whose text matches ``pattern`` (Arrow's vectorised regex when available)."""
+    try:
+        import pyarrow as pa  # noqa: PLC0415 (optional, only for speed)
+        import pyarrow.compute as pc  # noqa: PLC0415
+
+        arr = pa.array(txt, type=pa.string(), from_pandas=True)
+        return np.asarray(pc.fill_null(pc.match_substring_regex(arr, pattern), False)
+                          .to_numpy(zero_copy_only=False), dtype=bool)
+    except ImportError:
+        return txt.str.match(pattern).fillna(False).to_numpy(dtype=bool)
 
 
 def parse_times(values, fmt: TimeFormat, *, path: str | None, column: str,
@@ -232,10 +247,10 @@ def parse_times(values, fmt: TimeFormat, *, path: str | None, column: str,
         parsed[ok] = months[ok].astype(np.int64).astype("datetime64[M]").astype("datetime64[s]")
     else:
         if kind == "date":
-            good_shape = txt.str.match(_REGEX["date"].pattern).to_numpy(dtype=bool)
+            good_shape = _match(txt, _REGEX["date"].pattern)
             dt = pd.to_datetime(txt.str.strip(), format="%Y-%m-%d", errors="coerce")
         elif kind == "datetime":
-            good_shape = txt.str.match(_REGEX["datetime"].pattern).to_numpy(dtype=bool)
+            good_shape = _match(txt, _REGEX["datetime"].pattern)
             dt = pd.to_datetime(txt.str.strip(), format="ISO8601", errors="coerce")
         else:
             good_shape = np.ones(len(txt), dtype=bool)

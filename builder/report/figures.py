@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from builder.report.figure_base import (
-    FAINT, INK, MUTED, PALETTE, FigureResult, as_float_array, as_labels, as_times, check_mapping,
+    INK, MUTED, PALETTE, FigureResult, as_float_array, as_labels, as_times, check_mapping,
     fail, fit_alt, join_words, new_figure, num, num_fig, plural, render_figure, series_style, spread_1d,
     style_context, table_csv, time_text, time_values,
 )
@@ -176,7 +176,6 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
         ax.set_ylabel("standardised value\n(standard deviations)")
         ax.margins(x=0.01)
         if is_dt:
-            import matplotlib.dates as mdates
             ax.xaxis_date()
         else:
             ax.set_xlabel("row" if axw is None else "")

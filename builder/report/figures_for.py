@@ -149,7 +149,7 @@ def spectrum_figure(result, analysis, *, name: str):
     if eq is None:
         return None
     scale = "eigenvalue (correlation scale)" if analysis.scale == "correlation" else "eigenvalue"
-    return corank_evidence(eq.eigenvalues, {f"tolerance eps = {analysis.eps:g}": analysis.eps},
+    return corank_evidence(eq.eigenvalues, {"tolerance": analysis.eps},
                            scale_label=scale, name=name)
 
 

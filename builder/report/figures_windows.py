@@ -22,7 +22,7 @@ import pandas as pd
 from builder.report.figure_base import (
     INK, MUTED, PALETTE, SEQUENTIAL, FigureResult, angle_text, as_float_array, as_labels,
     as_times, check_mapping, fail, fit_alt, join_words, new_figure, num, num_fig, plural, spread_1d,
-    style_context, styles_for, text_color_on, time_text, time_values,
+    style_context, styles_for, text_color_on, time_values,
 )
 
 __all__ = ["subspace_stability", "coefficient_swing"]

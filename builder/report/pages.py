@@ -427,7 +427,7 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
         title = plan.plan.title or plan.plan.id
         paths = [window_path(ds.id, plan.plan.id, i) for i in range(len(plan.analyses))]
         for i, (a, w) in enumerate(zip(plan.analyses, plan.windows)):
-            body = [f"## In plain words {{#summary}}\n"]
+            body = ["## In plain words {#summary}\n"]
             cor = {k: v for k, v in a.coranks.items() if k != "elementary"}
             known = sorted({v for v in cor.values() if v is not None})
             if known:
@@ -465,9 +465,12 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
                 body.append(pub.figure(ff.map_figure(result, a, q, name=f"{ds.id}-{plan.plan.id}-w{i + 1:02d}-map"),
                                        f"figures/{ds.id}/{plan.plan.id}",
                                        f"The elementary regressions of this window. {CAUTION_LINK}."))
-            body.append(pub.figure(ff.spectrum_figure(result, a, name=f"{ds.id}-{plan.plan.id}-w{i + 1:02d}-spectrum"),
-                                   f"figures/{ds.id}/{plan.plan.id}", "Eigenvalues of this window against "
-                                   "the tolerance."))
+            if a.equal is not None:
+                ev = a.equal.eigenvalues
+                body.append(f"Eigenvalues of this window ({'correlation scale' if a.scale == 'correlation' else 'data units'}"
+                            f", smallest first) against the tolerance eps = {a.eps:g}:\n")
+                body.append(_table(tuple(f"\u03bb{j + 1}" for j in range(len(ev))),
+                                   [tuple(fmt(v) + (" \u2264 eps" if v <= a.eps else "") for v in ev)]))
             prev = (plan.analyses[i - 1].label, paths[i - 1]) if i > 0 else None
             nxt = (plan.analyses[i + 1].label, paths[i + 1]) if i + 1 < len(paths) else None
             pages.append(Page(paths[i], f"{ds.title}: {a.label}", "\n".join(body), "window",

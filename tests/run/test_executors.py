@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 import socket
 import sys
+from pathlib import Path
 
 import pytest
 
@@ -14,6 +15,13 @@ from builder.run.executors import (
     SerialExecutor, auto_chunk_size, available_cores, map_in_chunks, open_executor, worker_count)
 
 from . import _tasks
+
+# Workers (process pool, Dask) import the helpers by module name (``run._tasks`` or
+# ``tests.run._tasks``, depending on pytest's import mode). Spawned workers inherit sys.path,
+# so make sure the folder holding that top-level package is on it in every import mode.
+_ROOT = str(Path(_tasks.__file__).resolve().parents[len(_tasks.__name__.split(".")) - 1])
+if _ROOT not in sys.path:
+    sys.path.insert(0, _ROOT)
 
 
 class Counter:
