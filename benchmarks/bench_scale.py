@@ -46,8 +46,8 @@ REPO = Path(__file__).resolve().parents[1]
 if str(REPO) not in sys.path:  # runnable from a checkout without installing
     sys.path.insert(0, str(REPO))
 
-from builder.analysis.batched import batched_elementary_regressions, stacked_block_moments  # noqa: E402
-from builder.analysis.moments import batched_window_moments  # noqa: E402
+from builder.analysis.batched import (batched_elementary_regressions, merge_window_runs,  # noqa: E402
+                                      stacked_block_moments)
 
 N_VARS = 6
 WIDTH = 250
@@ -127,19 +127,19 @@ def relspan_rolling(x: np.ndarray):
     counts, means, comoments = stacked_block_moments(x, BLOCK)
     per = WIDTH // BLOCK
     starts = np.arange(0, (x.shape[0] - WIDTH) // BLOCK + 1, STEP // BLOCK)
-    c, m, cm = batched_window_moments(counts, means, comoments, starts, np.full(starts.size, per))
+    c, m, cm = merge_window_runs(counts, means, comoments, starts, np.full(starts.size, per))
     return batched_elementary_regressions(c, cm, means=m)
 
 
 def loop_rolling(x: np.ndarray):
     """The plain way: np.cov and np.linalg.inv for each window in a Python loop."""
-    coefs, resvar = [], []
+    relations, resvar = [], []
     for s in range(0, x.shape[0] - WIDTH + 1, STEP):
         p = np.linalg.inv(np.cov(x[s:s + WIDTH], rowvar=False))
         d = np.diag(p)
-        coefs.append(-p / d[:, None])
+        relations.append(p / d[:, None])  # row j: -(OLS slopes of x_j), 1 at j
         resvar.append(1.0 / d)
-    return np.array(coefs), np.array(resvar)
+    return np.array(relations), np.array(resvar)
 
 
 def statsmodels_rolling(x: np.ndarray):
@@ -472,7 +472,10 @@ def render(machine: dict, rows: list[RollingRow], outcomes: list[Outcome], quick
               "and their residual variances.", "",
               "- **relspan**: block moments of 50 rows (one reshape, corrected two-pass sums), "
               "windows merged from 5 blocks each (Chan-Golub-LeVeque updates, all windows at "
-              "once), then one batched Cholesky inverse of the correlation matrices.",
+              "once: `merge_window_runs`, bit for bit `batched_window_moments`), then a batched "
+              "Cholesky factorisation of the correlation matrices, a vectorised triangular "
+              "inverse, coefficients, residual variances, R^2, intercepts and 1-norm condition "
+              "numbers.",
               f"- **loop**: `np.cov` + `np.linalg.inv` per window in a Python loop (same windows).",
               f"- **{N_VARS} x RollingOLS**: statsmodels `RollingOLS(...).fit()` for each of the "
               f"{N_VARS} variables. RollingOLS has no step option: it fits every step-1 window "

@@ -67,7 +67,7 @@ def main() -> None:
                  WindowPlanSpec("w", "rolling", width=Span(8, "weeks"), step=Span(4, "weeks"))]
         print(f"file: {size:.1f} MB, {args.rows} rows, 4 variables + time; plans: full, "
               "rolling 20000/5000 rows, rolling 8/4 weeks")
-        for chunk in (5_000, 65_536, 262_144):
+        for chunk in (5_000, 16_384, 65_536, 262_144):
             _, dt, _ = measure(lambda: prepare_dataset(ds, plans, chunk_rows=chunk), traced=False)
             prep, _, peak = measure(lambda: prepare_dataset(ds, plans, chunk_rows=chunk),
                                     traced=True)

@@ -70,7 +70,7 @@ def check(spec_path, *, jobs: int | None = None, scheduler: str | None = None, u
     t0 = time.perf_counter()
     spec = _load(spec_path)
     run = run_analysis(spec, jobs=jobs, scheduler=scheduler, use_cache=use_cache, cache_dir=cache_dir,
-                       progress=progress)
+                       progress=progress, write_cache=False)
     return Outcome(run, None, time.perf_counter() - t0)
 
 
@@ -82,7 +82,6 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
     spec). It must not be the spec's folder nor contain the data; an
     existing folder is replaced only when relspan wrote it.
     """
-    from builder.report.site_content import site_content
     from builder.run.pipeline import run_analysis
     from builder.site import render_site, write_site
 
@@ -91,11 +90,25 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
     out_dir = Path(out) if out is not None else (spec.site.out_path or spec.folder / spec.site.out)
     protected = [spec.folder] + [ds.source_path for ds in spec.datasets]
     _precheck_output(out_dir, protected)  # before the (long) analysis, so a bad --out fails fast
-    run = run_analysis(spec, jobs=jobs, scheduler=scheduler, use_cache=use_cache, cache_dir=cache_dir,
-                       progress=progress)
-    files = render_site(site_content(run))
+    from builder.run.pipeline import LazyExecutor, open_cache
+
+    cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
+    with LazyExecutor(jobs, scheduler) as executor:
+        run = run_analysis(spec, progress=progress, executor=executor, cache=cache)
+        content = _content_with_figures(run, executor, cache, progress)
+    files = render_site(content)
     write_site(files, out_dir, protected=protected)
     return Outcome(run, out_dir, time.perf_counter() - t0)
+
+
+def _content_with_figures(run, executor, cache, progress: bool):
+    """Site content; figures are drawn on the executor (opened only when one is not cached)."""
+    from builder.report.site_content import site_content
+    from builder.run.progress import Progress
+
+    # the total is set once the pages are laid out and the uncached figures are known
+    with Progress("figures", 0, enabled=None if progress else False) as bar:
+        return site_content(run, executor=executor, cache=cache, progress=bar)
 
 
 def _precheck_output(out_dir: Path, protected) -> None:

@@ -1,9 +1,11 @@
 """Read data files in chunks: CSV/TSV always, Parquet when pyarrow is installed.
 
-This is the only module that opens data files. A :class:`TableReader` reads
-only the selected columns, chunk by chunk, turns each chunk into a float
-matrix (NaN for empty cells) plus the raw time column, and checks every cell
-on the way: text that is not a number, infinities and magnitudes whose
+This is the only module that opens data files. A :class:`TableReader` keeps
+only the selected columns, chunk by chunk (CSV rows are still tokenised in
+full, so that a row with more fields than the header is caught; Parquet reads
+only the selected columns), turns each chunk into a float matrix (NaN for
+empty cells) plus the raw time column, and checks every selected cell on the
+way: text that is not a number, infinities and magnitudes whose
 squares would overflow are errors that name the file, the column, the row and
 the value. The SHA-256 of the file's bytes is computed while the file is read
 (CSV) or by one streaming hash (Parquet).

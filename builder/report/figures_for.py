@@ -76,7 +76,7 @@ def map_data(result, analysis, q: int):
                              flat_dirs=flat.directions, distances=flat.distances, simplex=simplex)
 
 
-def map_figure(result, analysis, q: int, *, name: str):
+def map_figure(result, analysis, q: int, name: str):
     data = map_data(result, analysis, q)
     if data is None:
         return None
@@ -144,7 +144,7 @@ def swing_figure(result, plan, q: int):
                              name=f"{result.spec.id}-{plan.plan.id}-swing")
 
 
-def spectrum_figure(result, analysis, *, name: str):
+def spectrum_figure(result, analysis, name: str):
     eq = analysis.equal or None
     if eq is None:
         return None
@@ -167,7 +167,7 @@ def timeline_figure(result, plan):
                            name=f"{result.spec.id}-{plan.plan.id}-coranks")
 
 
-def frisch_figure(result, analysis, *, name: str):
+def frisch_figure(result, analysis, name: str):
     if analysis.frisch_lower is None:
         return None
     ref = analysis.ref

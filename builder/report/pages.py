@@ -52,33 +52,116 @@ def window_path(ds_id: str, plan_id: str, i: int) -> str:
     return f"datasets/{ds_id}/{plan_id}/window-{i + 1:02d}.html"
 
 
+@dataclass(frozen=True, slots=True)
+class FigureJob:
+    """A figure to draw later (possibly in another process): ``fn(*args)`` -> FigureResult or None."""
+
+    token: str
+    fn: object
+    args: tuple
+    folder: str
+    caption_markdown: str
+    ident: str
+    dataset_key: str
+
+
+def render_job(item: tuple) -> tuple | None:
+    """Draw and render one figure job; top-level so process pools and Dask can run it.
+
+    Returns ``(name, alt, description, image_bytes, csv_bytes, width_px, height_px)`` or None
+    when the figure does not apply to these results.
+    """
+    fn, args, fmt_ = item
+    fig = fn(*args)
+    if fig is None:
+        return None
+    size = fig.figure.get_size_inches() * 96
+    return (fig.name, fig.alt, fig.description, render_figure(fig, fmt_), table_csv(fig),
+            int(round(size[0])), int(round(size[1])))
+
+
 @dataclass
 class Publisher:
-    """Collects the files of the site (figures, their data CSVs, downloads)."""
+    """Collects the files of the site (figures, their data CSVs, downloads).
+
+    Figures are registered as jobs and placed in the page as a token;
+    :meth:`resolve` draws them all at once (on an executor, with a cache)
+    and puts the finished Markdown in place of each token.
+    """
 
     fmt: str = "svg"
     files: dict = field(default_factory=dict)
+    jobs: list = field(default_factory=list)
 
     def add(self, path: str, data: bytes) -> str:
         self.files[path] = data
         return "/" + path
 
-    def figure(self, fig, folder: str, caption_markdown: str = "") -> str:
-        """Render a FigureResult into ``folder`` and return the Markdown that shows it."""
-        if fig is None:
-            return ""
-        import matplotlib.pyplot as plt
+    def figure(self, fn, args: tuple, folder: str, caption_markdown: str = "", *, ident: str,
+               dataset_key: str = "") -> str:
+        """Register ``fn(*args)`` as a figure of ``folder``; returns its placeholder block."""
+        token = f"@@relspan-figure-{len(self.jobs):05d}@@"
+        self.jobs.append(FigureJob(token, fn, tuple(args), folder, caption_markdown, ident, dataset_key))
+        return f"\n\n{token}\n\n"
 
-        try:
-            img = self.add(f"{folder}/{fig.name}.{self.fmt}", render_figure(fig, self.fmt))
-            csv = self.add(f"{folder}/{fig.name}.csv", table_csv(fig))
-        finally:
-            plt.close(fig.figure)
-        long = (escape_text(fig.description) +
-                f"\n\nThe numbers behind this figure: [{escape_text(fig.name)}.csv]({csv}).")
-        size = fig.figure.get_size_inches() * 96
-        return blocks.figure(img, fig.alt, caption_markdown, long_description_markdown=long,
-                             width=int(round(size[0])), height=int(round(size[1])))
+    def _markdown(self, job: FigureJob, rendered) -> str:
+        if rendered is None:
+            return ""
+        name, alt, description, image, csv_bytes, width, height = rendered
+        img = self.add(f"{job.folder}/{name}.{self.fmt}", image)
+        csv = self.add(f"{job.folder}/{name}.csv", csv_bytes)
+        long = (escape_text(description) +
+                f"\n\nThe numbers behind this figure: [{escape_text(name)}.csv]({csv}).")
+        return blocks.figure(img, alt, job.caption_markdown, long_description_markdown=long,
+                             width=width, height=height)
+
+    def resolve(self, pages: list, *, executor=None, cache=None, progress=None) -> list:
+        """Draw every registered figure and return ``pages`` with their tokens replaced."""
+        import dataclasses
+
+        from builder import __version__
+        from builder.run.executors import SerialExecutor, map_in_chunks
+
+        keys = []
+        for job in self.jobs:
+            if cache is not None and job.dataset_key:
+                from builder.run.cache import task_key
+
+                keys.append(task_key(task="figure", dataset=job.dataset_key, ident=job.ident,
+                                     fmt=self.fmt, version=__version__))
+            else:
+                keys.append(None)
+        missing = object()
+        done = {}
+        for i, key in enumerate(keys):
+            if key is not None:
+                hit = cache.get(key, missing)
+                if hit is not missing:
+                    done[i] = hit
+        todo = [i for i in range(len(self.jobs)) if i not in done]
+        items = [(self.jobs[i].fn, self.jobs[i].args, self.fmt) for i in todo]
+        if items:
+            ex = executor.get() if hasattr(executor, "get") else executor  # a LazyExecutor opens here
+            if progress is not None and hasattr(progress, "total"):
+                progress.total = len(items)
+            results = map_in_chunks(ex or SerialExecutor(), render_job, items, progress=progress)
+        else:
+            results = []
+        for i, rendered in zip(todo, results):
+            done[i] = rendered
+            if keys[i] is not None:
+                cache.put(keys[i], rendered)
+        snippets = {job.token: self._markdown(job, done[i]) for i, job in enumerate(self.jobs)}
+        out = []
+        for page in pages:
+            body = page.body_markdown
+            if "@@relspan-figure-" in body:
+                for token, md in snippets.items():
+                    if token in body:
+                        body = body.replace(f"\n\n{token}\n\n", md or "\n\n")
+                page = dataclasses.replace(page, body_markdown=body)
+            out.append(page)
+        return out
 
     def site_files(self) -> tuple[SiteFile, ...]:
         return tuple(SiteFile(p, d) for p, d in sorted(self.files.items()))
@@ -289,20 +372,25 @@ def _plan_section(result, plan, pub: Publisher, folder: str) -> str:
         stab = plan.stability.get(("equal", q))
         if stab is not None and n >= 2:
             out.append(escape_text(stab.verdict) + "\n")
+    from builder.report import figures_for as ff
+
     q = result.examined[0] if result.examined else None
+    key, pid = result.cache_key, plan.plan.id
     if q is not None:
-        out.append(pub.figure(_fig("gallery", result, plan, q), folder,
+        out.append(pub.figure(ff.gallery_figure, (result, plan, q), folder,
                               "The elementary-regression map in every window, on shared axes: if the flat "
                               "stays while the points move, the relations are stable even though single "
-                              "coefficients are not."))
-        out.append(pub.figure(_fig("stability", result, plan, q), folder,
+                              "coefficients are not.", ident=f"{pid}/gallery/{q}", dataset_key=key))
+        out.append(pub.figure(ff.stability_figure, (result, plan, "equal", q), folder,
                               "Principal angles between the windows' relation subspaces (left) and each "
-                              "window's angle to the full sample (right)."))
-        out.append(pub.figure(_fig("swing", result, plan, q), folder,
+                              "window's angle to the full sample (right).", ident=f"{pid}/angles/{q}",
+                              dataset_key=key))
+        out.append(pub.figure(ff.swing_figure, (result, plan, q), folder,
                               f"A single coefficient per window under each noise assumption, above the "
-                              f"subspace angle. {CAUTION_LINK}."))
-    out.append(pub.figure(_fig("timeline", result, plan, q), folder,
-                          "The number of relations in each window under each noise assumption."))
+                              f"subspace angle. {CAUTION_LINK}.", ident=f"{pid}/swing/{q}", dataset_key=key))
+    out.append(pub.figure(ff.timeline_figure, (result, plan), folder,
+                          "The number of relations in each window under each noise assumption.",
+                          ident=f"{pid}/coranks", dataset_key=key))
     swing = plan.swings.get("elementary")
     if swing is not None and n >= 2:
         ref = result.full.ref
@@ -316,20 +404,6 @@ def _plan_section(result, plan, pub: Publisher, folder: str) -> str:
                    f"the windows ({CAUTION_LINK}):\n")
         out.append(_table(("Coefficient of", "Smallest", "Largest", "Sign changes"), rows))
     return "\n".join(o for o in out if o)
-
-
-def _fig(kind, result, plan, q):
-    from builder.report import figures_for as ff
-
-    if kind == "gallery":
-        return ff.gallery_figure(result, plan, q)
-    if kind == "stability":
-        return ff.stability_figure(result, plan, "equal", q)
-    if kind == "swing":
-        return ff.swing_figure(result, plan, q)
-    if kind == "timeline":
-        return ff.timeline_figure(result, plan)
-    raise ValueError(kind)
 
 
 def _claims_table(verdicts) -> str:
@@ -360,8 +434,10 @@ def dataset_page(run, result, pub: Publisher) -> Page:
                                    "before using one.", title="Single coefficients"))
     body.append("## The data {#data}\n")
     body.append(_data_summary(result))
-    body.append(pub.figure(ff.overview_figure(result), folder,
-                           "The analysed series, each standardised, with the windows of each plan below."))
+    key = result.cache_key
+    body.append(pub.figure(ff.overview_figure, (result,), folder,
+                           "The analysed series, each standardised, with the windows of each plan below.",
+                           ident="overview", dataset_key=key))
     body.append("## The noise assumptions side by side {#assumptions}\n")
     body.append(f"Full sample, {full.count} rows. Tolerance: {_eps_words(full)}. {CAUTION_LINK}.\n")
     body.append(_side_by_side(result))
@@ -371,9 +447,10 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     body.append("## How many relations {#corank}\n")
     body.append(f"Relations examined: {', '.join(str(q) for q in result.examined) or 'none'} "
                 f"({escape_text(result.examined_from)}).\n")
-    body.append(pub.figure(ff.spectrum_figure(result, full, name=f"{ds.id}-spectrum"), folder,
+    body.append(pub.figure(ff.spectrum_figure, (result, full, f"{ds.id}-spectrum"), folder,
                            "Eigenvalues of the full-sample covariance against the tolerance: every "
-                           "eigenvalue below the line is room for one more relation."))
+                           "eigenvalue below the line is room for one more relation.", ident="spectrum",
+                           dataset_key=key))
     if full.diagonal is not None:
         body.append(blocks.details("Independent noise (Frisch scheme): the corank search",
                                    escape_text(full.diagonal.corank.summary)))
@@ -383,16 +460,16 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     if result.examined and result.examined[0] == 1 and full.frisch_lower is not None:
         body.append("## Bounds under independent noise {#frisch}\n")
         body.append(escape_text(full.diagonal.q1.reason) + f" {CAUTION_LINK}.\n")
-        body.append(pub.figure(ff.frisch_figure(result, full, name=f"{ds.id}-frisch"), folder,
+        body.append(pub.figure(ff.frisch_figure, (result, full, f"{ds.id}-frisch"), folder,
                                "Range of each coefficient over every independent-noise explanation of the "
-                               "data."))
+                               f"data. {CAUTION_LINK}.", ident="frisch", dataset_key=key))
     q = result.examined[0] if result.examined else None
     if q is not None:
         body.append("## The elementary regressions {#map}\n")
-        body.append(pub.figure(ff.map_figure(result, full, q, name=f"{ds.id}-map"), folder,
+        body.append(pub.figure(ff.map_figure, (result, full, q, f"{ds.id}-map"), folder,
                                "Each point is the least-squares relation that treats one variable as the "
                                "only noisy one. Their spread shows how much the answer depends on that "
-                               f"choice. {CAUTION_LINK}."))
+                               f"choice. {CAUTION_LINK}.", ident=f"map/{q}", dataset_key=key))
     body.append("## Across windows {#stability}\n")
     body.append("[](){#swing}[](){#corank-timeline}\n")
     for plan in result.plans:
@@ -462,9 +539,10 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
                         f"({CAUTION_LINK}):\n")
             body.append(_table(("Noise assumption", "Relations", "Coefficients"), rows))
             if q is not None:
-                body.append(pub.figure(ff.map_figure(result, a, q, name=f"{ds.id}-{plan.plan.id}-w{i + 1:02d}-map"),
+                body.append(pub.figure(ff.map_figure, (result, a, q, f"{ds.id}-{plan.plan.id}-w{i + 1:02d}-map"),
                                        f"figures/{ds.id}/{plan.plan.id}",
-                                       f"The elementary regressions of this window. {CAUTION_LINK}."))
+                                       f"The elementary regressions of this window. {CAUTION_LINK}.",
+                                       ident=f"{plan.plan.id}/w{i}/map/{q}", dataset_key=result.cache_key))
             if a.equal is not None:
                 ev = a.equal.eigenvalues
                 body.append(f"Eigenvalues of this window ({'correlation scale' if a.scale == 'correlation' else 'data units'}"

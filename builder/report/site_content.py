@@ -125,8 +125,13 @@ def _findings_csv(run) -> bytes:
     return _csv(pd.DataFrame(rows, columns=["dataset", "kind", "topic", "plan", "headline", "detail"]))
 
 
-def site_content(run) -> SiteContent:
-    """The :class:`~builder.site.content.SiteContent` of a whole run."""
+def site_content(run, *, executor=None, cache=None, progress=None) -> SiteContent:
+    """The :class:`~builder.site.content.SiteContent` of a whole run.
+
+    Figures are drawn on ``executor`` (default: in this process) and kept in
+    ``cache`` (a :class:`~builder.run.cache.ResultCache`) under the content
+    key of their dataset, so an unchanged rebuild draws nothing.
+    """
     spec = run.spec
     pub = P.Publisher(fmt=spec.site.figures)
     pages: list[Page] = [P.home_page(run)]
@@ -142,6 +147,7 @@ def site_content(run) -> SiteContent:
     spec_link = pub.add(f"data/{spec.path.name}", spec.text.encode("utf-8"))
     pages += [P.claims_page(run), P.caution_page(), P.methods_page(pub), P.glossary_page(),
               P.reproduce_page(run, pub, spec_link), P.downloads_page(run)]
+    pages = pub.resolve(pages, executor=executor, cache=cache, progress=progress)
     nav = (
         NavItem("Home", "index.html"),
         NavItem("Datasets", P.dataset_path(run.datasets[0].spec.id) if run.datasets else "index.html",

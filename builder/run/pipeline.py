@@ -28,7 +28,7 @@ from builder.errors import RelspanWarning
 from builder.spec.model import DatasetSpec, Spec, WindowPlanSpec
 
 __all__ = ["PlanResult", "DatasetResult", "AnalysisRun", "run_analysis", "analyse_prepared",
-           "CORANK_PREFERENCE"]
+           "LazyExecutor", "open_cache", "CORANK_PREFERENCE"]
 
 #: which assumption's corank is examined when the spec says ``coranks: auto``
 CORANK_PREFERENCE = ("equal", "shaped", "bounded", "diagonal")
@@ -89,6 +89,10 @@ class DatasetResult:
         :class:`builder.analysis.identified.Identified` per examined corank.
     flat : mapping int -> object
         :class:`builder.analysis.flat.ElementaryFlat` per examined corank.
+    threshold_deg : float
+        Stability threshold (largest principal angle) in degrees.
+    cache_key : str
+        Content key of everything this result depends on ("" when not cached).
     """
 
     spec: DatasetSpec
@@ -101,6 +105,7 @@ class DatasetResult:
     identified: dict
     flat: dict
     threshold_deg: float
+    cache_key: str = ""
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -152,6 +157,34 @@ class AnalysisRun:
             if d.spec.id == dataset_id:
                 return d
         raise KeyError(dataset_id)
+
+
+class LazyExecutor:
+    """Opens the executor the user asked for on first use only (a cached rebuild needs none)."""
+
+    def __init__(self, jobs: int | None = None, scheduler: str | None = None) -> None:
+        self.jobs, self.scheduler = jobs, scheduler
+        self._cm = None
+        self._ex = None
+
+    def get(self):
+        if self._ex is None:
+            from builder.run.executors import open_executor
+
+            self._cm = open_executor(self.jobs, self.scheduler)
+            self._ex = self._cm.__enter__()
+        return self._ex
+
+    def close(self) -> None:
+        if self._cm is not None:
+            cm, self._cm, self._ex = self._cm, None, None
+            cm.__exit__(None, None, None)
+
+    def __enter__(self) -> "LazyExecutor":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
 
 
 def environment() -> dict:
@@ -306,8 +339,8 @@ def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], s
 
 
 def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None = None,
-                 use_cache: bool = True, cache_dir: Path | None = None,
-                 progress: bool = True) -> AnalysisRun:
+                 use_cache: bool = True, cache_dir: Path | None = None, progress: bool = True,
+                 executor: LazyExecutor | None = None, cache=None, write_cache: bool = True) -> AnalysisRun:
     """Analyse every dataset of ``spec`` and check its claims.
 
     Parameters
@@ -315,50 +348,65 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
     spec : Spec
         A validated spec (:func:`builder.spec.load_spec`).
     jobs, scheduler
-        Where window tasks run (:func:`builder.run.executors.open_executor`).
+        Where window tasks run (:func:`builder.run.executors.open_executor`);
+        ignored when ``executor`` is given.
     use_cache : bool
-        Read and write the result cache (``--no-cache`` sets False).
+        Read the result cache (``--no-cache`` sets False).
     cache_dir : Path, optional
         Cache folder (default ``.relspan-cache`` beside the spec).
     progress : bool
         Show a progress line on stderr when it is a terminal.
+    executor : LazyExecutor, optional
+        Shared with later stages (figures) so workers start once.
+    cache : ResultCache, optional
+        Shared with later stages; default: opened from ``cache_dir``.
+    write_cache : bool
+        Store new results (``relspan check`` only reads the cache).
     """
-    from contextlib import ExitStack
-
     from builder.analysis.claims import evaluate_claims
     from builder.data.prepare import prepare_dataset
     from builder.data.sources import file_sha256
-    from builder.run.cache import DEFAULT_CACHE_DIRNAME, ResultCache
-    from builder.run.executors import open_executor
     from builder.run.progress import Progress
 
-    cache = ResultCache((cache_dir or spec.folder / DEFAULT_CACHE_DIRNAME) if use_cache else None)
+    if cache is None:
+        cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
+    own = executor is None
+    lazy = executor or LazyExecutor(jobs, scheduler)
     results: list[DatasetResult] = []
     messages: list[str] = []
-    with ExitStack() as stack:
-        executor = None
+    try:
         for ds in spec.datasets:
             plans = spec.plans_for(ds)
             key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
             cached = cache.get(key)
             if cached is not None:
                 result, cached_messages = cached
-                results.append(dataclasses.replace(result, spec=ds))
+                results.append(dataclasses.replace(result, spec=ds, cache_key=key))
                 messages.extend(cached_messages)
                 continue
             prepared = prepare_dataset(ds, plans)
-            if executor is None:
-                executor = stack.enter_context(open_executor(jobs, scheduler))
             total = 1 + sum(len(prepared.plan(p.id).windows) for p in plans)
             sink: list[str] = []
             with Progress(f"analysis of {ds.id}", total, enabled=None if progress else False) as bar:
-                result = analyse_prepared(ds, prepared, plans, executor=executor, progress=bar,
+                result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
                                           warn_sink=sink)
-            cache.put(key, (result, tuple(sink)))
+            result = dataclasses.replace(result, cache_key=key)
+            if write_cache:
+                cache.put(key, (result, tuple(sink)))
             results.append(result)
             messages.extend(sink)
+    finally:
+        if own:
+            lazy.close()
     for m in dict.fromkeys(messages):
         warnings.warn(m, RelspanWarning, stacklevel=2)
     run = AnalysisRun(spec=spec, datasets=tuple(results), verdicts=(), warnings=tuple(dict.fromkeys(messages)),
                       environment=environment(), cache_hits=cache.hits, cache_misses=cache.misses)
     return dataclasses.replace(run, verdicts=tuple(evaluate_claims(run)))
+
+
+def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None):
+    """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled."""
+    from builder.run.cache import DEFAULT_CACHE_DIRNAME, ResultCache
+
+    return ResultCache((cache_dir or spec.folder / DEFAULT_CACHE_DIRNAME) if use_cache else None)

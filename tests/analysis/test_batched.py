@@ -7,7 +7,7 @@ import pytest
 
 from builder.analysis.batched import (
     batched_correlations, batched_covariances, batched_eigh, batched_elementary_regressions,
-    stacked_block_moments)
+    merge_window_runs, stacked_block_moments)
 from builder.analysis.moments import batched_window_moments, moments_of
 
 
@@ -43,6 +43,48 @@ class TestStackedBlockMoments:
     def test_rejects_a_block_size_below_one(self):
         with pytest.raises(ValueError, match="rows_per_block"):
             stacked_block_moments(np.zeros((4, 2)), 0)
+
+
+class TestMergeWindowRuns:
+    def test_is_bit_for_bit_batched_window_moments_for_rolling_windows(self):
+        counts, means, comoments = stacked_block_moments(_series(), 50)
+        starts = np.arange(0, counts.size - 4)
+        lengths = np.full(starts.size, 5)
+        ours = merge_window_runs(counts, means, comoments, starts, lengths)
+        ref = batched_window_moments(counts, means, comoments, starts, lengths)
+        for a, b in zip(ours, ref):
+            assert np.array_equal(a, b)
+
+    def test_is_bit_for_bit_batched_window_moments_for_mixed_lengths(self):
+        counts, means, comoments = stacked_block_moments(_series(), 50)
+        starts = np.array([0, 3, 3, 10, 0, 39])
+        lengths = np.array([40, 1, 7, 2, 5, 1])  # expanding-, period- and one-block windows
+        ours = merge_window_runs(counts, means, comoments, starts, lengths)
+        ref = batched_window_moments(counts, means, comoments, starts, lengths)
+        for a, b in zip(ours, ref):
+            assert np.array_equal(a, b)
+
+    def test_equals_moments_of_the_raw_rows(self):
+        x = _series()
+        counts, means, comoments = stacked_block_moments(x, 50)
+        c, m, cm = merge_window_runs(counts, means, comoments, np.array([2]), np.array([9]))
+        ref = moments_of(x[100:550])
+        assert c[0] == 450
+        np.testing.assert_allclose(m[0], ref.mean, rtol=1e-14)
+        np.testing.assert_allclose(cm[0], ref.comoment, rtol=1e-11)
+
+    def test_skips_empty_blocks(self):
+        counts = np.array([3, 0, 2])
+        means = np.array([[1.0], [0.0], [4.0]])
+        comoments = np.array([[[2.0]], [[0.0]], [[0.5]]])
+        c, m, cm = merge_window_runs(counts, means, comoments, np.array([0]), np.array([3]))
+        assert c[0] == 5 and m[0, 0] == pytest.approx(2.2)
+        assert cm[0, 0, 0] == pytest.approx(2.0 + 0.5 + 9.0 * 3 * 2 / 5)  # Chan et al. update
+
+    def test_rejects_windows_outside_the_blocks(self):
+        with pytest.raises(ValueError, match="run of existing blocks"):
+            merge_window_runs(np.ones(3), np.zeros((3, 2)), np.zeros((3, 2, 2)),
+                              np.array([2]), np.array([2]))
 
 
 class TestBatchedCovariances:
@@ -130,11 +172,22 @@ class TestBatchedElementaryRegressions:
         res = batched_elementary_regressions(np.array([m.count]), m.comoment[None])
         assert res.singular.tolist() == [True]
 
-    def test_condition_number_is_that_of_the_correlation_matrix(self):
+    def test_condition_number_is_the_1_norm_one_of_the_correlation_matrix(self):
         x = _series(t=500, n=3, seed=2)
         m = moments_of(x)
         res = batched_elementary_regressions(np.array([m.count]), m.comoment[None])
-        np.testing.assert_allclose(res.condition[0], np.linalg.cond(m.correlation()), rtol=1e-8)
+        r = m.correlation()
+        np.testing.assert_allclose(res.condition[0], np.linalg.cond(r, 1), rtol=1e-8)
+        assert np.linalg.cond(r) <= res.condition[0] <= 3 * np.linalg.cond(r)
+
+    def test_nearly_collinear_but_regular_window_is_not_flagged(self):
+        x = _series(t=250, n=3, seed=4)
+        x[:, 2] = x[:, 0] + x[:, 1] + 1e-6 * np.random.default_rng(1).standard_normal(250)
+        m = moments_of(x)
+        res = batched_elementary_regressions(np.array([m.count]), m.comoment[None])
+        assert not res.singular[0] and res.condition[0] > 1e9
+        p = np.linalg.inv(m.covariance())
+        np.testing.assert_allclose(res.relations[0], p / np.diag(p)[:, None], rtol=1e-5)
 
     def test_means_of_the_wrong_shape_are_refused(self):
         m = moments_of(_series(t=100, n=3))
