@@ -7,6 +7,7 @@ and maps outcomes to exit codes:
 * 1 - a claim failed (or, with ``--strict``, a warning was raised);
 * 2 - bad input: spec, data, options or output folder (one located paragraph
   on stderr, never a traceback);
+* 3 - an internal error (a bug of relspan's; one paragraph, traceback with RELSPAN_DEBUG=1);
 * 130 - interrupted (Ctrl-C).
 """
 
@@ -24,7 +25,7 @@ from builder.errors import OptionsError, RelspanError, RelspanWarning
 
 __all__ = ["main"]
 
-EXIT_OK, EXIT_CLAIM_FAILED, EXIT_BAD_INPUT, EXIT_INTERRUPTED = 0, 1, 2, 130
+EXIT_OK, EXIT_CLAIM_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
 
 
 class _Parser(argparse.ArgumentParser):
@@ -175,11 +176,10 @@ def _cmd_new(args: argparse.Namespace) -> int:
 
 
 def _cmd_schema(args: argparse.Namespace) -> int:
-    import json
+    from builder.spec.schema import schema_json_text
 
-    from builder.spec import json_schema
-
-    sys.stdout.write(json.dumps(json_schema(), indent=2, sort_keys=True, ensure_ascii=False) + "\n")
+    text = schema_json_text()
+    sys.stdout.write(text if text.endswith("\n") else text + "\n")
     return EXIT_OK
 
 
@@ -204,6 +204,18 @@ def main(argv: Sequence[str] | None = None) -> int:
         return EXIT_INTERRUPTED
     except BrokenPipeError:  # e.g. `relspan schema | head`
         return EXIT_OK
+    except Exception as err:  # a bug of ours: say so in one paragraph, never a bare traceback
+        import os
+        import traceback
+
+        if os.environ.get("RELSPAN_DEBUG"):
+            traceback.print_exc()
+        where = traceback.extract_tb(err.__traceback__)[-1]
+        print(f"relspan: internal error ({type(err).__name__}: {err}) at {Path(where.filename).name}:"
+              f"{where.lineno}. This is a bug in relspan, not in your input; the previous site (if any) "
+              "is unchanged.\n  Fix: rerun with RELSPAN_DEBUG=1 for the traceback and report it.",
+              file=sys.stderr)
+        return EXIT_INTERNAL
 
 
 if __name__ == "__main__":  # pragma: no cover

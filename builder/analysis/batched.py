@@ -19,6 +19,9 @@ References
 .. [4] T. F. Chan, G. H. Golub and R. J. LeVeque, "Updating formulae and a
        pairwise algorithm for computing sample variances", Technical Report
        STAN-CS-79-773, Stanford University, 1979.
+.. [5] T. F. Chan, G. H. Golub and R. J. LeVeque, "Algorithms for computing
+       the sample variance: analysis and recommendations", The American
+       Statistician 37(3), 242-247, 1983.
 """
 
 from __future__ import annotations
@@ -44,11 +47,14 @@ __all__ = [
 def stacked_block_moments(x: np.ndarray, rows_per_block: int):
     """Block statistics of consecutive blocks of ``rows_per_block`` rows.
 
-    The same corrected two-pass reduction as
-    :func:`builder.analysis.moments.moments_of` (shift by each block's first
-    row, mean, co-moment with the rounding correction), done for all equal
-    blocks at once through a reshape; a shorter last block is reduced on its
-    own.
+    The corrected two-pass reduction (mean; deviations; co-moment
+    ``d^T d - (sum d)(sum d)^T / b``, the second term removing the rounding
+    left in the mean) for all equal blocks at once through a reshape; a
+    shorter last block is reduced by :func:`builder.analysis.moments.moments_of`.
+    Unlike ``moments_of`` no shift is subtracted first: with two passes the
+    deviations are taken from the block mean itself, so a shift adds nothing
+    but a pass over the data (Chan, Golub & LeVeque 1983, corrected two-pass
+    algorithm).
 
     Parameters
     ----------
@@ -70,17 +76,15 @@ def stacked_block_moments(x: np.ndarray, rows_per_block: int):
         raise ValueError(f"rows_per_block must be >= 1; got {rows_per_block!r}")
     t, n = x.shape
     full = t // b
-    # column layout (n, k, b): each reduction runs over contiguous memory
-    y = np.ascontiguousarray(x[:full * b].T).reshape(n, full, b)
-    shift = y[:, :, :1].copy()
-    y -= shift
-    m = y.mean(axis=2)
-    y -= m[:, :, None]  # y now holds the deviations d
-    sd = y.sum(axis=2)
-    dk = y.transpose(1, 0, 2)  # (k, n, b) view
-    c = np.matmul(dk, dk.transpose(0, 2, 1)) - (sd.T[:, :, None] * sd.T[:, None, :]) / b
+    y = x[:full * b].reshape(full, b, n)  # a view: blocks of rows
+    ones = np.ones(b)
+    m = np.matmul(ones, y) / b  # (k, n); block sums through BLAS, faster than .sum(axis=1)
+    d = y - m[:, None, :]
+    sd = np.matmul(ones, d)  # what rounding left in the mean
+    c = np.matmul(d.transpose(0, 2, 1), d)
+    c -= sd[:, :, None] * sd[:, None, :] / b
     c = 0.5 * (c + c.transpose(0, 2, 1))
-    means = (m + sd / b + shift[:, :, 0]).T.copy()
+    means = m + sd / b
     counts = np.full(full, b, dtype=np.int64)
     if t > full * b:
         last = moments_of(x[full * b:])
@@ -135,12 +139,18 @@ def merge_window_runs(counts: np.ndarray, means: np.ndarray, comoments: np.ndarr
     st = starts if order is None else starts[order]
     ln = lengths if order is None else lengths[order]
     c = counts[st].astype(float)
-    m = means[st]
+    m = means[st]  # fancy indexing: copies, updated in place below
     cm = comoments[st]
     guard = not bool((counts > 0).all())
+    # rolling windows start at evenly spaced blocks: take the next blocks as strided views
+    stride = int(st[1] - st[0]) if st.size > 1 else 1
+    spaced = uniform and stride > 0 and bool((np.diff(st) == stride).all())
     for step in range(1, int(ln.max())):
         a = st.size if uniform else int(np.searchsorted(-ln, -step, side="left"))
-        idx = st[:a] + step
+        if spaced:
+            idx = slice(int(st[0]) + step, int(st[-1]) + step + 1, stride)
+        else:
+            idx = st[:a] + step
         cb = counts[idx].astype(float)
         ca = c[:a]
         tot = ca + cb
@@ -224,11 +234,7 @@ class BatchedRegressions:
     relations : (w, n, n) ndarray
         ``relations[i, j]`` is row ``j`` of ``P`` scaled so its ``j``-th entry
         is 1: the least-squares relation treating ``x_j`` as the only noisy
-        variable (Frisch 1934).
-    coefficients : (w, n, n) ndarray
-        OLS slopes of ``x_j`` on the other variables (with an intercept):
-        ``coefficients[i, j, k] = -P[j, k] / P[j, j]`` for ``k != j``, 0 on
-        the diagonal.
+        variable (Frisch 1934). :attr:`coefficients` gives the OLS slopes.
     residual_variance : (w, n) ndarray
         ``1 / P[j, j]``: the residual sum of squares of regression ``j`` over
         ``count - ddof``.
@@ -249,7 +255,6 @@ class BatchedRegressions:
     covariance: np.ndarray
     precision: np.ndarray
     relations: np.ndarray
-    coefficients: np.ndarray
     residual_variance: np.ndarray
     r_squared: np.ndarray
     intercepts: np.ndarray | None
@@ -259,6 +264,18 @@ class BatchedRegressions:
     @property
     def windows(self) -> int:
         return int(self.covariance.shape[0])
+
+    @property
+    def coefficients(self) -> np.ndarray:
+        """OLS slopes of ``x_j`` on the other variables (with an intercept), (w, n, n).
+
+        ``coefficients[i, j, k] = -P[j, k] / P[j, j]`` for ``k != j``; 0 on the
+        diagonal (NaN throughout for singular windows). Computed on access.
+        """
+        out = -self.relations
+        idx = np.arange(out.shape[1])
+        out[:, idx, idx] = np.where(self.singular[:, None], np.nan, 0.0)
+        return out
 
 
 def _failing_cholesky(r: np.ndarray, idx: np.ndarray, failed: np.ndarray) -> None:
@@ -343,8 +360,7 @@ def batched_elementary_regressions(counts: np.ndarray, comoments: np.ndarray, *,
     var = np.diagonal(cov, axis1=1, axis2=2)
     flat = ~(var > 0).all(axis=1)
     d = np.sqrt(np.where(var > 0, var, 1.0))
-    r = cov / (d[:, :, None] * d[:, None, :])
-    r = 0.5 * (r + r.transpose(0, 2, 1))
+    r = cov / (d[:, :, None] * d[:, None, :])  # Cholesky reads the lower triangle only
     chol, failed = _cholesky(r)
     linv = _lower_inverse(chol)
     rinv = np.matmul(linv.transpose(0, 2, 1), linv)
@@ -361,9 +377,6 @@ def batched_elementary_regressions(counts: np.ndarray, comoments: np.ndarray, *,
 
     pjj = np.diagonal(precision, axis1=1, axis2=2)
     relations = precision / pjj[:, :, None]
-    coefficients = -relations
-    idx = np.arange(n)
-    coefficients[:, idx, idx] = np.where(singular[:, None], np.nan, 0.0)
     residual_variance = 1.0 / pjj
     r_squared = 1.0 - residual_variance / var
     intercepts = None
@@ -372,7 +385,7 @@ def batched_elementary_regressions(counts: np.ndarray, comoments: np.ndarray, *,
         if means.shape != (w, n):
             raise ValueError(f"means must have shape ({w}, {n}); got {means.shape}")
         intercepts = np.einsum("wjk,wk->wj", relations, means)
-    return BatchedRegressions(cov, precision, relations, coefficients, residual_variance,
+    return BatchedRegressions(cov, precision, relations, residual_variance,
                               r_squared, intercepts, condition, singular)
 
 

@@ -97,6 +97,10 @@ def _g(x: float) -> str:
     return f"{x:.3g}"
 
 
+def _times(k: int) -> str:
+    return {1: "once", 2: "twice"}.get(k, f"{k} times")
+
+
 def _corank_findings(result) -> list[Finding]:
     full = result.full
     labels = dict(zip(result.names, result.labels))
@@ -283,7 +287,7 @@ def _stability_findings(result) -> list[Finding]:
                     more = f" (and {len(changed) - 1} more)" if len(changed) > 1 else ""
                     out.append(Finding("unstable", "coefficient",
                                        f"The least-squares coefficient of {labels[k]} in the equation for "
-                                       f"{labels[ref]} changes sign {int(swing.sign_changes[k])} time(s) across "
+                                       f"{labels[ref]} changes sign {_times(int(swing.sign_changes[k]))} across "
                                        f"\u201c{title}\u201d{more}, from {_g(swing.minimum[k])} to "
                                        f"{_g(swing.maximum[k])}"
                                        + (f", while the {what} moves at most {worst:.2g} degrees." if stab.stable

@@ -186,6 +186,14 @@ def _eps_words(analysis) -> str:
 
 # --------------------------------------------------------------------------------------------- home
 
+_CARD_HEADINGS = {
+    "pinned": "What the data fix",
+    "open": "What they leave open",
+    "depends": "What changes with the noise assumption",
+    "unstable": "What changes across windows",
+}
+
+
 def home_page(run) -> Page:
     spec = run.spec
     meta = spec.report
@@ -221,7 +229,7 @@ def home_page(run) -> Page:
                         "open": "Nothing found that the data leave open.",
                         "depends": "No finding here changes with the noise assumption.",
                         "unstable": "Nothing found that changes across the windows checked."}[card]
-            snippets.append(blocks.card(card, ds.title, body))
+            snippets.append(blocks.card(card, _CARD_HEADINGS[card], body))
         parts.append(blocks.cards(*snippets))
         parts.append(f"[All results for {escape_text(ds.title)}]({page})\n")
     if spec.site.notes:
