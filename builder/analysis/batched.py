@@ -44,6 +44,10 @@ __all__ = [
 ]
 
 
+#: doubles of raw data reduced at a time (256 KiB): the deviations of a piece stay in cache
+_CACHE_DOUBLES = 1 << 15
+
+
 def stacked_block_moments(x: np.ndarray, rows_per_block: int):
     """Block statistics of consecutive blocks of ``rows_per_block`` rows.
 
@@ -78,13 +82,18 @@ def stacked_block_moments(x: np.ndarray, rows_per_block: int):
     full = t // b
     y = x[:full * b].reshape(full, b, n)  # a view: blocks of rows
     ones = np.ones(b)
-    m = np.matmul(ones, y) / b  # (k, n); block sums through BLAS, faster than .sum(axis=1)
-    d = y - m[:, None, :]
-    sd = np.matmul(ones, d)  # what rounding left in the mean
-    c = np.matmul(d.transpose(0, 2, 1), d)
-    c -= sd[:, :, None] * sd[:, None, :] / b
-    c = 0.5 * (c + c.transpose(0, 2, 1))
-    means = m + sd / b
+    means = np.empty((full, n))
+    c = np.empty((full, n, n))
+    step = max(1, _CACHE_DOUBLES // (b * n))  # blocks per piece: deviations stay in cache
+    for lo in range(0, full, step):
+        yy = y[lo:lo + step]
+        m = np.matmul(ones, yy) / b  # block means (sums through BLAS beat .sum(axis=1))
+        d = yy - m[:, None, :]
+        sd = np.matmul(ones, d)  # what rounding left in the mean
+        cc = np.matmul(d.transpose(0, 2, 1), d)
+        cc -= sd[:, :, None] * sd[:, None, :] / b
+        c[lo:lo + step] = 0.5 * (cc + cc.transpose(0, 2, 1))
+        means[lo:lo + step] = m + sd / b
     counts = np.full(full, b, dtype=np.int64)
     if t > full * b:
         last = moments_of(x[full * b:])
@@ -304,20 +313,36 @@ def _cholesky(r: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return chol, failed
 
 
-def _lower_inverse(chol: np.ndarray) -> np.ndarray:
-    """Inverses of lower-triangular matrices by forward substitution, row by row.
+#: up to this many variables the triangular inverse runs as scalar recurrences vectorised
+#: over windows (about n^3 / 6 numpy calls); above it, LAPACK's batched inverse is faster
+_SMALL_N = 10
 
-    Vectorised over the stack: ``n`` numpy calls in all, each on every window;
-    for small ``n`` this is several times faster than a general batched inverse.
-    """
+
+def _cholesky_inverse(chol: np.ndarray) -> np.ndarray:
+    """``inv(L L^T) = inv(L)^T inv(L)`` for a stack of lower Cholesky factors ``L``."""
     w, n, _ = chol.shape
-    out = np.zeros_like(chol)
-    diag = 1.0 / np.diagonal(chol, axis1=1, axis2=2)
-    for i in range(n):
-        out[:, i, i] = diag[:, i]
-        if i:
-            out[:, i, :i] = -np.einsum("wk,wkj->wj", chol[:, i, :i], out[:, :i, :i]) * diag[:, i, None]
-    return out
+    if n > _SMALL_N:
+        linv = np.linalg.inv(chol)
+        return np.matmul(linv.transpose(0, 2, 1), linv)
+    lt = np.ascontiguousarray(chol.transpose(1, 2, 0))  # (n, n, w): windows on the fast axis
+    x = np.zeros_like(lt)
+    diag = [1.0 / lt[i, i] for i in range(n)]
+    for i in range(n):  # forward substitution, row by row: x = inv(L)
+        x[i, i] = diag[i]
+        for j in range(i):
+            acc = lt[i, j] * x[j, j]
+            for k in range(j + 1, i):
+                acc += lt[i, k] * x[k, j]
+            x[i, j] = -acc * diag[i]
+    out = np.empty_like(lt)
+    for i in range(n):  # inv(L)^T inv(L), using that inv(L) is lower triangular
+        for j in range(i + 1):
+            acc = x[i, i] * x[i, j]
+            for k in range(i + 1, n):
+                acc += x[k, i] * x[k, j]
+            out[i, j] = acc
+            out[j, i] = acc
+    return out.transpose(2, 0, 1)
 
 
 def batched_elementary_regressions(counts: np.ndarray, comoments: np.ndarray, *,
@@ -362,12 +387,13 @@ def batched_elementary_regressions(counts: np.ndarray, comoments: np.ndarray, *,
     d = np.sqrt(np.where(var > 0, var, 1.0))
     r = cov / (d[:, :, None] * d[:, None, :])  # Cholesky reads the lower triangle only
     chol, failed = _cholesky(r)
-    linv = _lower_inverse(chol)
-    rinv = np.matmul(linv.transpose(0, 2, 1), linv)
+    rinv = _cholesky_inverse(chol)
     # 1-norm condition number ||R||_1 ||R^-1||_1, as LAPACK's dpocon estimates it; for a
     # symmetric matrix it lies between the 2-norm condition number and n times it
+    ones = np.ones(n)
     with np.errstate(over="ignore", invalid="ignore"):
-        condition = np.abs(r).sum(axis=1).max(axis=1) * np.abs(rinv).sum(axis=1).max(axis=1)
+        condition = (np.matmul(ones, np.abs(r)).max(axis=1)
+                     * np.matmul(ones, np.abs(rinv)).max(axis=1))
     # singular to working precision: every window numpy.linalg.matrix_rank would call
     # rank-deficient (2-norm condition >= 1 / (n eps)) has condition >= 1 / (n eps) here too
     singular = flat | failed | ~(condition < 1.0 / (n * np.finfo(float).eps))
