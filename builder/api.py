@@ -64,11 +64,20 @@ def _load(spec_path) -> object:
 
 def check(spec_path, *, jobs: int | None = None, scheduler: str | None = None, use_cache: bool = True,
           cache_dir: Path | None = None, progress: bool = False) -> Outcome:
-    """Validate a spec and its data, analyse, and evaluate the claims; write no site."""
+    """Validate a spec and its data, analyse, and evaluate the claims; write no site.
+
+    An existing result cache is read; none is written or created (no cache
+    folder appears where there was none).
+    """
+    from builder.run.cache import DEFAULT_CACHE_DIRNAME
     from builder.run.pipeline import run_analysis
 
     t0 = time.perf_counter()
     spec = _load(spec_path)
+    folder = Path(cache_dir) if cache_dir is not None else spec.folder / DEFAULT_CACHE_DIRNAME
+    if use_cache and not folder.is_dir():
+        # nothing to read; opening the cache would create its folder, and check writes nothing
+        use_cache = False
     run = run_analysis(spec, jobs=jobs, scheduler=scheduler, use_cache=use_cache, cache_dir=cache_dir,
                        progress=progress, write_cache=False)
     return Outcome(run, None, time.perf_counter() - t0)
@@ -153,7 +162,9 @@ class FrameAnalysis:
                 for assumption, q in a.coranks.items():
                     rows.append({"plan": plan.plan.id, "window": a.label, "rows": a.count,
                                  "assumption": assumption, "corank": q})
-        return pd.DataFrame(rows)
+        frame = pd.DataFrame(rows, columns=["plan", "window", "rows", "assumption", "corank"])
+        # an undetermined corank is a missing value, not a float: keep whole numbers whole
+        return frame.astype({"rows": "int64", "corank": "Int64"})
 
     def findings_frame(self):
         import pandas as pd

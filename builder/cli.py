@@ -71,7 +71,8 @@ def _parser() -> argparse.ArgumentParser:
 
     c = sub.add_parser("check", help="validate, analyse and check claims; write nothing",
                        description="Validate SPEC and its data, run the analysis, evaluate the claims "
-                                   "and print a verdict table. Writes nothing (except the cache).",
+                                   "and print a verdict table. Writes nothing: an existing result cache "
+                                   "is read, never written.",
                        epilog="Example: relspan check specs/demo.yaml")
     c.add_argument("spec", help="the spec file (YAML)")
     _add_run_options(c)

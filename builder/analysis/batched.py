@@ -147,14 +147,32 @@ def merge_window_runs(counts: np.ndarray, means: np.ndarray, comoments: np.ndarr
     order = None if uniform else np.argsort(-lengths, kind="stable")
     st = starts if order is None else starts[order]
     ln = lengths if order is None else lengths[order]
-    c = counts[st].astype(float)
-    m = means[st]  # fancy indexing: copies, updated in place below
-    cm = comoments[st]
     guard = not bool((counts > 0).all())
     # rolling windows start at evenly spaced blocks: take the next blocks as strided views
     stride = int(st[1] - st[0]) if st.size > 1 else 1
     spaced = uniform and stride > 0 and bool((np.diff(st) == stride).all())
-    for step in range(1, int(ln.max())):
+    n = means.shape[1]
+    c = np.empty(st.size)
+    m = np.empty((st.size, n))
+    cm = np.empty((st.size, n, n))
+    piece = max(1, _CACHE_DOUBLES // (n * n))  # windows at a time: their sums stay in cache
+    for lo in range(0, st.size, piece):
+        hi = min(lo + piece, st.size)
+        c[lo:hi], m[lo:hi], cm[lo:hi] = _merge_piece(
+            counts, means, comoments, st[lo:hi], ln[lo:hi], uniform, spaced, stride, guard)
+    if order is not None:
+        back = np.empty_like(order)
+        back[order] = np.arange(order.size)
+        c, m, cm = c[back], m[back], cm[back]
+    return c.astype(np.int64), m, cm
+
+
+def _merge_piece(counts, means, comoments, st, ln, uniform, spaced, stride, guard):
+    """Merge the runs of one piece of windows (sorted by decreasing length)."""
+    c = counts[st].astype(float)
+    m = means[st]  # fancy indexing: copies, updated in place below
+    cm = comoments[st]
+    for step in range(1, int(ln[0]) if not uniform else int(ln.max())):
         a = st.size if uniform else int(np.searchsorted(-ln, -step, side="left"))
         if spaced:
             idx = slice(int(st[0]) + step, int(st[-1]) + step + 1, stride)
@@ -177,11 +195,7 @@ def merge_window_runs(counts: np.ndarray, means: np.ndarray, comoments: np.ndarr
         outer *= f[:, None, None]
         cm[:a] += outer
         c[:a] = tot
-    if order is not None:
-        back = np.empty_like(order)
-        back[order] = np.arange(order.size)
-        c, m, cm = c[back], m[back], cm[back]
-    return c.astype(np.int64), m, cm
+    return c, m, cm
 
 
 def _stack_inputs(counts, comoments, ddof):
@@ -381,38 +395,59 @@ def batched_elementary_regressions(counts: np.ndarray, comoments: np.ndarray, *,
     """
     counts, comoments = _stack_inputs(counts, comoments, ddof)
     w, n, _ = comoments.shape
+    if means is not None:
+        means = np.asarray(means, dtype=float)
+        if means.shape != (w, n):
+            raise ValueError(f"means must have shape ({w}, {n}); got {means.shape}")
     cov = comoments / (counts - ddof).astype(float)[:, None, None]
+    precision = np.empty((w, n, n))
+    relations = np.empty((w, n, n))
+    residual_variance = np.empty((w, n))
+    r_squared = np.empty((w, n))
+    condition = np.empty(w)
+    singular = np.empty(w, dtype=bool)
+    intercepts = None if means is None else np.empty((w, n))
+    step = max(1, _CACHE_DOUBLES // (n * n))  # windows at a time: work arrays stay in cache
+    for lo in range(0, w, step):
+        part = slice(lo, lo + step)
+        _regress_piece(cov[part], None if means is None else means[part], precision[part],
+                       relations[part], residual_variance[part], r_squared[part],
+                       condition[part], singular[part],
+                       None if intercepts is None else intercepts[part])
+    return BatchedRegressions(cov, precision, relations, residual_variance,
+                              r_squared, intercepts, condition, singular)
+
+
+def _regress_piece(cov, means, precision, relations, residual_variance, r_squared, condition,
+                   singular, intercepts) -> None:
+    """Fill the output slices for one piece of windows (see batched_elementary_regressions)."""
+    n = cov.shape[1]
     var = np.diagonal(cov, axis1=1, axis2=2)
     flat = ~(var > 0).all(axis=1)
     d = np.sqrt(np.where(var > 0, var, 1.0))
-    r = cov / (d[:, :, None] * d[:, None, :])  # Cholesky reads the lower triangle only
+    outer = d[:, :, None] * d[:, None, :]
+    r = cov / outer  # Cholesky reads the lower triangle only
     chol, failed = _cholesky(r)
     rinv = _cholesky_inverse(chol)
     # 1-norm condition number ||R||_1 ||R^-1||_1, as LAPACK's dpocon estimates it; for a
     # symmetric matrix it lies between the 2-norm condition number and n times it
     ones = np.ones(n)
     with np.errstate(over="ignore", invalid="ignore"):
-        condition = (np.matmul(ones, np.abs(r)).max(axis=1)
-                     * np.matmul(ones, np.abs(rinv)).max(axis=1))
+        cond = np.matmul(ones, np.abs(r)).max(axis=1) * np.matmul(ones, np.abs(rinv)).max(axis=1)
     # singular to working precision: every window numpy.linalg.matrix_rank would call
     # rank-deficient (2-norm condition >= 1 / (n eps)) has condition >= 1 / (n eps) here too
-    singular = flat | failed | ~(condition < 1.0 / (n * np.finfo(float).eps))
-    condition = np.where(singular, np.inf, condition)
-    precision = rinv / (d[:, :, None] * d[:, None, :])
-    precision[singular] = np.nan
-
+    bad = flat | failed | ~(cond < 1.0 / (n * np.finfo(float).eps))
+    singular[...] = bad
+    condition[...] = np.where(bad, np.inf, cond)
+    np.divide(rinv, outer, out=precision)
+    if bad.any():
+        precision[bad] = np.nan
     pjj = np.diagonal(precision, axis1=1, axis2=2)
-    relations = precision / pjj[:, :, None]
-    residual_variance = 1.0 / pjj
-    r_squared = 1.0 - residual_variance / var
-    intercepts = None
-    if means is not None:
-        means = np.asarray(means, dtype=float)
-        if means.shape != (w, n):
-            raise ValueError(f"means must have shape ({w}, {n}); got {means.shape}")
-        intercepts = np.einsum("wjk,wk->wj", relations, means)
-    return BatchedRegressions(cov, precision, relations, residual_variance,
-                              r_squared, intercepts, condition, singular)
+    np.divide(precision, pjj[:, :, None], out=relations)
+    np.divide(1.0, pjj, out=residual_variance)
+    r_squared[...] = 1.0 - residual_variance / var
+    if intercepts is not None:
+        intercepts[...] = np.einsum("wjk,wk->wj", relations, means)
 
 
 @dataclass(frozen=True, slots=True, eq=False)

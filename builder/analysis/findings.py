@@ -269,7 +269,7 @@ def _stability_findings(result) -> list[Finding]:
                                    f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
                                                        "max_to_full_deg": worst,
                                                        "threshold_deg": stab.threshold_deg},
-                                   "stability", plan=plan.plan.id))
+                                   f"plan-{plan.plan.id}", plan=plan.plan.id))
             else:
                 out.append(Finding("unstable", "stability",
                                    f"Across the windows of \u201c{title}\u201d the {what} moves: up to "
@@ -278,7 +278,7 @@ def _stability_findings(result) -> list[Finding]:
                                    f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
                                                        "max_to_full_deg": worst,
                                                        "threshold_deg": stab.threshold_deg},
-                                   "stability", plan=plan.plan.id))
+                                   f"plan-{plan.plan.id}", plan=plan.plan.id))
             swing = plan.swings.get("elementary")
             if swing is not None:
                 changed = [k for k in range(len(names)) if k != ref and swing.sign_changes[k] > 0]
@@ -297,7 +297,7 @@ def _stability_findings(result) -> list[Finding]:
                                        {"plan": plan.plan.id, "variable": names[k],
                                         "sign_changes": int(swing.sign_changes[k]),
                                         "min": swing.minimum[k], "max": swing.maximum[k]},
-                                       "swing", plan=plan.plan.id, single_coefficient=True))
+                                       f"plan-{plan.plan.id}", plan=plan.plan.id, single_coefficient=True))
         seq = plan.coranks
         moving = [a for a, c in seq.constant.items() if not c and a != "elementary"]
         if moving:
@@ -305,7 +305,7 @@ def _stability_findings(result) -> list[Finding]:
                                f"The number of relations changes across the windows of \u201c{title}\u201d "
                                f"under {', '.join(_WORDS[a] for a in moving)}.",
                                "Corank per window: see the timeline.",
-                               {"plan": plan.plan.id, "assumptions": moving}, "corank-timeline",
+                               {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
                                plan=plan.plan.id))
     return out
 

@@ -184,6 +184,225 @@ def _eps_words(analysis) -> str:
     return f"noise of spectral norm up to {analysis.eps:g} in the data's units"
 
 
+# ------------------------------------------------------------------------------------ plain summary
+
+#: a noise share at or above this is read as "almost all of the variable's variance is noise"
+PURE_NOISE_SHARE = 0.9
+
+_NUMBER_WORDS = {0: "no", 1: "one", 2: "two", 3: "three", 4: "four", 5: "five", 6: "six"}
+
+
+def _count(k: int, noun: str) -> str:
+    """"two relations", "one relation" (numbers above six as digits)."""
+    word = _NUMBER_WORDS.get(int(k), str(int(k)))
+    plural = noun if noun.endswith("s") else noun + "s"
+    return f"{word} {noun if int(k) == 1 else plural}"
+
+
+def _cap(text: str) -> str:
+    return text[:1].upper() + text[1:]
+
+
+def _names_list(items) -> str:
+    items = list(items)
+    if len(items) <= 1:
+        return "".join(items)
+    return ", ".join(items[:-1]) + " and " + items[-1]
+
+
+@dataclass(frozen=True, slots=True)
+class PlainSummary:
+    """What a non-technical reader should take from one dataset, in three plain sentences.
+
+    Attributes
+    ----------
+    pinned : str
+        What the data pin down (with its number).
+    open : str
+        What they leave open.
+    depends : str
+        What changes with the noise assumption, and why ("" when nothing does).
+    evidence : dict
+        ``{"pinned"|"open"|"depends": fragment id}`` on the dataset page.
+    single_coefficient : bool
+        True when a sentence quotes a single coefficient (link the caution page).
+    """
+
+    pinned: str
+    open: str
+    depends: str
+    evidence: dict
+    single_coefficient: bool = False
+
+
+def _window_relation_change(plan, q: int, assumption: str = "equal"):
+    """Largest angle (degrees) between the windows' corank-q relations, or None when not every window has one."""
+    from builder.analysis.stability import principal_angles
+
+    bases = [a.bases.get(assumption, {}).get(q) for a in plan.analyses]
+    if len(bases) < 2 or any(b is None for b in bases):
+        return None
+    worst = 0.0
+    for i in range(len(bases)):
+        for j in range(i + 1, len(bases)):
+            worst = max(worst, float(np.max(principal_angles(bases[i], bases[j]))))
+    return worst
+
+
+def _windowed_relations(result):
+    """Plans (not the full sample) in which every window supports the same corank >= 1 under equal noise.
+
+    Returns a list of ``(plan, q, largest angle between windows in degrees)``.
+    """
+    out = []
+    for plan in result.plans:
+        if plan.plan.kind == "full" or not plan.analyses:
+            continue
+        seq = plan.coranks.coranks.get("equal")
+        if not seq or any(c is None for c in seq) or len(set(seq)) != 1 or seq[0] < 1:
+            continue
+        out.append((plan, int(seq[0]), _window_relation_change(plan, int(seq[0]))))
+    return out
+
+
+def why_assumptions_differ(result) -> str:
+    """Plain words on why the independent-noise corank differs from the equal-noise one ("" if it does not)."""
+    full = result.full
+    eq, dg = full.coranks.get("equal"), full.coranks.get("diagonal")
+    labels = result.labels
+    if eq is None or dg is None or eq == dg or full.diagonal is None:
+        return ""
+    corank = full.diagonal.corank
+    allowed = (f"at most {100 * full.eps:g}% of each series' variance" if full.scale == "correlation"
+               else f"noise of size at most {full.eps:g} in the data's units")
+    cert = next((c for c in corank.certificates if c.q == dg and c.status == "certified"), None)
+    rel = lambda k: _count(k, "relation")  # noqa: E731
+    if dg > eq:
+        shares = np.asarray(cert.noise_share, dtype=float) if cert is not None and cert.noise_share else None
+        if shares is not None and np.any(shares >= PURE_NOISE_SHARE):
+            pure = [k for k in range(full.n) if shares[k] >= PURE_NOISE_SHARE]
+            who = _names_list([f"{labels[k]} ({100 * shares[k]:.0f}% of its variance)" for k in pure])
+            text = (f"Equal noise finds {rel(eq)}, independent noise {rel(dg)}. This is not a contradiction: "
+                    f"when each series may have its own error of any size, {who} can be declared almost "
+                    f"pure measurement error, because {'it is' if len(pure) == 1 else 'they are'} nearly "
+                    "unrelated to the other series. A series that is all noise counts as one more relation "
+                    "(\u201cit stays at its average\u201d), which says nothing about how the other series are "
+                    "tied together.")
+        else:
+            most = int(np.argmax(shares)) if shares is not None else None
+            extra = (f" (here up to {100 * shares[most]:.0f}% of the variance of {labels[most]})"
+                     if most is not None else "")
+            text = (f"Equal noise finds {rel(eq)}, independent noise {rel(dg)}. Independent noise of unknown "
+                    f"size is the looser assumption: it lets each series carry its own error{extra}, while "
+                    f"the equal-noise check allows {allowed}. Extra relations "
+                    "found this way are weak evidence.")
+        if dg <= corank.ledermann:
+            text += (f" With only {_count(full.n, 'series')}, up to {rel(corank.ledermann)} of this kind can appear from "
+                     "chance variation alone.")
+        return text
+    return (f"Equal noise finds {rel(eq)}, independent noise only {rel(dg)}: the independent-noise check "
+            "could not fit the larger number with non-negative error variances within the tolerance.")
+
+
+def plain_summary(result) -> PlainSummary:
+    """The three plain sentences of a dataset (pinned down, left open, depends on the assumption).
+
+    Built from the results alone (no dataset-specific wording), so any spec gets them.
+    """
+    full = result.full
+    labels = result.labels
+    n = full.n
+    q = result.examined[0] if result.examined else None
+    series = _count(n, "series")
+    stab = []
+    for plan in result.plans:
+        if plan.plan.kind == "full" or len(plan.analyses) < 2 or q is None:
+            continue
+        st = plan.stability.get(("equal", q))
+        if st is not None and st.max_to_reference_deg is not None:
+            stab.append((plan, st))
+    single = False
+    ev = {"pinned": "corank", "open": "identified", "depends": "assumptions"}
+    if q is not None and q >= 1:
+        what = "relation" if q == 1 else "relations"
+        pinned = f"{_cap(_count(q, 'relation'))} tie{'s' if q == 1 else ''} the {series} together"
+        entry = None
+        if full.bounded is not None:
+            entry = next((c for c in full.bounded.coranks if c.q == q and not c.vacuous), None)
+        bits = []
+        if entry is not None:
+            bits.append(f"the {what} {'is' if q == 1 else 'are'} fixed to within an angle of "
+                        f"{entry.angle_bound_deg:.2g} degrees, whatever form the noise takes")
+        steady = [st for _, st in stab if st.stable]
+        if stab and len(steady) == len(stab):
+            worst = max(st.max_to_reference_deg for st in steady)
+            bits.append(f"{'it moves' if q == 1 else 'they move'} at most {worst:.2g} degrees between "
+                        "windows of time")
+        elif stab:
+            worst = max(st.max_to_reference_deg for _, st in stab)
+            bits.append(f"but {'it moves' if q == 1 else 'they move'} by up to {worst:.2g} degrees between "
+                        "windows of time")
+        pinned += (": " + "; ".join(bits) if bits else "") + "."
+        if q >= 2:
+            ident = result.identified.get(q)
+            targets = ([labels[result.names.index(t)] for t in ident.targets] if ident is not None else [])
+            open_ = (f"No single weight of one series in \u201cthe\u201d equation: with {_count(q, 'relation')}, "
+                     "any mix of them is also a relation, so such a weight is a choice, not a finding.")
+            if targets:
+                open_ += (f" What is fixed is {_names_list(targets)} written through the other "
+                          f"series.")
+            single = True
+        elif full.frisch_lower is not None:
+            ks = [k for k in range(n) if k != full.ref]
+            lo, hi = full.frisch_lower, full.frisch_upper
+            if all(np.isfinite(lo[k]) and np.isfinite(hi[k]) for k in ks):
+                ranges = _names_list([f"{labels[k]} {fmt(lo[k])} to {fmt(hi[k])}" for k in ks])
+                open_ = (f"The exact weights, if each series has its own error of unknown size: the data only "
+                         f"give ranges in the equation for {labels[full.ref]} ({ranges}).")
+                ev["open"] = "frisch"
+            else:
+                open_ = (f"The weights in the equation for {labels[full.ref]}, if each series has its own error "
+                         "of unknown size: they are then not bounded at all.")
+            single = True
+        else:
+            open_ = ("The exact weights depend on the noise assumption; see the assumptions side by side.")
+            single = True
+    else:
+        windowed = _windowed_relations(result)
+        period = (f" over the whole period ({result.prepared.period[0]} to {result.prepared.period[1]})"
+                  if result.prepared.period else " over all the rows together")
+        if windowed:
+            windowed.sort(key=lambda t: (t[0].plan.kind != "periods", -(t[2] or 0.0)))
+            plan, qq, change = windowed[0]
+            titles = _names_list([f"\u201c{p.plan.title or p.plan.id}\u201d" for p, _, _ in windowed])
+            pinned = (f"Within each window of {titles}, {_count(qq, 'relation')} "
+                      f"tie{'s' if qq == 1 else ''} the {series} together.")
+            open_ = f"No single relation fits{period}"
+            if change is not None:
+                open_ += (f": the relation differs between the windows of \u201c{plan.plan.title or plan.plan.id}"
+                          f"\u201d by an angle of up to {change:.2g} degrees, the pattern a change of relation "
+                          "over time leaves in the data.")
+            else:
+                open_ += "."
+            ev["pinned"] = f"plan-{plan.plan.id}"
+            ev["open"] = f"plan-{plan.plan.id}"
+        else:
+            pinned = (f"No linear relation ties the {series} together at the stated tolerance: each "
+                      "combination of them varies more than the noise allows.")
+            open_ = "Nothing further can be identified without a relation."
+    depends = why_assumptions_differ(result)
+    if not depends:
+        flips = [f for f in result.findings if f.kind == "depends" and f.topic == "coefficient"]
+        if flips and q is not None and q >= 2:
+            depends = ("The signs of single weights differ between methods. With several relations this is "
+                       "expected: each method picks a different mix of the same relations.")
+            single = True
+        elif flips:
+            depends = flips[0].headline
+            single = True
+    return PlainSummary(pinned, open_, depends, ev, single)
+
+
 # --------------------------------------------------------------------------------------------- home
 
 _CARD_HEADINGS = {
@@ -479,7 +698,6 @@ def dataset_page(run, result, pub: Publisher) -> Page:
                                "only noisy one. Their spread shows how much the answer depends on that "
                                f"choice. {CAUTION_LINK}.", ident=f"map/{q}", dataset_key=key))
     body.append("## Across windows {#stability}\n")
-    body.append("[](){#swing}[](){#corank-timeline}\n")
     for plan in result.plans:
         if plan.plan.kind == "full":
             continue

@@ -137,18 +137,19 @@ METHODS = (
        "residual variance is one over P j j")],
      "Presupposes exactly one relation. With several relations each regression lands on an arbitrary "
      "member of the relation subspace. Exactly collinear data make S singular: relspan then reports the "
-     "exact relations (the null space of S) instead.",
-     ("frisch1934",)),
+     "exact relations (the null space of S) instead. For two variables the two regressions bracket the "
+     "slope of every independent-noise answer (Gini 1921).",
+     ("frisch1934", "anderson1958", "higham2002", "gini1921")),
     ("equal", "Equal noise: total least squares",
      "Every variable carries noise of the same variance on the scale analysed.",
      [(r"$S\,v_i = \lambda_i v_i,\quad \lambda_1 \leq \cdots \leq \lambda_n$",
        "eigenvectors v i of S with eigenvalues in ascending order"),
-      (r"$\mathrm{relations} = \mathrm{span}(v_1,\ldots,v_q),\quad \sigma^2 = \lambda_q$",
+      (r"$\mathrm{relations} = \mathrm{span}(v_1,\ldots,v_q),\quad \hat\sigma^2 = (\lambda_1 + \cdots + \lambda_q)/q$",
        "the relations span the eigenvectors of the q smallest eigenvalues; the noise variance is the "
-       "q-th smallest eigenvalue")],
+       "mean of those q eigenvalues")],
      "Not invariant to the units: relspan analyses a stated scale (the correlation scale when the "
      "tolerance is relative). Corank q is supported when the q smallest eigenvalues are at most eps.",
-     ("eckart1936", "golub1980")),
+     ("eckart1936", "golub1980", "tipping1999")),
     ("shaped", "Noise of known relative size (generalised eigenproblem)",
      "Noise variances are known up to one common factor: N = s\u00b2 W.",
      [(r"$S\,v = \lambda\,W v$", "S v equals lambda times W v, with W the known noise shape")],
@@ -162,7 +163,7 @@ METHODS = (
        "the sine of the largest angle to the eigenvector subspace is at most eps over the next eigenvalue")],
      "The angle bound is vacuous when eps approaches the next eigenvalue; it bounds the largest principal "
      "angle between the relation subspace and the eigenvectors.",
-     ("weyl1912", "daviskahan1970")),
+     ("weyl1912", "daviskahan1970", "stewart1990")),
     ("diagonal", "Independent noise of unknown size: the Frisch scheme",
      "Each variable has independent noise of unknown variance: N = diag(d), d \u2265 0, S \u2212 N "
      "positive semidefinite.",
@@ -176,23 +177,34 @@ METHODS = (
      "With one relation the coefficients are bounded only when all elementary regressions lie in one "
      "orthant. For several relations relspan searches for the largest corank by minimum-trace and "
      "minimum-rank factor analysis from several starts and states a certificate, a proof of "
-     "impossibility, or \u201cundetermined at eps\u201d. When q(q+1) < 2n the solutions form a family, "
-     "whose spread is reported.",
+     "impossibility, or \u201cundetermined at eps\u201d. The weighted minimum-trace problems are solved by "
+     "a log-barrier interior-point method. When q(q+1) < 2n the solutions form a family, whose spread is "
+     "reported. A variable nearly unrelated to the others can be declared pure noise, which adds one "
+     "trivial relation; and up to Ledermann's bound, relations can appear from sampling noise alone.",
      ("frisch1934", "reiersol1941", "kleppe1984", "shapiro1982", "dellariccia1982", "tenberge1991",
-      "shapiro2002", "ning2015", "ledermann1937", "spearman1904")),
+      "shapiro2002", "ning2015", "boyd2004", "ledermann1937", "spearman1904", "gini1921")),
+    ("identified", "What is identified: subspace, reduced form, single coefficients",
+     "Only what is the same for every admissible answer is identified; everything else is a choice.",
+     [(r"$A = [\,I_q \;\; -B\,]\,\Pi$",
+       "the relation basis A is solved for q chosen variables, giving the reduced-form coefficients B; Pi "
+       "orders the variables")],
+     "With q relations, a single relation is identified only with q minus 1 restrictions from outside the "
+     "data. The q variables of the reduced form are chosen by QR with column pivoting so that the choice "
+     "is well conditioned; the condition number is reported beside it.",
+     ("koopmans1950", "businger1965")),
     ("angles", "Principal angles between subspaces",
      "Two relation subspaces are compared by the angles between them.",
      [(r"$\theta_i = \mathrm{atan2}(\sigma_i((I - Q_A Q_A^T)Q_B),\ \sigma_i(Q_A^T Q_B))$",
        "each principal angle is atan2 of a singular value of the residual projection and of the cosine "
        "matrix")],
      "Sines and cosines are both computed so that small angles keep their accuracy.",
-     ("bjorck1973",)),
+     ("bjorck1973", "knyazev2002")),
     ("moments", "Window statistics from mergeable blocks",
      "Windows are merged from block statistics, never recomputed from raw rows.",
      [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
        "merged mean and co-moment of two blocks A and B, with delta the difference of their means")],
      "Blocks use a shifted two-pass sum; windows are merged pairwise without subtraction.",
-     ("chan1979", "welford1962")),
+     ("chan1979", "chan1983", "welford1962", "bjorck1996")),
 )
 
 REFERENCES = {
@@ -234,4 +246,25 @@ REFERENCES = {
                 "University.",
     "welford1962": "Welford, B. P. (1962). Note on a method for calculating corrected sums of squares and "
                    "products. *Technometrics*, 4(3), 419–420.",
+    "gini1921": "Gini, C. (1921). Sull'interpolazione di una retta quando i valori della variabile "
+                "indipendente sono affetti da errori accidentali. *Metron*, 1, 63–82.",
+    "anderson1958": "Anderson, T. W. (1958). *An Introduction to Multivariate Statistical Analysis*. New York: "
+                    "Wiley.",
+    "higham2002": "Higham, N. J. (2002). *Accuracy and Stability of Numerical Algorithms* (2nd ed.). "
+                  "Philadelphia: SIAM.",
+    "tipping1999": "Tipping, M. E. & Bishop, C. M. (1999). Probabilistic principal component analysis. "
+                   "*Journal of the Royal Statistical Society B*, 61(3), 611–622.",
+    "stewart1990": "Stewart, G. W. & Sun, J.-G. (1990). *Matrix Perturbation Theory*. Boston: Academic Press.",
+    "boyd2004": "Boyd, S. & Vandenberghe, L. (2004). *Convex Optimization*. Cambridge: Cambridge University "
+                "Press.",
+    "koopmans1950": "Koopmans, T. C. & Reiersøl, O. (1950). The identification of structural "
+                    "characteristics. *Annals of Mathematical Statistics*, 21(2), 165–181.",
+    "businger1965": "Businger, P. & Golub, G. H. (1965). Linear least squares solutions by Householder "
+                    "transformations. *Numerische Mathematik*, 7, 269–276.",
+    "knyazev2002": "Knyazev, A. V. & Argentati, M. E. (2002). Principal angles between subspaces in an "
+                   "A-based scalar product: algorithms and perturbation estimates. *SIAM Journal on "
+                   "Scientific Computing*, 23(6), 2008–2040.",
+    "chan1983": "Chan, T. F., Golub, G. H. & LeVeque, R. J. (1983). Algorithms for computing the sample "
+                "variance: analysis and recommendations. *The American Statistician*, 37(3), 242–247.",
+    "bjorck1996": "Björck, Å. (1996). *Numerical Methods for Least Squares Problems*. Philadelphia: SIAM.",
 }

@@ -24,7 +24,7 @@ import math
 import multiprocessing
 import os
 import re
-from concurrent.futures import FIRST_EXCEPTION, Executor, Future, ProcessPoolExecutor, wait
+from concurrent.futures import FIRST_COMPLETED, Executor, Future, ProcessPoolExecutor, wait
 from contextlib import contextmanager
 from threading import Lock
 from typing import Any, Callable, Iterable, Iterator, Protocol, Sequence
@@ -313,7 +313,7 @@ def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[
         else:
             pending.add(f)
     while pending and not failed:
-        done, pending = wait(pending, return_when=FIRST_EXCEPTION)
+        done, pending = wait(pending, return_when=FIRST_COMPLETED)
         for f in sorted(done, key=index.__getitem__):
             settle(f)
     if failed:

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import markdown as _md
 from markdown.extensions import Extension
 from markdown.treeprocessors import Treeprocessor
+from markdown.postprocessors import Postprocessor
 
 __all__ = ["RESERVED_IDS", "Heading", "RenderedMarkdown", "render_markdown", "slugify", "escape_text",
            "escape_cell"]
@@ -168,8 +169,17 @@ class _ReleaseIds(Treeprocessor):
             root.remove(el)
 
 
+class _FocusablePre(Postprocessor):
+    """Make code blocks focusable regions, so keyboard users can scroll wide ones (WCAG 2.1.1)."""
+
+    def run(self, text: str) -> str:
+        return text.replace("<pre><code", '<pre tabindex="0" role="region" '
+                                           'aria-label="Code block (scrolls sideways when wide)"><code')
+
+
 class _SiteExtension(Extension):
     def extendMarkdown(self, md: _md.Markdown) -> None:  # noqa: N802 (API name)
+        md.postprocessors.register(_FocusablePre(md), "relspan_focusable_pre", 5)
         # Run after inline processing (priority 20) and before prettify (10);
         # the toc ids are made at 5, between reserving and releasing ours.
         md.treeprocessors.register(_TableWrapper(md), "relspan_tables", 15)

@@ -119,6 +119,24 @@ class TestBatchedElementaryRegressions:
             np.testing.assert_allclose(res.relations[i], rel, rtol=1e-10, atol=1e-10)
             np.testing.assert_allclose(res.residual_variance[i], 1 / np.diag(p), rtol=1e-10)
 
+    def test_many_variables_use_the_lapack_inverse_and_still_match_the_loop(self):
+        x = _series(t=3000, n=14, seed=8)  # n above the small-n recurrences
+        c, m, cm, rows = _rolling(x, 500, 2, 1)
+        res = batched_elementary_regressions(c, cm)
+        for i, (a, b) in enumerate(rows):
+            p = np.linalg.inv(np.cov(x[a:b], rowvar=False))
+            np.testing.assert_allclose(res.relations[i], p / np.diag(p)[:, None], rtol=1e-9,
+                                       atol=1e-10)
+
+    def test_results_do_not_depend_on_how_windows_are_split_into_pieces(self):
+        x = _series(t=60_000, n=3, seed=6)  # more windows than one cache-sized piece
+        c, m, cm, rows = _rolling(x, 10, 5, 1)
+        whole = batched_elementary_regressions(c, cm, means=m)
+        part = batched_elementary_regressions(c[1000:1010], cm[1000:1010], means=m[1000:1010])
+        assert c.size > 4000
+        assert np.array_equal(whole.relations[1000:1010], part.relations)
+        assert np.array_equal(whole.intercepts[1000:1010], part.intercepts)
+
     def test_matches_statsmodels_ols_on_a_few_windows(self):
         sm = pytest.importorskip("statsmodels.api")  # reference library: statsmodels OLS
         x = _series(seed=3)
