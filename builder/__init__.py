@@ -6,11 +6,31 @@ Python face of relspan (the command line is :mod:`builder.cli`):
 * :func:`check` - analyse a spec and evaluate its claims (writes nothing);
 * :func:`build` - analyse a spec and write its site;
 * :func:`analyse_frame` - the whole analysis on a pandas DataFrame (notebooks).
+
+The names are loaded on first use (PEP 562), so that ``import builder.cli`` stays
+light: the command line starts fast and a Ctrl-C during start-up reaches its
+handler (exit 130, one line) instead of interrupting an import of pandas.
 """
+
+from __future__ import annotations
+
+import importlib
 
 __version__ = "0.1.0"
 
-from builder.api import FrameAnalysis, Outcome, analyse_frame, build, check  # noqa: E402
-from builder.spec.loader import load_spec  # noqa: E402
-
 __all__ = ["__version__", "load_spec", "check", "build", "analyse_frame", "Outcome", "FrameAnalysis"]
+
+_LAZY = {"check": "builder.api", "build": "builder.api", "analyse_frame": "builder.api",
+         "Outcome": "builder.api", "FrameAnalysis": "builder.api", "load_spec": "builder.spec.loader"}
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        value = getattr(importlib.import_module(_LAZY[name]), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'builder' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

@@ -16,7 +16,7 @@ from concurrent.futures import ThreadPoolExecutor
 
 import pytest
 
-from corpus.harness import (case_argv, case_meta, copy_case, corpus_cases, paragraph_problems,
+from corpus.harness import (CORPUS, case_argv, case_meta, copy_case, corpus_cases, paragraph_problems,
                             run_cli, snapshot)
 
 CASES = corpus_cases()
@@ -64,7 +64,7 @@ def test_case_file_names_command_exit_code_fragment_and_a_project(name):
     assert meta["what"].strip()
     if meta["exit"] == 2:
         assert meta["fragment"].strip()
-    assert (copy_case.__globals__["CORPUS"] / name / "project").is_dir()
+    assert (CORPUS / name / "project").is_dir()
 
 
 @pytest.mark.parametrize("name", BAD)

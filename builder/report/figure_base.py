@@ -96,6 +96,7 @@ _ASSUMPTION_SLOT = {"equal": 0, "bounded": 1, "diagonal": 2, "elementary": 3, "s
 _RC = {
     "font.family": "DejaVu Sans",
     "font.size": 10.5,
+    "text.parse_math": False,  # labels are user text: a '$' in a unit is a dollar, not mathtext
     "axes.titlesize": 11,
     "axes.titleweight": "bold",
     "axes.titlelocation": "left",

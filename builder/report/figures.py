@@ -197,6 +197,10 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
             _draw_window_strip(fig, axw, plans, lane_of, n_lanes)
             for lab in ax.get_xticklabels():
                 lab.set_visible(False)
+            if is_dt:  # the plan labels narrow the axes: few enough dates that the labels never overlap
+                import matplotlib.dates as mdates
+
+                axw.xaxis.set_major_locator(mdates.AutoDateLocator(minticks=3, maxticks=6))
             if not is_dt:
                 axw.set_xlabel("row")
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -11,10 +12,14 @@ from builder import __version__
 from builder.report import pages as P
 from builder.site.content import NavItem, Page, SiteContent
 
-__all__ = ["site_content", "results_document", "RESULTS_SCHEMA_VERSION"]
+__all__ = ["site_content", "results_document", "dataset_document", "RESULTS_SCHEMA_VERSION",
+           "RESULTS_SCHEMA_PATH"]
 
 #: version of the results JSON layout documented in docs/results.md
 RESULTS_SCHEMA_VERSION = 1
+
+#: JSON Schema (draft 2020-12) of data/results.json, shipped with the site as data/results.schema.json
+RESULTS_SCHEMA_PATH = Path(__file__).with_name("results.schema.json")
 
 
 def _csv(df: pd.DataFrame) -> bytes:
@@ -23,7 +28,8 @@ def _csv(df: pd.DataFrame) -> bytes:
     return buf.getvalue().encode("utf-8")
 
 
-def _dataset_document(result) -> dict:
+def dataset_document(result) -> dict:
+    """Everything computed for one dataset (data/<id>/results.json; layout: docs/results.md)."""
     from builder.analysis._common import jsonable
 
     plans = []
@@ -66,7 +72,7 @@ def results_document(run) -> dict:
         "relspan": __version__,
         "title": run.spec.report.title,
         "environment": dict(sorted(run.environment.items())),
-        "datasets": [_dataset_document(r) for r in run.datasets],
+        "datasets": [dataset_document(r) for r in run.datasets],
         "claims": [v.to_dict() for v in run.verdicts],
     }
 
@@ -138,15 +144,16 @@ def site_content(run, *, executor=None, cache=None, progress=None) -> SiteConten
     for result in run.datasets:
         pages.append(P.dataset_page(run, result, pub))
         pages.extend(P.window_pages(run, result, pub))
-        pub.add(f"data/{result.spec.id}/results.json", P.json_bytes(_dataset_document(result)))
+        pub.add(f"data/{result.spec.id}/results.json", P.json_bytes(dataset_document(result)))
         pub.add(f"data/{result.spec.id}/assumptions.csv", _assumptions_csv(result))
         pub.add(f"data/{result.spec.id}/windows.csv", _windows_csv(result))
     pub.add("data/results.json", P.json_bytes(results_document(run)))
     pub.add("data/claims.csv", _claims_csv(run))
     pub.add("data/findings.csv", _findings_csv(run))
     spec_link = pub.add(f"data/{spec.path.name}", spec.text.encode("utf-8"))
-    pages += [P.claims_page(run), P.caution_page(), P.methods_page(pub), P.glossary_page(),
-              P.reproduce_page(run, pub, spec_link), P.downloads_page(run)]
+    pub.add("data/results.schema.json", RESULTS_SCHEMA_PATH.read_bytes())
+    pages += [P.claims_page(run, pub), P.caution_page(), P.methods_page(pub), P.glossary_page()]
+    pages += [P.reproduce_page(run, pub, spec_link), P.downloads_page(run, pub)]
     pages = pub.resolve(pages, executor=executor, cache=cache, progress=progress)
     nav = (
         NavItem("Home", "index.html"),
@@ -159,9 +166,8 @@ def site_content(run, *, executor=None, cache=None, progress=None) -> SiteConten
         NavItem("Reproduce", "reproduce.html"),
         NavItem("Downloads", "downloads.html"),
     )
-    footer = (f"Built with relspan {__version__} from the spec and data listed on [Reproduce](/reproduce.html). "
-              "Association is not causation; results rest on data quality and the stated assumptions. "
-              "[How to read a single coefficient](/caution.html).")
+    footer = (f"Built with relspan {__version__} from the spec and data listed on [Reproduce](/reproduce.html); "
+              "every number can be downloaded from [Downloads](/downloads.html).")
     return SiteContent(title=spec.report.title, language=spec.site.language, pages=tuple(pages),
                        files=pub.site_files(), nav=nav, footer=footer)
 

@@ -787,6 +787,17 @@ class _Builder:
                 f"every variable.", line=a_line, key=a_key,
                 fix=f"add `noise_share:` to every variable of {key}, or leave 'shaped' out "
                     f"(in {key}.checks.assumptions if the other datasets need it).")
+        vs = ds["variables"]
+        zero = [i for i, v in enumerate(vs) if has_shares and v.get("noise_share") == 0]
+        if zero and "shaped" in kw.get("assumptions", defaults.assumptions):
+            i = zero[0]
+            raise self.err(
+                f"{key}.variables[{i}].noise_share is 0, but the shaped assumption of {ds_name} "
+                f"needs every noise share > 0 (its noise variances up to one common factor).",
+                line=_line(vs[i], "noise_share", _item_line(vs, i, getattr(ds, "line", 1))),
+                key=f"{key}.variables[{i}].noise_share",
+                fix="give that variable a small positive share (e.g. a hundredth of the others), "
+                    f"or leave 'shaped' out (in {key}.checks.assumptions).")
         if norm is not None and norm != "auto" and norm not in columns:
             raise self.err(
                 f"{n_key} is '{norm}', which is not a variable of {ds_name}. Its variables "

@@ -1,0 +1,232 @@
+"""The Python face for notebooks: load_spec, check, build, analyse_frame.
+
+Outside references: statsmodels OLS (reference library) for the elementary
+regression that ``analyse_frame`` reports; the data are the invented demo's
+(specs/data/trio.csv, made by specs/generate_demo.py).
+"""
+
+from __future__ import annotations
+
+import shutil
+import textwrap
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import builder
+from builder.errors import DataError, OptionsError, SpecError
+
+ROOT = Path(__file__).resolve().parents[1]
+SPECS = ROOT / "specs"
+DEMO = SPECS / "demo.yaml"
+TRIO_CSV = SPECS / "data" / "trio.csv"
+TRIO_COLUMNS = ["cargo", "rail", "customs", "kelp"]
+TRIO_ASSUMPTIONS = ["elementary", "equal", "bounded", "diagonal"]  # as specs/demo.yaml for trio
+
+
+@pytest.fixture(scope="module")
+def demo_check():
+    """builder.check on the demo (serial, no cache): the reference for analyse_frame."""
+    return builder.check(DEMO, jobs=1, use_cache=False)
+
+
+@pytest.fixture(scope="module")
+def trio_frame() -> pd.DataFrame:
+    return pd.read_csv(TRIO_CSV)
+
+
+@pytest.fixture(scope="module")
+def trio_analysis(trio_frame):
+    # the demo's trio set-up: ten-year windows every two years are 40 and 8 quarterly rows
+    return builder.analyse_frame(trio_frame, columns=TRIO_COLUMNS, time="quarter", rolling=40, step=8,
+                                 assumptions=TRIO_ASSUMPTIONS, normalise_on="cargo")
+
+
+# --------------------------------------------------------------- load_spec
+
+
+def test_load_spec_returns_the_validated_demo():
+    spec = builder.load_spec(DEMO)
+    assert [d.id for d in spec.datasets] == ["trio", "accounts", "shift"]
+    assert len(spec.claims) == 5
+    assert spec.dataset("accounts").noise_shape == (0.4093, 0.81, 0.49, 1.44)
+    assert spec.path == DEMO.resolve() or spec.path == DEMO
+
+
+def test_load_spec_raises_a_located_spec_error_with_its_fields(tmp_path):
+    bad = tmp_path / "bad.yaml"
+    bad.write_text(DEMO.read_text(encoding="utf-8").replace("  seed: 0\n", "  sead: 0\n"),
+                   encoding="utf-8")
+    with pytest.raises(SpecError, match=r"unknown key checks\.sead; did you mean 'seed'\?") as info:
+        builder.load_spec(bad)
+    assert info.value.line is not None and info.value.line > 100
+    assert "seed" in (info.value.fix or "")
+
+
+# ------------------------------------------------------------------- check
+
+
+def test_check_returns_an_outcome_with_every_demo_claim_holding_and_no_site(demo_check):
+    assert demo_check.all_claims_hold
+    assert demo_check.out_dir is None
+    assert [v.claim.id for v in demo_check.run.verdicts] == [c.id for c in builder.load_spec(DEMO).claims]
+    table = demo_check.verdict_table()
+    assert table.count("HOLDS") == 5
+    assert "5 of 5 claim(s) hold" in table
+
+
+def test_check_does_not_create_a_cache_folder(tmp_path):
+    folder = tmp_path / "demo"
+    (folder / "data").mkdir(parents=True)
+    shutil.copy2(SPECS / "data" / "shift.csv", folder / "data" / "shift.csv")
+    spec = folder / "fares.yaml"
+    spec.write_text(_SMALL_SPEC, encoding="utf-8")
+    outcome = builder.check(spec, jobs=1)
+    assert outcome.all_claims_hold
+    assert sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")) == [
+        "data", "data/shift.csv", "fares.yaml"]
+
+
+# ------------------------------------------------------------------- build
+
+#: a small spec of our own on the demo's invented ferry-fare table (quick to build)
+_SMALL_SPEC = textwrap.dedent("""\
+    relspan: 1
+    report:
+      title: "Ferry fares before and after 2008 (invented data)"
+    datasets:
+      - id: fares
+        title: "Caddren ferry fares"
+        source: data/shift.csv
+        time: {column: quarter, format: quarter}
+        variables:
+          - {column: fares, label: "Ferry fares"}
+          - {column: fuel, label: "Fuel costs"}
+          - {column: wages, label: "Crew wages"}
+        missing: fail
+    windows:
+      - {id: full, kind: full}
+      - id: eras
+        kind: periods
+        periods:
+          - {label: "Old formula", from: "1990-01-01", to: "2007-12-31"}
+          - {label: "New formula", from: "2008-01-01", to: "2025-12-31"}
+    checks:
+      assumptions: [elementary, equal, bounded, diagonal]
+      normalise_on: fares
+    claims:
+      - id: one-formula-per-era
+        kind: corank
+        dataset: fares
+        plan: eras
+        assumption: equal
+        equals: 1
+    site:
+      out: _site
+    """)
+
+
+@pytest.fixture(scope="module")
+def small_build(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("api-build")
+    (folder / "data").mkdir()
+    shutil.copy2(SPECS / "data" / "shift.csv", folder / "data" / "shift.csv")
+    spec = folder / "fares.yaml"
+    spec.write_text(_SMALL_SPEC, encoding="utf-8")
+    outcome = builder.build(spec, jobs=1, cache_dir=folder / "cache")
+    return spec, outcome
+
+
+def test_build_writes_the_site_to_site_out_beside_the_spec(small_build):
+    spec, outcome = small_build
+    assert outcome.all_claims_hold
+    assert outcome.out_dir == spec.parent / "_site"
+    for name in ("index.html", "claims.html", "caution.html", "data/results.json", "SHA256SUMS"):
+        assert (outcome.out_dir / name).is_file(), name
+    assert outcome.run.cache_misses == 1 and outcome.run.cache_hits == 0
+
+
+def test_build_again_from_the_cache_gives_the_same_bytes(small_build):
+    spec, first = small_build
+    before = {p: p.read_bytes() for p in first.out_dir.rglob("*") if p.is_file()}
+    again = builder.build(spec, jobs=1, cache_dir=spec.parent / "cache")
+    assert again.run.cache_hits == 1 and again.run.cache_misses == 0
+    assert {p: p.read_bytes() for p in again.out_dir.rglob("*") if p.is_file()} == before
+
+
+def test_build_into_the_spec_folder_raises_before_analysing(small_build):
+    spec, _ = small_build
+    from builder.errors import OutputError
+
+    with pytest.raises(OutputError):
+        builder.build(spec, out=spec.parent, jobs=1, use_cache=False)
+
+
+# ----------------------------------------------------------- analyse_frame
+
+
+def test_analyse_frame_to_frame_has_one_row_per_assumption_with_the_spec_runs_coranks(
+        trio_analysis, demo_check):
+    table = trio_analysis.to_frame()
+    assert isinstance(table, pd.DataFrame)
+    assert list(table.index) == TRIO_ASSUMPTIONS
+    expected = demo_check.run.dataset("trio").full.coranks
+    assert table["corank"].to_dict() == {a: expected[a] for a in TRIO_ASSUMPTIONS}
+    assert {"coef[rail]", "coef[customs]", "coef[kelp]"} <= set(table.columns)
+
+
+def test_analyse_frame_elementary_coefficients_equal_ols_of_the_reference_variable(trio_analysis,
+                                                                                  trio_frame):
+    sm = pytest.importorskip("statsmodels.api")  # reference library: statsmodels OLS
+    fit = sm.OLS(trio_frame["cargo"], sm.add_constant(trio_frame[["rail", "customs", "kelp"]])).fit()
+    row = trio_analysis.to_frame().loc["elementary"]
+    for name in ("rail", "customs", "kelp"):
+        assert row[f"coef[{name}]"] == pytest.approx(fit.params[name], rel=1e-9)
+
+
+def test_analyse_frame_windows_frame_has_a_row_per_window_and_assumption(trio_analysis, demo_check):
+    windows = trio_analysis.windows_frame()
+    assert list(windows.columns) == ["plan", "window", "rows", "assumption", "corank"]
+    assert len(windows) == (1 + 14) * len(TRIO_ASSUMPTIONS)
+    assert str(windows["corank"].dtype) == "Int64"
+    rolling = windows[(windows["plan"] == "rolling") & (windows["assumption"] == "equal")]
+    reference = demo_check.run.dataset("trio").plan("rolling")
+    assert list(rolling["window"]) == list(reference.labels)
+    assert list(rolling["corank"]) == [w.coranks["equal"] for w in reference.analyses] == [2] * 14
+    assert set(rolling["rows"]) == {40}
+
+
+def test_analyse_frame_findings_frame_lists_every_finding(trio_analysis):
+    findings = trio_analysis.findings_frame()
+    assert list(findings.columns) == ["kind", "topic", "headline"]
+    assert len(findings) == len(trio_analysis.result.findings) > 0
+    assert "corank" in set(findings["topic"])
+
+
+def test_analyse_frame_shows_as_an_html_table_in_a_notebook(trio_analysis):
+    html = trio_analysis._repr_html_()
+    assert "<table" in html and "equal" in html and "corank" in html
+    assert "corank" in repr(trio_analysis)
+
+
+def test_analyse_frame_names_a_missing_column_and_the_columns_that_exist(trio_frame):
+    with pytest.raises(OptionsError, match=r"columns \['seaweed'\] are not in the DataFrame; it has "
+                                           r"\['quarter', 'cargo', 'rail', 'customs', 'kelp'\]"):
+        builder.analyse_frame(trio_frame, columns=["cargo", "seaweed"])
+
+
+def test_analyse_frame_names_the_first_non_numeric_row(trio_frame):
+    frame = trio_frame.astype({"rail": object}).copy()
+    frame.loc[6, "rail"] = "about 700"
+    with pytest.raises(DataError, match=r"column 'rail', row 7: 'about 700' is not a number"):
+        builder.analyse_frame(frame, columns=TRIO_COLUMNS, time="quarter")
+
+
+def test_analyse_frame_without_time_uses_row_windows(trio_frame):
+    result = builder.analyse_frame(trio_frame[TRIO_COLUMNS], columns=TRIO_COLUMNS, rolling=40, step=8,
+                                   assumptions=["equal"])
+    windows = result.windows_frame()
+    assert list(windows.loc[windows["plan"] == "rolling", "window"])[:2] == ["rows 1–40", "rows 9–48"]
+    assert np.all(windows["corank"] == 2)

@@ -1,0 +1,174 @@
+"""End-to-end fuzzing: random small specs and random small tables through ``builder.api.check``.
+
+Whatever a user writes, ``check`` either returns an :class:`~builder.api.Outcome`
+or raises one of our :class:`~builder.errors.RelspanError` subclasses (which the
+command line turns into exit code 2); any other exception is a bug. The spec
+loader and the data readers are fuzzed on their own in tests/spec and
+tests/data; this test drives the whole pipeline, analysis and claims included.
+"""
+
+from __future__ import annotations
+
+import math
+import tempfile
+import warnings
+from pathlib import Path
+
+import numpy as np
+import yaml
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from builder.api import Outcome, check
+from builder.errors import RelspanError, RelspanWarning
+from builder.spec.model import ASSUMPTIONS, CLAIM_KINDS, TRANSFORMS
+
+COLUMN_NAMES = ["a", "b", "c", "d", "x y", "Größe", "数量", "a,b", "", "year"]
+
+
+@st.composite
+def tables(draw):
+    """A small table: a time column of years (sometimes unsorted or repeated) and 2-4 numeric columns.
+
+    The numbers are mostly well-behaved (random normals, an exact linear combination,
+    a constant column) with a few bad cells (blank, text, inf, huge, tiny) mixed in.
+    """
+    size = draw(st.integers(0, 9))
+    n_rows = 0 if size == 9 else 3 if size == 8 else draw(st.integers(8, 24))
+    names = draw(st.lists(st.sampled_from(COLUMN_NAMES[:8]), min_size=2, max_size=4, unique=True))
+    seed = draw(st.integers(0, 2**16))
+    rng = np.random.default_rng(seed)
+    scale = 10.0 ** draw(st.integers(-8, 8))
+    data = (rng.normal(size=(n_rows, len(names))) + draw(st.sampled_from([0.0, 8.0]))) * scale
+    shape = draw(st.sampled_from(["generic", "exact", "constant", "scaled"]))
+    if shape == "exact" and len(names) >= 3:
+        data[:, -1] = data[:, 0] - 2.0 * data[:, 1]
+    elif shape == "constant":
+        data[:, draw(st.integers(0, len(names) - 1))] = 3.25
+    elif shape == "scaled":
+        data *= 10.0 ** np.arange(-8, -8 + 4 * len(names), 4)[: len(names)]
+    cells = [[repr(float(v)) for v in row] for row in data]
+    bad = draw(st.lists(st.tuples(st.integers(0, max(n_rows - 1, 0)), st.integers(0, len(names) - 1),
+                                  st.sampled_from(["", "NaN", "inf", "-inf", "abc", "1e300",
+                                                   "1e-320", "1,5", "  7 ", "0x10", "\"3\""])),
+                        max_size=draw(st.sampled_from([0, 0, 0, 1, 2]))))
+    for r, c, v in bad:
+        if r < n_rows:
+            cells[r][c] = v
+    years = list(range(1980, 1980 + n_rows))
+    order = draw(st.sampled_from(["sorted"] * 8 + ["swap", "repeat"]))
+    if order == "swap" and n_rows > 3:
+        years[1], years[2] = years[2], years[1]
+    elif order == "repeat" and n_rows > 3:
+        years[3] = years[2]
+    lines = [",".join(["year"] + [_csv_field(n) for n in names])]
+    lines += [",".join([str(y)] + row) for y, row in zip(years, cells)]
+    return names, "\n".join(lines) + "\n"
+
+
+def _csv_field(name: str) -> str:
+    return f'"{name}"' if ("," in name or '"' in name) else name
+
+
+def _window(draw, i, timed):
+    kind = draw(st.sampled_from(["full", "rolling", "expanding"] + (["periods"] if timed else [])))
+    plan = {"id": f"w{i}", "kind": kind}
+    if kind in ("rolling", "expanding"):
+        if timed and draw(st.booleans()):
+            plan["width"] = draw(st.sampled_from(["5 years", "12 years", "40 years"]))
+            plan["step"] = draw(st.sampled_from(["2 years", "1 year", "5 years"]))
+        else:
+            plan["width"] = draw(st.sampled_from([2, 40]) | st.integers(6, 20))
+            plan["step"] = draw(st.integers(1, 12))
+    elif kind == "periods":
+        start = draw(st.integers(1975, 2000))
+        plan["periods"] = [{"label": "p", "from": f"{start}-01-01", "to": f"{start + draw(st.integers(0, 20))}-12-31"}]
+    return plan
+
+
+def _claim(draw, names, plans, checked):
+    kind = draw(st.sampled_from(list(CLAIM_KINDS) + ["corank"]))
+    claim = {"id": "c", "kind": kind, "text": "A claim.", "dataset": draw(st.sampled_from(["d"] * 9 + ["e"])),
+             "plan": draw(st.sampled_from(plans * 9 + ["nope"]))}
+    assumption = draw(st.sampled_from(checked))
+    if kind == "corank":
+        claim.update(assumption=assumption, equals=draw(st.integers(0, len(names) - 1)))
+    elif kind == "subspace_stable":
+        claim.update(assumption=assumption, corank=draw(st.integers(1, len(names) - 1)),
+                     below_deg=draw(st.sampled_from([0.001, 5, 45])))
+    else:
+        claim.update(assumption=assumption, normalise_on=draw(st.sampled_from(names)),
+                     variable=draw(st.sampled_from(names)))
+    return claim
+
+
+@st.composite
+def projects(draw):
+    """(spec dict, csv text): a spec over the table, mostly valid, sometimes not."""
+    names, text = draw(tables())
+    pool = names + (["zz"] if draw(st.integers(0, 9)) == 0 else [])
+    picked = draw(st.lists(st.sampled_from(pool), min_size=2, max_size=4, unique=True))
+    variables = []
+    for col in picked:
+        v = {"column": col}
+        if draw(st.integers(0, 3)) == 0:
+            v["transform"] = draw(st.sampled_from(list(TRANSFORMS)))  # log of negatives: a DataError
+        variables.append(v)
+    if draw(st.booleans()):
+        share = draw(st.sampled_from([0.0, 0.5, 1.0, 2.0]))
+        for v in variables:
+            v["noise_share"] = share if draw(st.booleans()) else 1.0
+    timed = draw(st.integers(0, 4)) > 0
+    windows = [_window(draw, i, timed) for i in range(draw(st.integers(1, 2)))]
+    plan_ids = [w["id"] for w in windows]
+    dataset = {"id": "d", "source": "data/t.csv", "variables": variables,
+               "missing": draw(st.sampled_from(["drop", "fail"]))}
+    if timed:
+        dataset["time"] = {"column": "year", "format": draw(st.sampled_from(["auto", "year"]))}
+    shared = "noise_share" in variables[0]
+    allowed = [a for a in ASSUMPTIONS if shared or a != "shaped"]
+    checks = {"assumptions": draw(st.lists(st.sampled_from(allowed), min_size=1, max_size=3, unique=True)),
+              "tolerance": draw(st.sampled_from([{"relative": 0.05}, {"relative": 1e-9}, {"relative": 0.9},
+                                                 {"absolute": 1e-6}, {"absolute": 10.0}])),
+              "coranks": draw(st.sampled_from(["auto"] * 6 + [[1], [1, 2]])),
+              "frisch_starts": 2}
+    if draw(st.booleans()):
+        checks["normalise_on"] = draw(st.sampled_from(picked))
+    spec = {"relspan": 1, "report": {"title": "Fuzz"}, "datasets": [dataset], "windows": windows,
+            "checks": checks, "site": {"out": "_site"}}
+    if draw(st.booleans()):
+        spec["claims"] = [_claim(draw, picked, plan_ids, checks["assumptions"])]
+    return spec, text
+
+
+@settings(max_examples=150, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+@given(project=projects())
+def test_random_specs_and_tables_give_an_outcome_or_a_relspan_error(project):
+    spec, text = project
+    with tempfile.TemporaryDirectory() as d:
+        folder = Path(d)
+        (folder / "data").mkdir()
+        (folder / "data" / "t.csv").write_text(text, encoding="utf-8")
+        (folder / "spec.yaml").write_text(yaml.safe_dump(spec, allow_unicode=True, sort_keys=False),
+                                          encoding="utf-8")
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RelspanWarning)
+            try:
+                outcome = check(folder / "spec.yaml", jobs=1, use_cache=False, progress=False)
+            except RelspanError as err:
+                message = str(err)
+                assert message.strip() and "Traceback" not in message
+                assert err.fix and message.endswith(f"\n  Fix: {err.fix}")
+                assert err.path, f"the error names no file: {message}"
+                return
+        assert isinstance(outcome, Outcome)
+        assert isinstance(outcome.all_claims_hold, bool)
+        for verdict in outcome.run.verdicts:
+            assert verdict.observed.strip()
+        for ds in outcome.run.datasets:
+            for plan in ds.plans:
+                for a in plan.analyses:
+                    for q in a.coranks.values():
+                        assert q is None or (isinstance(q, (int, np.integer)) and 0 <= q < len(ds.full.names))
+        assert math.isfinite(outcome.seconds)
