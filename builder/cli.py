@@ -13,9 +13,12 @@ and maps outcomes to exit codes:
 
 from __future__ import annotations
 
+import _thread
 import argparse
+import signal
 import sys
 import textwrap
+import threading
 import warnings
 from pathlib import Path
 from typing import Sequence
@@ -184,6 +187,44 @@ def _cmd_schema(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+class _CtrlC:
+    """Make one Ctrl-C reach :func:`main` as a KeyboardInterrupt, wherever it lands.
+
+    CPython prints and drops an exception raised inside a weakref callback or a
+    ``__del__`` ("Exception ignored in ..."), so a Ctrl-C that lands there would be
+    lost and the build would carry on. While a command runs, SIGINT raises
+    KeyboardInterrupt and raises it again every second (``_thread.interrupt_main``)
+    until one leaves the command; further Ctrl-C are then ignored while relspan exits.
+    """
+
+    def __init__(self) -> None:
+        self._done = threading.Event()
+        self._previous = None
+
+    def __enter__(self) -> "_CtrlC":
+        if threading.current_thread() is threading.main_thread():
+            self._previous = signal.signal(signal.SIGINT, self._on_signal)
+        return self
+
+    def _on_signal(self, signum, frame) -> None:
+        if self._done.is_set():
+            return
+        timer = threading.Timer(1.0, self._again)
+        timer.daemon = True
+        timer.start()
+        raise KeyboardInterrupt
+
+    def _again(self) -> None:
+        if not self._done.is_set():
+            _thread.interrupt_main()
+
+    def __exit__(self, exc_type, exc, tb) -> None:
+        self._done.set()
+        if self._previous is not None:  # after an interrupt, ignore more while we clean up and exit
+            interrupted = exc_type is not None and issubclass(exc_type, KeyboardInterrupt)
+            signal.signal(signal.SIGINT, signal.SIG_IGN if interrupted else self._previous)
+
+
 _COMMANDS = {"build": _cmd_build, "check": _cmd_check, "serve": _cmd_serve,
              "new": _cmd_new, "schema": _cmd_schema}
 
@@ -196,7 +237,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help(sys.stderr)
         return EXIT_BAD_INPUT
     try:
-        return _COMMANDS[args.command](args)
+        with _CtrlC():
+            return _COMMANDS[args.command](args)
     except RelspanError as err:
         print(textwrap.indent(str(err), "").rstrip(), file=sys.stderr)
         return EXIT_BAD_INPUT

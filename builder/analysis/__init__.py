@@ -44,3 +44,13 @@ __all__ += [
     "one_orthant", "frisch_q1", "triad", "minimum_trace", "ledermann_corank", "frisch_max_corank",
     "frisch_identification", "solution_spread", "frisch_analysis",
 ]
+
+from builder.analysis.window import ASSUMPTION_LABELS, WindowAnalysis, WindowOptions, analyse_window
+from builder.analysis.findings import FINDING_KINDS, Finding, dataset_findings
+from builder.analysis.claims import ClaimVerdict, evaluate_claim, evaluate_claims
+
+__all__ += [
+    "WindowOptions", "WindowAnalysis", "analyse_window", "ASSUMPTION_LABELS",
+    "Finding", "FINDING_KINDS", "dataset_findings",
+    "ClaimVerdict", "evaluate_claim", "evaluate_claims",
+]

@@ -269,6 +269,8 @@ class PlainSummary:
         The same in a few words, for the home page's first screen.
     covers : tuple of (kind, topic)
         Findings these sentences already state (cards do not repeat them).
+    unstable : str
+        What changes across windows of time, in plain words ("" when nothing does).
     depends : str
         What changes with the noise assumption, and why ("" when nothing does).
     evidence : dict
@@ -285,6 +287,7 @@ class PlainSummary:
     pinned_short: str = ""
     open_short: str = ""
     covers: tuple = ()
+    unstable: str = ""
 
 
 def _window_relation_change(plan, q: int, assumption: str = "equal"):
@@ -374,6 +377,9 @@ def plain_summary(result) -> PlainSummary:
         if st is not None and st.max_to_reference_deg is not None:
             stab.append((plan, st))
     single = False
+    windowed = _windowed_relations(result) if q is None else []
+    if windowed:
+        windowed.sort(key=lambda t: (t[0].plan.kind != "periods", -(t[2] or 0.0)))
     covers = [("pinned_down", "corank")]
     ev = {"pinned": "corank", "open": "identified", "depends": "assumptions"}
     if q is not None and q >= 1:
@@ -433,11 +439,9 @@ def plain_summary(result) -> PlainSummary:
             open_short = "the exact weights (they depend on the noise assumption)"
             single = True
     else:
-        windowed = _windowed_relations(result)
         period = (f" over the whole period ({result.prepared.period[0]} to {result.prepared.period[1]})"
                   if result.prepared.period else " over all the rows together")
         if windowed:
-            windowed.sort(key=lambda t: (t[0].plan.kind != "periods", -(t[2] or 0.0)))
             plan, qq, change = windowed[0]
             titles = _names_list([f"\u201c{p.plan.title or p.plan.id}\u201d" for p, _, _ in windowed])
             pinned = (f"Within each window of {titles}, {_count(qq, 'relation')} "
@@ -472,8 +476,28 @@ def plain_summary(result) -> PlainSummary:
         elif flips:
             depends = flips[0].headline
             single = True
+    unstable = ""
+    swings = [f for f in result.findings if f.kind == "unstable" and f.topic == "coefficient"]
+    moving = [f for f in result.findings if f.kind == "unstable" and f.topic == "stability"]
+    if swings and stab and not moving:
+        worst = max(st.max_to_reference_deg for _, st in stab)
+        unstable = (f"Single weights swing between windows of time, some even change sign, while the "
+                    f"relations as a set stay within {worst:.2g} degrees. With several relations this is "
+                    "expected and is no evidence that the relation changed." if q and q >= 2 else
+                    f"Single weights swing between windows of time while the relation stays within "
+                    f"{worst:.2g} degrees.")
+        ev["unstable"] = swings[0].evidence
+        single = True
+    elif moving:
+        unstable = "The relations move between windows of time by more than the stated threshold."
+        ev["unstable"] = moving[0].evidence
+    elif q is None and windowed and windowed[0][2] is not None:
+        plan, _, change = windowed[0]
+        unstable = (f"The relation itself changes over time: between the windows of \u201c"
+                    f"{plan.plan.title or plan.plan.id}\u201d it turns by an angle of up to {change:.2g} degrees.")
+        ev["unstable"] = f"plan-{plan.plan.id}"
     return PlainSummary(pinned, open_, depends, ev, single, _cap(pinned_short), _cap(open_short),
-                        tuple(covers))
+                        tuple(covers), unstable)
 
 
 # --------------------------------------------------------------------------------------------- home
@@ -522,7 +546,8 @@ def home_page(run) -> Page:
             if (f.kind, f.topic) not in sm.covers:
                 groups[CARD_OF_KIND[f.kind]].append(f)
         lead = {"pinned": (sm.pinned, sm.evidence["pinned"]), "open": (sm.open, sm.evidence["open"]),
-                "depends": (sm.depends, sm.evidence["depends"]), "unstable": ("", "")}
+                "depends": (sm.depends, sm.evidence["depends"]),
+                "unstable": (sm.unstable, sm.evidence.get("unstable", "stability"))}
         snippets = []
         for card in ("pinned", "open", "depends", "unstable"):
             items = groups[card]
@@ -541,7 +566,7 @@ def home_page(run) -> Page:
                               "depends": "No finding here changes with the noise assumption.",
                               "unstable": "Nothing found that changes across the windows checked."}[card])
             body = "\n".join(lines)
-            if any(f.single_coefficient for f in items) or (card in ("open", "depends") and text
+            if any(f.single_coefficient for f in items) or (card != "pinned" and text
                                                              and sm.single_coefficient):
                 body += f"\n\n{CAUTION_LINK}."
             snippets.append(blocks.card(card, _CARD_HEADINGS[card], body))
@@ -840,6 +865,9 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     if sm.depends:
         body.append(f"- **Depends on the noise assumption.** {escape_text(sm.depends)} "
                     f"([evidence](#{sm.evidence['depends']}))")
+    if sm.unstable:
+        body.append(f"- **Changes across time.** {escape_text(sm.unstable)} "
+                    f"([evidence](#{sm.evidence['unstable']}))")
     body.append("")
     if sm.single_coefficient or any(f.single_coefficient for f in result.findings):
         body.append(_single_coefficient_note())
@@ -1099,7 +1127,7 @@ def _outputs(run, pub: Publisher) -> list[tuple[str, str, str]]:
     rows = []
     for r in run.datasets:
         ds = r.spec
-        title = ds.title
+        title = f"Dataset {ds.id}"
         tables = sorted(p for p in pub.files if p.startswith(f"data/{ds.id}/tables/") and p.count("/") == 3)
         for path in tables:
             rows.append((f"{title}: table \u201c{path.rsplit('/', 1)[1][:-4]}\u201d", build, path))
