@@ -244,6 +244,10 @@ def main(argv: Sequence[str] | None = None) -> int:
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         print("relspan: interrupted; the previous site (if any) is unchanged.", file=sys.stderr)
+        # A Ctrl-C that interrupted code run by exec(text) (dataclasses, during imports) leaves
+        # CPython's "unhandled KeyboardInterrupt" flag set, and the interpreter would then end
+        # by killing itself with SIGINT instead of exiting 130; evaluating any text resets it.
+        exec("")  # noqa: S102 - a constant, empty program
         return EXIT_INTERRUPTED
     except BrokenPipeError:  # e.g. `relspan schema | head`
         return EXIT_OK

@@ -21,6 +21,7 @@ import csv
 import difflib
 import hashlib
 import io
+import threading
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterator, Sequence
@@ -39,7 +40,48 @@ __all__ = [
     "TableReader",
     "numeric_block",
     "file_sha256",
+    "check_finite",
+    "ENGINES",
+    "FastPathDeclined",
+    "arrow_available",
 ]
+
+#: CSV readers: ``auto`` (pyarrow's streaming reader when pyarrow is installed, else
+#: pandas), ``pyarrow`` (only that one; a file it cannot take exactly raises
+#: :class:`FastPathDeclined`) and ``pandas`` (the reference reader)
+ENGINES = ("auto", "pyarrow", "pandas")
+
+#: bytes of CSV text pyarrow parses per block (one block is one batch of rows; memory
+#: stays proportional to it and to the few blocks read ahead)
+ARROW_BLOCK_BYTES = 1 << 21
+
+#: cells pandas' C reader reads as missing by default (pandas.read_csv, na_values); the
+#: pyarrow reader is given the same list so both readers agree cell for cell
+try:
+    from pandas._libs.parsers import STR_NA_VALUES as _PANDAS_NA  # noqa: PLC0415
+    _NA_VALUES = sorted(_PANDAS_NA)
+except ImportError:  # pragma: no cover - pandas moved it
+    _NA_VALUES = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan",
+                  "1.#IND", "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a",
+                  "nan", "null"]
+
+
+class FastPathDeclined(Exception):
+    """The pyarrow reader met something it may read differently from pandas.
+
+    Raised only by ``engine="pyarrow"``; :func:`builder.data.prepare.prepare_dataset`
+    then reads the file again with pandas, which gives the reference result or the
+    located error message. It is never shown to users.
+    """
+
+
+def arrow_available() -> bool:
+    """Whether pyarrow's CSV reader can be imported."""
+    try:
+        import pyarrow.csv  # noqa: F401, PLC0415 (optional dependency)
+    except ImportError:
+        return False
+    return True
 
 #: values of ``datasets[i].format``
 FORMATS = ("auto", "csv", "tsv", "parquet")
@@ -396,7 +438,38 @@ def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *
                 column=name, row=int(rows[i]), got=str(value),
                 fix="correct or empty that cell (empty cells are missing values; use a dot as "
                     "the decimal mark and no thousands separators).")
-        col = pd.Series(conv).to_numpy(dtype=float, na_value=np.nan)
+        out[:, j] = pd.Series(conv).to_numpy(dtype=float, na_value=np.nan)
+    check_finite(out, names, rows, path=path)
+    return out
+
+
+def check_finite(values: np.ndarray, names: Sequence[str], rows: np.ndarray, *,
+                 path: str | None) -> None:
+    """Refuse infinities and magnitudes above :data:`MAX_MAGNITUDE` (NaN is a missing cell).
+
+    Parameters
+    ----------
+    values : (m, n) float ndarray
+        One chunk, columns in the order of ``names``.
+    names : sequence of str
+        Column names (for messages).
+    rows : (m,) int array
+        1-based data row numbers.
+    path : str or None
+        The file (for messages).
+
+    Raises
+    ------
+    DataError
+        Naming the column, the first offending row and the value.
+    """
+    with np.errstate(invalid="ignore"):
+        ok = np.abs(values) <= MAX_MAGNITUDE  # False for inf, huge values and NaN
+    suspect = ~ok & ~np.isnan(values)
+    if not suspect.any():
+        return
+    for j, name in enumerate(names):
+        col = values[:, j]
         finite = np.isfinite(col)
         weird = ~finite & ~np.isnan(col)
         if weird.any():
@@ -416,8 +489,6 @@ def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *
                 path=path, column=name, row=int(rows[i]), got=repr(col[i]),
                 fix="rescale the column (e.g. to thousands or millions of its unit), or correct "
                     "the cell if it is a typing error.")
-        out[:, j] = col
-    return out
 
 
 class TableReader:
@@ -443,7 +514,10 @@ class TableReader:
     """
 
     def __init__(self, source: TableSource, columns: Sequence[str], *, time_column: str | None,
-                 chunk_rows: int = 16384, keys: Sequence[str] | None = None) -> None:
+                 chunk_rows: int = 16384, keys: Sequence[str] | None = None,
+                 engine: str = "pandas") -> None:
+        if engine not in ENGINES:
+            raise ValueError(f"engine must be one of {ENGINES}; got {engine!r}")
         if chunk_rows < 1:
             raise ValueError("chunk_rows must be at least 1")
         self.source = source
@@ -459,11 +533,15 @@ class TableReader:
         self._positions = _select(source, wanted, keys)
         self.sha256: str | None = None
         self.rows_read = 0
+        self.engine = engine if engine != "auto" else ("pyarrow" if arrow_available() else "pandas")
 
     def chunks(self) -> Iterator[RawChunk]:
         """Yield :class:`RawChunk` objects until the table is read."""
         if self.source.format == "parquet":
             yield from self._parquet_chunks()
+        else:
+        elif self.engine == "pyarrow":
+            yield from self._arrow_text_chunks()
         else:
             yield from self._text_chunks()
 
@@ -513,6 +591,76 @@ class TableReader:
             self.sha256 = stream.sha.hexdigest()
             self.rows_read = row0
 
+    # -- text, through pyarrow ---------------------------------------------------
+    def _arrow_text_chunks(self) -> Iterator[RawChunk]:
+        """pyarrow's streaming CSV reader: multi-threaded block parsing, same cells as pandas.
+
+        Only what both readers read identically is accepted: numeric columns
+        are parsed as float64 (pyarrow and pandas' C reader both round decimal
+        text correctly, so the doubles are equal), the missing-cell markers
+        are pandas' list, and the time column is text. Anything else pyarrow
+        refuses or might read differently (a row with the wrong number of
+        fields, text in a numeric column, NaN written out, a header line not
+        first, non-UTF-8 bytes anywhere) raises :class:`FastPathDeclined`
+        before a result exists, and the caller reads the file with pandas.
+        The SHA-256 and the UTF-8 check of the whole file (unselected columns
+        too) run in a thread beside the parser.
+        """
+        import pyarrow as pa  # noqa: PLC0415 (optional dependency)
+        import pyarrow.csv as pacsv  # noqa: PLC0415
+
+        src = self.source
+        nvar = len(self.columns)
+        names = [f"c{i}" for i in range(len(src.header))]  # positional: header names may repeat
+        take = [names[p] for p in self._positions]
+        types = {names[p]: pa.float64() for p in self._positions[:nvar]}
+        if self.time_column is not None:
+            types[take[-1]] = pa.string()
+        hasher = _Hasher(src)
+        hasher.start()
+        try:
+            try:
+                reader = pacsv.open_csv(
+                    src.resolved,
+                    read_options=pacsv.ReadOptions(column_names=names, skip_rows=1,
+                                                   block_size=ARROW_BLOCK_BYTES, use_threads=True),
+                    parse_options=pacsv.ParseOptions(delimiter=src.delimiter or ","),
+                    convert_options=pacsv.ConvertOptions(
+                        column_types=types, include_columns=take, null_values=_NA_VALUES,
+                        strings_can_be_null=True, quoted_strings_can_be_null=True,
+                        check_utf8=True))
+            except (pa.ArrowException, OSError, ValueError) as err:
+                raise FastPathDeclined(str(err)) from None
+            row0 = 0
+            while True:
+                try:
+                    batch = reader.read_next_batch()
+                except StopIteration:
+                    break
+                except (pa.ArrowException, OSError, ValueError) as err:
+                    raise FastPathDeclined(str(err)) from None
+                for a in range(0, batch.num_rows, self.chunk_rows):
+                    part = batch.slice(a, self.chunk_rows)
+                    m = part.num_rows
+                    values = np.empty((m, nvar))
+                    for j in range(nvar):
+                        col = part.column(j)
+                        values[:, j] = col.to_numpy(zero_copy_only=False)
+                        if col.null_count != int(np.isnan(values[:, j]).sum()):
+                            raise FastPathDeclined("a numeric cell reads as NaN")
+                    rows = np.arange(row0 + 1, row0 + m + 1, dtype=np.int64)
+                    row0 += m
+                    check_finite(values, self.columns, rows, path=src.path)
+                    times = None
+                    if self.time_column is not None:
+                        times = part.column(nvar).to_pandas()
+                    yield RawChunk(values, times, False, rows)
+            sha = hasher.result()
+        finally:
+            hasher.stop()
+        self.sha256 = sha
+        self.rows_read = row0
+
     # -- parquet ----------------------------------------------------------------
     def _parquet_chunks(self) -> Iterator[RawChunk]:
         src = self.source
@@ -554,6 +702,48 @@ class TableReader:
             yield RawChunk(values, times, typed, rows)
         self.sha256 = file_sha256(src.resolved)
         self.rows_read = row0
+
+
+class _Hasher(threading.Thread):
+    """SHA-256 and UTF-8 check of a whole file, in a thread beside the CSV parser.
+
+    ``hashlib`` and the file reads release the GIL on large buffers, so on a
+    machine with a spare core this costs little wall time.
+    """
+
+    def __init__(self, src: TableSource) -> None:
+        super().__init__(name="relspan-sha256", daemon=True)
+        self._src = src
+        self._halt = threading.Event()
+        self._sha: str | None = None
+        self._failed = False
+
+    def run(self) -> None:
+        try:
+            with open(self._src.resolved, "rb") as fh:
+                stream = _CheckedStream(fh, self._src.path)
+                while not self._halt.is_set():
+                    data = fh.read(1 << 22)
+                    if not data:
+                        stream._check(b"", True)
+                        break
+                    stream.sha.update(data)
+                    if not data.isascii():
+                        stream._check(data, False)
+                    else:
+                        stream._check(b"", False)
+                self._sha = stream.sha.hexdigest()
+        except Exception:  # noqa: BLE001 - reported as a declined fast path, pandas re-reads
+            self._failed = True
+
+    def result(self) -> str:
+        self.join()
+        if self._failed or self._sha is None:
+            raise FastPathDeclined("the file is not UTF-8 text or could not be hashed")
+        return self._sha
+
+    def stop(self) -> None:
+        self._halt.set()
 
 
 def _time_text(t: pd.Series) -> np.ndarray:

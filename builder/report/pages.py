@@ -28,7 +28,8 @@ from builder.site.markdown import escape_cell, escape_text
 
 __all__ = ["Publisher", "home_page", "dataset_page", "window_pages", "claims_page", "caution_page",
            "methods_page", "glossary_page", "reproduce_page", "downloads_page", "dataset_path",
-           "window_path", "fmt"]
+           "window_path", "fmt", "PlainSummary", "plain_summary", "why_assumptions_differ", "plain_cell",
+           "table_csv_bytes"]
 
 HOME = ("Home", "index.html")
 ORDER = ("elementary", "equal", "shaped", "bounded", "diagonal")

@@ -23,6 +23,7 @@ from __future__ import annotations
 import math
 import multiprocessing
 import os
+import signal
 import re
 from concurrent.futures import FIRST_COMPLETED, Executor, Future, ProcessPoolExecutor, wait
 from contextlib import contextmanager
@@ -98,7 +99,10 @@ class _ProcessPool(ProcessPoolExecutor):
     def __init__(self, workers: int) -> None:
         methods = multiprocessing.get_all_start_methods()
         method = "forkserver" if "forkserver" in methods else "spawn"
-        super().__init__(max_workers=workers, mp_context=multiprocessing.get_context(method))
+        # workers ignore Ctrl-C (a terminal sends it to the whole process group): the parent
+        # alone handles it and shuts the pool down, so no worker prints a traceback
+        super().__init__(max_workers=workers, mp_context=multiprocessing.get_context(method),
+                         initializer=signal.signal, initargs=(signal.SIGINT, signal.SIG_IGN))
         self.workers = workers
         self.start_method = method
 
