@@ -31,7 +31,7 @@ import numpy as np
 
 from builder.analysis.moments import Moments, moments_of
 
-__all__ = ["BlockTable", "BlockBuilder", "assemble"]
+__all__ = ["BlockTable", "BlockBuilder", "assemble", "assemble_stacked", "tree_levels"]
 
 #: runs at least this long are reduced with one BLAS product each; shorter
 #: runs are reduced together, vectorised
@@ -226,7 +226,8 @@ def _merge_arrays(ca, ma, cma, cb, mb, cmb):
     return tot, mean, cm
 
 
-def _levels(blocks: BlockTable) -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
+def tree_levels(blocks: BlockTable) -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
+    """The segment tree over the blocks, level by level (pairwise merges, no subtraction)."""
     c, m, cm = blocks.counts.astype(np.int64), blocks.means, blocks.comoments
     levels = [(c, m, cm)]
     while c.shape[0] > 1:
@@ -244,6 +245,18 @@ def _levels(blocks: BlockTable) -> list[tuple[np.ndarray, np.ndarray, np.ndarray
 
 def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
              relative: bool = False) -> list[Moments]:
+    """Moments of many windows, each the run of blocks ``lo[i] .. hi[i]-1``, as objects.
+
+    :func:`assemble_stacked` (the same numbers) returned as one
+    :class:`Moments` per window; see there for the parameters.
+    """
+    c, m, cm = assemble_stacked(blocks, lo, hi, relative=relative)
+    return [Moments(int(c[j]), m[j].copy(), cm[j].copy()) for j in range(c.shape[0])]
+
+
+def assemble_stacked(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
+                     relative: bool = False,
+                     levels: list | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Moments of many windows, each the run of blocks ``lo[i] .. hi[i]-1``.
 
     A segment tree over the blocks is built once (pairwise merges, level by
@@ -258,16 +271,26 @@ def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
         Half-open block ranges, ``0 <= lo < hi <= len(blocks)``.
     relative : bool
         Return means relative to ``blocks.origin`` (as merged) instead of absolute.
+    levels : list, optional
+        The tree from :func:`tree_levels` (built here when not given; pass it
+        to share one tree between several calls).
+
+    Returns
+    -------
+    counts (w,) int64, means (w, n), comoments (w, n, n)
+        Stacked: 8 (1 + n + n^2) bytes per window, no Python object per window.
     """
     lo = np.asarray(lo, dtype=np.int64)
     hi = np.asarray(hi, dtype=np.int64)
+    n = blocks.means.shape[1]
     if lo.size == 0:
-        return []
+        return np.zeros(0, np.int64), np.zeros((0, n)), np.zeros((0, n, n))
     if np.any(lo < 0) or np.any(hi > len(blocks)) or np.any(lo >= hi):
         raise IndexError("block ranges must satisfy 0 <= lo < hi <= number of blocks")
-    levels = _levels(blocks)
-    n = blocks.means.shape[1]
-    out: list[Moments] = []
+    levels = tree_levels(blocks) if levels is None else levels
+    out_c = np.empty(lo.size, np.int64)
+    out_m = np.empty((lo.size, n))
+    out_cm = np.empty((lo.size, n, n))
     for b0 in range(0, lo.size, _WINDOW_BATCH):
         L = lo[b0:b0 + _WINDOW_BATCH].copy()
         H = hi[b0:b0 + _WINDOW_BATCH].copy()
@@ -294,5 +317,5 @@ def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
         tc, tm, tcm = _merge_arrays(lc, lm, lcm, rc, rm, rcm)
         if not relative:
             tm = tm + blocks.origin
-        out.extend(Moments(int(tc[j]), tm[j].copy(), tcm[j].copy()) for j in range(w))
-    return out
+        out_c[b0:b0 + w], out_m[b0:b0 + w], out_cm[b0:b0 + w] = tc, tm, tcm
+    return out_c, out_m, out_cm

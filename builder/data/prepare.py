@@ -28,12 +28,14 @@ import numpy as np
 import pandas as pd
 
 from builder.analysis.moments import Moments
-from builder.data.blocks import BlockBuilder, BlockTable, assemble
-from builder.data.sources import RawChunk, TableReader, _time_text, numeric_block, open_source
+from builder.data.blocks import BlockBuilder, BlockTable, assemble_stacked, tree_levels
+from builder.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, _time_text,
+                                  arrow_available, numeric_block, open_source)
 from builder.data.timeindex import (OrderCheck, TimeFormat, format_times, parse_bound,
                                     parse_times, resolve_format)
 from builder.data.transforms import (MISSING_POLICIES, ROW_TRANSFORMS, SAMPLE_TRANSFORMS, Drop,
-                                     StreamTransform, affine_for, affine_moments, check_variation)
+                                     StreamTransform, affine_for, affine_moments, affine_stacked, check_variation,
+                                     check_window_variation)
 from builder.data.windows import Grid, Window, plan_grid, plan_windows
 from builder.errors import DataError, OptionsError
 from builder.spec.model import DatasetSpec, TimeSpec, WindowPlanSpec
@@ -45,6 +47,7 @@ __all__ = [
     "Overview",
     "PlanWindows",
     "PreparedDataset",
+    "StackedMoments",
     "prepare_dataset",
     "prepare_frame",
     "window_moments",
@@ -86,14 +89,65 @@ class Overview:
     high: pd.DataFrame | None
 
 
+class StackedMoments(Sequence):
+    """Window moments held as three stacked arrays, read as a sequence of :class:`Moments`.
+
+    ``counts (w,)``, ``means (w, n)`` and ``comoments (w, n, n)`` cost
+    ``8 (1 + n + n^2)`` bytes per window; a :class:`Moments` (views into the
+    arrays, which are read-only) is built only when an item is asked for.
+    """
+
+    __slots__ = ("counts", "means", "comoments")
+
+    def __init__(self, counts: np.ndarray, means: np.ndarray, comoments: np.ndarray) -> None:
+        counts, means, comoments = (np.asarray(a) for a in (counts, means, comoments))
+        for a in (counts, means, comoments):
+            a.setflags(write=False)
+        self.counts, self.means, self.comoments = counts, means, comoments
+
+    def __len__(self) -> int:
+        return int(self.counts.shape[0])
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return StackedMoments(self.counts[i], self.means[i], self.comoments[i])
+        return Moments(int(self.counts[i]), self.means[i], self.comoments[i])
+
+    def __iter__(self):
+        for i in range(len(self)):
+            yield Moments(int(self.counts[i]), self.means[i], self.comoments[i])
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, StackedMoments):
+            return NotImplemented
+        return (np.array_equal(self.counts, other.counts) and np.array_equal(self.means, other.means)
+                and np.array_equal(self.comoments, other.comoments))
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def __reduce__(self):
+        return (StackedMoments, (np.array(self.counts), np.array(self.means),
+                                 np.array(self.comoments)))
+
+
 @dataclass(frozen=True, slots=True, eq=False)
 class PlanWindows:
-    """The windows of one plan and their moments (same order)."""
+    """The windows of one plan and their moments (same order).
+
+    Attributes
+    ----------
+    plan_id, kind : str
+    windows : tuple of Window
+    moments : StackedMoments
+        Counts ``(w,)``, means ``(w, n)`` and co-moments ``(w, n, n)`` of the
+        windows (after all transforms), read as a sequence of :class:`Moments`
+        built on access.
+    """
 
     plan_id: str
     kind: str
     windows: tuple[Window, ...]
-    moments: tuple[Moments, ...]
+    moments: StackedMoments
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -405,7 +459,10 @@ class _Pass:
                             f"{n} variables need at least {n + 2}.", path=path,
                             fix="use more data, or analyse fewer variables.")
         blocks = self.blocks.finish(self.origin)
-        rel_full = assemble(blocks, np.array([0]), np.array([len(blocks)]), relative=True)[0]
+        levels = tree_levels(blocks)
+        fc, fm, fcm = assemble_stacked(blocks, np.array([0]), np.array([len(blocks)]),
+                                       relative=True, levels=levels)
+        rel_full = Moments(int(fc[0]), fm[0], fcm[0])
         check_variation(Moments(rel_full.count, rel_full.mean + self.origin, rel_full.comoment),
                         self.names, self.transforms, path=path)
         # whole-sample transforms in coordinates relative to the origin:
@@ -419,10 +476,15 @@ class _Pass:
         for plan in plans:
             wins = plan_windows(plan, blocks, n_variables=n, time_format=self.fmt,
                                 dataset_id=self.dataset_id, path=path)
-            mom = assemble(blocks, np.array([w.block_start for w in wins]),
-                           np.array([w.block_stop for w in wins]), relative=True)
-            mom = [affine_moments(m, shift_rel, scale, offset) for m in mom]
-            prepared_plans.append(PlanWindows(plan.id, plan.kind, tuple(wins), tuple(mom)))
+            stack = assemble_stacked(blocks, np.array([w.block_start for w in wins], np.int64),
+                                     np.array([w.block_stop for w in wins], np.int64),
+                                     relative=True, levels=levels)
+            mom = StackedMoments(*affine_stacked(*stack, shift_rel, scale, offset))
+            del stack
+            check_window_variation(wins, mom, self.names, plan_id=plan.id,
+                                   dataset_id=self.dataset_id, path=path)
+            prepared_plans.append(PlanWindows(plan.id, plan.kind, tuple(wins), mom))
+        del levels
         period = None
         if blocks.first_time is not None:
             a, b = format_times(np.array([blocks.first_time[0], blocks.last_time[-1]]), self.fmt)
@@ -470,7 +532,7 @@ def _check_setup(dataset_id: str, names: Sequence[str], transforms: Sequence[str
 
 
 def prepare_dataset(ds: DatasetSpec, plans: Sequence[WindowPlanSpec], *,
-                    chunk_rows: int = DEFAULT_CHUNK_ROWS) -> PreparedDataset:
+                    chunk_rows: int = DEFAULT_CHUNK_ROWS, engine: str = "auto") -> PreparedDataset:
     """Read a dataset once and reduce it to window statistics.
 
     Parameters
@@ -481,6 +543,13 @@ def prepare_dataset(ds: DatasetSpec, plans: Sequence[WindowPlanSpec], *,
         The plans that apply to it (e.g. ``spec.plans_for(ds)``).
     chunk_rows : int
         Rows read at a time; results do not depend on it.
+    engine : {"auto", "pyarrow", "pandas"}
+        CSV/TSV reader. ``auto`` uses pyarrow's multi-threaded streaming
+        reader when pyarrow is installed and falls back to pandas for any file
+        pyarrow cannot read exactly as pandas does (so results, and every
+        error message, are those of the pandas reader, bit for bit);
+        ``pandas`` always uses pandas; ``pyarrow`` never falls back (raises
+        :class:`builder.data.sources.FastPathDeclined`; for tests).
 
     Returns
     -------
@@ -498,8 +567,22 @@ def prepare_dataset(ds: DatasetSpec, plans: Sequence[WindowPlanSpec], *,
     _check_setup(ds.id, names, transforms, ds.missing, ds.time, plans, ds.source)
     grid = plan_grid(plans, has_time=ds.time is not None, dataset_id=ds.id, path=ds.source)
     src = open_source(ds.source, ds.source_path, ds.format)
+    if engine not in ENGINES:
+        raise OptionsError(f"engine {engine!r} is not one of {', '.join(ENGINES)}.", key="engine",
+                           fix="use auto, pyarrow or pandas.")
+    use = engine if engine != "auto" else ("pyarrow" if arrow_available() else "pandas")
+    if use == "pyarrow" and src.format != "parquet":
+        try:
+            return _one_pass(ds, src, names, transforms, grid, plans, chunk_rows, "pyarrow")
+        except FastPathDeclined:
+            if engine == "pyarrow":
+                raise
+    return _one_pass(ds, src, names, transforms, grid, plans, chunk_rows, "pandas")
+
+
+def _one_pass(ds, src, names, transforms, grid, plans, chunk_rows, engine) -> PreparedDataset:
     reader = TableReader(src, names, time_column=None if ds.time is None else ds.time.column,
-                         chunk_rows=chunk_rows)
+                         chunk_rows=chunk_rows, engine=engine)
     run = _Pass(dataset_id=ds.id, names=names, transforms=transforms, missing=ds.missing,
                 path=ds.source, time=ds.time, grid=grid)
     for chunk in reader.chunks():

@@ -539,7 +539,6 @@ class TableReader:
         """Yield :class:`RawChunk` objects until the table is read."""
         if self.source.format == "parquet":
             yield from self._parquet_chunks()
-        else:
         elif self.engine == "pyarrow":
             yield from self._arrow_text_chunks()
         else:
@@ -728,10 +727,8 @@ class _Hasher(threading.Thread):
                         stream._check(b"", True)
                         break
                     stream.sha.update(data)
-                    if not data.isascii():
-                        stream._check(data, False)
-                    else:
-                        stream._check(b"", False)
+                    if not data.isascii() or stream._dec.getstate()[0]:
+                        stream._check(data, False)  # ASCII is UTF-8: only other bytes are decoded
                 self._sha = stream.sha.hexdigest()
         except Exception:  # noqa: BLE001 - reported as a declined fast path, pandas re-reads
             self._failed = True

@@ -42,6 +42,7 @@ __all__ = [
     "affine_for",
     "affine_moments",
     "check_variation",
+    "check_window_variation",
 ]
 
 #: transforms applied row by row during the pass
@@ -241,6 +242,22 @@ def affine_moments(m: Moments, shift: np.ndarray, scale: np.ndarray,
     return Moments(m.count, mean, 0.5 * (c + c.T))
 
 
+def affine_stacked(counts: np.ndarray, means: np.ndarray, comoments: np.ndarray,
+                   shift: np.ndarray, scale: np.ndarray, offset: np.ndarray | None = None):
+    """:func:`affine_moments` for stacked moments (``(w,)``, ``(w, n)``, ``(w, n, n)``).
+
+    The same operations elementwise, so each window's result equals
+    ``affine_moments`` of that window bit for bit.
+    """
+    mean = (means - shift) / scale
+    if offset is not None:
+        mean = mean + offset
+    if np.all(scale == 1.0):
+        return counts, mean, comoments
+    c = comoments / np.outer(scale, scale)
+    return counts, mean, 0.5 * (c + c.transpose(0, 2, 1))
+
+
 def check_variation(full: Moments, names: Sequence[str], transforms: Sequence[str], *,
                     path: str | None) -> None:
     """A variable that does not vary over the analysed rows cannot be analysed.
@@ -258,3 +275,36 @@ def check_variation(full: Moments, names: Sequence[str], transforms: Sequence[st
             f"(value {full.mean[j]:.6g}): no variation, cannot be analysed.", path=path,
             column=names[j], fix="drop the variable from the dataset (or choose another "
                                  "transform if differencing made it constant).")
+
+
+def check_window_variation(windows: Sequence, moments: Sequence[Moments], names: Sequence[str], *,
+                           plan_id: str, dataset_id: str, path: str | None) -> None:
+    """Every variable must vary within every window (same relative test as :func:`check_variation`).
+
+    A variable that is flat in one window only (a price fixed for a decade, a sensor
+    stuck for a season) makes that window's covariance singular for a reason that is
+    no relation among the variables; say which window and which column.
+    """
+    counts = getattr(moments, "counts", None)
+    if counts is not None:  # stacked moments: one vectorised test, then the first flat window
+        var = np.diagonal(moments.comoments, axis1=1, axis2=2) / np.maximum(counts - 1, 1)[:, None]
+        scale = np.maximum(np.abs(moments.means), np.finfo(float).tiny)
+        hit = np.flatnonzero((var <= (CONSTANT_RTOL * scale) ** 2).any(axis=1))
+        if not hit.size:
+            return
+        pairs = [(windows[int(hit[0])], moments[int(hit[0])])]
+    else:
+        pairs = zip(windows, moments)
+    for w, m in pairs:
+        var = np.diag(m.comoment) / max(m.count - 1, 1)
+        scale = np.maximum(np.abs(m.mean), np.finfo(float).tiny)
+        flat = np.flatnonzero(var <= (CONSTANT_RTOL * scale) ** 2)
+        if flat.size:
+            j = int(flat[0])
+            raise DataError(
+                f"dataset {dataset_id!r}, window plan {plan_id!r}: column {names[j]!r} is "
+                f"constant in window {w.index + 1} ({w.label}, {m.count} rows, value "
+                f"{m.mean[j]:.6g}): no variation there, so that window cannot be analysed.",
+                path=path, column=names[j],
+                fix="use wider windows (or a later time.from) so that every window sees the "
+                    "variable move, or drop the variable from the dataset.")

@@ -63,7 +63,7 @@ def map_data(result, analysis, q: int):
     """ElementaryMapData of one window for corank q (None when the map cannot be drawn)."""
     from builder.analysis.flat import elementary_flat
 
-    if analysis.elementary.singular or q < 1:
+    if analysis.elementary.singular or q < 1 or len(result.names) < 3:  # a map needs 3 variables
         return None
     flat = elementary_flat(analysis.elementary, q=q, ref=analysis.ref)
     if flat.form != "affine" or flat.center is None or not np.all(np.isfinite(flat.points)):

@@ -70,6 +70,12 @@ class FigureJob:
     dataset_key: str
 
 
+#: said where a map of the elementary regressions would be, for a dataset of two variables
+_NO_MAP = ("No map of the elementary regressions is shown: a map needs at least three variables. With "
+           "two, the two elementary regressions are just two slopes (each variable regressed on the "
+           "other), given with the results under the one-variable-noisy assumption.\n")
+
+
 def render_job(item: tuple) -> tuple | None:
     """Draw and render one figure job; top-level so process pools and Dask can run it.
 
@@ -124,8 +130,8 @@ class Publisher:
         """Draw every registered figure and return ``pages`` with their tokens replaced."""
         import dataclasses
 
-        from builder import __version__
         from builder.run.executors import SerialExecutor, map_in_chunks
+        from builder.run.pipeline import code_version
 
         keys = []
         for job in self.jobs:
@@ -133,7 +139,7 @@ class Publisher:
                 from builder.run.cache import task_key
 
                 keys.append(task_key(task="figure", dataset=job.dataset_key, ident=job.ident,
-                                     fmt=self.fmt, version=__version__))
+                                     fmt=self.fmt, version=code_version()))
             else:
                 keys.append(None)
         missing = object()
@@ -926,10 +932,13 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     q = result.examined[0] if result.examined else None
     if q is not None:
         body.append("## The elementary regressions {#map}\n")
-        body.append(pub.figure(ff.map_figure, (result, full, q, f"{ds.id}-map"), folder,
-                               "Each point is the least-squares relation that treats one variable as the "
-                               "only noisy one. Their spread shows how much the answer depends on that "
-                               f"choice. {CAUTION_LINK}.", ident=f"map/{q}", dataset_key=key))
+        if len(result.names) < 3:
+            body.append(_NO_MAP)
+        else:
+            body.append(pub.figure(ff.map_figure, (result, full, q, f"{ds.id}-map"), folder,
+                                   "Each point is the least-squares relation that treats one variable as "
+                                   "the only noisy one. Their spread shows how much the answer depends on "
+                                   f"that choice. {CAUTION_LINK}.", ident=f"map/{q}", dataset_key=key))
     body.append("## Across windows {#stability}\n")
     body.append("Each plan cuts the data into windows of time and repeats the analysis in each, to see "
                 "whether the answer holds over time.\n")
@@ -1018,7 +1027,9 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
                         f"({CAUTION_LINK}):\n")
             body.append(_table(("Noise assumption", "Relations", "Coefficients"), rows,
                                csv=(pub, base + "-assumptions.csv")))
-            if q is not None:
+            if q is not None and len(result.names) < 3:
+                body.append(_NO_MAP)
+            elif q is not None:
                 body.append(pub.figure(ff.map_figure, (result, a, q, f"{ds.id}-{plan.plan.id}-w{i + 1:02d}-map"),
                                        f"figures/{ds.id}/{plan.plan.id}",
                                        f"The elementary regressions of this window. {CAUTION_LINK}.",

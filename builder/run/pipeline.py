@@ -187,6 +187,30 @@ class LazyExecutor:
         self.close()
 
 
+_CODE_VERSION: str | None = None
+
+
+def code_version() -> str:
+    """relspan's version plus a SHA-256 of its own source files.
+
+    Part of every cache key, so results computed by other code (an edited
+    checkout, another release) are never reused. Computed once per process;
+    it depends only on the installed files, so it is the same in every worker.
+    """
+    global _CODE_VERSION
+    if _CODE_VERSION is None:
+        import hashlib
+
+        root = Path(__file__).resolve().parents[1]
+        h = hashlib.sha256()
+        for path in sorted(root.rglob("*")):
+            if path.suffix in (".py", ".html", ".css", ".json") and "__pycache__" not in path.parts:
+                h.update(path.relative_to(root).as_posix().encode())
+                h.update(path.read_bytes())
+        _CODE_VERSION = f"{__version__}+{h.hexdigest()[:16]}"
+    return _CODE_VERSION
+
+
 def environment() -> dict:
     """Versions that a reader needs to rebuild the same bytes."""
     import jinja2
@@ -297,8 +321,10 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     executor = executor or SerialExecutor()
     results = map_in_chunks(executor, _analyse_task, items, progress=progress)
     sink = warn_sink if warn_sink is not None else []
-    for _, messages in results:
-        sink.extend(messages)
+    for i, (_, messages) in enumerate(results):  # say which dataset and plan a window belongs to
+        plan_id = next((p.id for p, _, a, b in spans if a <= i < b), None)
+        where = f"dataset {ds.id!r}" + (f", plan {plan_id!r}" if plan_id else "")
+        sink.extend(f"{where}: {m}" for m in messages)
     analyses = [r for r, _ in results]
     full = analyses[0]
     examined, examined_from = _choose_examined(ds, full)
@@ -335,7 +361,7 @@ def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], s
         return obj
 
     return task_key(task="dataset", dataset=plain(ds), plans=plain(list(plans)), source_sha256=sha,
-                    version=__version__)
+                    version=code_version())
 
 
 def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None = None,
