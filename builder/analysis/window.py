@@ -155,14 +155,17 @@ class WindowAnalysis:
         """Coefficient of ``variable`` in the one-relation equation for ``normalise_on``.
 
         ``elementary`` reads the least-squares regression of ``normalise_on``
-        on the others (that variable alone noisy); ``equal``/``shaped``/
-        ``bounded``/``diagonal`` read their corank-1 relation basis. None when
-        the assumption was not computed or gives no single relation.
+        on the others (that variable alone noisy); ``equal``/``shaped`` read
+        their corank-1 relation. None when the assumption was not computed or
+        gives a set rather than a point (``bounded``, ``diagonal``: see
+        :meth:`frisch_interval`).
         """
         if assumption == "elementary":
             if self.elementary.singular:
                 return None
             return float(self.elementary.coefficients[normalise_on, variable])
+        if assumption not in ("equal", "shaped"):
+            return None  # bounded and diagonal noise give a set of relations, not one point
         basis = self.bases.get(assumption, {}).get(1)
         if basis is None:
             return None

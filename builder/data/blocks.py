@@ -187,20 +187,13 @@ class BlockBuilder:
             means[i] = mo.mean
             comoments[i] = mo.comoment
         short = np.flatnonzero(~long)
-        if short.size:
-            idx = np.flatnonzero(np.repeat(~long, counts))
-            sc = counts[short]
-            seg = np.concatenate([[0], np.cumsum(sc)[:-1]])
-            ys = y[idx]
-            shift = np.repeat(ys[seg], sc, axis=0)
-            z = ys - shift
-            mz = np.add.reduceat(z, seg, axis=0) / sc[:, None]
-            d = z - np.repeat(mz, sc, axis=0)
-            sd = np.add.reduceat(d, seg, axis=0)
-            outer = np.add.reduceat(d[:, :, None] * d[:, None, :], seg, axis=0)
-            c = outer - sd[:, :, None] * sd[:, None, :] / sc[:, None, None]
-            means[short] = mz + sd / sc[:, None] + ys[seg]
-            comoments[short] = 0.5 * (c + np.swapaxes(c, 1, 2))
+        # short runs of one length at a time, as a (k, L, n) stack: each block's numbers
+        # depend on its own rows and length only, never on the chunk it arrived in
+        for length in np.unique(counts[short]):
+            sel = short[counts[short] == length]
+            for p0 in range(0, sel.size, _STACK_BLOCKS):
+                part = sel[p0:p0 + _STACK_BLOCKS]
+                means[part], comoments[part] = _short_moments(y, starts[part], int(length))
         self._counts.extend(counts.astype(np.int64))
         self._means.extend(means)
         self._comoments.extend(comoments)
@@ -208,6 +201,28 @@ class BlockBuilder:
         if self._timed and times is not None:
             ti = times.astype("datetime64[s]").astype(np.int64)
             self._times.extend(np.stack([ti[starts], ti[ends - 1]], axis=1))
+
+
+def _short_moments(y: np.ndarray, starts: np.ndarray, length: int):
+    """Means and co-moments of blocks of ``length`` rows starting at ``starts``.
+
+    Per block: shift by its first row, mean, deviations, corrected two-pass
+    co-moment ``d^T d - (sum d)(sum d)^T / L`` (Bjorck 1996), with the
+    products for all blocks in one batched matrix multiplication.
+    """
+    rows = y[starts[:, None] + np.arange(length)]       # (k, L, n), a copy
+    shift = rows[:, :1, :].copy()
+    rows -= shift
+    mz = rows.sum(axis=1) / length
+    rows -= mz[:, None, :]
+    sd = rows.sum(axis=1)
+    c = np.matmul(rows.transpose(0, 2, 1), rows)
+    c -= sd[:, :, None] * sd[:, None, :] / length
+    return mz + sd / length + shift[:, 0, :], 0.5 * (c + c.transpose(0, 2, 1))
+
+
+#: short blocks reduced together in one stack (bounds the temporary copy of their rows)
+_STACK_BLOCKS = 2048
 
 
 def _merge_arrays(ca, ma, cma, cb, mb, cmb):

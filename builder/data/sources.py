@@ -21,6 +21,7 @@ import csv
 import difflib
 import hashlib
 import io
+import queue
 import threading
 from dataclasses import dataclass
 from pathlib import Path
@@ -631,13 +632,9 @@ class TableReader:
             except (pa.ArrowException, OSError, ValueError) as err:
                 raise FastPathDeclined(str(err)) from None
             row0 = 0
-            while True:
-                try:
-                    batch = reader.read_next_batch()
-                except StopIteration:
-                    break
-                except (pa.ArrowException, OSError, ValueError) as err:
-                    raise FastPathDeclined(str(err)) from None
+            batches = _Prefetch(reader, (pa.ArrowException, OSError, ValueError))
+            batches.start()
+            for batch in batches:
                 for a in range(0, batch.num_rows, self.chunk_rows):
                     part = batch.slice(a, self.chunk_rows)
                     m = part.num_rows
@@ -657,6 +654,8 @@ class TableReader:
             sha = hasher.result()
         finally:
             hasher.stop()
+            if "batches" in locals():
+                batches.stop()
         self.sha256 = sha
         self.rows_read = row0
 
@@ -701,6 +700,64 @@ class TableReader:
             yield RawChunk(values, times, typed, rows)
         self.sha256 = file_sha256(src.resolved)
         self.rows_read = row0
+
+
+class _Prefetch(threading.Thread):
+    """Read the next record batches in a thread while the caller works on the last one.
+
+    pyarrow parses with the GIL released, so the parsing of block ``k + 1``
+    overlaps the block statistics of block ``k``. At most :data:`_AHEAD`
+    batches wait in the queue (memory stays bounded). A reader error is
+    raised in the caller as :class:`FastPathDeclined`.
+    """
+
+    def __init__(self, reader, errors: tuple) -> None:
+        super().__init__(name="relspan-csv-reader", daemon=True)
+        self._reader = reader
+        self._errors = errors
+        self._queue: queue.Queue = queue.Queue(maxsize=_AHEAD)
+        self._halt = threading.Event()
+
+    def _put(self, item) -> bool:
+        while not self._halt.is_set():
+            try:
+                self._queue.put(item, timeout=0.1)
+                return True
+            except queue.Full:
+                continue
+        return False
+
+    def run(self) -> None:
+        while not self._halt.is_set():
+            try:
+                batch = self._reader.read_next_batch()
+            except StopIteration:
+                self._put(("end", None))
+                return
+            except self._errors as err:
+                self._put(("error", str(err)))
+                return
+            except BaseException as err:  # noqa: BLE001 - handed to the caller
+                self._put(("error", f"{type(err).__name__}: {err}"))
+                return
+            if not self._put(("batch", batch)):
+                return
+
+    def __iter__(self):
+        while True:
+            kind, item = self._queue.get()
+            if kind == "end":
+                return
+            if kind == "error":
+                raise FastPathDeclined(item)
+            yield item
+
+    def stop(self) -> None:
+        self._halt.set()
+
+
+#: record batches parsed ahead of the one being reduced
+_AHEAD = 3
 
 
 class _Hasher(threading.Thread):

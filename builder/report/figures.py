@@ -153,7 +153,7 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
     # ---- figure
     lane_of = [_lanes(list(zip(st, en))) for _, st, en, _ in plans]
     n_lanes = [max(l) + 1 for l in lane_of]
-    strip_units = sum(n_lanes) + 0.6 * len(plans)
+    strip_units = sum(n_lanes) + 1.4 * len(plans)
     strip_h = 0.0 if not plans else min(0.35 + 0.16 * strip_units, 3.2)
     with style_context():
         fig = new_figure(3.4 + strip_h + (0.3 if title else 0.0))
@@ -271,8 +271,16 @@ def _draw_window_strip(fig, axw, plans, lane_of, n_lanes) -> None:
     y_top = 0.0
     centres, names = [], []
     bars = []
+    from matplotlib.transforms import blended_transform_factory
+
+    label_at = blended_transform_factory(axw.transAxes, axw.transData)
     for (plan, st, en, wl), lanes, nl in zip(plans, lane_of, n_lanes):
         top = y_top
+        # the plan's name on a line of its own above its bars, so long names never narrow the axes
+        name_txt = axw.text(0.0, top - 0.45, plan, transform=label_at, va="center", ha="left",
+                            fontsize=8.5, color=MUTED)
+        name_txt.set_in_layout(False)
+        top -= 0.8
         for i in range(len(wl)):
             y = top - 0.3 - lanes[i]
             width = max(en[i] - st[i], 0.0)
@@ -286,7 +294,7 @@ def _draw_window_strip(fig, axw, plans, lane_of, n_lanes) -> None:
         axw.axhline(bottom, color="#c8c8c8", linewidth=0.6)
         y_top = bottom
     axw.set_ylim(y_top, 0.05)
-    axw.set_yticks(centres, names)
+    axw.set_yticks([])
     axw.tick_params(axis="y", length=0)
     axw.grid(axis="y", visible=False)
     axw.spines["left"].set_visible(False)

@@ -128,7 +128,7 @@ def swing_figure(result, plan, q: int):
     ref = result.full.ref
     k = swing_variable(result)
     coefs = {}
-    for a in ("elementary", "equal", "shaped", "bounded", "diagonal"):
+    for a in ("elementary", "equal", "shaped"):  # the assumptions that give a point
         vals = [w.coefficient(a, ref, k) for w in plan.analyses]
         if all(v is None for v in vals):
             continue
