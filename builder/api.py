@@ -62,6 +62,16 @@ def _load(spec_path) -> object:
     return load_spec(spec_path)
 
 
+def where_tasks_run(spec, jobs: int | None, scheduler: str | None) -> tuple[int | None, str | None]:
+    """``(jobs, scheduler)`` to use: the caller's (command line) if it gave either, else the spec's ``run:``."""
+    if jobs is not None or scheduler is not None:
+        return jobs, scheduler
+    run = getattr(spec, "run", None)
+    if run is None:
+        return None, None
+    return run.jobs, run.scheduler
+
+
 def check(spec_path, *, jobs: int | None = None, scheduler: str | None = None, use_cache: bool = True,
           cache_dir: Path | None = None, progress: bool = False) -> Outcome:
     """Validate a spec and its data, analyse, and evaluate the claims; write no site.
@@ -78,6 +88,7 @@ def check(spec_path, *, jobs: int | None = None, scheduler: str | None = None, u
     if use_cache and not folder.is_dir():
         # nothing to read; opening the cache would create its folder, and check writes nothing
         use_cache = False
+    jobs, scheduler = where_tasks_run(spec, jobs, scheduler)
     run = run_analysis(spec, jobs=jobs, scheduler=scheduler, use_cache=use_cache, cache_dir=cache_dir,
                        progress=progress, write_cache=False)
     return Outcome(run, None, time.perf_counter() - t0)
@@ -102,6 +113,7 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
     from builder.run.pipeline import LazyExecutor, open_cache
 
     cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
+    jobs, scheduler = where_tasks_run(spec, jobs, scheduler)
     with LazyExecutor(jobs, scheduler) as executor:
         run = run_analysis(spec, progress=progress, executor=executor, cache=cache)
         content = _content_with_figures(run, executor, cache, progress)

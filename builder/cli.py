@@ -40,9 +40,11 @@ class _Parser(argparse.ArgumentParser):
 
 def _add_run_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
-                   help="worker processes for window tasks (default: the cores available; 1 = serial)")
+                   help="worker processes for window tasks (default: the spec's run.jobs, else the cores "
+                        "available; 1 = serial); overrides the spec's run: section")
     p.add_argument("--scheduler", default=None, metavar="ADDRESS",
                    help="run window tasks on an existing Dask cluster, e.g. tcp://10.0.0.5:8786 "
+                        "(overrides the spec's run: section) "
                         "(needs `pip install 'relspan[cluster]'`)")
     p.add_argument("--no-cache", action="store_true",
                    help="recompute everything; do not read or write the result cache")

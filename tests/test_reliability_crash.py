@@ -12,6 +12,8 @@ and one line on stderr.
 from __future__ import annotations
 
 import os
+import pty
+import select
 import shutil
 import signal
 import subprocess
@@ -144,20 +146,56 @@ def test_ctrl_c_while_writing_exits_130_with_one_line_and_keeps_site(built, proj
     assert _visible(project) == ["_site", "data", "spec.yaml"]
 
 
-@pytest.mark.parametrize("jobs, delay", [("1", 1.5), ("1", 3.0), ("2", 2.0)])
-def test_ctrl_c_during_analysis_and_figures_exits_130_and_keeps_site(built, project, jobs, delay):
+@pytest.mark.parametrize("jobs, stage", [("1", "analysis of"), ("1", "figures: 1/"), ("2", "figures: 1/")])
+def test_ctrl_c_during_analysis_and_figures_exits_130_and_keeps_site(built, project, jobs, stage):
     _, good = built
-    proc = subprocess.Popen(cli_command("build", "spec.yaml", "--jobs", jobs, "--no-cache", "--quiet"),
-                            cwd=project, env=cli_env(), stdout=subprocess.PIPE, stderr=subprocess.PIPE,
-                            text=True, start_new_session=True)
-    time.sleep(delay)  # during imports, the analysis or the figures: the build takes several s
-    if proc.poll() is not None:
-        pytest.skip("the build finished before the signal; nothing to interrupt")
+    # stderr on a pseudo-terminal, as at a shell: the progress line says which stage is running
+    master, slave = pty.openpty()
+    proc = subprocess.Popen(cli_command("build", "spec.yaml", "--jobs", jobs, "--no-cache"),
+                            cwd=project, env={**cli_env(), "TERM": "xterm"}, stdout=subprocess.PIPE,
+                            stderr=slave, text=True, start_new_session=True)
+    os.close(slave)
+    seen = _read_until(master, f"{stage}", proc)
     os.killpg(proc.pid, signal.SIGINT)
-    out, err = proc.communicate(timeout=60)
+    out, _ = proc.communicate(timeout=60)
+    err = seen + _drain(master)
+    os.close(master)
     assert proc.returncode == 130, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
+    lines = [ln for ln in err.replace("\r", "\n").splitlines() if ln.strip() and stage not in ln
+             and not ln.strip().startswith(("analysis", "figures"))]
     assert len(lines) == 1 and "interrupted" in lines[0] and "Traceback" not in err, err
     assert snapshot(project / "_site") == good
     assert _leftovers(project) == []
     assert _visible(project) == ["_site", "data", "spec.yaml"]
+
+
+def _read_until(fd: int, word: str, proc: subprocess.Popen) -> str:
+    """Read the terminal until ``word`` appears (the stage has started)."""
+    seen = ""
+    deadline = time.monotonic() + _WAIT_S
+    while word not in seen:
+        if time.monotonic() > deadline:
+            proc.kill()
+            pytest.fail(f"never saw {word!r} on the terminal: {seen!r}")
+        ready, _, _ = select.select([fd], [], [], 0.1)
+        if ready:
+            try:
+                seen += os.read(fd, 4096).decode("utf-8", "replace")
+            except OSError:  # the build closed the terminal: it ended
+                break
+        elif proc.poll() is not None:
+            pytest.fail(f"the build ended (exit {proc.returncode}) before {word!r}: {seen!r}")
+    return seen
+
+
+def _drain(fd: int) -> str:
+    out = ""
+    while select.select([fd], [], [], 0.2)[0]:
+        try:
+            chunk = os.read(fd, 4096)
+        except OSError:
+            break
+        if not chunk:
+            break
+        out += chunk.decode("utf-8", "replace")
+    return out

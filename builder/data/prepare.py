@@ -36,7 +36,7 @@ from builder.data.timeindex import (OrderCheck, TimeFormat, format_times, parse_
 from builder.data.transforms import (MISSING_POLICIES, ROW_TRANSFORMS, SAMPLE_TRANSFORMS, Drop,
                                      StreamTransform, affine_for, affine_moments, affine_stacked, check_variation,
                                      check_window_variation)
-from builder.data.windows import Grid, Window, plan_grid, plan_windows
+from builder.data.windows import Grid, Window, WindowTable, plan_grid, plan_windows
 from builder.errors import DataError, OptionsError
 from builder.spec.model import DatasetSpec, TimeSpec, WindowPlanSpec
 
@@ -53,7 +53,7 @@ __all__ = [
     "window_moments",
 ]
 
-DEFAULT_CHUNK_ROWS = 16384
+DEFAULT_CHUNK_ROWS = 1 << 16
 #: up to this many analysed rows the overview keeps every row
 OVERVIEW_ROWS = 20000
 #: above it, the overview keeps at most this many equal-size bins (means, minima, maxima)
@@ -137,7 +137,8 @@ class PlanWindows:
     Attributes
     ----------
     plan_id, kind : str
-    windows : tuple of Window
+    windows : tuple of Window, or WindowTable
+        A sequence of :class:`Window` (row plans: a :class:`WindowTable`).
     moments : StackedMoments
         Counts ``(w,)``, means ``(w, n)`` and co-moments ``(w, n, n)`` of the
         windows (after all transforms), read as a sequence of :class:`Moments`
@@ -146,7 +147,7 @@ class PlanWindows:
 
     plan_id: str
     kind: str
-    windows: tuple[Window, ...]
+    windows: Sequence[Window]
     moments: StackedMoments
 
 
@@ -476,14 +477,18 @@ class _Pass:
         for plan in plans:
             wins = plan_windows(plan, blocks, n_variables=n, time_format=self.fmt,
                                 dataset_id=self.dataset_id, path=path)
-            stack = assemble_stacked(blocks, np.array([w.block_start for w in wins], np.int64),
-                                     np.array([w.block_stop for w in wins], np.int64),
-                                     relative=True, levels=levels)
+            if isinstance(wins, WindowTable):
+                lo, hi = wins.block_start, wins.block_stop
+            else:
+                lo = np.array([w.block_start for w in wins], np.int64)
+                hi = np.array([w.block_stop for w in wins], np.int64)
+            stack = assemble_stacked(blocks, lo, hi, relative=True, levels=levels)
             mom = StackedMoments(*affine_stacked(*stack, shift_rel, scale, offset))
             del stack
             check_window_variation(wins, mom, self.names, plan_id=plan.id,
                                    dataset_id=self.dataset_id, path=path)
-            prepared_plans.append(PlanWindows(plan.id, plan.kind, tuple(wins), mom))
+            prepared_plans.append(PlanWindows(
+                plan.id, plan.kind, wins if isinstance(wins, WindowTable) else tuple(wins), mom))
         del levels
         period = None
         if blocks.first_time is not None:

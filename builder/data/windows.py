@@ -34,8 +34,8 @@ from builder.data.timeindex import TimeFormat, add_months, format_times, parse_b
 from builder.errors import DataError
 from builder.spec.model import Span, WindowPlanSpec
 
-__all__ = ["PLAN_KINDS", "TIME_UNITS", "BLOCK_CAP", "Window", "Grid", "plan_grid",
-           "plan_windows"]
+__all__ = ["PLAN_KINDS", "TIME_UNITS", "BLOCK_CAP", "Window", "WindowTable", "Grid",
+           "plan_grid", "plan_windows"]
 
 PLAN_KINDS = ("full", "rolling", "expanding", "periods")
 #: time units and their length in the grid's base unit (months or days)
@@ -87,6 +87,73 @@ class Window:
     source_last_row: int
     calendar_start: str | None = None
     calendar_end: str | None = None
+
+
+class WindowTable(Sequence):
+    """The windows of a row plan as arrays, read as a sequence of :class:`Window`.
+
+    Equal, item for item, to the list of :class:`Window` it stands for (and
+    compares equal to such a tuple or list); labels and times are written
+    only for the windows that are read.
+    """
+
+    __slots__ = ("plan_id", "first_row", "last_row", "rows", "block_start", "block_stop",
+                 "source_first_row", "source_last_row", "first_time", "last_time",
+                 "time_format")
+
+    def __init__(self, plan_id, first_row, last_row, rows, block_start, block_stop,
+                 source_first_row, source_last_row, first_time, last_time, time_format) -> None:
+        self.plan_id = plan_id
+        self.first_row, self.last_row, self.rows = first_row, last_row, rows
+        self.block_start, self.block_stop = block_start, block_stop
+        self.source_first_row, self.source_last_row = source_first_row, source_last_row
+        self.first_time, self.last_time = first_time, last_time
+        self.time_format = time_format
+
+    def __len__(self) -> int:
+        return int(self.rows.shape[0])
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self[k] for k in range(*i.indices(len(self)))]
+        k = range(len(self))[i]
+        ft = lt = None
+        if self.first_time is not None:
+            ft, lt = format_times(np.array([self.first_time[k], self.last_time[k]]),
+                                  self.time_format)
+            label = ft if ft == lt else f"{ft}–{lt}"
+        else:
+            label = f"rows {int(self.first_row[k])}–{int(self.last_row[k])}"
+        return Window(plan_id=self.plan_id, index=k, label=label,
+                      first_row=int(self.first_row[k]), last_row=int(self.last_row[k]),
+                      rows=int(self.rows[k]), first_time=ft, last_time=lt,
+                      block_start=int(self.block_start[k]), block_stop=int(self.block_stop[k]),
+                      source_first_row=int(self.source_first_row[k]),
+                      source_last_row=int(self.source_last_row[k]))
+
+    def __iter__(self):
+        for k in range(len(self)):
+            yield self[k]
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, WindowTable):
+            return self.plan_id == other.plan_id and all(
+                _same_array(getattr(self, f), getattr(other, f)) for f in self.__slots__[1:-1]) \
+                and self.time_format == other.time_format
+        if isinstance(other, (list, tuple)):
+            return len(self) == len(other) and all(a == b for a, b in zip(self, other))
+        return NotImplemented
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def __reduce__(self):
+        return (WindowTable, tuple(getattr(self, f) for f in self.__slots__))
+
+
+def _same_array(a, b) -> bool:
+    if a is None or b is None:
+        return a is b
+    return bool(np.array_equal(a, b))
 
 
 def _span_kind(span: Span) -> tuple[str, int]:
@@ -237,8 +304,12 @@ def _offset(t0: np.datetime64, base: str, amount: np.ndarray) -> np.ndarray:
 
 def plan_windows(plan: WindowPlanSpec, blocks: BlockTable, *, n_variables: int,
                  time_format: TimeFormat | None, dataset_id: str,
-                 path: str | None) -> list[Window]:
+                 path: str | None) -> Sequence[Window]:
     """The windows of one plan, each a run of whole blocks.
+
+    Plans in rows (rolling, expanding) give a :class:`WindowTable` (arrays,
+    a :class:`Window` built on access: a plan of a million windows costs
+    about 80 bytes per window); the others a list of :class:`Window`.
 
     Parameters
     ----------
@@ -261,6 +332,7 @@ def plan_windows(plan: WindowPlanSpec, blocks: BlockTable, *, n_variables: int,
     total = blocks.rows
     timed = blocks.first_time is not None
     bounds: list[tuple[int, int, str | None, str | None, str | None]] = []  # lo, hi, cal, label
+    row_bounds: tuple[np.ndarray, np.ndarray] | None = None
     if plan.kind == "full":
         bounds.append((0, len(blocks), None, None, None))
     elif plan.kind in ("rolling", "expanding"):
@@ -279,8 +351,7 @@ def plan_windows(plan: WindowPlanSpec, blocks: BlockTable, *, n_variables: int,
             stops = k * s + w if plan.kind == "rolling" else w + k * s
             lo = np.searchsorted(blocks.first_pos, starts, side="left")
             hi = np.searchsorted(blocks.first_pos, stops, side="left")
-            for a, b in zip(lo, hi):
-                bounds.append((int(a), int(b), None, None, None))
+            row_bounds = (lo.astype(np.int64), hi.astype(np.int64))
         else:
             t0 = blocks.first_time[0]
             end = time_format.end_of(blocks.last_time[-1])
@@ -321,6 +392,28 @@ def plan_windows(plan: WindowPlanSpec, blocks: BlockTable, *, n_variables: int,
                            str(b.astype("datetime64[D]")), p.label))
     need = n_variables + 2
     cum = np.concatenate([[0], np.cumsum(blocks.counts)])
+    if row_bounds is not None:  # row plans: every window described by arrays, built on access
+        lo, hi = row_bounds
+        rows = cum[hi] - cum[lo]
+        short = np.flatnonzero(rows < need)
+        if short.size:
+            i = int(short[0])
+            where = f"window {i + 1}"
+            if rows[i]:
+                where = (f"window {i + 1} (rows {int(blocks.first_pos[lo[i]]) + 1}–"
+                         f"{int(blocks.last_pos[hi[i] - 1]) + 1})")
+            raise _plan_error(
+                plan, f"{where} has {int(rows[i])} analysed rows, but {n_variables} variables "
+                      f"need at least {need}.", "widen the plan's windows (or period), or analyse "
+                                                "fewer variables.", path=path, dataset_id=dataset_id)
+        first = blocks.first_pos[lo]
+        last = blocks.last_pos[hi - 1]
+        ft = lt = None
+        if timed:
+            ft, lt = blocks.first_time[lo], blocks.last_time[hi - 1]
+        return WindowTable(plan.id, first + 1, last + 1, rows, lo, hi,
+                           blocks.first_source_row[lo], blocks.last_source_row[hi - 1], ft, lt,
+                           time_format)
     windows: list[Window] = []
     for index, (lo, hi, cal_a, cal_b, period_label) in enumerate(bounds):
         rows = int(cum[hi] - cum[lo])

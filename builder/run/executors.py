@@ -100,7 +100,17 @@ class _ProcessPool(ProcessPoolExecutor):
         methods = multiprocessing.get_all_start_methods()
         method = "forkserver" if "forkserver" in methods else "spawn"
         # workers ignore Ctrl-C (a terminal sends it to the whole process group): the parent
-        # alone handles it and shuts the pool down, so no worker prints a traceback
+        # alone handles it and shuts the pool down, so no worker prints a traceback. The fork
+        # server is started with SIGINT blocked (the mask is inherited by it and by every
+        # worker it forks), so a Ctrl-C during its start-up cannot interrupt its imports either.
+        if method == "forkserver" and hasattr(signal, "pthread_sigmask"):
+            from multiprocessing import forkserver
+
+            old = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+            try:
+                forkserver.ensure_running()
+            finally:
+                signal.pthread_sigmask(signal.SIG_SETMASK, old)
         super().__init__(max_workers=workers, mp_context=multiprocessing.get_context(method),
                          initializer=signal.signal, initargs=(signal.SIGINT, signal.SIG_IGN))
         self.workers = workers
@@ -255,6 +265,24 @@ def _run_chunk(fn: Callable[[Any], Any], chunk: Sequence[Any]) -> list:
     return [fn(item) for item in chunk]
 
 
+def _run_chunk_one_blas_thread(fn: Callable[[Any], Any], chunk: Sequence[Any]) -> list:
+    """:func:`_run_chunk` with BLAS/OpenMP limited to one thread in the worker.
+
+    Window tasks multiply small matrices; with several worker processes on a
+    machine, each BLAS spawning a thread per core would oversubscribe the
+    cores (workers x cores threads) and slow every task. Dask's nanny sets
+    ``OMP_NUM_THREADS=1`` (and the OpenBLAS/MKL variables) for the workers it
+    spawns; a process pool, or a cluster started some other way, may not, so
+    the limit is also applied here (with threadpoolctl, when installed).
+    """
+    try:
+        from threadpoolctl import threadpool_limits  # noqa: PLC0415 (optional)
+    except ImportError:
+        return _run_chunk(fn, chunk)
+    with threadpool_limits(limits=1):
+        return _run_chunk(fn, chunk)
+
+
 def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[Any], *,
                   chunk_size: int | None = None, progress: _Counter | None = None) -> list:
     """``[fn(x) for x in items]``, run on ``executor`` in chunks, in order.
@@ -306,8 +334,9 @@ def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[
         elif progress is not None:
             progress.update(len(chunks[index[f]]))
 
+    runner = _run_chunk if isinstance(executor, SerialExecutor) else _run_chunk_one_blas_thread
     for i, chunk in enumerate(chunks):
-        f = executor.submit(_run_chunk, fn, chunk)
+        f = executor.submit(runner, fn, chunk)
         futures.append(f)
         index[f] = i
         if f.done():  # in-process executors finish on submit: report as we go

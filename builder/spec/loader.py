@@ -39,6 +39,7 @@ from builder.spec.model import (
     DatasetSpec,
     Period,
     ReportMeta,
+    RunSpec,
     SiteSpec,
     Span,
     Spec,
@@ -601,9 +602,11 @@ class _Builder:
             datasets.append(self._dataset(d, key, line, plan_ids, windows, top_checks_raw))
         claims = self._claims(raw.get("claims"), datasets, windows)
         site = self._site(raw.get("site"))
+        run = raw.get("run") or {}
         return Spec(version=int(raw["relspan"]), report=report, datasets=tuple(datasets),
                     windows=windows, checks=top_checks, claims=claims, site=site,
-                    path=self.ctx.path, text=self.text)
+                    path=self.ctx.path, text=self.text,
+                    run=RunSpec(jobs=run.get("jobs"), scheduler=run.get("scheduler")))
 
     def _unique(self, ident: str, seen: dict[str, int], key: str, line: int, where: str,
                 what: str) -> None:

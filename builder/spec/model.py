@@ -234,6 +234,19 @@ class SiteSpec:
 
 
 @dataclass(frozen=True, slots=True)
+class RunSpec:
+    """``run:`` - where window tasks run (the command line's --jobs / --scheduler override it).
+
+    ``jobs`` is the number of local worker processes (None: the cores
+    available); ``scheduler`` the address of a running Dask scheduler
+    (``tcp://host:port``). At most one of the two is set.
+    """
+
+    jobs: int | None = None
+    scheduler: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
 class Spec:
     """A whole validated spec. ``path`` is the spec file, ``text`` its bytes as read."""
 
@@ -246,6 +259,7 @@ class Spec:
     site: SiteSpec
     path: Path
     text: str
+    run: RunSpec = RunSpec()
 
     @property
     def folder(self) -> Path:

@@ -48,6 +48,8 @@ __all__ = [
 
 #: ids of datasets, window plans and claims
 ID_PATTERN = r"^[a-z0-9][a-z0-9_-]*$"
+#: a Dask scheduler address (as `--scheduler` takes it)
+SCHEDULER_PATTERN = r"^(tcp|tls)://(\[[0-9a-fA-F:]+\]|[^\s/:\[\]]+)(:[0-9]{1,5})?$"
 #: an ISO calendar date, YYYY-MM-DD (validity of the day is checked by the loader)
 DATE_PATTERN = r"^[0-9]{4}-[0-9]{2}-[0-9]{2}$"
 #: time units a width or step may be counted in (plural form, as stored in model.Span)
@@ -441,6 +443,29 @@ def _build_schema() -> dict[str, Any]:
                            **{"x-expected": "a language tag such as \"en\" or \"en-GB\""}),
         },
     }
+    run = {
+        "type": "object",
+        "title": "Run",
+        "description": ("Where the window tasks run. Leave it out to use a local process pool "
+                        "with one worker per available core. The command line's `--jobs` and "
+                        "`--scheduler` override this section. Results are identical wherever "
+                        "the tasks run, so this section does not affect the result cache."),
+        "examples": [{"jobs": 2}, {"scheduler": "tcp://10.0.0.5:8786"}],
+        "additionalProperties": False,
+        "maxProperties": 1,
+        "x-expected": "a mapping with at most one of `jobs` or `scheduler`",
+        "properties": {
+            "jobs": _p({"type": "integer", "minimum": 1}, "Worker processes",
+                       "Local worker processes for window tasks; 1 runs everything in the "
+                       "building process. Default: the cores available to it.", [1, 4],
+                       **{"x-expected": "a whole number >= 1"}),
+            "scheduler": _p({"type": "string", "pattern": SCHEDULER_PATTERN},
+                            "Dask scheduler", "Address of a running Dask scheduler (package "
+                            "`distributed`, installed with `relspan[cluster]`); window tasks "
+                            "then run on that cluster's workers.", ["tcp://10.0.0.5:8786"],
+                            **{"x-expected": "an address such as tcp://host:8786"}),
+        },
+    }
     return {
         "$schema": _DRAFT,
         "title": "relspan spec, format v1",
@@ -472,6 +497,7 @@ def _build_schema() -> dict[str, Any]:
                          "Statements re-checked on every build; ids unique.",
                          [[claim["examples"][0]]], default=[]),
             "site": site,
+            "run": run,
         },
     }
 

@@ -45,7 +45,7 @@ def test_unknown_key_reports_line_and_nearest_valid_key(write_spec):
 def test_unknown_key_without_near_match_lists_valid_keys(write_spec):
     err = _error(write_spec, MINIMAL + "zzz: 1\n")
     assert re.search(r"unknown key 'zzz' at the top level\. Valid keys are: checks, "
-                     r"claims, datasets, relspan, report, site, windows\.", str(err))
+                     r"claims, datasets, relspan, report, run, site, windows\.", str(err))
     assert err.line == 11
 
 
