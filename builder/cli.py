@@ -231,6 +231,15 @@ _COMMANDS = {"build": _cmd_build, "check": _cmd_check, "serve": _cmd_serve,
              "new": _cmd_new, "schema": _cmd_schema}
 
 
+def _stderr_is_terminal() -> bool:
+    import os
+
+    try:
+        return sys.stderr.isatty() and os.environ.get("TERM", "") != "dumb"
+    except (AttributeError, ValueError, OSError):
+        return False
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of ``relspan`` and ``python -m builder``; returns the exit code."""
     parser = _parser()
@@ -245,7 +254,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(textwrap.indent(str(err), "").rstrip(), file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
-        print("relspan: interrupted; the previous site (if any) is unchanged.", file=sys.stderr)
+        # on a terminal, first clear a progress line the interrupt may have left unfinished
+        clear = "\r\033[K" if _stderr_is_terminal() else ""
+        print(f"{clear}relspan: interrupted; the previous site (if any) is unchanged.", file=sys.stderr)
         # A Ctrl-C that interrupted code run by exec(text) (dataclasses, during imports) leaves
         # CPython's "unhandled KeyboardInterrupt" flag set, and the interpreter would then end
         # by killing itself with SIGINT instead of exiting 130; evaluating any text resets it.

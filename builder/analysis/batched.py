@@ -44,8 +44,8 @@ __all__ = [
 ]
 
 
-#: doubles of raw data reduced at a time (256 KiB): the deviations of a piece stay in cache
-_CACHE_DOUBLES = 1 << 15
+#: doubles of raw data reduced at a time (1 MiB, half of a 2 MiB L2 cache): a piece stays in cache
+_CACHE_DOUBLES = 1 << 17
 
 
 def stacked_block_moments(x: np.ndarray, rows_per_block: int):

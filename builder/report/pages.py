@@ -1119,9 +1119,7 @@ def methods_page(pub: Publisher) -> Page:
 
 
 def glossary_page() -> Page:
-    body = "\n".join(f"{term}\n:   {text}\n" for term, text in GLOSSARY)
     items = "\n".join(f"- **{term}**: {text}" for term, text in GLOSSARY)
-    del body
     return Page("glossary.html", "Glossary", "The words used on this site, in plain language.\n\n" + items + "\n",
                 "glossary", breadcrumbs=(HOME,), description="Plain-language glossary.")
 

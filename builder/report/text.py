@@ -112,7 +112,7 @@ GLOSSARY = (
     ("Tolerance (eps)", "The largest measurement error the analysis allows, as a share of each variable's "
      "variance (relative) or in the data's units (absolute)."),
     ("Normalised coefficient", "A coefficient of a relation written as an equation for one chosen "
-     "variable. Meaningful only when it is identified; see the caution page."),
+     "variable. Meaningful only when it is identified; see [how to read a single coefficient](/caution.html)."),
     ("Reduced form", "Some variables (as many as there are relations) written through the others. It is "
      "identified once the choice of variables is made."),
     ("Principal angle", "How far apart two subspaces are, in degrees: 0 means the same, 90 means "
