@@ -12,17 +12,11 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from builder.analysis.stability import subspace_stability
+from builder.analysis.window import ASSUMPTION_WORDS as _ASSUMPTION_WORDS
 from builder.spec.model import ClaimSpec
 
 __all__ = ["ClaimVerdict", "evaluate_claims", "evaluate_claim"]
 
-_ASSUMPTION_WORDS = {
-    "elementary": "one variable alone noisy",
-    "equal": "equal noise",
-    "shaped": "noise of known relative size",
-    "bounded": "bounded noise",
-    "diagonal": "independent noise (Frisch)",
-}
 
 
 @dataclass(frozen=True, slots=True)

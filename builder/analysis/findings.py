@@ -22,6 +22,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from builder.analysis.window import ASSUMPTION_WORDS as _WORDS
+
 __all__ = ["Finding", "dataset_findings", "FINDING_KINDS", "CARD_OF_KIND"]
 
 FINDING_KINDS = ("pinned_down", "set_only", "not_identified", "depends", "unstable", "stable",
@@ -35,13 +37,6 @@ CARD_OF_KIND = {
     "unstable": "unstable",
 }
 
-_WORDS = {
-    "elementary": "one variable alone noisy",
-    "equal": "equal noise",
-    "shaped": "noise of known relative size",
-    "bounded": "bounded noise",
-    "diagonal": "independent noise (Frisch)",
-}
 
 
 @dataclass(frozen=True, slots=True)

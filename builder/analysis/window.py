@@ -34,7 +34,16 @@ from builder.analysis.equal_noise import EqualNoise, equal_noise
 from builder.analysis.moments import Moments
 
 __all__ = ["WindowOptions", "WindowAnalysis", "analyse_window", "normalised_coefficients",
-           "ASSUMPTION_LABELS"]
+           "ASSUMPTION_LABELS", "ASSUMPTION_WORDS"]
+
+#: short words for each noise assumption, used inside sentences (findings, claim verdicts)
+ASSUMPTION_WORDS = {
+    "elementary": "one variable alone noisy",
+    "equal": "equal noise",
+    "shaped": "noise of known relative size",
+    "bounded": "bounded noise",
+    "diagonal": "independent noise (Frisch)",
+}
 
 #: reader-facing names of the noise assumptions
 ASSUMPTION_LABELS = {
