@@ -210,12 +210,18 @@ def _short_moments(y: np.ndarray, starts: np.ndarray, length: int):
     co-moment ``d^T d - (sum d)(sum d)^T / L`` (Bjorck 1996), with the
     products for all blocks in one batched matrix multiplication.
     """
-    rows = y[starts[:, None] + np.arange(length)]       # (k, L, n), a copy
-    shift = rows[:, :1, :].copy()
-    rows -= shift
-    mz = rows.sum(axis=1) / length
+    k = starts.shape[0]
+    s0 = int(starts[0])
+    shift = y[starts][:, None, :]
+    if int(starts[-1]) - s0 == (k - 1) * length and (k == 1 or bool(
+            (np.diff(starts) == length).all())):  # back to back: a view, no gather
+        rows = y[s0:s0 + k * length].reshape(k, length, -1) - shift
+    else:
+        rows = y[starts[:, None] + np.arange(length)] - shift   # (k, L, n)
+    ones = np.ones(length)
+    mz = np.matmul(ones, rows) / length  # sums through BLAS beat .sum(axis=1) here
     rows -= mz[:, None, :]
-    sd = rows.sum(axis=1)
+    sd = np.matmul(ones, rows)
     c = np.matmul(rows.transpose(0, 2, 1), rows)
     c -= sd[:, :, None] * sd[:, None, :] / length
     return mz + sd / length + shift[:, 0, :], 0.5 * (c + c.transpose(0, 2, 1))

@@ -25,7 +25,7 @@ import queue
 import threading
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Iterator, Sequence
+from typing import Callable, Iterator, Sequence
 
 import numpy as np
 import pandas as pd
@@ -632,24 +632,32 @@ class TableReader:
             except (pa.ArrowException, OSError, ValueError) as err:
                 raise FastPathDeclined(str(err)) from None
             row0 = 0
-            batches = _Prefetch(reader, (pa.ArrowException, OSError, ValueError))
-            batches.start()
-            for batch in batches:
-                for a in range(0, batch.num_rows, self.chunk_rows):
-                    part = batch.slice(a, self.chunk_rows)
-                    m = part.num_rows
-                    values = np.empty((m, nvar))
+            chunk_rows = self.chunk_rows
+
+            def convert(batch):  # runs in the reading thread, beside the caller's work
+                parts = []
+                for a in range(0, batch.num_rows, chunk_rows):
+                    part = batch.slice(a, chunk_rows)
+                    values = np.empty((part.num_rows, nvar))
                     for j in range(nvar):
                         col = part.column(j)
                         values[:, j] = col.to_numpy(zero_copy_only=False)
                         if col.null_count != int(np.isnan(values[:, j]).sum()):
                             raise FastPathDeclined("a numeric cell reads as NaN")
+                    parts.append((values, part.column(nvar) if nvar < part.num_columns else None))
+                return parts
+
+            batches = _Prefetch(reader, (pa.ArrowException, OSError, ValueError), convert)
+            batches.start()
+            for parts in batches:
+                for values, tcol in parts:
+                    m = values.shape[0]
                     rows = np.arange(row0 + 1, row0 + m + 1, dtype=np.int64)
                     row0 += m
                     check_finite(values, self.columns, rows, path=src.path)
                     times = None
                     if self.time_column is not None:
-                        times = part.column(nvar).to_pandas()
+                        times = tcol.to_pandas()
                     yield RawChunk(values, times, False, rows)
             sha = hasher.result()
         finally:
@@ -711,9 +719,10 @@ class _Prefetch(threading.Thread):
     raised in the caller as :class:`FastPathDeclined`.
     """
 
-    def __init__(self, reader, errors: tuple) -> None:
+    def __init__(self, reader, errors: tuple, convert: Callable) -> None:
         super().__init__(name="relspan-csv-reader", daemon=True)
         self._reader = reader
+        self._convert = convert
         self._errors = errors
         self._queue: queue.Queue = queue.Queue(maxsize=_AHEAD)
         self._halt = threading.Event()
@@ -730,9 +739,12 @@ class _Prefetch(threading.Thread):
     def run(self) -> None:
         while not self._halt.is_set():
             try:
-                batch = self._reader.read_next_batch()
+                batch = self._convert(self._reader.read_next_batch())
             except StopIteration:
                 self._put(("end", None))
+                return
+            except FastPathDeclined as err:
+                self._put(("error", str(err)))
                 return
             except self._errors as err:
                 self._put(("error", str(err)))

@@ -188,7 +188,10 @@ class StreamTransform:
             y[:, self._diff] = x[:, self._diff] - prev[:, self._diff]
             no_prev = (np.isnan(prev[:, self._diff]) & ~np.isnan(x[:, self._diff])).any(axis=1)
             self._prev = x[-1].copy()
-        keep = ~(np.isnan(y).any(axis=1) | row_missing)
+        if y is values:  # no row transform: NaN only where a cell was empty
+            keep = ~row_missing
+        else:
+            keep = ~(np.isnan(y).any(axis=1) | row_missing)
         self._record(REASON_MISSING, rows[row_missing])
         self._record(REASON_NO_PREVIOUS, rows[no_prev & ~row_missing & ~keep])
         return y[keep], keep

@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import io
 import math
+import re
 from collections.abc import Iterable, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -96,7 +97,6 @@ _ASSUMPTION_SLOT = {"equal": 0, "bounded": 1, "diagonal": 2, "elementary": 3, "s
 _RC = {
     "font.family": "DejaVu Sans",
     "font.size": 10.5,
-    "text.parse_math": False,  # labels are user text: a '$' in a unit is a dollar, not mathtext
     "axes.titlesize": 11,
     "axes.titleweight": "bold",
     "axes.titlelocation": "left",
@@ -189,11 +189,39 @@ class FigureResult:
             raise OptionsError(
                 f"FigureResult: name must be a file stem of letters, digits, '-' and '_'; got {self.name!r}.",
                 key="name", fix="Pass a name such as 'subspace-stability'.")
+        literal_dollars(self.figure)
         freeze_layout(self.figure)
         if len(self.alt) > ALT_MAX:
             raise OptionsError(
                 f"FigureResult: alt text is {len(self.alt)} characters; at most {ALT_MAX} are allowed.",
                 key="alt", fix="Shorten the alt text and put the detail in the description.")
+
+
+def literal_dollars(fig: Figure) -> None:
+    """Show every '$' of the figure's texts as a dollar sign, never as the start of mathtext.
+
+    Labels, units and window names are user text; matplotlib would read a pair of
+    dollar signs in them as a formula (and fail on an unbalanced one). Each unescaped
+    '$' becomes '\\$', which matplotlib draws as '$'. Tick labels are written again by
+    their formatters at every draw (so log-axis exponents keep their mathtext); fixed
+    tick labels given as text are escaped in their formatter.
+    """
+    from matplotlib.text import Text
+    from matplotlib.ticker import FixedFormatter
+
+    for text in fig.findobj(Text):
+        value = text.get_text()
+        if "$" in value:
+            text.set_text(_escape_dollars(value))
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for fmt in (axis.get_major_formatter(), axis.get_minor_formatter()):
+                if isinstance(fmt, FixedFormatter):
+                    fmt.seq = [_escape_dollars(str(v)) for v in fmt.seq]
+
+
+def _escape_dollars(value: str) -> str:
+    return re.sub(r"(?<!\\)\$", lambda m: "\\$", value)
 
 
 def freeze_layout(fig: Figure) -> None:
