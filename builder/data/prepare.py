@@ -20,6 +20,7 @@ standardise) are applied to the statistics after the pass.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 from dataclasses import dataclass
 from typing import Mapping, Sequence
@@ -51,6 +52,7 @@ __all__ = [
     "prepare_dataset",
     "prepare_frame",
     "window_moments",
+    "without_blocks",
 ]
 
 DEFAULT_CHUNK_ROWS = 1 << 16
@@ -230,6 +232,24 @@ class PreparedDataset:
         raise OptionsError(f"dataset {self.dataset_id!r} has no window plan {plan_id!r}; "
                            f"its plans are {known}.", key="plan",
                            fix="use one of those plan ids.")
+
+
+def without_blocks(prepared: PreparedDataset) -> PreparedDataset:
+    """A copy that no longer holds the block statistics (everything else is kept).
+
+    Once every window's moments are assembled, the blocks are needed by no
+    later stage; dropping them halves what a result with a window every few
+    blocks keeps in memory and in the result cache. ``blocks`` becomes an
+    empty :class:`BlockTable` (zero blocks, same variables and origin).
+    """
+    b = prepared.blocks
+    n = b.means.shape[1]
+    none = np.zeros(0, np.int64)
+    t = None if b.first_time is None else np.zeros(0, "datetime64[s]")
+    empty = BlockTable(counts=none, means=np.zeros((0, n)), comoments=np.zeros((0, n, n)),
+                       first_pos=none, last_pos=none, first_source_row=none,
+                       last_source_row=none, first_time=t, last_time=t, origin=b.origin)
+    return dataclasses.replace(prepared, blocks=empty)
 
 
 def window_moments(prepared: PreparedDataset, plan_id: str) -> list[tuple[Window, Moments]]:

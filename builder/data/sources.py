@@ -618,6 +618,7 @@ class TableReader:
             types[take[-1]] = pa.string()
         hasher = _Hasher(src)
         hasher.start()
+        batches: _Prefetch | None = None
         try:
             try:
                 reader = pacsv.open_csv(
@@ -634,7 +635,7 @@ class TableReader:
             row0 = 0
             chunk_rows = self.chunk_rows
 
-            def convert(batch):  # runs in the reading thread, beside the caller's work
+            def convert(batch):
                 parts = []
                 for a in range(0, batch.num_rows, chunk_rows):
                     part = batch.slice(a, chunk_rows)
@@ -647,10 +648,12 @@ class TableReader:
                     parts.append((values, part.column(nvar) if nvar < part.num_columns else None))
                 return parts
 
-            batches = _Prefetch(reader, (pa.ArrowException, OSError, ValueError), convert)
+            # only parsing runs ahead (pyarrow's threads, a few batches queued); each batch is
+            # converted to float chunks here when its turn comes, so memory stays bounded
+            batches = _Prefetch(reader, (pa.ArrowException, OSError, ValueError), lambda b: b)
             batches.start()
-            for parts in batches:
-                for values, tcol in parts:
+            for batch in batches:
+                for values, tcol in convert(batch):
                     m = values.shape[0]
                     rows = np.arange(row0 + 1, row0 + m + 1, dtype=np.int64)
                     row0 += m
@@ -662,7 +665,7 @@ class TableReader:
             sha = hasher.result()
         finally:
             hasher.stop()
-            if "batches" in locals():
+            if batches is not None:
                 batches.stop()
         self.sha256 = sha
         self.rows_read = row0

@@ -343,7 +343,10 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
             identified[q] = identified_quantities(basis / common_std[None, :], names=names)
         if not full.elementary.singular:
             flats[q] = elementary_flat(full.elementary, q=q, ref=ref)
-    result = DatasetResult(spec=ds, prepared=prepared, full=full, plans=plan_results,
+    from builder.data.prepare import without_blocks
+
+    # the block statistics are not needed once the windows are assembled: do not keep them
+    result = DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
                            examined=examined, examined_from=examined_from, findings=(),
                            identified=identified, flat=flats, threshold_deg=threshold)
     return dataclasses.replace(result, findings=tuple(dataset_findings(result)))
