@@ -238,3 +238,16 @@ def test_fifteen_variables_with_three_relations_check_cleanly(tmp_path):
     result = run_cli("check", "spec.yaml", *FAST, cwd=tmp_path)
     assert result.returncode == 0, result.stderr
     assert "1 of 1 claim(s) hold" in result.stdout
+
+
+def test_near_singular_windows_are_listed_as_numerical_warnings_on_the_dataset_page(built):
+    # the reader sees the caveat on the site, not only the builder on the command line
+    text = _text(built[0] / "datasets/near/index.html")
+    assert "Numerical warnings" in text
+    assert "nearly singular" in text
+    assert "1970–1985" in text
+
+
+def test_well_conditioned_dataset_page_carries_no_numerical_warning(built):
+    text = _text(built[0] / "datasets/unscaled/index.html")
+    assert "Numerical warnings" not in text

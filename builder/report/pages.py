@@ -856,6 +856,27 @@ def _single_coefficient_note() -> str:
                           "before using one.", title="Single coefficients")
 
 
+def _numerical_notes(result) -> str:
+    """A caution listing the windows whose numbers are fragile (ill conditioned, singular)."""
+    items = []
+    if result.full.notes:
+        items += [f"- Full sample: {escape_text(n)} ([details](#assumptions))" for n in result.full.notes]
+    for plan in result.plans:
+        for i, a in enumerate(plan.analyses):
+            for n in a.notes:
+                items.append(f"- [{escape_text(a.label)}](/{window_path(result.spec.id, plan.plan.id, i)}) "
+                             f"({escape_text(plan.plan.title or plan.plan.id)}): {escape_text(n)}")
+    if not items:
+        return ""
+    shown = items[:12]
+    if len(items) > 12:
+        shown.append(f"- \u2026 and {len(items) - 12} more; each window page lists its own.")
+    return blocks.callout("Some numbers on this page come from windows where the computation is fragile "
+                          "(the data nearly satisfy an exact relation, so small changes in the data move the "
+                          "results a lot). Read those windows' numbers with extra care.\n\n" + "\n".join(shown),
+                          title="Numerical warnings")
+
+
 def dataset_page(run, result, pub: Publisher) -> Page:
     from builder.report import figures_for as ff
 
@@ -878,6 +899,7 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     body.append("")
     if sm.single_coefficient or any(f.single_coefficient for f in result.findings):
         body.append(_single_coefficient_note())
+    body.append(_numerical_notes(result))
     body.append(blocks.details(
         "Every finding, one line each",
         "\n".join(f"- **{escape_text(_kind_words(f.kind))}:** {escape_text(f.headline)} "
