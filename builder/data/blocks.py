@@ -87,7 +87,13 @@ class BlockTable:
 
 
 class _Grow:
-    """An append-only numpy array with amortised doubling."""
+    """An append-only numpy array with amortised doubling, grown and trimmed in place.
+
+    ``ndarray.resize`` reallocates the buffer (for large arrays the C library
+    remaps the pages instead of copying them), so neither growing nor the final
+    trim holds the old and the new buffer at once: the peak stays near the
+    final size instead of three times it.
+    """
 
     __slots__ = ("_a", "_n")
 
@@ -99,14 +105,16 @@ class _Grow:
         k = values.shape[0]
         if self._n + k > self._a.shape[0]:
             cap = max(2 * self._a.shape[0], self._n + k)
-            new = np.empty((cap, *self._a.shape[1:]), dtype=self._a.dtype)
-            new[:self._n] = self._a[:self._n]
-            self._a = new
+            self._a.resize((cap, *self._a.shape[1:]), refcheck=False)  # only we hold it
         self._a[self._n:self._n + k] = values
         self._n += k
 
     def get(self) -> np.ndarray:
-        return self._a[:self._n].copy()
+        """The rows so far; the builder is done with the buffer afterwards."""
+        a, self._a = self._a, np.empty((0, *self._a.shape[1:]), dtype=self._a.dtype)
+        a.resize((self._n, *a.shape[1:]), refcheck=False)
+        self._n = 0
+        return a
 
 
 class BlockBuilder:

@@ -635,8 +635,7 @@ class TableReader:
             row0 = 0
             chunk_rows = self.chunk_rows
 
-            def convert(batch):
-                parts = []
+            def convert(batch):  # one chunk at a time, when its turn comes
                 for a in range(0, batch.num_rows, chunk_rows):
                     part = batch.slice(a, chunk_rows)
                     values = np.empty((part.num_rows, nvar))
@@ -645,8 +644,7 @@ class TableReader:
                         values[:, j] = col.to_numpy(zero_copy_only=False)
                         if col.null_count != int(np.isnan(values[:, j]).sum()):
                             raise FastPathDeclined("a numeric cell reads as NaN")
-                    parts.append((values, part.column(nvar) if nvar < part.num_columns else None))
-                return parts
+                    yield values, (part.column(nvar) if nvar < part.num_columns else None)
 
             # only parsing runs ahead (pyarrow's threads, a few batches queued); each batch is
             # converted to float chunks here when its turn comes, so memory stays bounded
@@ -794,7 +792,7 @@ class _Hasher(threading.Thread):
             with open(self._src.resolved, "rb") as fh:
                 stream = _CheckedStream(fh, self._src.path)
                 while not self._halt.is_set():
-                    data = fh.read(1 << 22)
+                    data = fh.read(1 << 20)
                     if not data:
                         stream._check(b"", True)
                         break
