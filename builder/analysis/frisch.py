@@ -1489,19 +1489,14 @@ def frisch_identification(n: int, q: int) -> FrischIdentification:
 
 
 def _principal_angles_deg(qa: np.ndarray, qb: np.ndarray) -> np.ndarray:
-    """Principal angles (ascending, degrees) between column spaces of orthonormal ``qa``, ``qb``.
+    """Principal angles (ascending, degrees) between the column spaces of ``qa`` and ``qb``.
 
-    Cosines from the singular values of ``qa^T qb``, sines from those of
-    ``(I - qa qa^T) qb``, combined with ``atan2`` so that small angles keep
-    their accuracy (Björck & Golub 1973).
+    The one implementation in :func:`builder.analysis.stability.principal_angles`
+    (sines and cosines combined by atan2; Björck & Golub 1973).
     """
-    m = qa.T @ qb
-    cos = np.linalg.svd(m, compute_uv=False)                    # descending
-    sin = np.linalg.svd(qb - qa @ m, compute_uv=False)          # descending
-    k = min(qa.shape[1], qb.shape[1])
-    cos = np.clip(cos[:k], 0.0, 1.0)
-    sin = np.sort(np.clip(np.concatenate([sin, np.zeros(k)])[:k], 0.0, 1.0))
-    return np.degrees(np.arctan2(sin, cos))
+    from builder.analysis.stability import principal_angles
+
+    return principal_angles(qa, qb, layout="columns")
 
 
 @dataclass(frozen=True, slots=True)
