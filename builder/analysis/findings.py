@@ -98,7 +98,6 @@ def _times(k: int) -> str:
 
 def _corank_findings(result) -> list[Finding]:
     full = result.full
-    labels = dict(zip(result.names, result.labels))
     cor = {a: q for a, q in full.coranks.items() if a != "elementary"}
     known = {a: q for a, q in cor.items() if q is not None}
     out: list[Finding] = []
@@ -136,7 +135,6 @@ def _corank_findings(result) -> list[Finding]:
                            "settled at this tolerance.",
                            "The diagonal-noise search neither certified nor ruled out every corank "
                            "(\u201cundetermined at eps\u201d).", {"undetermined": undetermined}, "corank"))
-    del labels
     return out
 
 
@@ -258,22 +256,17 @@ def _stability_findings(result) -> list[Finding]:
             worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else stab.max_pairwise_deg
             what = "relation" if q == 1 else "plane of relations" if q == 2 else f"{q}-dimensional relation subspace"
             if stab.stable:
-                out.append(Finding("stable", "stability",
-                                   f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} "
-                                   f"stays within {worst:.2g} degrees of the full sample's.",
-                                   f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
-                                                       "max_to_full_deg": worst,
-                                                       "threshold_deg": stab.threshold_deg},
-                                   f"plan-{plan.plan.id}", plan=plan.plan.id))
+                headline = (f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} "
+                            f"stays within {worst:.2g} degrees of the full sample's.")
             else:
-                out.append(Finding("unstable", "stability",
-                                   f"Across the windows of \u201c{title}\u201d the {what} moves: up to "
-                                   f"{worst:.2g} degrees from the full sample's (threshold "
-                                   f"{stab.threshold_deg:g}).",
-                                   f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
-                                                       "max_to_full_deg": worst,
-                                                       "threshold_deg": stab.threshold_deg},
-                                   f"plan-{plan.plan.id}", plan=plan.plan.id))
+                headline = (f"Across the windows of \u201c{title}\u201d the {what} moves: up to "
+                            f"{worst:.2g} degrees from the full sample's (threshold "
+                            f"{stab.threshold_deg:g}).")
+            out.append(Finding("stable" if stab.stable else "unstable", "stability", headline,
+                               f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
+                                                   "max_to_full_deg": worst,
+                                                   "threshold_deg": stab.threshold_deg},
+                               f"plan-{plan.plan.id}", plan=plan.plan.id))
             swing = plan.swings.get("elementary")
             if swing is not None:
                 changed = [k for k in range(len(names)) if k != ref and swing.sign_changes[k] > 0]
