@@ -13,7 +13,7 @@ import time
 
 import numpy as np
 
-from builder.analysis.frisch import frisch_analysis
+from relspan.analysis.frisch import frisch_analysis
 
 
 def _factor(n: int, q: int, seed: int) -> np.ndarray:

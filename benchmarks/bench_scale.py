@@ -45,7 +45,7 @@ REPO = Path(__file__).resolve().parents[1]
 if str(REPO) not in sys.path:  # runnable from a checkout without installing
     sys.path.insert(0, str(REPO))
 
-from builder.analysis.batched import (batched_elementary_regressions, merge_window_runs,  # noqa: E402
+from relspan.analysis.batched import (batched_elementary_regressions, merge_window_runs,  # noqa: E402
                                       stacked_block_moments)
 
 N_VARS = 6
@@ -87,8 +87,8 @@ def machine_details() -> dict:
     for mod in ("numpy", "scipy", "pandas", "statsmodels", "pyarrow", "dask", "distributed"):
         with contextlib.suppress(Exception):
             versions[mod] = importlib.import_module(mod).__version__
-    import builder
-    versions["relspan"] = builder.__version__
+    import relspan
+    versions["relspan"] = relspan.__version__
     mem = ""
     with contextlib.suppress(OSError, ValueError, IndexError):
         kb = int(Path("/proc/meminfo").read_text().split("MemTotal:")[1].split()[0])
@@ -257,7 +257,7 @@ def _write_csv(path: Path, rows: int, n: int = N_VARS, chunk: int = 500_000) -> 
 
 
 def _dataset_spec(path: Path, n: int = N_VARS, *, width: int = WIDTH, step: int = STEP):
-    from builder.spec.model import DatasetSpec, Span, VariableSpec, WindowPlanSpec
+    from relspan.spec.model import DatasetSpec, Span, VariableSpec, WindowPlanSpec
 
     ds = DatasetSpec(id="bench", title="Benchmark table", source=path.name, source_path=path,
                      variables=tuple(VariableSpec(column=f"x{j + 1}", label=f"x{j + 1}")
@@ -280,13 +280,13 @@ def _bounded_plan(rows: int) -> tuple[int, int]:
 def bench_ingest(work: Path, rows: int) -> Outcome:
     """CSV -> window statistics (prepare_dataset) against pyarrow.csv.read_csv of the same file.
 
-    Needs: builder.data.prepare.prepare_dataset(ds_spec, plans, chunk_rows=...).
+    Needs: relspan.data.prepare.prepare_dataset(ds_spec, plans, chunk_rows=...).
     """
     try:
-        from builder.data.prepare import prepare_dataset
+        from relspan.data.prepare import prepare_dataset
         import pyarrow.csv as pacsv
     except Exception as exc:  # the pipeline piece is not there yet
-        return Outcome("ingest", False, note=f"needs builder.data.prepare.prepare_dataset ({exc})")
+        return Outcome("ingest", False, note=f"needs relspan.data.prepare.prepare_dataset ({exc})")
     path = work / "ingest.csv"
     size = _write_csv(path, rows)
     try:
@@ -321,7 +321,7 @@ _RSS_CHILD = textwrap.dedent("""
         sys.argv = sys.argv[:1]
         from pathlib import Path
         from benchmarks.bench_scale import _dataset_spec
-        from builder.data.prepare import prepare_dataset
+        from relspan.data.prepare import prepare_dataset
         ds, plans = _dataset_spec(Path(path), width=width, step=step)
         out = prepare_dataset(ds, plans)
         held = out.plan("rolling").moments
@@ -333,7 +333,7 @@ _RSS_CHILD = textwrap.dedent("""
         import pyarrow.csv as pacsv
         extra = {"rows": pacsv.read_csv(path).num_rows}
     else:
-        import builder.data.prepare, pyarrow.csv  # interpreter + imports only
+        import relspan.data.prepare, pyarrow.csv  # interpreter + imports only
         extra = {}
     extra["seconds"] = time.perf_counter() - t0
     # VmHWM: peak RSS of this process image. (ru_maxrss is not used: on Linux it keeps the
@@ -357,12 +357,12 @@ def bench_peak_rss(work: Path, target_bytes: float) -> Outcome:
 
     Each run is a fresh process; peak RSS is its VmHWM. Memory independent of
     the number of rows shows as (almost) the same peak for both files.
-    Needs: builder.data.prepare.prepare_dataset streaming in chunks.
+    Needs: relspan.data.prepare.prepare_dataset streaming in chunks.
     """
     try:
-        importlib.import_module("builder.data.prepare")
+        importlib.import_module("relspan.data.prepare")
     except Exception as exc:
-        return Outcome("peak_rss", False, note=f"needs builder.data.prepare ({exc})")
+        return Outcome("peak_rss", False, note=f"needs relspan.data.prepare ({exc})")
     big, small = work / "big.csv", work / "small.csv"
     probe = work / "probe.csv"
     per_row = _write_csv(probe, 20_000) / 20_000
@@ -429,7 +429,7 @@ site:
 
 
 def _bench_spec(work: Path, rows: int, n: int, width: int, step: int, starts: int = 8):
-    from builder.spec.loader import load_spec
+    from relspan.spec.loader import load_spec
 
     csv = work / "pipeline.csv"
     _write_csv(csv, rows, n=n)
@@ -470,11 +470,11 @@ def _results_equal(one, two) -> bool:
 def bench_rebuild(work: Path, rows: int) -> Outcome:
     """A cold analysis against a rebuild with every result in the cache.
 
-    Needs: builder.run.pipeline.run_analysis(spec, jobs=, use_cache=, cache_dir=, progress=)
-    and builder.spec.loader.load_spec.
+    Needs: relspan.run.pipeline.run_analysis(spec, jobs=, use_cache=, cache_dir=, progress=)
+    and relspan.spec.loader.load_spec.
     """
     try:
-        from builder.run.pipeline import run_analysis
+        from relspan.run.pipeline import run_analysis
         spec = _bench_spec(work, rows, n=4, width=2000, step=1000)
         cache = work / "cache"
         shutil.rmtree(cache, ignore_errors=True)
@@ -495,11 +495,11 @@ def bench_rebuild(work: Path, rows: int) -> Outcome:
 def bench_dask(work: Path, rows: int, repeats: int = DASK_REPEATS) -> Outcome:
     """One process against two Dask worker processes on this machine, same spec.
 
-    Needs: builder.run.pipeline.run_analysis(spec, jobs=, scheduler=, use_cache=, progress=).
+    Needs: relspan.run.pipeline.run_analysis(spec, jobs=, scheduler=, use_cache=, progress=).
     """
     try:
         from distributed import LocalCluster
-        from builder.run.pipeline import run_analysis
+        from relspan.run.pipeline import run_analysis
         width = max(40, rows // 100)
         spec = _bench_spec(work, rows, n=4, width=width, step=width // 2, starts=DASK_STARTS)
         runs: list[dict] = []
@@ -509,7 +509,7 @@ def bench_dask(work: Path, rows: int, repeats: int = DASK_REPEATS) -> Outcome:
             from distributed import Client
             with Client(cluster.scheduler_address, set_as_default=False) as client:
                 # warm-up: each worker imports the analysis code once, outside the timing
-                client.run(importlib.import_module, "builder.analysis.window")
+                client.run(importlib.import_module, "relspan.analysis.window")
             for _ in range(repeats):  # interleaved: each pair sees about the same load
                 load = _load()
                 t0 = time.perf_counter()

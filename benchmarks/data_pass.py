@@ -22,8 +22,8 @@ import pandas as pd
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests" / "data"))
 
-from builder.data import prepare_dataset  # noqa: E402
-from builder.spec.model import DatasetSpec, Span, TimeSpec, VariableSpec, WindowPlanSpec  # noqa: E402
+from relspan.data import prepare_dataset  # noqa: E402
+from relspan.spec.model import DatasetSpec, Span, TimeSpec, VariableSpec, WindowPlanSpec  # noqa: E402
 
 
 def write_csv(path: Path, rows: int, seed: int = 42) -> None:

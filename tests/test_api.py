@@ -15,8 +15,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-import builder
-from builder.errors import DataError, OptionsError, SpecError
+import relspan
+from relspan.errors import DataError, OptionsError, SpecError
 
 ROOT = Path(__file__).resolve().parents[1]
 SPECS = ROOT / "specs"
@@ -28,8 +28,8 @@ TRIO_ASSUMPTIONS = ["elementary", "equal", "bounded", "diagonal"]  # as specs/de
 
 @pytest.fixture(scope="module")
 def demo_check():
-    """builder.check on the demo (serial, no cache): the reference for analyse_frame."""
-    return builder.check(DEMO, jobs=1, use_cache=False)
+    """relspan.check on the demo (serial, no cache): the reference for analyse_frame."""
+    return relspan.check(DEMO, jobs=1, use_cache=False)
 
 
 @pytest.fixture(scope="module")
@@ -40,7 +40,7 @@ def trio_frame() -> pd.DataFrame:
 @pytest.fixture(scope="module")
 def trio_analysis(trio_frame):
     # the demo's trio set-up: ten-year windows every two years are 40 and 8 quarterly rows
-    return builder.analyse_frame(trio_frame, columns=TRIO_COLUMNS, time="quarter", rolling=40, step=8,
+    return relspan.analyse_frame(trio_frame, columns=TRIO_COLUMNS, time="quarter", rolling=40, step=8,
                                  assumptions=TRIO_ASSUMPTIONS, normalise_on="cargo")
 
 
@@ -48,7 +48,7 @@ def trio_analysis(trio_frame):
 
 
 def test_load_spec_returns_the_validated_demo():
-    spec = builder.load_spec(DEMO)
+    spec = relspan.load_spec(DEMO)
     assert [d.id for d in spec.datasets] == ["trio", "accounts", "shift"]
     assert len(spec.claims) == 5
     assert spec.dataset("accounts").noise_shape == (0.4093, 0.81, 0.49, 1.44)
@@ -60,7 +60,7 @@ def test_load_spec_raises_a_located_spec_error_with_its_fields(tmp_path):
     bad.write_text(DEMO.read_text(encoding="utf-8").replace("  seed: 0\n", "  sead: 0\n"),
                    encoding="utf-8")
     with pytest.raises(SpecError, match=r"unknown key checks\.sead; did you mean 'seed'\?") as info:
-        builder.load_spec(bad)
+        relspan.load_spec(bad)
     assert info.value.line is not None and info.value.line > 100
     assert "seed" in (info.value.fix or "")
 
@@ -71,7 +71,7 @@ def test_load_spec_raises_a_located_spec_error_with_its_fields(tmp_path):
 def test_check_returns_an_outcome_with_every_demo_claim_holding_and_no_site(demo_check):
     assert demo_check.all_claims_hold
     assert demo_check.out_dir is None
-    assert [v.claim.id for v in demo_check.run.verdicts] == [c.id for c in builder.load_spec(DEMO).claims]
+    assert [v.claim.id for v in demo_check.run.verdicts] == [c.id for c in relspan.load_spec(DEMO).claims]
     table = demo_check.verdict_table()
     assert table.count("HOLDS") == 5
     assert "5 of 5 claim(s) hold" in table
@@ -83,7 +83,7 @@ def test_check_does_not_create_a_cache_folder(tmp_path):
     shutil.copy2(SPECS / "data" / "shift.csv", folder / "data" / "shift.csv")
     spec = folder / "fares.yaml"
     spec.write_text(_SMALL_SPEC, encoding="utf-8")
-    outcome = builder.check(spec, jobs=1)
+    outcome = relspan.check(spec, jobs=1)
     assert outcome.all_claims_hold
     assert sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")) == [
         "data", "data/shift.csv", "fares.yaml"]
@@ -135,7 +135,7 @@ def small_build(tmp_path_factory):
     shutil.copy2(SPECS / "data" / "shift.csv", folder / "data" / "shift.csv")
     spec = folder / "fares.yaml"
     spec.write_text(_SMALL_SPEC, encoding="utf-8")
-    outcome = builder.build(spec, jobs=1, cache_dir=folder / "cache")
+    outcome = relspan.build(spec, jobs=1, cache_dir=folder / "cache")
     return spec, outcome
 
 
@@ -151,17 +151,17 @@ def test_build_writes_the_site_to_site_out_beside_the_spec(small_build):
 def test_build_again_from_the_cache_gives_the_same_bytes(small_build):
     spec, first = small_build
     before = {p: p.read_bytes() for p in first.out_dir.rglob("*") if p.is_file()}
-    again = builder.build(spec, jobs=1, cache_dir=spec.parent / "cache")
+    again = relspan.build(spec, jobs=1, cache_dir=spec.parent / "cache")
     assert again.run.cache_hits == 1 and again.run.cache_misses == 0
     assert {p: p.read_bytes() for p in again.out_dir.rglob("*") if p.is_file()} == before
 
 
 def test_build_into_the_spec_folder_raises_before_analysing(small_build):
     spec, _ = small_build
-    from builder.errors import OutputError
+    from relspan.errors import OutputError
 
     with pytest.raises(OutputError):
-        builder.build(spec, out=spec.parent, jobs=1, use_cache=False)
+        relspan.build(spec, out=spec.parent, jobs=1, use_cache=False)
 
 
 # ----------------------------------------------------------- analyse_frame
@@ -214,18 +214,18 @@ def test_analyse_frame_shows_as_an_html_table_in_a_notebook(trio_analysis):
 def test_analyse_frame_names_a_missing_column_and_the_columns_that_exist(trio_frame):
     with pytest.raises(OptionsError, match=r"columns \['seaweed'\] are not in the DataFrame; it has "
                                            r"\['quarter', 'cargo', 'rail', 'customs', 'kelp'\]"):
-        builder.analyse_frame(trio_frame, columns=["cargo", "seaweed"])
+        relspan.analyse_frame(trio_frame, columns=["cargo", "seaweed"])
 
 
 def test_analyse_frame_names_the_first_non_numeric_row(trio_frame):
     frame = trio_frame.astype({"rail": object}).copy()
     frame.loc[6, "rail"] = "about 700"
     with pytest.raises(DataError, match=r"column 'rail', row 7: 'about 700' is not a number"):
-        builder.analyse_frame(frame, columns=TRIO_COLUMNS, time="quarter")
+        relspan.analyse_frame(frame, columns=TRIO_COLUMNS, time="quarter")
 
 
 def test_analyse_frame_without_time_uses_row_windows(trio_frame):
-    result = builder.analyse_frame(trio_frame[TRIO_COLUMNS], columns=TRIO_COLUMNS, rolling=40, step=8,
+    result = relspan.analyse_frame(trio_frame[TRIO_COLUMNS], columns=TRIO_COLUMNS, rolling=40, step=8,
                                    assumptions=["equal"])
     windows = result.windows_frame()
     assert list(windows.loc[windows["plan"] == "rolling", "window"])[:2] == ["rows 1–40", "rows 9–48"]

@@ -408,19 +408,19 @@ class TestDemoSpec:
 
 @pytest.fixture(scope="module")
 def load_spec():
-    """``builder.spec.load_spec``; skips while the loader is still being written."""
+    """``relspan.spec.load_spec``; skips while the loader is still being written."""
     try:
-        import builder.spec
+        import relspan.spec
     except ImportError as err:  # the spec package is mid-way through being written
-        pytest.skip(f"builder.spec does not import yet: {err}")
-    fn = getattr(builder.spec, "load_spec", None)
+        pytest.skip(f"relspan.spec does not import yet: {err}")
+    fn = getattr(relspan.spec, "load_spec", None)
     if fn is None:
-        pytest.skip("builder.spec.load_spec is not written yet")
+        pytest.skip("relspan.spec.load_spec is not written yet")
     return fn
 
 
 class TestSpecLoader:
-    """Once builder.spec.load_spec exists, the demo and the fixture must load with it."""
+    """Once relspan.spec.load_spec exists, the demo and the fixture must load with it."""
 
     def test_demo_spec_loads_with_three_datasets_and_resolved_paths(self, load_spec):
         spec = load_spec(DEMO)

@@ -1,9 +1,9 @@
 """The demo built end to end in a temporary folder: content, accessibility basics, determinism, cache.
 
 The numbers on the pages are checked against an independent analysis of the
-same spec (:func:`builder.run.pipeline.run_analysis`, serial, no cache),
+same spec (:func:`relspan.run.pipeline.run_analysis`, serial, no cache),
 formatted here by this test, not by the report code. Builds run as separate
-processes (``python -m builder build``) so hash seeds and executors really
+processes (``python -m relspan build``) so hash seeds and executors really
 differ between them.
 
 Outside references: JSON Schema validation with the ``jsonschema`` reference
@@ -30,7 +30,7 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 SPECS = ROOT / "specs"
-RESULTS_SCHEMA = ROOT / "builder" / "report" / "results.schema.json"
+RESULTS_SCHEMA = ROOT / "builder" / "relspan" / "report" / "results.schema.json"
 MARKER = ".relspan-site"
 
 pytestmark = pytest.mark.slow  # four cold builds of the demo (about a minute each on 2 cores)
@@ -48,7 +48,7 @@ def copy_specs(folder: Path) -> Path:
 def build(spec: Path, out: Path, *extra: str, hashseed: str = "0") -> subprocess.CompletedProcess:
     env = {**os.environ, "PYTHONHASHSEED": hashseed}
     env.pop("RELSPAN_DEBUG", None)
-    done = subprocess.run([sys.executable, "-m", "builder", "build", str(spec), "--out", str(out), "-q",
+    done = subprocess.run([sys.executable, "-m", "relspan", "build", str(spec), "--out", str(out), "-q",
                            *extra], cwd=spec.parent, env=env, capture_output=True, text=True, timeout=1800)
     assert done.returncode == 0, done.stderr
     return done
@@ -196,8 +196,8 @@ def site_c(tree) -> Path:
 @pytest.fixture(scope="module")
 def fresh_run(tree):
     """The numbers the pages must show, from an independent serial analysis."""
-    from builder.run.pipeline import run_analysis
-    from builder.spec import load_spec
+    from relspan.run.pipeline import run_analysis
+    from relspan.spec import load_spec
 
     return run_analysis(load_spec(tree), jobs=1, use_cache=False, progress=False)
 
@@ -221,7 +221,7 @@ def _side_by_side(page: _Page, names: list[str]) -> tuple[int, dict[str, list[st
 
 
 def test_dataset_pages_show_the_full_sample_corank_of_every_assumption(site_a, fresh_run):
-    from builder.report.text import ASSUMPTION_PLAIN
+    from relspan.report.text import ASSUMPTION_PLAIN
 
     site, _ = site_a
     names = [v[0] for v in ASSUMPTION_PLAIN.values()]
@@ -390,20 +390,20 @@ def test_serial_and_two_process_builds_give_identical_bytes(site_a, site_c):
 
 
 def test_a_second_build_is_served_from_the_cache_and_byte_identical(site_a, tree):
-    import builder
+    import relspan
 
     site, cache = site_a
     entries = cache_entries(cache)
     assert entries, "the cold build stored nothing in its cache"
     out = tree.parent.parent / "site-warm"
-    outcome = builder.build(tree, out=out, jobs=1, cache_dir=cache)
+    outcome = relspan.build(tree, out=out, jobs=1, cache_dir=cache)
     assert (outcome.run.cache_hits, outcome.run.cache_misses) == (3, 0)
     assert cache_entries(cache) == entries  # no figure was drawn again either
     assert not differing(digests(site), digests(out))
 
 
 def test_changing_one_csv_recomputes_only_that_dataset(site_a, tree, tmp_path):
-    import builder
+    import relspan
 
     site, cache = site_a
     changed = copy_specs(tmp_path / "specs")
@@ -414,10 +414,10 @@ def test_changing_one_csv_recomputes_only_that_dataset(site_a, tree, tmp_path):
     lines[10] = ",".join(cells)
     csv.write_text("\n".join(lines) + "\n", encoding="utf-8")
 
-    before = builder.check(tree, jobs=1, cache_dir=cache)
+    before = relspan.check(tree, jobs=1, cache_dir=cache)
     entries = cache_entries(cache)
     out = tmp_path / "site-changed"
-    outcome = builder.build(changed, out=out, jobs=1, cache_dir=cache)
+    outcome = relspan.build(changed, out=out, jobs=1, cache_dir=cache)
     assert (outcome.run.cache_hits, outcome.run.cache_misses) == (2, 1)
     for ds in ("trio", "shift"):
         assert outcome.run.dataset(ds).cache_key == before.run.dataset(ds).cache_key

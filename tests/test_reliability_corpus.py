@@ -1,7 +1,7 @@
 """The bad-input corpus (tests/corpus/*/case.yaml) through the real command line.
 
 Every case is a small project (spec and/or data) that a user could plausibly
-write. Each runs as ``python -m builder COMMAND SPEC ...`` in a temporary copy
+write. Each runs as ``python -m relspan COMMAND SPEC ...`` in a temporary copy
 and must end with exit code 2, one located paragraph on stderr (the message and
 a ``Fix:`` line, never a traceback) holding the case's message fragment, and
 nothing written: the copy is byte-identical afterwards, including a previous

@@ -1,7 +1,7 @@
-"""End-to-end fuzzing: random small specs and random small tables through ``builder.api.check``.
+"""End-to-end fuzzing: random small specs and random small tables through ``relspan.api.check``.
 
-Whatever a user writes, ``check`` either returns an :class:`~builder.api.Outcome`
-or raises one of our :class:`~builder.errors.RelspanError` subclasses (which the
+Whatever a user writes, ``check`` either returns an :class:`~relspan.api.Outcome`
+or raises one of our :class:`~relspan.errors.RelspanError` subclasses (which the
 command line turns into exit code 2); any other exception is a bug. The spec
 loader and the data readers are fuzzed on their own in tests/spec and
 tests/data; this test drives the whole pipeline, analysis and claims included.
@@ -19,9 +19,9 @@ import yaml
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from builder.api import Outcome, check
-from builder.errors import RelspanError, RelspanWarning
-from builder.spec.model import ASSUMPTIONS, CLAIM_KINDS, TRANSFORMS
+from relspan.api import Outcome, check
+from relspan.errors import RelspanError, RelspanWarning
+from relspan.spec.model import ASSUMPTIONS, CLAIM_KINDS, TRANSFORMS
 
 COLUMN_NAMES = ["a", "b", "c", "d", "x y", "Größe", "数量", "a,b", "", "year"]
 

@@ -80,8 +80,8 @@ def built(project):
 
 @pytest.fixture(scope="module")
 def datasets(project):
-    """The analysis of every case, through the library (builder.check), by dataset id."""
-    from builder.api import check
+    """The analysis of every case, through the library (relspan.check), by dataset id."""
+    from relspan.api import check
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")

@@ -16,7 +16,7 @@ from pathlib import Path
 
 import pytest
 
-from builder.site.links import check_site
+from relspan.site.links import check_site
 
 ROOT = Path(__file__).resolve().parents[1]
 SITE_DEMO = ROOT / "site_demo"
@@ -41,7 +41,7 @@ def rebuilt(tmp_path_factory) -> dict[str, str]:
     out = tmp_path_factory.mktemp("site-demo") / "site"
     env = {**os.environ, "PYTHONHASHSEED": "0"}
     env.pop("RELSPAN_DEBUG", None)
-    done = subprocess.run([sys.executable, "-m", "builder", "build", str(DEMO), "--out", str(out),
+    done = subprocess.run([sys.executable, "-m", "relspan", "build", str(DEMO), "--out", str(out),
                            "--no-cache", "--jobs", "1", "-q"], cwd=ROOT, env=env, capture_output=True,
                           text=True, timeout=1800)
     assert done.returncode == 0, done.stderr

@@ -1,14 +1,14 @@
-"""builder.analysis.batched: window statistics vectorised over the window axis."""
+"""relspan.analysis.batched: window statistics vectorised over the window axis."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from builder.analysis.batched import (
+from relspan.analysis.batched import (
     batched_correlations, batched_covariances, batched_eigh, batched_elementary_regressions,
     merge_window_runs, stacked_block_moments)
-from builder.analysis.moments import batched_window_moments, moments_of
+from relspan.analysis.moments import batched_window_moments, moments_of
 
 
 def _series(t=2000, n=5, seed=0):

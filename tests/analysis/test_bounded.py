@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.bounded (noise of bounded spectral norm)."""
+"""Tests of relspan.analysis.bounded (noise of bounded spectral norm)."""
 
 from __future__ import annotations
 
@@ -8,9 +8,9 @@ import math
 import numpy as np
 import pytest
 
-from builder.analysis.bounded import bounded_noise, tolerance_eps
-from builder.analysis.stability import principal_angles
-from builder.errors import OptionsError
+from relspan.analysis.bounded import bounded_noise, tolerance_eps
+from relspan.analysis.stability import principal_angles
+from relspan.errors import OptionsError
 
 
 def _corank_matrix(rng, n: int, q: int, low: float = 1.0, high: float = 3.0):

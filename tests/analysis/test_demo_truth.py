@@ -2,7 +2,7 @@
 
 The demo is invented (specs/generate_demo.py, seed 58); its true relations and
 a few design measurements made by the generator with plain numpy are recorded
-in truth.json. Here the whole pipeline (:func:`builder.run.pipeline.run_analysis`
+in truth.json. Here the whole pipeline (:func:`relspan.run.pipeline.run_analysis`
 on specs/demo.yaml, serial, no cache) must come out as that truth says.
 
 Independent pieces used beside relspan's results:
@@ -26,8 +26,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from builder.run.pipeline import run_analysis
-from builder.spec import load_spec
+from relspan.run.pipeline import run_analysis
+from relspan.spec import load_spec
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "specs" / "demo.yaml"

@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.elementary (elementary regressions)."""
+"""Tests of relspan.analysis.elementary (elementary regressions)."""
 
 from __future__ import annotations
 
@@ -8,9 +8,9 @@ import warnings
 import numpy as np
 import pytest
 
-from builder.analysis.elementary import choose_reference, elementary_regressions
-from builder.analysis.moments import MomentTree, merge_all, moments_of
-from builder.errors import IllConditionedWarning, OptionsError
+from relspan.analysis.elementary import choose_reference, elementary_regressions
+from relspan.analysis.moments import MomentTree, merge_all, moments_of
+from relspan.errors import IllConditionedWarning, OptionsError
 
 sm = pytest.importorskip("statsmodels.api")
 

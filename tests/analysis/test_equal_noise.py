@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.equal_noise (total least squares, known noise shape)."""
+"""Tests of relspan.analysis.equal_noise (total least squares, known noise shape)."""
 
 from __future__ import annotations
 
@@ -9,9 +9,9 @@ import numpy as np
 import pytest
 import scipy.linalg as sla
 
-from builder.analysis.equal_noise import equal_noise
-from builder.analysis.stability import principal_angles
-from builder.errors import OptionsError
+from relspan.analysis.equal_noise import equal_noise
+from relspan.analysis.stability import principal_angles
+from relspan.errors import OptionsError
 
 
 def _factor_data(seed: int, *, t: int, n: int, q: int, noise_share: float):

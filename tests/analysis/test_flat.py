@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.flat (the flat of elementary regressions)."""
+"""Tests of relspan.analysis.flat (the flat of elementary regressions)."""
 
 from __future__ import annotations
 
@@ -7,10 +7,10 @@ import json
 import numpy as np
 import pytest
 
-from builder.analysis.elementary import choose_reference, elementary_regressions
-from builder.analysis.flat import elementary_flat
-from builder.analysis.stability import principal_angles
-from builder.errors import OptionsError
+from relspan.analysis.elementary import choose_reference, elementary_regressions
+from relspan.analysis.flat import elementary_flat
+from relspan.analysis.stability import principal_angles
+from relspan.errors import OptionsError
 
 
 def _population_cov(seed: int, n: int, q: int, noise: float):

@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.frisch (diagonal noise: the Frisch scheme).
+"""Tests of relspan.analysis.frisch (diagonal noise: the Frisch scheme).
 
 Every check against the outside world names its source beside it. Known
 structures are built here from seeded generators and must come back.
@@ -14,7 +14,7 @@ import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from builder.analysis.frisch import (
+from relspan.analysis.frisch import (
     FrischResult,
     _principal_angles_deg,
     frisch_analysis,
@@ -27,7 +27,7 @@ from builder.analysis.frisch import (
     solution_spread,
     triad,
 )
-from builder.errors import DataError, OptionsError
+from relspan.errors import DataError, OptionsError
 
 
 # --------------------------------------------------------------------------

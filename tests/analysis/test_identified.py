@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.identified (what a relation subspace pins down)."""
+"""Tests of relspan.analysis.identified (what a relation subspace pins down)."""
 
 from __future__ import annotations
 
@@ -11,8 +11,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
-from builder.analysis.identified import identified_quantities
-from builder.errors import OptionsError
+from relspan.analysis.identified import identified_quantities
+from relspan.errors import OptionsError
 
 NAMES = list("abcde")
 

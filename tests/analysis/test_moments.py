@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.moments (mergeable window statistics)."""
+"""Tests of relspan.analysis.moments (mergeable window statistics)."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
-from builder.analysis.moments import MomentTree, batched_window_moments, empty, merge, merge_all, moments_of
+from relspan.analysis.moments import MomentTree, batched_window_moments, empty, merge, merge_all, moments_of
 
 
 def _rows(seed: int, t: int = 60, n: int = 3) -> np.ndarray:

@@ -1,4 +1,4 @@
-"""Tests of builder.analysis.stability (principal angles, window stability, swings, coranks)."""
+"""Tests of relspan.analysis.stability (principal angles, window stability, swings, coranks)."""
 
 from __future__ import annotations
 
@@ -11,10 +11,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
-from builder.analysis.equal_noise import equal_noise
-from builder.analysis.stability import (coefficient_swing, corank_sequence, principal_angles,
+from relspan.analysis.equal_noise import equal_noise
+from relspan.analysis.stability import (coefficient_swing, corank_sequence, principal_angles,
                                         subspace_stability)
-from builder.errors import OptionsError
+from relspan.errors import OptionsError
 
 
 class TestPrincipalAngles:

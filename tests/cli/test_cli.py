@@ -1,8 +1,8 @@
 """The ``relspan`` command line end to end: exit codes, printed output, pinned error wording.
 
-Most cases call :func:`builder.cli.main` in this process (quick); the ones
+Most cases call :func:`relspan.cli.main` in this process (quick); the ones
 that concern the program as a whole (``--version``, exit codes of the real
-process, ``serve``, the failing build) start ``python -m builder`` in a
+process, ``serve``, the failing build) start ``python -m relspan`` in a
 subprocess. Every case works on a copy of the demo in a temporary folder, so
 the repository is never written to.
 
@@ -25,8 +25,8 @@ from pathlib import Path
 import pytest
 import yaml
 
-from builder import __version__
-from builder.cli import main
+from relspan import __version__
+from relspan.cli import main
 
 ROOT = Path(__file__).resolve().parents[2]
 SPECS = ROOT / "specs"
@@ -42,15 +42,15 @@ SUBCOMMANDS = ("build", "check", "serve", "new", "schema")
 
 
 def run_cli(*args: str, cwd: Path = ROOT, timeout: float = 900, **env: str) -> subprocess.CompletedProcess:
-    """``python -m builder ARGS`` in a subprocess, text output captured."""
+    """``python -m relspan ARGS`` in a subprocess, text output captured."""
     full_env = {**os.environ, **env}
     full_env.pop("RELSPAN_DEBUG", None)
-    return subprocess.run([sys.executable, "-m", "builder", *args], cwd=cwd, env=full_env,
+    return subprocess.run([sys.executable, "-m", "relspan", *args], cwd=cwd, env=full_env,
                           capture_output=True, text=True, timeout=timeout)
 
 
 def call_main(args: list[str], capsys) -> tuple[int, str, str]:
-    """:func:`builder.cli.main` in this process; returns (exit code, stdout, stderr)."""
+    """:func:`relspan.cli.main` in this process; returns (exit code, stdout, stderr)."""
     capsys.readouterr()
     try:
         code = main(args)
@@ -350,7 +350,7 @@ def test_schema_rejects_a_spec_with_an_unknown_key(capsys):
 def test_serve_serves_a_built_folder_on_localhost_until_terminated():
     if not (SITE_DEMO / "index.html").is_file():
         pytest.skip("site_demo/ is not built (relspan build specs/demo.yaml --no-cache)")
-    proc = subprocess.Popen([sys.executable, "-m", "builder", "serve", str(SITE_DEMO), "--port", "0"],
+    proc = subprocess.Popen([sys.executable, "-m", "relspan", "serve", str(SITE_DEMO), "--port", "0"],
                             cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     try:
         line = proc.stderr.readline()

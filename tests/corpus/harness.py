@@ -29,12 +29,12 @@ def cli_env() -> dict[str, str]:
 
 
 def cli_command(*args: str) -> list[str]:
-    """``python -m builder ARGS`` with the interpreter running the tests."""
-    return [sys.executable, "-m", "builder", *args]
+    """``python -m relspan ARGS`` with the interpreter running the tests."""
+    return [sys.executable, "-m", "relspan", *args]
 
 
 def run_cli(*args: str, cwd: Path, timeout: float = 600) -> subprocess.CompletedProcess:
-    """Run ``python -m builder ARGS`` in ``cwd`` and capture its text output."""
+    """Run ``python -m relspan ARGS`` in ``cwd`` and capture its text output."""
     return subprocess.run(cli_command(*args), cwd=cwd, capture_output=True, text=True,
                           timeout=timeout, env=cli_env())
 

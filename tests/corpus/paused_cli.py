@@ -2,7 +2,7 @@
 
     python tests/corpus/paused_cli.py FLAG AFTER_FILES -- build spec.yaml --jobs 1 ...
 
-Runs :func:`builder.cli.main` unchanged except that :func:`builder.site.writer.write_site`
+Runs :func:`relspan.cli.main` unchanged except that :func:`relspan.site.writer.write_site`
 gets its test hook (``_after_each_file``): after AFTER_FILES files of the new site are
 written into the writer's temporary folder, the hook writes FLAG (a file the test waits
 for) and sleeps, so the test can kill or interrupt the build at exactly that point.
@@ -19,9 +19,9 @@ def main(argv: list[str]) -> int:
     flag, after, sep, *cli_args = argv
     if sep != "--":
         raise SystemExit("usage: paused_cli.py FLAG AFTER_FILES -- RELSPAN ARGS")
-    import builder.site
-    import builder.site.writer as writer
-    from builder.cli import main as cli_main
+    import relspan.site
+    import relspan.site.writer as writer
+    from relspan.cli import main as cli_main
 
     real = writer.write_site
     count = [0]
@@ -36,7 +36,7 @@ def main(argv: list[str]) -> int:
         return real(files, out_dir, _after_each_file=hook, **kwargs)
 
     writer.write_site = paused
-    builder.site.write_site = paused
+    relspan.site.write_site = paused
     return cli_main(cli_args)
 
 

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from builder.spec.model import DatasetSpec, Span, TimeSpec, VariableSpec, WindowPlanSpec
+from relspan.spec.model import DatasetSpec, Span, TimeSpec, VariableSpec, WindowPlanSpec
 
 FULL = WindowPlanSpec("full", "full")
 

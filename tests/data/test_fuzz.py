@@ -8,9 +8,9 @@ from pathlib import Path
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from builder.data import PreparedDataset, prepare_dataset
-from builder.errors import DataError
-from builder.spec.model import TimeSpec
+from relspan.data import PreparedDataset, prepare_dataset
+from relspan.errors import DataError
+from relspan.spec.model import TimeSpec
 
 from data_helpers import FULL, make_spec, rolling
 

@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.data import prepare_dataset
+from relspan.data import prepare_dataset
 
 from data_helpers import FULL, make_spec, rolling
 

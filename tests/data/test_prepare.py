@@ -8,10 +8,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.analysis.moments import moments_of
-from builder.data import prepare_dataset, prepare_frame, window_moments
-from builder.errors import OptionsError
-from builder.spec.model import Period, WindowPlanSpec
+from relspan.analysis.moments import moments_of
+from relspan.data import prepare_dataset, prepare_frame, window_moments
+from relspan.errors import OptionsError
+from relspan.spec.model import Period, WindowPlanSpec
 
 from data_helpers import FULL, make_spec, rolling
 

@@ -14,11 +14,11 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.data import prepare_dataset, window_moments
-from builder.data.prepare import StackedMoments
-from builder.data.sources import FastPathDeclined
-from builder.data.windows import Window, WindowTable
-from builder.errors import DataError
+from relspan.data import prepare_dataset, window_moments
+from relspan.data.prepare import StackedMoments
+from relspan.data.sources import FastPathDeclined
+from relspan.data.windows import Window, WindowTable
+from relspan.errors import DataError
 
 from data_helpers import FULL, make_spec, rolling
 

@@ -8,8 +8,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.data import prepare_dataset
-from builder.errors import DataError, DependencyError
+from relspan.data import prepare_dataset
+from relspan.errors import DataError, DependencyError
 
 from data_helpers import FULL, make_spec
 

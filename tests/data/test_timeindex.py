@@ -6,9 +6,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.data import prepare_dataset
-from builder.errors import DataError
-from builder.spec.model import TimeSpec
+from relspan.data import prepare_dataset
+from relspan.errors import DataError
+from relspan.spec.model import TimeSpec
 
 from data_helpers import FULL, make_spec
 

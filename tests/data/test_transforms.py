@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.data import prepare_dataset, prepare_frame
-from builder.errors import DataError
+from relspan.data import prepare_dataset, prepare_frame
+from relspan.errors import DataError
 
 from data_helpers import FULL, make_spec, rolling
 

@@ -6,10 +6,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.analysis.moments import MomentTree
-from builder.data import assemble, prepare_frame
-from builder.errors import DataError
-from builder.spec.model import Period, WindowPlanSpec
+from relspan.analysis.moments import MomentTree
+from relspan.data import assemble, prepare_frame
+from relspan.errors import DataError
+from relspan.spec.model import Period, WindowPlanSpec
 
 from data_helpers import FULL, quarters, rolling
 

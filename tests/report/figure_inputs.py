@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from builder.report import (
+from relspan.report import (
     ElementaryMapData, coefficient_swing, corank_evidence, corank_timeline, data_overview,
     elementary_map, frisch_intervals, subspace_stability, window_gallery,
 )
@@ -111,7 +111,7 @@ def _kw(m: ElementaryMapData) -> dict:
 if __name__ == "__main__":  # used by the PYTHONHASHSEED test: print one hash per rendering
     import hashlib
 
-    from builder.report import render_figure, table_csv
+    from relspan.report import render_figure, table_csv
 
     for key, res in build_all().items():
         for fmt in ("svg", "png"):

@@ -1,4 +1,4 @@
-"""Tests of builder.report figures: contract, numbers in words, tables, determinism, style."""
+"""Tests of relspan.report figures: contract, numbers in words, tables, determinism, style."""
 
 from __future__ import annotations
 
@@ -15,13 +15,13 @@ import pandas as pd
 import pytest
 from matplotlib import pyplot as plt
 
-from builder.errors import OptionsError
-from builder.report import (
+from relspan.errors import OptionsError
+from relspan.report import (
     ElementaryMapData, FigureResult, coefficient_swing, corank_evidence, corank_timeline,
     data_overview, elementary_map, frisch_intervals, render_figure, subspace_stability, table_csv,
     window_gallery,
 )
-from builder.report.figure_base import PALETTE, SEQUENTIAL, angle_text, num, styles_for
+from relspan.report.figure_base import PALETTE, SEQUENTIAL, angle_text, num, styles_for
 
 sys.path.insert(0, str(Path(__file__).parent))
 import figure_inputs as fi  # noqa: E402

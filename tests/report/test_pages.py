@@ -23,7 +23,7 @@ SPEC = ROOT / "specs" / "demo.yaml"
 def site(tmp_path_factory):
     import warnings
 
-    from builder.api import build
+    from relspan.api import build
 
     out = tmp_path_factory.mktemp("report") / "site"
     with warnings.catch_warnings():
@@ -115,7 +115,7 @@ def test_each_dataset_results_json_validates_against_the_dataset_definition(site
 
 
 def test_docs_results_names_every_top_level_and_dataset_key_of_the_schema():
-    schema = json.loads((ROOT / "builder" / "report" / "results.schema.json").read_text(encoding="utf-8"))
+    schema = json.loads((ROOT / "builder" / "relspan" / "report" / "results.schema.json").read_text(encoding="utf-8"))
     doc = (ROOT / "docs" / "results.md").read_text(encoding="utf-8")
     keys = list(schema["properties"]) + list(schema["$defs"]["dataset"]["properties"])
     missing = [k for k in keys if f"`{k}`" not in doc]
@@ -125,7 +125,7 @@ def test_docs_results_names_every_top_level_and_dataset_key_of_the_schema():
 def test_shipped_schema_matches_the_source_schema(site):
     out, _ = site
     assert (out / "data/results.schema.json").read_bytes() == \
-        (ROOT / "builder" / "report" / "results.schema.json").read_bytes()
+        (ROOT / "builder" / "relspan" / "report" / "results.schema.json").read_bytes()
 
 
 # ------------------------------------------------------------------------------------ the numbers
@@ -258,9 +258,9 @@ def test_caution_page_carries_the_usual_cautions(site):
 # ------------------------------------------------------------------------------------ the methods
 
 def _code_references() -> list[tuple[str, str]]:
-    """(first author's surname, year) of every numbered reference in builder/analysis/*.py docstrings."""
+    """(first author's surname, year) of every numbered reference in builder/relspan/analysis/*.py docstrings."""
     refs = set()
-    for path in sorted((ROOT / "builder" / "analysis").glob("*.py")):
+    for path in sorted((ROOT / "builder" / "relspan" / "analysis").glob("*.py")):
         src = path.read_text(encoding="utf-8")
         for block in re.findall(r"\.\. \[\d+\]\s+(.*?)(?=\n\s*\.\. \[|\n\s*\n|\"\"\")", src, flags=re.S):
             block = " ".join(block.split())
@@ -279,7 +279,7 @@ def _code_references() -> list[tuple[str, str]]:
 
 
 def test_methods_page_cites_every_reference_the_analysis_code_cites():
-    from builder.report.text import REFERENCES
+    from relspan.report.text import REFERENCES
 
     refs = _code_references()
     assert len(refs) >= 20
@@ -290,7 +290,7 @@ def test_methods_page_cites_every_reference_the_analysis_code_cites():
 
 
 def test_methods_page_lists_every_reference_key_used(site):
-    from builder.report.text import METHODS, REFERENCES
+    from relspan.report.text import METHODS, REFERENCES
 
     out, _ = site
     text = _text(_main(_read(out, "methods.html")))
@@ -316,7 +316,7 @@ def test_methods_page_formulas_are_local_images_with_alt_text(site):
 # ---------------------------------------------------------------------------------- home and pages
 
 def test_home_first_screen_says_what_each_dataset_pins_down_and_leaves_open(site):
-    from builder.report.pages import plain_summary
+    from relspan.report.pages import plain_summary
 
     out, run = site
     main = _main(_read(out, "index.html"))
@@ -329,7 +329,7 @@ def test_home_first_screen_says_what_each_dataset_pins_down_and_leaves_open(site
 
 
 def test_home_cards_carry_each_dataset_pinned_and_open_findings_with_evidence(site):
-    from builder.report.pages import plain_summary
+    from relspan.report.pages import plain_summary
 
     out, run = site
     main = _main(_read(out, "index.html"))

@@ -1,1 +1,1 @@
-"""Tests of builder.run (a package, so that worker processes can import tests.run._tasks helpers)."""
+"""Tests of relspan.run (a package, so that worker processes can import tests.run._tasks helpers)."""

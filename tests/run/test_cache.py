@@ -1,4 +1,4 @@
-"""builder.run.cache: content keys and the on-disk result cache."""
+"""relspan.run.cache: content keys and the on-disk result cache."""
 
 from __future__ import annotations
 
@@ -13,9 +13,9 @@ from pathlib import Path, PurePosixPath
 import numpy as np
 import pytest
 
-from builder.errors import OutputError, RelspanWarning
-from builder.run import cache as cache_module
-from builder.run.cache import ResultCache, canonical_json, task_key
+from relspan.errors import OutputError, RelspanWarning
+from relspan.run import cache as cache_module
+from relspan.run.cache import ResultCache, canonical_json, task_key
 
 KEY = task_key(task="demo", n=1)
 
@@ -84,7 +84,7 @@ class TestTaskKey:
 
     def test_is_the_same_in_other_processes_and_hash_seeds(self):
         code = textwrap.dedent("""
-            from builder.run.cache import task_key
+            from relspan.run.cache import task_key
             print(task_key(cols={"b", "a", "c", "d"}, spec={"z": 1.5, "a": [1, 2]}))
         """)
         keys = set()

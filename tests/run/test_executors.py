@@ -1,4 +1,4 @@
-"""builder.run.executors: one Executor interface for serial, process-pool and Dask runs."""
+"""relspan.run.executors: one Executor interface for serial, process-pool and Dask runs."""
 
 from __future__ import annotations
 
@@ -9,9 +9,9 @@ from pathlib import Path
 
 import pytest
 
-from builder.errors import DependencyError, OptionsError
-from builder.run import executors
-from builder.run.executors import (
+from relspan.errors import DependencyError, OptionsError
+from relspan.run import executors
+from relspan.run.executors import (
     SerialExecutor, auto_chunk_size, available_cores, map_in_chunks, open_executor, worker_count)
 
 from . import _tasks

@@ -13,10 +13,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-import builder.run.pipeline as pipeline
-from builder.api import where_tasks_run
-from builder.run.pipeline import run_analysis
-from builder.spec.loader import load_spec
+import relspan.run.pipeline as pipeline
+from relspan.api import where_tasks_run
+from relspan.run.pipeline import run_analysis
+from relspan.spec.loader import load_spec
 
 from . import _tasks
 
@@ -204,7 +204,7 @@ class TestRunSection:
         assert where_tasks_run(spec, None, "tcp://10.1.1.1:8786") == (None, "tcp://10.1.1.1:8786")
 
     def test_both_jobs_and_scheduler_in_the_spec_is_refused_with_line(self, tmp_path):
-        from builder.errors import SpecError
+        from relspan.errors import SpecError
 
         _write_data(tmp_path)
         path = _spec(tmp_path, run="run:\n  jobs: 2\n  scheduler: tcp://127.0.0.1:8786\n")
@@ -213,8 +213,8 @@ class TestRunSection:
             load_spec(path)
 
     def test_unreachable_scheduler_from_the_spec_is_a_clear_error(self, tmp_path):
-        from builder.api import check
-        from builder.errors import OptionsError
+        from relspan.api import check
+        from relspan.errors import OptionsError
 
         _write_data(tmp_path)
         import socket

@@ -1,4 +1,4 @@
-"""builder.run.progress: a one-line counter on terminals, silence elsewhere."""
+"""relspan.run.progress: a one-line counter on terminals, silence elsewhere."""
 
 from __future__ import annotations
 
@@ -7,7 +7,7 @@ import threading
 
 import pytest
 
-from builder.run.progress import Progress
+from relspan.run.progress import Progress
 
 
 class FakeTerminal(io.StringIO):

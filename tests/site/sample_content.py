@@ -12,10 +12,10 @@ from __future__ import annotations
 
 import json
 
-from builder.site import blocks
-from builder.site.content import NavItem, Page, SiteContent, SiteFile
-from builder.site.formulas import formula_image
-from builder.site.markdown import escape_cell, escape_text
+from relspan.site import blocks
+from relspan.site.content import NavItem, Page, SiteContent, SiteFile
+from relspan.site.formulas import formula_image
+from relspan.site.markdown import escape_cell, escape_text
 
 #: Hostile user text: every line must render literally and execute nothing.
 EVIL_TITLE = ('Fish & "Chips" <script>window.__relspanInjected=1</script> '

@@ -23,7 +23,7 @@ from urllib.parse import unquote, urlsplit
 
 import pytest
 
-from builder.site import render_site, write_site
+from relspan.site import render_site, write_site
 from sample_content import build_sample_content
 
 pytestmark = pytest.mark.browser

@@ -9,7 +9,7 @@ import subprocess
 import sys
 from pathlib import Path
 
-from builder.site import formula_svg, render_site
+from relspan.site import formula_svg, render_site
 from sample_content import build_sample_content
 
 _HERE = Path(__file__).resolve().parent
@@ -18,7 +18,7 @@ _SCRIPT = """
 import hashlib, json, sys
 sys.path.insert(0, sys.argv[1])
 from sample_content import build_sample_content
-from builder.site import render_site
+from relspan.site import render_site
 out = render_site(build_sample_content())
 print(json.dumps({p: hashlib.sha256(b).hexdigest() for p, b in out.items()}, sort_keys=True))
 """

@@ -1,4 +1,4 @@
-"""Tests of builder.site.formulas (matplotlib mathtext -> SVG)."""
+"""Tests of relspan.site.formulas (matplotlib mathtext -> SVG)."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import xml.etree.ElementTree as ET
 import matplotlib
 import pytest
 
-from builder.site import formula_image, formula_svg, render_markdown
+from relspan.site import formula_image, formula_svg, render_markdown
 from htmltools import parse
 
 _SVG = "{http://www.w3.org/2000/svg}"

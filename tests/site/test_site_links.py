@@ -1,10 +1,10 @@
-"""Tests of builder.site.links: the checker finds what breaks offline sites."""
+"""Tests of relspan.site.links: the checker finds what breaks offline sites."""
 
 from __future__ import annotations
 
 import pytest
 
-from builder.site import check_files, check_site, render_site, write_site
+from relspan.site import check_files, check_site, render_site, write_site
 from sample_content import build_sample_content
 
 

@@ -1,4 +1,4 @@
-"""Tests of builder.site.markdown: escaping of user text, slugs, fresh instances."""
+"""Tests of relspan.site.markdown: escaping of user text, slugs, fresh instances."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from builder.site.markdown import escape_cell, escape_text, render_markdown, slugify
+from relspan.site.markdown import escape_cell, escape_text, render_markdown, slugify
 from htmltools import element_text, parse, squash
 
 # Characters that mean something to Markdown or HTML, plus whitespace,

@@ -1,4 +1,4 @@
-"""Tests of builder.site.render on the synthetic sample site."""
+"""Tests of relspan.site.render on the synthetic sample site."""
 
 from __future__ import annotations
 
@@ -10,8 +10,8 @@ import subprocess
 
 import pytest
 
-from builder.errors import OptionsError
-from builder.site import (Page, SiteContent, check_files, relative_url, render_site,
+from relspan.errors import OptionsError
+from relspan.site import (Page, SiteContent, check_files, relative_url, render_site,
                           rewrite_links, source_date, write_site)
 from htmltools import element_text, parse, squash, visible_text
 from sample_content import (EVIL_COLUMN, EVIL_LABEL, EVIL_TEXTS, EVIL_TITLE, EVIL_UNICODE,

@@ -7,7 +7,7 @@ from importlib import resources
 
 import pytest
 
-CSS = resources.files("builder.site").joinpath("assets/site.css").read_text("utf-8")
+CSS = resources.files("relspan.site").joinpath("assets/site.css").read_text("utf-8")
 
 
 def _block(css: str, start: int) -> str:

@@ -1,4 +1,4 @@
-"""Tests of builder.site.writer: atomic swap, marker, protected folders, killed builds."""
+"""Tests of relspan.site.writer: atomic swap, marker, protected folders, killed builds."""
 
 from __future__ import annotations
 
@@ -11,9 +11,9 @@ from pathlib import Path
 
 import pytest
 
-from builder.errors import OutputError
-from builder.site import writer
-from builder.site.writer import MARKER, write_site
+from relspan.errors import OutputError
+from relspan.site import writer
+from relspan.site.writer import MARKER, write_site
 
 OLD = {"index.html": b"<p>old</p>", "a/b.csv": b"1,2\n", "a/c/d.json": b"{}"}
 NEW = {"index.html": b"<p>new</p>", "x/y.svg": b"<svg/>"} | {
@@ -135,7 +135,7 @@ class TestRefusals:
 _KILL_SCRIPT = """
 import sys, time
 from pathlib import Path
-from builder.site.writer import write_site
+from relspan.site.writer import write_site
 files = {f"p{i:03d}.html": b"new" * 1000 for i in range(200)}
 def slow(path):
     print(path, flush=True)

@@ -8,7 +8,7 @@ from typing import Any
 import yaml
 from hypothesis import strategies as st
 
-from builder.spec.schema import EXAMPLE_SPEC
+from relspan.spec.schema import EXAMPLE_SPEC
 
 #: words that occur in specs, so that mutations often hit meaningful keys and values
 WORDS = ["relspan", "report", "title", "datasets", "id", "source", "variables", "column",

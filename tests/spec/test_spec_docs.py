@@ -5,9 +5,9 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from builder.spec import json_schema, load_spec, spec_reference_markdown
-from builder.spec.docs import REFRESH_COMMAND
-from builder.spec.schema import EXAMPLE_SOURCES
+from relspan.spec import json_schema, load_spec, spec_reference_markdown
+from relspan.spec.docs import REFRESH_COMMAND
+from relspan.spec.schema import EXAMPLE_SOURCES
 
 DOC = Path(__file__).resolve().parents[2] / "docs" / "spec.md"
 

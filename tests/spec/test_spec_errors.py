@@ -6,8 +6,8 @@ import re
 
 import pytest
 
-from builder.errors import SpecError
-from builder.spec import load_spec, parse_spec
+from relspan.errors import SpecError
+from relspan.spec import load_spec, parse_spec
 
 from spec_texts import MINIMAL, WITH_TIME
 

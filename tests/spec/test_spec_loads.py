@@ -6,7 +6,7 @@ import dataclasses
 
 import pytest
 
-from builder.spec import (
+from relspan.spec import (
     ASSUMPTIONS,
     ChecksSpec,
     ClaimSpec,
@@ -21,7 +21,7 @@ from builder.spec import (
     WindowPlanSpec,
     load_spec,
 )
-from builder.spec.schema import EXAMPLE_SPEC
+from relspan.spec.schema import EXAMPLE_SPEC
 
 from spec_texts import MINIMAL, WITH_TIME
 

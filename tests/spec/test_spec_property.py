@@ -6,8 +6,8 @@ import yaml
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from builder.errors import SpecError
-from builder.spec import Spec, parse_spec
+from relspan.errors import SpecError
+from relspan.spec import Spec, parse_spec
 
 from spec_strategies import WORDS, mutated_specs, yamlish
 

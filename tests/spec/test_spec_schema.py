@@ -13,14 +13,14 @@ import pytest
 import yaml
 from hypothesis import HealthCheck, given, settings
 
-from builder.errors import SpecError
-from builder.spec import ChecksSpec, SiteSpec, Tolerance, VariableSpec, json_schema
-from builder.spec import loader as loader_mod
-from builder.spec.schema import EXAMPLE_SPEC, schema_json_text
+from relspan.errors import SpecError
+from relspan.spec import ChecksSpec, SiteSpec, Tolerance, VariableSpec, json_schema
+from relspan.spec import loader as loader_mod
+from relspan.spec.schema import EXAMPLE_SPEC, schema_json_text
 
 from spec_strategies import example_data, mutated_specs
 
-SCHEMA_FILE = Path(__file__).resolve().parents[2] / "builder" / "spec" / "spec-v1.schema.json"
+SCHEMA_FILE = Path(__file__).resolve().parents[2] / "builder" / "relspan" / "spec" / "spec-v1.schema.json"
 
 
 def _properties(schema: dict, path: str = ""):
@@ -98,9 +98,9 @@ def test_json_schema_returns_an_independent_deterministic_copy():
 
 def test_committed_schema_file_is_fresh():
     assert SCHEMA_FILE.read_text(encoding="utf-8") == schema_json_text(), (
-        "builder/spec/spec-v1.schema.json is stale; refresh it with: python -c \"import "
-        "builder.spec as s; print(s.schema_json_text(), end='')\" > "
-        "builder/spec/spec-v1.schema.json")
+        "builder/relspan/spec/spec-v1.schema.json is stale; refresh it with: python -c \"import "
+        "relspan.spec as s; print(s.schema_json_text(), end='')\" > "
+        "builder/relspan/spec/spec-v1.schema.json")
 
 
 def _walk_accepts(data) -> bool:

@@ -8,9 +8,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from builder.errors import DataError
-from builder.spec import load_spec, starter_spec
-from builder.spec.starter import HEAD_ROWS, guess_time_column, prettify
+from relspan.errors import DataError
+from relspan.spec import load_spec, starter_spec
+from relspan.spec.starter import HEAD_ROWS, guess_time_column, prettify
 
 
 def _csv(path, rows=400, time=("quarter", None), text_col=False, seed=0):

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from builder.errors import SpecError
-from builder.spec import load_spec, parse_spec
+from relspan.errors import SpecError
+from relspan.spec import load_spec, parse_spec
 
 from spec_texts import MINIMAL
 

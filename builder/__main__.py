@@ -1,6 +1,0 @@
-"""``python -m builder`` is the same as the ``relspan`` command."""
-
-from builder.cli import main
-
-if __name__ == "__main__":  # pragma: no cover - exercised through subprocess tests
-    raise SystemExit(main())

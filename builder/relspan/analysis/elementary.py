@@ -1,0 +1,361 @@
+"""Elementary regressions: the n least-squares relations, each treating one variable as the only noisy one.
+
+For a window covariance ``S`` with inverse ``P``, the regression of ``x_j`` on
+all other variables (with intercept) has coefficients ``-P[j, k] / P[j, j]``
+and residual variance ``1 / P[j, j]``. Written as a relation ``a . x = 0``
+(about the means) with ``a[j] = 1``, it is row ``j`` of ``P`` divided by
+``P[j, j]``. These are the vertices of Frisch's complete regression system.
+
+Sign convention used throughout relspan: a *relation vector* ``a`` states
+``a . (x - mean) = 0``; normalised on variable ``r`` it has ``a[r] = 1``, so
+``x_r = mean_r - sum_{k != r} a[k] (x_k - mean_k)``.
+
+References
+----------
+.. [1] R. Frisch, Statistical Confluence Analysis by Means of Complete
+       Regression Systems, Publ. No. 5, University Institute of Economics,
+       Oslo, 1934.
+.. [2] T. W. Anderson, An Introduction to Multivariate Statistical Analysis,
+       Wiley, 1958, ch. 2 (partial regression coefficients from the inverse
+       covariance matrix).
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+from typing import Sequence
+
+import numpy as np
+import pandas as pd
+import scipy.linalg as sla
+
+from relspan.analysis._common import (EPS, check_cov, correlation_scale, jsonable, orthonormal_rows,
+                                      pivot_columns, reduced_form)
+from relspan.errors import IllConditionedWarning, OptionsError
+
+__all__ = ["ElementaryRegressions", "elementary_regressions", "choose_reference",
+           "DEFAULT_WARN_CONDITION"]
+
+#: condition number (correlation scale, 2-norm) above which a window is reported as
+#: ill-conditioned: about 10 of the 16 significant digits may be lost beyond it.
+DEFAULT_WARN_CONDITION = 1e10
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class ElementaryRegressions:
+    """The n elementary regressions of one window.
+
+    Method: ordinary least squares of each variable on all others (with an
+    intercept), obtained from the inverse covariance matrix (Frisch 1934,
+    *Statistical Confluence Analysis by Means of Complete Regression Systems*).
+
+    Attributes
+    ----------
+    names : tuple of str
+        Variable names, in the order of the rows and columns of the covariance.
+    relations : (n, n) ndarray
+        Row ``j`` is the relation vector ``a`` (``a . (x - mean) = 0``) with
+        ``a[j] = 1``: row ``j`` of ``inv(cov)`` divided by its diagonal entry.
+        NaN when the covariance is singular.
+    coefficients : (n, n) ndarray
+        ``coefficients[j, k]`` is the OLS coefficient of ``x_k`` in the
+        regression of ``x_j`` on the others (``-relations[j, k]``); the
+        diagonal is 0. NaN when singular.
+    intercepts : (n,) ndarray or None
+        Intercept of each regression, when the window mean was given.
+    residual_variance : (n,) ndarray
+        ``1 / P[j, j]``: the residual sum of squares divided by
+        ``count - ddof`` (the divisor of the covariance), i.e. the residual
+        variance on the covariance's own scale. In the singular case, the
+        residual variance of the (non-unique) least-squares fit; 0 for the
+        variables that enter an exact relation.
+    residual_variance_unbiased : (n,) ndarray or None
+        Residual sum of squares divided by ``count - n`` (``n - 1`` slopes and
+        an intercept are estimated), when ``count`` was given and exceeds n.
+    r_squared : (n,) ndarray
+        Coefficient of determination of each regression, ``1 - 1 / (P[j,j] S[j,j])``.
+    std : (n,) ndarray
+        Standard deviations ``sqrt(diag(cov))`` (the correlation scaling).
+    condition : float
+        2-norm condition number of ``cov`` (inf when singular).
+    condition_correlation : float
+        2-norm condition number of the correlation matrix; this is what
+        governs the accuracy of the results (they are computed on that scale).
+    rank : int
+        Numerical rank of the correlation matrix (eigenvalues above
+        ``rank_rtol`` times the largest count).
+    singular : bool
+        True when the covariance is rank deficient to tolerance.
+    singular_reason : str
+        Plain-words explanation when ``singular``; empty otherwise.
+    exact_relations : (k, n) ndarray
+        Orthonormal basis (rows, original units) of the null space of
+        ``cov``: the ``k = n - rank`` relations that hold exactly in the
+        window. Shape ``(0, n)`` when not singular.
+    exact_normalised : (k, n) ndarray
+        The same subspace in reduced form: identity in the columns
+        ``exact_pivots`` (each pivot variable expressed through the others).
+    exact_pivots : tuple of int
+        Columns chosen by QR with column pivoting for ``exact_normalised``.
+    count : int or None
+        Rows in the window, when given.
+    ddof : int
+        Divisor offset of the covariance (``comoment / (count - ddof)``).
+    """
+
+    names: tuple[str, ...]
+    relations: np.ndarray
+    coefficients: np.ndarray
+    intercepts: np.ndarray | None
+    residual_variance: np.ndarray
+    residual_variance_unbiased: np.ndarray | None
+    r_squared: np.ndarray
+    std: np.ndarray
+    condition: float
+    condition_correlation: float
+    rank: int
+    singular: bool
+    singular_reason: str
+    exact_relations: np.ndarray
+    exact_normalised: np.ndarray
+    exact_pivots: tuple[int, ...]
+    count: int | None
+    ddof: int
+
+    @property
+    def n(self) -> int:
+        """Number of variables."""
+        return len(self.names)
+
+    def index(self, var: int | str) -> int:
+        """Column index of a variable given by index or name."""
+        return _index(self.names, var, key="ref")
+
+    def normalised(self, ref: int | str) -> np.ndarray:
+        """The n relations normalised on ``ref``: row ``j`` is ``relations[j] / relations[j, ref]``.
+
+        Each row ``a`` satisfies ``a[ref] = 1`` and ``a . (x - mean) = 0``, so
+        ``x_ref = mean_ref - sum_{k != ref} a[k] (x_k - mean_k)``. A relation
+        in which ``ref`` has coefficient 0 gives infinite (or NaN) entries;
+        :func:`choose_reference` picks a ``ref`` that avoids this.
+        """
+        r = self.index(ref)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out = self.relations / self.relations[:, [r]]
+        return out
+
+    def unit_relations(self) -> np.ndarray:
+        """Relations scaled to unit Euclidean length (original units), sign fixed so ``a[j] > 0``."""
+        norms = np.linalg.norm(self.relations, axis=1, keepdims=True)
+        return self.relations / norms
+
+    def to_dict(self) -> dict:
+        """JSON-ready dict (plain lists and floats; NaN and inf become None)."""
+        return jsonable({
+            "names": list(self.names),
+            "relations": self.relations,
+            "coefficients": self.coefficients,
+            "intercepts": self.intercepts,
+            "residual_variance": self.residual_variance,
+            "residual_variance_unbiased": self.residual_variance_unbiased,
+            "r_squared": self.r_squared,
+            "std": self.std,
+            "condition": self.condition,
+            "condition_correlation": self.condition_correlation,
+            "rank": self.rank,
+            "singular": self.singular,
+            "singular_reason": self.singular_reason,
+            "exact_relations": self.exact_relations,
+            "exact_normalised": self.exact_normalised,
+            "exact_pivots": list(self.exact_pivots),
+            "count": self.count,
+            "ddof": self.ddof,
+        })
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per regression (dependent variable): coefficients, intercept, variances, R^2."""
+        df = pd.DataFrame(self.coefficients, index=pd.Index(self.names, name="dependent"),
+                          columns=list(self.names))
+        df["intercept"] = np.nan if self.intercepts is None else self.intercepts
+        df["residual_variance"] = self.residual_variance
+        df["residual_variance_unbiased"] = (np.nan if self.residual_variance_unbiased is None
+                                            else self.residual_variance_unbiased)
+        df["r_squared"] = self.r_squared
+        return df
+
+
+def _index(names: Sequence[str], var: int | str, *, key: str) -> int:
+    if isinstance(var, (int, np.integer)) and not isinstance(var, bool):
+        i = int(var)
+        if not 0 <= i < len(names):
+            raise OptionsError(f"{key} index {i} is out of range for {len(names)} variables.", key=key,
+                               fix=f"Use an index from 0 to {len(names) - 1} or a variable name.")
+        return i
+    if isinstance(var, str) and var in names:
+        return list(names).index(var)
+    raise OptionsError(f"{key} {var!r} is not one of the variables ({', '.join(names)}).", key=key,
+                       fix="Use one of the listed variable names or its index.")
+
+
+def elementary_regressions(cov, *, names: Sequence[str], count: int | None = None,
+                           mean=None, ddof: int = 1, label: str | None = None,
+                           rank_rtol: float | None = None,
+                           warn_condition: float = DEFAULT_WARN_CONDITION) -> ElementaryRegressions:
+    """All n least-squares relations, each treating one variable as the only noisy one.
+
+    Parameters
+    ----------
+    cov : (n, n) array_like
+        Sample covariance about the window mean (symmetric, positive semi-definite).
+    names : sequence of str
+        One name per variable.
+    count : int, optional
+        Rows in the window; enables the unbiased residual variance
+        (divisor ``count - n``).
+    mean : (n,) array_like, optional
+        Window means; enables the intercepts.
+    ddof : int, default 1
+        The covariance is ``comoment / (count - ddof)``.
+    label : str, optional
+        Window name, used in warnings.
+    rank_rtol : float, optional
+        Eigenvalues of the correlation matrix at or below ``rank_rtol`` times
+        the largest count as zero (default ``100 n eps``).
+    warn_condition : float, default 1e10
+        Emit :class:`~relspan.errors.IllConditionedWarning` when the
+        correlation-scale condition number exceeds this.
+
+    Returns
+    -------
+    ElementaryRegressions
+
+    Notes
+    -----
+    The inverse is computed on the correlation scale ``R = D^-1 S D^-1``
+    (Cholesky factorisation) and rescaled, so units do not spoil accuracy;
+    the relative error of the coefficients is then about ``cond(R) * eps``.
+    A covariance that is singular to tolerance does not raise: the exact
+    relations (null space) are returned and ``singular`` is set.
+
+    References
+    ----------
+    .. [1] R. Frisch, Statistical Confluence Analysis by Means of Complete
+           Regression Systems, University Institute of Economics, Oslo, 1934.
+    .. [2] N. J. Higham, Accuracy and Stability of Numerical Algorithms, 2nd
+           ed., SIAM, 2002, ch. 10 (Cholesky) and 7.3 (scaling).
+    """
+    s, names_t = check_cov(cov, names=names)
+    n = s.shape[0]
+    if count is not None:
+        if int(count) != count or count < 1:
+            raise OptionsError(f"count must be a positive whole number of rows; got {count!r}.",
+                               key="count", fix="Pass the window's row count, or leave it out.")
+        count = int(count)
+    mean_v = None
+    if mean is not None:
+        mean_v = np.asarray(mean, dtype=float).reshape(-1)
+        if mean_v.shape != (n,) or not np.all(np.isfinite(mean_v)):
+            raise OptionsError(f"mean must be {n} finite values; got shape {mean_v.shape}.", key="mean",
+                               fix="Pass the window means in the order of names, or leave it out.")
+    rtol = 100.0 * n * EPS if rank_rtol is None else float(rank_rtol)
+    r, d = correlation_scale(s)
+    w, v = np.linalg.eigh(r)
+    wmax = float(max(w[-1], 0.0))
+    tol = rtol * wmax if wmax > 0 else 1.0
+    null = w <= tol
+    rank = int(n - np.count_nonzero(null))
+    ws = np.linalg.eigvalsh(s)
+    condition = float(ws[-1] / ws[0]) if ws[0] > 0 and rank == n else float("inf")
+    cond_r = float(w[-1] / w[0]) if rank == n and w[0] > 0 else float("inf")
+
+    if rank == n:
+        try:
+            c = sla.cho_factor(r, lower=True, check_finite=False)
+            pr = sla.cho_solve(c, np.eye(n), check_finite=False)
+        except np.linalg.LinAlgError:  # positive by eigh but Cholesky broke down: use the spectrum
+            pr = (v / w) @ v.T
+        pr = 0.5 * (pr + pr.T)
+        diag = np.diag(pr).copy()
+        # relation row j in original units: P[j,k]/P[j,j] = pr[j,k] d_j / (pr[j,j] d_k)
+        rel = pr / diag[:, None] * (d[:, None] / d[None, :])
+        np.fill_diagonal(rel, 1.0)
+        resvar = d**2 / diag
+        r2 = 1.0 - 1.0 / diag
+        if cond_r > warn_condition:
+            where = f"window {label!r}: " if label else ""
+            warnings.warn(IllConditionedWarning(
+                f"{where}the covariance is nearly singular (condition number {cond_r:.3g} on the "
+                f"correlation scale, {condition:.3g} in the data's units); about "
+                f"{max(0, int(np.log10(cond_r))):d} of 16 significant digits of the regression "
+                "coefficients may be lost.", window=label, condition=cond_r), stacklevel=2)
+        exact = np.zeros((0, n))
+        exact_norm = np.zeros((0, n))
+        pivots: tuple[int, ...] = ()
+        reason = ""
+    else:
+        u = v[:, null]  # correlation-scale null vectors (columns)
+        exact = orthonormal_rows((u / d[:, None]).T)
+        pivots = pivot_columns(exact)
+        exact_norm, _ = reduced_form(exact, pivots)
+        support = np.linalg.norm(u, axis=1) > 1e-8
+        # residual variance of x_j on the others via the pseudo-inverse (correlation scale)
+        resvar = np.empty(n)
+        for j in range(n):
+            if support[j]:
+                resvar[j] = 0.0
+                continue
+            o = [k for k in range(n) if k != j]
+            roo = r[np.ix_(o, o)]
+            roj = r[o, j]
+            beta = np.linalg.lstsq(roo, roj, rcond=rtol)[0]
+            resvar[j] = max(r[j, j] - roj @ beta, 0.0) * d[j] ** 2
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r2 = np.where(np.diag(s) > 0, 1.0 - resvar / np.where(np.diag(s) > 0, np.diag(s), 1.0), np.nan)
+        rel = np.full((n, n), np.nan)
+        k = n - rank
+        involved = [names_t[j] for j in range(n) if support[j]]
+        const = [names_t[j] for j in range(n) if s[j, j] <= tol * max(float(np.max(np.diag(s))), 1e-300)]
+        reason = (f"The covariance is singular to tolerance (rank {rank} of {n}): {k} exact linear "
+                  f"relation{'s' if k > 1 else ''} hold{'' if k > 1 else 's'} in this window among "
+                  f"{', '.join(involved)}"
+                  + (f" ({', '.join(const)} constant)" if const else "")
+                  + ". The elementary regressions are not unique, so the exact relations are "
+                    "reported instead.")
+    coef = -rel
+    np.fill_diagonal(coef, 0.0 if rank == n else np.nan)
+    intercepts = None if mean_v is None else (rel @ mean_v if rank == n else np.full(n, np.nan))
+    unbiased = None
+    if count is not None and count > n:
+        unbiased = resvar * (count - ddof) / (count - n)
+    return ElementaryRegressions(
+        names=names_t, relations=rel, coefficients=coef, intercepts=intercepts,
+        residual_variance=resvar, residual_variance_unbiased=unbiased, r_squared=r2, std=d,
+        condition=condition, condition_correlation=cond_r, rank=rank, singular=rank < n,
+        singular_reason=reason, exact_relations=exact, exact_normalised=exact_norm,
+        exact_pivots=pivots, count=count, ddof=int(ddof))
+
+
+def choose_reference(er: ElementaryRegressions) -> int:
+    """Pick the variable to normalise on so every normalised coefficient stays finite and well conditioned.
+
+    Rule: put each relation on the correlation scale (``a_k * std_k``, which
+    removes units) and scale it to unit length; the score of a candidate
+    ``ref`` is the smallest ``|a_j[ref]|`` over the n relations, and the
+    candidate with the largest score wins (lowest index on ties). Dividing by
+    ``a_j[ref]`` then never amplifies a unit-length relation by more than
+    ``1 / score``. For a singular window, the first pivot of the exact
+    relations is returned.
+
+    Returns
+    -------
+    int
+        Column index of the reference variable.
+    """
+    if er.singular:
+        return int(er.exact_pivots[0])
+    a = er.relations * er.std[None, :]
+    a = a / np.linalg.norm(a, axis=1, keepdims=True)
+    score = np.min(np.abs(a), axis=0)
+    return int(np.argmax(score))
+

@@ -1,0 +1,312 @@
+"""Findings: the analysis turned into typed, plain-words statements.
+
+Each :class:`Finding` says one thing the data pin down, leave open, make
+depend on the noise assumption, or show to be (un)stable across windows, and
+carries the numbers behind it. The report renders them; nothing here formats
+HTML or reads files.
+
+Kinds (``Finding.kind``):
+
+* ``pinned_down``      - a quantity the data identify (with its value or bound);
+* ``set_only``         - identified only as a set (an interval, a family);
+* ``not_identified``   - the data cannot pin it down, and why;
+* ``depends``          - the answer changes with the noise assumption;
+* ``unstable``         - the answer changes across windows;
+* ``stable``           - the answer holds across windows (thresholds stated);
+* ``no_relation``      - no linear relation is supported at the tolerance.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from relspan.analysis.window import ASSUMPTION_WORDS as _WORDS
+
+__all__ = ["Finding", "dataset_findings", "FINDING_KINDS", "CARD_OF_KIND"]
+
+FINDING_KINDS = ("pinned_down", "set_only", "not_identified", "depends", "unstable", "stable",
+                 "no_relation")
+
+#: which home-page card each kind belongs to
+CARD_OF_KIND = {
+    "pinned_down": "pinned", "stable": "pinned",
+    "set_only": "open", "not_identified": "open", "no_relation": "open",
+    "depends": "depends",
+    "unstable": "unstable",
+}
+
+
+
+@dataclass(frozen=True, slots=True)
+class Finding:
+    """One statement for the report.
+
+    Attributes
+    ----------
+    kind : str
+        One of :data:`FINDING_KINDS`.
+    topic : str
+        What it is about: ``corank``, ``subspace``, ``coefficient``,
+        ``reduced_form``, ``stability``.
+    headline : str
+        Plain words, one sentence, with its key number.
+    detail : str
+        The technical statement (assumptions, thresholds, method).
+    numbers : dict
+        The numbers behind it (JSON-ready).
+    evidence : str
+        Fragment id on the dataset page where the evidence is shown.
+    plan : str or None
+        Window plan the finding is about, if any.
+    single_coefficient : bool
+        True when it quotes a single normalised coefficient (the report
+        then links the caution page).
+    """
+
+    kind: str
+    topic: str
+    headline: str
+    detail: str
+    numbers: dict = field(default_factory=dict)
+    evidence: str = "assumptions"
+    plan: str | None = None
+    single_coefficient: bool = False
+
+    @property
+    def card(self) -> str:
+        return CARD_OF_KIND[self.kind]
+
+    def to_dict(self) -> dict:
+        from relspan.analysis._common import jsonable
+
+        return jsonable({"kind": self.kind, "topic": self.topic, "headline": self.headline,
+                         "detail": self.detail, "numbers": self.numbers, "evidence": self.evidence,
+                         "plan": self.plan, "single_coefficient": self.single_coefficient})
+
+
+def _g(x: float) -> str:
+    if x is None or not np.isfinite(x):
+        return "unbounded" if x is not None and np.isinf(x) else "n/a"
+    return f"{x:.3g}"
+
+
+def _times(k: int) -> str:
+    return {1: "once", 2: "twice"}.get(k, f"{k} times")
+
+
+def _corank_findings(result) -> list[Finding]:
+    full = result.full
+    cor = {a: q for a, q in full.coranks.items() if a != "elementary"}
+    known = {a: q for a, q in cor.items() if q is not None}
+    out: list[Finding] = []
+    n = full.n
+    if not known:
+        return out
+    values = sorted(set(known.values()))
+    eps_text = (f"tolerance {full.eps:g} on the correlation scale (noise up to {100 * full.eps:g}% of each "
+                f"variable's variance)" if full.scale == "correlation" else f"tolerance {full.eps:g}")
+    if len(values) == 1:
+        q = values[0]
+        if q == 0:
+            out.append(Finding("no_relation", "corank",
+                               f"No linear relation among the {n} variables is supported: every "
+                               "direction of the data varies more than the noise allows.",
+                               f"Corank 0 under {', '.join(_WORDS[a] for a in known)} at {eps_text}.",
+                               {"corank": 0, "by_assumption": cor}, "corank"))
+        else:
+            out.append(Finding("pinned_down", "corank",
+                               f"{q} linear relation{'s' if q > 1 else ''} hold{'' if q > 1 else 's'} among the "
+                               f"{n} variables, under every noise assumption checked.",
+                               f"Corank {q} in the full sample under {', '.join(_WORDS[a] for a in known)} at "
+                               f"{eps_text}.", {"corank": q, "by_assumption": cor}, "corank"))
+    else:
+        parts = "; ".join(f"{_WORDS[a]}: {q}" for a, q in known.items())
+        out.append(Finding("depends", "corank",
+                           f"How many relations hold depends on the noise assumption: between "
+                           f"{values[0]} and {values[-1]}.",
+                           f"Full-sample corank by assumption ({eps_text}): {parts}.",
+                           {"by_assumption": cor}, "corank"))
+    undetermined = [a for a, q in cor.items() if q is None]
+    if undetermined:
+        out.append(Finding("set_only", "corank",
+                           "Under independent noise of unknown size the number of relations is not "
+                           "settled at this tolerance.",
+                           "The diagonal-noise search neither certified nor ruled out every corank "
+                           "(\u201cundetermined at eps\u201d).", {"undetermined": undetermined}, "corank"))
+    return out
+
+
+def _subspace_findings(result) -> list[Finding]:
+    full = result.full
+    out: list[Finding] = []
+    n = full.n
+    for q in result.examined:
+        ident = result.identified.get(q)
+        what = "relation" if q == 1 else f"{q}-dimensional subspace of relations"
+        if full.bounded is not None:
+            entry = next((c for c in full.bounded.coranks if c.q == q), None)
+        else:
+            entry = None
+        if entry is not None and not entry.vacuous:
+            out.append(Finding("pinned_down", "subspace",
+                               f"The {what} is pinned down to within {entry.angle_bound_deg:.2g} degrees, "
+                               "whatever the shape of the noise (within the tolerance).",
+                               f"Davis-Kahan bound for corank {q} under bounded noise: largest principal "
+                               f"angle at most {entry.angle_bound_deg:.3g} degrees (eps {full.eps:g}, gap "
+                               f"{entry.gap:.3g}).",
+                               {"corank": q, "angle_bound_deg": entry.angle_bound_deg}, "assumptions"))
+        elif entry is not None:
+            out.append(Finding("set_only", "subspace",
+                               f"The {what} is not pinned down by the bounded-noise assumption alone: the "
+                               "noise allowed is as large as the signal gap.",
+                               f"Davis-Kahan bound vacuous for corank {q} (eps {full.eps:g} vs gap "
+                               f"{entry.gap:.3g}).", {"corank": q}, "assumptions"))
+        fr = full.diagonal
+        if fr is not None and q >= 2:
+            ok = q * (q + 1) >= 2 * n
+            spread = (fr.spread.max_angle_deg if fr.spread is not None and fr.spread.q == q else None)
+            if not ok:
+                extra = (f" Distinct exact solutions differ by up to {spread:.2g} degrees."
+                         if spread is not None and np.isfinite(spread) else "")
+                out.append(Finding("set_only", "subspace",
+                                   f"Under independent noise of unknown size the {what} is a family, not a "
+                                   f"single answer.{extra}",
+                                   f"Frisch scheme: point identification needs q(q+1) >= 2n; here "
+                                   f"{q * (q + 1)} < {2 * n}.", {"corank": q, "spread_deg": spread},
+                                   "assumptions"))
+        if ident is not None and q >= 2:
+            targets = [result.labels[result.names.index(t)] for t in ident.targets]
+            out.append(Finding("not_identified", "coefficient",
+                               f"No single coefficient of one relation is pinned down: with {q} relations, "
+                               "any mix of them is also a relation.",
+                               f"Corank {q}: a normalised coefficient depends on which member of the "
+                               "relation subspace is picked; only the subspace (or a reduced form chosen in "
+                               "advance) is identified.", {"corank": q}, "identified", single_coefficient=True))
+            out.append(Finding("pinned_down", "reduced_form",
+                               f"A reduced form is pinned down: {', '.join(targets)} expressed through the "
+                               "other variables.",
+                               f"Reduced form from the equal-noise subspace; condition number of the choice "
+                               f"{ident.reduced_condition:.3g}.", {"corank": q, "targets": targets,
+                                                           "condition": ident.reduced_condition}, "identified"))
+    return out
+
+
+def _coefficient_findings(result) -> list[Finding]:
+    full = result.full
+    out: list[Finding] = []
+    ref = full.ref
+    names, labels = result.names, result.labels
+    q1 = (result.examined and result.examined[0] == 1)
+    # signs across assumptions (full sample)
+    flips = []
+    for k in range(full.n):
+        if k == ref:
+            continue
+        vals = {a: full.coefficient(a, ref, k) for a in ("elementary", "equal", "shaped")
+                if a in full.coefficients}
+        vals = {a: v for a, v in vals.items() if v is not None and np.isfinite(v) and abs(v) > 1e-12}
+        if len({np.sign(v) for v in vals.values()}) > 1:
+            flips.append((k, vals))
+    for k, vals in flips:
+        parts = "; ".join(f"{_WORDS[a]}: {_g(v)}" for a, v in vals.items())
+        out.append(Finding("depends", "coefficient",
+                           f"The sign of the coefficient of {labels[k]} in the equation for {labels[ref]} "
+                           "depends on the noise assumption.",
+                           f"Full-sample normalised coefficient of {names[k]} (equation for {names[ref]}): "
+                           f"{parts}.", {"variable": names[k], "normalise_on": names[ref], "values": vals},
+                           "assumptions", single_coefficient=True))
+    if q1 and full.frisch_lower is not None:
+        lo, hi = full.frisch_lower, full.frisch_upper
+        bounded = [k for k in range(full.n) if k != ref and np.isfinite(lo[k]) and np.isfinite(hi[k])]
+        if len(bounded) == full.n - 1:
+            items = ", ".join(f"{labels[k]} between {_g(lo[k])} and {_g(hi[k])}" for k in bounded)
+            out.append(Finding("set_only", "coefficient",
+                               f"Under independent noise of unknown size each coefficient of the equation for "
+                               f"{labels[ref]} is bounded: {items}.",
+                               "Frisch scheme, corank 1: all elementary regressions lie in one orthant, so the "
+                               "solutions form their convex hull (Klepper & Leamer 1984).",
+                               {"normalise_on": names[ref],
+                                "intervals": {names[k]: [lo[k], hi[k]] for k in bounded}},
+                               "frisch", single_coefficient=True))
+        else:
+            out.append(Finding("not_identified", "coefficient",
+                               f"Under independent noise of unknown size the coefficients of the equation for "
+                               f"{labels[ref]} are not bounded.",
+                               "Frisch scheme, corank 1: the elementary regressions do not lie in one "
+                               "orthant, so the set of solutions is unbounded.",
+                               {"normalise_on": names[ref]}, "frisch", single_coefficient=True))
+    return out
+
+
+def _stability_findings(result) -> list[Finding]:
+    out: list[Finding] = []
+    names, labels = result.names, result.labels
+    ref = result.full.ref
+    for plan in result.plans:
+        if len(plan.analyses) < 2:
+            continue
+        title = plan.plan.title or plan.plan.id
+        for q in result.examined:
+            stab = plan.stability.get(("equal", q)) or next(
+                (s for (a, qq), s in plan.stability.items() if qq == q), None)
+            if stab is None:
+                continue
+            worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else stab.max_pairwise_deg
+            what = "relation" if q == 1 else "plane of relations" if q == 2 else f"{q}-dimensional relation subspace"
+            if stab.stable:
+                headline = (f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} "
+                            f"stays within {worst:.2g} degrees of the full sample's.")
+            else:
+                headline = (f"Across the windows of \u201c{title}\u201d the {what} moves: up to "
+                            f"{worst:.2g} degrees from the full sample's (threshold "
+                            f"{stab.threshold_deg:g}).")
+            out.append(Finding("stable" if stab.stable else "unstable", "stability", headline,
+                               f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
+                                                   "max_to_full_deg": worst,
+                                                   "threshold_deg": stab.threshold_deg},
+                               f"plan-{plan.plan.id}", plan=plan.plan.id))
+            swing = plan.swings.get("elementary")
+            if swing is not None:
+                changed = [k for k in range(len(names)) if k != ref and swing.sign_changes[k] > 0]
+                if changed:
+                    k = changed[0]
+                    more = f" (and {len(changed) - 1} more)" if len(changed) > 1 else ""
+                    out.append(Finding("unstable", "coefficient",
+                                       f"The least-squares coefficient of {labels[k]} in the equation for "
+                                       f"{labels[ref]} changes sign {_times(int(swing.sign_changes[k]))} across "
+                                       f"\u201c{title}\u201d{more}, from {_g(swing.minimum[k])} to "
+                                       f"{_g(swing.maximum[k])}"
+                                       + (f", while the {what} moves at most {worst:.2g} degrees." if stab.stable
+                                          else "."),
+                                       "Elementary regression (only the reference variable noisy), normalised "
+                                       "coefficient per window.",
+                                       {"plan": plan.plan.id, "variable": names[k],
+                                        "sign_changes": int(swing.sign_changes[k]),
+                                        "min": swing.minimum[k], "max": swing.maximum[k]},
+                                       f"plan-{plan.plan.id}", plan=plan.plan.id, single_coefficient=True))
+        seq = plan.coranks
+        moving = [a for a, c in seq.constant.items() if not c and a != "elementary"]
+        if moving:
+            out.append(Finding("unstable", "corank",
+                               f"The number of relations changes across the windows of \u201c{title}\u201d "
+                               f"under {', '.join(_WORDS[a] for a in moving)}.",
+                               "Corank per window: see the timeline.",
+                               {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
+                               plan=plan.plan.id))
+    return out
+
+
+def dataset_findings(result) -> list[Finding]:
+    """All findings for one :class:`~relspan.run.pipeline.DatasetResult`, most important first."""
+    out = []
+    out += _corank_findings(result)
+    out += _subspace_findings(result)
+    out += _coefficient_findings(result)
+    out += _stability_findings(result)
+    if result.full.elementary.singular:
+        out.insert(0, Finding("pinned_down", "corank", "Some relations hold exactly in the data.",
+                              result.full.elementary.singular_reason,
+                              {"exact": result.full.elementary.exact_relations}, "assumptions"))
+    return out

@@ -1,0 +1,282 @@
+"""The ``relspan`` command line: a thin face over :mod:`relspan`.
+
+It parses arguments, calls the library, prints short human-readable output
+and maps outcomes to exit codes:
+
+* 0 - success (every claim holds);
+* 1 - a claim failed (or, with ``--strict``, a warning was raised);
+* 2 - bad input: spec, data, options or output folder (one located paragraph
+  on stderr, never a traceback);
+* 3 - an internal error (a bug of relspan's; one paragraph, traceback with RELSPAN_DEBUG=1);
+* 130 - interrupted (Ctrl-C).
+"""
+
+from __future__ import annotations
+
+import _thread
+import argparse
+import signal
+import sys
+import textwrap
+import threading
+import warnings
+from pathlib import Path
+from typing import Sequence
+
+from relspan import __version__
+from relspan.errors import OptionsError, RelspanError, RelspanWarning
+
+__all__ = ["main"]
+
+EXIT_OK, EXIT_CLAIM_FAILED, EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors as exit 2 with a one-paragraph message."""
+
+    def error(self, message: str) -> None:  # pragma: no cover - argparse calls sys.exit
+        self.exit(EXIT_BAD_INPUT, f"relspan: {message}\n  Fix: see `{self.prog} --help`.\n")
+
+
+def _add_run_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--jobs", "-j", type=int, default=None, metavar="N",
+                   help="worker processes for window tasks (default: the spec's run.jobs, else the cores "
+                        "available; 1 = serial); overrides the spec's run: section")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="run window tasks on an existing Dask cluster, e.g. tcp://10.0.0.5:8786 "
+                        "(overrides the spec's run: section) "
+                        "(needs `pip install 'relspan[cluster]'`)")
+    p.add_argument("--no-cache", action="store_true",
+                   help="recompute everything; do not read or write the result cache")
+    p.add_argument("--cache-dir", default=None, metavar="DIR",
+                   help="result cache folder (default: .relspan-cache beside the spec; safe to delete)")
+    p.add_argument("--quiet", "-q", action="store_true", help="no progress line on stderr")
+    p.add_argument("--strict", action="store_true",
+                   help="treat warnings (ill-conditioned windows, solver limits) as failures: exit 1")
+
+
+def _parser() -> argparse.ArgumentParser:
+    top = _Parser(
+        prog="relspan",
+        description="Say, reproducibly, how many linear relations error-ridden data pin down, "
+                    "under which noise assumption, and whether that holds across windows.",
+        epilog="Example: relspan build specs/demo.yaml",
+    )
+    top.add_argument("--version", action="version", version=f"relspan {__version__}")
+    sub = top.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    b = sub.add_parser("build", help="analyse and write the site",
+                       description="Run every analysis in SPEC, check its claims and write the site.",
+                       epilog="Example: relspan build specs/demo.yaml --out /tmp/demo-site",
+                       formatter_class=argparse.RawDescriptionHelpFormatter)
+    b.add_argument("spec", help="the spec file (YAML)")
+    b.add_argument("--out", default=None, metavar="DIR",
+                   help="output folder (default: site.out in the spec, relative to the spec)")
+    _add_run_options(b)
+
+    c = sub.add_parser("check", help="validate, analyse and check claims; write nothing",
+                       description="Validate SPEC and its data, run the analysis, evaluate the claims "
+                                   "and print a verdict table. Writes nothing: an existing result cache "
+                                   "is read, never written.",
+                       epilog="Example: relspan check specs/demo.yaml")
+    c.add_argument("spec", help="the spec file (YAML)")
+    _add_run_options(c)
+
+    s = sub.add_parser("serve", help="preview a built site on 127.0.0.1",
+                       description="Serve a built site folder on 127.0.0.1 only (never on other "
+                                   "interfaces). Stop with Ctrl-C.",
+                       epilog="Example: relspan serve site_demo --port 8000")
+    s.add_argument("folder", help="a folder written by `relspan build`")
+    s.add_argument("--port", type=int, default=8000, help="port on 127.0.0.1 (default 8000; 0 = any free)")
+
+    n = sub.add_parser("new", help="write a starter spec for a CSV file",
+                       description="Write a commented starter spec for CSV: numeric columns as "
+                                   "variables, a guessed time column, a full-sample and a rolling plan.",
+                       epilog="Example: relspan new data/regions.csv --out regions.yaml")
+    n.add_argument("csv", help="the CSV (or TSV) file")
+    n.add_argument("--out", default=None, metavar="SPEC",
+                   help="where to write the spec (default: print it); an existing file is not overwritten")
+
+    sub.add_parser("schema", help="print the spec's JSON Schema",
+                   description="Print the JSON Schema of spec format v1 (for editors that validate "
+                               "and complete YAML).",
+                   epilog="Example: relspan schema > relspan-spec.schema.json")
+    return top
+
+
+def _run_options(args: argparse.Namespace) -> dict:
+    if args.jobs is not None and args.jobs < 1:
+        raise OptionsError(f"--jobs must be a whole number >= 1; got {args.jobs}.",
+                           key="--jobs", fix="use --jobs 1 for serial work, or leave it out.")
+    return dict(jobs=args.jobs, scheduler=args.scheduler, use_cache=not args.no_cache,
+                cache_dir=Path(args.cache_dir) if args.cache_dir else None,
+                progress=not args.quiet)
+
+
+def _print_warnings(caught: Sequence[warnings.WarningMessage]) -> int:
+    count = 0
+    for w in caught:
+        if issubclass(w.category, RelspanWarning):
+            count += 1
+            print(f"warning: {w.message}", file=sys.stderr)
+    return count
+
+
+def _cmd_build(args: argparse.Namespace) -> int:
+    from relspan.api import build
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", RelspanWarning)
+        outcome = build(args.spec, out=args.out, **_run_options(args))
+    n_warn = _print_warnings(caught)
+    print(outcome.verdict_table())
+    print(f"site written to {outcome.out_dir}")
+    return _exit_for(outcome, n_warn, args.strict)
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from relspan.api import check
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", RelspanWarning)
+        outcome = check(args.spec, **_run_options(args))
+    n_warn = _print_warnings(caught)
+    print(outcome.verdict_table())
+    return _exit_for(outcome, n_warn, args.strict)
+
+
+def _exit_for(outcome, n_warn: int, strict: bool) -> int:
+    if not outcome.all_claims_hold:
+        return EXIT_CLAIM_FAILED
+    if strict and (n_warn or outcome.warnings):
+        print(f"--strict: {n_warn or len(outcome.warnings)} warning(s) count as failure.", file=sys.stderr)
+        return EXIT_CLAIM_FAILED
+    return EXIT_OK
+
+
+def _cmd_serve(args: argparse.Namespace) -> int:
+    from relspan.site.serve import serve_folder
+
+    serve_folder(Path(args.folder), port=args.port)
+    return EXIT_OK
+
+
+def _cmd_new(args: argparse.Namespace) -> int:
+    from relspan.spec import starter_spec
+
+    csv_path = Path(args.csv)
+    spec_path = Path(args.out) if args.out else Path(csv_path.stem + ".yaml")
+    text = starter_spec(csv_path, spec_path)
+    if args.out is None:
+        sys.stdout.write(text)
+        return EXIT_OK
+    if spec_path.exists():
+        raise OptionsError(f"{spec_path} already exists; relspan does not overwrite it.",
+                           path=str(spec_path), key="--out",
+                           fix="choose another --out, or delete the file first.")
+    tmp = spec_path.with_name(f".{spec_path.name}.relspan-tmp")
+    tmp.write_text(text, encoding="utf-8")
+    tmp.replace(spec_path)
+    print(f"starter spec written to {spec_path}; next: relspan check {spec_path}")
+    return EXIT_OK
+
+
+def _cmd_schema(args: argparse.Namespace) -> int:
+    from relspan.spec.schema import schema_json_text
+
+    text = schema_json_text()
+    sys.stdout.write(text if text.endswith("\n") else text + "\n")
+    return EXIT_OK
+
+
+class _CtrlC:
+    """Make one Ctrl-C reach :func:`main` as a KeyboardInterrupt, wherever it lands.
+
+    CPython prints and drops an exception raised inside a weakref callback or a
+    ``__del__`` ("Exception ignored in ..."), so a Ctrl-C that lands there would be
+    lost and the build would carry on. While a command runs, SIGINT raises
+    KeyboardInterrupt and raises it again every second (``_thread.interrupt_main``)
+    until one leaves the command; further Ctrl-C are then ignored while relspan exits.
+    """
+
+    def __init__(self) -> None:
+        self._done = threading.Event()
+        self._previous = None
+
+    def __enter__(self) -> "_CtrlC":
+        if threading.current_thread() is threading.main_thread():
+            self._previous = signal.signal(signal.SIGINT, self._on_signal)
+        return self
+
+    def _on_signal(self, signum, frame) -> None:
+        if self._done.is_set():
+            return
+        timer = threading.Timer(1.0, self._again)
+        timer.daemon = True
+        timer.start()
+        raise KeyboardInterrupt
+
+    def _again(self) -> None:
+        if not self._done.is_set():
+            _thread.interrupt_main()
+
+    def __exit__(self, exc_type, exc, tb) -> None:
+        self._done.set()
+        if self._previous is not None:  # after an interrupt, ignore more while we clean up and exit
+            interrupted = exc_type is not None and issubclass(exc_type, KeyboardInterrupt)
+            signal.signal(signal.SIGINT, signal.SIG_IGN if interrupted else self._previous)
+
+
+_COMMANDS = {"build": _cmd_build, "check": _cmd_check, "serve": _cmd_serve,
+             "new": _cmd_new, "schema": _cmd_schema}
+
+
+def _stderr_is_terminal() -> bool:
+    import os
+
+    try:
+        return sys.stderr.isatty() and os.environ.get("TERM", "") != "dumb"
+    except (AttributeError, ValueError, OSError):
+        return False
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of ``relspan`` and ``python -m relspan``; returns the exit code."""
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help(sys.stderr)
+        return EXIT_BAD_INPUT
+    try:
+        with _CtrlC():
+            return _COMMANDS[args.command](args)
+    except RelspanError as err:
+        print(textwrap.indent(str(err), "").rstrip(), file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        # on a terminal, first clear a progress line the interrupt may have left unfinished
+        clear = "\r\033[K" if _stderr_is_terminal() else ""
+        print(f"{clear}relspan: interrupted; the previous site (if any) is unchanged.", file=sys.stderr)
+        # A Ctrl-C that interrupted code run by exec(text) (dataclasses, during imports) leaves
+        # CPython's "unhandled KeyboardInterrupt" flag set, and the interpreter would then end
+        # by killing itself with SIGINT instead of exiting 130; evaluating any text resets it.
+        exec("")  # noqa: S102 - a constant, empty program
+        return EXIT_INTERRUPTED
+    except BrokenPipeError:  # e.g. `relspan schema | head`
+        return EXIT_OK
+    except Exception as err:  # a bug of ours: say so in one paragraph, never a bare traceback
+        import os
+        import traceback
+
+        if os.environ.get("RELSPAN_DEBUG"):
+            traceback.print_exc()
+        where = traceback.extract_tb(err.__traceback__)[-1]
+        print(f"relspan: internal error ({type(err).__name__}: {err}) at {Path(where.filename).name}:"
+              f"{where.lineno}. This is a bug in relspan, not in your input; the previous site (if any) "
+              "is unchanged.\n  Fix: rerun with RELSPAN_DEBUG=1 for the traceback and report it.",
+              file=sys.stderr)
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":  # pragma: no cover
+    raise SystemExit(main())

@@ -1,0 +1,186 @@
+"""Adapters: analysis results -> figure inputs -> :class:`FigureResult`.
+
+The figure functions (:mod:`relspan.report.figures` and friends) take plain
+arrays; these functions read them off a
+:class:`~relspan.run.pipeline.DatasetResult` so that each figure is a function
+of results only.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from relspan.report.figures import (ElementaryMapData, coefficient_swing, corank_evidence,
+                                    corank_timeline, data_overview, elementary_map, frisch_intervals,
+                                    subspace_stability, window_gallery)
+
+__all__ = ["overview_figure", "map_data", "map_figure", "gallery_figure", "stability_figure",
+           "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure", "SHORT_ASSUMPTION"]
+
+#: short labels for legends and strips (the figure functions label lines directly)
+SHORT_ASSUMPTION = {
+    "elementary": "elementary (OLS)",
+    "equal": "equal noise",
+    "shaped": "known noise shape",
+    "bounded": "bounded noise",
+    "diagonal": "diagonal (Frisch)",
+}
+
+
+def _window_time_span(prepared, window):
+    """(start, end) of a window in the units of the overview's time axis."""
+    pos = prepared.overview.positions
+    if "first_time" in pos.columns:
+        first = pos["first_row"].to_numpy()
+        last = pos["last_row"].to_numpy()
+        i = int(np.searchsorted(last, window.first_row))
+        j = int(np.searchsorted(last, window.last_row))
+        i, j = min(i, len(first) - 1), min(j, len(first) - 1)
+        return pos["first_time"].iloc[i], pos["last_time"].iloc[j]
+    return window.first_row, window.last_row
+
+
+def overview_figure(result):
+    """Data overview: the analysed series (standardised) with the windows of each plan."""
+    prepared = result.prepared
+    pos = prepared.overview.positions
+    if "first_time" in pos.columns:
+        times = pos["first_time"].to_numpy()
+    else:
+        times = pos["first_row"].to_numpy()
+    values = prepared.overview.values
+    series = {lab: values[col].to_numpy(dtype=float) for col, lab in zip(result.names, result.labels)}
+    windows = {}
+    for plan in result.plans:
+        if plan.plan.kind == "full":
+            continue
+        title = plan.plan.title or plan.plan.id
+        windows[title] = [(*_window_time_span(prepared, w), w.label) for w in plan.windows]
+    return data_overview(times, series, windows, name=f"{result.spec.id}-overview")
+
+
+def map_data(result, analysis, q: int):
+    """ElementaryMapData of one window for corank q (None when the map cannot be drawn)."""
+    from relspan.analysis.flat import elementary_flat
+
+    if analysis.elementary.singular or q < 1 or len(result.names) < 3:  # a map needs 3 variables
+        return None
+    flat = elementary_flat(analysis.elementary, q=q, ref=analysis.ref)
+    if flat.form != "affine" or flat.center is None or not np.all(np.isfinite(flat.points)):
+        return None
+    simplex = None
+    if q == 1 and analysis.frisch_lower is not None and np.all(np.isfinite(analysis.frisch_lower)):
+        simplex = flat.points
+    return ElementaryMapData(points=flat.points, names=tuple(result.names),
+                             ref=result.names[analysis.ref], flat_point=flat.center,
+                             flat_dirs=flat.directions, distances=flat.distances, simplex=simplex)
+
+
+def map_figure(result, analysis, q: int, name: str):
+    data = map_data(result, analysis, q)
+    if data is None:
+        return None
+    return elementary_map(data.points, names=data.names, ref=data.ref, flat_point=data.flat_point,
+                          flat_dirs=data.flat_dirs, distances=data.distances, simplex=data.simplex,
+                          name=name)
+
+
+def gallery_figure(result, plan, q: int):
+    maps = [map_data(result, a, q) for a in plan.analyses]
+    if not maps or any(m is None for m in maps) or len(maps) < 2:
+        return None
+    maps, labels = maps[:24], list(plan.labels)[:24]
+    return window_gallery(maps, labels, reference=map_data(result, result.full, q),
+                          name=f"{result.spec.id}-{plan.plan.id}-gallery")
+
+
+def stability_figure(result, plan, assumption: str, q: int):
+    stab = plan.stability.get((assumption, q))
+    if stab is None or len(plan.analyses) < 2:
+        return None
+    return subspace_stability(stab.pairwise_deg, list(plan.labels), stab.to_reference_deg,
+                              threshold_deg=stab.threshold_deg,
+                              name=f"{result.spec.id}-{plan.plan.id}-angles")
+
+
+def swing_variable(result) -> int:
+    """The coefficient shown in the swing figure: the one that changes sign most under OLS."""
+    ref = result.full.ref
+    best, score = None, -1.0
+    for plan in result.plans:
+        swing = plan.swings.get("elementary")
+        if swing is None:
+            continue
+        for k in range(len(result.names)):
+            if k == ref:
+                continue
+            s = float(swing.sign_changes[k]) + 1e-3 * float(swing.maximum[k] - swing.minimum[k])
+            if s > score:
+                best, score = k, s
+    if best is None:
+        best = 0 if ref != 0 else 1
+    return best
+
+
+def swing_figure(result, plan, q: int):
+    if len(plan.analyses) < 2:
+        return None
+    ref = result.full.ref
+    k = swing_variable(result)
+    coefs = {}
+    for a in ("elementary", "equal", "shaped"):  # the assumptions that give a point
+        vals = [w.coefficient(a, ref, k) for w in plan.analyses]
+        if all(v is None for v in vals):
+            continue
+        coefs[SHORT_ASSUMPTION[a]] = np.array([np.nan if v is None else v for v in vals], dtype=float)
+    if not coefs:
+        return None
+    stab = plan.stability.get(("equal", q)) or next((s for (a, qq), s in plan.stability.items() if qq == q),
+                                                    None)
+    if stab is None:
+        return None
+    label = (f"coefficient of {result.labels[k]} in the equation for {result.labels[ref]}")
+    return coefficient_swing(list(plan.labels), coefs, stab.to_reference_deg, stab.threshold_deg, label,
+                             name=f"{result.spec.id}-{plan.plan.id}-swing")
+
+
+def spectrum_figure(result, analysis, name: str):
+    eq = analysis.equal or None
+    if eq is None:
+        return None
+    scale = "eigenvalue (correlation scale)" if analysis.scale == "correlation" else "eigenvalue"
+    return corank_evidence(eq.eigenvalues, {"tolerance": analysis.eps},
+                           scale_label=scale, name=name)
+
+
+def timeline_figure(result, plan):
+    if len(plan.analyses) < 1:
+        return None
+    coranks = {}
+    for a in ("equal", "shaped", "bounded", "diagonal"):
+        seq = plan.coranks.coranks.get(a)
+        if seq is not None:
+            coranks[SHORT_ASSUMPTION[a]] = list(seq)
+    if not coranks:
+        return None
+    return corank_timeline(list(plan.labels), coranks, max_corank=len(result.names) - 1,
+                           name=f"{result.spec.id}-{plan.plan.id}-coranks")
+
+
+def frisch_figure(result, analysis, name: str):
+    if analysis.frisch_lower is None:
+        return None
+    ref = analysis.ref
+    ks = [k for k in range(len(result.names)) if k != ref]
+    lower = analysis.frisch_lower[ks]
+    upper = analysis.frisch_upper[ks]
+    point = analysis.coefficients.get("elementary")
+    reason = None
+    fr = analysis.diagonal
+    if fr is not None and fr.q1.status != "bounded":
+        reason = fr.q1.reason
+    return frisch_intervals([result.labels[k] for k in ks], lower, upper,
+                            point=None if point is None else point[ks], unbounded_reason=reason,
+                            point_label="least squares (reference variable noisy)",
+                            normalised_on=result.labels[ref], name=name)
+

@@ -1,0 +1,174 @@
+"""Assemble the whole site (pages, figures, downloads, navigation) from an analysis run."""
+
+from __future__ import annotations
+
+import io
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from relspan import __version__
+from relspan.report import pages as P
+from relspan.site.content import NavItem, Page, SiteContent
+
+__all__ = ["site_content", "results_document", "dataset_document", "RESULTS_SCHEMA_VERSION",
+           "RESULTS_SCHEMA_PATH"]
+
+#: version of the results JSON layout documented in docs/results.md
+RESULTS_SCHEMA_VERSION = 1
+
+#: JSON Schema (draft 2020-12) of data/results.json, shipped with the site as data/results.schema.json
+RESULTS_SCHEMA_PATH = Path(__file__).with_name("results.schema.json")
+
+
+def _csv(df: pd.DataFrame) -> bytes:
+    buf = io.StringIO()
+    df.to_csv(buf, index=False, lineterminator="\n", float_format="%.10g")
+    return buf.getvalue().encode("utf-8")
+
+
+def dataset_document(result) -> dict:
+    """Everything computed for one dataset (data/<id>/results.json; layout: docs/results.md)."""
+    from relspan.analysis._common import jsonable
+
+    plans = []
+    for plan in result.plans:
+        plans.append({
+            "id": plan.plan.id,
+            "kind": plan.plan.kind,
+            "title": plan.plan.title,
+            "windows": [dict(a.to_dict(), rows=w.rows, first_time=w.first_time, last_time=w.last_time)
+                        for a, w in zip(plan.analyses, plan.windows)],
+            "stability": [dict(s.to_dict(), assumption=a, corank=q)
+                          for (a, q), s in sorted(plan.stability.items())],
+            "coefficient_swings": {a: s.to_dict() for a, s in sorted(plan.swings.items())},
+            "coranks": plan.coranks.to_dict(),
+        })
+    p = result.prepared
+    return jsonable({
+        "id": result.spec.id,
+        "title": result.spec.title,
+        "source": result.spec.source,
+        "source_sha256": p.sha256,
+        "variables": [{"column": v.column, "label": v.label, "unit": v.unit, "transform": t,
+                       "noise_share": v.noise_share} for v, t in zip(result.spec.variables, p.transforms)],
+        "rows_read": p.rows_read,
+        "rows_used": p.rows_used,
+        "period": list(p.period) if p.period else None,
+        "examined_coranks": list(result.examined),
+        "examined_from": result.examined_from,
+        "full_sample": result.full.to_dict(),
+        "identified": {str(q): i.to_dict() for q, i in sorted(result.identified.items())},
+        "plans": plans,
+        "findings": [f.to_dict() for f in result.findings],
+    })
+
+
+def results_document(run) -> dict:
+    """Everything the run computed, as one JSON-ready dict (layout: docs/results.md)."""
+    return {
+        "schema": RESULTS_SCHEMA_VERSION,
+        "relspan": __version__,
+        "title": run.spec.report.title,
+        "environment": dict(sorted(run.environment.items())),
+        "datasets": [dataset_document(r) for r in run.datasets],
+        "claims": [v.to_dict() for v in run.verdicts],
+    }
+
+
+def _assumptions_csv(result) -> bytes:
+    full = result.full
+    rows = []
+    for a in P.ORDER:
+        if a not in full.coranks:
+            continue
+        row = {"assumption": a, "corank": full.coranks[a], "normalise_on": full.names[full.ref]}
+        for k, name in enumerate(full.names):
+            if k == full.ref:
+                continue
+            if a == "diagonal" and full.frisch_lower is not None:
+                row[f"low[{name}]"] = full.frisch_lower[k]
+                row[f"high[{name}]"] = full.frisch_upper[k]
+            elif a in full.coefficients:
+                row[f"coef[{name}]"] = full.coefficients[a][k]
+        rows.append(row)
+    return _csv(pd.DataFrame(rows))
+
+
+def _windows_csv(result) -> bytes:
+    rows = []
+    for plan in result.plans:
+        angles = {}
+        for (a, q), s in plan.stability.items():
+            for lab, ang in zip(plan.labels, s.to_reference_deg):
+                angles[(lab, a, q)] = ang
+        for an, w in zip(plan.analyses, plan.windows):
+            for a in P.ORDER:
+                if a not in an.coranks:
+                    continue
+                row = {"plan": plan.plan.id, "window": an.label, "rows": w.rows,
+                       "first_time": w.first_time, "last_time": w.last_time, "assumption": a,
+                       "corank": an.coranks[a]}
+                for q in result.examined:
+                    row[f"angle_to_full_deg[q={q}]"] = angles.get((an.label, a, q), np.nan)
+                for k, name in enumerate(an.names):
+                    if k != an.ref:
+                        row[f"coef[{name}]"] = an.coefficient(a, an.ref, k) if a != "diagonal" else np.nan
+                rows.append(row)
+    return _csv(pd.DataFrame(rows))
+
+
+def _claims_csv(run) -> bytes:
+    rows = [{"id": v.claim.id, "dataset": v.claim.dataset, "plan": v.claim.plan, "kind": v.claim.kind,
+             "holds": v.holds, "text": v.claim.text, "observed": v.observed} for v in run.verdicts]
+    return _csv(pd.DataFrame(rows, columns=["id", "dataset", "plan", "kind", "holds", "text", "observed"]))
+
+
+def _findings_csv(run) -> bytes:
+    rows = [{"dataset": r.spec.id, "kind": f.kind, "topic": f.topic, "plan": f.plan, "headline": f.headline,
+             "detail": f.detail} for r in run.datasets for f in r.findings]
+    return _csv(pd.DataFrame(rows, columns=["dataset", "kind", "topic", "plan", "headline", "detail"]))
+
+
+def site_content(run, *, executor=None, cache=None, progress=None) -> SiteContent:
+    """The :class:`~relspan.site.content.SiteContent` of a whole run.
+
+    Figures are drawn on ``executor`` (default: in this process) and kept in
+    ``cache`` (a :class:`~relspan.run.cache.ResultCache`) under the content
+    key of their dataset, so an unchanged rebuild draws nothing.
+    """
+    spec = run.spec
+    pub = P.Publisher(fmt=spec.site.figures)
+    pages: list[Page] = [P.home_page(run)]
+    for result in run.datasets:
+        pages.append(P.dataset_page(run, result, pub))
+        pages.extend(P.window_pages(run, result, pub))
+        pub.add(f"data/{result.spec.id}/results.json", P.json_bytes(dataset_document(result)))
+        pub.add(f"data/{result.spec.id}/assumptions.csv", _assumptions_csv(result))
+        pub.add(f"data/{result.spec.id}/windows.csv", _windows_csv(result))
+    pub.add("data/results.json", P.json_bytes(results_document(run)))
+    pub.add("data/claims.csv", _claims_csv(run))
+    pub.add("data/findings.csv", _findings_csv(run))
+    spec_link = pub.add(f"data/{spec.path.name}", spec.text.encode("utf-8"))
+    pub.add("data/results.schema.json", RESULTS_SCHEMA_PATH.read_bytes())
+    pages += [P.claims_page(run, pub), P.caution_page(), P.methods_page(pub), P.glossary_page()]
+    pages += [P.reproduce_page(run, pub, spec_link), P.downloads_page(run, pub)]
+    pages = pub.resolve(pages, executor=executor, cache=cache, progress=progress)
+    nav = (
+        NavItem("Home", "index.html"),
+        NavItem("Datasets", P.dataset_path(run.datasets[0].spec.id) if run.datasets else "index.html",
+                tuple(NavItem(r.spec.title, P.dataset_path(r.spec.id)) for r in run.datasets)),
+        NavItem("Claims", "claims.html"),
+        NavItem("Caution", "caution.html"),
+        NavItem("Methods", "methods.html"),
+        NavItem("Glossary", "glossary.html"),
+        NavItem("Reproduce", "reproduce.html"),
+        NavItem("Downloads", "downloads.html"),
+    )
+    footer = (f"Built with relspan {__version__} from the spec and data listed on [Reproduce](/reproduce.html); "
+              "every number can be downloaded from [Downloads](/downloads.html).")
+    return SiteContent(title=spec.report.title, language=spec.site.language, pages=tuple(pages),
+                       files=pub.site_files(), nav=nav, footer=footer)
+
+

@@ -1,0 +1,270 @@
+"""Plain-language text blocks of the site: cautions, methods, glossary.
+
+Two registers on every page: the plain summary first, the technical detail
+below it. Nothing here depends on the data; pages that quote numbers build
+their text in :mod:`relspan.report.pages`.
+"""
+
+from __future__ import annotations
+
+__all__ = ["USUAL_CAUTIONS", "CAUTION_LINK", "caution_body", "GLOSSARY", "METHODS", "REFERENCES",
+           "ASSUMPTION_PLAIN"]
+
+#: the cautions every page that interprets results carries (short form)
+USUAL_CAUTIONS = (
+    "These results describe **association** in the data, not causation. They rest on the quality of "
+    "the data and on the noise assumption stated beside each number. Before any decision, consult a "
+    "qualified statistician and follow your institution's own review."
+)
+
+#: the link every place that shows a single coefficient carries
+CAUTION_LINK = "[How to read a single coefficient](/caution.html)"
+
+#: reader-facing words for each noise assumption: (short name, one sentence)
+ASSUMPTION_PLAIN = {
+    "elementary": ("One variable alone noisy",
+                   "Ordinary least squares: one chosen variable carries all the measurement error and "
+                   "the others are exact. There are n such answers, one per variable."),
+    "equal": ("Equal noise",
+              "Every variable carries measurement error of the same size (on the scale analysed): total "
+              "least squares. The answer depends on the units, so relspan works on a stated scale."),
+    "shaped": ("Noise of known relative size",
+               "The sizes of the measurement errors are known up to one common factor, as given in the "
+               "spec (noise_share)."),
+    "bounded": ("Bounded noise",
+                "The measurement error may have any shape, but its size is at most the stated tolerance. "
+                "This gives a range of possible answers, with a guaranteed bound."),
+    "diagonal": ("Independent noise of unknown size",
+                 "Each variable has its own measurement error, independent of the others, of unknown "
+                 "size (the Frisch scheme). The data then give a set of answers, not one."),
+}
+
+
+def caution_body() -> str:
+    """Markdown of the caution page on interpreting single coefficients."""
+    return f"""
+## In short
+
+A single coefficient from a model of several variables can look precise and still mean very little.
+When the data support **two or more** linear relations at once, no single coefficient of one of
+them is determined by the data: every mix of the relations is again a relation, and each mix gives
+different coefficients. Even its **sign** can change from one time window to the next while
+everything the data do pin down stays put.
+
+{USUAL_CAUTIONS}
+
+## Why one normalised coefficient can mean nothing
+
+Suppose the data satisfy two relations, *A* and *B*. Then *A* + 2*B*, *A* − *B* and any other
+combination are satisfied too. Writing "the" equation for one variable picks one member of this
+family, and the coefficients you read off depend entirely on which member was picked — usually by
+the accident of which variable an estimation method treats as noisy. What the data identify is the
+**subspace of relations** (all the combinations together), not any one of its members.
+
+## Why its sign can flip while the subspace is stable
+
+The subspace can stay within a fraction of a degree across windows while the member an estimator
+lands on rotates inside it. A coefficient that is positive in one decade and negative in the next
+is then no evidence that "the relation changed". Compare the coefficient swing with the subspace
+angle on each dataset page before reading anything into a sign.
+
+## What would identify a single coefficient
+
+Only information from outside the data, stated **in advance**: for example, an exclusion
+restriction (a variable known not to enter a given relation), a known ratio of noise variances, or
+a normalisation fixed by theory. With *q* relations, each relation needs *q* − 1 such restrictions
+to be pinned down. relspan reports a **reduced form** (some variables expressed through the others)
+because it is identified once the choice of variables is made; that choice is stated beside it,
+with how well conditioned it is.
+
+## With one relation
+
+When the data support exactly one relation, its coefficients are pinned down under a fixed noise
+assumption, but they still **depend on the assumption**. Under independent noise of unknown size
+(the Frisch scheme) they are known only as intervals, and sometimes not bounded at all. The dataset
+pages show each coefficient under every assumption side by side.
+
+## The usual cautions
+
+- The data describe association, not causation. A relation among measured variables does not say
+  which variable drives which.
+- Results depend on data quality (measurement, revisions, definitions that change over time) and on
+  the assumptions stated on each page, including the tolerance for noise.
+- A tolerance chosen after looking at the results makes every conclusion weaker than it reads.
+- For decisions, consult a qualified statistician, and follow your institution's own review process;
+  this site does not replace either.
+"""
+
+
+GLOSSARY = (
+    ("Corank", "The number of separate linear relations that hold among the variables (after allowing "
+     "for measurement error). Corank 2 among 4 variables means two independent equations tie them "
+     "together."),
+    ("Relation", "A linear equation the variables satisfy up to measurement error, such as "
+     "*a*·*x* + *b*·*y* + *c*·*z* = constant."),
+    ("Relation subspace", "All the relations together: with two relations, every combination of them is "
+     "also a relation, and the set of all of them is a plane. This plane is what the data pin down."),
+    ("Elementary regression", "The ordinary least-squares fit that treats one chosen variable as the only "
+     "noisy one. With n variables there are n of them; how far they disagree shows how much the noise "
+     "assumption matters."),
+    ("Noise assumption", "What is assumed about the measurement errors: which variables carry them, how "
+     "large they are, whether they are independent. Each assumption can give a different answer."),
+    ("Tolerance (eps)", "The largest measurement error the analysis allows, as a share of each variable's "
+     "variance (relative) or in the data's units (absolute)."),
+    ("Normalised coefficient", "A coefficient of a relation written as an equation for one chosen "
+     "variable. Meaningful only when it is identified; see [how to read a single coefficient](/caution.html)."),
+    ("Reduced form", "Some variables (as many as there are relations) written through the others. It is "
+     "identified once the choice of variables is made."),
+    ("Principal angle", "How far apart two subspaces are, in degrees: 0 means the same, 90 means "
+     "perpendicular. Used to compare relation subspaces across windows."),
+    ("Window", "A stretch of the data (a time span or a run of rows) analysed on its own, so results can "
+     "be compared across time."),
+    ("Frisch scheme", "The assumption that each variable has its own independent measurement error of "
+     "unknown size; the data then determine a set of possible relations."),
+    ("Identified", "Pinned down by the data and the stated assumptions alone: a single value, or a set "
+     "whose bounds are known."),
+)
+
+
+#: (key, title, assumption in one sentence, [(formula TeX, alt text in words)], limits, reference keys)
+METHODS = (
+    ("elementary", "Elementary regressions (ordinary least squares)",
+     "One variable at a time is the only noisy one.",
+     [(r"$a^{(j)} = P_{j\cdot}/P_{jj},\quad P = S^{-1}$",
+       "relation j is row j of the inverse covariance P divided by its diagonal entry"),
+      (r"$\hat\beta_{jk} = -P_{jk}/P_{jj},\quad \hat\sigma^2_j = 1/P_{jj}$",
+       "least-squares coefficient of x k in the regression of x j is minus P j k over P j j; "
+       "residual variance is one over P j j")],
+     "Presupposes exactly one relation. With several relations each regression lands on an arbitrary "
+     "member of the relation subspace. Exactly collinear data make S singular: relspan then reports the "
+     "exact relations (the null space of S) instead. For two variables the two regressions bracket the "
+     "slope of every independent-noise answer (Gini 1921).",
+     ("frisch1934", "anderson1958", "higham2002", "gini1921")),
+    ("equal", "Equal noise: total least squares",
+     "Every variable carries noise of the same variance on the scale analysed.",
+     [(r"$S\,v_i = \lambda_i v_i,\quad \lambda_1 \leq \cdots \leq \lambda_n$",
+       "eigenvectors v i of S with eigenvalues in ascending order"),
+      (r"$\mathrm{relations} = \mathrm{span}(v_1,\ldots,v_q),\quad \hat\sigma^2 = (\lambda_1 + \cdots + \lambda_q)/q$",
+       "the relations span the eigenvectors of the q smallest eigenvalues; the noise variance is the "
+       "mean of those q eigenvalues")],
+     "Not invariant to the units: relspan analyses a stated scale (the correlation scale when the "
+     "tolerance is relative). Corank q is supported when the q smallest eigenvalues are at most eps.",
+     ("eckart1936", "golub1980", "tipping1999")),
+    ("shaped", "Noise of known relative size (generalised eigenproblem)",
+     "Noise variances are known up to one common factor: N = s\u00b2 W.",
+     [(r"$S\,v = \lambda\,W v$", "S v equals lambda times W v, with W the known noise shape")],
+     "Only as good as the stated shape W; for two variables this is Deming regression.",
+     ("koopmans1937", "deming1943")),
+    ("bounded", "Bounded noise (Weyl and Davis-Kahan)",
+     "The noise covariance may have any shape but its spectral norm is at most eps.",
+     [(r"$q\ \mathrm{admissible}\ \Leftrightarrow\ \lambda_q(S) \leq \varepsilon$",
+       "corank q is admissible exactly when the q-th smallest eigenvalue of S is at most eps"),
+      (r"$\sin\theta \leq \varepsilon / \lambda_{q+1}(S)$",
+       "the sine of the largest angle to the eigenvector subspace is at most eps over the next eigenvalue")],
+     "The angle bound is vacuous when eps approaches the next eigenvalue; it bounds the largest principal "
+     "angle between the relation subspace and the eigenvectors.",
+     ("weyl1912", "daviskahan1970", "stewart1990")),
+    ("diagonal", "Independent noise of unknown size: the Frisch scheme",
+     "Each variable has independent noise of unknown variance: N = diag(d), d \u2265 0, S \u2212 N "
+     "positive semidefinite.",
+     [(r"$0 \leq d_j \leq 1/P_{jj}$", "each noise variance d j lies between 0 and one over P j j"),
+      (r"$q = 1:\ P_{ij}P_{jk}P_{ki} > 0\ \mathrm{for\ all}\ i,j,k\ \Rightarrow\ \mathrm{hull\ of\ "
+       r"elementary\ regressions}$",
+       "with one relation, if every product P i j P j k P k i is positive, the solutions are the convex hull "
+       "of the elementary regressions"),
+      (r"$\mathrm{point\ identification\ needs}\ q(q+1) \geq 2n$",
+       "point identification needs q times q plus one to be at least 2 n")],
+     "With one relation the coefficients are bounded only when all elementary regressions lie in one "
+     "orthant. For several relations relspan searches for the largest corank by minimum-trace and "
+     "minimum-rank factor analysis from several starts and states a certificate, a proof of "
+     "impossibility, or \u201cundetermined at eps\u201d. The weighted minimum-trace problems are solved by "
+     "a log-barrier interior-point method. When q(q+1) < 2n the solutions form a family, whose spread is "
+     "reported. A variable nearly unrelated to the others can be declared pure noise, which adds one "
+     "trivial relation; and up to Ledermann's bound, relations can appear from sampling noise alone.",
+     ("frisch1934", "reiersol1941", "kleppe1984", "shapiro1982", "dellariccia1982", "tenberge1991",
+      "shapiro2002", "ning2015", "boyd2004", "ledermann1937", "spearman1904", "gini1921")),
+    ("identified", "What is identified: subspace, reduced form, single coefficients",
+     "Only what is the same for every admissible answer is identified; everything else is a choice.",
+     [(r"$A = [\,I_q \;\; -B\,]\,\Pi$",
+       "the relation basis A is solved for q chosen variables, giving the reduced-form coefficients B; Pi "
+       "orders the variables")],
+     "With q relations, a single relation is identified only with q minus 1 restrictions from outside the "
+     "data. The q variables of the reduced form are chosen by QR with column pivoting so that the choice "
+     "is well conditioned; the condition number is reported beside it.",
+     ("koopmans1950", "businger1965")),
+    ("angles", "Principal angles between subspaces",
+     "Two relation subspaces are compared by the angles between them.",
+     [(r"$\theta_i = \mathrm{atan2}(\sigma_i((I - Q_A Q_A^T)Q_B),\ \sigma_i(Q_A^T Q_B))$",
+       "each principal angle is atan2 of a singular value of the residual projection and of the cosine "
+       "matrix")],
+     "Sines and cosines are both computed so that small angles keep their accuracy.",
+     ("bjorck1973", "knyazev2002")),
+    ("moments", "Window statistics from mergeable blocks",
+     "Windows are merged from block statistics, never recomputed from raw rows.",
+     [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
+       "merged mean and co-moment of two blocks A and B, with delta the difference of their means")],
+     "Blocks use a shifted two-pass sum; windows are merged pairwise without subtraction.",
+     ("chan1979", "chan1983", "welford1962", "bjorck1996")),
+)
+
+REFERENCES = {
+    "frisch1934": "Frisch, R. (1934). *Statistical Confluence Analysis by Means of Complete Regression "
+                  "Systems*. Oslo: University Institute of Economics.",
+    "reiersol1941": "Reiersøl, O. (1941). Confluence analysis by means of lag moments and other methods of "
+                    "confluence analysis. *Econometrica*, 9(1), 1–24.",
+    "kleppe1984": "Klepper, S. & Leamer, E. E. (1984). Consistent sets of estimates for regressions with "
+                  "errors in all variables. *Econometrica*, 52(1), 163–183.",
+    "eckart1936": "Eckart, C. & Young, G. (1936). The approximation of one matrix by another of lower rank. "
+                  "*Psychometrika*, 1(3), 211–218.",
+    "golub1980": "Golub, G. H. & Van Loan, C. F. (1980). An analysis of the total least squares problem. "
+                 "*SIAM Journal on Numerical Analysis*, 17(6), 883–893.",
+    "koopmans1937": "Koopmans, T. C. (1937). *Linear Regression Analysis of Economic Time Series*. "
+                    "Haarlem: De Erven F. Bohn.",
+    "deming1943": "Deming, W. E. (1943). *Statistical Adjustment of Data*. New York: Wiley.",
+    "weyl1912": "Weyl, H. (1912). Das asymptotische Verteilungsgesetz der Eigenwerte linearer partieller "
+                "Differentialgleichungen. *Mathematische Annalen*, 71, 441–479.",
+    "daviskahan1970": "Davis, C. & Kahan, W. M. (1970). The rotation of eigenvectors by a perturbation. III. "
+                      "*SIAM Journal on Numerical Analysis*, 7(1), 1–46.",
+    "shapiro1982": "Shapiro, A. (1982). Rank-reducibility of a symmetric matrix and sampling theory of "
+                   "minimum trace factor analysis. *Psychometrika*, 47(2), 187–199.",
+    "dellariccia1982": "Della Riccia, G. & Shapiro, A. (1982). Minimum rank and minimum trace of covariance "
+                       "matrices. *Psychometrika*, 47(4), 443–448.",
+    "tenberge1991": "ten Berge, J. M. F. & Kiers, H. A. L. (1991). A numerical approach to the approximate "
+                    "and the exact minimum rank of a covariance matrix. *Psychometrika*, 56(2), 309–315.",
+    "shapiro2002": "Shapiro, A. & ten Berge, J. M. F. (2002). Statistical inference of minimum rank factor "
+                   "analysis. *Psychometrika*, 67(1), 79–94.",
+    "ning2015": "Ning, L., Georgiou, T. T., Tannenbaum, A. & Boyd, S. P. (2015). Linear models based on "
+                "noisy data and the Frisch scheme. *SIAM Review*, 57(2), 167–197.",
+    "ledermann1937": "Ledermann, W. (1937). On the rank of the reduced correlational matrix in multiple-"
+                     "factor analysis. *Psychometrika*, 2(2), 85–93.",
+    "spearman1904": "Spearman, C. (1904). \u201cGeneral intelligence,\u201d objectively determined and "
+                    "measured. *American Journal of Psychology*, 15(2), 201–292.",
+    "bjorck1973": "Björck, Å. & Golub, G. H. (1973). Numerical methods for computing angles between linear "
+                  "subspaces. *Mathematics of Computation*, 27(123), 579–594.",
+    "chan1979": "Chan, T. F., Golub, G. H. & LeVeque, R. J. (1979). Updating formulae and a pairwise "
+                "algorithm for computing sample variances. Technical Report STAN-CS-79-773, Stanford "
+                "University.",
+    "welford1962": "Welford, B. P. (1962). Note on a method for calculating corrected sums of squares and "
+                   "products. *Technometrics*, 4(3), 419–420.",
+    "gini1921": "Gini, C. (1921). Sull'interpolazione di una retta quando i valori della variabile "
+                "indipendente sono affetti da errori accidentali. *Metron*, 1, 63–82.",
+    "anderson1958": "Anderson, T. W. (1958). *An Introduction to Multivariate Statistical Analysis*. New York: "
+                    "Wiley.",
+    "higham2002": "Higham, N. J. (2002). *Accuracy and Stability of Numerical Algorithms* (2nd ed.). "
+                  "Philadelphia: SIAM.",
+    "tipping1999": "Tipping, M. E. & Bishop, C. M. (1999). Probabilistic principal component analysis. "
+                   "*Journal of the Royal Statistical Society B*, 61(3), 611–622.",
+    "stewart1990": "Stewart, G. W. & Sun, J.-G. (1990). *Matrix Perturbation Theory*. Boston: Academic Press.",
+    "boyd2004": "Boyd, S. & Vandenberghe, L. (2004). *Convex Optimization*. Cambridge: Cambridge University "
+                "Press.",
+    "koopmans1950": "Koopmans, T. C. & Reiersøl, O. (1950). The identification of structural "
+                    "characteristics. *Annals of Mathematical Statistics*, 21(2), 165–181.",
+    "businger1965": "Businger, P. & Golub, G. H. (1965). Linear least squares solutions by Householder "
+                    "transformations. *Numerische Mathematik*, 7, 269–276.",
+    "knyazev2002": "Knyazev, A. V. & Argentati, M. E. (2002). Principal angles between subspaces in an "
+                   "A-based scalar product: algorithms and perturbation estimates. *SIAM Journal on "
+                   "Scientific Computing*, 23(6), 2008–2040.",
+    "chan1983": "Chan, T. F., Golub, G. H. & LeVeque, R. J. (1983). Algorithms for computing the sample "
+                "variance: analysis and recommendations. *The American Statistician*, 37(3), 242–247.",
+    "bjorck1996": "Björck, Å. (1996). *Numerical Methods for Least Squares Problems*. Philadelphia: SIAM.",
+}

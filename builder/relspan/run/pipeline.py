@@ -1,0 +1,441 @@
+"""Spec -> data -> window statistics -> analysis -> findings -> claim verdicts.
+
+:func:`run_analysis` drives the stages for a whole spec. Each dataset is read
+once (streaming, in :mod:`relspan.data`), reduced to block statistics, and
+cut into the windows of its plans; the windows are independent tasks that run
+on the executor the user chose (:mod:`relspan.run.executors`). A dataset's
+whole result is cached by content (:mod:`relspan.run.cache`): the spec
+sections it depends on, the SHA-256 of its input file and relspan's version.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import platform
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Sequence
+
+import numpy as np
+
+from relspan import __version__
+from relspan.analysis.moments import Moments
+from relspan.analysis.stability import (CoefficientSwing, CorankSequence, SubspaceStability,
+                                        coefficient_swing, corank_sequence, subspace_stability)
+from relspan.analysis.window import WindowAnalysis, WindowOptions, analyse_window, reference_index
+from relspan.errors import RelspanWarning
+from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
+
+__all__ = ["PlanResult", "DatasetResult", "AnalysisRun", "run_analysis", "analyse_prepared",
+           "LazyExecutor", "open_cache", "CORANK_PREFERENCE"]
+
+#: which assumption's corank is examined when the spec says ``coranks: auto``
+CORANK_PREFERENCE = ("equal", "shaped", "bounded", "diagonal")
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class PlanResult:
+    """One window plan applied to one dataset.
+
+    Attributes
+    ----------
+    plan : WindowPlanSpec
+    windows : tuple
+        The data layer's window descriptions (label, rows, first/last time).
+    analyses : tuple of WindowAnalysis
+        One per window, same order.
+    stability : mapping (assumption, q) -> SubspaceStability
+        Principal angles between the windows' relation subspaces (and to the
+        full sample) for every examined corank and assumption with a basis.
+    swings : mapping assumption -> CoefficientSwing
+        Normalised coefficients of the reference relation across windows.
+    coranks : CorankSequence
+        The corank per window under each assumption.
+    """
+
+    plan: WindowPlanSpec
+    windows: tuple
+    analyses: tuple[WindowAnalysis, ...]
+    stability: dict
+    swings: dict
+    coranks: CorankSequence
+
+    @property
+    def labels(self) -> tuple[str, ...]:
+        return tuple(a.label for a in self.analyses)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class DatasetResult:
+    """Everything relspan found for one dataset.
+
+    Attributes
+    ----------
+    spec : DatasetSpec
+    prepared : object
+        :class:`relspan.data.prepare.PreparedDataset` (summary, overview
+        series, windows and their moments, input checksum).
+    full : WindowAnalysis
+        The full sample under every assumption (the reference for stability).
+    plans : tuple of PlanResult
+    examined : tuple of int
+        The coranks examined (from the spec, or chosen from the evidence).
+    examined_from : str
+        How ``examined`` was chosen, in words.
+    findings : tuple
+        :class:`relspan.analysis.findings.Finding` statements for the report.
+    identified : mapping int -> object
+        :class:`relspan.analysis.identified.Identified` per examined corank.
+    flat : mapping int -> object
+        :class:`relspan.analysis.flat.ElementaryFlat` per examined corank.
+    threshold_deg : float
+        Stability threshold (largest principal angle) in degrees.
+    cache_key : str
+        Content key of everything this result depends on ("" when not cached).
+    """
+
+    spec: DatasetSpec
+    prepared: object
+    full: WindowAnalysis
+    plans: tuple[PlanResult, ...]
+    examined: tuple[int, ...]
+    examined_from: str
+    findings: tuple
+    identified: dict
+    flat: dict
+    threshold_deg: float
+    cache_key: str = ""
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return self.full.names
+
+    @property
+    def labels(self) -> tuple[str, ...]:
+        return tuple(v.label for v in self.spec.variables)
+
+    def plan(self, plan_id: str) -> PlanResult:
+        for p in self.plans:
+            if p.plan.id == plan_id:
+                return p
+        raise KeyError(plan_id)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class AnalysisRun:
+    """The result of analysing a whole spec (before any page is written).
+
+    Attributes
+    ----------
+    spec : Spec
+    datasets : tuple of DatasetResult
+    verdicts : tuple
+        :class:`relspan.analysis.claims.ClaimVerdict`, in the spec's order.
+    warnings : tuple of str
+        Numerical warnings raised during the analysis (window named).
+    environment : mapping str -> str
+        Versions of Python, relspan and the numerical libraries.
+    cache_hits, cache_misses : int
+        Datasets served from / written to the result cache.
+    """
+
+    spec: Spec
+    datasets: tuple[DatasetResult, ...]
+    verdicts: tuple
+    warnings: tuple[str, ...]
+    environment: dict
+    cache_hits: int = 0
+    cache_misses: int = 0
+
+    @property
+    def all_claims_hold(self) -> bool:
+        return all(v.holds for v in self.verdicts)
+
+    def dataset(self, dataset_id: str) -> DatasetResult:
+        for d in self.datasets:
+            if d.spec.id == dataset_id:
+                return d
+        raise KeyError(dataset_id)
+
+
+class LazyExecutor:
+    """Opens the executor the user asked for on first use only (a cached rebuild needs none)."""
+
+    def __init__(self, jobs: int | None = None, scheduler: str | None = None) -> None:
+        self.jobs, self.scheduler = jobs, scheduler
+        self._cm = None
+        self._ex = None
+
+    def get(self):
+        if self._ex is None:
+            from relspan.run.executors import open_executor
+
+            self._cm = open_executor(self.jobs, self.scheduler)
+            self._ex = self._cm.__enter__()
+        return self._ex
+
+    def close(self) -> None:
+        if self._cm is not None:
+            cm, self._cm, self._ex = self._cm, None, None
+            cm.__exit__(None, None, None)
+
+    def __enter__(self) -> "LazyExecutor":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+
+_CODE_VERSION: str | None = None
+
+
+def code_version() -> str:
+    """relspan's version plus a SHA-256 of its own source files.
+
+    Part of every cache key, so results computed by other code (an edited
+    checkout, another release) are never reused. Computed once per process;
+    it depends only on the installed files, so it is the same in every worker.
+    """
+    global _CODE_VERSION
+    if _CODE_VERSION is None:
+        import hashlib
+
+        root = Path(__file__).resolve().parents[1]
+        h = hashlib.sha256()
+        for path in sorted(root.rglob("*")):
+            if path.suffix in (".py", ".html", ".css", ".json") and "__pycache__" not in path.parts:
+                h.update(path.relative_to(root).as_posix().encode())
+                h.update(path.read_bytes())
+        _CODE_VERSION = f"{__version__}+{h.hexdigest()[:16]}"
+    return _CODE_VERSION
+
+
+def environment() -> dict:
+    """Versions that a reader needs to rebuild the same bytes."""
+    import jinja2
+    import markdown
+    import matplotlib
+    import pandas
+    import scipy
+    import yaml
+
+    return {
+        "python": platform.python_version(),
+        "relspan": __version__,
+        "numpy": np.__version__,
+        "scipy": scipy.__version__,
+        "pandas": pandas.__version__,
+        "matplotlib": matplotlib.__version__,
+        "markdown": markdown.__version__,
+        "pyyaml": yaml.__version__,
+        "jinja2": jinja2.__version__,
+    }
+
+
+def _window_options(ds: DatasetSpec, ref: int) -> WindowOptions:
+    checks = ds.checks
+    return WindowOptions(
+        assumptions=tuple(checks.assumptions),
+        absolute=checks.tolerance.absolute,
+        relative=checks.tolerance.relative if checks.tolerance.absolute is None else None,
+        ref=ref,
+        coranks=tuple(checks.coranks) or tuple(range(1, len(ds.variables))),
+        shape=ds.noise_shape,
+        frisch_starts=checks.frisch_starts,
+        seed=checks.seed,
+    )
+
+
+def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[str, ...]]:
+    """One window (top-level so process pools and Dask can pickle it)."""
+    moments, names, options, common_std, label = item
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", RelspanWarning)
+        result = analyse_window(moments, names=names, options=options, common_std=common_std,
+                                label=label)
+    messages = tuple(str(w.message) for w in caught if issubclass(w.category, RelspanWarning))
+    return result, messages
+
+
+def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, ...], str]:
+    if ds.checks.coranks:
+        qs = tuple(q for q in ds.checks.coranks if 1 <= q <= full.n - 1)
+        return qs, "set in the spec (checks.coranks)"
+    for a in CORANK_PREFERENCE:
+        q = full.coranks.get(a)
+        if q is not None:
+            word = {"equal": "equal-noise", "shaped": "known-shape", "bounded": "bounded-noise",
+                    "diagonal": "diagonal-noise"}[a]
+            if q == 0:
+                return (), f"no relation is supported by the full sample under the {word} assumption"
+            return (q,), f"the corank the full sample supports under the {word} assumption"
+    return (1,), "one relation, as the elementary regressions presuppose"
+
+
+def _plan_summaries(plan: WindowPlanSpec, windows: Sequence, analyses: Sequence[WindowAnalysis],
+                    full: WindowAnalysis, examined: Sequence[int], threshold: float) -> PlanResult:
+    labels = [a.label for a in analyses]
+    stability: dict = {}
+    for q in examined:
+        for assumption in full.bases:
+            ref_basis = full.bases[assumption].get(q)
+            bases = [a.bases.get(assumption, {}).get(q) for a in analyses]
+            if ref_basis is None or any(b is None for b in bases) or not bases:
+                continue
+            stability[(assumption, q)] = subspace_stability(bases, labels=labels, reference=ref_basis,
+                                                            threshold_deg=threshold)
+    swings: dict = {}
+    for assumption in full.coefficients:
+        vals = [a.coefficients.get(assumption) for a in analyses]
+        if any(v is None for v in vals) or not vals:
+            continue
+        swings[assumption] = coefficient_swing(np.vstack(vals), labels=labels, names=full.names)
+    coranks = corank_sequence({a: [w.coranks.get(a) for w in analyses] for a in full.coranks},
+                              labels=labels)
+    return PlanResult(plan=plan, windows=tuple(windows), analyses=tuple(analyses),
+                      stability=stability, swings=swings, coranks=coranks)
+
+
+def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec], *, executor=None,
+                     progress=None, warn_sink: list | None = None) -> DatasetResult:
+    """Analyse one prepared dataset: full sample, every window, summaries, findings."""
+    from relspan.analysis.findings import dataset_findings
+    from relspan.analysis.flat import elementary_flat
+    from relspan.analysis.identified import identified_quantities
+    from relspan.data.prepare import window_moments
+    from relspan.run.executors import SerialExecutor, map_in_chunks
+
+    names = tuple(prepared.variables)
+    full_m: Moments = prepared.full
+    common_std = full_m.std()
+    ref = reference_index(full_m.covariance(), names, ds.checks.normalise_on)
+    options = _window_options(ds, ref)
+
+    items = [(full_m, names, options, common_std, "full sample")]
+    spans = []
+    for plan in plans:
+        pairs = window_moments(prepared, plan.id)
+        spans.append((plan, [w for w, _ in pairs], len(items), len(items) + len(pairs)))
+        items.extend((m, names, options, common_std, w.label) for w, m in pairs)
+    executor = executor or SerialExecutor()
+    results = map_in_chunks(executor, _analyse_task, items, progress=progress)
+    sink = warn_sink if warn_sink is not None else []
+    for i, (_, messages) in enumerate(results):  # say which dataset and plan a window belongs to
+        plan_id = next((p.id for p, _, a, b in spans if a <= i < b), None)
+        where = f"dataset {ds.id!r}" + (f", plan {plan_id!r}" if plan_id else "")
+        sink.extend(f"{where}: {m}" for m in messages)
+    analyses = [r for r, _ in results]
+    full = analyses[0]
+    examined, examined_from = _choose_examined(ds, full)
+    threshold = float(ds.checks.max_angle_deg)
+    plan_results = tuple(_plan_summaries(plan, wins, analyses[a:b], full, examined, threshold)
+                         for plan, wins, a, b in spans)
+
+    identified: dict = {}
+    flats: dict = {}
+    for q in examined:
+        basis = full.bases.get("equal", {}).get(q)
+        if basis is None:
+            basis = next((b[q] for b in full.bases.values() if q in b), None)
+        if basis is not None:
+            # bases are on the common scale; identified quantities are read in data units
+            identified[q] = identified_quantities(basis / common_std[None, :], names=names)
+        if not full.elementary.singular:
+            flats[q] = elementary_flat(full.elementary, q=q, ref=ref)
+    from relspan.data.prepare import without_blocks
+
+    # the block statistics are not needed once the windows are assembled: do not keep them
+    result = DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
+                           examined=examined, examined_from=examined_from, findings=(),
+                           identified=identified, flat=flats, threshold_deg=threshold)
+    return dataclasses.replace(result, findings=tuple(dataset_findings(result)))
+
+
+def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], sha: str) -> str:
+    from relspan.run.cache import task_key
+
+    def plain(obj):
+        if dataclasses.is_dataclass(obj):
+            return {f.name: plain(getattr(obj, f.name)) for f in dataclasses.fields(obj)
+                    if f.name not in ("source_path", "line")}
+        if isinstance(obj, (list, tuple)):
+            return [plain(x) for x in obj]
+        return obj
+
+    return task_key(task="dataset", dataset=plain(ds), plans=plain(list(plans)), source_sha256=sha,
+                    version=code_version())
+
+
+def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None = None,
+                 use_cache: bool = True, cache_dir: Path | None = None, progress: bool = True,
+                 executor: LazyExecutor | None = None, cache=None, write_cache: bool = True) -> AnalysisRun:
+    """Analyse every dataset of ``spec`` and check its claims.
+
+    Parameters
+    ----------
+    spec : Spec
+        A validated spec (:func:`relspan.spec.load_spec`).
+    jobs, scheduler
+        Where window tasks run (:func:`relspan.run.executors.open_executor`);
+        ignored when ``executor`` is given.
+    use_cache : bool
+        Read the result cache (``--no-cache`` sets False).
+    cache_dir : Path, optional
+        Cache folder (default ``.relspan-cache`` beside the spec).
+    progress : bool
+        Show a progress line on stderr when it is a terminal.
+    executor : LazyExecutor, optional
+        Shared with later stages (figures) so workers start once.
+    cache : ResultCache, optional
+        Shared with later stages; default: opened from ``cache_dir``.
+    write_cache : bool
+        Store new results (``relspan check`` only reads the cache).
+    """
+    from relspan.analysis.claims import evaluate_claims
+    from relspan.data.prepare import prepare_dataset
+    from relspan.data.sources import file_sha256
+    from relspan.run.progress import Progress
+
+    if cache is None:
+        cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
+    own = executor is None
+    lazy = executor or LazyExecutor(jobs, scheduler)
+    results: list[DatasetResult] = []
+    messages: list[str] = []
+    try:
+        for ds in spec.datasets:
+            plans = spec.plans_for(ds)
+            key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
+            cached = cache.get(key)
+            if cached is not None:
+                result, cached_messages = cached
+                results.append(dataclasses.replace(result, spec=ds, cache_key=key))
+                messages.extend(cached_messages)
+                continue
+            prepared = prepare_dataset(ds, plans)
+            total = 1 + sum(len(prepared.plan(p.id).windows) for p in plans)
+            sink: list[str] = []
+            with Progress(f"analysis of {ds.id}", total, enabled=None if progress else False) as bar:
+                result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
+                                          warn_sink=sink)
+            result = dataclasses.replace(result, cache_key=key)
+            if write_cache:
+                cache.put(key, (result, tuple(sink)))
+            results.append(result)
+            messages.extend(sink)
+    finally:
+        if own:
+            lazy.close()
+    for m in dict.fromkeys(messages):
+        warnings.warn(m, RelspanWarning, stacklevel=2)
+    run = AnalysisRun(spec=spec, datasets=tuple(results), verdicts=(), warnings=tuple(dict.fromkeys(messages)),
+                      environment=environment(), cache_hits=cache.hits, cache_misses=cache.misses)
+    return dataclasses.replace(run, verdicts=tuple(evaluate_claims(run)))
+
+
+def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None):
+    """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled."""
+    from relspan.run.cache import DEFAULT_CACHE_DIRNAME, ResultCache
+
+    return ResultCache((cache_dir or spec.folder / DEFAULT_CACHE_DIRNAME) if use_cache else None)

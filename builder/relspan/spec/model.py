@@ -1,0 +1,284 @@
+"""Frozen dataclasses for a validated spec (format v1).
+
+The loader (:mod:`relspan.spec.loader`) turns YAML text into these objects
+after checking it against the schema (:mod:`relspan.spec.schema`). Every other
+part of relspan reads the spec only through these classes. Field names follow
+the YAML keys; defaults here are the defaults of the format.
+
+Paths are stored as written in the spec *and* resolved: ``DatasetSpec.source``
+is the text from the spec, ``DatasetSpec.source_path`` the absolute path.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+__all__ = [
+    "SPEC_VERSION",
+    "TRANSFORMS",
+    "ASSUMPTIONS",
+    "CLAIM_KINDS",
+    "ReportMeta",
+    "TimeSpec",
+    "VariableSpec",
+    "DatasetSpec",
+    "Period",
+    "Span",
+    "WindowPlanSpec",
+    "Tolerance",
+    "ChecksSpec",
+    "ClaimSpec",
+    "SiteSpec",
+    "Spec",
+]
+
+SPEC_VERSION = 1
+
+#: transforms a variable may get, applied in the data layer in this order of meaning
+TRANSFORMS = ("none", "log", "diff", "logdiff", "demean", "standardise")
+
+#: noise assumptions relspan compares side by side
+#:  - elementary: one variable at a time is the only noisy one (the n elementary regressions, OLS)
+#:  - equal: every variable has the same noise variance (total least squares)
+#:  - shaped: noise variances known up to one common factor (``noise_share`` per variable)
+#:  - bounded: noise covariance of spectral norm at most eps (any shape)
+#:  - diagonal: independent noise with unknown variances (Frisch scheme)
+ASSUMPTIONS = ("elementary", "equal", "shaped", "bounded", "diagonal")
+
+#: statements a claim can make
+CLAIM_KINDS = ("corank", "subspace_stable", "sign_stable", "coefficient_bounded")
+
+
+@dataclass(frozen=True, slots=True)
+class ReportMeta:
+    """``report:`` - who wrote it and how to cite it."""
+
+    title: str
+    summary: str = ""
+    authors: tuple[str, ...] = ()
+    licence: str = ""
+    cite: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class TimeSpec:
+    """``datasets[i].time:`` - the time column and an optional date range.
+
+    ``format`` is ``"auto"``, ``"year"`` (e.g. ``1994``), ``"quarter"``
+    (``1994Q1`` / ``1994-Q1``), ``"month"`` (``1994-03``), or a ``strftime``
+    pattern such as ``"%d/%m/%Y"``. ``start``/``end`` are inclusive ISO dates
+    (YAML keys ``from`` and ``to``).
+    """
+
+    column: str
+    format: str = "auto"
+    start: str | None = None
+    end: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class VariableSpec:
+    """``datasets[i].variables[j]:`` - one column to analyse."""
+
+    column: str
+    label: str
+    unit: str = ""
+    transform: str = "none"
+    noise_share: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Tolerance:
+    """``checks.tolerance:`` - eps for the bounded and diagonal assumptions.
+
+    Exactly one of ``absolute`` (eps on the covariance scale of the analysed
+    variables) or ``relative`` (eps as a share of each variable's variance;
+    the analysis then works on the correlation scale) is set.
+    """
+
+    absolute: float | None = None
+    relative: float | None = 0.05
+
+
+@dataclass(frozen=True, slots=True)
+class ChecksSpec:
+    """``checks:`` - which analyses run and with which options.
+
+    ``coranks`` is ``()`` for "auto" (examine the corank the evidence
+    suggests) or the coranks to examine. ``normalise_on`` is ``"auto"`` or a
+    column name. ``max_angle_deg`` and ``sign_share`` are the stability
+    thresholds (largest principal angle between windows, in degrees).
+    """
+
+    assumptions: tuple[str, ...] = ASSUMPTIONS
+    tolerance: Tolerance = field(default_factory=Tolerance)
+    normalise_on: str = "auto"
+    coranks: tuple[int, ...] = ()
+    max_angle_deg: float = 10.0
+    frisch_starts: int = 8
+    seed: int = 0
+
+
+@dataclass(frozen=True, slots=True)
+class DatasetSpec:
+    """``datasets[i]:`` - one table and what to analyse in it."""
+
+    id: str
+    title: str
+    source: str
+    source_path: Path
+    variables: tuple[VariableSpec, ...]
+    format: str = "auto"
+    description: str = ""
+    time: TimeSpec | None = None
+    missing: str = "drop"
+    plans: tuple[str, ...] = ()
+    checks: ChecksSpec = field(default_factory=ChecksSpec)
+
+    @property
+    def columns(self) -> tuple[str, ...]:
+        return tuple(v.column for v in self.variables)
+
+    @property
+    def noise_shape(self) -> tuple[float, ...] | None:
+        """Relative noise variances, when every variable has ``noise_share``."""
+        shares = [v.noise_share for v in self.variables]
+        if any(s is None for s in shares):
+            return None
+        return tuple(float(s) for s in shares)
+
+
+@dataclass(frozen=True, slots=True)
+class Span:
+    """A width or step: whole rows, or a count of time units.
+
+    ``unit`` is ``"rows"`` or one of ``"years"``, ``"quarters"``,
+    ``"months"``, ``"weeks"``, ``"days"``. YAML: ``40`` or ``"10 years"``.
+    """
+
+    count: int
+    unit: str = "rows"
+
+
+@dataclass(frozen=True, slots=True)
+class Period:
+    """A named period with inclusive ISO date bounds."""
+
+    label: str
+    start: str
+    end: str
+
+
+@dataclass(frozen=True, slots=True)
+class WindowPlanSpec:
+    """``windows[k]:`` - how to cut each dataset into windows.
+
+    ``kind`` is ``full``, ``rolling`` (``width``, ``step``), ``expanding``
+    (``width`` is the first window, ``step`` the growth) or ``periods``.
+    """
+
+    id: str
+    kind: str
+    title: str = ""
+    width: Span | None = None
+    step: Span | None = None
+    periods: tuple[Period, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class ClaimSpec:
+    """``claims[m]:`` - a statement the authors make, re-checked on every build.
+
+    kinds and the fields they use:
+
+    - ``corank``: ``assumption``, one of ``equals`` / ``at_least`` / ``at_most``;
+      holds when the corank in every window of ``plan`` satisfies it.
+    - ``subspace_stable``: ``corank``, ``assumption`` (default equal), ``below_deg``;
+      holds when the largest principal angle between any window's relation
+      subspace and the full sample's is below ``below_deg``.
+    - ``sign_stable``: ``assumption`` (default elementary), ``normalise_on``,
+      ``variable``, optional ``sign`` (``positive``/``negative``); holds when
+      the coefficient of ``variable`` in the relation normalised on
+      ``normalise_on`` keeps one sign (the given one) in every window.
+    - ``coefficient_bounded``: ``normalise_on``, ``variable``; holds when the
+      diagonal-noise (Frisch) interval of the coefficient is finite in every window.
+    """
+
+    id: str
+    kind: str
+    dataset: str
+    plan: str
+    text: str = ""
+    assumption: str | None = None
+    corank: int | None = None
+    equals: int | None = None
+    at_least: int | None = None
+    at_most: int | None = None
+    below_deg: float | None = None
+    normalise_on: str | None = None
+    variable: str | None = None
+    sign: str | None = None
+    line: int | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class SiteSpec:
+    """``site:`` - where and how the site is written."""
+
+    out: str = "_site"
+    out_path: Path | None = None
+    figures: str = "svg"
+    notes: str = ""
+    language: str = "en"
+
+
+@dataclass(frozen=True, slots=True)
+class RunSpec:
+    """``run:`` - where window tasks run (the command line's --jobs / --scheduler override it).
+
+    ``jobs`` is the number of local worker processes (None: the cores
+    available); ``scheduler`` the address of a running Dask scheduler
+    (``tcp://host:port``). At most one of the two is set.
+    """
+
+    jobs: int | None = None
+    scheduler: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Spec:
+    """A whole validated spec. ``path`` is the spec file, ``text`` its bytes as read."""
+
+    version: int
+    report: ReportMeta
+    datasets: tuple[DatasetSpec, ...]
+    windows: tuple[WindowPlanSpec, ...]
+    checks: ChecksSpec
+    claims: tuple[ClaimSpec, ...]
+    site: SiteSpec
+    path: Path
+    text: str
+    run: RunSpec = RunSpec()
+
+    @property
+    def folder(self) -> Path:
+        return self.path.parent
+
+    def dataset(self, dataset_id: str) -> DatasetSpec:
+        for d in self.datasets:
+            if d.id == dataset_id:
+                return d
+        raise KeyError(dataset_id)
+
+    def plan(self, plan_id: str) -> WindowPlanSpec:
+        for w in self.windows:
+            if w.id == plan_id:
+                return w
+        raise KeyError(plan_id)
+
+    def plans_for(self, dataset: DatasetSpec) -> tuple[WindowPlanSpec, ...]:
+        """Window plans that apply to ``dataset`` (all of them unless it lists some)."""
+        if not dataset.plans:
+            return self.windows
+        return tuple(self.plan(p) for p in dataset.plans)

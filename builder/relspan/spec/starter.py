@@ -1,0 +1,261 @@
+"""A commented starter spec for a CSV file (what ``relspan new DATA.csv`` writes).
+
+Only the head of the file is read (to list its columns and guess their kinds),
+plus one streaming pass that counts the rows; nothing is held in memory but
+the head.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import warnings
+from pathlib import Path
+
+import pandas as pd
+
+from relspan.errors import DataError
+from relspan.spec.model import ChecksSpec
+
+__all__ = ["starter_spec", "guess_time_column", "prettify"]
+
+#: rows read to list columns and guess their kinds
+HEAD_ROWS = 200
+#: column names that usually hold dates (whole name, or a word of it)
+_TIME_WORDS = ("date", "time", "year", "quarter", "period", "month", "week", "day")
+_QUARTER = re.compile(r"^\d{4}[-\s]?[Qq][1-4]$")
+_MONTH = re.compile(r"^\d{4}-(0[1-9]|1[0-2])$")
+
+
+def prettify(column: str) -> str:
+    """A reader-facing label from a column name: ``cargo_handled`` -> ``Cargo handled``."""
+    words = re.sub(r"[_\-.]+", " ", str(column))
+    words = re.sub(r"(?<=[a-z])(?=[A-Z][a-z])", " ", words)  # camelCase -> camel Case
+    words = " ".join(words.split())
+    if not words:
+        return str(column)
+    first, rest = words[0], words[1:]
+    # keep acronyms (GDP) and already mixed case as written; lower-case only CamelCase splits
+    return first.upper() + rest
+
+
+def _slug(text: str) -> str:
+    s = re.sub(r"[^a-z0-9_-]+", "-", text.lower()).strip("-_")
+    return s or "data"
+
+
+def _looks_like_dates(values: pd.Series) -> bool:
+    """Do (nearly) all non-empty values of a text column read as dates?"""
+    vals = values.dropna().astype(str).str.strip()
+    vals = vals[vals != ""]
+    if len(vals) == 0:
+        return False
+    if vals.str.match(_QUARTER).mean() >= 0.9 or vals.str.match(_MONTH).mean() >= 0.9:
+        return True
+    if not vals.str.contains(r"\d").all():
+        return False
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            parsed = pd.to_datetime(vals, errors="coerce", format="mixed")
+        except (ValueError, TypeError, OverflowError):
+            return False
+    return bool(parsed.notna().mean() >= 0.9)
+
+
+def _could_be_time(values: pd.Series) -> bool:
+    """A column named like a time really holds times: text dates, or whole-number years."""
+    if pd.api.types.is_bool_dtype(values):
+        return False
+    if pd.api.types.is_numeric_dtype(values):
+        v = values.dropna()
+        return bool(len(v)) and bool(((v % 1 == 0) & (v >= 1000) & (v <= 3000)).all())
+    return _looks_like_dates(values)
+
+
+def guess_time_column(head: pd.DataFrame) -> str | None:
+    """The column that most likely dates the rows, or None.
+
+    A column named like a time (``date``, ``Year``, ``quarter_end``, ...)
+    wins; otherwise the first text column whose values parse as dates.
+    """
+    for col in head.columns:
+        name = str(col).strip().lower()
+        tokens = [t.rstrip("s") if t != "s" else t for t in re.split(r"[^a-z]+", name) if t]
+        if name in _TIME_WORDS:
+            return str(col)
+        if any(t in _TIME_WORDS for t in tokens) and _could_be_time(head[col]):
+            return str(col)
+    for col in head.columns:
+        s = head[col]
+        if pd.api.types.is_numeric_dtype(s) or pd.api.types.is_bool_dtype(s):
+            continue
+        if _looks_like_dates(s):
+            return str(col)
+    return None
+
+
+def _count_rows(path: Path, sep: str) -> int:
+    n = 0
+    for chunk in pd.read_csv(path, sep=sep, usecols=[0], chunksize=100_000, dtype=str,
+                             keep_default_na=False):
+        n += len(chunk)
+    return n
+
+
+def _q(text: str) -> str:
+    """A YAML double-quoted scalar (JSON strings are valid YAML)."""
+    return json.dumps(str(text), ensure_ascii=False)
+
+
+def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
+    """YAML text of a commented starter spec for the CSV file ``csv_path``.
+
+    Parameters
+    ----------
+    csv_path : str or Path
+        The data file (CSV; ``.tsv``/``.tab`` files are read as tab-separated).
+    spec_path : str or Path
+        Where the spec will be written; the data path in it is relative to
+        this file's folder (with ``allow_outside: true`` when the data lie
+        outside that folder).
+
+    Returns
+    -------
+    str
+        The spec text. Numeric columns become variables (label = prettified
+        column name); a time column is guessed; a ``full`` and a ``rolling``
+        plan (width about a quarter of the rows, step a fifth of the width, in
+        rows) are set up with the default checks and no claims. Every key has
+        a ``#`` comment above it. The text loads with
+        :func:`relspan.spec.load_spec` once written to ``spec_path``.
+
+    Raises
+    ------
+    DataError
+        If the file cannot be read as a table or has fewer than two numeric
+        columns.
+    """
+    csv_path, spec_path = Path(csv_path), Path(spec_path)
+    shown = str(csv_path)
+    if not csv_path.is_file():
+        raise DataError("data file not found." if not csv_path.exists()
+                        else "this is a folder, not a data file.", path=shown,
+                        fix="give the path of a CSV file.")
+    sep = "\t" if csv_path.suffix.lower() in (".tsv", ".tab") else ","
+    try:
+        head = pd.read_csv(csv_path, sep=sep, nrows=HEAD_ROWS)
+        rows = _count_rows(csv_path, sep)
+    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError,
+            ValueError, OSError) as exc:
+        raise DataError(f"cannot read the file as a table ({exc.__class__.__name__}: "
+                        f"{str(exc).splitlines()[0] if str(exc) else ''}).", path=shown,
+                        fix="check that it is comma-separated UTF-8 text with a header row.") \
+            from None
+    time_col = guess_time_column(head)
+    numeric = [str(c) for c in head.columns
+               if str(c) != time_col and pd.api.types.is_numeric_dtype(head[c])
+               and not pd.api.types.is_bool_dtype(head[c])]
+    if len(numeric) < 2:
+        raise DataError(
+            f"the file has {len(numeric)} numeric column{'s' if len(numeric) != 1 else ''} "
+            f"besides the time column; relations need at least two "
+            f"(columns: {', '.join(map(str, head.columns))}).", path=shown,
+            fix="check the separator and that numbers use '.' as the decimal point.")
+
+    folder = spec_path.resolve().parent
+    data_abs = csv_path.resolve()
+    outside = not data_abs.is_relative_to(folder)
+    source = data_abs.as_posix() if outside else Path(os.path.relpath(data_abs, folder)).as_posix()
+    n = len(numeric)
+    width = max(round(rows / 4), n + 2)
+    step = max(round(width / 5), 1)
+    defaults = ChecksSpec()
+    assumptions = [a for a in defaults.assumptions if a != "shaped"]
+    tol = defaults.tolerance
+    tol_text = (f"{{relative: {tol.relative}}}" if tol.absolute is None
+                else f"{{absolute: {tol.absolute}}}")
+    ds_id = _slug(csv_path.stem)
+
+    out: list[str] = []
+    add = out.append
+    add(f"# Starter spec for {csv_path.name} ({rows} rows, {n} numeric columns).")
+    add("# Edit it, then build the site. Every key is described in docs/spec.md.")
+    add("")
+    add("# Version of the spec format this file follows.")
+    add("relspan: 1")
+    add("# What the site is called and who wrote it.")
+    add("report:")
+    add("  # Title of the site.")
+    add(f"  title: {_q(prettify(csv_path.stem))}")
+    add("  # One paragraph in plain words for the home page.")
+    add('  summary: ""')
+    add("  # The authors' names, in order.")
+    add("  authors: []")
+    add("# The tables to analyse.")
+    add("datasets:")
+    add("  # Short name used in claims and page addresses.")
+    add(f"  - id: {ds_id}")
+    add("    # Title shown to readers.")
+    add(f"    title: {_q(prettify(csv_path.stem))}")
+    add("    # The data file, relative to this spec's folder.")
+    add(f"    source: {_q(source)}")
+    if outside:
+        add("    # The data lie outside this spec's folder; copy them in to make it portable.")
+        add("    allow_outside: true")
+    if time_col is not None:
+        add("    # The column that dates each row (guessed; check it).")
+        add("    time:")
+        add("      # Name of the time column.")
+        add(f"      column: {_q(time_col)}")
+        add("      # How dates are written: auto, year, quarter, month or a strftime pattern.")
+        add("      format: auto")
+    add("    # The numeric columns to analyse (remove any that do not belong).")
+    add("    variables:")
+    for col in numeric:
+        add("      # Column in the file.")
+        add(f"      - column: {_q(col)}")
+        add("        # Name readers see.")
+        add(f"        label: {_q(prettify(col))}")
+    add("    # Rows with a missing value: drop them, or fail.")
+    add("    missing: drop")
+    add("# How each dataset is cut into windows.")
+    add("windows:")
+    add("  # The whole sample as one window.")
+    add("  - id: full")
+    add("    # Kind of plan: full, rolling, expanding or periods.")
+    add("    kind: full")
+    add("  # Windows moved along the rows.")
+    add("  - id: rolling")
+    add("    # Kind of plan: full, rolling, expanding or periods.")
+    add("    kind: rolling")
+    add(f"    # Rows in each window (about a quarter of the {rows} rows).")
+    add(f"    width: {width}")
+    add("    # Rows each window moves on (about a fifth of the width).")
+    add(f"    step: {step}")
+    add("# Which noise assumptions to compare, with which options.")
+    add("checks:")
+    add("  # 'shaped' also needs noise_share on every variable.")
+    add(f"  assumptions: [{', '.join(assumptions)}]")
+    add("  # Noise allowed by the bounded and diagonal assumptions.")
+    add(f"  tolerance: {tol_text}")
+    add("  # Variable whose coefficient is set to 1 (auto chooses).")
+    add(f"  normalise_on: {defaults.normalise_on}")
+    add("  # Numbers of relations to examine (auto, or a list such as [1, 2]).")
+    add("  coranks: auto")
+    add("  # Largest principal angle (degrees) between windows that counts as stable.")
+    add(f"  max_angle_deg: {defaults.max_angle_deg:g}")
+    add("  # Starting points for the Frisch scheme search.")
+    add(f"  frisch_starts: {defaults.frisch_starts}")
+    add("  # Random seed, recorded in the output.")
+    add(f"  seed: {defaults.seed}")
+    add("# Statements to re-check on every build (none yet).")
+    add("claims: []")
+    add("# Where the site is written, relative to this spec's folder.")
+    add("site:")
+    add("  # Output folder.")
+    add("  out: _site")
+    add("  # Figure format: svg or png.")
+    add("  figures: svg")
+    return "\n".join(out) + "\n"
