@@ -45,12 +45,12 @@ __all__ += [
     "frisch_identification", "solution_spread", "frisch_analysis",
 ]
 
-from relspan.analysis.window import ASSUMPTION_LABELS, WindowAnalysis, WindowOptions, analyse_window
+from relspan.analysis.window import WindowAnalysis, WindowOptions, analyse_window
 from relspan.analysis.findings import FINDING_KINDS, Finding, dataset_findings
 from relspan.analysis.claims import ClaimVerdict, evaluate_claim, evaluate_claims
 
 __all__ += [
-    "WindowOptions", "WindowAnalysis", "analyse_window", "ASSUMPTION_LABELS",
+    "WindowOptions", "WindowAnalysis", "analyse_window",
     "Finding", "FINDING_KINDS", "dataset_findings",
     "ClaimVerdict", "evaluate_claim", "evaluate_claims",
 ]

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from relspan.analysis.stability import subspace_stability
-from relspan.analysis.window import ASSUMPTION_WORDS as _ASSUMPTION_WORDS
+from relspan.assumptions import assumption as _assumption
 from relspan.spec.model import ClaimSpec
 
 __all__ = ["ClaimVerdict", "evaluate_claims", "evaluate_claim"]
@@ -82,7 +82,7 @@ def _corank(claim: ClaimSpec, plan) -> ClaimVerdict:
     values = sorted({q for q in seq if q is not None})
     undetermined = sum(q is None for q in seq)
     found = ", ".join(str(v) for v in values) or "none determined"
-    observed = (f"Corank under {_ASSUMPTION_WORDS[assumption]} ({want} wanted): {found} across "
+    observed = (f"Corank under {_assumption(assumption).name} ({want} wanted): {found} across "
                 f"{len(seq)} window(s); {len(seq) - len(failing)} of {len(seq)} agree")
     if undetermined:
         observed += f"; undetermined at the tolerance in {undetermined}"
@@ -99,7 +99,7 @@ def _subspace(claim: ClaimSpec, plan, result) -> ClaimVerdict:
         ref = result.full.bases.get(assumption, {}).get(q)
         if ref is None or any(b is None for b in bases):
             return ClaimVerdict(claim, False, f"No corank-{q} relation subspace under "
-                                f"{_ASSUMPTION_WORDS[assumption]} could be computed in every window, so the "
+                                f"{_assumption(assumption).name} could be computed in every window, so the "
                                 "claim cannot be confirmed.", {"assumption": assumption, "corank": q})
         stab = subspace_stability(bases, labels=plan.labels, reference=ref,
                                   threshold_deg=float(claim.below_deg))
@@ -107,7 +107,7 @@ def _subspace(claim: ClaimSpec, plan, result) -> ClaimVerdict:
     failing = tuple(lab for lab, a in zip(plan.labels, angles) if not a < claim.below_deg)
     worst = float(np.max(angles)) if angles.size else 0.0
     observed = (f"Largest angle between a window's corank-{q} relation subspace and the full sample's, "
-                f"under {_ASSUMPTION_WORDS[assumption]}: {_fmt(worst)} degrees (claim: below "
+                f"under {_assumption(assumption).name}: {_fmt(worst)} degrees (claim: below "
                 f"{_fmt(claim.below_deg)}); largest angle between any two windows: "
                 f"{_fmt(stab.max_pairwise_deg)} degrees.")
     return ClaimVerdict(claim, not failing, observed,
@@ -131,7 +131,7 @@ def _sign(claim: ClaimSpec, plan, names) -> ClaimVerdict:
     finite = [v for v in vals if v is not None and np.isfinite(v)]
     rng = f"from {_fmt(min(finite))} to {_fmt(max(finite))}" if finite else "not available"
     observed = (f"Coefficient of {claim.variable} in the equation for {claim.normalise_on} under "
-                f"{_ASSUMPTION_WORDS[assumption]}: {rng} across {len(vals)} window(s); "
+                f"{_assumption(assumption).name}: {rng} across {len(vals)} window(s); "
                 f"{'positive' if want > 0 else 'negative'} in {len(vals) - len(failing)} of {len(vals)}.")
     return ClaimVerdict(claim, not failing, observed,
                         {"assumption": assumption, "values": dict(zip(plan.labels, vals))}, failing)

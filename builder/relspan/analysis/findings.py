@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from relspan.analysis.window import ASSUMPTION_WORDS as _WORDS
+from relspan.assumptions import assumption as _assumption
 
 __all__ = ["Finding", "dataset_findings", "FINDING_KINDS", "CARD_OF_KIND"]
 
@@ -113,16 +113,16 @@ def _corank_findings(result) -> list[Finding]:
             out.append(Finding("no_relation", "corank",
                                f"No linear relation among the {n} variables is supported: every "
                                "direction of the data varies more than the noise allows.",
-                               f"Corank 0 under {', '.join(_WORDS[a] for a in known)} at {eps_text}.",
+                               f"Corank 0 under {', '.join(_assumption(a).name for a in known)} at {eps_text}.",
                                {"corank": 0, "by_assumption": cor}, "corank"))
         else:
             out.append(Finding("pinned_down", "corank",
                                f"{q} linear relation{'s' if q > 1 else ''} hold{'' if q > 1 else 's'} among the "
                                f"{n} variables, under every noise assumption checked.",
-                               f"Corank {q} in the full sample under {', '.join(_WORDS[a] for a in known)} at "
+                               f"Corank {q} in the full sample under {', '.join(_assumption(a).name for a in known)} at "
                                f"{eps_text}.", {"corank": q, "by_assumption": cor}, "corank"))
     else:
-        parts = "; ".join(f"{_WORDS[a]}: {q}" for a, q in known.items())
+        parts = "; ".join(f"{_assumption(a).name}: {q}" for a, q in known.items())
         out.append(Finding("depends", "corank",
                            f"How many relations hold depends on the noise assumption: between "
                            f"{values[0]} and {values[-1]}.",
@@ -210,7 +210,7 @@ def _coefficient_findings(result) -> list[Finding]:
         if len({np.sign(v) for v in vals.values()}) > 1:
             flips.append((k, vals))
     for k, vals in flips:
-        parts = "; ".join(f"{_WORDS[a]}: {_g(v)}" for a, v in vals.items())
+        parts = "; ".join(f"{_assumption(a).name}: {_g(v)}" for a, v in vals.items())
         out.append(Finding("depends", "coefficient",
                            f"The sign of the coefficient of {labels[k]} in the equation for {labels[ref]} "
                            "depends on the noise assumption.",
@@ -291,7 +291,7 @@ def _stability_findings(result) -> list[Finding]:
         if moving:
             out.append(Finding("unstable", "corank",
                                f"The number of relations changes across the windows of \u201c{title}\u201d "
-                               f"under {', '.join(_WORDS[a] for a in moving)}.",
+                               f"under {', '.join(_assumption(a).name for a in moving)}.",
                                "Corank per window: see the timeline.",
                                {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
                                plan=plan.plan.id))

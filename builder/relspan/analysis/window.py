@@ -33,26 +33,8 @@ from relspan.analysis.elementary import ElementaryRegressions, choose_reference,
 from relspan.analysis.equal_noise import EqualNoise, equal_noise
 from relspan.analysis.moments import Moments
 
-__all__ = ["WindowOptions", "WindowAnalysis", "analyse_window", "normalised_coefficients",
-           "ASSUMPTION_LABELS", "ASSUMPTION_WORDS"]
+__all__ = ["WindowOptions", "WindowAnalysis", "analyse_window", "normalised_coefficients"]
 
-#: short words for each noise assumption, used inside sentences (findings, claim verdicts)
-ASSUMPTION_WORDS = {
-    "elementary": "one variable alone noisy",
-    "equal": "equal noise",
-    "shaped": "noise of known relative size",
-    "bounded": "bounded noise",
-    "diagonal": "independent noise (Frisch)",
-}
-
-#: reader-facing names of the noise assumptions
-ASSUMPTION_LABELS = {
-    "elementary": "one variable alone noisy (ordinary least squares)",
-    "equal": "equal noise in every variable (total least squares)",
-    "shaped": "noise of known relative size",
-    "bounded": "noise of bounded size, any shape",
-    "diagonal": "independent noise of unknown size (Frisch scheme)",
-}
 
 
 @dataclass(frozen=True, slots=True)

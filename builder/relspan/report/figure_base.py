@@ -34,6 +34,8 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
+
+from relspan.assumptions import ASSUMPTIONS
 import pandas as pd
 
 import matplotlib
@@ -90,9 +92,9 @@ _MARKERS = ("s", "o", "D", "^", "v", "P", "X")
 _LINESTYLES = ("-", (0, (5, 2)), (0, (6, 2, 1.5, 2)), (0, (1.5, 1.5)), (0, (9, 3)),
                (0, (3, 1, 1, 1, 1, 1)), (0, (2, 3)))
 
-#: fixed slot per noise assumption id (relspan.spec.model.ASSUMPTIONS), so that an
-#: assumption looks the same in every figure of a site
-_ASSUMPTION_SLOT = {"equal": 0, "bounded": 1, "diagonal": 2, "elementary": 3, "shaped": 4}
+#: fixed slot per noise assumption (its id or reader's name, from relspan.assumptions), so
+#: that an assumption looks the same in every figure of a site
+_ASSUMPTION_SLOT = {**{a.id: a.slot for a in ASSUMPTIONS}, **{a.name: a.slot for a in ASSUMPTIONS}}
 
 _RC = {
     "font.family": "DejaVu Sans",
@@ -306,14 +308,16 @@ def styles_for(labels: Sequence[str]) -> list[SeriesStyle]:
     """Styles for a sequence of series labels.
 
     A label that is (or starts with) a noise assumption id of
-    ``relspan.spec.model.ASSUMPTIONS`` gets that assumption's fixed slot, so
+    :mod:`relspan.assumptions` (id or reader's name) gets that assumption's fixed slot, so
     it looks the same in every figure; other labels take the free slots in order.
     """
     taken: dict[int, int] = {}
     out: list[SeriesStyle | None] = [None] * len(labels)
     for i, lab in enumerate(labels):
-        key = str(lab).strip().lower().split(" ")[0].split("(")[0]
-        slot = _ASSUMPTION_SLOT.get(key)
+        text = str(lab).strip().lower()
+        slot = _ASSUMPTION_SLOT.get(text.split(" ")[0].split("(")[0])
+        if slot is None:
+            slot = next((s for name, s in _ASSUMPTION_SLOT.items() if text.startswith(name)), None)
         if slot is not None and slot not in taken:
             taken[slot] = i
             out[i] = series_style(slot)

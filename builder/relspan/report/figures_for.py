@@ -10,21 +10,15 @@ from __future__ import annotations
 
 import numpy as np
 
+from relspan.assumptions import assumption
+
 from relspan.report.figures import (ElementaryMapData, coefficient_swing, corank_evidence,
                                     corank_timeline, data_overview, elementary_map, frisch_intervals,
                                     subspace_stability, window_gallery)
 
 __all__ = ["overview_figure", "map_data", "map_figure", "gallery_figure", "stability_figure",
-           "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure", "SHORT_ASSUMPTION"]
+           "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure"]
 
-#: short labels for legends and strips (the figure functions label lines directly)
-SHORT_ASSUMPTION = {
-    "elementary": "elementary (OLS)",
-    "equal": "equal noise",
-    "shaped": "known noise shape",
-    "bounded": "bounded noise",
-    "diagonal": "diagonal (Frisch)",
-}
 
 
 def _window_time_span(prepared, window):
@@ -132,7 +126,7 @@ def swing_figure(result, plan, q: int):
         vals = [w.coefficient(a, ref, k) for w in plan.analyses]
         if all(v is None for v in vals):
             continue
-        coefs[SHORT_ASSUMPTION[a]] = np.array([np.nan if v is None else v for v in vals], dtype=float)
+        coefs[assumption(a).name] = np.array([np.nan if v is None else v for v in vals], dtype=float)
     if not coefs:
         return None
     stab = plan.stability.get(("equal", q)) or next((s for (a, qq), s in plan.stability.items() if qq == q),
@@ -160,7 +154,7 @@ def timeline_figure(result, plan):
     for a in ("equal", "shaped", "bounded", "diagonal"):
         seq = plan.coranks.coranks.get(a)
         if seq is not None:
-            coranks[SHORT_ASSUMPTION[a]] = list(seq)
+            coranks[assumption(a).name] = list(seq)
     if not coranks:
         return None
     return corank_timeline(list(plan.labels), coranks, max_corank=len(result.names) - 1,

@@ -20,6 +20,7 @@ import numpy as np
 
 from relspan.analysis.findings import CARD_OF_KIND
 from relspan.report.figure_base import render_figure, table_csv
+from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.report.text import (ASSUMPTION_PLAIN, CAUTION_LINK, GLOSSARY, METHODS, REFERENCES,
                                  USUAL_CAUTIONS, caution_body)
 from relspan.site import blocks
@@ -32,7 +33,8 @@ __all__ = ["Publisher", "home_page", "dataset_page", "window_pages", "claims_pag
            "table_csv_bytes"]
 
 HOME = ("Home", "index.html")
-ORDER = ("elementary", "equal", "shaped", "bounded", "diagonal")
+#: assumptions in display order (the one table, relspan.assumptions)
+ORDER = ASSUMPTION_IDS
 
 
 def fmt(x, digits: int = 3) -> str:
@@ -227,7 +229,7 @@ def _code(text: str) -> str:
 
 
 def _assumption_name(a: str) -> str:
-    return ASSUMPTION_PLAIN[a][0]
+    return assumption(a).title
 
 
 def _eps_words(analysis) -> str:

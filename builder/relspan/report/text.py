@@ -7,8 +7,17 @@ their text in :mod:`relspan.report.pages`.
 
 from __future__ import annotations
 
+from relspan.assumptions import ASSUMPTIONS, assumption
+
 __all__ = ["USUAL_CAUTIONS", "CAUTION_LINK", "caution_body", "GLOSSARY", "METHODS", "REFERENCES",
            "ASSUMPTION_PLAIN"]
+
+
+def _heading(assumption_id: str) -> str:
+    """Methods-page heading of an assumption: its reader's name and the trade's name of the method."""
+    a = assumption(assumption_id)
+    return f"{a.title}: {a.method}"
+
 
 #: the cautions every page that interprets results carries (short form)
 USUAL_CAUTIONS = (
@@ -21,23 +30,8 @@ USUAL_CAUTIONS = (
 CAUTION_LINK = "[How to read a single coefficient](/caution.html)"
 
 #: reader-facing words for each noise assumption: (short name, one sentence)
-ASSUMPTION_PLAIN = {
-    "elementary": ("One variable alone noisy",
-                   "Ordinary least squares: one chosen variable carries all the measurement error and "
-                   "the others are exact. There are n such answers, one per variable."),
-    "equal": ("Equal noise",
-              "Every variable carries measurement error of the same size (on the scale analysed): total "
-              "least squares. The answer depends on the units, so relspan works on a stated scale."),
-    "shaped": ("Noise of known relative size",
-               "The sizes of the measurement errors are known up to one common factor, as given in the "
-               "spec (noise_share)."),
-    "bounded": ("Bounded noise",
-                "The measurement error may have any shape, but its size is at most the stated tolerance. "
-                "This gives a range of possible answers, with a guaranteed bound."),
-    "diagonal": ("Independent noise of unknown size",
-                 "Each variable has its own measurement error, independent of the others, of unknown "
-                 "size (the Frisch scheme). The data then give a set of answers, not one."),
-}
+#: (reader's heading, meaning) per assumption id, from the one table
+ASSUMPTION_PLAIN = {a.id: (a.title, a.meaning) for a in ASSUMPTIONS}
 
 
 def caution_body() -> str:
@@ -119,16 +113,14 @@ GLOSSARY = (
      "perpendicular. Used to compare relation subspaces across windows."),
     ("Window", "A stretch of the data (a time span or a run of rows) analysed on its own, so results can "
      "be compared across time."),
-    ("Frisch scheme", "The assumption that each variable has its own independent measurement error of "
-     "unknown size; the data then determine a set of possible relations."),
     ("Identified", "Pinned down by the data and the stated assumptions alone: a single value, or a set "
      "whose bounds are known."),
-)
+) + tuple((a.title, a.glossary) for a in ASSUMPTIONS)
 
 
 #: (key, title, assumption in one sentence, [(formula TeX, alt text in words)], limits, reference keys)
 METHODS = (
-    ("elementary", "Elementary regressions (ordinary least squares)",
+    ("elementary", _heading("elementary"),
      "One variable at a time is the only noisy one.",
      [(r"$a^{(j)} = P_{j\cdot}/P_{jj},\quad P = S^{-1}$",
        "relation j is row j of the inverse covariance P divided by its diagonal entry"),
@@ -140,7 +132,7 @@ METHODS = (
      "exact relations (the null space of S) instead. For two variables the two regressions bracket the "
      "slope of every independent-noise answer (Gini 1921).",
      ("frisch1934", "anderson1958", "higham2002", "gini1921")),
-    ("equal", "Equal noise: total least squares",
+    ("equal", _heading("equal"),
      "Every variable carries noise of the same variance on the scale analysed.",
      [(r"$S\,v_i = \lambda_i v_i,\quad \lambda_1 \leq \cdots \leq \lambda_n$",
        "eigenvectors v i of S with eigenvalues in ascending order"),
@@ -150,12 +142,12 @@ METHODS = (
      "Not invariant to the units: relspan analyses a stated scale (the correlation scale when the "
      "tolerance is relative). Corank q is supported when the q smallest eigenvalues are at most eps.",
      ("eckart1936", "golub1980", "tipping1999")),
-    ("shaped", "Noise of known relative size (generalised eigenproblem)",
+    ("shaped", _heading("shaped"),
      "Noise variances are known up to one common factor: N = s\u00b2 W.",
      [(r"$S\,v = \lambda\,W v$", "S v equals lambda times W v, with W the known noise shape")],
      "Only as good as the stated shape W; for two variables this is Deming regression.",
      ("koopmans1937", "deming1943")),
-    ("bounded", "Bounded noise (Weyl and Davis-Kahan)",
+    ("bounded", _heading("bounded"),
      "The noise covariance may have any shape but its spectral norm is at most eps.",
      [(r"$q\ \mathrm{admissible}\ \Leftrightarrow\ \lambda_q(S) \leq \varepsilon$",
        "corank q is admissible exactly when the q-th smallest eigenvalue of S is at most eps"),
@@ -164,7 +156,7 @@ METHODS = (
      "The angle bound is vacuous when eps approaches the next eigenvalue; it bounds the largest principal "
      "angle between the relation subspace and the eigenvectors.",
      ("weyl1912", "daviskahan1970", "stewart1990")),
-    ("diagonal", "Independent noise of unknown size: the Frisch scheme",
+    ("diagonal", _heading("diagonal"),
      "Each variable has independent noise of unknown variance: N = diag(d), d \u2265 0, S \u2212 N "
      "positive semidefinite.",
      [(r"$0 \leq d_j \leq 1/P_{jj}$", "each noise variance d j lies between 0 and one over P j j"),

@@ -20,6 +20,7 @@ from typing import Sequence
 import numpy as np
 
 from relspan import __version__
+from relspan.assumptions import corank_preference
 from relspan.analysis.moments import Moments
 from relspan.analysis.stability import (CoefficientSwing, CorankSequence, SubspaceStability,
                                         coefficient_swing, corank_sequence, subspace_stability)
@@ -28,10 +29,8 @@ from relspan.errors import RelspanWarning
 from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
 
 __all__ = ["PlanResult", "DatasetResult", "AnalysisRun", "run_analysis", "analyse_prepared",
-           "LazyExecutor", "open_cache", "CORANK_PREFERENCE"]
+           "LazyExecutor", "open_cache"]
 
-#: which assumption's corank is examined when the spec says ``coranks: auto``
-CORANK_PREFERENCE = ("equal", "shaped", "bounded", "diagonal")
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -262,11 +261,10 @@ def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, 
     if ds.checks.coranks:
         qs = tuple(q for q in ds.checks.coranks if 1 <= q <= full.n - 1)
         return qs, "set in the spec (checks.coranks)"
-    for a in CORANK_PREFERENCE:
-        q = full.coranks.get(a)
+    for record in corank_preference():
+        q = full.coranks.get(record.id)
         if q is not None:
-            word = {"equal": "equal-noise", "shaped": "known-shape", "bounded": "bounded-noise",
-                    "diagonal": "diagonal-noise"}[a]
+            word = record.adjective
             if q == 0:
                 return (), f"no relation is supported by the full sample under the {word} assumption"
             return (q,), f"the corank the full sample supports under the {word} assumption"

@@ -11,6 +11,8 @@ is the text from the spec, ``DatasetSpec.source_path`` the absolute path.
 
 from __future__ import annotations
 
+from relspan.assumptions import ASSUMPTION_IDS
+
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -44,7 +46,8 @@ TRANSFORMS = ("none", "log", "diff", "logdiff", "demean", "standardise")
 #:  - shaped: noise variances known up to one common factor (``noise_share`` per variable)
 #:  - bounded: noise covariance of spectral norm at most eps (any shape)
 #:  - diagonal: independent noise with unknown variances (Frisch scheme)
-ASSUMPTIONS = ("elementary", "equal", "shaped", "bounded", "diagonal")
+#: the noise assumptions' identifiers, from the one table (:mod:`relspan.assumptions`)
+ASSUMPTIONS = ASSUMPTION_IDS
 
 #: statements a claim can make
 CLAIM_KINDS = ("corank", "subspace_stable", "sign_stable", "coefficient_bounded")
