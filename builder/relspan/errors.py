@@ -108,7 +108,7 @@ class DataError(RelspanError):
         self.row = row
 
 
-class OptionsError(RelspanError):
+class OptionsError(RelspanError, ValueError):
     """A command-line option or API argument is invalid."""
 
 
@@ -121,7 +121,31 @@ class DependencyError(RelspanError):
 
 
 class RelspanWarning(UserWarning):
-    """Base class of relspan's warnings (``--strict`` turns them into failures)."""
+    """Base class of relspan's warnings (``--strict`` turns them into failures).
+
+    Warnings stay typed from the analysis to the report: the driver records
+    where one arose (:meth:`located` sets ``dataset`` and ``plan``) and the
+    report renders it; ``str(w)`` is the one line users see.
+    """
+
+    dataset: str | None = None
+    plan: str | None = None
+
+    def located(self, *, dataset: str | None = None, plan: str | None = None) -> "RelspanWarning":
+        """Record the dataset and window plan the warning arose in; returns self."""
+        self.dataset, self.plan = dataset, plan
+        return self
+
+    @property
+    def message(self) -> str:
+        """The warning's own sentence, without its location."""
+        return str(self.args[0]) if self.args else ""
+
+    def __str__(self) -> str:
+        where = ", ".join(part for part in (
+            f"dataset {self.dataset!r}" if self.dataset else "",
+            f"plan {self.plan!r}" if self.plan else "") if part)
+        return f"{where}: {self.message}" if where else self.message
 
 
 class IllConditionedWarning(RelspanWarning):

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 import relspan.run.pipeline as pipeline
-from relspan.api import where_tasks_run
+from relspan.run.build import where_tasks_run
 from relspan.run.pipeline import run_analysis
 from relspan.spec.loader import load_spec
 

@@ -153,9 +153,9 @@ def _bounded(claim: ClaimSpec, plan, names) -> ClaimVerdict:
                                        for lab, iv in zip(plan.labels, intervals)}}, failing)
 
 
-def evaluate_claim(claim: ClaimSpec, run) -> ClaimVerdict:
-    """Verdict on one claim against an :class:`~relspan.run.pipeline.AnalysisRun`."""
-    result = run.dataset(claim.dataset)
+def evaluate_claim(claim: ClaimSpec, datasets) -> ClaimVerdict:
+    """Verdict on one claim against the :class:`~relspan.analysis.results.DatasetResult` s of a run."""
+    result = next(d for d in datasets if d.spec.id == claim.dataset)  # the loader checked it exists
     plan = result.plan(claim.plan)
     if claim.kind == "corank":
         return _corank(claim, plan)
@@ -168,6 +168,6 @@ def evaluate_claim(claim: ClaimSpec, run) -> ClaimVerdict:
     raise ValueError(f"unknown claim kind {claim.kind!r}")  # the spec loader rejects these first
 
 
-def evaluate_claims(run) -> list[ClaimVerdict]:
-    """Verdicts on every claim of the run's spec, in the spec's order."""
-    return [evaluate_claim(c, run) for c in run.spec.claims]
+def evaluate_claims(claims, datasets) -> list[ClaimVerdict]:
+    """Verdicts on every claim, in the spec's order, against the datasets' results."""
+    return [evaluate_claim(c, datasets) for c in claims]

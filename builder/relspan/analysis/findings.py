@@ -19,6 +19,7 @@ Kinds (``Finding.kind``):
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 
@@ -298,8 +299,37 @@ def _stability_findings(result) -> list[Finding]:
     return out
 
 
-def dataset_findings(result) -> list[Finding]:
-    """All findings for one :class:`~relspan.run.pipeline.DatasetResult`, most important first."""
+class _Evidence(NamedTuple):
+    """What the interpreter reads of one dataset's analysis (the numbers, before any statement)."""
+
+    full: object
+    plans: tuple
+    examined: tuple
+    identified: dict
+    labels: tuple
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return self.full.names
+
+
+def dataset_findings(*, full, plans, examined, identified, labels) -> list[Finding]:
+    """All findings for one dataset, most important first.
+
+    Parameters
+    ----------
+    full : WindowAnalysis
+        The full sample under every assumption.
+    plans : sequence of PlanResult
+        Every window plan with its cross-window summaries.
+    examined : tuple of int
+        The coranks examined.
+    identified : mapping int -> Identified
+        Identified quantities per examined corank.
+    labels : tuple of str
+        The variables' labels (the reader's names), in order.
+    """
+    result = _Evidence(full, tuple(plans), tuple(examined), identified, tuple(labels))
     out = []
     out += _corank_findings(result)
     out += _subspace_findings(result)

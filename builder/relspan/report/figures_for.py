@@ -2,7 +2,7 @@
 
 The figure functions (:mod:`relspan.report.figures` and friends) take plain
 arrays; these functions read them off a
-:class:`~relspan.run.pipeline.DatasetResult` so that each figure is a function
+:class:`~relspan.analysis.results.DatasetResult` so that each figure is a function
 of results only.
 """
 

@@ -15,11 +15,11 @@ import io
 import json
 import re
 from dataclasses import dataclass, field
+from typing import Sequence
 
 import numpy as np
 
 from relspan.analysis.findings import CARD_OF_KIND
-from relspan.report.figure_base import render_figure, table_csv
 from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.report.text import (ASSUMPTION_PLAIN, CAUTION_LINK, GLOSSARY, METHODS, REFERENCES,
                                  USUAL_CAUTIONS, caution_body)
@@ -78,28 +78,14 @@ _NO_MAP = ("No map of the elementary regressions is shown: a map needs at least 
            "other), given with the results under the one-variable-noisy assumption.\n")
 
 
-def render_job(item: tuple) -> tuple | None:
-    """Draw and render one figure job; top-level so process pools and Dask can run it.
-
-    Returns ``(name, alt, description, image_bytes, csv_bytes, width_px, height_px)`` or None
-    when the figure does not apply to these results.
-    """
-    fn, args, fmt_ = item
-    fig = fn(*args)
-    if fig is None:
-        return None
-    size = fig.figure.get_size_inches() * 96
-    return (fig.name, fig.alt, fig.description, render_figure(fig, fmt_), table_csv(fig),
-            int(round(size[0])), int(round(size[1])))
-
-
 @dataclass
 class Publisher:
     """Collects the files of the site (figures, their data CSVs, downloads).
 
-    Figures are registered as jobs and placed in the page as a token;
-    :meth:`resolve` draws them all at once (on an executor, with a cache)
-    and puts the finished Markdown in place of each token.
+    Figures are registered as jobs (descriptions: a function and its plain
+    arguments) and placed in the page as a token; the driver draws them
+    (:mod:`relspan.run.figures`, on an executor, with a cache) and
+    :meth:`fill` puts the finished Markdown in place of each token.
     """
 
     fmt: str = "svg"
@@ -128,43 +114,16 @@ class Publisher:
         return blocks.figure(img, alt, job.caption_markdown, long_description_markdown=long,
                              width=width, height=height)
 
-    def resolve(self, pages: list, *, executor=None, cache=None, progress=None) -> list:
-        """Draw every registered figure and return ``pages`` with their tokens replaced."""
+    def fill(self, pages: list, rendered: Sequence) -> list:
+        """``pages`` with each figure token replaced by its finished Markdown.
+
+        ``rendered[i]`` is what the driver drew for ``self.jobs[i]``
+        (:func:`relspan.run.figures.draw_figures`), or None when the figure
+        does not apply; the figure files are added to the site here.
+        """
         import dataclasses
 
-        from relspan.run.executors import SerialExecutor, map_in_chunks
-        from relspan.run.pipeline import code_version
-
-        keys = []
-        for job in self.jobs:
-            if cache is not None and job.dataset_key:
-                from relspan.run.cache import task_key
-
-                keys.append(task_key(task="figure", dataset=job.dataset_key, ident=job.ident,
-                                     fmt=self.fmt, version=code_version()))
-            else:
-                keys.append(None)
-        missing = object()
-        done = {}
-        for i, key in enumerate(keys):
-            if key is not None:
-                hit = cache.get(key, missing)
-                if hit is not missing:
-                    done[i] = hit
-        todo = [i for i in range(len(self.jobs)) if i not in done]
-        items = [(self.jobs[i].fn, self.jobs[i].args, self.fmt) for i in todo]
-        if items:
-            ex = executor.get() if hasattr(executor, "get") else executor  # a LazyExecutor opens here
-            if progress is not None and hasattr(progress, "total"):
-                progress.total = len(items)
-            results = map_in_chunks(ex or SerialExecutor(), render_job, items, progress=progress)
-        else:
-            results = []
-        for i, rendered in zip(todo, results):
-            done[i] = rendered
-            if keys[i] is not None:
-                cache.put(keys[i], rendered)
-        snippets = {job.token: self._markdown(job, done[i]) for i, job in enumerate(self.jobs)}
+        snippets = {job.token: self._markdown(job, done) for job, done in zip(self.jobs, rendered)}
         out = []
         for page in pages:
             body = page.body_markdown

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import dataclasses
 import io
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -12,7 +14,7 @@ from relspan import __version__
 from relspan.report import pages as P
 from relspan.site.content import NavItem, Page, SiteContent
 
-__all__ = ["site_content", "results_document", "dataset_document", "RESULTS_SCHEMA_VERSION",
+__all__ = ["site_draft", "SiteDraft", "results_document", "dataset_document", "RESULTS_SCHEMA_VERSION",
            "RESULTS_SCHEMA_PATH"]
 
 #: version of the results JSON layout documented in docs/results.md
@@ -131,13 +133,27 @@ def _findings_csv(run) -> bytes:
     return _csv(pd.DataFrame(rows, columns=["dataset", "kind", "topic", "plan", "headline", "detail"]))
 
 
-def site_content(run, *, executor=None, cache=None, progress=None) -> SiteContent:
-    """The :class:`~relspan.site.content.SiteContent` of a whole run.
+@dataclass(frozen=True, slots=True)
+class SiteDraft:
+    """The site laid out, with each figure still a job to draw.
 
-    Figures are drawn on ``executor`` (default: in this process) and kept in
-    ``cache`` (a :class:`~relspan.run.cache.ResultCache`) under the content
-    key of their dataset, so an unchanged rebuild draws nothing.
+    ``figure_jobs`` go to the driver (:func:`relspan.run.figures.draw_figures`);
+    :meth:`finish` takes what it drew and returns the finished content.
     """
+
+    content: SiteContent
+    figure_jobs: tuple
+    figure_format: str
+    _publisher: P.Publisher
+
+    def finish(self, rendered) -> SiteContent:
+        """The content with every figure in place (``rendered[i]`` for ``figure_jobs[i]``)."""
+        pages = self._publisher.fill(list(self.content.pages), rendered)
+        return dataclasses.replace(self.content, pages=tuple(pages), files=self._publisher.site_files())
+
+
+def site_draft(run) -> SiteDraft:
+    """Lay out the site of a whole run: pages, downloads, navigation and figure jobs."""
     spec = run.spec
     pub = P.Publisher(fmt=spec.site.figures)
     pages: list[Page] = [P.home_page(run)]
@@ -154,7 +170,6 @@ def site_content(run, *, executor=None, cache=None, progress=None) -> SiteConten
     pub.add("data/results.schema.json", RESULTS_SCHEMA_PATH.read_bytes())
     pages += [P.claims_page(run, pub), P.caution_page(), P.methods_page(pub), P.glossary_page()]
     pages += [P.reproduce_page(run, pub, spec_link), P.downloads_page(run, pub)]
-    pages = pub.resolve(pages, executor=executor, cache=cache, progress=progress)
     nav = (
         NavItem("Home", "index.html"),
         NavItem("Datasets", P.dataset_path(run.datasets[0].spec.id) if run.datasets else "index.html",
@@ -168,7 +183,8 @@ def site_content(run, *, executor=None, cache=None, progress=None) -> SiteConten
     )
     footer = (f"Built with relspan {__version__} from the spec and data listed on [Reproduce](/reproduce.html); "
               "every number can be downloaded from [Downloads](/downloads.html).")
-    return SiteContent(title=spec.report.title, language=spec.site.language, pages=tuple(pages),
-                       files=pub.site_files(), nav=nav, footer=footer)
+    content = SiteContent(title=spec.report.title, language=spec.site.language, pages=tuple(pages),
+                          files=(), nav=nav, footer=footer)
+    return SiteDraft(content, tuple(pub.jobs), pub.fmt, pub)
 
 

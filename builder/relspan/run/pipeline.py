@@ -22,140 +22,13 @@ import numpy as np
 from relspan import __version__
 from relspan.assumptions import corank_preference
 from relspan.analysis.moments import Moments
-from relspan.analysis.stability import (CoefficientSwing, CorankSequence, SubspaceStability,
-                                        coefficient_swing, corank_sequence, subspace_stability)
+from relspan.analysis.results import AnalysisRun, DatasetResult, PlanResult
+from relspan.analysis.stability import coefficient_swing, corank_sequence, subspace_stability
 from relspan.analysis.window import WindowAnalysis, WindowOptions, analyse_window, reference_index
 from relspan.errors import RelspanWarning
 from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
 
-__all__ = ["PlanResult", "DatasetResult", "AnalysisRun", "run_analysis", "analyse_prepared",
-           "LazyExecutor", "open_cache"]
-
-
-
-@dataclass(frozen=True, slots=True, eq=False)
-class PlanResult:
-    """One window plan applied to one dataset.
-
-    Attributes
-    ----------
-    plan : WindowPlanSpec
-    windows : tuple
-        The data layer's window descriptions (label, rows, first/last time).
-    analyses : tuple of WindowAnalysis
-        One per window, same order.
-    stability : mapping (assumption, q) -> SubspaceStability
-        Principal angles between the windows' relation subspaces (and to the
-        full sample) for every examined corank and assumption with a basis.
-    swings : mapping assumption -> CoefficientSwing
-        Normalised coefficients of the reference relation across windows.
-    coranks : CorankSequence
-        The corank per window under each assumption.
-    """
-
-    plan: WindowPlanSpec
-    windows: tuple
-    analyses: tuple[WindowAnalysis, ...]
-    stability: dict
-    swings: dict
-    coranks: CorankSequence
-
-    @property
-    def labels(self) -> tuple[str, ...]:
-        return tuple(a.label for a in self.analyses)
-
-
-@dataclass(frozen=True, slots=True, eq=False)
-class DatasetResult:
-    """Everything relspan found for one dataset.
-
-    Attributes
-    ----------
-    spec : DatasetSpec
-    prepared : object
-        :class:`relspan.data.prepare.PreparedDataset` (summary, overview
-        series, windows and their moments, input checksum).
-    full : WindowAnalysis
-        The full sample under every assumption (the reference for stability).
-    plans : tuple of PlanResult
-    examined : tuple of int
-        The coranks examined (from the spec, or chosen from the evidence).
-    examined_from : str
-        How ``examined`` was chosen, in words.
-    findings : tuple
-        :class:`relspan.analysis.findings.Finding` statements for the report.
-    identified : mapping int -> object
-        :class:`relspan.analysis.identified.Identified` per examined corank.
-    flat : mapping int -> object
-        :class:`relspan.analysis.flat.ElementaryFlat` per examined corank.
-    threshold_deg : float
-        Stability threshold (largest principal angle) in degrees.
-    cache_key : str
-        Content key of everything this result depends on ("" when not cached).
-    """
-
-    spec: DatasetSpec
-    prepared: object
-    full: WindowAnalysis
-    plans: tuple[PlanResult, ...]
-    examined: tuple[int, ...]
-    examined_from: str
-    findings: tuple
-    identified: dict
-    flat: dict
-    threshold_deg: float
-    cache_key: str = ""
-
-    @property
-    def names(self) -> tuple[str, ...]:
-        return self.full.names
-
-    @property
-    def labels(self) -> tuple[str, ...]:
-        return tuple(v.label for v in self.spec.variables)
-
-    def plan(self, plan_id: str) -> PlanResult:
-        for p in self.plans:
-            if p.plan.id == plan_id:
-                return p
-        raise KeyError(plan_id)
-
-
-@dataclass(frozen=True, slots=True, eq=False)
-class AnalysisRun:
-    """The result of analysing a whole spec (before any page is written).
-
-    Attributes
-    ----------
-    spec : Spec
-    datasets : tuple of DatasetResult
-    verdicts : tuple
-        :class:`relspan.analysis.claims.ClaimVerdict`, in the spec's order.
-    warnings : tuple of str
-        Numerical warnings raised during the analysis (window named).
-    environment : mapping str -> str
-        Versions of Python, relspan and the numerical libraries.
-    cache_hits, cache_misses : int
-        Datasets served from / written to the result cache.
-    """
-
-    spec: Spec
-    datasets: tuple[DatasetResult, ...]
-    verdicts: tuple
-    warnings: tuple[str, ...]
-    environment: dict
-    cache_hits: int = 0
-    cache_misses: int = 0
-
-    @property
-    def all_claims_hold(self) -> bool:
-        return all(v.holds for v in self.verdicts)
-
-    def dataset(self, dataset_id: str) -> DatasetResult:
-        for d in self.datasets:
-            if d.spec.id == dataset_id:
-                return d
-        raise KeyError(dataset_id)
+__all__ = ["run_analysis", "analyse_prepared", "LazyExecutor", "open_cache"]
 
 
 class LazyExecutor:
@@ -246,15 +119,15 @@ def _window_options(ds: DatasetSpec, ref: int) -> WindowOptions:
     )
 
 
-def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[str, ...]]:
+def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ...]]:
     """One window (top-level so process pools and Dask can pickle it)."""
     moments, names, options, common_std, label = item
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
         result = analyse_window(moments, names=names, options=options, common_std=common_std,
                                 label=label)
-    messages = tuple(str(w.message) for w in caught if issubclass(w.category, RelspanWarning))
-    return result, messages
+    raised = tuple(w.message for w in caught if isinstance(w.message, RelspanWarning))
+    return result, raised
 
 
 def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, ...], str]:
@@ -296,8 +169,12 @@ def _plan_summaries(plan: WindowPlanSpec, windows: Sequence, analyses: Sequence[
 
 
 def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec], *, executor=None,
-                     progress=None, warn_sink: list | None = None) -> DatasetResult:
-    """Analyse one prepared dataset: full sample, every window, summaries, findings."""
+                     progress=None, warn_sink: list | None = None, cache_key: str = "") -> DatasetResult:
+    """Analyse one prepared dataset: full sample, every window, summaries, findings.
+
+    Warnings raised in a window stay typed (:class:`~relspan.errors.RelspanWarning`);
+    they are appended to ``warn_sink`` with the dataset and plan recorded.
+    """
     from relspan.analysis.findings import dataset_findings
     from relspan.analysis.flat import elementary_flat
     from relspan.analysis.identified import identified_quantities
@@ -319,10 +196,9 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     executor = executor or SerialExecutor()
     results = map_in_chunks(executor, _analyse_task, items, progress=progress)
     sink = warn_sink if warn_sink is not None else []
-    for i, (_, messages) in enumerate(results):  # say which dataset and plan a window belongs to
+    for i, (_, raised) in enumerate(results):  # say which dataset and plan a window belongs to
         plan_id = next((p.id for p, _, a, b in spans if a <= i < b), None)
-        where = f"dataset {ds.id!r}" + (f", plan {plan_id!r}" if plan_id else "")
-        sink.extend(f"{where}: {m}" for m in messages)
+        sink.extend(w.located(dataset=ds.id, plan=plan_id) for w in raised)
     analyses = [r for r, _ in results]
     full = analyses[0]
     examined, examined_from = _choose_examined(ds, full)
@@ -343,11 +219,12 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
             flats[q] = elementary_flat(full.elementary, q=q, ref=ref)
     from relspan.data.prepare import without_blocks
 
+    findings = dataset_findings(full=full, plans=plan_results, examined=examined, identified=identified,
+                                labels=tuple(v.label for v in ds.variables))
     # the block statistics are not needed once the windows are assembled: do not keep them
-    result = DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
-                           examined=examined, examined_from=examined_from, findings=(),
-                           identified=identified, flat=flats, threshold_deg=threshold)
-    return dataclasses.replace(result, findings=tuple(dataset_findings(result)))
+    return DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
+                         examined=examined, examined_from=examined_from, findings=tuple(findings),
+                         identified=identified, flat=flats, threshold_deg=threshold, cache_key=cache_key)
 
 
 def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], sha: str) -> str:
@@ -400,36 +277,37 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
     own = executor is None
     lazy = executor or LazyExecutor(jobs, scheduler)
     results: list[DatasetResult] = []
-    messages: list[str] = []
+    raised: list[RelspanWarning] = []
     try:
         for ds in spec.datasets:
             plans = spec.plans_for(ds)
             key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
             cached = cache.get(key)
             if cached is not None:
-                result, cached_messages = cached
-                results.append(dataclasses.replace(result, spec=ds, cache_key=key))
-                messages.extend(cached_messages)
+                result, cached_warnings = cached
+                # the same analysis, bound to this spec's text (line numbers, paths may differ)
+                results.append(dataclasses.replace(result, spec=ds))
+                raised.extend(cached_warnings)
                 continue
             prepared = prepare_dataset(ds, plans)
             total = 1 + sum(len(prepared.plan(p.id).windows) for p in plans)
-            sink: list[str] = []
+            sink: list[RelspanWarning] = []
             with Progress(f"analysis of {ds.id}", total, enabled=None if progress else False) as bar:
                 result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
-                                          warn_sink=sink)
-            result = dataclasses.replace(result, cache_key=key)
+                                          warn_sink=sink, cache_key=key)
             if write_cache:
                 cache.put(key, (result, tuple(sink)))
             results.append(result)
-            messages.extend(sink)
+            raised.extend(sink)
     finally:
         if own:
             lazy.close()
-    for m in dict.fromkeys(messages):
-        warnings.warn(m, RelspanWarning, stacklevel=2)
-    run = AnalysisRun(spec=spec, datasets=tuple(results), verdicts=(), warnings=tuple(dict.fromkeys(messages)),
-                      environment=environment(), cache_hits=cache.hits, cache_misses=cache.misses)
-    return dataclasses.replace(run, verdicts=tuple(evaluate_claims(run)))
+    unique = tuple({str(w): w for w in raised}.values())  # one of each, in order of appearance
+    for w in unique:
+        warnings.warn(w, stacklevel=2)
+    return AnalysisRun(spec=spec, datasets=tuple(results), verdicts=tuple(evaluate_claims(spec.claims, results)),
+                       warnings=unique, environment=environment(), cache_hits=cache.hits,
+                       cache_misses=cache.misses)
 
 
 def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None):

@@ -1,0 +1,145 @@
+"""Result types of an analysis run: one plan, one dataset, the whole spec.
+
+Every result is built complete, once, by the driver (:mod:`relspan.run.pipeline`):
+the numbers of every window, the cross-window summaries, the findings (the one
+interpreter, :mod:`relspan.analysis.findings`) and the claim verdicts
+(:mod:`relspan.analysis.claims`). The report reads these and never recomputes
+an analysis quantity.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from relspan.analysis.stability import CorankSequence
+from relspan.analysis.window import WindowAnalysis
+from relspan.errors import RelspanWarning
+from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
+
+__all__ = ["PlanResult", "DatasetResult", "AnalysisRun"]
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class PlanResult:
+    """One window plan applied to one dataset.
+
+    Attributes
+    ----------
+    plan : WindowPlanSpec
+    windows : tuple
+        The data layer's window descriptions (label, rows, first/last time).
+    analyses : tuple of WindowAnalysis
+        One per window, same order.
+    stability : mapping (assumption, q) -> SubspaceStability
+        Principal angles between the windows' relation subspaces (and to the
+        full sample) for every examined corank and assumption with a basis.
+    swings : mapping assumption -> CoefficientSwing
+        Normalised coefficients of the reference relation across windows.
+    coranks : CorankSequence
+        The corank per window under each assumption.
+    """
+
+    plan: WindowPlanSpec
+    windows: tuple
+    analyses: tuple[WindowAnalysis, ...]
+    stability: dict
+    swings: dict
+    coranks: CorankSequence
+
+    @property
+    def labels(self) -> tuple[str, ...]:
+        return tuple(a.label for a in self.analyses)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class DatasetResult:
+    """Everything relspan found for one dataset.
+
+    Attributes
+    ----------
+    spec : DatasetSpec
+    prepared : object
+        :class:`relspan.data.prepare.PreparedDataset` (summary, overview
+        series, windows and their moments, input checksum).
+    full : WindowAnalysis
+        The full sample under every assumption (the reference for stability).
+    plans : tuple of PlanResult
+    examined : tuple of int
+        The coranks examined (from the spec, or chosen from the evidence).
+    examined_from : str
+        How ``examined`` was chosen, in words.
+    findings : tuple
+        :class:`relspan.analysis.findings.Finding` statements for the report.
+    identified : mapping int -> object
+        :class:`relspan.analysis.identified.Identified` per examined corank.
+    flat : mapping int -> object
+        :class:`relspan.analysis.flat.ElementaryFlat` per examined corank.
+    threshold_deg : float
+        Stability threshold (largest principal angle) in degrees.
+    cache_key : str
+        Content key of everything this result depends on ("" when not cached).
+    """
+
+    spec: DatasetSpec
+    prepared: object
+    full: WindowAnalysis
+    plans: tuple[PlanResult, ...]
+    examined: tuple[int, ...]
+    examined_from: str
+    findings: tuple
+    identified: dict
+    flat: dict
+    threshold_deg: float
+    cache_key: str = ""
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return self.full.names
+
+    @property
+    def labels(self) -> tuple[str, ...]:
+        return tuple(v.label for v in self.spec.variables)
+
+    def plan(self, plan_id: str) -> PlanResult:
+        for p in self.plans:
+            if p.plan.id == plan_id:
+                return p
+        raise KeyError(plan_id)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class AnalysisRun:
+    """The result of analysing a whole spec (before any page is written).
+
+    Attributes
+    ----------
+    spec : Spec
+    datasets : tuple of DatasetResult
+    verdicts : tuple
+        :class:`relspan.analysis.claims.ClaimVerdict`, in the spec's order.
+    warnings : tuple of RelspanWarning
+        Numerical warnings raised during the analysis, typed, each with its
+        dataset and plan recorded (``str(w)`` is the line users see).
+    environment : mapping str -> str
+        Versions of Python, relspan and the numerical libraries.
+    cache_hits, cache_misses : int
+        Datasets served from / written to the result cache.
+    """
+
+    spec: Spec
+    datasets: tuple[DatasetResult, ...]
+    verdicts: tuple
+    warnings: tuple[RelspanWarning, ...]
+    environment: dict
+    cache_hits: int = 0
+    cache_misses: int = 0
+
+    @property
+    def all_claims_hold(self) -> bool:
+        return all(v.holds for v in self.verdicts)
+
+    def dataset(self, dataset_id: str) -> DatasetResult:
+        for d in self.datasets:
+            if d.spec.id == dataset_id:
+                return d
+        raise KeyError(dataset_id)
