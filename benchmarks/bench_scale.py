@@ -429,7 +429,7 @@ site:
 
 
 def _bench_spec(work: Path, rows: int, n: int, width: int, step: int, starts: int = 8):
-    from relspan.spec.loader import load_spec
+    from relspan.spec.load import load_spec
 
     csv = work / "pipeline.csv"
     _write_csv(csv, rows, n=n)
@@ -471,7 +471,7 @@ def bench_rebuild(work: Path, rows: int) -> Outcome:
     """A cold analysis against a rebuild with every result in the cache.
 
     Needs: relspan.run.pipeline.run_analysis(spec, jobs=, use_cache=, cache_dir=, progress=)
-    and relspan.spec.loader.load_spec.
+    and relspan.spec.load.load_spec.
     """
     try:
         from relspan.run.pipeline import run_analysis

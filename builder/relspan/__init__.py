@@ -21,7 +21,7 @@ __version__ = "0.1.0"
 __all__ = ["__version__", "load_spec", "check", "build", "analyse_frame", "Outcome", "FrameAnalysis"]
 
 _LAZY = {"check": "relspan.run.build", "build": "relspan.run.build", "analyse_frame": "relspan.api",
-         "Outcome": "relspan.run.build", "FrameAnalysis": "relspan.api", "load_spec": "relspan.spec.loader"}
+         "Outcome": "relspan.run.build", "FrameAnalysis": "relspan.api", "load_spec": "relspan.spec.load"}
 
 
 def __getattr__(name: str):

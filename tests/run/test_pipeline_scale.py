@@ -16,7 +16,7 @@ import pytest
 import relspan.run.pipeline as pipeline
 from relspan.run.build import where_tasks_run
 from relspan.run.pipeline import run_analysis
-from relspan.spec.loader import load_spec
+from relspan.spec.load import load_spec
 
 from . import _tasks
 

@@ -15,7 +15,7 @@ from hypothesis import HealthCheck, given, settings
 
 from relspan.errors import SpecError
 from relspan.spec import ChecksSpec, SiteSpec, Tolerance, VariableSpec, json_schema
-from relspan.spec import loader as loader_mod
+from relspan.spec import validate as validate_mod
 from relspan.spec.schema import EXAMPLE_SPEC, schema_json_text
 
 from spec_strategies import example_data, mutated_specs
@@ -105,8 +105,8 @@ def test_committed_schema_file_is_fresh():
 
 def _walk_accepts(data) -> bool:
     try:
-        loader_mod._validate(data, loader_mod._SCHEMA, "", 1, loader_mod._Context("t.yaml",
-                                                                                  Path("t.yaml")))
+        validate_mod.validate(data, validate_mod.SCHEMA, "", 1,
+                              validate_mod.Context("t.yaml", Path("t.yaml")))
     except SpecError:
         return False
     return True

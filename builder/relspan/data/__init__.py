@@ -3,7 +3,7 @@
 One streaming pass turns a table into mergeable block statistics; each
 window of each plan is a merge of whole blocks.
 
-- :mod:`~relspan.data.sources`: CSV/TSV/Parquet in chunks, cell checks, SHA-256
+- :mod:`~relspan.data.sources`: CSV/TSV/Parquet in chunks (detect, cells, csv, parquet, reader)
 - :mod:`~relspan.data.timeindex`: the time column (years, quarters, months, dates)
 - :mod:`~relspan.data.transforms`: log, diff, logdiff, demean, standardise; missing values
 - :mod:`~relspan.data.windows`: window plans -> windows; the block grid

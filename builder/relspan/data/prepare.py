@@ -30,8 +30,9 @@ import pandas as pd
 
 from relspan.analysis.moments import Moments
 from relspan.data.blocks import BlockBuilder, BlockTable, assemble_stacked, tree_levels
-from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, _time_text,
-                                  arrow_available, numeric_block, open_source)
+from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, TableSource,
+                                  arrow_available, numeric_block, open_source, select_columns,
+                                  time_text)
 from relspan.data.timeindex import (OrderCheck, TimeFormat, format_times, parse_bound,
                                     parse_times, resolve_format)
 from relspan.data.transforms import (MISSING_POLICIES, ROW_TRANSFORMS, SAMPLE_TRANSFORMS, Drop,
@@ -672,11 +673,10 @@ def prepare_frame(df: pd.DataFrame, *, columns: Sequence[str], time: str | TimeS
     _check_setup(dataset_id, columns, tr, missing, ts, plans, path)
     wanted = list(columns) + ([ts.column] if ts is not None else [])
     header = [str(c) for c in df.columns]
-    from relspan.data.sources import TableSource, _select  # noqa: PLC0415 (shared checks)
 
     fake = TableSource(path, None, "frame", None, tuple(header))  # type: ignore[arg-type]
     keys = [f"columns[{j}]" for j in range(len(columns))] + (["time"] if ts else [])
-    positions = _select(fake, wanted, keys)
+    positions = select_columns(fake, wanted, keys)
     grid = plan_grid(plans, has_time=ts is not None, dataset_id=dataset_id, path=path)
     run = _Pass(dataset_id=dataset_id, names=columns, transforms=tr, missing=missing, path=path,
                 time=ts, grid=grid)
@@ -696,7 +696,7 @@ def prepare_frame(df: pd.DataFrame, *, columns: Sequence[str], time: str | TimeS
                 times, typed = tcol.to_numpy().astype("datetime64[s]"), True
                 h.update(times.astype(np.int64).tobytes())
             else:
-                times = _time_text(tcol)
+                times = time_text(tcol)
                 h.update("\x1f".join("" if v is None else v for v in times).encode())
         run.feed(RawChunk(values, times, typed, rows))
     return run.finish(rows_read=total, sha256=h.hexdigest(), plans=plans, labels=lab, units=un,

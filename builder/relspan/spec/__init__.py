@@ -9,7 +9,7 @@
 from relspan.spec.model import *  # noqa: F401,F403
 from relspan.spec.model import __all__ as _model_all
 from relspan.spec.docs import spec_reference_markdown
-from relspan.spec.loader import load_spec, parse_spec
+from relspan.spec.load import load_spec, parse_spec
 from relspan.spec.schema import json_schema, schema_json_text
 from relspan.spec.starter import starter_spec
 

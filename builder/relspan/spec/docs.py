@@ -8,9 +8,10 @@ Refresh the committed files with::
 
 from __future__ import annotations
 
-from typing import Any, Iterator
+from typing import Iterator
 
 from relspan.spec.schema import EXAMPLE_SPEC, json_schema
+from relspan.spec.validate import inline_yaml as _inline  # one YAML renderer for fixes and docs
 
 __all__ = ["spec_reference_markdown", "REFRESH_COMMAND"]
 
@@ -20,12 +21,6 @@ REFRESH_COMMAND = ("python -c \"import relspan.spec as s; print(s.spec_reference
 
 _TYPE = {"string": "text", "integer": "whole number", "number": "number",
          "boolean": "true / false", "array": "list", "object": "mapping"}
-
-
-def _inline(value: Any) -> str:
-    from relspan.spec.loader import _inline as inline  # one YAML renderer for fixes and docs
-
-    return inline(value)
 
 
 def _type_words(schema: dict) -> str:

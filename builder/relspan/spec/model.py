@@ -1,6 +1,6 @@
 """Frozen dataclasses for a validated spec (format v1).
 
-The loader (:mod:`relspan.spec.loader`) turns YAML text into these objects
+The loader (:mod:`relspan.spec.load`) turns YAML text into these objects
 after checking it against the schema (:mod:`relspan.spec.schema`). Every other
 part of relspan reads the spec only through these classes. Field names follow
 the YAML keys; defaults here are the defaults of the format.

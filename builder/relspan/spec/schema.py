@@ -1,8 +1,8 @@
 """The one schema of spec format v1, as a JSON Schema (draft 2020-12) dict.
 
-The schema is the single source of truth for the spec format: the loader
-(:mod:`relspan.spec.loader`) walks it to validate a spec and to word its error
-messages, :mod:`relspan.spec.docs` turns its ``title``/``description``/
+The schema is the single source of truth for the spec format: the walker
+(:mod:`relspan.spec.validate`) checks a spec against it and words its error
+messages from it, :mod:`relspan.spec.docs` turns its ``title``/``description``/
 ``default``/``examples`` annotations into ``docs/spec.md``, and
 :func:`json_schema` hands it to editors and to other validators.
 
@@ -13,8 +13,9 @@ stays valid for every conforming validator.
 
 Rules that JSON Schema cannot state (ids unique within a list, a claim that
 names an existing dataset, a width in years on a dataset with a time column,
-files that exist, ...) are checked by the loader after the schema walk and are
-listed in the ``description`` texts so that the documentation tells them too.
+files that exist, ...) are checked by :mod:`relspan.spec.rules` after the schema
+walk and are listed in the ``description`` texts so that the documentation tells
+them too.
 
 References
 ----------

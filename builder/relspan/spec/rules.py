@@ -1,38 +1,24 @@
-"""Spec loader: YAML text -> validated, frozen :class:`~relspan.spec.model.Spec`.
+"""Cross-field rules of a spec, checked after the schema walk; builds the dataclasses.
 
-Three stages, each stopping at the first problem with a located
-:class:`~relspan.errors.SpecError` (file, line, key path, what was expected,
-what was found, and a fix):
-
-1. YAML is parsed with ``yaml.safe_load`` semantics (no object construction)
-   by a loader that records the line of every key and item and rejects keys
-   written twice (:mod:`relspan.spec._yamlpos`).
-2. The parsed values are checked against the one schema of the format
-   (:mod:`relspan.spec.schema`) by a small walker of its keywords; the
-   ``jsonschema`` package is not needed at run time.
-3. Rules the schema cannot state are cross-checked (ids unique, references
-   resolve, fields consistent with a claim's kind, source files present and
-   inside the spec's folder, ...), and the dataclasses are built with the
-   defaults of :mod:`relspan.spec.model`.
-
-Only the spec file itself is read here; data contents are read by
-:mod:`relspan.data`.
+The schema cannot state these: ids unique (datasets, window plans, periods,
+claims), references resolve (a dataset's plans, a claim's dataset, plan and
+variables), fields consistent with a plan's or a claim's kind, checks
+consistent with a dataset's variables (noise shares for the shaped
+assumption, the normalising variable, coranks below the number of
+variables), dates of the calendar in order, and source files present and
+inside the spec's folder. Each problem is a located
+:class:`~relspan.errors.SpecError`; a spec that passes becomes the frozen
+dataclasses of :mod:`relspan.spec.model`, with their defaults.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
 import difflib
-import math
-import reprlib
-import re
 from pathlib import Path
 from typing import Any, Iterable
 
-import yaml
-
-from relspan.errors import SpecError
-from relspan.spec._yamlpos import LineDict, LineList, first_duplicate, join_key, load_with_positions
+from relspan.spec._yamlpos import LineDict, LineList
 from relspan.spec.model import (
     ChecksSpec,
     ClaimSpec,
@@ -48,11 +34,10 @@ from relspan.spec.model import (
     VariableSpec,
     WindowPlanSpec,
 )
-from relspan.spec.schema import SPAN_UNITS, json_schema
+from relspan.spec.schema import SPAN_UNITS
+from relspan.spec.validate import Context, inline_yaml
 
-__all__ = ["load_spec", "parse_spec"]
-
-_SCHEMA = json_schema()  # private copy; never changed after import
+__all__ = ["build_spec"]
 
 _CLAIM_COMMON = ("id", "kind", "text", "dataset", "plan")
 #: fields each claim kind may use besides the common ones
@@ -70,472 +55,28 @@ _CLAIM_DEFAULT_ASSUMPTION = {
     "coefficient_bounded": "diagonal",
 }
 
-_repr = reprlib.Repr()
-_repr.maxstring = 40
-_repr.maxother = 40
-_repr.maxlist = 4
-_repr.maxdict = 3
-_repr.maxlevel = 2
 
-
-# --------------------------------------------------------------------------- public face
-
-
-def load_spec(path: str | Path) -> Spec:
-    """Read and validate the spec file at ``path``.
+def build_spec(raw: LineDict, text: str, ctx: Context) -> Spec:
+    """Cross-check a schema-valid parsed spec and build the frozen :class:`Spec`.
 
     Parameters
     ----------
-    path : str or Path
-        The spec file (YAML, UTF-8). Relative paths inside it are resolved
-        against its folder.
-
-    Returns
-    -------
-    Spec
-        The validated spec, with ``text`` holding the file's text.
-
-    Raises
-    ------
-    SpecError
-        If the file is missing, not UTF-8, empty, malformed YAML, or does not
-        follow spec format v1. ``str(err)`` is one paragraph with the
-        location and a fix.
-    """
-    shown = str(path)
-    p = Path(path)
-    try:
-        if not p.exists():
-            raise SpecError(
-                "spec file not found.", path=shown,
-                fix=f"check the path (relative paths start from the current folder, "
-                    f"{Path.cwd().name!r}), or write a starter spec with `relspan new DATA.csv`.")
-        if p.is_dir():
-            raise SpecError(
-                "this is a folder, not a spec file.", path=shown,
-                fix="give the path of the YAML spec file inside it.")
-        data = p.read_bytes()
-    except (OSError, ValueError) as exc:
-        if isinstance(exc, SpecError):
-            raise
-        raise SpecError(f"the spec file cannot be read ({exc.__class__.__name__}: "
-                        f"{getattr(exc, 'strerror', None) or exc}).", path=shown,
-                        fix="check the path and that you may read the file.") from None
-    try:
-        text = data.decode("utf-8")
-    except UnicodeDecodeError as exc:
-        line = data[: exc.start].count(b"\n") + 1
-        raise SpecError(
-            f"the spec file is not UTF-8 text (byte 0x{data[exc.start]:02x} at byte "
-            f"{exc.start}).", path=shown, line=line,
-            fix="save the file as UTF-8 (most editors offer it under 'Save with "
-                "encoding').") from None
-    return parse_spec(text, p, shown=shown)
-
-
-def parse_spec(text: str, path: str | Path, *, shown: str | None = None) -> Spec:
-    """Validate spec ``text`` as if it were the file at ``path``.
-
-    Parameters
-    ----------
+    raw : LineDict
+        The parsed spec, already checked against the schema.
     text : str
-        The YAML text of the spec.
-    path : str or Path
-        Where the spec lives (need not exist): relative paths inside the spec
-        are resolved against its folder, and errors name it.
-    shown : str, optional
-        How to name the file in messages; default ``str(path)``.
-
-    Returns
-    -------
-    Spec
+        The spec's text (kept on the result).
+    ctx : Context
+        The spec file's name and folder (relative paths resolve against it).
 
     Raises
     ------
     SpecError
-        The first problem found, located by line and key path, with a fix.
+        The first rule broken, located by line and key path, with a fix.
     """
-    shown = str(path) if shown is None else shown
-    ctx = _Context(shown, Path(path))
-    raw = _parse_yaml(text, ctx)
-    _validate(raw, _SCHEMA, "", raw.line if isinstance(raw, LineDict) else 1, ctx)
     return _Builder(raw, text, ctx).build()
 
 
-# --------------------------------------------------------------------------- context
-
-
-class _Context:
-    __slots__ = ("shown", "path", "folder")
-
-    def __init__(self, shown: str, path: Path) -> None:
-        self.shown = shown
-        try:
-            self.path = path.resolve()
-        except (OSError, ValueError, RuntimeError):
-            self.path = Path.cwd() / path
-        self.folder = self.path.parent
-
-    def error(self, message: str, *, line: int | None, key: str | None = None,
-              fix: str, expected: str | None = None, got: str | None = None) -> SpecError:
-        return SpecError(message, path=self.shown, line=line, key=key or None, fix=fix,
-                         expected=expected, got=got)
-
-
-def _parse_yaml(text: str, ctx: _Context) -> LineDict:
-    if not isinstance(text, str):
-        raise ctx.error(f"the spec must be text; got {type(text).__name__}.", line=None,
-                        fix="pass the file's contents decoded as UTF-8.")
-    body = text[1:] if text.startswith("\ufeff") else text
-    if not body.strip():
-        raise ctx.error("the spec is empty.", line=1,
-                        fix="start from `relspan new DATA.csv`, or copy the example in "
-                            "docs/spec.md.")
-    try:
-        raw = load_with_positions(body)
-    except yaml.MarkedYAMLError as exc:
-        mark = exc.problem_mark or exc.context_mark
-        line = None if mark is None else mark.line + 1
-        col = None if mark is None else mark.column + 1
-        what = " ".join(s for s in (exc.context, exc.problem) if s)
-        where = f" (column {col})" if col else ""
-        raise ctx.error(
-            f"the spec is not valid YAML: {what}{where}.", line=line,
-            fix=_yaml_fix(exc.problem or "")) from None
-    except yaml.YAMLError as exc:
-        raise ctx.error(f"the spec is not valid YAML: {exc}.", line=None,
-                        fix="check indentation (spaces, not tabs), colons and quotes.") from None
-    except RecursionError:
-        raise ctx.error("the spec nests lists or mappings too deeply to read.", line=None,
-                        fix="the spec format needs at most a few levels; check for a run of "
-                            "unclosed brackets.") from None
-    if raw is None:
-        raise ctx.error("the spec has no content (only comments or blank lines).", line=1,
-                        fix="start from `relspan new DATA.csv`, or copy the example in "
-                            "docs/spec.md.")
-    dup = first_duplicate(raw)
-    if dup is not None:
-        where, key, first, second = dup
-        full = join_key(where, key)
-        raise ctx.error(
-            (f"{full} is written twice in the same mapping" if where and isinstance(key, str)
-             else f"key {_show_key(key)} is written twice in the same mapping{_in(where)}")
-            + f" (lines {first} and {second}); YAML would silently keep only the last one.",
-            line=second, key=full,
-            fix="keep one of the two and delete or rename the other.")
-    if not isinstance(raw, LineDict):
-        raise ctx.error(
-            f"the spec must be a mapping of keys such as `relspan:`, `report:` and "
-            f"`datasets:`; got {_describe(raw)}.", line=getattr(raw, "line", 1),
-            fix="start the file with `relspan: 1` and write the sections as `key: value` "
-                "lines (see docs/spec.md).")
-    return raw
-
-
-def _yaml_fix(problem: str) -> str:
-    p = problem.lower()
-    if "tab" in p or "'\\t'" in p or "\t" in p:
-        return "indent with spaces; YAML does not allow tabs for indentation."
-    if "mapping values are not allowed" in p:
-        return ("a value contains ': '; put the value in quotes, or check the indentation of "
-                "the line.")
-    if "expected <block end>" in p or "indent" in p:
-        return "check the indentation: keys of one mapping must line up exactly."
-    if "could not find expected ':'" in p:
-        return "write each entry as `key: value`, and close any quote you opened."
-    if "unhashable" in p:
-        return "use plain text as keys."
-    if "found undefined alias" in p:
-        return "define the anchor (`&name`) before using it as `*name`."
-    return "check indentation (spaces, not tabs), colons and matching quotes or brackets."
-
-
-# --------------------------------------------------------------------------- schema walk
-
-
-def _describe(value: Any) -> str:
-    """What a value is, in words, for `got ...` in messages."""
-    if value is None:
-        return "nothing (an empty value)"
-    if isinstance(value, bool):
-        return f"the true/false value {'true' if value else 'false'}"
-    if isinstance(value, int):
-        return f"the whole number {_repr.repr(value)}"
-    if isinstance(value, float):
-        return f"the number {value!r}"
-    if isinstance(value, str):
-        return "empty text" if value == "" else f"the text {_repr.repr(value)}"
-    if isinstance(value, dict):
-        return "a mapping"
-    if isinstance(value, list):
-        return f"a list of {len(value)} item{'s' if len(value) != 1 else ''}"
-    return f"a value of YAML type {type(value).__name__}"
-
-
-_TYPE_WORDS = {
-    "string": "text",
-    "integer": "a whole number",
-    "number": "a number",
-    "boolean": "true or false",
-    "array": "a list",
-    "object": "a mapping",
-    "null": "nothing",
-}
-
-
-def _is_type(value: Any, t: str) -> bool:
-    if t == "string":
-        return isinstance(value, str)
-    if t == "boolean":
-        return isinstance(value, bool)
-    if t == "integer":
-        if isinstance(value, bool):
-            return False
-        return isinstance(value, int) or (isinstance(value, float) and value.is_integer())
-    if t == "number":
-        return isinstance(value, (int, float)) and not isinstance(value, bool)
-    if t == "array":
-        return isinstance(value, list)
-    if t == "object":
-        return isinstance(value, dict)
-    if t == "null":
-        return value is None
-    return False
-
-
-def _leaf(key: str) -> str:
-    """Last part of a key path (``datasets[0].id`` -> ``id``)."""
-    leaf = key.rsplit(".", 1)[-1]
-    return re.sub(r"\[\d+\]$", "", leaf) or key
-
-
-def _inline(value: Any) -> str:
-    """A value as short flow-style YAML, for examples in fixes."""
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if value is None:
-        return "null"
-    if isinstance(value, (int, float)):
-        return repr(value)
-    if isinstance(value, str):
-        if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_./ -]*", value) and value.lower() not in {
-                "yes", "no", "true", "false", "on", "off", "null", "y", "n"} \
-                and not value.endswith(" "):
-            return value
-        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
-    if isinstance(value, list):
-        return "[" + ", ".join(_inline(v) for v in value) + "]"
-    if isinstance(value, dict):
-        return "{" + ", ".join(f"{k}: {_inline(v)}" for k, v in value.items()) + "}"
-    return str(value)
-
-
-def _example_fix(schema: dict, key: str) -> str:
-    ex = schema.get("examples")
-    if ex:
-        return f", e.g. `{_leaf(key)}: {_inline(ex[0])}`"
-    return ""
-
-
-def _show_key(key: Any) -> str:
-    return f"'{key}'" if isinstance(key, str) else repr(key)
-
-
-def _in(where: str) -> str:
-    return f" at {where}" if where else " at the top level"
-
-
-def _expected_words(schema: dict, hint: str | None) -> str:
-    if "x-expected" in schema:
-        return schema["x-expected"]
-    if hint:
-        return hint
-    t = schema.get("type")
-    if "enum" in schema:
-        return "one of " + ", ".join(str(v) for v in schema["enum"])
-    words = _TYPE_WORDS.get(t, "a value") if isinstance(t, str) else "a value"
-    bounds = []
-    if "minimum" in schema:
-        bounds.append(f">= {schema['minimum']}")
-    if "exclusiveMinimum" in schema:
-        bounds.append(f"> {schema['exclusiveMinimum']}")
-    if "maximum" in schema:
-        bounds.append(f"<= {schema['maximum']}")
-    if "exclusiveMaximum" in schema:
-        bounds.append(f"< {schema['exclusiveMaximum']}")
-    if bounds:
-        words += " " + " and ".join(bounds)
-    return words
-
-
-def _basic_type_ok(value: Any, schema: dict) -> bool:
-    """Does ``value`` have the basic type of this alternative (ignoring finer rules)?"""
-    if "const" in schema:
-        return type(schema["const"]) is type(value)
-    t = schema.get("type")
-    return t is None or _is_type(value, t)
-
-
-def _validate(value: Any, schema: dict, key: str, line: int, ctx: _Context,
-              hint: str | None = None) -> None:
-    """Check ``value`` against ``schema``; raise a located SpecError on the first problem."""
-    expected = _expected_words(schema, hint)
-    name = key or "the spec"
-
-    def fail(what: str, fix: str | None = None) -> SpecError:
-        return ctx.error(f"{name} {what}", line=line, key=key, expected=expected,
-                         got=_describe(value),
-                         fix=fix or f"write {expected}{_example_fix(schema, key)}.")
-
-    if "anyOf" in schema:
-        alts = schema["anyOf"]
-        for alt in alts:
-            try:
-                _validate(value, alt, key, line, ctx, hint=expected)
-                return
-            except SpecError:
-                pass
-        typed = [alt for alt in alts if _basic_type_ok(value, alt)]
-        if len(typed) == 1:
-            # the value has the right shape for one alternative: its detailed message helps most
-            merged = {k: v for k, v in {**schema, **typed[0]}.items() if k != "anyOf"}
-            _validate(value, merged, key, line, ctx, hint=expected)
-        raise fail(f"must be {expected}; got {_describe(value)}.")
-
-    if "const" in schema:
-        c = schema["const"]
-        if not _same(value, c):
-            raise fail(f"must be {expected}; got {_describe(value)}.",
-                       fix=f"write `{_leaf(key)}: {_inline(c)}`.")
-
-    t = schema.get("type")
-    if isinstance(t, str) and not _is_type(value, t):
-        extra = ""
-        if t == "string" and isinstance(value, (bool, int, float)):
-            extra = " (YAML reads yes/no/on/off as true/false and bare digits as numbers)"
-        fix = f"write {expected}{_example_fix(schema, key)}"
-        if t == "string" and (isinstance(value, (bool, int, float))):
-            fix += "; put the value in quotes to keep it as text"
-        if t == "object" and value is None:
-            fix += "; indent its keys below it"
-        raise fail(f"must be {_TYPE_WORDS[t]}; got {_describe(value)}{extra}.", fix=fix + ".")
-
-    if "enum" in schema and not any(_same(value, e) for e in schema["enum"]):
-        allowed = ", ".join(str(v) for v in schema["enum"])
-        near = difflib.get_close_matches(str(value), [str(v) for v in schema["enum"]], n=1)
-        hint_txt = f" Did you mean '{near[0]}'?" if near else ""
-        raise fail(f"must be one of: {allowed}; got {_describe(value)}.{hint_txt}",
-                   fix=f"use one of {allowed}" + (f", e.g. `{_leaf(key)}: {near[0]}`."
-                                                  if near else "."))
-
-    if isinstance(value, str):
-        if len(value) < schema.get("minLength", 0):
-            raise fail("must not be empty.")
-        pat = schema.get("pattern")
-        if pat is not None and not _search(pat, value):
-            raise fail(f"must be {expected}; got {_describe(value)}.")
-
-    if _is_type(value, "number") and t in ("number", "integer"):
-        try:
-            finite = math.isfinite(float(value))
-        except OverflowError:
-            finite = False
-        if not finite:
-            raise fail(f"must be a finite number of ordinary size; got {_describe(value)}.")
-        if "minimum" in schema and value < schema["minimum"]:
-            raise fail(f"must be >= {schema['minimum']}; got {_describe(value)}.")
-        if "exclusiveMinimum" in schema and value <= schema["exclusiveMinimum"]:
-            raise fail(f"must be > {schema['exclusiveMinimum']}; got {_describe(value)}.")
-        if "maximum" in schema and value > schema["maximum"]:
-            raise fail(f"must be <= {schema['maximum']}; got {_describe(value)}.")
-        if "exclusiveMaximum" in schema and value >= schema["exclusiveMaximum"]:
-            raise fail(f"must be < {schema['exclusiveMaximum']}; got {_describe(value)}.")
-
-    if isinstance(value, list) and t == "array":
-        lines = value.item_lines if isinstance(value, LineList) else [line] * len(value)
-        n_min = schema.get("minItems", 0)
-        if len(value) < n_min:
-            raise fail(f"must list at least {n_min} item{'s' if n_min != 1 else ''}; got "
-                       f"{len(value)}.")
-        items = schema.get("items")
-        for i, item in enumerate(value):
-            if items is not None:
-                _validate(item, items, f"{key}[{i}]", lines[i], ctx)
-        if schema.get("uniqueItems"):
-            for i, item in enumerate(value):
-                for j in range(i):
-                    if _same(value[j], item):
-                        raise ctx.error(
-                            f"{key} lists {_describe(item)} twice (items {j} and {i}, lines "
-                            f"{lines[j]} and {lines[i]}).", line=lines[i], key=f"{key}[{i}]",
-                            fix="remove the repeated item.")
-
-    if isinstance(value, dict) and t == "object":
-        _validate_object(value, schema, key, line, ctx)
-
-
-def _same(a: Any, b: Any) -> bool:
-    """Equality as JSON Schema means it: true is not 1, but 1 is 1.0."""
-    if isinstance(a, bool) or isinstance(b, bool):
-        return isinstance(a, bool) and isinstance(b, bool) and a == b
-    if isinstance(a, (int, float)) and isinstance(b, (int, float)):
-        return a == b
-    return type(a) is type(b) and a == b
-
-
-def _search(pattern: str, text: str) -> bool:
-    """ECMA-262 reading of a schema pattern: ``$`` ends the text (Python's allows a newline)."""
-    if pattern.endswith("$") and not pattern.endswith("\\$"):
-        pattern = pattern[:-1] + r"\Z"
-    return re.search(pattern, text) is not None
-
-
-def _validate_object(value: dict, schema: dict, key: str, line: int, ctx: _Context) -> None:
-    props: dict = schema.get("properties", {})
-    key_lines = value.key_lines if isinstance(value, LineDict) else {}
-    valid = sorted(props)
-    name = key or "the top level of the spec"
-    for k in value:
-        if k in props:
-            continue
-        kline = key_lines.get(k, line)
-        if not isinstance(k, str):
-            raise ctx.error(
-                f"{name} has the key {k!r}, which is not text; keys here are: "
-                f"{', '.join(valid)}.", line=kline, key=key,
-                fix="write keys as plain words from the list above.")
-        near = difflib.get_close_matches(k, valid, n=1, cutoff=0.6)
-        what = f"unknown key {key}.{k}" if key else f"unknown key '{k}' at the top level"
-        here = f"Valid keys in {key} are" if key else "Valid keys are"
-        if near:
-            msg = f"{what}; did you mean '{near[0]}'? {here}: {', '.join(valid)}."
-            fix = f"rename '{k}' to '{near[0]}'."
-        else:
-            msg = f"{what}. {here}: {', '.join(valid)}."
-            fix = f"remove '{k}', or use one of the valid keys."
-        raise ctx.error(msg, line=kline, key=join_key(key, k), fix=fix, got=k,
-                        expected=", ".join(valid))
-    for req in schema.get("required", ()):
-        if req not in value:
-            sub = props.get(req, {})
-            ex = sub.get("examples")
-            example = f" such as `{req}: {_inline(ex[0])}`" if ex else ""
-            raise ctx.error(
-                f"{join_key(key, req)} is required but missing.", line=line,
-                key=join_key(key, req),
-                fix=f"add a line{example}{' under ' + key if key else ''}.")
-    n = len(value)
-    lo, hi = schema.get("minProperties"), schema.get("maxProperties")
-    if (lo is not None and n < lo) or (hi is not None and n > hi):
-        expected = schema.get("x-expected", f"between {lo} and {hi} keys")
-        given = ", ".join(str(k) for k in value) or "none"
-        raise ctx.error(f"{name} must be {expected}; got {n} ({given}).", line=line, key=key,
-                        fix=f"write {expected}{_example_fix(schema, key)}.")
-    for k, v in value.items():
-        _validate(v, props[k], join_key(key, k), key_lines.get(k, line), ctx)
-
-
-# --------------------------------------------------------------------------- building
+# --------------------------------------------------------------------------- helpers
 
 
 def _line(m: Any, k: str, default: int) -> int:
@@ -576,7 +117,7 @@ def _span(value: Any) -> Span | None:
 class _Builder:
     """Cross-checks the schema-valid raw spec and builds the dataclasses."""
 
-    def __init__(self, raw: LineDict, text: str, ctx: _Context) -> None:
+    def __init__(self, raw: LineDict, text: str, ctx: Context) -> None:
         self.raw = raw
         self.text = text
         self.ctx = ctx
@@ -676,8 +217,8 @@ class _Builder:
                 width, step = _span(w["width"]), _span(w["step"])
                 if (width.unit == "rows") != (step.unit == "rows"):
                     raise self.err(
-                        f"{key} mixes rows and time units in width ({_inline(w['width'])}) and "
-                        f"step ({_inline(w['step'])}).", line=_line(w, "step", line),
+                        f"{key} mixes rows and time units in width ({inline_yaml(w['width'])}) and "
+                        f"step ({inline_yaml(w['step'])}).", line=_line(w, "step", line),
                         key=f"{key}.step",
                         fix="give both in rows (e.g. 40 and 8) or both in time units "
                             "(e.g. \"10 years\" and \"2 years\").")

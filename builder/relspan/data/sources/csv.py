@@ -1,0 +1,345 @@
+"""CSV and TSV readers: pyarrow's streaming reader, and pandas' C reader as the reference.
+
+Two engines read the same cells (see :data:`ENGINES`):
+
+- :func:`pandas_chunks`, the reference: pandas' C reader on a
+  :class:`~relspan.data.sources.detect.CheckedStream`, so the file is hashed and
+  checked as UTF-8 in the same pass. Every field is tokenised, so a row with
+  more fields than the header is caught.
+- :func:`arrow_chunks`, the fast path: pyarrow's multi-threaded streaming
+  reader, with the hash and UTF-8 check of the whole file in a thread beside
+  it. Whatever it may read differently from pandas raises
+  :class:`FastPathDeclined` before a result exists, and the caller reads the
+  file again with pandas.
+
+Each engine is a generator of the :class:`~relspan.data.sources.reader.TableReader`
+it serves: it yields :class:`~relspan.data.sources.cells.RawChunk` objects and,
+when the file is read to the end, sets the reader's ``sha256`` and ``rows_read``.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import queue
+import re
+import threading
+from pathlib import Path
+from typing import TYPE_CHECKING, Callable, Iterator
+
+import numpy as np
+import pandas as pd
+
+from relspan.data.sources.cells import RawChunk, check_finite, numeric_block
+from relspan.data.sources.detect import CheckedStream, TableSource
+from relspan.errors import DataError
+
+if TYPE_CHECKING:
+    from relspan.data.sources.reader import TableReader
+
+__all__ = ["ENGINES", "FastPathDeclined", "arrow_available", "read_header", "pandas_chunks",
+           "arrow_chunks", "parser_error"]
+
+#: CSV readers: ``auto`` (pyarrow's streaming reader when pyarrow is installed, else
+#: pandas), ``pyarrow`` (only that one; a file it cannot take exactly raises
+#: :class:`FastPathDeclined`) and ``pandas`` (the reference reader)
+ENGINES = ("auto", "pyarrow", "pandas")
+
+#: bytes of CSV text pyarrow parses per block (one block is one batch of rows; memory
+#: stays proportional to it and to the few blocks read ahead)
+ARROW_BLOCK_BYTES = 1 << 21
+
+#: cells pandas' C reader reads as missing by default (pandas.read_csv, na_values); the
+#: pyarrow reader is given the same list so both readers agree cell for cell
+try:
+    from pandas._libs.parsers import STR_NA_VALUES as _PANDAS_NA  # noqa: PLC0415
+    _NA_VALUES = sorted(_PANDAS_NA)
+except ImportError:  # pragma: no cover - pandas moved it
+    _NA_VALUES = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan",
+                  "1.#IND", "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a",
+                  "nan", "null"]
+
+
+class FastPathDeclined(Exception):
+    """The pyarrow reader met something it may read differently from pandas.
+
+    Raised only by ``engine="pyarrow"``; :func:`relspan.data.prepare.prepare_dataset`
+    then reads the file again with pandas, which gives the reference result or the
+    located error message. It is never shown to users.
+    """
+
+
+def arrow_available() -> bool:
+    """Whether pyarrow's CSV reader can be imported."""
+    try:
+        import pyarrow.csv  # noqa: F401, PLC0415 (optional dependency)
+    except ImportError:
+        return False
+    return True
+
+
+def read_header(path: str, resolved: Path, delimiter: str) -> tuple[str, ...]:
+    with open(resolved, "rb") as fh:
+        stream = CheckedStream(fh, path)
+        try:
+            head = pd.read_csv(io.BufferedReader(stream), sep=delimiter, header=None, nrows=1,
+                               dtype=str, keep_default_na=False, na_filter=False,
+                               skip_blank_lines=True, engine="c", encoding="utf-8")
+        except pd.errors.EmptyDataError:
+            raise DataError("has no header line (it holds only blank lines).", path=path,
+                            fix="write the column names on the first line.") from None
+        except (pd.errors.ParserError, ValueError, OverflowError, csv.Error) as err:
+            raise parser_error(path, err) from None
+    if head.shape[0] == 0:
+        raise DataError("has no header line.", path=path,
+                        fix="write the column names on the first line.")
+    return tuple(str(v) for v in head.iloc[0].tolist())
+
+
+def parser_error(path: str, err: Exception) -> DataError:
+    text = " ".join(str(err).split())
+    line = None
+    m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", text)
+    if m:
+        line = int(m.group(2))
+        return DataError(f"line {line} has {m.group(3)} fields but the header has {m.group(1)}.",
+                         path=path, line=line,
+                         fix="remove the extra separators on that line, or quote fields "
+                             "that contain the separator.")
+    m = re.search(r"line (\d+)", text)
+    if m:
+        line = int(m.group(1))
+    return DataError(f"cannot be read as a table: {text}", path=path, line=line,
+                     fix="check the file's separators and quotes near that place.")
+
+
+# --------------------------------------------------------------------------- pandas
+
+
+def pandas_chunks(table: TableReader) -> Iterator[RawChunk]:
+    """pandas' C reader, the reference: hashes and checks UTF-8 in the same pass."""
+    src = table.source
+    take = list(table.positions)
+    nvar = len(table.columns)
+    # Every field is tokenised (so a row with more fields than the header is an
+    # error, which pandas skips silently when usecols is given); only the selected
+    # columns are converted, checked and kept.
+    dtype = {table.positions[-1]: str} if table.time_column is not None else None
+    with open(src.resolved, "rb") as fh:
+        stream = CheckedStream(fh, src.path)
+        reader_args = dict(sep=src.delimiter, header=0, dtype=dtype,
+                           chunksize=table.chunk_rows, skip_blank_lines=True, engine="c",
+                           encoding="utf-8", low_memory=False)
+        try:
+            reader = pd.read_csv(io.BufferedReader(stream, buffer_size=1 << 16),
+                                 **reader_args)
+        except pd.errors.EmptyDataError:
+            raise DataError("has no header line.", path=src.path,
+                            fix="write the column names on the first line.") from None
+        except (pd.errors.ParserError, ValueError, OverflowError, csv.Error) as err:
+            raise parser_error(src.path, err) from None
+        row0 = 0
+        with reader:
+            while True:
+                try:
+                    frame = next(reader)
+                except StopIteration:
+                    break
+                except pd.errors.EmptyDataError:
+                    break
+                except (pd.errors.ParserError, ValueError, OverflowError, csv.Error) as err:
+                    raise parser_error(src.path, err) from None
+                m = frame.shape[0]
+                rows = np.arange(row0 + 1, row0 + m + 1, dtype=np.int64)
+                row0 += m
+                sub = frame.iloc[:, take]
+                values = numeric_block(sub.iloc[:, :nvar], table.columns, rows, path=src.path)
+                times = None
+                if table.time_column is not None:
+                    times = sub.iloc[:, nvar].reset_index(drop=True)
+                yield RawChunk(values, times, False, rows)
+        stream.drain()
+        table.sha256 = stream.sha.hexdigest()
+        table.rows_read = row0
+
+
+# --------------------------------------------------------------------------- pyarrow
+
+
+def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
+    """pyarrow's streaming CSV reader: multi-threaded block parsing, same cells as pandas.
+
+    Only what both readers read identically is accepted: numeric columns
+    are parsed as float64 (pyarrow and pandas' C reader both round decimal
+    text correctly, so the doubles are equal), the missing-cell markers
+    are pandas' list, and the time column is text. Anything else pyarrow
+    refuses or might read differently (a row with the wrong number of
+    fields, text in a numeric column, NaN written out, a header line not
+    first, non-UTF-8 bytes anywhere) raises :class:`FastPathDeclined`
+    before a result exists, and the caller reads the file with pandas.
+    The SHA-256 and the UTF-8 check of the whole file (unselected columns
+    too) run in a thread beside the parser.
+    """
+    import pyarrow as pa  # noqa: PLC0415 (optional dependency)
+    import pyarrow.csv as pacsv  # noqa: PLC0415
+
+    src = table.source
+    nvar = len(table.columns)
+    names = [f"c{i}" for i in range(len(src.header))]  # positional: header names may repeat
+    take = [names[p] for p in table.positions]
+    types = {names[p]: pa.float64() for p in table.positions[:nvar]}
+    if table.time_column is not None:
+        types[take[-1]] = pa.string()
+    hasher = _Hasher(src)
+    hasher.start()
+    batches: _Prefetch | None = None
+    try:
+        try:
+            reader = pacsv.open_csv(
+                src.resolved,
+                read_options=pacsv.ReadOptions(column_names=names, skip_rows=1,
+                                               block_size=ARROW_BLOCK_BYTES, use_threads=True),
+                parse_options=pacsv.ParseOptions(delimiter=src.delimiter or ","),
+                convert_options=pacsv.ConvertOptions(
+                    column_types=types, include_columns=take, null_values=_NA_VALUES,
+                    strings_can_be_null=True, quoted_strings_can_be_null=True,
+                    check_utf8=True))
+        except (pa.ArrowException, OSError, ValueError) as err:
+            raise FastPathDeclined(str(err)) from None
+        row0 = 0
+        chunk_rows = table.chunk_rows
+
+        def convert(batch):  # one chunk at a time, when its turn comes
+            for a in range(0, batch.num_rows, chunk_rows):
+                part = batch.slice(a, chunk_rows)
+                values = np.empty((part.num_rows, nvar))
+                for j in range(nvar):
+                    col = part.column(j)
+                    values[:, j] = col.to_numpy(zero_copy_only=False)
+                    if col.null_count != int(np.isnan(values[:, j]).sum()):
+                        raise FastPathDeclined("a numeric cell reads as NaN")
+                yield values, (part.column(nvar) if nvar < part.num_columns else None)
+
+        # only parsing runs ahead (pyarrow's threads, a few batches queued); each batch is
+        # converted to float chunks here when its turn comes, so memory stays bounded
+        batches = _Prefetch(reader, (pa.ArrowException, OSError, ValueError), lambda b: b)
+        batches.start()
+        for batch in batches:
+            for values, tcol in convert(batch):
+                m = values.shape[0]
+                rows = np.arange(row0 + 1, row0 + m + 1, dtype=np.int64)
+                row0 += m
+                check_finite(values, table.columns, rows, path=src.path)
+                times = None
+                if table.time_column is not None:
+                    times = tcol.to_pandas()
+                yield RawChunk(values, times, False, rows)
+        sha = hasher.result()
+    finally:
+        hasher.stop()
+        if batches is not None:
+            batches.stop()
+    table.sha256 = sha
+    table.rows_read = row0
+
+
+class _Prefetch(threading.Thread):
+    """Read the next record batches in a thread while the caller works on the last one.
+
+    pyarrow parses with the GIL released, so the parsing of block ``k + 1``
+    overlaps the block statistics of block ``k``. At most :data:`_AHEAD`
+    batches wait in the queue (memory stays bounded). A reader error is
+    raised in the caller as :class:`FastPathDeclined`.
+    """
+
+    def __init__(self, reader, errors: tuple, convert: Callable) -> None:
+        super().__init__(name="relspan-csv-reader", daemon=True)
+        self._reader = reader
+        self._convert = convert
+        self._errors = errors
+        self._queue: queue.Queue = queue.Queue(maxsize=_AHEAD)
+        self._halt = threading.Event()
+
+    def _put(self, item) -> bool:
+        while not self._halt.is_set():
+            try:
+                self._queue.put(item, timeout=0.1)
+                return True
+            except queue.Full:
+                continue
+        return False
+
+    def run(self) -> None:
+        while not self._halt.is_set():
+            try:
+                batch = self._convert(self._reader.read_next_batch())
+            except StopIteration:
+                self._put(("end", None))
+                return
+            except FastPathDeclined as err:
+                self._put(("error", str(err)))
+                return
+            except self._errors as err:
+                self._put(("error", str(err)))
+                return
+            except BaseException as err:  # noqa: BLE001 - handed to the caller
+                self._put(("error", f"{type(err).__name__}: {err}"))
+                return
+            if not self._put(("batch", batch)):
+                return
+
+    def __iter__(self):
+        while True:
+            kind, item = self._queue.get()
+            if kind == "end":
+                return
+            if kind == "error":
+                raise FastPathDeclined(item)
+            yield item
+
+    def stop(self) -> None:
+        self._halt.set()
+
+
+#: record batches parsed ahead of the one being reduced
+_AHEAD = 3
+
+
+class _Hasher(threading.Thread):
+    """SHA-256 and UTF-8 check of a whole file, in a thread beside the CSV parser.
+
+    ``hashlib`` and the file reads release the GIL on large buffers, so on a
+    machine with a spare core this costs little wall time.
+    """
+
+    def __init__(self, src: TableSource) -> None:
+        super().__init__(name="relspan-sha256", daemon=True)
+        self._src = src
+        self._halt = threading.Event()
+        self._sha: str | None = None
+        self._failed = False
+
+    def run(self) -> None:
+        try:
+            with open(self._src.resolved, "rb") as fh:
+                stream = CheckedStream(fh, self._src.path)
+                while not self._halt.is_set():
+                    data = fh.read(1 << 20)
+                    if not data:
+                        stream.check(b"", True)
+                        break
+                    stream.sha.update(data)
+                    if not data.isascii() or stream.mid_character:
+                        stream.check(data, False)  # ASCII is UTF-8: only other bytes are decoded
+                self._sha = stream.sha.hexdigest()
+        except Exception:  # noqa: BLE001 - reported as a declined fast path, pandas re-reads
+            self._failed = True
+
+    def result(self) -> str:
+        self.join()
+        if self._failed or self._sha is None:
+            raise FastPathDeclined("the file is not UTF-8 text or could not be hashed")
+        return self._sha
+
+    def stop(self) -> None:
+        self._halt.set()
