@@ -194,14 +194,23 @@ def merge_dd(ca, mah, mal, cah, cal, cb, mbh, mbl, cbh, cbl):
     ph, pl = dd_mul(dh, dl, wh[:, None], wl[:, None])
     mh, ml = dd_add(mah, mal, ph, pl)
     fh, fl = ratio(np.asarray(ca, dtype=float) * cb, safe)   # products of counts < 2^53: exact
-    sh, sl = split(dh)
-    oh, ol = two_prod_split(dh[:, :, None], sh[:, :, None], sl[:, :, None],
-                            dh[:, None, :], sh[:, None, :], sl[:, None, :])
-    ol = ol + (dh[:, :, None] * dl[:, None, :] + dl[:, :, None] * dh[:, None, :])
-    th, tl = two_prod(oh, fh[:, None, None])
-    tl = tl + (oh * fl[:, None, None] + ol * fh[:, None, None])
-    ch, cl = dd_add(cah, cal, cbh, cbl)
-    ch, cl = dd_add(ch, cl, th, tl)
+    uh, ul = dd_mul(dh, dl, fh[:, None], fl[:, None])        # u = delta f, per variable
+    ush, usl = split(uh)
+    dsh, dsl = split(dh)
+    th, tl = two_prod_split(uh[:, :, None], ush[:, :, None], usl[:, :, None],
+                            dh[:, None, :], dsh[:, None, :], dsl[:, None, :])
+    tl = tl + (uh[:, :, None] * dl[:, None, :] + ul[:, :, None] * dh[:, None, :])
+    # u_i delta_k and u_k delta_i agree to about 2^-104: keep the upper triangle, mirror it
+    n = dh.shape[1]
+    if n > 1:
+        iu, ju = np.triu_indices(n, 1)
+        th[:, ju, iu] = th[:, iu, ju]
+        tl[:, ju, iu] = tl[:, iu, ju]
+    # the three parts are added with one TwoSum each and the low parts in float: their
+    # rounding is about 2^-106 of |C_a| + |C_b| + |term| (Dekker 1971, add2)
+    ch, e = two_sum(cah, cbh)
+    ch, e2 = two_sum(ch, th)
+    ch, cl = fast_two_sum(ch, ((e + e2) + (cal + cbl)) + tl)
     return tot, mh, finite_lo(ml), ch, finite_lo(cl)
 
 
