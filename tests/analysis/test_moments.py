@@ -108,3 +108,22 @@ class TestBatchedWindowMoments:
             assert c[i] == ref.count
             np.testing.assert_allclose(m[i], ref.mean, rtol=1e-12)
             np.testing.assert_allclose(cm[i], ref.comoment, rtol=1e-10)
+
+
+class TestDoubleDouble:
+    def test_merged_blocks_carry_the_exact_comoment_far_beyond_float64(self):
+        # reference: exact rational arithmetic (fractions.Fraction) on the same float rows
+        from fractions import Fraction
+
+        x = _rows(7, t=40) * [1.0, 1e4, 1e-3] + [0.0, 1e7, 5.0]
+        blocks = [moments_of(x[a:b]) for a, b in [(0, 1), (1, 8), (8, 10), (10, 33), (33, 40)]]
+        m = MomentTree(blocks).query(0, len(blocks))
+        ex = [[Fraction(v) for v in r] for r in x]
+        mean = [sum(r[k] for r in ex) / len(ex) for k in range(3)]
+        for i in range(3):
+            assert abs(Fraction(m.mean[i]) + Fraction(m.mean_lo[i]) - mean[i]) <= 1e-28 * abs(mean[i])
+            for k in range(3):
+                c = sum((r[i] - mean[i]) * (r[k] - mean[k]) for r in ex)
+                scale = float(np.sqrt(m.comoment[i, i] * m.comoment[k, k]))
+                err = abs(Fraction(m.comoment[i, k]) + Fraction(m.comoment_lo[i, k]) - c)
+                assert float(err) <= 1e-20 * scale, (i, k)

@@ -250,14 +250,14 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
     names = tuple(names)
     n = len(names)
     common_std = np.asarray(common_std, dtype=float)
-    cov = moments.covariance()
+    cov, cov_lo = moments.covariance_parts()
     ref = options.ref
     notes: list[str] = []
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         er = elementary_regressions(cov, names=names, count=moments.count, mean=moments.mean,
-                                    label=label or None)
+                                    cov_lo=cov_lo, label=label or None)
     for w in caught:
         warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
         notes.append(str(w.message))

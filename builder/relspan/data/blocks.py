@@ -13,6 +13,11 @@ is still open at the end of a chunk are carried into the next chunk), the
 statistics do not depend on the chunk size, and CSV and Parquet copies of
 the same data give bit-identical moments.
 
+Means and co-moments are double-doubles (a float64 value and a float64 low
+part; :mod:`relspan.analysis._dd`), reduced and merged with error-free
+transformations, so a window's covariance is known to far more digits than
+float64 holds and the analysis can refine its solves against it.
+
 References
 ----------
 .. [1] T. F. Chan, G. H. Golub and R. J. LeVeque, "Updating formulae and a
@@ -20,6 +25,8 @@ References
        STAN-CS-79-773, Stanford University, 1979.
 .. [2] Å. Björck, Numerical Methods for Least Squares Problems, SIAM, 1996
        (corrected two-pass algorithm).
+.. [3] T. J. Dekker, "A floating-point technique for extending the available
+       precision", Numerische Mathematik 18, 224-242, 1971.
 """
 
 from __future__ import annotations
@@ -29,7 +36,8 @@ from typing import Callable
 
 import numpy as np
 
-from relspan.analysis.moments import Moments, moments_of
+from relspan.analysis import _dd
+from relspan.analysis.moments import Moments
 
 __all__ = ["BlockTable", "BlockBuilder", "assemble", "assemble_stacked", "tree_levels"]
 
@@ -59,6 +67,10 @@ class BlockTable:
         The block means are relative to this point (the first analysed row):
         merging means near 1e8 in absolute form would lose about eight
         digits of the deviations between blocks, relative means keep them.
+    means_lo : (k, n) float or None
+    comoments_lo : (k, n, n) float or None
+        Low-order parts (``means + means_lo`` and ``comoments + comoments_lo``
+        are double-doubles); None reads as zeros.
     """
 
     counts: np.ndarray
@@ -71,6 +83,8 @@ class BlockTable:
     first_time: np.ndarray | None
     last_time: np.ndarray | None
     origin: np.ndarray
+    means_lo: np.ndarray | None = None
+    comoments_lo: np.ndarray | None = None
 
     def __len__(self) -> int:
         return int(self.counts.shape[0])
@@ -82,8 +96,13 @@ class BlockTable:
 
     def moments(self, i: int, *, relative: bool = False) -> Moments:
         """Block ``i`` as a :class:`Moments` (mean relative to ``origin`` if ``relative``)."""
-        mean = self.means[i].copy() if relative else self.means[i] + self.origin
-        return Moments(int(self.counts[i]), mean, self.comoments[i].copy())
+        mlo = np.zeros(self.means.shape[1]) if self.means_lo is None else self.means_lo[i].copy()
+        clo = (np.zeros_like(self.comoments[i]) if self.comoments_lo is None
+               else self.comoments_lo[i].copy())
+        mean = self.means[i].copy()
+        if not relative:
+            mean, mlo = _dd.dd_add(mean, mlo, self.origin, np.zeros_like(mlo))
+        return Moments(int(self.counts[i]), mean, self.comoments[i].copy(), mlo, clo)
 
 
 class _Grow:
@@ -139,6 +158,8 @@ class BlockBuilder:
         self._counts = _Grow((), np.int64)
         self._means = _Grow((n,), float)
         self._comoments = _Grow((n, n), float)
+        self._means_lo = _Grow((n,), float)
+        self._comoments_lo = _Grow((n, n), float)
         self._meta = _Grow((4,), np.int64)
         self._times = _Grow((2,), np.int64)
         self._carry: tuple | None = None
@@ -180,7 +201,8 @@ class BlockBuilder:
             last_source_row=meta[:, 3],
             first_time=t[:, 0].astype("datetime64[s]") if self._timed else None,
             last_time=t[:, 1].astype("datetime64[s]") if self._timed else None,
-            origin=np.asarray(origin, dtype=float).copy())
+            origin=np.asarray(origin, dtype=float).copy(), means_lo=self._means_lo.get(),
+            comoments_lo=self._comoments_lo.get())
 
     def _emit(self, y: np.ndarray, starts: np.ndarray, pos: np.ndarray, src: np.ndarray,
               times: np.ndarray | None) -> None:
@@ -189,11 +211,12 @@ class BlockBuilder:
         counts = ends - starts
         means = np.empty((starts.size, n))
         comoments = np.empty((starts.size, n, n))
+        means_lo = np.empty((starts.size, n))
+        comoments_lo = np.empty((starts.size, n, n))
         long = counts >= _LONG_RUN
         for i in np.flatnonzero(long):
-            mo = moments_of(y[starts[i]:ends[i]])
-            means[i] = mo.mean
-            comoments[i] = mo.comoment
+            means[i], means_lo[i], comoments[i], comoments_lo[i] = _dd.exact_comoment(
+                y[starts[i]:ends[i]])
         short = np.flatnonzero(~long)
         # short runs of one length at a time, as a (k, L, n) stack: each block's numbers
         # depend on its own rows and length only, never on the chunk it arrived in
@@ -201,10 +224,13 @@ class BlockBuilder:
             sel = short[counts[short] == length]
             for p0 in range(0, sel.size, _STACK_BLOCKS):
                 part = sel[p0:p0 + _STACK_BLOCKS]
-                means[part], comoments[part] = _short_moments(y, starts[part], int(length))
+                (means[part], means_lo[part], comoments[part],
+                 comoments_lo[part]) = _short_moments(y, starts[part], int(length))
         self._counts.extend(counts.astype(np.int64))
         self._means.extend(means)
         self._comoments.extend(comoments)
+        self._means_lo.extend(means_lo)
+        self._comoments_lo.extend(comoments_lo)
         self._meta.extend(np.stack([pos[starts], pos[ends - 1], src[starts], src[ends - 1]], axis=1))
         if self._timed and times is not None:
             ti = times.astype("datetime64[s]").astype(np.int64)
@@ -212,63 +238,67 @@ class BlockBuilder:
 
 
 def _short_moments(y: np.ndarray, starts: np.ndarray, length: int):
-    """Means and co-moments of blocks of ``length`` rows starting at ``starts``.
+    """Double-double means and co-moments of blocks of ``length`` rows starting at ``starts``.
 
-    Per block: shift by its first row, mean, deviations, corrected two-pass
-    co-moment ``d^T d - (sum d)(sum d)^T / L`` (Bjorck 1996), with the
-    products for all blocks in one batched matrix multiplication.
+    Per block, the corrected two-pass co-moment ``d^T d - (sum d)(sum d)^T / L``
+    (Bjorck 1996) with exact deviations and double-double sums
+    (:func:`relspan.analysis._dd.exact_comoment`), all blocks in one stack
+    ``(k, L, n)`` through batched matrix products.
+
+    Returns
+    -------
+    means, means_lo (k, n), comoments, comoments_lo (k, n, n)
     """
     k = starts.shape[0]
     s0 = int(starts[0])
-    shift = y[starts][:, None, :]
     if int(starts[-1]) - s0 == (k - 1) * length and (k == 1 or bool(
             (np.diff(starts) == length).all())):  # back to back: a view, no gather
-        rows = y[s0:s0 + k * length].reshape(k, length, -1) - shift
+        rows = y[s0:s0 + k * length].reshape(k, length, -1)
     else:
-        rows = y[starts[:, None] + np.arange(length)] - shift   # (k, L, n)
-    ones = np.ones(length)
-    mz = np.matmul(ones, rows) / length  # sums through BLAS beat .sum(axis=1) here
-    rows -= mz[:, None, :]
-    sd = np.matmul(ones, rows)
-    c = np.matmul(rows.transpose(0, 2, 1), rows)
-    c -= sd[:, :, None] * sd[:, None, :] / length
-    return mz + sd / length + shift[:, 0, :], 0.5 * (c + c.transpose(0, 2, 1))
+        rows = y[starts[:, None] + np.arange(length)]   # (k, L, n)
+    if length == 1:  # one row: its own mean, no spread
+        m = rows[:, 0, :].copy()
+        z = np.zeros((k, m.shape[1], m.shape[1]))
+        return m, np.zeros_like(m), z, z.copy()
+    return _dd.exact_comoment(rows)
 
 
 #: short blocks reduced together in one stack (bounds the temporary copy of their rows)
 _STACK_BLOCKS = 2048
 
 
-def _merge_arrays(ca, ma, cma, cb, mb, cmb):
-    """Vectorised Chan-Golub-LeVeque merge of paired statistics (a before b).
+def _merge_arrays(ca, ma, mla, cma, cmla, cb, mb, mlb, cmb, cmlb):
+    """Vectorised Chan-Golub-LeVeque merge of paired statistics (a before b), in double-double.
 
-    Written with the same operations, in the same order, as
-    :func:`relspan.analysis.moments.merge`, so a merge with an empty side
-    returns the other side unchanged.
+    The same arithmetic as :func:`relspan.analysis.moments.merge`, so a
+    merge with an empty side returns the other side unchanged.
     """
-    tot = ca + cb
-    safe = np.where(tot > 0, tot, 1)
-    delta = mb - ma
-    mean = ma + delta * (cb / safe)[:, None]
-    f = (ca * cb) / safe
-    cm = cma + cmb + delta[:, :, None] * delta[:, None, :] * f[:, None, None]
-    return tot, mean, cm
+    tot, m, ml, cm, cml = _dd.merge_dd(ca, ma, mla, cma, cmla, cb, mb, mlb, cmb, cmlb)
+    return tot.astype(np.int64), m, ml, cm, cml
 
 
-def tree_levels(blocks: BlockTable) -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
-    """The segment tree over the blocks, level by level (pairwise merges, no subtraction)."""
-    c, m, cm = blocks.counts.astype(np.int64), blocks.means, blocks.comoments
-    levels = [(c, m, cm)]
-    while c.shape[0] > 1:
-        k = c.shape[0]
+def _lo_parts(blocks: BlockTable) -> tuple[np.ndarray, np.ndarray]:
+    ml = np.zeros_like(blocks.means) if blocks.means_lo is None else blocks.means_lo
+    cml = np.zeros_like(blocks.comoments) if blocks.comoments_lo is None else blocks.comoments_lo
+    return ml, cml
+
+
+def tree_levels(blocks: BlockTable) -> list[tuple[np.ndarray, ...]]:
+    """The segment tree over the blocks, level by level (pairwise merges, no subtraction).
+
+    Each level is ``(counts, means, means_lo, comoments, comoments_lo)``.
+    """
+    ml, cml = _lo_parts(blocks)
+    level = (blocks.counts.astype(np.int64), blocks.means, ml, blocks.comoments, cml)
+    levels = [level]
+    while level[0].shape[0] > 1:
+        k = level[0].shape[0]
         e = k - (k % 2)
-        nc, nm, ncm = _merge_arrays(c[0:e:2], m[0:e:2], cm[0:e:2], c[1:e:2], m[1:e:2], cm[1:e:2])
+        nxt = _merge_arrays(*(a[0:e:2] for a in level), *(a[1:e:2] for a in level))
         if k % 2:
-            nc = np.concatenate([nc, c[-1:]])
-            nm = np.concatenate([nm, m[-1:]])
-            ncm = np.concatenate([ncm, cm[-1:]])
-        c, m, cm = nc, nm, ncm
-        levels.append((c, m, cm))
+            nxt = tuple(np.concatenate([a, b[-1:]]) for a, b in zip(nxt, level))
+        level = nxt
+        levels.append(level)
     return levels
 
 
@@ -279,13 +309,14 @@ def assemble(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
     :func:`assemble_stacked` (the same numbers) returned as one
     :class:`Moments` per window; see there for the parameters.
     """
-    c, m, cm = assemble_stacked(blocks, lo, hi, relative=relative)
-    return [Moments(int(c[j]), m[j].copy(), cm[j].copy()) for j in range(c.shape[0])]
+    c, m, cm, ml, cml = assemble_stacked(blocks, lo, hi, relative=relative, low=True)
+    return [Moments(int(c[j]), m[j].copy(), cm[j].copy(), ml[j].copy(), cml[j].copy())
+            for j in range(c.shape[0])]
 
 
 def assemble_stacked(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
-                     relative: bool = False,
-                     levels: list | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                     relative: bool = False, levels: list | None = None,
+                     low: bool = False) -> tuple[np.ndarray, ...]:
     """Moments of many windows, each the run of blocks ``lo[i] .. hi[i]-1``.
 
     A segment tree over the blocks is built once (pairwise merges, level by
@@ -303,48 +334,61 @@ def assemble_stacked(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
     levels : list, optional
         The tree from :func:`tree_levels` (built here when not given; pass it
         to share one tree between several calls).
+    low : bool
+        Also return the low-order parts of the means and co-moments.
 
     Returns
     -------
     counts (w,) int64, means (w, n), comoments (w, n, n)
-        Stacked: 8 (1 + n + n^2) bytes per window, no Python object per window.
+        Stacked: 8 (1 + n + n^2) bytes per window, no Python object per window;
+        with ``low``, then also ``means_lo (w, n)`` and ``comoments_lo (w, n, n)``.
     """
     lo = np.asarray(lo, dtype=np.int64)
     hi = np.asarray(hi, dtype=np.int64)
     n = blocks.means.shape[1]
     if lo.size == 0:
-        return np.zeros(0, np.int64), np.zeros((0, n)), np.zeros((0, n, n))
+        out = (np.zeros(0, np.int64), np.zeros((0, n)), np.zeros((0, n, n)))
+        return out + (np.zeros((0, n)), np.zeros((0, n, n))) if low else out
     if np.any(lo < 0) or np.any(hi > len(blocks)) or np.any(lo >= hi):
         raise IndexError("block ranges must satisfy 0 <= lo < hi <= number of blocks")
     levels = tree_levels(blocks) if levels is None else levels
     out_c = np.empty(lo.size, np.int64)
-    out_m = np.empty((lo.size, n))
-    out_cm = np.empty((lo.size, n, n))
+    out_m, out_ml = np.empty((lo.size, n)), np.empty((lo.size, n))
+    out_cm, out_cml = np.empty((lo.size, n, n)), np.empty((lo.size, n, n))
+
+    def zeros(w):
+        return (np.zeros(w, np.int64), np.zeros((w, n)), np.zeros((w, n)), np.zeros((w, n, n)),
+                np.zeros((w, n, n)))
+
     for b0 in range(0, lo.size, _WINDOW_BATCH):
         L = lo[b0:b0 + _WINDOW_BATCH].copy()
         H = hi[b0:b0 + _WINDOW_BATCH].copy()
         w = L.size
-        lc, lm, lcm = np.zeros(w, np.int64), np.zeros((w, n)), np.zeros((w, n, n))
-        rc, rm, rcm = np.zeros(w, np.int64), np.zeros((w, n)), np.zeros((w, n, n))
-        for c, m, cm in levels:
+        left, right = zeros(w), zeros(w)
+        for level in levels:
             if not np.any(L < H):
                 break
             take = (L < H) & (L % 2 == 1)
             if take.any():
                 i = L[take]
-                lc[take], lm[take], lcm[take] = _merge_arrays(lc[take], lm[take], lcm[take],
-                                                              c[i], m[i], cm[i])
+                merged = _merge_arrays(*(a[take] for a in left), *(a[i] for a in level))
+                for a, v in zip(left, merged):
+                    a[take] = v
                 L[take] += 1
             take = (L < H) & (H % 2 == 1)
             if take.any():
                 H[take] -= 1
                 i = H[take]
-                rc[take], rm[take], rcm[take] = _merge_arrays(c[i], m[i], cm[i],
-                                                              rc[take], rm[take], rcm[take])
+                merged = _merge_arrays(*(a[i] for a in level), *(a[take] for a in right))
+                for a, v in zip(right, merged):
+                    a[take] = v
             L //= 2
             H //= 2
-        tc, tm, tcm = _merge_arrays(lc, lm, lcm, rc, rm, rcm)
+        tc, tm, tml, tcm, tcml = _merge_arrays(*left, *right)
         if not relative:
-            tm = tm + blocks.origin
-        out_c[b0:b0 + w], out_m[b0:b0 + w], out_cm[b0:b0 + w] = tc, tm, tcm
+            tm, tml = _dd.dd_add(tm, tml, blocks.origin[None, :], np.zeros((1, n)))
+        sl = slice(b0, b0 + w)
+        out_c[sl], out_m[sl], out_ml[sl], out_cm[sl], out_cml[sl] = tc, tm, tml, tcm, tcml
+    if low:
+        return out_c, out_m, out_cm, out_ml, out_cml
     return out_c, out_m, out_cm

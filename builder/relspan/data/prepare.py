@@ -95,42 +95,50 @@ class Overview:
 class StackedMoments(Sequence):
     """Window moments held as three stacked arrays, read as a sequence of :class:`Moments`.
 
-    ``counts (w,)``, ``means (w, n)`` and ``comoments (w, n, n)`` cost
-    ``8 (1 + n + n^2)`` bytes per window; a :class:`Moments` (views into the
-    arrays, which are read-only) is built only when an item is asked for.
+    ``counts (w,)``, ``means (w, n)``, ``comoments (w, n, n)`` and the
+    co-moments' low-order parts ``comoments_lo (w, n, n)`` (double-double;
+    zeros when not given) cost ``8 (1 + n + 2 n^2)`` bytes per window; a
+    :class:`Moments` (views into the arrays, which are read-only) is built
+    only when an item is asked for.
     """
 
-    __slots__ = ("counts", "means", "comoments")
+    __slots__ = ("counts", "means", "comoments", "comoments_lo")
 
-    def __init__(self, counts: np.ndarray, means: np.ndarray, comoments: np.ndarray) -> None:
-        counts, means, comoments = (np.asarray(a) for a in (counts, means, comoments))
-        for a in (counts, means, comoments):
+    def __init__(self, counts: np.ndarray, means: np.ndarray, comoments: np.ndarray,
+                 comoments_lo: np.ndarray | None = None) -> None:
+        if comoments_lo is None:
+            comoments_lo = np.zeros_like(np.asarray(comoments, dtype=float))
+        arrays = tuple(np.asarray(a) for a in (counts, means, comoments, comoments_lo))
+        for a in arrays:
             a.setflags(write=False)
-        self.counts, self.means, self.comoments = counts, means, comoments
+        self.counts, self.means, self.comoments, self.comoments_lo = arrays
 
     def __len__(self) -> int:
         return int(self.counts.shape[0])
 
     def __getitem__(self, i):
         if isinstance(i, slice):
-            return StackedMoments(self.counts[i], self.means[i], self.comoments[i])
-        return Moments(int(self.counts[i]), self.means[i], self.comoments[i])
+            return StackedMoments(self.counts[i], self.means[i], self.comoments[i],
+                                  self.comoments_lo[i])
+        return Moments(int(self.counts[i]), self.means[i], self.comoments[i], None,
+                       self.comoments_lo[i])
 
     def __iter__(self):
         for i in range(len(self)):
-            yield Moments(int(self.counts[i]), self.means[i], self.comoments[i])
+            yield self[i]
 
     def __eq__(self, other: object) -> bool:
         if not isinstance(other, StackedMoments):
             return NotImplemented
         return (np.array_equal(self.counts, other.counts) and np.array_equal(self.means, other.means)
-                and np.array_equal(self.comoments, other.comoments))
+                and np.array_equal(self.comoments, other.comoments)
+                and np.array_equal(self.comoments_lo, other.comoments_lo))
 
     __hash__ = None  # type: ignore[assignment]
 
     def __reduce__(self):
         return (StackedMoments, (np.array(self.counts), np.array(self.means),
-                                 np.array(self.comoments)))
+                                 np.array(self.comoments), np.array(self.comoments_lo)))
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -482,9 +490,9 @@ class _Pass:
                             fix="use more data, or analyse fewer variables.")
         blocks = self.blocks.finish(self.origin)
         levels = tree_levels(blocks)
-        fc, fm, fcm = assemble_stacked(blocks, np.array([0]), np.array([len(blocks)]),
-                                       relative=True, levels=levels)
-        rel_full = Moments(int(fc[0]), fm[0], fcm[0])
+        fc, fm, fcm, fml, fcml = assemble_stacked(blocks, np.array([0]), np.array([len(blocks)]),
+                                                  relative=True, levels=levels, low=True)
+        rel_full = Moments(int(fc[0]), fm[0], fcm[0], fml[0], fcml[0])
         check_variation(Moments(rel_full.count, rel_full.mean + self.origin, rel_full.comoment),
                         self.names, self.transforms, path=path)
         # whole-sample transforms in coordinates relative to the origin:
@@ -503,9 +511,11 @@ class _Pass:
             else:
                 lo = np.array([w.block_start for w in wins], np.int64)
                 hi = np.array([w.block_stop for w in wins], np.int64)
-            stack = assemble_stacked(blocks, lo, hi, relative=True, levels=levels)
-            mom = StackedMoments(*affine_stacked(*stack, shift_rel, scale, offset))
-            del stack
+            c, m, cm, _, cml = assemble_stacked(blocks, lo, hi, relative=True, levels=levels,
+                                                low=True)
+            mom = StackedMoments(*affine_stacked(c, m, cm, shift_rel, scale, offset,
+                                                 comoments_lo=cml))
+            del c, m, cm, cml
             check_window_variation(wins, mom, self.names, plan_id=plan.id,
                                    dataset_id=self.dataset_id, path=path)
             prepared_plans.append(PlanWindows(

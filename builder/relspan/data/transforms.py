@@ -30,6 +30,7 @@ from typing import Sequence
 
 import numpy as np
 
+from relspan.analysis import _dd
 from relspan.analysis.moments import Moments
 from relspan.errors import DataError
 
@@ -229,36 +230,49 @@ def affine_for(transforms: Sequence[str], full: Moments) -> tuple[np.ndarray, np
     return shift, scale
 
 
+def _scale_comoments(hi: np.ndarray, lo: np.ndarray | None, scale: np.ndarray):
+    """``C_ij / (scale_i scale_j)`` for double-double co-moments ``hi + lo`` (stacks too)."""
+    lo = np.zeros_like(hi) if lo is None else lo
+    ci = scale[:, None] * np.ones_like(scale)[None, :]
+    hi, lo = _dd.dd_div_float(hi, lo, ci)
+    hi, lo = _dd.dd_div_float(hi, lo, ci.T)
+    swap = (0, 2, 1) if hi.ndim == 3 else (1, 0)
+    return 0.5 * (hi + hi.transpose(swap)), 0.5 * (lo + lo.transpose(swap))
+
+
 def affine_moments(m: Moments, shift: np.ndarray, scale: np.ndarray,
                    offset: np.ndarray | None = None) -> Moments:
     """Moments of ``(y - shift) / scale + offset`` from the moments of ``y`` (no rows needed).
 
-    The co-moment only scales (``C_ij / (scale_i scale_j)``); shift and offset
-    move the mean alone.
+    The co-moment only scales (``C_ij / (scale_i scale_j)``, in double-double
+    so its low part stays valid); shift and offset move the mean alone (the
+    mean's low part is dropped: nothing after this step merges means).
     """
     mean = (m.mean - shift) / scale
     if offset is not None:
         mean = mean + offset
     if np.all(scale == 1.0):
-        return Moments(m.count, mean, m.comoment)
-    c = m.comoment / np.outer(scale, scale)
-    return Moments(m.count, mean, 0.5 * (c + c.T))
+        return Moments(m.count, mean, m.comoment, None, m.comoment_lo)
+    c, clo = _scale_comoments(m.comoment, m.comoment_lo, scale)
+    return Moments(m.count, mean, c, None, clo)
 
 
 def affine_stacked(counts: np.ndarray, means: np.ndarray, comoments: np.ndarray,
-                   shift: np.ndarray, scale: np.ndarray, offset: np.ndarray | None = None):
+                   shift: np.ndarray, scale: np.ndarray, offset: np.ndarray | None = None,
+                   comoments_lo: np.ndarray | None = None):
     """:func:`affine_moments` for stacked moments (``(w,)``, ``(w, n)``, ``(w, n, n)``).
 
     The same operations elementwise, so each window's result equals
-    ``affine_moments`` of that window bit for bit.
+    ``affine_moments`` of that window bit for bit. Returns ``counts, means,
+    comoments, comoments_lo`` (the last None when not given).
     """
     mean = (means - shift) / scale
     if offset is not None:
         mean = mean + offset
     if np.all(scale == 1.0):
-        return counts, mean, comoments
-    c = comoments / np.outer(scale, scale)
-    return counts, mean, 0.5 * (c + c.transpose(0, 2, 1))
+        return counts, mean, comoments, comoments_lo
+    c, clo = _scale_comoments(comoments, comoments_lo, scale)
+    return counts, mean, c, clo
 
 
 def check_variation(full: Moments, names: Sequence[str], transforms: Sequence[str], *,
