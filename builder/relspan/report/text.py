@@ -195,8 +195,12 @@ METHODS = (
      "Windows are merged from block statistics, never recomputed from raw rows.",
      [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
        "merged mean and co-moment of two blocks A and B, with delta the difference of their means")],
-     "Blocks use a shifted two-pass sum; windows are merged pairwise without subtraction.",
-     ("chan1979", "chan1983", "welford1962", "bjorck1996")),
+     "Blocks form their deviations and co-moments in double-double arithmetic (error-free sums and "
+     "products), windows are merged pairwise without subtraction, and the elementary regressions refine "
+     "their inverse against the extra-precision covariance: the NIST StRD Longley slopes come out with "
+     "at least 12 correct digits.",
+     ("chan1979", "chan1983", "welford1962", "bjorck1996", "dekker1971", "knuth1997", "ogita2005",
+      "ozaki2012")),
 )
 
 REFERENCES = {
@@ -242,6 +246,15 @@ REFERENCES = {
                 "indipendente sono affetti da errori accidentali. *Metron*, 1, 63–82.",
     "anderson1958": "Anderson, T. W. (1958). *An Introduction to Multivariate Statistical Analysis*. New York: "
                     "Wiley.",
+    "dekker1971": "Dekker, T. J. (1971). A floating-point technique for extending the available precision. "
+                  "*Numerische Mathematik*, 18, 224–242.",
+    "knuth1997": "Knuth, D. E. (1997). *The Art of Computer Programming, Vol. 2: Seminumerical Algorithms* "
+                 "(3rd ed.). Reading, MA: Addison-Wesley.",
+    "ogita2005": "Ogita, T., Rump, S. M. & Oishi, S. (2005). Accurate sum and dot product. *SIAM Journal on "
+                 "Scientific Computing*, 26(6), 1955–1988.",
+    "ozaki2012": "Ozaki, K., Ogita, T., Oishi, S. & Rump, S. M. (2012). Error-free transformations of matrix "
+                 "multiplication by using fast routines of matrix multiplication and its applications. "
+                 "*Numerical Algorithms*, 59(1), 95–118.",
     "higham2002": "Higham, N. J. (2002). *Accuracy and Stability of Numerical Algorithms* (2nd ed.). "
                   "Philadelphia: SIAM.",
     "tipping1999": "Tipping, M. E. & Bishop, C. M. (1999). Probabilistic principal component analysis. "
