@@ -310,13 +310,13 @@ def draw_granules(k: int, *, scheme: str, resamples: int, rng: np.random.Generat
         idx = (starts[:, :, None] + np.arange(b)).reshape(resamples, nb * b)
         return idx[:, :k]
     p = 1.0 / max(float(block_length), 1.0)
-    new = rng.random((resamples, k)) < p
+    new = rng.random((resamples, k), dtype=np.float32) < np.float32(p)
     new[:, 0] = True
-    starts = rng.integers(0, k, size=(resamples, k))
+    block = np.cumsum(new.ravel()) - 1                      # running block number, all resamples
+    starts = rng.integers(0, k, size=int(block[-1]) + 1)    # one uniform start per block
     t = np.arange(k)
     begin = np.maximum.accumulate(np.where(new, t, 0), axis=1)
-    first = np.take_along_axis(starts, begin, axis=1)
-    return (first + (t - begin)) % k
+    return (starts[block].reshape(resamples, k) + (t - begin)) % k
 
 
 def merge_weighted(counts, means, comoments, weights) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
