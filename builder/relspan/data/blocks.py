@@ -39,7 +39,8 @@ import numpy as np
 from relspan.analysis import _dd
 from relspan.analysis.moments import Moments
 
-__all__ = ["BlockTable", "BlockBuilder", "assemble", "assemble_stacked", "tree_levels"]
+__all__ = ["BlockTable", "BlockBuilder", "assemble", "assemble_stacked", "tree_levels", "GRANULE_CAP",
+           "GranuleTable", "GranuleBuilder", "granulate", "granule_rows_for", "coarsen"]
 
 #: runs at least this long are reduced with one BLAS product each; shorter
 #: runs are reduced together, vectorised
@@ -392,3 +393,255 @@ def assemble_stacked(blocks: BlockTable, lo: np.ndarray, hi: np.ndarray, *,
     if low:
         return out_c, out_m, out_cm, out_ml, out_cml
     return out_c, out_m, out_cm
+
+
+# --------------------------------------------------------------------------------------------
+# Granules: the fine units that resampling draws from
+# --------------------------------------------------------------------------------------------
+
+#: about this many granules per dataset at most (granule rows double until they fit)
+GRANULE_CAP = 16384
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class GranuleTable:
+    """Fine block statistics for resampling: runs of ``rows_per_granule`` rows.
+
+    Granules are the common refinement of the plan grid (so every window is a
+    run of whole granules) and of a grid of ``rows_per_granule`` rows counted
+    from the first analysed row. A resample of a window is a merge of its
+    granules, drawn with replacement (see :mod:`relspan.analysis.resample`).
+
+    Attributes
+    ----------
+    table : BlockTable
+        The granules' statistics, in row order (means relative to ``table.origin``).
+    rows_per_granule : int
+        ``g``: a granule holds at most ``g`` rows (fewer where a plan boundary
+        or the end of the data cuts it). 1 means one row per granule.
+    cap : int
+        The most granules aimed at; ``g`` is the smallest power of two that keeps
+        the count near or below it.
+
+    Notes
+    -----
+    With ``g = 1`` a resample draws rows (iid) or runs of rows (blocks). With
+    ``g > 1`` the rows inside a granule always stay together, so (a) the iid
+    bootstrap becomes a bootstrap of non-overlapping blocks of ``g`` rows,
+    (b) moving or stationary blocks start and end only at granule boundaries
+    (block lengths are multiples of ``g`` rows and only one start in ``g`` is
+    possible), and (c) the automatic block length is estimated from the
+    series of granule means, which does not see dependence within a granule.
+    All three leave the resampled covariance valid for dependence shorter than
+    a block; they cost some efficiency, and (a) adds mild variance when rows
+    are independent.
+    """
+
+    table: BlockTable
+    rows_per_granule: int
+    cap: int
+
+    def __len__(self) -> int:
+        return len(self.table)
+
+    @property
+    def note(self) -> str:
+        """One sentence for the output stating the granule size and what it approximates."""
+        g = self.rows_per_granule
+        if g == 1:
+            return "Resampling draws single rows (one row per granule): nothing is approximated."
+        return (f"Resampling draws granules of up to {g} consecutive rows (at most about {self.cap} "
+                "granules per dataset): rows inside a granule stay together, blocks start only at "
+                "granule boundaries and the block length is estimated from granule means.")
+
+    def span(self, first_pos: int, last_pos: int) -> tuple[int, int]:
+        """Half-open granule range ``[lo, hi)`` covering analysed rows ``first_pos .. last_pos`` (0-based).
+
+        Raises
+        ------
+        ValueError
+            When the rows do not start and end on granule boundaries (they
+            always do for windows of plans the granules were built for).
+        """
+        fp = self.table.first_pos
+        lo = int(np.searchsorted(fp, first_pos, side="left"))
+        hi = int(np.searchsorted(fp, last_pos, side="right"))
+        if lo >= hi or fp[lo] != first_pos or int(self.table.last_pos[hi - 1]) != last_pos:
+            raise ValueError(f"rows {first_pos}..{last_pos} do not start and end on granule "
+                             "boundaries; build the granules on the same window plans")
+        return lo, hi
+
+
+def granule_rows_for(rows: int, cap: int = GRANULE_CAP) -> int:
+    """Smallest power of two ``g`` with ``ceil(rows / g) <= cap``."""
+    if cap < 1:
+        raise ValueError("cap must be at least 1")
+    g = 1
+    while -(-rows // g) > cap:
+        g *= 2
+    return g
+
+
+def _concat_tables(parts: list[BlockTable], origin: np.ndarray) -> BlockTable:
+    timed = parts[0].first_time is not None
+    cat = np.concatenate
+    return BlockTable(
+        counts=cat([p.counts for p in parts]), means=cat([p.means for p in parts]),
+        comoments=cat([p.comoments for p in parts]), first_pos=cat([p.first_pos for p in parts]),
+        last_pos=cat([p.last_pos for p in parts]),
+        first_source_row=cat([p.first_source_row for p in parts]),
+        last_source_row=cat([p.last_source_row for p in parts]),
+        first_time=cat([p.first_time for p in parts]) if timed else None,
+        last_time=cat([p.last_time for p in parts]) if timed else None,
+        origin=np.asarray(origin, dtype=float).copy())
+
+
+def coarsen(table: BlockTable, g: int, plan_keys: np.ndarray) -> BlockTable:
+    """Merge neighbouring granules that share their plan bucket and their ``g``-row bucket.
+
+    Each new granule is the Chan-Golub-LeVeque merge of at most two old
+    ones (the builder only ever doubles ``g``), so the result depends on the
+    rows alone, not on how they arrived.
+
+    Parameters
+    ----------
+    table : BlockTable
+        Granules of ``g / 2`` rows.
+    g : int
+        New granule size.
+    plan_keys : (k, K) int array
+        The plan-grid bucket of each granule (of its first row).
+    """
+    k = len(table)
+    if k < 2:
+        return table
+    fp = table.first_pos
+    same = np.all(plan_keys[1:] == plan_keys[:-1], axis=1) & (fp[1:] // g == fp[:-1] // g)
+    start = np.concatenate([[True], ~same])
+    gid = np.cumsum(start) - 1
+    size = np.bincount(gid)
+    if size.max() > 2:
+        raise AssertionError("coarsen merges at most two granules at a time")
+    first = np.flatnonzero(start)
+    pair = first[size == 2]
+    c, m, cm = (table.counts.copy(), table.means.copy(), table.comoments.copy())
+    if pair.size:
+        pc, pm, pcm = _merge_arrays(c[pair], m[pair], cm[pair], c[pair + 1], m[pair + 1], cm[pair + 1])
+        c[pair], m[pair], cm[pair] = pc, pm, pcm
+    last = first + size - 1
+    return BlockTable(
+        counts=c[first], means=m[first], comoments=cm[first], first_pos=fp[first],
+        last_pos=table.last_pos[last], first_source_row=table.first_source_row[first],
+        last_source_row=table.last_source_row[last],
+        first_time=None if table.first_time is None else table.first_time[first],
+        last_time=None if table.last_time is None else table.last_time[last],
+        origin=table.origin)
+
+
+class GranuleBuilder:
+    """Collect granule statistics in the same pass as the blocks, with a bounded count.
+
+    Granules start at one row each. Whenever the pass reaches row
+    ``cap * g`` the granules so far are merged in pairs (``g`` doubles), so
+    memory stays near ``cap`` granules whatever the number of rows, and the
+    result does not depend on the chunk size (the switch happens at fixed
+    row positions, and a granule is always the two-pass reduction of its own
+    rows or a merge of two such).
+
+    Parameters
+    ----------
+    n : int
+        Number of variables.
+    keys : callable
+        The plan grid's bucket function, as for :class:`BlockBuilder`.
+    timed : bool
+        Whether rows carry times.
+    cap : int
+        About this many granules at most.
+    """
+
+    def __init__(self, n: int, keys: Callable[[np.ndarray, np.ndarray | None], np.ndarray], *,
+                 timed: bool, cap: int = GRANULE_CAP) -> None:
+        if cap < 2:
+            raise ValueError("cap must be at least 2")
+        self.n = n
+        self._plan_keys = keys
+        self._timed = timed
+        self._cap = int(cap) + int(cap) % 2
+        self._g = 1
+        self._parts: list[BlockTable] = []
+        self._inner = self._new_inner()
+
+    def _new_inner(self) -> BlockBuilder:
+        g = self._g
+        return BlockBuilder(self.n, lambda p, t: np.column_stack([self._plan_keys(p, t), p // g]),
+                            timed=self._timed)
+
+    @property
+    def rows_per_granule(self) -> int:
+        return self._g
+
+    def push(self, y: np.ndarray, pos: np.ndarray, source_rows: np.ndarray,
+             times: np.ndarray | None) -> None:
+        """Add analysed rows (in order), as for :meth:`BlockBuilder.push`."""
+        while y.shape[0]:
+            limit = self._cap * self._g  # cap is even: a multiple of the next granule size
+            cut = int(np.searchsorted(pos, limit, side="left"))
+            if cut == y.shape[0]:
+                self._inner.push(y, pos, source_rows, times)
+                return
+            if cut:
+                self._inner.push(y[:cut], pos[:cut], source_rows[:cut],
+                                 None if times is None else times[:cut])
+            self._double()
+            y, pos, source_rows = y[cut:], pos[cut:], source_rows[cut:]
+            times = None if times is None else times[cut:]
+
+    def _double(self) -> None:
+        part = self._inner.finish(np.zeros(self.n))
+        if len(part):
+            self._parts.append(part)
+        self._g *= 2
+        if self._parts:
+            whole = _concat_tables(self._parts, np.zeros(self.n))
+            self._parts = [coarsen(whole, self._g, self._keys_of(whole))]
+        self._inner = self._new_inner()
+
+    def _keys_of(self, t: BlockTable) -> np.ndarray:
+        times = None if t.first_time is None else t.first_time
+        return np.asarray(self._plan_keys(t.first_pos, times))
+
+    def finish(self, origin: np.ndarray) -> GranuleTable:
+        """All granules (rows were pushed minus ``origin``, as for :class:`BlockBuilder`)."""
+        part = self._inner.finish(origin)
+        parts = [p for p in self._parts + [part] if len(p)]
+        if not parts:
+            return GranuleTable(part, self._g, self._cap)
+        return GranuleTable(_concat_tables(parts, origin), self._g, self._cap)
+
+
+def granulate(y, *, cap: int = GRANULE_CAP, cuts=None) -> GranuleTable:
+    """Granules of rows held in memory (tests, notebooks, :func:`relspan.data.prepare_frame`).
+
+    Parameters
+    ----------
+    y : (T, n) array_like
+        Analysed rows in order.
+    cap : int
+        About this many granules at most.
+    cuts : sequence of int, optional
+        Row positions where a granule must end before (window boundaries).
+    """
+    y = np.asarray(y, dtype=float)
+    if y.ndim != 2 or y.shape[0] < 1:
+        raise ValueError("y must be a (T, n) array with at least one row")
+    cut_arr = np.unique(np.asarray([] if cuts is None else cuts, dtype=np.int64))
+    origin = y[0].copy()
+
+    def keys(p, t):
+        return np.searchsorted(cut_arr, p, side="right").astype(np.int64)[:, None]
+
+    b = GranuleBuilder(y.shape[1], keys, timed=False, cap=cap)
+    pos = np.arange(y.shape[0], dtype=np.int64)
+    b.push(y - origin, pos, pos + 1, None)
+    return b.finish(origin)

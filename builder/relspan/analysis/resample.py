@@ -1,0 +1,526 @@
+"""Bootstrap resamples of a window, assembled from stored granule statistics (no re-read).
+
+A window is a run of granules (fine blocks of consecutive rows, see
+:class:`relspan.data.blocks.GranuleTable`), each stored as its count, mean
+and co-moment. A bootstrap resample is a multiset of granules; its moments are
+the merge of the chosen granules' moments, so no row is read again. For a stack
+of ``B`` resamples the merges are one matrix product: with ``w_bi`` the number
+of times resample ``b`` draws granule ``i`` (count ``c_i``, mean ``m_i``,
+co-moment ``C_i``) and ``d_i = m_i - m`` the granule's offset from the window
+mean ``m``,
+
+    N_b = sum_i w_bi c_i,   dbar_b = sum_i w_bi c_i d_i / N_b,
+    C_b = sum_i w_bi (C_i + c_i d_i d_i^T) - N_b dbar_b dbar_b^T,
+
+the k-way form of the Chan, Golub & LeVeque (1979) merge about the window
+mean (the pairwise update ``C = C_a + C_b + delta delta^T n_a n_b / n`` is its
+two-block case). Because the offsets are taken from the window mean, the
+subtracted term is of the size of the sampling fluctuation of the mean and
+costs no more than rounding.
+
+Schemes (rows are granules; see the granule note for ``g > 1``):
+
+- ``"iid"``: granules drawn independently with replacement (Efron 1979), for
+  rows with no time order;
+- ``"moving"``: moving blocks of ``b`` consecutive granules, starts uniform
+  over the ``k - b + 1`` possible ones, concatenated and cut to ``k``
+  granules (Kuensch 1989);
+- ``"stationary"``: blocks of geometric length with mean ``b``, starts
+  uniform, wrapping around the window's end, cut to ``k`` granules (Politis &
+  Romano 1994). The default for time-ordered rows.
+
+Block length: the automatic rule of Politis & White (2004) with the
+correction of Patton, Politis & White (2009), applied to each variable's
+series of granule means (standardised); the window's block length is the
+largest of the per-variable values (so the longest dependence seen in any
+variable is kept inside blocks), rounded to a whole number of granules for
+moving blocks.
+
+Reproducibility: every window gets its own random stream derived from
+``(seed, dataset, plan, window index)`` by :func:`window_seed`, so resamples
+are identical however windows are scheduled (serially, in a pool, on Dask,
+or read back from the cache).
+
+References
+----------
+.. [1] B. Efron, "Bootstrap methods: another look at the jackknife", Annals of
+       Statistics 7(1), 1-26, 1979.
+.. [2] H. R. Kuensch, "The jackknife and the bootstrap for general stationary
+       observations", Annals of Statistics 17(3), 1217-1241, 1989.
+.. [3] D. N. Politis and J. P. Romano, "The stationary bootstrap", Journal of
+       the American Statistical Association 89(428), 1303-1313, 1994.
+.. [4] D. N. Politis and H. White, "Automatic block-length selection for the
+       dependent bootstrap", Econometric Reviews 23(1), 53-70, 2004.
+.. [5] A. Patton, D. N. Politis and H. White, "Correction to 'Automatic
+       block-length selection for the dependent bootstrap'", Econometric
+       Reviews 28(4), 372-375, 2009.
+.. [6] D. N. Politis, "Adaptive bandwidth choice", Journal of Nonparametric
+       Statistics 15(4-5), 517-533, 2003 (the flat-top lag window and the
+       rule for its bandwidth).
+.. [7] T. F. Chan, G. H. Golub and R. J. LeVeque, "Updating formulae and a
+       pairwise algorithm for computing sample variances", Stanford
+       STAN-CS-79-773, 1979.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from relspan.analysis._common import jsonable
+from relspan.errors import OptionsError
+
+__all__ = ["SCHEMES", "DEFAULT_RESAMPLES", "DEFAULT_LEVEL", "BlockLength", "GranuleStats",
+           "CovarianceResamples", "window_seed", "window_rng", "politis_white_block_length",
+           "draw_granules", "merge_weighted", "resample_covariances", "stack_covariances",
+           "correlation_stack", "scale_stack"]
+
+#: resampling schemes
+SCHEMES = ("iid", "moving", "stationary")
+#: resamples when the spec does not say (enough for 90% percentile intervals; common practice
+#: is 499-999 for intervals at 90-95%)
+DEFAULT_RESAMPLES = 499
+#: level of intervals when the spec does not say
+DEFAULT_LEVEL = 0.90
+#: granules x resamples held at once in the multiplicity matrix (bounds memory to ~32 MB)
+_CHUNK_CELLS = 4_000_000
+
+
+def window_seed(seed: int, dataset: str, plan: str, window: int) -> np.random.SeedSequence:
+    """The random stream of one window: a :class:`numpy.random.SeedSequence` of the spec seed and names.
+
+    The dataset and plan ids enter through SHA-256 (stable across Python
+    runs, unlike ``hash``), so a window's draws depend only on
+    ``(seed, dataset, plan, window)``, never on the order windows are run in.
+    """
+    if not isinstance(seed, (int, np.integer)) or isinstance(seed, bool) or seed < 0:
+        raise OptionsError(f"the resampling seed must be a whole number >= 0; got {seed!r}.",
+                           key="seed", fix="Set checks.resampling.seed to a whole number, e.g. 20240501.")
+    words = []
+    for text in (dataset, plan):
+        h = hashlib.sha256(str(text).encode("utf-8")).digest()
+        words.extend(int.from_bytes(h[i:i + 4], "little") for i in range(0, 16, 4))
+    return np.random.SeedSequence(entropy=int(seed), spawn_key=(*words, int(window)))
+
+
+def window_rng(seed: int, dataset: str, plan: str, window: int) -> np.random.Generator:
+    """A :class:`numpy.random.Generator` (PCG64) on :func:`window_seed`."""
+    return np.random.Generator(np.random.PCG64(window_seed(seed, dataset, plan, window)))
+
+
+@dataclass(frozen=True, slots=True)
+class BlockLength:
+    """An automatic block length (Politis & White 2004; Patton, Politis & White 2009).
+
+    Attributes
+    ----------
+    value : float
+        The block length used, in granules (>= 1): the largest per-series value.
+    per_series : tuple of float
+        The rule's value for each series (variable), in granules.
+    kind : str
+        ``"stationary"`` (mean block length of the stationary bootstrap) or
+        ``"moving"`` (moving / circular blocks).
+    rule : str
+        One sentence stating how it was computed.
+    """
+
+    value: float
+    per_series: tuple[float, ...]
+    kind: str
+    rule: str
+
+    def to_dict(self) -> dict:
+        return jsonable({"value": self.value, "per_series": list(self.per_series), "kind": self.kind,
+                         "rule": self.rule})
+
+
+def _flat_top(t: np.ndarray) -> np.ndarray:
+    a = np.abs(t)
+    return np.where(a <= 0.5, 1.0, np.where(a <= 1.0, 2.0 * (1.0 - a), 0.0))
+
+
+def _pw_one(x: np.ndarray, kind: str) -> float:
+    """Politis-White block length of one series (Patton-Politis-White 2009 constants)."""
+    n = x.shape[0]
+    x = x - x.mean()
+    var = float(x @ x) / n
+    if n < 4 or var <= 0:
+        return 1.0
+    kn = max(5, math.ceil(math.sqrt(math.log10(n))))
+    m_max = math.ceil(math.sqrt(n)) + kn
+    lags = min(n - 1, m_max + kn)
+    f = np.fft.rfft(x, 2 * n)
+    acov = np.fft.irfft(f * np.conj(f), 2 * n)[:lags + 1] / n
+    rho = acov[1:] / acov[0]
+    bound = 2.0 * math.sqrt(math.log10(n) / n)
+    small = np.abs(rho) < bound
+    m_hat = None
+    for m in range(0, lags - kn + 1):  # first m after which kn correlations in a row are small
+        if small[m:m + kn].all():
+            m_hat = m
+            break
+    if m_hat is None:
+        m_hat = m_max
+    big_m = min(2 * max(m_hat, 1), m_max, lags)
+    k = np.arange(1, big_m + 1)
+    lam = _flat_top(k / big_m)
+    g_hat = 2.0 * float(np.sum(lam * k * acov[1:big_m + 1]))
+    g0 = float(acov[0] + 2.0 * np.sum(lam * acov[1:big_m + 1]))
+    d = 2.0 * g0**2 if kind == "stationary" else (4.0 / 3.0) * g0**2
+    if d <= 0:
+        return 1.0
+    b = (2.0 * g_hat**2 / d) ** (1.0 / 3.0) * n ** (1.0 / 3.0)
+    b_max = math.ceil(min(3.0 * math.sqrt(n), n / 3.0))
+    return float(min(max(b, 1.0), b_max))
+
+
+def politis_white_block_length(series, *, kind: str = "stationary") -> BlockLength:
+    """Automatic block length for a block bootstrap, from the data.
+
+    Parameters
+    ----------
+    series : (k,) or (k, n) array_like
+        Time-ordered values (for granule statistics: the granule means).
+        Each column is standardised; constant columns count as length 1.
+    kind : {"stationary", "moving"}
+        The bootstrap the length is for.
+
+    Returns
+    -------
+    BlockLength
+        The largest per-column value.
+
+    Notes
+    -----
+    For each column: autocovariances ``R(j)``; ``m_hat`` the smallest lag
+    after which ``K_N = max(5, ceil(sqrt(log10 k)))`` autocorrelations in a
+    row lie within ``2 sqrt(log10 k / k)``; bandwidth ``M = 2 m_hat``
+    (at most ``ceil(sqrt k) + K_N``); with the flat-top window ``lambda``,
+    ``G = sum_{|j|<=M} lambda(j/M) |j| R(j)`` and
+    ``g0 = sum_{|j|<=M} lambda(j/M) R(j)``;
+    ``b = (2 G^2 / D)^(1/3) k^(1/3)`` with ``D = 2 g0^2`` (stationary) or
+    ``(4/3) g0^2`` (moving), as corrected by Patton, Politis & White (2009);
+    clipped to ``[1, ceil(min(3 sqrt k, k / 3))]``.
+
+    References
+    ----------
+    .. [1] D. N. Politis and H. White, Econometric Reviews 23(1), 53-70, 2004.
+    .. [2] A. Patton, D. N. Politis and H. White, Econometric Reviews 28(4), 372-375, 2009.
+    .. [3] D. N. Politis, Journal of Nonparametric Statistics 15(4-5), 517-533, 2003.
+    """
+    if kind not in ("stationary", "moving"):
+        raise OptionsError(f"kind must be 'stationary' or 'moving'; got {kind!r}.", key="kind",
+                           fix="Use kind='stationary' or kind='moving'.")
+    x = np.asarray(series, dtype=float)
+    if x.ndim == 1:
+        x = x[:, None]
+    if x.ndim != 2 or x.shape[0] < 1 or not np.all(np.isfinite(x)):
+        raise OptionsError(f"series must be a finite (k, n) array; got shape {x.shape}.", key="series",
+                           fix="Pass the granule means of the window, in time order.")
+    per = tuple(_pw_one(x[:, j], kind) for j in range(x.shape[1]))
+    value = max(per)
+    rule = (f"Politis & White (2004) automatic block length with the Patton, Politis & White (2009) "
+            f"correction, for the {kind} bootstrap, computed on each variable's series of "
+            f"{x.shape[0]} granule means; the largest value over variables is used.")
+    return BlockLength(value=value, per_series=per, kind=kind, rule=rule)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class GranuleStats:
+    """The granules of one window: what a resample is merged from.
+
+    Attributes
+    ----------
+    counts : (k,) float
+    means : (k, n) float
+        Granule means (any common origin; results use offsets only).
+    comoments : (k, n, n) float
+    rows_per_granule : int
+        ``g`` of the granule table (1: single rows).
+    ordered : bool
+        True when rows are time-ordered (a block bootstrap applies).
+    """
+
+    counts: np.ndarray
+    means: np.ndarray
+    comoments: np.ndarray
+    rows_per_granule: int = 1
+    ordered: bool = True
+
+    @classmethod
+    def from_table(cls, granules, lo: int, hi: int, *, ordered: bool = True) -> "GranuleStats":
+        """Granules ``lo .. hi-1`` of a :class:`relspan.data.blocks.GranuleTable`."""
+        t = granules.table
+        return cls(t.counts[lo:hi].astype(float), t.means[lo:hi], t.comoments[lo:hi],
+                   int(granules.rows_per_granule), ordered)
+
+    @classmethod
+    def from_rows(cls, x, *, ordered: bool = True) -> "GranuleStats":
+        """One granule per row (small data held in memory)."""
+        x = np.asarray(x, dtype=float)
+        if x.ndim != 2 or x.shape[0] < 2 or not np.all(np.isfinite(x)):
+            raise OptionsError(f"rows must be a finite (T, n) array with T >= 2; got shape {x.shape}.",
+                               key="x", fix="Pass the window's rows as a 2-D float array.")
+        k, n = x.shape
+        return cls(np.ones(k), x.copy(), np.zeros((k, n, n)), 1, ordered)
+
+    @property
+    def k(self) -> int:
+        return int(self.counts.shape[0])
+
+    @property
+    def n(self) -> int:
+        return int(self.means.shape[1])
+
+    @property
+    def rows(self) -> int:
+        return int(round(float(self.counts.sum())))
+
+    def window_moments(self) -> tuple[float, np.ndarray, np.ndarray]:
+        """Count, mean and co-moment of the whole window (every granule once)."""
+        c, m, cm = merge_weighted(self.counts, self.means, self.comoments, np.ones((1, self.k)))
+        return float(c[0]), m[0], cm[0]
+
+
+def draw_granules(k: int, *, scheme: str, resamples: int, rng: np.random.Generator,
+                  block_length: float = 1.0) -> np.ndarray:
+    """Granule indices of ``resamples`` bootstrap resamples of a window of ``k`` granules.
+
+    Returns
+    -------
+    (resamples, k) int64
+        Row ``b`` lists the granules of resample ``b`` in the order drawn.
+    """
+    if scheme not in SCHEMES:
+        raise OptionsError(f"scheme must be one of {', '.join(SCHEMES)}; got {scheme!r}.", key="scheme",
+                           fix="Use 'stationary' or 'moving' for time-ordered rows, 'iid' otherwise.")
+    if k < 1 or resamples < 1:
+        raise OptionsError(f"need at least one granule and one resample; got k={k}, resamples={resamples}.",
+                           key="resamples", fix="Ask for at least one resample of a non-empty window.")
+    if scheme == "iid" or k == 1:
+        return rng.integers(0, k, size=(resamples, k))
+    if scheme == "moving":
+        b = int(min(max(round(block_length), 1), k))
+        nb = -(-k // b)
+        starts = rng.integers(0, k - b + 1, size=(resamples, nb))
+        idx = (starts[:, :, None] + np.arange(b)).reshape(resamples, nb * b)
+        return idx[:, :k]
+    p = 1.0 / max(float(block_length), 1.0)
+    new = rng.random((resamples, k), dtype=np.float32) < np.float32(p)
+    new[:, 0] = True
+    block = np.cumsum(new.ravel()) - 1                      # running block number, all resamples
+    starts = rng.integers(0, k, size=int(block[-1]) + 1)    # one uniform start per block
+    t = np.arange(k)
+    begin = np.maximum.accumulate(np.where(new, t, 0), axis=1)
+    return (starts[block].reshape(resamples, k) + (t - begin)) % k
+
+
+def merge_weighted(counts, means, comoments, weights) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Moments of many weighted merges of the same granules, in one matrix product.
+
+    Parameters
+    ----------
+    counts : (k,) ; means : (k, n) ; comoments : (k, n, n)
+        Granule statistics.
+    weights : (B, k) array_like
+        ``weights[b, i]``: how many times merge ``b`` takes granule ``i`` (0, 1, 2, ...).
+
+    Returns
+    -------
+    counts (B,), means (B, n), comoments (B, n, n)
+        See the module notes for the formula (k-way Chan-Golub-LeVeque merge
+        about the mean of all granules).
+    """
+    c = np.asarray(counts, dtype=float)
+    m = np.asarray(means, dtype=float)
+    cm = np.asarray(comoments, dtype=float)
+    w = np.asarray(weights, dtype=float)
+    k, n = m.shape
+    center = (c @ m) / c.sum()
+    d = m - center
+    g = (cm + c[:, None, None] * d[:, :, None] * d[:, None, :]).reshape(k, n * n)
+    wc = w * c
+    tot = wc.sum(axis=1)
+    safe = np.where(tot > 0, tot, 1.0)
+    dbar = (wc @ d) / safe[:, None]
+    out = (w @ g).reshape(-1, n, n) - tot[:, None, None] * dbar[:, :, None] * dbar[:, None, :]
+    out = 0.5 * (out + out.transpose(0, 2, 1))
+    return tot, dbar + center, out
+
+
+def stack_covariances(stats: GranuleStats, idx: np.ndarray, *, ddof: int = 1
+                      ) -> tuple[np.ndarray, np.ndarray]:
+    """Covariances ``(B, n, n)`` and row counts ``(B,)`` of resamples given as granule indices."""
+    b_total, _ = idx.shape
+    k = stats.k
+    covs = np.empty((b_total, stats.n, stats.n))
+    rows = np.empty(b_total)
+    chunk = max(1, _CHUNK_CELLS // max(k, 1))
+    for b0 in range(0, b_total, chunk):
+        part = idx[b0:b0 + chunk]
+        nb = part.shape[0]
+        flat = (np.arange(nb)[:, None] * k + part).ravel()
+        w = np.bincount(flat, minlength=nb * k).reshape(nb, k)
+        tot, _, cm = merge_weighted(stats.counts, stats.means, stats.comoments, w)
+        covs[b0:b0 + nb] = cm / (tot - ddof)[:, None, None]
+        rows[b0:b0 + nb] = tot
+    return covs, rows
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class CovarianceResamples:
+    """Bootstrap resamples of one window's covariance.
+
+    Attributes
+    ----------
+    estimate : (n, n) ndarray
+        The window's covariance (divisor ``rows - 1``), from the same granules.
+    covariances : (B, n, n) ndarray
+        One covariance per resample (divisor ``rows_b - 1``).
+    rows : (B,) ndarray
+        Rows in each resample (equal to the window's rows unless granules differ in size).
+    scheme : str
+        ``"iid"``, ``"moving"`` or ``"stationary"``.
+    block_length : float
+        In granules (1 for iid): mean block length (stationary) or block length (moving).
+    block_rule : str
+        How the block length was chosen (the automatic rule, or "given").
+    rows_per_granule : int
+    granules : int
+        Granules in the window.
+    seed : tuple or None
+        ``(seed, dataset, plan, window)`` when the stream came from :func:`window_seed`.
+    note : str
+        What the granule size approximates (empty for single rows).
+    """
+
+    estimate: np.ndarray
+    covariances: np.ndarray
+    rows: np.ndarray
+    scheme: str
+    block_length: float
+    block_rule: str
+    rows_per_granule: int
+    granules: int
+    seed: tuple | None
+    note: str
+
+    @property
+    def resamples(self) -> int:
+        return int(self.covariances.shape[0])
+
+    def eigh(self, scale: str = "as given") -> tuple[np.ndarray, np.ndarray]:
+        """Batched eigendecomposition of every resample: values ``(B, n)`` ascending, vectors ``(B, n, n)``.
+
+        ``scale`` as for :func:`scale_stack` (columns of the vectors are the
+        eigenvectors on that scale).
+        """
+        return np.linalg.eigh(scale_stack(self.covariances, scale))
+
+    def to_dict(self) -> dict:
+        """JSON-ready description (the resampled matrices themselves are not written)."""
+        return jsonable({"scheme": self.scheme, "resamples": self.resamples,
+                         "block_length_granules": self.block_length,
+                         "block_length_rows": self.block_length * self.rows_per_granule,
+                         "block_rule": self.block_rule, "rows_per_granule": self.rows_per_granule,
+                         "granules": self.granules,
+                         "seed": None if self.seed is None else list(self.seed), "note": self.note})
+
+
+def correlation_stack(covs: np.ndarray) -> np.ndarray:
+    """Each covariance of a ``(B, n, n)`` stack on its own correlation scale."""
+    d = np.sqrt(np.clip(np.diagonal(covs, axis1=1, axis2=2), 0.0, None))
+    d = np.where(d > 0, d, 1.0)
+    return covs / (d[:, :, None] * d[:, None, :])
+
+
+def scale_stack(covs: np.ndarray, scale) -> np.ndarray:
+    """A covariance stack on the analysis scale.
+
+    ``"as given"`` returns it unchanged; ``"correlation"`` puts each matrix on
+    its own correlation scale (a relative tolerance analyses each window, and
+    so each resample, that way); an ``(n,)`` array ``d`` divides variable j by
+    ``d[j]`` (the common scale across windows: full-sample standard deviations).
+    """
+    covs = np.asarray(covs, dtype=float)
+    if isinstance(scale, str):
+        if scale == "as given":
+            return covs
+        if scale == "correlation":
+            return correlation_stack(covs)
+        raise OptionsError(f"scale must be 'as given', 'correlation' or an array of scales; got {scale!r}.",
+                           key="scale", fix="Use the scale the analysis uses.")
+    d = np.asarray(scale, dtype=float)
+    if d.shape != covs.shape[-1:] or np.any(d <= 0):
+        raise OptionsError(f"scale must hold {covs.shape[-1]} positive numbers.", key="scale",
+                           fix="Pass one positive scale (e.g. a standard deviation) per variable.")
+    return covs / np.outer(d, d)
+
+
+def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMPLES,
+                         rng: np.random.Generator, scheme: str | None = None,
+                         block_length: float | None = None, seed: tuple | None = None,
+                         ddof: int = 1) -> CovarianceResamples:
+    """Bootstrap resamples of a window's covariance from its granule statistics.
+
+    Parameters
+    ----------
+    stats : GranuleStats
+        The window's granules.
+    resamples : int
+        Number of resamples ``B``.
+    rng : numpy.random.Generator
+        The window's stream (e.g. :func:`window_rng`); pass ``seed`` to record it.
+    scheme : {"iid", "moving", "stationary"}, optional
+        Default: ``"stationary"`` for ordered rows, ``"iid"`` otherwise.
+    block_length : float, optional
+        In granules; default: :func:`politis_white_block_length` of the granule means.
+    seed : tuple, optional
+        Recorded on the result (``(seed, dataset, plan, window)``).
+    ddof : int
+        Covariance divisor ``rows - ddof``.
+
+    Returns
+    -------
+    CovarianceResamples
+
+    References
+    ----------
+    .. [1] B. Efron, Annals of Statistics 7(1), 1-26, 1979.
+    .. [2] H. R. Kuensch, Annals of Statistics 17(3), 1217-1241, 1989.
+    .. [3] D. N. Politis and J. P. Romano, JASA 89(428), 1303-1313, 1994.
+    .. [4] D. N. Politis and H. White, Econometric Reviews 23(1), 53-70, 2004;
+           correction by A. Patton, D. N. Politis and H. White, 28(4), 372-375, 2009.
+    """
+    if not isinstance(resamples, (int, np.integer)) or resamples < 1:
+        raise OptionsError(f"resamples must be a whole number >= 1; got {resamples!r}.", key="resamples",
+                           fix="Use e.g. 499 resamples for 90% intervals.")
+    scheme = scheme or ("stationary" if stats.ordered else "iid")
+    if scheme not in SCHEMES:
+        raise OptionsError(f"scheme must be one of {', '.join(SCHEMES)}; got {scheme!r}.", key="scheme",
+                           fix="Use 'stationary' or 'moving' for time-ordered rows, 'iid' otherwise.")
+    if scheme == "iid":
+        b, rule = 1.0, "No blocks: granules are drawn independently."
+    elif block_length is not None:
+        if not (float(block_length) >= 1.0):
+            raise OptionsError(f"block_length must be at least 1 granule; got {block_length!r}.",
+                               key="block_length", fix="Leave it out for the automatic rule.")
+        b, rule = float(block_length), "Block length given."
+    else:
+        bl = politis_white_block_length(stats.means, kind=scheme)
+        b, rule = bl.value, bl.rule
+    if scheme == "moving":
+        b = float(min(max(round(b), 1), stats.k))
+    idx = draw_granules(stats.k, scheme=scheme, resamples=int(resamples), rng=rng, block_length=b)
+    covs, rows = stack_covariances(stats, idx, ddof=ddof)
+    tot, _, cm = stats.window_moments()
+    note = "" if stats.rows_per_granule == 1 else (
+        f"Granules of up to {stats.rows_per_granule} rows are resampled whole: blocks start only at "
+        "granule boundaries and the block length is estimated from granule means.")
+    return CovarianceResamples(estimate=cm / (tot - ddof), covariances=covs, rows=rows, scheme=scheme,
+                               block_length=b, block_rule=rule, rows_per_granule=stats.rows_per_granule,
+                               granules=stats.k, seed=seed, note=note)
