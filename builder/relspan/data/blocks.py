@@ -524,13 +524,16 @@ def coarsen(table: BlockTable, g: int, plan_keys: np.ndarray) -> BlockTable:
         raise AssertionError("coarsen merges at most two granules at a time")
     first = np.flatnonzero(start)
     pair = first[size == 2]
-    c, m, cm = (table.counts.copy(), table.means.copy(), table.comoments.copy())
+    ml, cml = _lo_parts(table)
+    c, m, ml, cm, cml = (table.counts.copy(), table.means.copy(), ml.copy(), table.comoments.copy(), cml.copy())
     if pair.size:
-        pc, pm, pcm = _merge_arrays(c[pair], m[pair], cm[pair], c[pair + 1], m[pair + 1], cm[pair + 1])
-        c[pair], m[pair], cm[pair] = pc, pm, pcm
+        merged = _merge_arrays(c[pair], m[pair], ml[pair], cm[pair], cml[pair],
+                               c[pair + 1], m[pair + 1], ml[pair + 1], cm[pair + 1], cml[pair + 1])
+        c[pair], m[pair], ml[pair], cm[pair], cml[pair] = merged
     last = first + size - 1
     return BlockTable(
-        counts=c[first], means=m[first], comoments=cm[first], first_pos=fp[first],
+        counts=c[first], means=m[first], comoments=cm[first], means_lo=ml[first], comoments_lo=cml[first],
+        first_pos=fp[first],
         last_pos=table.last_pos[last], first_source_row=table.first_source_row[first],
         last_source_row=table.last_source_row[last],
         first_time=None if table.first_time is None else table.first_time[first],
