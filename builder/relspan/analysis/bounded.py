@@ -40,7 +40,8 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import check_cov, correlation_scale, fix_signs, jsonable, orthonormal_rows
+from relspan.analysis._common import check_cov, correlation_scale, fix_signs, orthonormal_rows
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["BoundedNoise", "BoundedCorank", "NoiseTolerance", "bounded_noise", "tolerance_eps",

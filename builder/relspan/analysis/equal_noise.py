@@ -35,7 +35,8 @@ import numpy as np
 import pandas as pd
 import scipy.linalg as sla
 
-from relspan.analysis._common import check_cov, correlation_scale, fix_signs, jsonable, orthonormal_rows
+from relspan.analysis._common import check_cov, correlation_scale, fix_signs, orthonormal_rows
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["EqualNoise", "EqualNoiseCorank", "equal_noise"]

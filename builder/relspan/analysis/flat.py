@@ -28,7 +28,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import fix_signs, jsonable, orthonormal_rows
+from relspan.analysis._common import fix_signs, orthonormal_rows
+from relspan.analysis._export import jsonable
 from relspan.analysis.elementary import ElementaryRegressions
 from relspan.errors import OptionsError
 

@@ -33,7 +33,8 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import EPS, check_names_len, jsonable, orthonormal_rows, pivot_columns, reduced_form
+from relspan.analysis._common import EPS, check_names_len, orthonormal_rows, pivot_columns, reduced_form
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["Identified", "CoefficientStatus", "identified_quantities", "DEFAULT_ZERO_TOL"]

@@ -24,7 +24,8 @@ from typing import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import EPS, check_names_len, jsonable
+from relspan.analysis._common import EPS, check_names_len
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "CoefficientSwing",
