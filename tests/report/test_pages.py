@@ -258,9 +258,9 @@ def test_caution_page_carries_the_usual_cautions(site):
 # ------------------------------------------------------------------------------------ the methods
 
 def _code_references() -> list[tuple[str, str]]:
-    """(first author's surname, year) of every numbered reference in builder/relspan/analysis/*.py docstrings."""
+    """(first author's surname, year) of every numbered reference in builder/relspan/analysis/**/*.py docstrings."""
     refs = set()
-    for path in sorted((ROOT / "builder" / "relspan" / "analysis").glob("*.py")):
+    for path in sorted((ROOT / "builder" / "relspan" / "analysis").rglob("*.py")):
         src = path.read_text(encoding="utf-8")
         for block in re.findall(r"\.\. \[\d+\]\s+(.*?)(?=\n\s*\.\. \[|\n\s*\n|\"\"\")", src, flags=re.S):
             block = " ".join(block.split())

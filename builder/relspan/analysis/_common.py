@@ -20,7 +20,9 @@ from typing import Any, Sequence
 import numpy as np
 import scipy.linalg as sla
 
-from relspan.analysis._export import jsonable  # noqa: F401  (re-export; TODO(architecture): findings, claims and report/site_content import it from here)
+# Re-exported for modules that still import it from here (findings, claims, report/site_content).
+# TODO(architecture): they should import it from relspan.analysis._export.
+from relspan.analysis._export import jsonable as jsonable  # noqa: F401
 from relspan.errors import DataError, OptionsError
 
 __all__: list[str] = []

@@ -232,6 +232,16 @@ def elementary_regressions(cov, *, names: Sequence[str], count: int | None = Non
            Regression Systems, University Institute of Economics, Oslo, 1934.
     .. [2] N. J. Higham, Accuracy and Stability of Numerical Algorithms, 2nd
            ed., SIAM, 2002, ch. 10 (Cholesky) and 7.3 (scaling).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> er = elementary_regressions(S, names=["a", "b", "c"])
+    >>> np.round(er.coefficients[0], 3).tolist()   # a on b and c: a = 0.6 b + 0.2 c
+    [0.0, 0.6, 0.2]
+    >>> np.round(er.residual_variance, 3).tolist()   # 1 / P[j, j]
+    [2.6, 1.857, 1.625]
     """
     s, names_t = check_cov(cov, names=names)
     n = s.shape[0]

@@ -97,6 +97,16 @@ def moments_of(x: np.ndarray, *, shift: np.ndarray | None = None) -> Moments:
     Corrected two-pass algorithm: with ``d = y - mean(y)`` the co-moment is
     ``d^T d - (sum d)(sum d)^T / T``; the second term removes the rounding
     error left in the mean.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> x = np.array([[1.0, 2.0], [2.0, 4.5], [3.0, 5.5], [4.0, 8.0]])
+    >>> m = moments_of(x)
+    >>> m.count, m.mean.tolist()
+    (4, [2.5, 5.0])
+    >>> np.round(m.comoment, 6).tolist()   # sums of products about the mean
+    [[5.0, 9.5], [9.5, 18.5]]
     """
     x = np.asarray(x, dtype=float)
     if x.ndim != 2:
@@ -120,6 +130,14 @@ def merge(a: Moments, b: Moments) -> Moments:
 
     ``mean = mean_a + delta * n_b / n`` and
     ``C = C_a + C_b + delta delta^T * n_a n_b / n`` with ``delta = mean_b - mean_a``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> x = np.array([[1.0, 2.0], [2.0, 4.5], [3.0, 5.5], [4.0, 8.0]])
+    >>> m = merge(moments_of(x[:1]), moments_of(x[1:]))
+    >>> m.count, m.mean.tolist(), np.round(m.comoment, 6).tolist()
+    (4, [2.5, 5.0], [[5.0, 9.5], [9.5, 18.5]])
     """
     if a.count == 0:
         return b

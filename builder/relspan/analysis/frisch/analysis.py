@@ -99,6 +99,16 @@ def frisch_analysis(cov: Any, *, names: Sequence[str] | None = None, eps: float,
            Regression Systems, 1934.
     .. [2] S. Klepper and E. E. Leamer, Econometrica 52(1), 1984.
     .. [3] J. M. F. ten Berge and H. A. L. Kiers, Psychometrika 56(2), 1991.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> fr = frisch_analysis(S, names=["a", "b", "c"], eps=0.01)
+    >>> fr.corank.max_certified, fr.q1.status, fr.triad.feasible
+    (2, 'unbounded', True)
+    >>> np.round(fr.triad.noise_variances, 3).tolist()
+    [2.0, 1.0, 1.5]
     """
     s, nm = frisch_cov(cov, names)
     n = s.shape[0]
@@ -116,6 +126,8 @@ def frisch_analysis(cov: Any, *, names: Sequence[str] | None = None, eps: float,
     spread = None
     if ident is not None and qs >= 2 and not ident.count_met:
         spread = solution_spread(s, qs, eps, names=nm, starts=starts, seed=seed)
+    # TODO(architecture): reader-facing prose (FrischResult.summary, carried into results.json);
+    # it moves to analysis/findings with the report restructuring, not in this refactor.
     parts = [cor.summary]
     if q1.status == "bounded":
         parts.append("A single relation is bounded: its coefficients lie between those of the "

@@ -180,6 +180,8 @@ def _impossibility(r: np.ndarray, eps: float) -> tuple[np.ndarray, np.ndarray]:
     return rb, lam
 
 
+# TODO(architecture): reader-facing prose; report/pages.py renders FrischCorank.summary
+# and results.json carries it: it moves to analysis/findings with those files, not in this refactor.
 def _corank_summary(certs: Sequence[CorankCertificate], eps: float, n: int, led: int) -> str:
     best = max((c.q for c in certs if c.status == "certified"), default=0)
     ruled = [c.q for c in certs if c.status == "ruled out"]

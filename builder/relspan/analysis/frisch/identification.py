@@ -77,6 +77,8 @@ def frisch_identification(n: int, q: int) -> FrischIdentification:
     if n < 2 or not 1 <= q <= n - 1:
         raise OptionsError(f"the corank q must lie in 1..n-1 for n >= 2 variables; got n={n}, q={q}.",
                            key="q", fix="choose q between 1 and the number of variables minus 1.")
+    # TODO(architecture): reader-facing prose (FrischIdentification.text, part of
+    # FrischResult.summary and results.json); it moves to analysis/findings with the report restructuring.
     par, req = q * (q + 1), 2 * n
     if par >= req:
         text = (f"{q} relation{'s' if q > 1 else ''} among {n} variables pass the parameter count "

@@ -226,6 +226,16 @@ def minimum_trace(cov: Any, *, weights: Sequence[float] | None = None,
     .. [2] G. Della Riccia and A. Shapiro, "Minimum rank and minimum trace of
            covariance matrices", Psychometrika 47(4), 1982.
     .. [3] S. Boyd and L. Vandenberghe, Convex Optimization, 2004, ch. 11.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> mt = minimum_trace(S)
+    >>> np.round(mt.noise_variances, 3).tolist(), round(mt.value, 3)
+    ([2.0, 1.0, 1.5], 4.5)
+    >>> mt.min_eigenvalue > -1e-9   # S - diag(d) stays positive semidefinite
+    True
     """
     s, _ = frisch_cov(cov, None)
     n = s.shape[0]

@@ -157,6 +157,17 @@ def one_orthant(cov: Any, *, names: Sequence[str] | None = None) -> OrthantTest:
            methods of confluence analysis", Econometrica 9(1), 1941.
     .. [2] S. Klepper and E. E. Leamer, "Consistent sets of estimates for
            regressions with errors in all variables", Econometrica 52(1), 1984.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[1.0, 0.5, 0.5], [0.5, 1.0, 0.1], [0.5, 0.1, 1.0]])
+    >>> res = one_orthant(S, names=["a", "b", "c"])
+    >>> res.holds, res.signature
+    (True, (1, -1, -1))
+    >>> iv = frisch_q1(S, names=["a", "b", "c"], ref="a").interval("b", "a")
+    >>> round(iv.low, 3), round(iv.high, 3)
+    (-1.667, -0.333)
     """
     s, nm = frisch_cov(cov, names)
     r, _ = correlation(s)

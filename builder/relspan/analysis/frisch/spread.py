@@ -211,6 +211,8 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     noise = np.array(members) * sd ** 2
     max_angle = float(ang.max())
     lo, hi = noise.min(axis=0), noise.max(axis=0)
+    # TODO(architecture): reader-facing prose (SolutionSpread.summary, part of FrischResult.summary
+    # and results.json); it moves to analysis/findings with the report restructuring.
     rel = "relations" if q > 1 else "relation"
     if len(distinct) > 1:
         j = int(np.argmax((hi - lo) / np.diag(s)))

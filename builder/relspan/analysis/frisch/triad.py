@@ -102,6 +102,19 @@ def triad(cov: Any, *, names: Sequence[str] | None = None) -> TriadResult:
            measured", American Journal of Psychology 15(2), 1904.
     .. [2] R. Frisch, Statistical Confluence Analysis by Means of Complete
            Regression Systems, 1934.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> t = triad(S, names=["a", "b", "c"])
+    >>> t.feasible, np.round(t.loadings, 3).tolist(), np.round(t.noise_variances, 3).tolist()
+    (True, [1.414, 1.414, 0.707], [2.0, 1.0, 1.5])
+
+    A Heywood case: the one-factor fit needs a negative noise variance.
+
+    >>> triad(np.array([[1.0, 0.5, 0.5], [0.5, 1.0, 0.1], [0.5, 0.1, 1.0]])).heywood
+    ('x1',)
     """
     s, nm = frisch_cov(cov, names)
     if s.shape[0] != 3:
