@@ -45,8 +45,7 @@ REPO = Path(__file__).resolve().parents[1]
 if str(REPO) not in sys.path:  # runnable from a checkout without installing
     sys.path.insert(0, str(REPO))
 
-from relspan.analysis.batched import (batched_elementary_regressions, merge_window_runs,  # noqa: E402
-                                      stacked_block_moments)
+from batched import batched_elementary_regressions, merge_window_runs, stacked_block_moments  # noqa: E402
 
 N_VARS = 6
 WIDTH = 250
@@ -576,7 +575,8 @@ def render(machine: dict, rows: list[RollingRow], outcomes: list[Outcome], quick
               "once: `merge_window_runs`, bit for bit `batched_window_moments`), then a batched "
               "Cholesky factorisation of the correlation matrices, a vectorised triangular "
               "inverse, coefficients, residual variances, R^2, intercepts and 1-norm condition "
-              "numbers.",
+              "numbers (`benchmarks/batched.py`: a batched reference implementation; the build "
+              "analyses windows one at a time).",
               f"- **loop**: `np.cov` + `np.linalg.inv` per window in a Python loop (same windows).",
               f"- **{N_VARS} x RollingOLS**: statsmodels `RollingOLS(...).fit()` for each of the "
               f"{N_VARS} variables. RollingOLS has no step option: it fits every step-1 window "

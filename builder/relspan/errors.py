@@ -9,6 +9,23 @@ Each error keeps its fields (``path``, ``line``, ``key``, ``expected``,
 Numerical trouble that still yields an answer is a warning of its own class
 (:class:`IllConditionedWarning`, ...), naming the window and the number, in
 the spirit of SciPy's ``LinAlgWarning``.
+
+Which class a failure raises
+----------------------------
+* :class:`SpecError`: the spec file cannot be read or breaks the spec format.
+* :class:`DataError`: a data file cannot be read, or the data (or statistics
+  derived from them) make an analysis impossible: a bad cell, a constant
+  variable in a window.
+* :class:`OptionsError` (also a :class:`ValueError`): a bad argument to a
+  library function or a bad command-line option. A pure analysis function
+  raises it for any argument it cannot accept (wrong type, shape or range;
+  an asymmetric or indefinite "covariance"), naming its OWN parameter
+  (``eps must be a number in (0, 1)``, ``key="eps"``), never a spec key;
+  the same bad input raises the same class from every analysis function.
+  Where the driver passes spec values to the analysis it adds the spec
+  location (``checks.tolerance``).
+* :class:`OutputError`, :class:`DependencyError`: the output folder, an
+  optional dependency.
 """
 
 from __future__ import annotations
@@ -109,7 +126,7 @@ class DataError(RelspanError):
 
 
 class OptionsError(RelspanError, ValueError):
-    """A command-line option or API argument is invalid."""
+    """A command-line option or API argument is invalid (also a :class:`ValueError`)."""
 
 
 class OutputError(RelspanError):

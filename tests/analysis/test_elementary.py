@@ -10,7 +10,9 @@ import numpy as np
 import pytest
 
 from relspan.analysis.elementary import choose_reference, elementary_regressions
-from relspan.analysis.moments import MomentTree, merge_all, moments_of
+from moment_oracles import MomentTree
+
+from relspan.analysis.moments import merge_all, moments_of
 from relspan.analysis.window import WindowOptions, analyse_window
 from relspan.data import prepare_frame
 from relspan.errors import IllConditionedWarning, OptionsError

@@ -1,4 +1,4 @@
-"""Tests of relspan.analysis.frisch (diagonal noise: the Frisch scheme).
+"""Tests of relspan.analysis.frisch (diagonal noise: the Frisch scheme), one class per module's function.
 
 Every check against the outside world names its source beside it. Known
 structures are built here from seeded generators and must come back.
@@ -16,7 +16,6 @@ from hypothesis import strategies as st
 
 from relspan.analysis.frisch import (
     FrischResult,
-    _principal_angles_deg,
     frisch_analysis,
     frisch_identification,
     frisch_max_corank,
@@ -27,6 +26,7 @@ from relspan.analysis.frisch import (
     solution_spread,
     triad,
 )
+from relspan.analysis.frisch.spread import _principal_angles_deg
 from relspan.errors import DataError, OptionsError
 
 
@@ -279,8 +279,9 @@ class TestTriad:
         assert one_orthant(s).holds != triad(s).feasible
 
     def test_triad_needs_three_variables(self):
-        with pytest.raises(DataError, match="exactly 3 variables"):
+        with pytest.raises(OptionsError, match="exactly 3 variables") as e:
             triad(np.eye(4))
+        assert e.value.key == "cov"
 
 
 # --------------------------------------------------------------------------
@@ -552,20 +553,22 @@ class TestFrischAnalysis:
 # --------------------------------------------------------------------------
 
 class TestBadInput:
+    # The rule (relspan.errors): a malformed argument raises OptionsError naming the
+    # function's own parameter; a constant variable (a property of the data) raises DataError.
     def test_non_square_matrix(self):
-        with pytest.raises(DataError, match=r"must be square; got shape \(2, 3\)") as e:
+        with pytest.raises(OptionsError, match=r"cov must be a square \(n, n\) matrix; got shape \(2, 3\)") as e:
             frisch_analysis(np.ones((2, 3)), eps=1e-3)
         assert e.value.fix
 
     def test_missing_value(self):
         s = np.eye(3)
         s[1, 2] = s[2, 1] = np.nan
-        with pytest.raises(DataError, match=r"non-finite entry at \(2, 3\)"):
+        with pytest.raises(OptionsError, match=r"NaN or infinite entries \(first at \(2, 3\)"):
             frisch_max_corank(s, eps=1e-3)
 
     def test_asymmetric_matrix(self):
         s = np.array([[1.0, 0.3], [0.4, 1.0]])
-        with pytest.raises(DataError, match="not symmetric"):
+        with pytest.raises(OptionsError, match="not symmetric"):
             frisch_q1(s)
 
     def test_constant_variable(self):
@@ -574,26 +577,27 @@ class TestBadInput:
 
     def test_indefinite_matrix(self):
         s = np.array([[1.0, 0.9, 0.9], [0.9, 1.0, -0.9], [0.9, -0.9, 1.0]])
-        with pytest.raises(DataError, match="not positive semidefinite"):
+        with pytest.raises(OptionsError, match="not positive semidefinite"):
             frisch_analysis(s, eps=1e-3)
 
     @pytest.mark.parametrize("eps", [0.0, -1.0, 1.5, float("nan"), "small"])
     def test_bad_tolerance(self, eps):
         with pytest.raises(OptionsError, match=r"eps .* must be a number in \(0, 1\)") as e:
             frisch_max_corank(np.eye(3), eps=eps)
-        assert e.value.key == "checks.tolerance"
+        assert e.value.key == "eps"
 
     def test_bad_starts(self):
-        with pytest.raises(OptionsError, match="frisch_starts must be a whole number >= 1"):
+        with pytest.raises(OptionsError, match="starts must be a whole number >= 1") as e:
             frisch_max_corank(np.eye(3), eps=1e-3, starts=0)
+        assert e.value.key == "starts"
 
     def test_bad_names(self):
-        with pytest.raises(OptionsError, match="names must be 3 non-empty strings"):
+        with pytest.raises(OptionsError, match="names has 2 entries but cov has 3 variables"):
             frisch_q1(np.eye(3), names=["a", "b"])
         with pytest.raises(OptionsError, match="repeated: a"):
             frisch_q1(np.eye(3), names=["a", "a", "b"])
 
     def test_bad_reference_variable(self):
-        with pytest.raises(OptionsError, match="ref must name one of the variables") as e:
+        with pytest.raises(OptionsError, match=r"ref 'z' is not one of the variables") as e:
             frisch_q1(np.eye(3) + 0.1, ref="z")
-        assert e.value.key == "checks.normalise_on"
+        assert e.value.key == "ref"

@@ -8,7 +8,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
-from relspan.analysis.moments import MomentTree, batched_window_moments, empty, merge, merge_all, moments_of
+from moment_oracles import MomentTree, batched_window_moments
+
+from relspan.analysis.moments import empty, merge, merge_all, moments_of
 
 
 def _rows(seed: int, t: int = 60, n: int = 3) -> np.ndarray:

@@ -6,7 +6,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from relspan.analysis.moments import MomentTree
+from moment_oracles import MomentTree
 from relspan.data import assemble, prepare_frame
 from relspan.errors import DataError
 from relspan.spec.model import Period, WindowPlanSpec

@@ -263,9 +263,9 @@ _NOT_YET_ON_SITE = {"resample.py", "equal_test.py", "corank_support.py", "interv
 
 
 def _code_references() -> list[tuple[str, str]]:
-    """(first author's surname, year) of every numbered reference in builder/relspan/analysis/*.py docstrings."""
+    """(first author's surname, year) of every numbered reference in builder/relspan/analysis/**/*.py docstrings."""
     refs = set()
-    for path in sorted((ROOT / "builder" / "relspan" / "analysis").glob("*.py")):
+    for path in sorted((ROOT / "builder" / "relspan" / "analysis").rglob("*.py")):
         if path.name in _NOT_YET_ON_SITE:
             continue
         src = path.read_text(encoding="utf-8")

@@ -1,6 +1,15 @@
-"""Private helpers shared by the analysis modules: input checks, scaling, bases, JSON.
+"""Private helpers shared by the analysis modules: input checks, scaling, bases.
 
 Nothing here is public API; the modules re-export what users need.
+
+Input checks follow the rule in :mod:`relspan.errors`: an argument a pure
+analysis function cannot accept (wrong type, shape, range; a matrix that is
+not a covariance) raises :class:`~relspan.errors.OptionsError` naming the
+function's own parameter (``cov``, ``eps``, ``names``, ``ref``...); a valid
+argument whose data make a method inapplicable (a constant variable) raises
+:class:`~relspan.errors.DataError`. Every method module uses these checks, so
+the same bad input raises the same class, with the same words, everywhere.
+JSON and table export helpers live in :mod:`relspan.analysis._export`.
 """
 
 from __future__ import annotations
@@ -11,7 +20,10 @@ from typing import Any, Sequence
 import numpy as np
 import scipy.linalg as sla
 
-from relspan.errors import OptionsError
+# Re-exported for modules that still import it from here (findings, claims, report/site_content).
+# TODO(architecture): they should import it from relspan.analysis._export.
+from relspan.analysis._export import jsonable as jsonable  # noqa: F401
+from relspan.errors import DataError, OptionsError
 
 __all__: list[str] = []
 
@@ -20,15 +32,18 @@ EPS = float(np.finfo(float).eps)
 
 
 def check_cov(cov: Any, *, names: Sequence[str] | None, what: str = "cov",
-              names_required: bool = True) -> tuple[np.ndarray, tuple[str, ...]]:
+              names_required: bool = True, min_vars: int = 1) -> tuple[np.ndarray, tuple[str, ...]]:
     """Validate a covariance matrix and its variable names; return a float copy and the names.
+
+    With ``names_required=False`` and ``names=None`` the names are
+    ``x1 .. xn``. The copy is symmetrised, ``(S + S^T) / 2``.
 
     Raises
     ------
     OptionsError
         When ``cov`` is not a finite, square, symmetric matrix with a
-        non-negative diagonal, or ``names`` does not give one unique name per
-        variable.
+        non-negative diagonal and at least ``min_vars`` rows, or ``names``
+        does not give one unique name per variable.
     """
     try:
         s = np.array(cov, dtype=float)
@@ -38,8 +53,13 @@ def check_cov(cov: Any, *, names: Sequence[str] | None, what: str = "cov",
     if s.ndim != 2 or s.shape[0] != s.shape[1] or s.shape[0] < 1:
         raise OptionsError(f"{what} must be a square (n, n) matrix; got shape {s.shape}.", key=what,
                            fix="Pass the window covariance matrix, one row and column per variable.")
+    if s.shape[0] < min_vars:
+        raise OptionsError(f"{what} must have at least {min_vars} variables; got {s.shape[0]}.", key=what,
+                           fix=f"Pass the covariance of {min_vars} or more variables.")
     if not np.all(np.isfinite(s)):
-        raise OptionsError(f"{what} contains NaN or infinite entries.", key=what,
+        i, j = np.argwhere(~np.isfinite(s))[0]
+        raise OptionsError(f"{what} contains NaN or infinite entries (first at ({i + 1}, {j + 1}): "
+                           f"{s[i, j]}).", key=what,
                            fix="Drop or fill missing values before computing the window covariance.")
     n = s.shape[0]
     scale = max(float(np.max(np.abs(s))), np.finfo(float).tiny)
@@ -69,13 +89,85 @@ def check_cov(cov: Any, *, names: Sequence[str] | None, what: str = "cov",
     return s, names_t
 
 
-def correlation_scale(s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """``(R, d)`` with ``d = sqrt(diag(S))`` and ``R = S / (d d^T)``; zero variances keep scale 1."""
+def correlation_scale(s: np.ndarray, *, unit_diagonal: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """``(R, d)`` with ``d = sqrt(diag(S))`` and ``R = S / (d d^T)``; zero variances keep scale 1.
+
+    With ``unit_diagonal`` the diagonal of ``R`` is set to exactly 1 (it can
+    differ from 1 in the last bit otherwise).
+    """
     d = np.sqrt(np.diag(s))
     d = np.where(d > 0, d, 1.0)
     r = s / np.outer(d, d)
     r = 0.5 * (r + r.T)
+    if unit_diagonal:
+        np.fill_diagonal(r, 1.0)
     return r, d
+
+
+def check_positive_variances(s: np.ndarray, *, method: str) -> None:
+    """Raise :class:`DataError` when a variable of a valid covariance has zero variance.
+
+    A constant variable is a property of the data (one window can hold a
+    constant column), not a malformed argument, hence ``DataError``.
+    """
+    diag = np.diag(s)
+    if np.any(diag <= 0):
+        j = int(np.argmin(diag))
+        raise DataError(
+            f"variable {j + 1} has variance {diag[j]:.6g}; {method} needs every variance to be positive.",
+            key="cov", fix="drop constant variables from the dataset, or widen the window.")
+
+
+def check_psd(s: np.ndarray, *, what: str = "cov") -> None:
+    """Raise :class:`OptionsError` when ``S`` (positive diagonal) is not positive semidefinite.
+
+    Judged on the correlation scale, with a tolerance of ``1e-9 n`` on the
+    smallest eigenvalue. The covariance of the rows of one window always
+    passes; pairwise deletion of missing values can produce matrices that fail.
+    """
+    n = s.shape[0]
+    sd = np.sqrt(np.diag(s))
+    lam_min = float(np.linalg.eigvalsh(s / np.outer(sd, sd))[0])
+    if lam_min < -1e-9 * n:
+        raise OptionsError(
+            f"{what} is not positive semidefinite (smallest eigenvalue of its correlation matrix "
+            f"{lam_min:.3g}).", key=what,
+            fix="compute the covariance from the data rows of one window (pairwise deletion of "
+                "missing values can produce such matrices).")
+
+
+def check_fraction(value: Any, *, key: str, meaning: str) -> float:
+    """A number strictly between 0 and 1 (``OptionsError`` naming ``key`` otherwise)."""
+    try:
+        e = float(value)
+    except (TypeError, ValueError):
+        e = float("nan")
+    if not (math.isfinite(e) and 0.0 < e < 1.0):
+        raise OptionsError(f"{key} ({meaning}) must be a number in (0, 1); got {value!r}.", key=key,
+                           fix="use a small relative tolerance such as 1e-6 or 0.01.")
+    return e
+
+
+def check_whole(value: Any, *, key: str, minimum: int) -> int:
+    """A whole number (not a bool) ``>= minimum`` (``OptionsError`` naming ``key`` otherwise)."""
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
+        raise OptionsError(f"{key} must be a whole number >= {minimum}; got {value!r}.", key=key,
+                           fix=f"pass e.g. {key}={max(minimum, 8 if minimum else 0)}.")
+    return int(value)
+
+
+def variable_index(names: Sequence[str], var: int | str, *, key: str) -> int:
+    """Index of a variable given by name or by 0-based index (``OptionsError`` naming ``key`` otherwise)."""
+    if isinstance(var, (int, np.integer)) and not isinstance(var, bool):
+        i = int(var)
+        if not 0 <= i < len(names):
+            raise OptionsError(f"{key} index {i} is out of range for {len(names)} variables.", key=key,
+                               fix=f"Use an index from 0 to {len(names) - 1} or a variable name.")
+        return i
+    if isinstance(var, str) and var in names:
+        return list(names).index(var)
+    raise OptionsError(f"{key} {var!r} is not one of the variables ({', '.join(names)}).", key=key,
+                       fix="Use one of the listed variable names or its index.")
 
 
 def orthonormal_rows(basis: np.ndarray) -> np.ndarray:
@@ -126,24 +218,6 @@ def reduced_form(basis: np.ndarray, targets: Sequence[int]) -> tuple[np.ndarray,
     r = np.linalg.solve(block, a)
     r[:, list(targets)] = np.eye(len(targets))
     return r, cond
-
-
-def jsonable(x: Any) -> Any:
-    """Plain Python (lists, floats, ints, str, None) for JSON; NaN and infinities become None."""
-    if isinstance(x, np.ndarray):
-        return [jsonable(v) for v in x.tolist()] if x.ndim else jsonable(x.item())
-    if isinstance(x, (list, tuple)):
-        return [jsonable(v) for v in x]
-    if isinstance(x, dict):
-        return {str(k): jsonable(v) for k, v in x.items()}
-    if isinstance(x, (bool, np.bool_)):
-        return bool(x)
-    if isinstance(x, (int, np.integer)):
-        return int(x)
-    if isinstance(x, (float, np.floating)):
-        v = float(x)
-        return v if math.isfinite(v) else None
-    return x
 
 
 def check_names_len(names: Sequence[str] | None, n: int, *, key: str = "names") -> tuple[str, ...]:

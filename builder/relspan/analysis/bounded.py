@@ -40,7 +40,8 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import check_cov, correlation_scale, fix_signs, jsonable, orthonormal_rows
+from relspan.analysis._common import check_cov, correlation_scale, fix_signs, orthonormal_rows
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["BoundedNoise", "BoundedCorank", "NoiseTolerance", "bounded_noise", "tolerance_eps",
@@ -239,6 +240,14 @@ def bounded_noise(cov, *, names: Sequence[str], eps: float) -> BoundedNoise:
     ----------
     .. [1] H. Weyl, Mathematische Annalen 71, 441-479, 1912.
     .. [2] C. Davis and W. M. Kahan, SIAM J. Numer. Anal. 7(1), 1-46, 1970.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> bd = bounded_noise(S, names=["a", "b", "c"], eps=1.5)
+    >>> bd.admissible, bd.max_corank   # lambda_1 = 1.308 <= 1.5 < lambda_2 = 1.643
+    ((1,), 1)
     """
     s, names_t = check_cov(cov, names=names)
     if (isinstance(eps, bool) or not isinstance(eps, (int, float, np.floating, np.integer))

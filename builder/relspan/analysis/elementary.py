@@ -31,8 +31,9 @@ import pandas as pd
 import scipy.linalg as sla
 
 from relspan.analysis import _dd
-from relspan.analysis._common import (EPS, check_cov, correlation_scale, jsonable, orthonormal_rows,
-                                      pivot_columns, reduced_form)
+from relspan.analysis._common import (EPS, check_cov, correlation_scale, orthonormal_rows, pivot_columns,
+                                      reduced_form, variable_index)
+from relspan.analysis._export import jsonable
 from relspan.errors import IllConditionedWarning, OptionsError
 
 __all__ = ["ElementaryRegressions", "elementary_regressions", "choose_reference",
@@ -131,7 +132,7 @@ class ElementaryRegressions:
 
     def index(self, var: int | str) -> int:
         """Column index of a variable given by index or name."""
-        return _index(self.names, var, key="ref")
+        return variable_index(self.names, var, key="ref")
 
     def normalised(self, ref: int | str) -> np.ndarray:
         """The n relations normalised on ``ref``: row ``j`` is ``relations[j] / relations[j, ref]``.
@@ -184,19 +185,6 @@ class ElementaryRegressions:
                                             else self.residual_variance_unbiased)
         df["r_squared"] = self.r_squared
         return df
-
-
-def _index(names: Sequence[str], var: int | str, *, key: str) -> int:
-    if isinstance(var, (int, np.integer)) and not isinstance(var, bool):
-        i = int(var)
-        if not 0 <= i < len(names):
-            raise OptionsError(f"{key} index {i} is out of range for {len(names)} variables.", key=key,
-                               fix=f"Use an index from 0 to {len(names) - 1} or a variable name.")
-        return i
-    if isinstance(var, str) and var in names:
-        return list(names).index(var)
-    raise OptionsError(f"{key} {var!r} is not one of the variables ({', '.join(names)}).", key=key,
-                       fix="Use one of the listed variable names or its index.")
 
 
 def elementary_regressions(cov, *, names: Sequence[str], count: int | None = None,
@@ -259,6 +247,16 @@ def elementary_regressions(cov, *, names: Sequence[str], count: int | None = Non
            (iterative refinement).
     .. [3] T. Ogita, S. M. Rump and S. Oishi, "Accurate sum and dot product",
            SIAM J. Sci. Comput. 26(6), 1955-1988, 2005.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> er = elementary_regressions(S, names=["a", "b", "c"])
+    >>> np.round(er.coefficients[0], 3).tolist()   # a on b and c: a = 0.6 b + 0.2 c
+    [0.0, 0.6, 0.2]
+    >>> np.round(er.residual_variance, 3).tolist()   # 1 / P[j, j]
+    [2.6, 1.857, 1.625]
     """
     s, names_t = check_cov(cov, names=names)
     n = s.shape[0]

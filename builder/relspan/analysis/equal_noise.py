@@ -35,7 +35,8 @@ import numpy as np
 import pandas as pd
 import scipy.linalg as sla
 
-from relspan.analysis._common import check_cov, correlation_scale, fix_signs, jsonable, orthonormal_rows
+from relspan.analysis._common import check_cov, correlation_scale, fix_signs, orthonormal_rows
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["EqualNoise", "EqualNoiseCorank", "equal_noise"]
@@ -181,6 +182,16 @@ def equal_noise(cov, *, names: Sequence[str], shape=None, scale: str = "as given
     .. [2] G. H. Golub and C. F. Van Loan, SIAM J. Numer. Anal. 17(6), 883-893, 1980.
     .. [3] T. C. Koopmans, Linear Regression Analysis of Economic Time Series, 1937.
     .. [4] W. E. Deming, Statistical Adjustment of Data, Wiley, 1943.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> eq = equal_noise(S, names=["a", "b", "c"])
+    >>> np.round(eq.eigenvalues, 3).tolist()
+    [1.308, 1.643, 6.049]
+    >>> np.round(eq.coranks[0].basis, 3).tolist()   # the eigenvector of the smallest eigenvalue
+    [[-0.328, 0.737, -0.591]]
     """
     s, names_t = check_cov(cov, names=names)
     n = s.shape[0]

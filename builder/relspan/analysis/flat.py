@@ -28,7 +28,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import fix_signs, jsonable, orthonormal_rows
+from relspan.analysis._common import fix_signs, orthonormal_rows
+from relspan.analysis._export import jsonable
 from relspan.analysis.elementary import ElementaryRegressions
 from relspan.errors import OptionsError
 
@@ -151,6 +152,18 @@ def elementary_flat(er: ElementaryRegressions, *, q: int, ref: int | str,
     .. [1] R. Frisch, Statistical Confluence Analysis by Means of Complete
            Regression Systems, 1934.
     .. [2] C. Eckart and G. Young, Psychometrika 1(3), 211-218, 1936.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from relspan.analysis import elementary_regressions
+    >>> S = np.array([[4.0, 2.0, 1.0], [2.0, 3.0, 1.0], [1.0, 1.0, 2.0]])
+    >>> er = elementary_regressions(S, names=["a", "b", "c"])
+    >>> fl = elementary_flat(er, q=2, ref="a")
+    >>> fl.form, fl.point_names, np.round(fl.points[0], 3).tolist()
+    ('affine', ('b', 'c'), [-0.6, -0.2])
+    >>> round(fl.rms_distance, 3)
+    0.51
     """
     n = er.n
     if er.singular:

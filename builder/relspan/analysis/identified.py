@@ -33,7 +33,8 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import EPS, check_names_len, jsonable, orthonormal_rows, pivot_columns, reduced_form
+from relspan.analysis._common import EPS, check_names_len, orthonormal_rows, pivot_columns, reduced_form
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["Identified", "CoefficientStatus", "identified_quantities", "DEFAULT_ZERO_TOL"]
@@ -191,6 +192,15 @@ def identified_quantities(basis, *, names: Sequence[str], ref_vars: Sequence[int
     ----------
     .. [1] T. C. Koopmans and O. Reiersøl, Ann. Math. Statist. 21(2), 165-181, 1950.
     .. [2] P. Businger and G. H. Golub, Numer. Math. 7, 269-276, 1965.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> iq = identified_quantities(np.array([[1.0, -2.0, 0.5]]), names=["y", "x", "z"])
+    >>> iq.normalise_on, np.round(iq.reduced_form, 3).tolist()   # x = 0.5 y - 0.25 z
+    ('x', [[-0.5, 1.0, -0.25]])
+    >>> [(s.variable, s.kind) for s in iq.statuses if s.form == "normalised"]
+    [('y', 'point'), ('z', 'point')]
     """
     b = np.atleast_2d(np.asarray(basis, dtype=float))
     if b.ndim != 2 or b.shape[0] < 1 or not np.all(np.isfinite(b)):

@@ -28,13 +28,13 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Iterable, Sequence
+from typing import Iterable
 
 import numpy as np
 
 from relspan.analysis import _dd
 
-__all__ = ["Moments", "moments_of", "merge", "merge_all", "MomentTree", "batched_window_moments"]
+__all__ = ["Moments", "moments_of", "merge", "merge_all"]
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -130,6 +130,16 @@ def moments_of(x: np.ndarray) -> Moments:
     (so data far from zero need no shift) and the sums of products are
     accumulated in double-double (:func:`relspan.analysis._dd.exact_comoment`),
     which fills in ``mean_lo`` and ``comoment_lo``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> x = np.array([[1.0, 2.0], [2.0, 4.5], [3.0, 5.5], [4.0, 8.0]])
+    >>> m = moments_of(x)
+    >>> m.count, m.mean.tolist()
+    (4, [2.5, 5.0])
+    >>> np.round(m.comoment, 6).tolist()   # sums of products about the mean
+    [[5.0, 9.5], [9.5, 18.5]]
     """
     x = np.asarray(x, dtype=float)
     if x.ndim != 2:
@@ -146,6 +156,14 @@ def merge(a: Moments, b: Moments) -> Moments:
 
     ``mean = mean_a + delta * n_b / n`` and
     ``C = C_a + C_b + delta delta^T * n_a n_b / n`` with ``delta = mean_b - mean_a``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> x = np.array([[1.0, 2.0], [2.0, 4.5], [3.0, 5.5], [4.0, 8.0]])
+    >>> m = merge(moments_of(x[:1]), moments_of(x[1:]))
+    >>> m.count, m.mean.tolist(), np.round(m.comoment, 6).tolist()
+    (4, [2.5, 5.0], [[5.0, 9.5], [9.5, 18.5]])
     """
     if a.count == 0:
         return b
@@ -170,91 +188,3 @@ def merge_all(blocks: Iterable[Moments]) -> Moments:
             nxt.append(items[-1])
         items = nxt
     return items[0]
-
-
-class MomentTree:
-    """Segment tree over a sequence of block moments.
-
-    ``query(lo, hi)`` returns the merge of blocks ``lo .. hi-1`` using
-    O(log k) merges and no subtraction, so any window that is a run of whole
-    blocks is assembled exactly as accurately as a direct merge.
-    """
-
-    def __init__(self, blocks: Sequence[Moments]):
-        if not blocks:
-            raise ValueError("MomentTree needs at least one block")
-        self._k = len(blocks)
-        self._n = blocks[0].n
-        size = 1
-        while size < self._k:
-            size *= 2
-        self._size = size
-        self._tree: list[Moments] = [empty(self._n)] * (2 * size)
-        for i, b in enumerate(blocks):
-            self._tree[size + i] = b
-        for i in range(size - 1, 0, -1):
-            self._tree[i] = merge(self._tree[2 * i], self._tree[2 * i + 1])
-
-    def __len__(self) -> int:
-        return self._k
-
-    def query(self, lo: int, hi: int) -> Moments:
-        """Merge of blocks ``[lo, hi)`` in left-to-right order."""
-        if not 0 <= lo < hi <= self._k:
-            raise IndexError(f"block range [{lo}, {hi}) outside 0..{self._k}")
-        left = empty(self._n)
-        right = empty(self._n)
-        lo += self._size
-        hi += self._size
-        while lo < hi:
-            if lo & 1:
-                left = merge(left, self._tree[lo])
-                lo += 1
-            if hi & 1:
-                hi -= 1
-                right = merge(self._tree[hi], right)
-            lo //= 2
-            hi //= 2
-        return merge(left, right)
-
-
-def batched_window_moments(counts: np.ndarray, means: np.ndarray, comoments: np.ndarray,
-                           starts: np.ndarray, lengths: np.ndarray):
-    """Merge runs of consecutive blocks for many windows at once, vectorised.
-
-    Parameters
-    ----------
-    counts : (k,) int array; means : (k, n); comoments : (k, n, n)
-        Block statistics in order.
-    starts, lengths : (w,) int arrays
-        Window ``i`` is blocks ``starts[i] .. starts[i] + lengths[i] - 1``.
-
-    Returns
-    -------
-    counts (w,), means (w, n), comoments (w, n, n)
-        Each window merged left to right with the Chan-Golub-LeVeque update,
-        all windows advanced together (no subtraction).
-    """
-    counts = np.asarray(counts)
-    means = np.asarray(means, dtype=float)
-    comoments = np.asarray(comoments, dtype=float)
-    starts = np.asarray(starts, dtype=int)
-    lengths = np.asarray(lengths, dtype=int)
-    c = counts[starts].astype(float)
-    m = means[starts].copy()
-    cm = comoments[starts].copy()
-    for step in range(1, int(lengths.max(initial=1))):
-        active = lengths > step
-        if not active.any():
-            break
-        idx = starts[active] + step
-        cb = counts[idx].astype(float)
-        ca = c[active]
-        tot = ca + cb
-        delta = means[idx] - m[active]
-        w = np.where(tot > 0, cb / np.where(tot > 0, tot, 1), 0.0)
-        m[active] = m[active] + delta * w[:, None]
-        f = np.where(tot > 0, ca * cb / np.where(tot > 0, tot, 1), 0.0)
-        cm[active] = cm[active] + comoments[idx] + delta[:, :, None] * delta[:, None, :] * f[:, None, None]
-        c[active] = tot
-    return c.astype(np.int64), m, cm

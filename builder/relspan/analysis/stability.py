@@ -24,7 +24,8 @@ from typing import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
-from relspan.analysis._common import EPS, check_names_len, jsonable
+from relspan.analysis._common import EPS, check_names_len
+from relspan.analysis._export import jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "CoefficientSwing",
@@ -77,6 +78,14 @@ def principal_angles(a, b, *, layout: str = "rows") -> np.ndarray:
     ----------
     .. [1] Å. Björck and G. H. Golub, Math. Comp. 27(123), 579-594, 1973.
     .. [2] A. V. Knyazev and M. E. Argentati, SIAM J. Sci. Comput. 23(6), 2008-2040, 2002.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> a = np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 0.0]])   # the x-y plane (rows span it)
+    >>> b = np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 1.0]])
+    >>> np.round(principal_angles(a, b), 6).tolist()
+    [0.0, 45.0]
     """
     if layout not in ("rows", "columns"):
         raise OptionsError(f"layout must be 'rows' or 'columns'; got {layout!r}.", key="layout",
@@ -203,6 +212,15 @@ def subspace_stability(bases: Sequence, *, labels: Sequence[str], reference=None
     Returns
     -------
     SubspaceStability
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> a = np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 0.0]])
+    >>> b = np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 1.0]])
+    >>> st = subspace_stability([a, b, a], labels=["w1", "w2", "w3"], threshold_deg=10.0)
+    >>> st.stable, round(st.max_pairwise_deg, 6)
+    (False, 45.0)
     """
     mats = [np.atleast_2d(np.asarray(b, dtype=float)) for b in bases]
     if not mats:

@@ -31,6 +31,7 @@ import numpy as np
 from relspan.analysis.bounded import BoundedNoise, bounded_noise, tolerance_eps
 from relspan.analysis.elementary import ElementaryRegressions, choose_reference, elementary_regressions
 from relspan.analysis.equal_noise import EqualNoise, equal_noise
+from relspan.analysis.frisch import FrischResult, frisch_analysis
 from relspan.analysis.moments import Moments
 
 __all__ = ["WindowOptions", "WindowAnalysis", "analyse_window", "normalised_coefficients"]
@@ -99,8 +100,8 @@ class WindowAnalysis:
         Equal-noise (total least squares) and known-shape results, on the
         analysed scale; ``shaped`` is None without a noise shape.
     bounded : BoundedNoise or None
-    diagonal : object or None
-        :class:`relspan.analysis.frisch.FrischResult` when computed.
+    diagonal : FrischResult or None
+        The diagonal-noise (Frisch scheme) analysis when computed.
     coranks : mapping str -> int or None
         The corank each assumption supports in this window (None:
         undetermined at eps). ``elementary`` presupposes exactly one relation.
@@ -130,7 +131,7 @@ class WindowAnalysis:
     equal: EqualNoise | None
     shaped: EqualNoise | None
     bounded: BoundedNoise | None
-    diagonal: object | None
+    diagonal: FrischResult | None
     coranks: Mapping[str, int | None]
     bases: Mapping[str, Mapping[int, np.ndarray]]
     coefficients: Mapping[str, np.ndarray]
@@ -310,8 +311,6 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
     fr = None
     lower = upper = None
     if "diagonal" in options.assumptions:
-        from relspan.analysis.frisch import frisch_analysis
-
         fr = frisch_analysis(mat, names=names, eps=eps, starts=options.frisch_starts,
                              seed=options.seed, ref=None)
         coranks["diagonal"] = _frisch_corank(fr)
@@ -332,7 +331,7 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
     )
 
 
-def _frisch_corank(fr) -> int | None:
+def _frisch_corank(fr: FrischResult) -> int | None:
     """Largest certified corank, or None when a larger one is neither certified nor ruled out."""
     top = fr.corank.max_certified
     for cert in fr.corank.certificates:
@@ -341,7 +340,7 @@ def _frisch_corank(fr) -> int | None:
     return int(top)
 
 
-def _frisch_bounds(fr, ref: int, std: np.ndarray):
+def _frisch_bounds(fr: FrischResult, ref: int, std: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Frisch q = 1 intervals of the normalised coefficients b_k = -a_k (equation for ``ref``), data units."""
     n = len(fr.names)
     lower = np.full(n, np.nan)

@@ -6,7 +6,7 @@ the window plans need (see :class:`relspan.data.windows.Grid`). Each block is
 reduced once to its count, mean and co-moment matrix; a window is a run of
 whole blocks, merged without subtraction (Chan, Golub & LeVeque 1979) by a
 segment tree evaluated for many windows at once (:func:`assemble`), which
-gives the same numbers as :class:`relspan.analysis.moments.MomentTree`.
+gives the same numbers as the test oracle ``MomentTree`` (``tests/moment_oracles.py``).
 
 Because a block's rows are always reduced together (the rows of a block that
 is still open at the end of a chunk are carried into the next chunk), the

@@ -25,7 +25,7 @@ from relspan.analysis.moments import Moments
 from relspan.analysis.results import AnalysisRun, DatasetResult, PlanResult
 from relspan.analysis.stability import coefficient_swing, corank_sequence, subspace_stability
 from relspan.analysis.window import WindowAnalysis, WindowOptions, analyse_window, reference_index
-from relspan.errors import RelspanWarning
+from relspan.errors import OptionsError, RelspanWarning
 from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
 
 __all__ = ["run_analysis", "analyse_prepared", "LazyExecutor", "open_cache"]
@@ -119,15 +119,25 @@ def _window_options(ds: DatasetSpec, ref: int) -> WindowOptions:
     )
 
 
+# Analysis functions name their own parameters; the spec key each one comes from.
+_SPEC_KEYS = {"eps": "checks.tolerance", "starts": "checks.frisch_starts", "seed": "checks.seed",
+              "ref": "checks.normalise_on"}
+
+
 def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ...]]:
     """One window (top-level so process pools and Dask can pickle it)."""
     moments, names, options, common_std, label = item
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
-        result = analyse_window(moments, names=names, options=options, common_std=common_std,
-                                label=label)
-    raised = tuple(w.message for w in caught if isinstance(w.message, RelspanWarning))
-    return result, raised
+        try:
+            result = analyse_window(moments, names=names, options=options, common_std=common_std,
+                                    label=label)
+        except OptionsError as exc:
+            if exc.key not in _SPEC_KEYS:
+                raise
+            raise OptionsError(exc.message, key=_SPEC_KEYS[exc.key], fix=exc.fix) from exc
+    messages = tuple(str(w.message) for w in caught if issubclass(w.category, RelspanWarning))
+    return result, messages
 
 
 def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, ...], str]:

@@ -1,9 +1,14 @@
 """Window statistics for many windows at once, vectorised over the window axis.
 
+A reference implementation for the benchmarks (``bench_scale.py`` times it
+against statsmodels); the build does not use it: ``relspan.run`` analyses each
+window with the per-window functions of ``relspan.analysis``, whose numbers the
+site publishes. Tested in ``tests/benchmarks/test_batched.py``.
+
 Rolling and expanding plans give thousands of windows of a few variables each;
 looping over them in Python costs far more than the arithmetic. These pure
 functions take *stacks*: counts ``(w,)``, means ``(w, n)``, co-moments
-``(w, n, n)`` (as from :func:`relspan.analysis.moments.batched_window_moments`)
+``(w, n, n)`` (as from ``batched_window_moments`` in ``tests/moment_oracles.py``)
 and return stacked results, using numpy's batched LAPACK calls
 (``np.linalg.cholesky``, ``eigh`` on the whole stack) and loops over the
 matrix dimension, never over windows.
@@ -30,7 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .moments import moments_of
+from relspan.analysis.moments import moments_of
 
 __all__ = [
     "stacked_block_moments",
@@ -108,7 +113,7 @@ def merge_window_runs(counts: np.ndarray, means: np.ndarray, comoments: np.ndarr
     """Window moments as merges of runs of consecutive blocks, all windows at once.
 
     The same left-to-right Chan-Golub-LeVeque merges as
-    :func:`relspan.analysis.moments.batched_window_moments`, with the same
+    ``batched_window_moments`` (``tests/moment_oracles.py``), with the same
     result bit for bit, arranged for speed: windows are ordered by length so
     that the windows still growing at each step are a leading slice of the
     stack (views, updated in place, instead of masked copies).

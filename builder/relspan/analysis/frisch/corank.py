@@ -1,0 +1,334 @@
+"""The largest corank under diagonal noise: existence and impossibility certificates.
+
+Certificates (on the correlation scale):
+
+* Existence of corank ``q`` within ``eps``: ``d >= 0`` and ``R - D - E`` PSD
+  with ``q`` zero eigenvalues, where ``E`` collects the ``q`` smallest
+  eigen-pairs of ``R - D`` (and any negative ones); ``||E||_2 <= eps``.
+* Impossibility: with ``r_j(eps) = 1/inv(R + eps I)[j, j]``, every ``d``
+  admitted above satisfies ``d <= r(eps)``, hence
+  ``lambda_q(R - diag r(eps)) <= eps``; a larger value rules corank ``q`` out.
+
+Ledermann's bound says which coranks can arise from sampling alone.
+
+References
+----------
+.. [1] A. Shapiro, "Rank-reducibility of a symmetric matrix and sampling
+       theory of minimum trace factor analysis", Psychometrika 47(2),
+       187-199, 1982.
+.. [2] J. M. F. ten Berge and H. A. L. Kiers, "A numerical approach to the
+       approximate and the exact minimum rank of a covariance matrix",
+       Psychometrika 56(2), 309-315, 1991.
+.. [3] A. Shapiro and J. M. F. ten Berge, "Statistical inference of minimum
+       rank factor analysis", Psychometrika 67(1), 79-94, 2002.
+.. [4] W. Ledermann, "On the rank of the reduced correlational matrix in
+       multiple-factor analysis", Psychometrika 2(2), 85-93, 1937.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any, Sequence
+
+import numpy as np
+
+from relspan.analysis._common import check_fraction, check_whole
+from relspan.analysis._export import fields_dict, frame
+from relspan.analysis.frisch._base import correlation, frisch_cov
+from relspan.analysis.frisch.minrank import _certify, _relations_back, _Searcher
+from relspan.analysis.frisch.mintrace import MinimumTrace, _barrier_trace
+
+__all__ = ["CorankCertificate", "FrischCorank", "ledermann_corank", "frisch_max_corank"]
+
+
+def ledermann_corank(n: int) -> int:
+    """Largest corank a generic covariance of ``n`` variables can have exactly.
+
+    Ledermann's bound ``phi(n) = (2n + 1 - sqrt(8n + 1)) / 2``: matrices
+    whose minimum rank is below ``phi(n)`` have measure zero (Shapiro 1982),
+    so an exact corank above ``n - ceil(phi(n))`` has probability zero for a
+    sample covariance, while coranks up to it can occur without any true
+    relation.
+
+    References
+    ----------
+    .. [1] W. Ledermann, "On the rank of the reduced correlational matrix in
+           multiple-factor analysis", Psychometrika 2(2), 1937.
+    .. [2] A. Shapiro, Psychometrika 47(2), 1982.
+    """
+    phi = (2 * n + 1 - math.sqrt(8 * n + 1)) / 2
+    return int(n - math.ceil(phi - 1e-12))
+
+
+@dataclass(frozen=True, slots=True)
+class CorankCertificate:
+    """Evidence on one corank ``q`` under diagonal noise, at tolerance ``eps``.
+
+    All eigenvalues, ``eps`` and ``e_norm`` are on the correlation scale.
+
+    Attributes
+    ----------
+    q : int
+        The corank.
+    status : str
+        ``"certified"`` (existence certificate found), ``"ruled out"``
+        (impossibility certificate holds) or ``"undetermined"`` (neither at
+        this ``eps``).
+    noise_variances : tuple of float or None
+        The certifying ``d`` on the covariance scale (None unless certified).
+    noise_share : tuple of float or None
+        The same as a share of each variable's variance (``d_j / s_jj``).
+    eigenvalues : tuple of float or None
+        All eigenvalues of ``R - D`` (ascending) for the certifying ``D``.
+    e_norm : float or None
+        ``||E||_2``: the largest of ``|lambda_1..q|`` and any negative eigenvalue.
+    relations : (q, n) ndarray or None
+        Orthonormal rows spanning the relations on the covariance scale.
+    bound_share : tuple of float
+        ``r_j(eps) = 1/inv(R + eps I)[j, j]``: the largest admissible noise
+        share of each variable at this ``eps``.
+    bound_eigenvalue : float
+        ``lambda_q(R - diag r(eps))``; above ``eps`` it rules corank ``q`` out.
+    found_by : str
+        How the certificate was found (``"minimum trace"``, ``"start 3"``, ...)
+        or why the search was not run.
+    iterations : int
+        Minimum-rank iterations spent on this ``q`` (all starts).
+    """
+
+    q: int
+    status: str
+    noise_variances: tuple[float, ...] | None
+    noise_share: tuple[float, ...] | None
+    eigenvalues: tuple[float, ...] | None
+    e_norm: float | None
+    relations: np.ndarray | None
+    bound_share: tuple[float, ...]
+    bound_eigenvalue: float
+    found_by: str
+    iterations: int
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready dict with sorted keys."""
+        return fields_dict(self)
+
+
+@dataclass(frozen=True, slots=True)
+class FrischCorank:
+    """How many relations diagonal noise allows, with certificates for each corank.
+
+    Attributes
+    ----------
+    names : tuple of str
+        Variable names.
+    eps : float
+        Tolerance on the correlation scale.
+    starts : int
+        Starts of the minimum-rank search (minimum trace plus random ones).
+    seed : int
+        Seed of the random starts (``numpy.random.default_rng(seed)``).
+    certificates : tuple of CorankCertificate
+        One per ``q = 1 .. n-1``.
+    max_certified : int
+        Largest certified corank (0 when none).
+    min_ruled_out : int or None
+        Smallest ruled-out corank (None when none is ruled out).
+    ledermann : int
+        :func:`ledermann_corank` of ``n``: coranks up to it can arise from
+        sampling alone; exact coranks above it cannot.
+    min_trace : MinimumTrace
+        The minimum-trace solution (covariance scale) used as the first start.
+    summary : str
+        Plain-language summary.
+    """
+
+    names: tuple[str, ...]
+    eps: float
+    starts: int
+    seed: int
+    certificates: tuple[CorankCertificate, ...]
+    max_certified: int
+    min_ruled_out: int | None
+    ledermann: int
+    min_trace: MinimumTrace
+    summary: str
+
+    def certificate(self, q: int) -> CorankCertificate:
+        """The certificate for corank ``q``."""
+        for c in self.certificates:
+            if c.q == q:
+                return c
+        raise KeyError(f"no corank {q}: coranks run from 1 to {len(self.names) - 1}")
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready dict with sorted keys."""
+        return fields_dict(self)
+
+    def to_frame(self):
+        """One row per corank: ``q, status, e_norm, bound_eigenvalue, found_by``."""
+        rows = [{"q": c.q, "status": c.status, "e_norm": c.e_norm,
+                 "bound_eigenvalue": c.bound_eigenvalue, "found_by": c.found_by}
+                for c in self.certificates]
+        return frame(rows, columns=["q", "status", "e_norm", "bound_eigenvalue", "found_by"])
+
+
+def _impossibility(r: np.ndarray, eps: float) -> tuple[np.ndarray, np.ndarray]:
+    n = r.shape[0]
+    rb = 1.0 / np.diag(np.linalg.inv(r + eps * np.eye(n)))
+    lam = np.linalg.eigvalsh(r - np.diag(rb))
+    return rb, lam
+
+
+# TODO(architecture): reader-facing prose; report/pages.py renders FrischCorank.summary
+# and results.json carries it: it moves to analysis/findings with those files, not in this refactor.
+def _corank_summary(certs: Sequence[CorankCertificate], eps: float, n: int, led: int) -> str:
+    best = max((c.q for c in certs if c.status == "certified"), default=0)
+    ruled = [c.q for c in certs if c.status == "ruled out"]
+    und = [c.q for c in certs if c.status == "undetermined"]
+    parts = []
+    if best:
+        parts.append(f"Under independent noise of unknown variances (Frisch scheme), up to {best} "
+                     f"exact linear relation{'s' if best > 1 else ''} fit these {n} variables "
+                     f"within tolerance {eps:g}.")
+    else:
+        parts.append(f"Under independent noise of unknown variances (Frisch scheme), no exact "
+                     f"linear relation could be shown to fit these {n} variables within "
+                     f"tolerance {eps:g}.")
+    if ruled:
+        parts.append(f"{min(ruled)} or more relations are ruled out.")
+    if und:
+        parts.append("Undetermined at this tolerance: corank " + ", ".join(str(q) for q in und) + ".")
+    if best and best <= led:
+        parts.append(f"Caution: with {n} variables, up to {led} such relations can appear from "
+                     "sampling noise alone (Ledermann's bound), so this count is not by itself "
+                     "evidence of real relations.")
+    return " ".join(parts)
+
+
+def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: float,
+                      starts: int = 8, seed: int = 0, max_iter: int = 25) -> FrischCorank:
+    """The largest corank compatible with diagonal noise, with certificates.
+
+    On the correlation scale, minimum-trace factor analysis (our interior
+    point solver, :func:`minimum_trace`) gives a first noise estimate; for
+    each corank ``q`` not settled by it, minimum-rank factor analysis
+    minimises the sum of the ``q`` smallest eigenvalues of ``R - D`` by the
+    ten Berge & Kiers sequence of weighted trace problems, from the
+    minimum-trace solution and ``starts - 1`` random feasible starts.
+    Each ``q`` then gets an existence certificate, an impossibility
+    certificate, or "undetermined" (see the module docstring).
+
+    Parameters
+    ----------
+    cov : (n, n) array_like
+        Sample covariance.
+    names : sequence of str, optional
+        Variable names.
+    eps : float
+        Tolerance in (0, 1), relative to each variable's variance.
+    starts : int
+        Number of starts for the minimum-rank search (>= 1).
+    seed : int
+        Seed for the random starts.
+    max_iter : int
+        Iteration cap per start.
+
+    Returns
+    -------
+    FrischCorank
+
+    Notes
+    -----
+    Coranks are nested (a corank-q solution is a corank-(q-1) one), so the
+    search stops at the first ``q`` it cannot certify; larger coranks are
+    then "undetermined" unless their impossibility certificate holds.
+
+    References
+    ----------
+    .. [1] A. Shapiro, Psychometrika 47(2), 1982; G. Della Riccia and
+           A. Shapiro, Psychometrika 47(4), 1982 (minimum trace).
+    .. [2] J. M. F. ten Berge and H. A. L. Kiers, "A numerical approach to the
+           approximate and the exact minimum rank of a covariance matrix",
+           Psychometrika 56(2), 1991.
+    .. [3] A. Shapiro and J. M. F. ten Berge, "Statistical inference of
+           minimum rank factor analysis", Psychometrika 67(1), 2002.
+    .. [4] L. Ning, T. T. Georgiou, A. Tannenbaum and S. P. Boyd, "Linear
+           models based on noisy data and the Frisch scheme", SIAM Review
+           57(2), 2015.
+    .. [5] W. Ledermann, Psychometrika 2(2), 1937.
+    """
+    s, nm = frisch_cov(cov, names)
+    n = s.shape[0]
+    eps = check_fraction(eps, key="eps", meaning="the tolerance on the correlation scale")
+    starts = check_whole(starts, key="starts", minimum=1)
+    seed = check_whole(seed, key="seed", minimum=0)
+    r, sd = correlation(s)
+    search = _Searcher(r, eps)
+    rng = np.random.default_rng(seed)
+    d_mt, gap, steps = _barrier_trace(search.rb, np.ones(n), gap_tol=search.gap)
+    # Minimum trace on the correlation scale: max sum_j d_j / s_jj on the covariance scale.
+    mt = MinimumTrace(d_mt * sd ** 2, 1.0 / sd ** 2, float(np.sum(d_mt)), gap,
+                      float(np.linalg.eigvalsh(s - np.diag(d_mt * sd ** 2))[0]), steps)
+    rand_starts = search.random_starts(rng, starts - 1)
+    bound_share, bound_lam = _impossibility(r, eps)
+    certs: list[CorankCertificate] = []
+    best_d: np.ndarray | None = d_mt
+    best_label = "minimum trace"
+    stopped_at: int | None = None
+    for q in range(1, n):
+        ruled = bool(bound_lam[q - 1] > eps)
+        found = None
+        label = "not searched"
+        iters = 0
+        if not ruled:
+            if best_d is not None:
+                ok, lam, en = _certify(r, best_d, q, eps)
+                if ok:
+                    found = (best_d, lam, en)
+                    label = best_label
+            if found is None and stopped_at is None:
+                # The best point so far alone first (usually enough when a true
+                # structure is there), then all random starts in lockstep.
+                first_label = best_label if best_d is not None else "minimum trace"
+                first = d_mt if best_d is None else best_d
+                batches = [([first_label], first[None, :])]
+                if starts > 1:
+                    batches.append(([f"start {i + 2}" for i in range(starts - 1)], rand_starts))
+                labels = [first_label] + batches[-1][0] if starts > 1 else [first_label]
+                for labs, d0 in batches:
+                    d1s, it = search.descend(q, d0, max_iter=max_iter, stop_on_first=True)
+                    iters += it
+                    for lab, d1 in zip(labs, d1s):
+                        ok, lam, en = _certify(r, d1, q, eps)
+                        if ok:
+                            found = (d1, lam, en)
+                            label = lab if lab.startswith("start") else f"{lab}, refined"
+                            best_d, best_label = d1, label
+                            break
+                    if found is not None:
+                        break
+                if found is None:
+                    stopped_at = q
+                    label = f"searched from {len(labels)} starts without success"
+            elif found is None:
+                label = f"not searched: corank {stopped_at} was not found"
+        else:
+            label = "impossibility certificate"
+        if found is not None:
+            d1, lam, en = found
+            _, vec = np.linalg.eigh(r - np.diag(d1))
+            certs.append(CorankCertificate(
+                q, "certified", tuple(float(v) for v in d1 * sd ** 2), tuple(float(v) for v in d1),
+                tuple(float(v) for v in lam), en, _relations_back(vec[:, :q], sd),
+                tuple(float(v) for v in bound_share), float(bound_lam[q - 1]), label, iters))
+        else:
+            certs.append(CorankCertificate(
+                q, "ruled out" if ruled else "undetermined", None, None, None, None, None,
+                tuple(float(v) for v in bound_share), float(bound_lam[q - 1]), label, iters))
+    best = max((c.q for c in certs if c.status == "certified"), default=0)
+    ruled_qs = [c.q for c in certs if c.status == "ruled out"]
+    led = ledermann_corank(n)
+    return FrischCorank(nm, eps, starts, seed, tuple(certs), best,
+                        min(ruled_qs) if ruled_qs else None, led, mt,
+                        _corank_summary(certs, eps, n, led))
