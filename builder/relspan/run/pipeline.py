@@ -136,8 +136,8 @@ def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ..
             if exc.key not in _SPEC_KEYS:
                 raise
             raise OptionsError(exc.message, key=_SPEC_KEYS[exc.key], fix=exc.fix) from exc
-    messages = tuple(str(w.message) for w in caught if issubclass(w.category, RelspanWarning))
-    return result, messages
+    raised = tuple(w.message for w in caught if isinstance(w.message, RelspanWarning))
+    return result, raised
 
 
 def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, ...], str]:
