@@ -372,3 +372,18 @@ def test_downloads_page_links_every_dataset_table_csv(site):
     for r in run.datasets:
         for csv in sorted((out / "data" / r.spec.id / "tables").glob("*.csv")):
             assert f"data/{r.spec.id}/tables/{csv.name}" in page, csv.name
+
+
+def test_pages_statements_come_built_from_the_pipeline_with_what_they_rest_on(site):
+    from relspan.assumptions import ASSUMPTION_IDS
+
+    _, run = site
+    for r in run.datasets:
+        sm = r.summary
+        assert sm.pinned.tolerance.eps == r.full.eps and sm.pinned.tolerance.scale == r.full.scale
+        assert [row.assumption for row in sm.rows] == [a for a in ASSUMPTION_IDS if a in r.full.coranks]
+        for plan in r.plans:
+            assert len(sm.windows[plan.plan.id]) == len(plan.analyses) == len(plan.flats)
+        stated = {(f.kind, f.topic) for card in sm.cards.values() for f in card}
+        assert ("pinned_down", "corank") not in stated  # the pinned sentence states the corank itself
+        assert all(f.assumptions or f.kind == "not_identified" or f.topic == "corank" for f in r.findings)
