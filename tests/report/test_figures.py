@@ -21,7 +21,8 @@ from relspan.report import (
     data_overview, elementary_map, frisch_intervals, render_figure, subspace_stability, table_csv,
     window_gallery,
 )
-from relspan.report.figure_base import PALETTE, SEQUENTIAL, angle_text, num, styles_for
+from relspan.report.figures.style import PALETTE, SEQUENTIAL, styles_for
+from relspan.words import angle_text, num
 
 sys.path.insert(0, str(Path(__file__).parent))
 import figure_inputs as fi  # noqa: E402

@@ -323,30 +323,26 @@ def test_methods_page_formulas_are_local_images_with_alt_text(site):
 # ---------------------------------------------------------------------------------- home and pages
 
 def test_home_first_screen_says_what_each_dataset_pins_down_and_leaves_open(site):
-    from relspan.report.pages import plain_summary
-
     out, run = site
     main = _main(_read(out, "index.html"))
     first = _text(main[:main.index("<h2")])  # before the first section heading
     for r in run.datasets:
-        sm = plain_summary(r)
+        sm = r.summary
         assert r.spec.title in first
-        assert f"Pinned down: {sm.pinned_short}." in first, r.spec.id
-        assert f"Left open: {sm.open_short}." in first, r.spec.id
+        assert f"Pinned down: {sm.pinned.short}." in first, r.spec.id
+        assert f"Left open: {sm.open.short}." in first, r.spec.id
 
 
 def test_home_cards_carry_each_dataset_pinned_and_open_findings_with_evidence(site):
-    from relspan.report.pages import plain_summary
-
     out, run = site
     main = _main(_read(out, "index.html"))
     for r in run.datasets:
-        sm = plain_summary(r)
+        sm = r.summary
         section = main[main.index(f'id="ds-{r.spec.id}"'):]
         pinned = section[section.index("card-pinned"):section.index("card-open")]
         opened = section[section.index("card-open"):section.index("card-depends")]
-        assert sm.pinned in _text(pinned) and f"datasets/{r.spec.id}/index.html#" in pinned
-        assert sm.open in _text(opened) and f"datasets/{r.spec.id}/index.html#" in opened
+        assert sm.pinned.text in _text(pinned) and f"datasets/{r.spec.id}/index.html#" in pinned
+        assert sm.open.text in _text(opened) and f"datasets/{r.spec.id}/index.html#" in opened
 
 
 def test_window_pages_link_their_previous_and_next_window(site):
@@ -383,3 +379,18 @@ def test_downloads_page_links_every_dataset_table_csv(site):
     for r in run.datasets:
         for csv in sorted((out / "data" / r.spec.id / "tables").glob("*.csv")):
             assert f"data/{r.spec.id}/tables/{csv.name}" in page, csv.name
+
+
+def test_pages_statements_come_built_from_the_pipeline_with_what_they_rest_on(site):
+    from relspan.assumptions import ASSUMPTION_IDS
+
+    _, run = site
+    for r in run.datasets:
+        sm = r.summary
+        assert sm.pinned.tolerance.eps == r.full.eps and sm.pinned.tolerance.scale == r.full.scale
+        assert [row.assumption for row in sm.rows] == [a for a in ASSUMPTION_IDS if a in r.full.coranks]
+        for plan in r.plans:
+            assert len(sm.windows[plan.plan.id]) == len(plan.analyses) == len(plan.flats)
+        stated = {(f.kind, f.topic) for card in sm.cards.values() for f in card}
+        assert ("pinned_down", "corank") not in stated  # the pinned sentence states the corank itself
+        assert all(f.assumptions or f.kind == "not_identified" or f.topic == "corank" for f in r.findings)

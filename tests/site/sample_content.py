@@ -15,7 +15,7 @@ import json
 from relspan.site import blocks
 from relspan.site.content import NavItem, Page, SiteContent, SiteFile
 from relspan.site.formulas import formula_image
-from relspan.site.markdown import escape_cell, escape_text
+from relspan.site.markdown import Raw, escape_cell, escape_text
 
 #: Hostile user text: every line must render literally and execute nothing.
 EVIL_TITLE = ('Fish & "Chips" <script>window.__relspanInjected=1</script> '
@@ -44,7 +44,7 @@ def _table(columns: list[str], rows: list[list[str]]) -> str:
     head = "| " + " | ".join(escape_cell(c) for c in columns) + " |"
     rule = "|" + "|".join(["---"] * len(columns)) + "|"
     body = ["| " + " | ".join(escape_cell(v) for v in row) + " |" for row in rows]
-    return "\n".join([head, rule, *body]) + "\n"
+    return Raw("\n".join([head, rule, *body]) + "\n")
 
 
 def _window_path(dataset: str, i: int) -> str:
@@ -64,22 +64,22 @@ def build_sample_content(n_windows: int = 3) -> SiteContent:
         path="index.html", title=SITE_TITLE, section="home",
         description=f"What the invented data pin down. {EVIL_TITLE}",
         body_markdown=(
-            f"{escape_text(EVIL_TITLE)}\n\n{escape_text(EVIL_UNICODE)}\n"
+            Raw(f"{escape_text(EVIL_TITLE)}\n\n{escape_text(EVIL_UNICODE)}\n")
             + blocks.cards(
                 blocks.card("pinned", EVIL_TITLE,
-                            "Two relations hold. See [the trio](/datasets/trio/index.html)."),
+                            Raw("Two relations hold. See [the trio](/datasets/trio/index.html).")),
                 blocks.card("open", EVIL_UNICODE, "The third direction is left open."),
                 blocks.card("depends", "Noise shape",
                             "The corank depends on the noise assumption."),
                 blocks.card("unstable", EVIL_LABEL,
-                            "Coefficients move across windows; [read the caution first]"
-                            "(/caution.html)."))
+                            Raw("Coefficients move across windows; [read the caution first]"
+                                "(/caution.html).")))
             + blocks.figure("/figures/trio/map.svg", f"Two lines rising; {EVIL_TITLE}",
-                            f"Figure 1: {escape_text(EVIL_LABEL)}",
+                            Raw(f"Figure 1: {escape_text(EVIL_LABEL)}"),
                             long_description_markdown="The solid line rises from 0 to 14; "
                                                       "the dashed one from 1 to 11.",
                             width=320, height=160)
-            + "\n## Status\n\nClaim checked: " + blocks.badge("holds") + "\n"))
+            + Raw("\n## Status\n\nClaim checked: ") + blocks.badge("holds") + Raw("\n")))
 
     datasets = Page(
         path="datasets/index.html", title="Datasets", section="dataset",
@@ -95,19 +95,19 @@ def build_sample_content(n_windows: int = 3) -> SiteContent:
         breadcrumbs=(home_crumb, ds_crumb),
         description="Invented three-series dataset.",
         body_markdown=(
-            "## Overview\n\n"
-            f"Summary: {escape_text(EVIL_TITLE)} {escape_text(EVIL_LABEL)}[^src]\n\n"
-            + blocks.callout("Single coefficients can mislead; [read why](/caution.html#why).")
-            + "## Results side by side\n\n"
+            Raw("## Overview\n\n"
+                f"Summary: {escape_text(EVIL_TITLE)} {escape_text(EVIL_LABEL)}[^src]\n\n")
+            + blocks.callout(Raw("Single coefficients can mislead; [read why](/caution.html#why)."))
+            + Raw("## Results side by side\n\n")
             + _table(["Assumption", EVIL_COLUMN, EVIL_UNICODE],
                      [["equal", "0.50", EVIL_LABEL], ["diagonal", "[0.4, 0.6]", EVIL_TITLE]])
-            + "\n## Formula\n\nThe noise-free part is " + formula.markdown + ".\n\n"
-            "## Windows\n\n" + window_list + "\n\n"
-            "## Ünïcødé heading\n\nFirst.\n\n## Ünïcødé heading\n\nSecond (same words).\n\n"
-            + blocks.details("All numbers", "Download [the CSV](/downloads/trio/results.csv) "
-                                            "or [the JSON](/downloads/trio/results.json).")
-            + "\nBack to [the overview](#overview) or [the top](/datasets/trio/index.html).\n\n"
-            "[^src]: Invented for the tests.\n"))
+            + Raw("\n## Formula\n\nThe noise-free part is " + formula.markdown + ".\n\n"
+                  "## Windows\n\n" + window_list + "\n\n"
+                  "## Ünïcødé heading\n\nFirst.\n\n## Ünïcødé heading\n\nSecond (same words).\n\n")
+            + blocks.details("All numbers", Raw("Download [the CSV](/downloads/trio/results.csv) "
+                                                "or [the JSON](/downloads/trio/results.json)."))
+            + Raw("\nBack to [the overview](#overview) or [the top](/datasets/trio/index.html).\n\n"
+                  "[^src]: Invented for the tests.\n")))
 
     window_pages = []
     for i, title in enumerate(windows, start=1):
@@ -116,11 +116,11 @@ def build_sample_content(n_windows: int = 3) -> SiteContent:
         window_pages.append(Page(
             path=_window_path("trio", i), title=title, section="window",
             breadcrumbs=(home_crumb, ds_crumb, trio_crumb), prev=prev, next=nxt,
-            body_markdown=(f"## In this window\n\n{escape_text(EVIL_LABEL)}\n\n"
+            body_markdown=(Raw(f"## In this window\n\n{escape_text(EVIL_LABEL)}\n\n")
                            + blocks.figure("/figures/trio/map.svg", "Two lines rising",
                                            "Same figure, window view.", width=320, height=160)
-                           + "\nSee [the results table](/datasets/trio/index.html"
-                             "#results-side-by-side).\n")))
+                           + Raw("\nSee [the results table](/datasets/trio/index.html"
+                                 "#results-side-by-side).\n"))))
 
     zweite = Page(
         path="datasets/zweite-reihe/index.html", title=EVIL_UNICODE, section="dataset",
@@ -131,8 +131,8 @@ def build_sample_content(n_windows: int = 3) -> SiteContent:
         path="claims.html", title="Claims", section="claims", breadcrumbs=(home_crumb,),
         body_markdown=(_table(["Claim", "Verdict"],
                               [[EVIL_TITLE, "holds"], [EVIL_UNICODE, "fails"]])
-                       + "\nVerdicts: " + blocks.badge("holds") + " " + blocks.badge("fails")
-                       + " " + blocks.badge("warning") + "\n"))
+                       + Raw("\nVerdicts: ") + blocks.badge("holds") + Raw(" ") + blocks.badge("fails")
+                       + Raw(" ") + blocks.badge("warning") + Raw("\n")))
     caution = Page(
         path="caution.html", title="Reading single coefficients", section="caution",
         breadcrumbs=(home_crumb,),

@@ -131,3 +131,33 @@ class TestRenderMarkdown:
     def test_escape_text_rejects_non_text(self, bad):
         with pytest.raises(TypeError, match="expects str"):
             escape_text(bad)
+
+
+# ------------------------------------------------------------------ escaping by default (Raw)
+
+def test_composed_plain_text_is_escaped_and_only_raw_passes_through():
+    from relspan.site.markdown import Raw, bullets, link, md, table
+
+    hostile = "<script>x</script> *b* [l](u) | p"
+    out = md("**{}** and {}", hostile, Raw("*kept*"))
+    assert "<script>" not in out and "&lt;script&gt;" in out and "*kept*" in out
+    assert render_markdown(out).html.count("<em>") == 1  # only the Raw emphasis
+    assert "<script>" not in table(("h",), [(hostile,)]) and "\\|" in table(("h",), [(hostile,)])
+    assert "<script>" not in bullets([hostile]) and "<script>" not in link(hostile, "/a.html")
+
+
+def test_raw_markdown_refuses_to_join_plain_text():
+    from relspan.site.markdown import Raw
+
+    assert isinstance(Raw("a") + Raw("b"), Raw)
+    with pytest.raises(TypeError, match="only be joined with Raw"):
+        Raw("a") + "<b>"
+    with pytest.raises(TypeError, match="only be joined with Raw"):
+        "<b>" + Raw("a")
+
+
+def test_blocks_escape_a_plain_text_body():
+    from relspan.site import blocks
+    from relspan.site.markdown import Raw
+
+    assert "&lt;i&gt;" in blocks.callout("<i>x</i>") and "<i>x</i>" in blocks.callout(Raw("<i>x</i>"))

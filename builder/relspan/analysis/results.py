@@ -11,12 +11,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from relspan.analysis._common import jsonable
+from relspan.analysis.findings.records import DatasetSummary, Finding
 from relspan.analysis.stability import CorankSequence
 from relspan.analysis.window import WindowAnalysis
 from relspan.errors import RelspanWarning
 from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
 
-__all__ = ["PlanResult", "DatasetResult", "AnalysisRun"]
+__all__ = ["PlanResult", "DatasetResult", "AnalysisRun", "jsonable"]
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -37,6 +39,10 @@ class PlanResult:
         Normalised coefficients of the reference relation across windows.
     coranks : CorankSequence
         The corank per window under each assumption.
+    flats : tuple of mapping int -> ElementaryFlat
+        Per window, the flat of its elementary regressions for each examined
+        corank (:func:`relspan.analysis.flat.elementary_flat`; empty when the
+        window's covariance is singular). The maps draw these.
     """
 
     plan: WindowPlanSpec
@@ -45,6 +51,7 @@ class PlanResult:
     stability: dict
     swings: dict
     coranks: CorankSequence
+    flats: tuple
 
     @property
     def labels(self) -> tuple[str, ...]:
@@ -68,8 +75,11 @@ class DatasetResult:
         The coranks examined (from the spec, or chosen from the evidence).
     examined_from : str
         How ``examined`` was chosen, in words.
-    findings : tuple
-        :class:`relspan.analysis.findings.Finding` statements for the report.
+    findings : tuple of Finding
+        The findings (:func:`relspan.analysis.findings.dataset_findings`).
+    summary : DatasetSummary
+        The plain summary and the statements of each page section
+        (:func:`relspan.analysis.findings.dataset_summary`).
     identified : mapping int -> object
         :class:`relspan.analysis.identified.Identified` per examined corank.
     flat : mapping int -> object
@@ -86,7 +96,8 @@ class DatasetResult:
     plans: tuple[PlanResult, ...]
     examined: tuple[int, ...]
     examined_from: str
-    findings: tuple
+    findings: tuple[Finding, ...]
+    summary: DatasetSummary
     identified: dict
     flat: dict
     threshold_deg: float

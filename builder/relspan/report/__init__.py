@@ -7,7 +7,7 @@ from relspan.report.figures import (
 )
 
 __all__ = [
-    # figures (builder/relspan/report/figures*.py)
+    # figures (builder/relspan/report/figures/)
     "FigureResult", "render_figure", "table_csv", "ElementaryMapData", "data_overview",
     "elementary_map", "window_gallery", "subspace_stability", "coefficient_swing",
     "corank_evidence", "corank_timeline", "frisch_intervals",

@@ -11,6 +11,8 @@ import numpy as np
 import pandas as pd
 
 from relspan import __version__
+from relspan.analysis.results import jsonable
+from relspan.assumptions import ASSUMPTION_IDS
 from relspan.report import pages as P
 from relspan.site.content import NavItem, Page, SiteContent
 
@@ -32,8 +34,6 @@ def _csv(df: pd.DataFrame) -> bytes:
 
 def dataset_document(result) -> dict:
     """Everything computed for one dataset (data/<id>/results.json; layout: docs/results.md)."""
-    from relspan.analysis._common import jsonable
-
     plans = []
     for plan in result.plans:
         plans.append({
@@ -82,7 +82,7 @@ def results_document(run) -> dict:
 def _assumptions_csv(result) -> bytes:
     full = result.full
     rows = []
-    for a in P.ORDER:
+    for a in ASSUMPTION_IDS:
         if a not in full.coranks:
             continue
         row = {"assumption": a, "corank": full.coranks[a], "normalise_on": full.names[full.ref]}
@@ -106,7 +106,7 @@ def _windows_csv(result) -> bytes:
             for lab, ang in zip(plan.labels, s.to_reference_deg):
                 angles[(lab, a, q)] = ang
         for an, w in zip(plan.analyses, plan.windows):
-            for a in P.ORDER:
+            for a in ASSUMPTION_IDS:
                 if a not in an.coranks:
                     continue
                 row = {"plan": plan.plan.id, "window": an.label, "rows": w.rows,

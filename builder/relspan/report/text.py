@@ -2,12 +2,15 @@
 
 Two registers on every page: the plain summary first, the technical detail
 below it. Nothing here depends on the data; pages that quote numbers build
-their text in :mod:`relspan.report.pages`.
+their text from :mod:`relspan.analysis.findings`. Text here is Markdown
+written by relspan (:class:`~relspan.site.markdown.Raw` where it is composed
+into a page as is).
 """
 
 from __future__ import annotations
 
 from relspan.assumptions import ASSUMPTIONS, assumption
+from relspan.site.markdown import Raw
 
 __all__ = ["USUAL_CAUTIONS", "CAUTION_LINK", "caution_body", "GLOSSARY", "METHODS", "REFERENCES",
            "ASSUMPTION_PLAIN"]
@@ -20,14 +23,14 @@ def _heading(assumption_id: str) -> str:
 
 
 #: the cautions every page that interprets results carries (short form)
-USUAL_CAUTIONS = (
+USUAL_CAUTIONS = Raw(
     "These results describe **association** in the data, not causation. They rest on the quality of "
     "the data and on the noise assumption stated beside each number. Before any decision, consult a "
     "qualified statistician and follow your institution's own review."
 )
 
 #: the link every place that shows a single coefficient carries
-CAUTION_LINK = "[How to read a single coefficient](/caution.html)"
+CAUTION_LINK = Raw("[How to read a single coefficient](/caution.html)")
 
 #: reader-facing words for each noise assumption: (short name, one sentence)
 #: (reader's heading, meaning) per assumption id, from the one table
@@ -36,7 +39,7 @@ ASSUMPTION_PLAIN = {a.id: (a.title, a.meaning) for a in ASSUMPTIONS}
 
 def caution_body() -> str:
     """Markdown of the caution page on interpreting single coefficients."""
-    return f"""
+    return Raw(f"""
 ## In short
 
 A single coefficient from a model of several variables can look precise and still mean very little.
@@ -87,7 +90,7 @@ pages show each coefficient under every assumption side by side.
 - A tolerance chosen after looking at the results makes every conclusion weaker than it reads.
 - For decisions, consult a qualified statistician, and follow your institution's own review process;
   this site does not replace either.
-"""
+""")
 
 
 GLOSSARY = (

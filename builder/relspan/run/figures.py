@@ -1,7 +1,7 @@
 """Figure jobs: drawn on the run's executor, kept in its cache.
 
 report/ describes each figure as a job (a figure function and its plain
-arguments, :class:`relspan.report.pages.FigureJob`); this module draws the
+arguments, :class:`relspan.report.pages.publisher.FigureJob`); this module draws the
 jobs that are not cached, in this process or on the workers, and returns one
 rendered tuple per job for the report to place.
 """
@@ -22,7 +22,7 @@ def render_job(item: tuple) -> tuple | None:
     Returns ``(name, alt, description, image_bytes, csv_bytes, width_px, height_px)`` or None
     when the figure does not apply to these results.
     """
-    from relspan.report.figure_base import render_figure, table_csv
+    from relspan.report.figures.render import render_figure, table_csv
 
     fn, args, fmt_ = item
     fig = fn(*args)

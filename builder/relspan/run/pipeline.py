@@ -154,6 +154,15 @@ def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, 
     return (1,), "one relation, as the elementary regressions presuppose"
 
 
+def _flats(analysis: WindowAnalysis, examined: Sequence[int]) -> dict:
+    """The elementary-regression flat of one window for each examined corank (none when singular)."""
+    from relspan.analysis.flat import elementary_flat
+
+    if analysis.elementary.singular:
+        return {}
+    return {q: elementary_flat(analysis.elementary, q=q, ref=analysis.ref) for q in examined if q >= 1}
+
+
 def _plan_summaries(plan: WindowPlanSpec, windows: Sequence, analyses: Sequence[WindowAnalysis],
                     full: WindowAnalysis, examined: Sequence[int], threshold: float) -> PlanResult:
     labels = [a.label for a in analyses]
@@ -175,7 +184,8 @@ def _plan_summaries(plan: WindowPlanSpec, windows: Sequence, analyses: Sequence[
     coranks = corank_sequence({a: [w.coranks.get(a) for w in analyses] for a in full.coranks},
                               labels=labels)
     return PlanResult(plan=plan, windows=tuple(windows), analyses=tuple(analyses),
-                      stability=stability, swings=swings, coranks=coranks)
+                      stability=stability, swings=swings, coranks=coranks,
+                      flats=tuple(_flats(a, examined) for a in analyses))
 
 
 def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec], *, executor=None,
@@ -185,8 +195,7 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     Warnings raised in a window stay typed (:class:`~relspan.errors.RelspanWarning`);
     they are appended to ``warn_sink`` with the dataset and plan recorded.
     """
-    from relspan.analysis.findings import dataset_findings
-    from relspan.analysis.flat import elementary_flat
+    from relspan.analysis.findings import dataset_findings, dataset_summary
     from relspan.analysis.identified import identified_quantities
     from relspan.data.prepare import window_moments
     from relspan.run.executors import SerialExecutor, map_in_chunks
@@ -217,7 +226,6 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
                          for plan, wins, a, b in spans)
 
     identified: dict = {}
-    flats: dict = {}
     for q in examined:
         basis = full.bases.get("equal", {}).get(q)
         if basis is None:
@@ -225,16 +233,17 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
         if basis is not None:
             # bases are on the common scale; identified quantities are read in data units
             identified[q] = identified_quantities(basis / common_std[None, :], names=names)
-        if not full.elementary.singular:
-            flats[q] = elementary_flat(full.elementary, q=q, ref=ref)
     from relspan.data.prepare import without_blocks
 
-    findings = dataset_findings(full=full, plans=plan_results, examined=examined, identified=identified,
-                                labels=tuple(v.label for v in ds.variables))
+    labels = tuple(v.label for v in ds.variables)
+    findings = tuple(dataset_findings(full=full, plans=plan_results, examined=examined, identified=identified,
+                                      labels=labels))
+    summary = dataset_summary(full=full, plans=plan_results, examined=examined, identified=identified,
+                              labels=labels, findings=findings, period=prepared.period)
     # the block statistics are not needed once the windows are assembled: do not keep them
     return DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
-                         examined=examined, examined_from=examined_from, findings=tuple(findings),
-                         identified=identified, flat=flats, threshold_deg=threshold, cache_key=cache_key)
+                         examined=examined, examined_from=examined_from, findings=findings,
+                         summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold, cache_key=cache_key)
 
 
 def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], sha: str) -> str:

@@ -2,10 +2,10 @@
 
 Report code builds pages from these so that the markup matches the
 stylesheet (``builder/relspan/site/assets/site.css``) and user text is always escaped.
-Arguments named ``*_markdown`` are Markdown the caller has already made safe
-(user text inside it through :func:`~relspan.site.markdown.escape_text`);
-arguments named ``label``, ``alt``, ``summary`` or ``heading`` are plain text
-and are escaped here.
+Arguments named ``*_markdown`` are escaped here unless they are
+:class:`~relspan.site.markdown.Raw` (Markdown built by the helpers of
+:mod:`relspan.site.markdown`); arguments named ``label``, ``alt``,
+``summary`` or ``heading`` are plain text and are always escaped.
 
 Every snippet starts and ends on its own line with blank lines around it, so
 it can be concatenated with other Markdown blocks.
@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import html
 
-from relspan.site.markdown import escape_text
+from relspan.site.markdown import Raw, escape_text, inline
 
 __all__ = ["CARD_KINDS", "VERDICTS", "card", "cards", "badge", "callout", "figure", "details"]
 
@@ -41,8 +41,8 @@ def _attr(text: str) -> str:
     return html.escape(text, quote=True)
 
 
-def _block(text: str) -> str:
-    return "\n\n" + text.strip("\n") + "\n\n"
+def _block(text: str) -> Raw:
+    return Raw("\n\n" + text.strip("\n") + "\n\n")
 
 
 def card(kind: str, heading: str, body_markdown: str) -> str:
@@ -64,13 +64,13 @@ def card(kind: str, heading: str, body_markdown: str) -> str:
         f'<article class="card card-{kind}" markdown="1">\n'
         f'<p class="card-label">{_attr(CARD_KINDS[kind])}</p>\n\n'
         f"### {escape_text(heading)}\n\n"
-        f"{body_markdown.strip()}\n\n"
+        f"{inline(body_markdown).strip()}\n\n"
         f"</article>")
 
 
 def cards(*snippets: str) -> str:
     """A responsive grid holding :func:`card` snippets."""
-    inner = "\n".join(s.strip("\n") + "\n" for s in snippets)
+    inner = "\n".join(inline(s).strip("\n") + "\n" for s in snippets)
     return _block(f'<div class="cards" markdown="1">\n\n{inner}\n</div>')
 
 
@@ -82,8 +82,8 @@ def badge(verdict: str) -> str:
     if verdict not in VERDICTS:
         raise ValueError(f"verdict must be one of {', '.join(VERDICTS)}; got {verdict!r}.")
     symbol, word = VERDICTS[verdict]
-    return (f'<span class="badge badge-{verdict}"><span class="badge-symbol" '
-            f'aria-hidden="true">{_attr(symbol)}</span> {_attr(word)}</span>')
+    return Raw(f'<span class="badge badge-{verdict}"><span class="badge-symbol" '
+               f'aria-hidden="true">{_attr(symbol)}</span> {_attr(word)}</span>')
 
 
 def callout(body_markdown: str, *, title: str = "Caution", kind: str = "caution") -> str:
@@ -98,7 +98,7 @@ def callout(body_markdown: str, *, title: str = "Caution", kind: str = "caution"
     return _block(
         f'<aside class="callout callout-{kind}" markdown="1">\n'
         f'<p class="callout-title">{_attr(title)}</p>\n\n'
-        f"{body_markdown.strip()}\n\n"
+        f"{inline(body_markdown).strip()}\n\n"
         f"</aside>")
 
 
@@ -107,7 +107,7 @@ def details(summary: str, body_markdown: str) -> str:
     return _block(
         f'<details class="more" markdown="1">\n'
         f"<summary>{_attr(summary)}</summary>\n\n"
-        f"{body_markdown.strip()}\n\n"
+        f"{inline(body_markdown).strip()}\n\n"
         f"</details>")
 
 
@@ -144,8 +144,8 @@ def figure(src: str, alt: str, caption_markdown: str = "", *,
     parts = [f'<figure class="fig" markdown="1">',
              f'<img src="{_attr(src)}" alt="{_attr(alt)}"{size}{cls}>']
     if caption_markdown.strip():
-        parts.append(f'<figcaption markdown="1">\n\n{caption_markdown.strip()}\n\n</figcaption>')
+        parts.append(f'<figcaption markdown="1">\n\n{inline(caption_markdown).strip()}\n\n</figcaption>')
     if long_description_markdown.strip():
-        parts.append(details("Long description", long_description_markdown).strip("\n"))
+        parts.append(details("Long description", inline(long_description_markdown)).strip("\n"))
     parts.append("</figure>")
     return _block("\n".join(parts))

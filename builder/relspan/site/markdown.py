@@ -1,11 +1,19 @@
 """Markdown to HTML for the site, and escaping of user text.
 
-Python-Markdown passes raw HTML through unchanged. Report code therefore
-never pastes user-supplied text (titles, labels, summaries, column names,
-claim text) into Markdown directly: it goes through :func:`escape_text`
-(running text, headings, link text, image alt text) or :func:`escape_cell`
-(table cells). Both return Markdown that renders as exactly the same literal
-text, with no element or attribute of its own.
+Python-Markdown passes raw HTML through unchanged, so text never reaches
+Markdown unescaped. Pages are composed with the helpers below, which escape
+by default: a plain ``str`` (a title, a label, a finding's sentence) is
+escaped when it is composed (:func:`escape_text` in running text,
+:func:`escape_cell` in a table cell); only :class:`Raw` passes through.
+``Raw`` is made by these helpers, or by report code around Markdown it
+writes itself (its own headings, links to its own pages): the one named
+raw path, easy to find by its name.
+
+* :func:`md` fills a template (Markdown written in code) with arguments;
+* :func:`link`, :func:`code`, :func:`table`, :func:`bullets`, :func:`inline`
+  and :func:`cell` take text and escape it themselves;
+* :func:`blocks <relspan.site.blocks>` (cards, callouts, figures) take
+  ``Raw`` bodies and escape everything else.
 
 Each call of :func:`render_markdown` uses a fresh ``markdown.Markdown``
 instance, so no state (footnote counters, used ids) leaks between pages and
@@ -26,7 +34,7 @@ from markdown.treeprocessors import Treeprocessor
 from markdown.postprocessors import Postprocessor
 
 __all__ = ["RESERVED_IDS", "Heading", "RenderedMarkdown", "render_markdown", "slugify", "escape_text",
-           "escape_cell"]
+           "escape_cell", "Raw", "inline", "cell", "md", "link", "code", "table", "bullets", "joined"]
 
 #: Element ids the page layout uses itself (``<main id="main">``); headings never get them.
 RESERVED_IDS = ("main",)
@@ -96,6 +104,86 @@ def escape_cell(text: str) -> str:
     anyway).
     """
     return escape_text(text).strip(" ")
+
+
+class Raw(str):
+    """Markdown source that is already safe: composing it never escapes it again.
+
+    Build one only around Markdown that relspan's own code writes (headings,
+    emphasis, links to the site's pages) or through the helpers of this
+    module; text from a spec, a data file or an analysis result stays a plain
+    ``str`` and is escaped when composed.
+    """
+
+    __slots__ = ()
+
+    def __add__(self, other):
+        return Raw(str.__add__(self, _markdown_operand(other)))
+
+    def __radd__(self, other):
+        return Raw(str.__add__(_markdown_operand(other), self))
+
+
+def _markdown_operand(other) -> str:
+    """Only Markdown joins Markdown: ``Raw + str`` would lose track of what is escaped."""
+    if isinstance(other, Raw):
+        return other
+    if isinstance(other, str):
+        raise TypeError("Raw Markdown can only be joined with Raw: escape text with inline()/md(), "
+                        "or mark Markdown written in code as Raw(...).")
+    return NotImplemented
+
+
+def inline(value: str) -> Raw:
+    """``value`` as Markdown in running text: escaped (:func:`escape_text`) unless it is :class:`Raw`."""
+    return value if isinstance(value, Raw) else Raw(escape_text(value))
+
+
+def cell(value: str) -> Raw:
+    """``value`` as a table cell: escaped (:func:`escape_cell`) unless it is :class:`Raw`."""
+    return value if isinstance(value, Raw) else Raw(escape_cell(value))
+
+
+def md(template: str, *args: str) -> Raw:
+    """Fill the ``{}`` slots of ``template`` (Markdown written in code) with escaped arguments.
+
+    Each argument is escaped by :func:`inline` unless it is :class:`Raw`;
+    literal braces in the template are doubled, as in :meth:`str.format`.
+
+    Examples
+    --------
+    >>> md("**{}** ({})", "a*b", link("page", "/p.html"))
+    '**a\\*b** ([page](/p.html))'
+    """
+    return Raw(template.format(*(inline(a) for a in args)))
+
+
+def link(label: str, href: str) -> Raw:
+    """A link with escaped text; ``href`` is an address the site's own code built."""
+    return Raw(f"[{inline(label)}]({href})")
+
+
+def code(value: str) -> Raw:
+    """``value`` as inline code, safe in paragraphs and table cells (no Markdown escapes shown)."""
+    return Raw("<code>" + _html.escape(str(value), quote=True).replace("|", "&#124;") + "</code>")
+
+
+def joined(parts, sep: str = "") -> Raw:
+    """The parts, each escaped unless :class:`Raw`, joined by ``sep`` (Markdown written in code)."""
+    return Raw(sep.join(inline(p) for p in parts))
+
+
+def bullets(items) -> Raw:
+    """A Markdown list, one item per element (each escaped unless :class:`Raw`)."""
+    return Raw("\n".join(f"- {inline(i)}" for i in items))
+
+
+def table(header, rows) -> Raw:
+    """A Markdown pipe table; every cell is escaped by :func:`cell` unless it is :class:`Raw`."""
+    head = "| " + " | ".join(cell(h) for h in header) + " |"
+    sep = "|" + "|".join("---" for _ in header) + "|"
+    body = ["| " + " | ".join(cell(c) for c in r) + " |" for r in rows]
+    return Raw("\n".join([head, sep, *body]) + "\n")
 
 
 def slugify(value: str, separator: str = "-") -> str:

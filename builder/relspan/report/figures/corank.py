@@ -25,10 +25,12 @@ import numpy as np
 import pandas as pd
 from matplotlib.patches import Rectangle
 
-from relspan.report.figure_base import (
-    INK, MUTED, PALETTE, SEQUENTIAL, FigureResult, as_float_array, as_labels, check_mapping, fail,
-    fit_alt, join_words, new_figure, num, num_fig, plural, spread_1d, style_context, text_color_on,
-)
+from relspan.report.figures.checks import as_float_array, as_labels, check_mapping, fail
+from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.labels import spread_1d
+from relspan.report.figures.style import (INK, MUTED, PALETTE, SEQUENTIAL, new_figure, style_context,
+                                          text_color_on)
+from relspan.words import join_words, num, num_fig, plural
 
 __all__ = ["corank_evidence", "corank_timeline"]
 

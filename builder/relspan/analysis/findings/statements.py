@@ -1,9 +1,10 @@
 """Findings: the analysis turned into typed, plain-words statements.
 
-Each :class:`Finding` says one thing the data pin down, leave open, make
-depend on the noise assumption, or show to be (un)stable across windows, and
-carries the numbers behind it. The report renders them; nothing here formats
-HTML or reads files.
+Each :class:`~relspan.analysis.findings.records.Finding` says one thing the
+data pin down, leave open, make depend on the noise assumption, or show to be
+(un)stable across windows, and carries the numbers, the assumptions and the
+tolerance behind it. The report renders them; nothing here formats HTML or
+reads files.
 
 Kinds (``Finding.kind``):
 
@@ -18,83 +19,21 @@ Kinds (``Finding.kind``):
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
 
 from relspan.assumptions import assumption as _assumption
 
-__all__ = ["Finding", "dataset_findings", "FINDING_KINDS", "CARD_OF_KIND"]
+from relspan.analysis.findings.records import Finding, Tolerance
+from relspan.words import fmt, times as _times
 
-FINDING_KINDS = ("pinned_down", "set_only", "not_identified", "depends", "unstable", "stable",
-                 "no_relation")
-
-#: which home-page card each kind belongs to
-CARD_OF_KIND = {
-    "pinned_down": "pinned", "stable": "pinned",
-    "set_only": "open", "not_identified": "open", "no_relation": "open",
-    "depends": "depends",
-    "unstable": "unstable",
-}
-
-
-
-@dataclass(frozen=True, slots=True)
-class Finding:
-    """One statement for the report.
-
-    Attributes
-    ----------
-    kind : str
-        One of :data:`FINDING_KINDS`.
-    topic : str
-        What it is about: ``corank``, ``subspace``, ``coefficient``,
-        ``reduced_form``, ``stability``.
-    headline : str
-        Plain words, one sentence, with its key number.
-    detail : str
-        The technical statement (assumptions, thresholds, method).
-    numbers : dict
-        The numbers behind it (JSON-ready).
-    evidence : str
-        Fragment id on the dataset page where the evidence is shown.
-    plan : str or None
-        Window plan the finding is about, if any.
-    single_coefficient : bool
-        True when it quotes a single normalised coefficient (the report
-        then links the caution page).
-    """
-
-    kind: str
-    topic: str
-    headline: str
-    detail: str
-    numbers: dict = field(default_factory=dict)
-    evidence: str = "assumptions"
-    plan: str | None = None
-    single_coefficient: bool = False
-
-    @property
-    def card(self) -> str:
-        return CARD_OF_KIND[self.kind]
-
-    def to_dict(self) -> dict:
-        from relspan.analysis._common import jsonable
-
-        return jsonable({"kind": self.kind, "topic": self.topic, "headline": self.headline,
-                         "detail": self.detail, "numbers": self.numbers, "evidence": self.evidence,
-                         "plan": self.plan, "single_coefficient": self.single_coefficient})
+__all__ = ["dataset_findings"]
 
 
 def _g(x: float) -> str:
-    if x is None or not np.isfinite(x):
-        return "unbounded" if x is not None and np.isinf(x) else "n/a"
-    return f"{x:.3g}"
-
-
-def _times(k: int) -> str:
-    return {1: "once", 2: "twice"}.get(k, f"{k} times")
+    """A number in a finding (ASCII, also stored in results.json and findings.csv)."""
+    return fmt(x, minus="-", missing="n/a")
 
 
 def _corank_findings(result) -> list[Finding]:
@@ -106,6 +45,8 @@ def _corank_findings(result) -> list[Finding]:
     if not known:
         return out
     values = sorted(set(known.values()))
+    tol = Tolerance.of(full)
+    rests = tuple(known)
     eps_text = (f"tolerance {full.eps:g} on the correlation scale (noise up to {100 * full.eps:g}% of each "
                 f"variable's variance)" if full.scale == "correlation" else f"tolerance {full.eps:g}")
     if len(values) == 1:
@@ -115,27 +56,30 @@ def _corank_findings(result) -> list[Finding]:
                                f"No linear relation among the {n} variables is supported: every "
                                "direction of the data varies more than the noise allows.",
                                f"Corank 0 under {', '.join(_assumption(a).name for a in known)} at {eps_text}.",
-                               {"corank": 0, "by_assumption": cor}, "corank"))
+                               {"corank": 0, "by_assumption": cor}, "corank", assumptions=rests,
+                               tolerance=tol))
         else:
             out.append(Finding("pinned_down", "corank",
                                f"{q} linear relation{'s' if q > 1 else ''} hold{'' if q > 1 else 's'} among the "
                                f"{n} variables, under every noise assumption checked.",
                                f"Corank {q} in the full sample under {', '.join(_assumption(a).name for a in known)} at "
-                               f"{eps_text}.", {"corank": q, "by_assumption": cor}, "corank"))
+                               f"{eps_text}.", {"corank": q, "by_assumption": cor}, "corank",
+                               assumptions=rests, tolerance=tol))
     else:
         parts = "; ".join(f"{_assumption(a).name}: {q}" for a, q in known.items())
         out.append(Finding("depends", "corank",
                            f"How many relations hold depends on the noise assumption: between "
                            f"{values[0]} and {values[-1]}.",
                            f"Full-sample corank by assumption ({eps_text}): {parts}.",
-                           {"by_assumption": cor}, "corank"))
+                           {"by_assumption": cor}, "corank", assumptions=rests, tolerance=tol))
     undetermined = [a for a, q in cor.items() if q is None]
     if undetermined:
         out.append(Finding("set_only", "corank",
                            "Under independent noise of unknown size the number of relations is not "
                            "settled at this tolerance.",
                            "The diagonal-noise search neither certified nor ruled out every corank "
-                           "(\u201cundetermined at eps\u201d).", {"undetermined": undetermined}, "corank"))
+                           "(\u201cundetermined at eps\u201d).", {"undetermined": undetermined}, "corank",
+                           assumptions=tuple(undetermined), tolerance=tol))
     return out
 
 
@@ -143,6 +87,7 @@ def _subspace_findings(result) -> list[Finding]:
     full = result.full
     out: list[Finding] = []
     n = full.n
+    tol = Tolerance.of(full)
     for q in result.examined:
         ident = result.identified.get(q)
         what = "relation" if q == 1 else f"{q}-dimensional subspace of relations"
@@ -157,13 +102,15 @@ def _subspace_findings(result) -> list[Finding]:
                                f"Davis-Kahan bound for corank {q} under bounded noise: largest principal "
                                f"angle at most {entry.angle_bound_deg:.3g} degrees (eps {full.eps:g}, gap "
                                f"{entry.gap:.3g}).",
-                               {"corank": q, "angle_bound_deg": entry.angle_bound_deg}, "assumptions"))
+                               {"corank": q, "angle_bound_deg": entry.angle_bound_deg}, "assumptions",
+                               assumptions=("bounded",), tolerance=tol))
         elif entry is not None:
             out.append(Finding("set_only", "subspace",
                                f"The {what} is not pinned down by the bounded-noise assumption alone: the "
                                "noise allowed is as large as the signal gap.",
                                f"Davis-Kahan bound vacuous for corank {q} (eps {full.eps:g} vs gap "
-                               f"{entry.gap:.3g}).", {"corank": q}, "assumptions"))
+                               f"{entry.gap:.3g}).", {"corank": q}, "assumptions",
+                               assumptions=("bounded",), tolerance=tol))
         fr = full.diagonal
         if fr is not None and q >= 2:
             ok = q * (q + 1) >= 2 * n
@@ -176,7 +123,7 @@ def _subspace_findings(result) -> list[Finding]:
                                    f"single answer.{extra}",
                                    f"Frisch scheme: point identification needs q(q+1) >= 2n; here "
                                    f"{q * (q + 1)} < {2 * n}.", {"corank": q, "spread_deg": spread},
-                                   "assumptions"))
+                                   "assumptions", assumptions=("diagonal",), tolerance=tol))
         if ident is not None and q >= 2:
             targets = [result.labels[result.names.index(t)] for t in ident.targets]
             out.append(Finding("not_identified", "coefficient",
@@ -184,13 +131,15 @@ def _subspace_findings(result) -> list[Finding]:
                                "any mix of them is also a relation.",
                                f"Corank {q}: a normalised coefficient depends on which member of the "
                                "relation subspace is picked; only the subspace (or a reduced form chosen in "
-                               "advance) is identified.", {"corank": q}, "identified", single_coefficient=True))
+                               "advance) is identified.", {"corank": q}, "identified", single_coefficient=True,
+                               tolerance=tol))
             out.append(Finding("pinned_down", "reduced_form",
                                f"A reduced form is pinned down: {', '.join(targets)} expressed through the "
                                "other variables.",
                                f"Reduced form from the equal-noise subspace; condition number of the choice "
                                f"{ident.reduced_condition:.3g}.", {"corank": q, "targets": targets,
-                                                           "condition": ident.reduced_condition}, "identified"))
+                                                           "condition": ident.reduced_condition}, "identified",
+                               assumptions=("equal",), tolerance=tol))
     return out
 
 
@@ -217,7 +166,7 @@ def _coefficient_findings(result) -> list[Finding]:
                            "depends on the noise assumption.",
                            f"Full-sample normalised coefficient of {names[k]} (equation for {names[ref]}): "
                            f"{parts}.", {"variable": names[k], "normalise_on": names[ref], "values": vals},
-                           "assumptions", single_coefficient=True))
+                           "assumptions", single_coefficient=True, assumptions=tuple(vals)))
     if q1 and full.frisch_lower is not None:
         lo, hi = full.frisch_lower, full.frisch_upper
         bounded = [k for k in range(full.n) if k != ref and np.isfinite(lo[k]) and np.isfinite(hi[k])]
@@ -230,14 +179,15 @@ def _coefficient_findings(result) -> list[Finding]:
                                "solutions form their convex hull (Klepper & Leamer 1984).",
                                {"normalise_on": names[ref],
                                 "intervals": {names[k]: [lo[k], hi[k]] for k in bounded}},
-                               "frisch", single_coefficient=True))
+                               "frisch", single_coefficient=True, assumptions=("diagonal",)))
         else:
             out.append(Finding("not_identified", "coefficient",
                                f"Under independent noise of unknown size the coefficients of the equation for "
                                f"{labels[ref]} are not bounded.",
                                "Frisch scheme, corank 1: the elementary regressions do not lie in one "
                                "orthant, so the set of solutions is unbounded.",
-                               {"normalise_on": names[ref]}, "frisch", single_coefficient=True))
+                               {"normalise_on": names[ref]}, "frisch", single_coefficient=True,
+                               assumptions=("diagonal",)))
     return out
 
 
@@ -250,10 +200,11 @@ def _stability_findings(result) -> list[Finding]:
             continue
         title = plan.plan.title or plan.plan.id
         for q in result.examined:
-            stab = plan.stability.get(("equal", q)) or next(
-                (s for (a, qq), s in plan.stability.items() if qq == q), None)
-            if stab is None:
+            key = ("equal", q) if plan.stability.get(("equal", q)) else next(
+                (k for k in plan.stability if k[1] == q and plan.stability[k]), None)
+            if key is None:
                 continue
+            stab = plan.stability[key]
             worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else stab.max_pairwise_deg
             what = "relation" if q == 1 else "plane of relations" if q == 2 else f"{q}-dimensional relation subspace"
             if stab.stable:
@@ -267,7 +218,8 @@ def _stability_findings(result) -> list[Finding]:
                                f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
                                                    "max_to_full_deg": worst,
                                                    "threshold_deg": stab.threshold_deg},
-                               f"plan-{plan.plan.id}", plan=plan.plan.id))
+                               f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key[0],),
+                               tolerance=Tolerance.of(result.full)))
             swing = plan.swings.get("elementary")
             if swing is not None:
                 changed = [k for k in range(len(names)) if k != ref and swing.sign_changes[k] > 0]
@@ -286,7 +238,8 @@ def _stability_findings(result) -> list[Finding]:
                                        {"plan": plan.plan.id, "variable": names[k],
                                         "sign_changes": int(swing.sign_changes[k]),
                                         "min": swing.minimum[k], "max": swing.maximum[k]},
-                                       f"plan-{plan.plan.id}", plan=plan.plan.id, single_coefficient=True))
+                                       f"plan-{plan.plan.id}", plan=plan.plan.id, single_coefficient=True,
+                                       assumptions=("elementary",)))
         seq = plan.coranks
         moving = [a for a, c in seq.constant.items() if not c and a != "elementary"]
         if moving:
@@ -295,7 +248,7 @@ def _stability_findings(result) -> list[Finding]:
                                f"under {', '.join(_assumption(a).name for a in moving)}.",
                                "Corank per window: see the timeline.",
                                {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
-                               plan=plan.plan.id))
+                               plan=plan.plan.id, assumptions=tuple(moving), tolerance=Tolerance.of(result.full)))
     return out
 
 

@@ -26,10 +26,12 @@ import numpy as np
 import pandas as pd
 from matplotlib.patches import Circle, Polygon
 
-from relspan.report.figure_base import (
-    FAINT, INK, MUTED, PALETTE, FigureResult, as_float_array, as_labels, fail, fit_alt,
-    new_figure, num, num_fig, place_point_labels, plural, series_style, style_context,
-)
+from relspan.report.figures import geometry
+from relspan.report.figures.checks import as_float_array, as_labels, fail
+from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.labels import place_point_labels
+from relspan.report.figures.style import FAINT, INK, MUTED, PALETTE, new_figure, series_style, style_context
+from relspan.words import num, num_fig, plural
 
 __all__ = ["ElementaryMapData", "elementary_map", "window_gallery"]
 
@@ -98,8 +100,7 @@ class ElementaryMapData:
             raise fail(func, "flat_dirs", f"may have at most {d - 1} rows (corank at most n - 1)",
                        "Pass the q - 1 directions of the fitted flat.", got=f"{fd.shape[0]} rows")
         if fd.shape[0]:
-            sv = np.linalg.svd(fd, compute_uv=False)
-            if sv[-1] <= 1e-10 * max(sv[0], 1e-300):
+            if not geometry.independent_rows(fd):
                 raise fail(func, "flat_dirs", "are linearly dependent",
                            "Pass independent directions (e.g. an orthonormal basis of the flat).")
         dist = as_float_array(func, "distances", self.distances, ndim=1, shape=(n,))
@@ -133,94 +134,14 @@ class ElementaryMapData:
 
     def main_direction(self) -> np.ndarray | None:
         """Unit direction inside the flat along which the points spread most (None for q = 1)."""
-        if self.flat_dirs.shape[0] == 0:
-            return None
-        qf, _ = np.linalg.qr(self.flat_dirs.T)
-        c = (self.points - self.flat_point) @ qf
-        c = c - c.mean(axis=0)
-        if self.flat_dirs.shape[0] == 1 or not np.any(c):
-            m = qf[:, 0]
-        else:
-            _, _, vt = np.linalg.svd(c, full_matrices=False)
-            m = qf @ vt[0]
-        return _fix_sign(m / np.linalg.norm(m))
+        return geometry.main_direction(self.points, self.flat_point, self.flat_dirs)
 
     def residuals(self) -> np.ndarray:
         """Points minus their orthogonal projections on the flat."""
-        p = self.points - self.flat_point
-        if self.flat_dirs.shape[0] == 0:
-            return p
-        qf, _ = np.linalg.qr(self.flat_dirs.T)
-        return p - (p @ qf) @ qf.T
+        return geometry.residuals(self.points, self.flat_point, self.flat_dirs)
 
 
-def _fix_sign(v: np.ndarray) -> np.ndarray:
-    """Deterministic sign: the entry of largest magnitude is positive."""
-    i = int(np.argmax(np.abs(v)))
-    return v if v[i] >= 0 else -v
-
-
-def _top_direction(rows: np.ndarray, orth: list[np.ndarray]) -> tuple[np.ndarray, float]:
-    """Unit vector of largest spread of ``rows`` (about 0) orthogonal to ``orth``,
-    and the share of the squared norm it carries."""
-    d = rows.shape[1]
-    basis = np.eye(d)
-    if orth:
-        o = np.array(orth).T
-        qo, _ = np.linalg.qr(o)
-        rows = rows - (rows @ qo) @ qo.T
-        basis = basis - qo @ qo.T
-    total = float(np.sum(rows ** 2))
-    if total <= 1e-300:
-        # no spread: any unit vector orthogonal to orth (deterministic: first usable basis vector)
-        for j in range(d):
-            v = basis[:, j]
-            if np.linalg.norm(v) > 1e-8:
-                return _fix_sign(v / np.linalg.norm(v)), 0.0
-    _, s, vt = np.linalg.svd(rows, full_matrices=False)
-    return _fix_sign(vt[0]), float(s[0] ** 2 / total)
-
-
-@dataclass(frozen=True, slots=True)
-class _Frame:
-    """The plane a map is drawn in: natural coefficients (d = 2) or a projection."""
-
-    origin: np.ndarray
-    axes: np.ndarray | None  # (2, d) rows e1, e2, or None for natural coordinates
-    share: float  # share of squared distances carried by the vertical axis (projections)
-
-    def coords(self, x: np.ndarray) -> np.ndarray:
-        x = np.atleast_2d(x)
-        return x.copy() if self.axes is None else (x - self.origin) @ self.axes.T
-
-    def direction(self, v: np.ndarray) -> np.ndarray:
-        return v.copy() if self.axes is None else self.axes @ v
-
-
-def _frame_for(maps: Sequence[ElementaryMapData]) -> _Frame:
-    """One common drawing plane for one or more maps of the same variables."""
-    d = maps[0].points.shape[1]
-    origin = np.mean([m.flat_point for m in maps], axis=0)
-    if d == 2:
-        return _Frame(origin, None, 1.0)
-    mains = [m.main_direction() for m in maps]
-    mains = [v for v in mains if v is not None]
-    if mains:
-        # direction closest to all windows' main directions (top eigenvector of the summed projectors)
-        acc = sum(np.outer(v, v) for v in mains)
-        w, vecs = np.linalg.eigh(acc)
-        e1 = _fix_sign(vecs[:, -1])
-        e2, share = _top_direction(np.vstack([m.residuals() for m in maps]), [e1])
-    else:
-        spread = np.vstack([m.points - m.flat_point for m in maps])
-        e1, _ = _top_direction(spread, [])
-        e2, _ = _top_direction(spread, [e1])
-        total = float(np.sum(spread ** 2))
-        share = float(np.sum((spread @ np.vstack([e1, e2]).T) ** 2) / total) if total > 0 else 1.0
-    return _Frame(origin, np.vstack([e1, e2]), share)
-
-
-def _limits(maps: Sequence[ElementaryMapData], frame: _Frame) -> tuple[float, float, float, float]:
+def _limits(maps: Sequence[ElementaryMapData], frame: geometry.Frame) -> tuple[float, float, float, float]:
     xy = np.vstack([np.vstack([frame.coords(m.points), frame.coords(m.flat_point)]) for m in maps]
                    + [frame.coords(m.simplex) for m in maps if m.simplex is not None])
     pad_r = max(m.rms for m in maps)
@@ -232,7 +153,7 @@ def _limits(maps: Sequence[ElementaryMapData], frame: _Frame) -> tuple[float, fl
     return x0 - px, x1 + px, y0 - py, y1 + py
 
 
-def _draw_flat(ax, m: ElementaryMapData, frame: _Frame, *, color: str, band: bool = True,
+def _draw_flat(ax, m: ElementaryMapData, frame: geometry.Frame, *, color: str, band: bool = True,
                linestyle="-", linewidth: float = 1.6, zorder: int = 2) -> tuple[np.ndarray, np.ndarray | None]:
     """Draw the flat (line or point) and its RMS band; returns (point, direction) in plot coordinates."""
     p0 = frame.coords(m.flat_point)[0]
@@ -246,7 +167,7 @@ def _draw_flat(ax, m: ElementaryMapData, frame: _Frame, *, color: str, band: boo
                 linestyle="none", zorder=zorder)
         return p0, None
     dvec = frame.direction(main)
-    nrm = float(np.linalg.norm(dvec))
+    nrm = geometry.norm(dvec)
     if nrm < 1e-12:
         ax.plot([p0[0]], [p0[1]], marker="+", markersize=12, markeredgewidth=2, color=color,
                 linestyle="none", zorder=zorder)
@@ -264,7 +185,7 @@ def _draw_flat(ax, m: ElementaryMapData, frame: _Frame, *, color: str, band: boo
     return p0, dvec
 
 
-def _draw_simplex(ax, m: ElementaryMapData, frame: _Frame) -> None:
+def _draw_simplex(ax, m: ElementaryMapData, frame: geometry.Frame) -> None:
     xy = frame.coords(m.simplex)
     hull = _hull_2d(xy)
     ax.add_patch(Polygon(hull, closed=True, facecolor="#d5e8e2", edgecolor=PALETTE[2], linewidth=1.3,
@@ -293,7 +214,7 @@ def _hull_2d(xy: np.ndarray) -> np.ndarray:
     return np.array(lower[:-1] + upper[:-1])
 
 
-def _draw_points(ax, m: ElementaryMapData, frame: _Frame, *, size: float = 7.5) -> np.ndarray:
+def _draw_points(ax, m: ElementaryMapData, frame: geometry.Frame, *, size: float = 7.5) -> np.ndarray:
     xy = frame.coords(m.points)
     for j in range(len(m.names)):
         st = series_style(j)
@@ -304,7 +225,7 @@ def _draw_points(ax, m: ElementaryMapData, frame: _Frame, *, size: float = 7.5) 
     return xy
 
 
-def _axis_labels(m: ElementaryMapData, frame: _Frame) -> tuple[str, str]:
+def _axis_labels(m: ElementaryMapData, frame: geometry.Frame) -> tuple[str, str]:
     if frame.axes is None:
         a, b = m.coef_names
         return f"coefficient on {a}", f"coefficient on {b}"
@@ -413,7 +334,7 @@ def _label_flat(fig, ax, p0: np.ndarray, dvec: np.ndarray, text: str, avoid=None
     return boxes
 
 
-def _point_rows(m: ElementaryMapData, frame: _Frame, extra: dict) -> list[dict]:
+def _point_rows(m: ElementaryMapData, frame: geometry.Frame, extra: dict) -> list[dict]:
     cn = m.coef_names
     xy = frame.coords(m.points)
     rows = []
@@ -487,7 +408,7 @@ def elementary_map(points, *, names: Sequence[str], ref: str, flat_point, flat_d
            regressions with errors in all variables, Econometrica 52, 1984.
     """
     m = ElementaryMapData(points, tuple(names), ref, flat_point, flat_dirs, distances, simplex)
-    frame = _frame_for([m])
+    frame = geometry.frame_for([m])
     n, q = len(m.names), m.q
     with style_context():
         fig = new_figure(5.0 + (0.3 if title else 0.0))
@@ -569,15 +490,6 @@ def elementary_map(points, *, names: Sequence[str], ref: str, flat_point, flat_d
     return FigureResult(name, fig, alt, desc.strip(), table)
 
 
-def _line_angle_deg(u: np.ndarray, v: np.ndarray) -> float:
-    """Angle between two lines (directions up to sign), in degrees, via atan2 (accurate near 0)."""
-    u = u / np.linalg.norm(u)
-    v = v / np.linalg.norm(v)
-    c = abs(float(u @ v))
-    s = float(np.linalg.norm(v - (u @ v) * u))
-    return math.degrees(math.atan2(s, c))
-
-
 def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
                    reference: ElementaryMapData | None = None, title: str | None = None,
                    name: str = "window-gallery") -> FigureResult:
@@ -630,7 +542,7 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
     w = len(maps)
     m0 = maps[0]
     n = len(m0.names)
-    frame = _frame_for(maps + ([reference] if reference is not None else []))
+    frame = geometry.frame_for(maps + ([reference] if reference is not None else []))
     ncols = w if w <= 3 else (3 if w <= 9 else 4)
     nrows = math.ceil(w / ncols)
     x0, x1, y0, y1 = _limits(maps + ([reference] if reference is not None else []), frame)
@@ -706,10 +618,10 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
     ref_dir = reference.main_direction() if reference is not None else m0.main_direction()
     dirs = [m.main_direction() for m in maps]
     if ref_dir is not None and all(d is not None for d in dirs):
-        angles = np.array([_line_angle_deg(ref_dir, d) for d in dirs])
+        angles = np.array([geometry.line_angle_deg(ref_dir, d) for d in dirs])
         j = int(np.argmax(angles))
         against = "the full-sample flat" if reference is not None else f"the first window ({wl[0]})"
-        from relspan.report.figure_base import angle_text
+        from relspan.words import angle_text
         desc += (f"The direction of the fitted flat differs from {against} by at most "
                  f"{angle_text(angles[j])} degrees ({wl[j]}). ")
     moves = []

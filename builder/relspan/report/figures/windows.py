@@ -19,11 +19,13 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
-from relspan.report.figure_base import (
-    INK, MUTED, PALETTE, SEQUENTIAL, FigureResult, angle_text, as_float_array, as_labels,
-    as_times, check_mapping, fail, fit_alt, join_words, new_figure, num, num_fig, plural, spread_1d,
-    style_context, styles_for, text_color_on, time_values,
-)
+from relspan.report.figures.checks import (as_float_array, as_labels, as_times, check_mapping, fail,
+                                           time_values)
+from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.labels import spread_1d
+from relspan.report.figures.style import (INK, MUTED, PALETTE, SEQUENTIAL, new_figure, style_context,
+                                          styles_for, text_color_on)
+from relspan.words import angle_text, join_words, num, num_fig, plural
 
 __all__ = ["subspace_stability", "coefficient_swing"]
 

@@ -1,9 +1,10 @@
 """Adapters: analysis results -> figure inputs -> :class:`FigureResult`.
 
-The figure functions (:mod:`relspan.report.figures` and friends) take plain
-arrays; these functions read them off a
-:class:`~relspan.analysis.results.DatasetResult` so that each figure is a function
-of results only.
+The figure functions (:mod:`relspan.report.figures`) take plain arrays; these
+functions read them off a :class:`~relspan.analysis.results.DatasetResult`
+so that each figure is a function of results only. They pick and reshape
+stored numbers; every analysis quantity (the flats of the maps included) was
+computed by the pipeline.
 """
 
 from __future__ import annotations
@@ -12,9 +13,11 @@ import numpy as np
 
 from relspan.assumptions import assumption
 
-from relspan.report.figures import (ElementaryMapData, coefficient_swing, corank_evidence,
-                                    corank_timeline, data_overview, elementary_map, frisch_intervals,
-                                    subspace_stability, window_gallery)
+from relspan.report.figures.corank import corank_evidence, corank_timeline
+from relspan.report.figures.intervals import frisch_intervals
+from relspan.report.figures.maps import ElementaryMapData, elementary_map, window_gallery
+from relspan.report.figures.overview import data_overview
+from relspan.report.figures.windows import coefficient_swing, subspace_stability
 
 __all__ = ["overview_figure", "map_data", "map_figure", "gallery_figure", "stability_figure",
            "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure"]
@@ -53,13 +56,14 @@ def overview_figure(result):
     return data_overview(times, series, windows, name=f"{result.spec.id}-overview")
 
 
-def map_data(result, analysis, q: int):
-    """ElementaryMapData of one window for corank q (None when the map cannot be drawn)."""
-    from relspan.analysis.flat import elementary_flat
+def map_data(result, analysis, flat, q: int):
+    """ElementaryMapData of one window from its stored flat (None when the map cannot be drawn).
 
-    if analysis.elementary.singular or q < 1 or len(result.names) < 3:  # a map needs 3 variables
+    ``flat`` is the window's :class:`~relspan.analysis.flat.ElementaryFlat` for the corank shown
+    (``PlanResult.flats[i][q]``, ``DatasetResult.flat[q]``), or None.
+    """
+    if flat is None or analysis.elementary.singular or q < 1 or len(result.names) < 3:  # a map needs 3 variables
         return None
-    flat = elementary_flat(analysis.elementary, q=q, ref=analysis.ref)
     if flat.form != "affine" or flat.center is None or not np.all(np.isfinite(flat.points)):
         return None
     simplex = None
@@ -70,8 +74,9 @@ def map_data(result, analysis, q: int):
                              flat_dirs=flat.directions, distances=flat.distances, simplex=simplex)
 
 
-def map_figure(result, analysis, q: int, name: str):
-    data = map_data(result, analysis, q)
+def map_figure(result, analysis, flat, q: int, name: str):
+    """The map of one window (``flat``: its stored flat for corank ``q``)."""
+    data = map_data(result, analysis, flat, q)
     if data is None:
         return None
     return elementary_map(data.points, names=data.names, ref=data.ref, flat_point=data.flat_point,
@@ -80,11 +85,11 @@ def map_figure(result, analysis, q: int, name: str):
 
 
 def gallery_figure(result, plan, q: int):
-    maps = [map_data(result, a, q) for a in plan.analyses]
+    maps = [map_data(result, a, flats.get(q), q) for a, flats in zip(plan.analyses, plan.flats)]
     if not maps or any(m is None for m in maps) or len(maps) < 2:
         return None
     maps, labels = maps[:24], list(plan.labels)[:24]
-    return window_gallery(maps, labels, reference=map_data(result, result.full, q),
+    return window_gallery(maps, labels, reference=map_data(result, result.full, result.flat.get(q), q),
                           name=f"{result.spec.id}-{plan.plan.id}-gallery")
 
 

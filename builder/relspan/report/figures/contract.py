@@ -1,0 +1,115 @@
+"""The figure contract: every figure function returns a :class:`FigureResult`.
+
+A figure comes with a short alt text, a long description that states the numbers shown in plain words,
+and the tidy table behind it. Validation of the figure itself (name, alt length, literal dollar signs,
+a frozen layout) happens when the result is built.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import pandas as pd
+from matplotlib.figure import Figure
+
+from relspan.errors import OptionsError
+from relspan.report.figures.style import style_context
+
+__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "freeze_layout"]
+
+#: longest alt text we accept (characters)
+ALT_MAX = 150
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class FigureResult:
+    """A figure with everything a page needs to publish it accessibly.
+
+    Attributes
+    ----------
+    name : str
+        File stem, e.g. ``"subspace-stability"``; letters, digits, ``-`` and ``_``.
+    figure : matplotlib.figure.Figure
+        The figure, drawn with the relspan style.
+    alt : str
+        Short alternative text (at most 150 characters) stating the main number.
+    description : str
+        Long description in plain words with every number the figure shows.
+    table : pandas.DataFrame
+        The data behind the figure in tidy form (one row per drawn item);
+        written as CSV beside the figure by :func:`table_csv`.
+    """
+
+    name: str
+    figure: Figure
+    alt: str
+    description: str
+    table: pd.DataFrame
+
+    def __post_init__(self) -> None:
+        if not self.name or not all(c.isalnum() or c in "-_" for c in self.name):
+            raise OptionsError(
+                f"FigureResult: name must be a file stem of letters, digits, '-' and '_'; got {self.name!r}.",
+                key="name", fix="Pass a name such as 'subspace-stability'.")
+        literal_dollars(self.figure)
+        freeze_layout(self.figure)
+        if len(self.alt) > ALT_MAX:
+            raise OptionsError(
+                f"FigureResult: alt text is {len(self.alt)} characters; at most {ALT_MAX} are allowed.",
+                key="alt", fix="Shorten the alt text and put the detail in the description.")
+
+
+def literal_dollars(fig: Figure) -> None:
+    """Show every '$' of the figure's texts as a dollar sign, never as the start of mathtext.
+
+    Labels, units and window names are user text; matplotlib would read a pair of
+    dollar signs in them as a formula (and fail on an unbalanced one). Each unescaped
+    '$' becomes '\\$', which matplotlib draws as '$'. Tick labels are written again by
+    their formatters at every draw (so log-axis exponents keep their mathtext); fixed
+    tick labels given as text are escaped in their formatter.
+    """
+    from matplotlib.text import Text
+    from matplotlib.ticker import FixedFormatter
+
+    for text in fig.findobj(Text):
+        value = text.get_text()
+        if "$" in value:
+            text.set_text(_escape_dollars(value))
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for fmt in (axis.get_major_formatter(), axis.get_minor_formatter()):
+                if isinstance(fmt, FixedFormatter):
+                    fmt.seq = [_escape_dollars(str(v)) for v in fmt.seq]
+
+
+def _escape_dollars(value: str) -> str:
+    return re.sub(r"(?<!\\)\$", lambda m: "\\$", value)
+
+
+def freeze_layout(fig: Figure) -> None:
+    """Run the constrained layout (twice), then switch it off.
+
+    With fixed-aspect axes (heatmaps, maps on equal scales) the layout moves
+    axes by fractions of a point on each draw until it settles; freezing it
+    makes every later rendering see exactly the same positions.
+    """
+    if fig.get_layout_engine() is None:
+        return
+    with style_context():
+        # two passes bring the layout within a small fraction of a point of its fixed
+        # point; the count is fixed so the result never depends on timing or state
+        for _ in range(2):
+            fig.draw_without_rendering()
+        fig.set_layout_engine("none")
+
+
+def fit_alt(*candidates: str) -> str:
+    """The first candidate alt text that fits in :data:`ALT_MAX` characters
+    (the last one is cut at a word boundary if none fits)."""
+    for c in candidates:
+        if len(c) <= ALT_MAX:
+            return c
+    last = candidates[-1]
+    cut = last[: ALT_MAX - 1].rsplit(" ", 1)[0]
+    return cut + "…"

@@ -1,0 +1,87 @@
+"""The files of the site (figures, their data, downloads) and the figure jobs pages register."""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+from typing import Sequence
+
+from relspan.site import blocks
+from relspan.site.content import SiteFile
+from relspan.site.markdown import Raw, md
+
+__all__ = ["FigureJob", "Publisher"]
+
+
+@dataclass(frozen=True, slots=True)
+class FigureJob:
+    """A figure to draw later (possibly in another process): ``fn(*args)`` -> FigureResult or None."""
+
+    token: str
+    fn: object
+    args: tuple
+    folder: str
+    caption_markdown: str
+    ident: str
+    dataset_key: str
+
+
+@dataclass
+class Publisher:
+    """Collects the files of the site (figures, their data CSVs, downloads).
+
+    Figures are registered as jobs (descriptions: a function and its plain
+    arguments) and placed in the page as a token; the driver draws them
+    (:mod:`relspan.run.figures`, on an executor, with a cache) and
+    :meth:`fill` puts the finished Markdown in place of each token.
+    """
+
+    fmt: str = "svg"
+    files: dict = field(default_factory=dict)
+    jobs: list = field(default_factory=list)
+
+    def add(self, path: str, data: bytes) -> str:
+        self.files[path] = data
+        return "/" + path
+
+    def figure(self, fn, args: tuple, folder: str, caption_markdown: str = "", *, ident: str,
+               dataset_key: str = "") -> Raw:
+        """Register ``fn(*args)`` as a figure of ``folder``; returns its placeholder block.
+
+        ``caption_markdown`` is escaped unless it is :class:`~relspan.site.markdown.Raw`.
+        """
+        token = f"@@relspan-figure-{len(self.jobs):05d}@@"
+        self.jobs.append(FigureJob(token, fn, tuple(args), folder, caption_markdown, ident, dataset_key))
+        return Raw(f"\n\n{token}\n\n")
+
+    def _markdown(self, job: FigureJob, rendered) -> str:
+        if rendered is None:
+            return ""
+        name, alt, description, image, csv_bytes, width, height = rendered
+        img = self.add(f"{job.folder}/{name}.{self.fmt}", image)
+        csv = self.add(f"{job.folder}/{name}.csv", csv_bytes)
+        long = md("{}\n\nThe numbers behind this figure: [{}.csv]({}).", description, name, Raw(csv))
+        return blocks.figure(img, alt, job.caption_markdown, long_description_markdown=long,
+                             width=width, height=height)
+
+    def fill(self, pages: list, rendered: Sequence) -> list:
+        """``pages`` with each figure token replaced by its finished Markdown.
+
+        ``rendered[i]`` is what the driver drew for ``self.jobs[i]``
+        (:func:`relspan.run.figures.draw_figures`), or None when the figure
+        does not apply; the figure files are added to the site here.
+        """
+        snippets = {job.token: self._markdown(job, done) for job, done in zip(self.jobs, rendered)}
+        out = []
+        for page in pages:
+            body = page.body_markdown
+            if "@@relspan-figure-" in body:
+                for token, snippet in snippets.items():
+                    if token in body:
+                        body = body.replace(f"\n\n{token}\n\n", snippet or "\n\n")
+                page = dataclasses.replace(page, body_markdown=body)
+            out.append(page)
+        return out
+
+    def site_files(self) -> tuple[SiteFile, ...]:
+        return tuple(SiteFile(p, d) for p, d in sorted(self.files.items()))

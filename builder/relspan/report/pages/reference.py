@@ -1,0 +1,55 @@
+"""The reference pages: how to read a single coefficient, the methods, the glossary.
+
+Their text is Markdown written by relspan (:mod:`relspan.report.text`); no user text enters.
+"""
+
+from __future__ import annotations
+
+from relspan.report.pages.addresses import HOME
+from relspan.report.pages.publisher import Publisher
+from relspan.report.text import GLOSSARY, METHODS, REFERENCES, caution_body
+from relspan.site.content import Page
+from relspan.site.markdown import Raw
+
+__all__ = ["caution_page", "methods_page", "glossary_page"]
+
+
+def caution_page() -> Page:
+    return Page("caution.html", "How to read a single coefficient", caution_body(), "caution",
+                breadcrumbs=(HOME,), description="Why a single normalised coefficient can mean nothing.")
+
+
+def methods_page(pub: Publisher) -> Page:
+    from relspan.site.formulas import formula_image
+
+    body = [Raw("Each method below states its assumption in one sentence, its formula, its limits and its "
+                "published sources. Notation: S is a window's sample covariance, P its inverse, N the noise "
+                "covariance, eps the tolerance, q the number of relations (corank), n the number of "
+                "variables.\n")]
+    for key, title, assumption, formulas, limits, refs in METHODS:
+        body.append(Raw(f"## {title} {{#{key}}}\n"))
+        body.append(Raw(f"**Assumption.** {assumption}\n"))
+        for tex, words in formulas:
+            img = formula_image(tex, alt=words)
+            pub.add(img.file.path, img.file.data)
+            body.append(Raw(f"{img.markdown}\n"))
+        body.append(Raw(f"**Limits.** {limits}\n"))
+        body.append(Raw("**References.**\n"))
+        body.append(Raw("\n".join(f"- {REFERENCES[r]}" for r in refs) + "\n"))
+    body.append(Raw("## How relspan decides\n"))
+    body.append(Raw("- Corank under equal or known-shape noise: the largest q whose q-th smallest eigenvalue is "
+                    "at most eps (on the analysed scale).\n- Corank under bounded noise: the same test (Weyl), "
+                    "with the Davis-Kahan angle bound on the subspace.\n- Corank under independent noise: the "
+                    "largest corank with an existence certificate; \u201cundetermined\u201d when a larger one is "
+                    "neither certified nor ruled out.\n- Stability: a window plan is stable when every window's "
+                    "relation subspace is within the stated angle (checks.max_angle_deg) of the full sample's.\n"
+                    "- Windows are compared on one scale: each variable divided by its full-sample standard "
+                    "deviation.\n"))
+    return Page("methods.html", "Methods", "\n".join(body), "methods", breadcrumbs=(HOME,),
+                description="The published methods relspan applies, their assumptions and references.")
+
+
+def glossary_page() -> Page:
+    items = "\n".join(f"- **{term}**: {text}" for term, text in GLOSSARY)
+    return Page("glossary.html", "Glossary", "The words used on this site, in plain language.\n\n" + items + "\n",
+                "glossary", breadcrumbs=(HOME,), description="Plain-language glossary.")

@@ -1,0 +1,133 @@
+"""The reproduce page (inputs, versions, the one command, a replication README) and the downloads page."""
+
+from __future__ import annotations
+
+import hashlib
+
+from relspan.report.pages.addresses import HOME, dataset_path
+from relspan.report.pages.publisher import Publisher
+from relspan.report.pages.tables import table
+from relspan.report.text import USUAL_CAUTIONS
+from relspan.site import blocks
+from relspan.site.content import Page
+from relspan.site.markdown import Raw, code, link, md
+
+__all__ = ["reproduce_page", "downloads_page"]
+
+
+def _sha256(data: bytes) -> str:
+    return hashlib.sha256(data).hexdigest()
+
+
+def _outputs(run, pub: Publisher) -> list[tuple[str, str, str]]:
+    """(what, program, output file) rows for the replication README, from the files registered so far."""
+    spec_name = run.spec.path.name
+    build = f"relspan build {spec_name}"
+    rows = []
+    for r in run.datasets:
+        ds = r.spec
+        title = f"Dataset {ds.id}"
+        tables = sorted(p for p in pub.files if p.startswith(f"data/{ds.id}/tables/") and p.count("/") == 3)
+        for path in tables:
+            rows.append((f"{title}: table \u201c{path.rsplit('/', 1)[1][:-4]}\u201d", build, path))
+        if any(p.startswith(f"data/{ds.id}/tables/") and p.count("/") == 4 for p in pub.files):
+            rows.append((f"{title}: tables of each window page", build, f"data/{ds.id}/tables/<plan>/window-NN-*.csv"))
+        rows.append((f"{title}: every figure (image and its data)", build,
+                     f"figures/{ds.id}/*.{pub.fmt} and figures/{ds.id}/*.csv"))
+        rows.append((f"{title}: all results", build, f"data/{ds.id}/results.json"))
+        rows.append((f"{title}: full sample and windows, full precision", build,
+                     f"data/{ds.id}/assumptions.csv, data/{ds.id}/windows.csv"))
+    rows.append(("All results in one file", build, "data/results.json"))
+    rows.append(("Claim verdicts", f"relspan check {spec_name}", "data/claims.csv"))
+    rows.append(("Findings in plain words", build, "data/findings.csv"))
+    return rows
+
+
+def _replication_readme(run, pub: Publisher) -> str:
+    """The README section, as the text of a fenced code block (shown literally, never rendered)."""
+    spec = run.spec
+    env = run.environment
+    lines = ["## Data availability and provenance", ""]
+    lines.append(f"- `{spec.path.name}`: the analysis spec, SHA-256 {_sha256(spec.text.encode('utf-8'))}.")
+    for ds, r in zip(spec.datasets, run.datasets):
+        period = f", {r.prepared.period[0]} to {r.prepared.period[1]}" if r.prepared.period else ""
+        lines.append(f"- `{ds.source}`: {ds.title} ({r.prepared.rows_read} rows{period}), "
+                     f"SHA-256 {r.prepared.sha256}.")
+    if spec.report.licence:
+        lines.append(f"- Licence of the data and report: {spec.report.licence}.")
+    lines += ["", "## Computational requirements", "",
+              f"- Software: Python {env.get('python', '')}, relspan {env.get('relspan', '')}, "
+              + ", ".join(f"{k} {v}" for k, v in sorted(env.items()) if k not in ('python', 'relspan')) + ".",
+              "- Hardware: a plain CPU machine; no GPU and no network access are needed.",
+              f"- Randomness: the independent-noise search uses seed "
+              f"{', '.join(str(s) for s in sorted({d.checks.seed for d in spec.datasets}))} (checks.seed).",
+              "", "## Instructions to replicators", "",
+              f"1. Install relspan {env.get('relspan', '')} and the versions above (for example with pip).",
+              f"2. In the folder holding `{spec.path.name}`, run `relspan build {spec.path.name}`; it writes "
+              f"the site to `{spec.site.out}`.",
+              "3. Compare the `SHA256SUMS` file of the new site with the published one.", "",
+              "## List of tables, figures and programs", "",
+              "| Output | Program | File |", "|---|---|---|"]
+    for what, program, path in _outputs(run, pub):
+        lines.append(f"| {what} | {program} | {path} |")
+    return "\n".join(lines).replace("`", "'") + "\n"
+
+
+def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
+    spec = run.spec
+    spec_bytes = spec.text.encode("utf-8")
+    rows = [(md("{} (the spec)", code(spec.path.name)), Raw(f"`{_sha256(spec_bytes)}`"))]
+    rows += [(code(ds.source), Raw(f"`{r.prepared.sha256}`")) for ds, r in zip(spec.datasets, run.datasets)]
+    env_rows = sorted(run.environment.items())
+    seeds = sorted({ds.checks.seed for ds in spec.datasets})
+    body = [
+        Raw("## In plain words {#summary}\n"),
+        Raw("Everything on this site is computed from the spec and the data files below. With the same "
+            "inputs and the same package versions, a rebuild produces the same bytes: compare the "
+            "`SHA256SUMS` file at the site's root. Nothing on this page changes between two builds of the "
+            "same inputs.\n"),
+        Raw("## The one command {#command}\n"),
+        Raw("In the folder that holds the spec:\n"),
+        # the spec's file name as typed in a shell (a fenced block shows it literally)
+        Raw(f"```\nrelspan build {spec.path.name}\n```\n"),
+        Raw(f"`relspan check {spec.path.name}` re-checks the claims without writing the site.\n"),
+        Raw("## Inputs {#inputs}\n"),
+        table(("File", "SHA-256"), rows, csv=(pub, "data/tables/inputs.csv")),
+        md("\nThe spec as used: {}.\n", link(spec.path.name, spec_download)),
+        Raw(f"Seed of the independent-noise search (checks.seed): {', '.join(str(s) for s in seeds)}.\n"),
+        Raw("## Software {#software}\n"),
+        table(("Package", "Version"), env_rows, csv=(pub, "data/tables/software.csv")),
+        Raw("\n## For a replication package README {#readme}\n"),
+        Raw("A section ready to paste, in the structure commonly used for replication packages "
+            "(data availability, computational requirements, instructions, and a list mapping each table "
+            "and figure to the program and output file):\n"),
+        Raw("```markdown\n" + _replication_readme(run, pub) + "```\n"),
+        blocks.callout(USUAL_CAUTIONS, title="Read with care"),
+    ]
+    return Page("reproduce.html", "Reproduce", "\n".join(body), "reproduce", breadcrumbs=(HOME,),
+                description="Inputs, versions and the one command that rebuilds this site.")
+
+
+def downloads_page(run, pub: Publisher) -> Page:
+    body = [Raw("## In plain words {#summary}\n"),
+            Raw("Every number on this site, to download. The JSON files follow a documented schema "
+                "([results.schema.json](/data/results.schema.json), JSON Schema draft 2020-12); keys are sorted "
+                "and the bytes are the same on every build of the same inputs. Every table on a page also has "
+                "its own CSV link underneath it.\n"),
+            Raw("## The whole report {#all}\n"),
+            Raw("- [All results (JSON)](/data/results.json)"),
+            Raw("- [Schema of the results (JSON Schema)](/data/results.schema.json)"),
+            Raw("- [Claim verdicts (CSV)](/data/claims.csv)"),
+            Raw("- [Findings in plain words (CSV)](/data/findings.csv)"), Raw("")]
+    for r in run.datasets:
+        ds = r.spec
+        body.append(md("## {} {{#dl-{}}}\n", ds.title, Raw(ds.id)))
+        body.append(Raw(f"- [Results (JSON)](/data/{ds.id}/results.json)\n"
+                        f"- [Full sample, every assumption (CSV)](/data/{ds.id}/assumptions.csv)\n"
+                        f"- [Every window, every assumption (CSV)](/data/{ds.id}/windows.csv)"))
+        for path in sorted(p for p in pub.files if p.startswith(f"data/{ds.id}/tables/") and p.count("/") == 3):
+            body.append(md("- {}", link(f"Table: {path.rsplit('/', 1)[1][:-4]} (CSV)", "/" + path)))
+        body.append(Raw(f"- Each figure's data: the CSV link under the figure on "
+                        f"[the dataset page](/{dataset_path(ds.id)}); each window's tables on its window page.\n"))
+    return Page("downloads.html", "Downloads", "\n".join(body), "downloads", breadcrumbs=(HOME,),
+                description="Every table and result as CSV and JSON.")
