@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import Sequence
 
 from relspan import __version__
-from relspan.errors import OptionsError, RelspanError, RelspanWarning
+from relspan.errors import OptionsError, RelspanError, RelspanNote, RelspanWarning
 
 __all__ = ["main"]
 
@@ -116,7 +116,9 @@ def _run_options(args: argparse.Namespace) -> dict:
 def _print_warnings(caught: Sequence[warnings.WarningMessage]) -> int:
     count = 0
     for w in caught:
-        if issubclass(w.category, RelspanWarning):
+        if issubclass(w.category, RelspanNote):
+            print(f"note: {w.message}", file=sys.stderr)
+        elif issubclass(w.category, RelspanWarning):
             count += 1
             print(f"warning: {w.message}", file=sys.stderr)
     return count
@@ -127,6 +129,7 @@ def _cmd_build(args: argparse.Namespace) -> int:
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
+        warnings.simplefilter("always", RelspanNote)
         outcome = build(args.spec, out=args.out, **_run_options(args))
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())
@@ -139,6 +142,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
+        warnings.simplefilter("always", RelspanNote)
         outcome = check(args.spec, **_run_options(args))
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())

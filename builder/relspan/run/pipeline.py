@@ -273,7 +273,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
     from relspan.run.progress import Progress
 
     if cache is None:
-        cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
+        cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir, create=write_cache)
     own = executor is None
     lazy = executor or LazyExecutor(jobs, scheduler)
     results: list[DatasetResult] = []
@@ -310,8 +310,12 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
                        cache_misses=cache.misses)
 
 
-def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None):
-    """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled."""
+def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None, create: bool = True):
+    """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled.
+
+    ``create=False`` reads an existing folder only (``relspan check`` writes nothing).
+    """
     from relspan.run.cache import DEFAULT_CACHE_DIRNAME, ResultCache
 
-    return ResultCache((cache_dir or spec.folder / DEFAULT_CACHE_DIRNAME) if use_cache else None)
+    return ResultCache((cache_dir or spec.folder / DEFAULT_CACHE_DIRNAME) if use_cache else None,
+                       create=create)
