@@ -30,6 +30,7 @@ import pandas as pd
 
 from relspan.analysis.moments import Moments
 from relspan.data.blocks import BlockBuilder, BlockTable, assemble_stacked, tree_levels
+from relspan.data.sources.cells import check_not_tiny
 from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, TableSource,
                                   arrow_available, numeric_block, open_source, select_columns,
                                   time_text)
@@ -383,6 +384,7 @@ class _Pass:
         self.blocks = BlockBuilder(n, lambda p, t: grid.keys(p, t, self.t0), timed=timed)
         self.origin: np.ndarray | None = None
         self.overview = _OverviewBuilder(n, timed)
+        self.largest = np.zeros(n)   # largest |value| per column (after row transforms)
         self.lo = self.hi = None
         if timed:
             key = "time"
@@ -423,6 +425,22 @@ class _Pass:
             self.order = OrderCheck(path=self.path, column=col, fmt=self.fmt)
         return parse_times(chunk.times, self.fmt, path=self.path, column=col, rows=chunk.rows)
 
+    def _periods(self, t: np.ndarray | None) -> np.ndarray | None:
+        """Period numbers of yearly, quarterly or monthly times (consecutive ones differ by 1).
+
+        None for daily or finer times and without a time column: those are
+        differenced row to row.
+        """
+        if t is None or self.fmt is None:
+            return None
+        months = self.fmt.period_months_days_seconds()[0]
+        if not months:
+            return None
+        ok = ~np.isnat(t)
+        out = np.zeros(t.size, dtype=np.int64)
+        out[ok] = np.floor_divide(t[ok].astype("datetime64[M]").astype(np.int64), months)
+        return out
+
     def feed(self, chunk: RawChunk) -> None:
         values, rows = chunk.values, chunk.rows
         t = None
@@ -440,13 +458,15 @@ class _Pass:
                 self.rows_outside += int((~inside).sum())
                 if not inside.all():
                     values, rows, t = values[inside], rows[inside], t[inside]
-        y, keep = self.stream.apply(values, rows, None if t is None else np.isnat(t))
+        y, keep = self.stream.apply(values, rows, None if t is None else np.isnat(t),
+                                    self._periods(t))
         if y.shape[0] == 0:
             return
         src = rows[keep]
         tk = None if t is None else t[keep]
         if tk is not None and self.t0 is None:
             self.t0 = tk[0]
+        self.largest = np.fmax(self.largest, np.abs(y).max(axis=0))
         if self.origin is None:
             self.origin = y[0].copy()
         rel = y - self.origin   # exact for values within a factor 2 of the origin (Sterbenz)
@@ -480,6 +500,7 @@ class _Pass:
             raise DataError(f"dataset {self.dataset_id!r} has only {self.kept} analysed rows, but "
                             f"{n} variables need at least {n + 2}.", path=path,
                             fix="use more data, or analyse fewer variables.")
+        check_not_tiny(self.largest, self.names, path=path)
         blocks = self.blocks.finish(self.origin)
         levels = tree_levels(blocks)
         fc, fm, fcm = assemble_stacked(blocks, np.array([0]), np.array([len(blocks)]),
