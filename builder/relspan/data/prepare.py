@@ -536,6 +536,8 @@ class _Pass:
         if blocks.first_time is not None:
             a, b = format_times(np.array([blocks.first_time[0], blocks.last_time[-1]]), self.fmt)
             period = (a, b)
+            _check_plottable(blocks.first_time[0], blocks.last_time[-1], a, b,
+                             column=self.time.column, path=path)
         return PreparedDataset(
             dataset_id=self.dataset_id, variables=self.names, labels=tuple(labels),
             units=tuple(units), transforms=self.transforms, source=source, sha256=sha256,
@@ -544,6 +546,28 @@ class _Pass:
             time_format=self.fmt, period=period, plans=tuple(prepared_plans), full=full,
             blocks=blocks, shift=shift, scale=scale,
             overview=self.overview.finish(self.names, shift_rel, scale, offset, self.fmt))
+
+
+#: calendar years the figures' date axes can show (matplotlib's date range is years 1 to 9999)
+PLOTTABLE_YEARS = (1, 9999)
+
+
+def _check_plottable(first, last, a: str, b: str, *, column: str, path: str | None) -> None:
+    """Times must leave room for the axes' margins inside years 1-9999 (else figures fail).
+
+    The margin allowed for is a tenth of the span (at least a year) on each side.
+    """
+    y0 = int(str(np.datetime64(first, "Y")))
+    y1 = int(str(np.datetime64(last, "Y")))
+    pad = max((y1 - y0) / 10.0, 1.0)
+    lo, hi = PLOTTABLE_YEARS
+    if y0 - pad < lo or y1 + pad > hi:
+        raise DataError(
+            f"column {column!r} runs from {a} to {b}, too close to year {lo if y0 - pad < lo else hi} "
+            f"for the figures' date axes, which show years {lo} to {hi} with a margin on each side.",
+            path=path, column=column, got=f"{a} to {b}",
+            fix="if these numbers are not calendar years, leave the time column out (rows are then "
+                "numbered) or add a fixed number of years to every value (e.g. 2000).")
 
 
 def _check_setup(dataset_id: str, names: Sequence[str], transforms: Sequence[str], missing: str,
@@ -571,11 +595,12 @@ def _check_setup(dataset_id: str, names: Sequence[str], transforms: Sequence[str
     if missing not in MISSING_POLICIES:
         raise DataError(f"missing {missing!r} is not drop or fail.", path=path, key="missing",
                         got=missing, fix="set missing: drop or missing: fail.")
-    ids = [p.id for p in plans]
-    dup = {i for i in ids if ids.count(i) > 1}
-    if dup:
-        raise DataError(f"window plan id {sorted(dup)[0]!r} is given twice.", path=path,
-                        key="windows", fix="give every window plan its own id.")
+    ids: set[str] = set()
+    for p in plans:
+        if p.id in ids:
+            raise DataError(f"window plan id {p.id!r} is given twice.", path=path,
+                            key="windows", fix="give every window plan its own id.")
+        ids.add(p.id)
 
 
 def prepare_dataset(ds: DatasetSpec, plans: Sequence[WindowPlanSpec], *,

@@ -329,7 +329,13 @@ class ResultCache:
     def _prepare(self) -> None:
         folder = self._folder
         assert folder is not None
-        if folder.exists() and not folder.is_dir():
+        try:
+            exists = folder.exists()
+        except OSError as exc:
+            raise OutputError(
+                f"cannot use the cache folder {folder} ({exc.strerror or exc}).", path=str(folder),
+                key="--cache-dir", fix="point the cache elsewhere (--cache-dir), or use --no-cache.") from None
+        if exists and not folder.is_dir():
             raise OutputError(
                 f"the cache folder {folder} exists but is not a folder.", path=str(folder),
                 fix="remove or rename that file, point the cache elsewhere, or use --no-cache.")
