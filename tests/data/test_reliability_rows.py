@@ -123,21 +123,23 @@ pq = pytest.importorskip("pyarrow.parquet")
 
 
 class TestParquet:
-    def test_time_zone_keeps_the_local_wall_time(self, tmp_path):
+    @staticmethod
+    def _paris_months(tmp_path):
+        """36 monthly values stamped at local midnight in Paris (UTC+1/+2): the previous day in UTC."""
         rng = np.random.default_rng(2)
         stamps = pd.date_range("2019-01-01", periods=36, freq="MS", tz="Europe/Paris")
         df = pd.DataFrame({"month": stamps, **{c: rng.normal(size=36) for c in "abc"}})
         path = tmp_path / "tz.parquet"
         df.to_parquet(path)
+        return path
+
+    def test_time_zone_keeps_the_local_wall_time(self, tmp_path):
+        path = self._paris_months(tmp_path)
         p = prepare_dataset(make_spec(path, ["a", "b", "c"], time=TimeSpec("month", "month")), [FULL])
         assert p.period == ("2019-01", "2021-12")  # not 2018-12 .. 2021-11 in UTC
 
     def test_yearly_periods_hold_january_to_december_local_time(self, tmp_path):
-        rng = np.random.default_rng(2)
-        stamps = pd.date_range("2019-01-01", periods=36, freq="MS", tz="Europe/Paris")
-        df = pd.DataFrame({"month": stamps, **{c: rng.normal(size=36) for c in "abc"}})
-        path = tmp_path / "tz.parquet"
-        df.to_parquet(path)
+        path = self._paris_months(tmp_path)
         plan = rolling("y", 1, 1, "years")
         p = prepare_dataset(make_spec(path, ["a", "b", "c"], time=TimeSpec("month", "month")), [plan])
         assert [w.rows for w in p.plan("y").windows] == [12, 12, 12]
