@@ -204,7 +204,7 @@ def _parse_yaml(text: str, ctx: Context) -> LineDict:
 
 
 def expanded_size(raw: Any) -> float:
-    """Values plus characters of text in ``raw`` with every alias filled in (inf for a cycle).
+    """Values plus characters of text in ``raw`` with every alias filled in.
 
     Shared nodes (what aliases make) are counted each time they are used, but
     computed once, so the cost is linear in the file, not in the expansion.
@@ -221,7 +221,7 @@ def expanded_size(raw: Any) -> float:
         if k in memo:
             return memo[k]
         if k in busy:
-            return math.inf  # an alias inside its own anchor
+            return 1  # an alias inside its own anchor: one reference (the schema refuses it later)
         busy.add(k)
         items = (list(node.keys()) + list(node.values())) if isinstance(node, dict) else node
         total = 1.0
