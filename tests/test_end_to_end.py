@@ -64,7 +64,7 @@ def differing(a: dict[str, str], b: dict[str, str]) -> list[str]:
 
 
 def cache_entries(cache: Path) -> set[str]:
-    return {p.relative_to(cache).as_posix() for p in cache.rglob("*.pkl")}
+    return {p.relative_to(cache).as_posix() for p in cache.rglob("*.npz")}
 
 
 def pages(site: Path) -> list[Path]:

@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import Sequence
 
 from relspan import __version__
-from relspan.errors import OptionsError, RelspanError, RelspanWarning
+from relspan.errors import OptionsError, RelspanError, RelspanNote, RelspanWarning
 
 __all__ = ["main"]
 
@@ -36,6 +36,18 @@ class _Parser(argparse.ArgumentParser):
 
     def error(self, message: str) -> None:  # pragma: no cover - argparse calls sys.exit
         self.exit(EXIT_BAD_INPUT, f"relspan: {message}\n  Fix: see `{self.prog} --help`.\n")
+
+
+def _port(text: str) -> int:
+    """A TCP port number, 0 (any free port) to 65535."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number; got {text!r}") from None
+    if not 0 <= value <= 65535:
+        raise argparse.ArgumentTypeError(
+            f"must be from 0 (any free port) to 65535; got {value}")
+    return value
 
 
 def _add_run_options(p: argparse.ArgumentParser) -> None:
@@ -87,7 +99,8 @@ def _parser() -> argparse.ArgumentParser:
                                    "interfaces). Stop with Ctrl-C.",
                        epilog="Example: relspan serve site_demo --port 8000")
     s.add_argument("folder", help="a folder written by `relspan build`")
-    s.add_argument("--port", type=int, default=8000, help="port on 127.0.0.1 (default 8000; 0 = any free)")
+    s.add_argument("--port", type=_port, default=8000,
+                   help="port on 127.0.0.1 (default 8000; 0 = any free)")
 
     n = sub.add_parser("new", help="write a starter spec for a CSV file",
                        description="Write a commented starter spec for CSV: numeric columns as "
@@ -113,6 +126,30 @@ def _run_options(args: argparse.Namespace) -> dict:
                 progress=not args.quiet)
 
 
+class _Warnings(warnings.catch_warnings):
+    """Record relspan's warnings for the end of the command; print notes at once (they come
+    before long work, e.g. "this plan has 3,000 windows")."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.caught: list[warnings.WarningMessage] = []
+
+    def __enter__(self) -> list[warnings.WarningMessage]:
+        super().__enter__()
+        warnings.simplefilter("always", RelspanWarning)
+        warnings.simplefilter("always", RelspanNote)
+
+        def show(message, category, filename, lineno, file=None, line=None):
+            if issubclass(category, RelspanNote):
+                print(f"note: {message}", file=sys.stderr, flush=True)
+            else:
+                self.caught.append(warnings.WarningMessage(message, category, filename, lineno,
+                                                           file, line))
+
+        warnings.showwarning = show
+        return self.caught
+
+
 def _print_warnings(caught: Sequence[warnings.WarningMessage]) -> int:
     count = 0
     for w in caught:
@@ -125,8 +162,7 @@ def _print_warnings(caught: Sequence[warnings.WarningMessage]) -> int:
 def _cmd_build(args: argparse.Namespace) -> int:
     from relspan.api import build
 
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", RelspanWarning)
+    with _Warnings() as caught:
         outcome = build(args.spec, out=args.out, **_run_options(args))
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())
@@ -137,8 +173,7 @@ def _cmd_build(args: argparse.Namespace) -> int:
 def _cmd_check(args: argparse.Namespace) -> int:
     from relspan.api import check
 
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", RelspanWarning)
+    with _Warnings() as caught:
         outcome = check(args.spec, **_run_options(args))
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())
@@ -175,8 +210,20 @@ def _cmd_new(args: argparse.Namespace) -> int:
                            path=str(spec_path), key="--out",
                            fix="choose another --out, or delete the file first.")
     tmp = spec_path.with_name(f".{spec_path.name}.relspan-tmp")
-    tmp.write_text(text, encoding="utf-8")
-    tmp.replace(spec_path)
+    try:
+        tmp.write_text(text, encoding="utf-8")
+        tmp.replace(spec_path)
+    except OSError as err:
+        try:
+            tmp.unlink()
+        except OSError:
+            pass
+        folder = spec_path.parent
+        why = ("that folder does not exist" if not folder.exists() else
+               f"{err.strerror or err}")
+        raise OptionsError(f"cannot write the starter spec {spec_path}: {why}.", path=str(spec_path),
+                           key="--out", fix="give --out a path in an existing folder you may write "
+                                            "to, or create the folder first.") from None
     print(f"starter spec written to {spec_path}; next: relspan check {spec_path}")
     return EXIT_OK
 

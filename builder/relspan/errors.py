@@ -40,6 +40,7 @@ __all__ = [
     "RelspanWarning",
     "IllConditionedWarning",
     "NumericalWarning",
+    "RelspanNote",
 ]
 
 
@@ -180,3 +181,11 @@ class IllConditionedWarning(RelspanWarning):
 
 class NumericalWarning(RelspanWarning):
     """A computation converged poorly or hit a limit; the result says how."""
+
+
+class RelspanNote(UserWarning):
+    """Something the user should know that changes no result (``--strict`` ignores it).
+
+    E.g. a result cache made under other library versions is not reused. The
+    command line prints it as one ``note:`` line on stderr.
+    """

@@ -40,11 +40,15 @@ def run_cli(*args: str, cwd: Path, timeout: float = 600) -> subprocess.Completed
 
 
 def snapshot(folder: Path) -> dict[str, bytes | None]:
-    """Every file (its bytes) and folder (None) below ``folder``, keyed by relative POSIX path."""
+    """Every file (its bytes), folder (None) and symbolic link (its target) below ``folder``,
+    keyed by relative POSIX path."""
     out: dict[str, bytes | None] = {}
     for p in sorted(folder.rglob("*")):
         rel = p.relative_to(folder).as_posix()
-        out[rel] = None if p.is_dir() and not p.is_symlink() else p.read_bytes()
+        if p.is_symlink():
+            out[rel] = b"-> " + os.fsencode(os.readlink(p))  # the link itself (it may loop)
+        else:
+            out[rel] = None if p.is_dir() else p.read_bytes()
     return out
 
 

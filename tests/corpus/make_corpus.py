@@ -37,9 +37,9 @@ datasets:
 CASES = {}
 
 def case(name, *, command="check", fragment, spec=None, files=None, args=(), spec_arg="spec.yaml",
-         prebuilt=None, note="", exit=2):
+         prebuilt=None, note="", exit=2, links=None):
     CASES[name] = dict(command=command, fragment=fragment, spec=spec, files=files or {}, args=list(args),
-                       spec_arg=spec_arg, prebuilt=prebuilt, note=note, exit=exit)
+                       spec_arg=spec_arg, prebuilt=prebuilt, note=note, exit=exit, links=links or {})
 
 D = {"data/d.csv": GOOD_CSV}
 
@@ -240,9 +240,70 @@ case("noise-share-zero-with-shaped", fragment="datasets[0].variables[0].noise_sh
      spec=spec_text(variables="[{column: a, noise_share: 0}, {column: b, noise_share: 1}, {column: c, noise_share: 1}]",
                     checks="{assumptions: [shaped]}"), files=D)
 
+# ---- issue 17: user mistakes that used to end in an internal error (exit 3) or a wrong diagnosis
+def timed_csv(values, header="t,a,b,c"):
+    return csv_text([(v, *r[1:]) for v, r in zip(values, rows)], header)
+
+def pattern_spec(fmt):
+    return spec_text(time=f'{{column: t, format: "{fmt}"}}')
+
+case("time-format-unknown-directive", fragment="datasets[0].time.format '%YQ%Q' cannot be used",
+     note="a strftime pattern with a directive Python cannot read (%Q)",
+     spec=pattern_spec("%YQ%Q"), files={"data/d.csv": timed_csv([f"{1950 + i // 4}Q{i % 4 + 1}" for i in range(40)])})
+case("time-format-epoch-seconds", fragment="%s (seconds since 1970)", note="a time pattern of seconds since 1970 (%s)",
+     spec=pattern_spec("%s"), files={"data/d.csv": timed_csv([str(10**6 + 86400 * i) for i in range(40)])})
+case("time-format-iso-week", fragment="ISO year directive", note="ISO weeks (%G-W%V) without a weekday",
+     spec=pattern_spec("%G-W%V"), files={"data/d.csv": timed_csv([f"2020-W{i + 1:02d}" for i in range(40)])})
+case("dates-two-digit-year-pivot", fragment="two-digit years (%y)",
+     note="two-digit years crossing 68/69: the century pivot is named, not 'sort the file'",
+     spec=pattern_spec("%y"), files={"data/d.csv": timed_csv([f"{(50 + i) % 100:02d}" for i in range(40)])})
+case("dates-near-year-one", command="build", fragment="too close to year 1",
+     note="years 1-40: the figures' date axes cannot show them (check says so too)",
+     spec=pattern_spec("%Y"), files={"data/d.csv": timed_csv([f"{i + 1:04d}" for i in range(40)])})
+case("title-lone-surrogate", command="build", fragment="report.title holds the lone surrogate",
+     note="a \\u escape in the title that is half a character", spec=spec_text(title='"x\\udc80y"'), files=D)
+case("variable-blank-name", command="build", fragment="datasets[0].variables[0].column is ' '",
+     note="a column named ' ' (its label would be blank)", spec=spec_text(variables='[{column: " "}, {column: b}, {column: c}]'),
+     files={"data/d.csv": csv_text(rows, "year, ,b,c")})
+case("out-name-too-long", command="build", fragment="too long", note="--out with a 300-character name",
+     spec=spec_text(), files=D, args=["--out", "a" * 300])
+case("cache-dir-name-too-long", command="build", fragment="cache folder", note="--cache-dir with a 300-character name",
+     spec=spec_text(), files=D, args=["--cache-dir", "c" * 300])
+case("out-symlink-loop", command="build", fragment="symbolic links form a loop", note="--out through a symlink loop",
+     spec=spec_text(), files=D, args=["--out", "loop1/site"], links={"loop1": "loop2", "loop2": "loop1"})
+case("cache-dir-symlink-loop", command="build", fragment="cache folder", note="--cache-dir through a symlink loop",
+     spec=spec_text(), files=D, args=["--cache-dir", "loop1/cache"], links={"loop1": "loop2", "loop2": "loop1"})
+case("jobs-huge", fragment="--jobs 99999999999", note="--jobs 99999999999", spec=spec_text(), files=D,
+     args=["--jobs", "99999999999"])
+short = [list(r) for r in rows]; del short[7][2]
+case("data-short-row", fragment="line 9 has 3 fields but the header has 4: a value is left out",
+     note="a row with a value left out (not emptied): refused, naming the line", spec=spec_text(),
+     files={"data/d.csv": csv_text(short)})
+tiny = [(r[0], f"{r[1] * 1e-161:.6e}", r[2], r[3]) for r in rows]
+case("cell-tiny-magnitude", fragment="every value is smaller than 1e-150",
+     note="a column of values near 1e-161: their squares underflow", spec=spec_text(), files={"data/d.csv": csv_text(tiny)})
+case("source-dev-zero", fragment="special file of the operating system", note="/dev/zero as a source (allow_outside)",
+     spec=spec_text(source="/dev/zero", extra_ds="    allow_outside: true\n"), files=D)
+case("source-proc-file", fragment="special file of the operating system", note="a /proc file (size 0, not empty)",
+     spec=spec_text(source="/proc/self/stat", extra_ds="    allow_outside: true\n"), files=D)
+bomb = 'x: &a0 "' + "y" * 100 + '"\n' + "".join(f"x{i}: &a{i} [" + ", ".join([f"*a{i - 1}"] * 10) + "]\n" for i in range(1, 7))
+case("yaml-alias-expansion", fragment="aliases", note="a small spec whose YAML aliases expand a millionfold",
+     spec=spec_text(top_extra="anchors:\n" + "".join("  " + line + "\n" for line in bomb.splitlines())), files=D)
+case("cache-dir-inside-site", command="build", fragment="inside the site folder", prebuilt="_site",
+     note="--cache-dir inside the previous site: refused before anything is written",
+     spec=spec_text(), files=D, args=["--cache-dir", "_site/cache"])
+
 # ---- positive controls (exit 0; not counted among the bad inputs)
 case("ok-bom-header", exit=0, fragment="", note="positive control: a UTF-8 BOM before a matching header reads fine",
      spec=spec_text(), files={"data/d.csv": "\ufeff" + GOOD_CSV})
+case("ok-trailing-separator", exit=0, fragment="",
+     note="positive control: every data row ends with a separator (read as if it were not there)",
+     spec=spec_text(), files={"data/d.csv": "year,a,b,c\n" + "".join(",".join(map(str, r)) + ",\n" for r in rows)})
+case("ok-mixed-utc-offsets", exit=0, fragment="",
+     note="positive control: a %z pattern with two UTC offsets (times read as local wall time)",
+     spec=pattern_spec("%Y-%m-%d %z"),
+     files={"data/d.csv": timed_csv([f"2020-{1 + i // 28:02d}-{1 + i % 28:02d} " + ("+0100" if i % 2 else "+0200")
+                                     for i in range(40)])})
 case("ok-plain", command="build", exit=0, fragment="", note="positive control: the good spec every case above breaks; "
      "its site is the previous good site of the rebuild cases", spec=spec_text(), files=D)
 
@@ -262,6 +323,8 @@ def write():
             p = (folder / rel)
             p.parent.mkdir(parents=True, exist_ok=True)
             p.write_bytes(text.encode("utf-8", "surrogateescape"))
+        for rel, target in c["links"].items():
+            (folder / rel).symlink_to(target)
         meta = {"command": c["command"], "spec": c["spec_arg"], "exit": c["exit"], "fragment": c["fragment"],
                 "what": c["note"]}
         if c["args"]:

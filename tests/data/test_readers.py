@@ -98,7 +98,7 @@ def test_round_trip_decimal_text_parses_to_the_same_doubles():
 
 
 @pytest.mark.parametrize("body, why", [
-    ("a,b\n1,2\n3\n5,6\n7,8\n9,1\n2,2\n", "a short row (pandas fills it with missing cells)"),
+    ("a,b\n1,2\n3,4,\n5,6\n7,8\n9,1\n2,2\n", "a row ending with a separator (read as if it were not there)"),
 ])
 def test_files_pyarrow_might_read_differently_fall_back_to_pandas(write_csv, body, why):
     path = write_csv(body)
@@ -113,6 +113,7 @@ def test_files_pyarrow_might_read_differently_fall_back_to_pandas(write_csv, bod
 @pytest.mark.parametrize("body, match", [
     (b"a,b\n1,2\n3,x\n", r"column 'b', row 2: 'x' is not a number"),
     (b"a,b\n1,2\n3,4,5\n", r"line \d+ has 3 fields but the header has 2"),
+    (b"a,b\n1,2\n3\n5,6\n", r"line 3 has 1 fields but the header has 2: a value is left out"),
     (b"a,b,c\n1,2,\xff\n3,4,5\n", r"is not UTF-8 text: the byte at offset 10 \(line 2\)"),
     (b"a,b\n1,2\n3,NAN\n", r"column 'b', row 2: 'NAN' is not a number"),
     (b"a,b\n1,2\n3,0x10\n", r"column 'b', row 2: '0x10' is not a number"),

@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import json
 import os
 import pickle
 import subprocess
+import zipfile
 import sys
 import textwrap
 from dataclasses import dataclass
@@ -13,13 +15,15 @@ from pathlib import Path, PurePosixPath
 import numpy as np
 import pytest
 
-from relspan.errors import OutputError, RelspanWarning
+from relspan.errors import OutputError, RelspanNote, RelspanWarning
 from relspan.run import cache as cache_module
+from relspan.run import codec
 from relspan.run.cache import ResultCache, canonical_json, task_key
 
 KEY = task_key(task="demo", n=1)
 
 
+@codec.allow
 @dataclass(frozen=True, slots=True)
 class Result:
     corank: int
@@ -105,11 +109,19 @@ class TestResultCache:
         got = c.get(KEY)
         assert got.corank == 2 and np.array_equal(got.angles, value.angles)
 
-    def test_entry_is_a_protocol_5_pickle(self, tmp_path):
+    def test_entry_is_an_uncompressed_npz_of_a_json_header_and_plain_arrays(self, tmp_path):
         c = ResultCache(tmp_path)
-        c.put(KEY, [1, 2])
-        blob = c.path_for(KEY).read_bytes()
-        assert b"\x80\x05" in blob[:120]  # pickle protocol 5 opcode PROTO 5 starts the payload
+        c.put(KEY, Result(2, np.array([0.5, 1.25])))
+        path = c.path_for(KEY)
+        assert path.suffix == ".npz" and path.parent.parent.name.startswith("env-")
+        with zipfile.ZipFile(path) as zf:
+            assert sorted(zf.namelist()) == ["a0.npy", "header.npy"]
+            assert all(i.compress_type == zipfile.ZIP_STORED for i in zf.infolist())
+        with np.load(path, allow_pickle=False) as npz:
+            header = json.loads(npz["header"].tobytes())
+            assert np.array_equal(npz["a0"], [0.5, 1.25])
+        assert header["key"] == KEY and header["value"]["$"] == "dc"
+        assert b"\x80\x05" not in path.read_bytes()  # no pickle stream anywhere
 
     def test_counts_hits_and_misses(self, tmp_path):
         c = ResultCache(tmp_path)
@@ -144,6 +156,7 @@ class TestResultCache:
         ResultCache(tmp_path).put(KEY, {"x": 1.5})
         assert ResultCache(tmp_path).get(KEY) == {"x": 1.5}
 
+    @pytest.mark.filterwarnings("ignore::relspan.errors.RelspanNote")
     @pytest.mark.parametrize("damage", ["truncate", "flip", "garbage", "empty", "other_key"])
     def test_damaged_entries_are_misses(self, tmp_path, damage):
         c = ResultCache(tmp_path)
@@ -168,12 +181,10 @@ class TestResultCache:
 
     def test_entry_whose_class_is_gone_is_a_miss(self, tmp_path):
         c = ResultCache(tmp_path)
-        payload = pickle.dumps(Result(1, np.zeros(1)), protocol=5).replace(b"Result", b"Rezult")
-        c.put(KEY, 0)
-        path = c.path_for(KEY)
-        import hashlib
-        path.write_bytes(cache_module._MAGIC + KEY.encode() + hashlib.sha256(payload).digest() + payload)
-        assert c.get(KEY, "miss") == "miss"
+        c.put(KEY, Result(1, np.zeros(1)))
+        _rewrite_header(c.path_for(KEY), lambda h: h["value"].update(c=h["value"]["c"] + "Gone"))
+        with pytest.warns(RelspanNote, match="not a valid relspan cache entry"):
+            assert c.get(KEY, "miss") == "miss"
 
     def test_failed_write_keeps_the_old_entry_and_leaves_no_temp_file(self, tmp_path, monkeypatch):
         c = ResultCache(tmp_path)
@@ -190,8 +201,8 @@ class TestResultCache:
         assert c.stats.write_errors == 1
         assert not list(tmp_path.rglob("*.part"))
 
-    def test_unpicklable_value_is_a_programming_error(self, tmp_path):
-        with pytest.raises(Exception):
+    def test_value_the_codec_cannot_store_is_a_programming_error(self, tmp_path):
+        with pytest.raises(codec.CodecError):
             ResultCache(tmp_path).put(KEY, lambda: 0)
         assert not list(tmp_path.rglob("*.part"))
 
@@ -211,3 +222,166 @@ class TestResultCache:
     def test_rejects_keys_not_made_by_task_key(self, tmp_path):
         with pytest.raises(ValueError, match="64 lower-case hex"):
             ResultCache(tmp_path).get("../../etc/passwd")
+
+
+def _rewrite_header(path: Path, change) -> None:
+    """Rewrite an entry's JSON header in place (a forged entry with a valid container)."""
+    with np.load(path, allow_pickle=False) as npz:
+        members = {k: npz[k] for k in npz.files}
+    header = json.loads(members["header"].tobytes())
+    change(header)
+    members["header"] = np.frombuffer(json.dumps(header).encode(), dtype=np.uint8)
+    with open(path, "wb") as fh:
+        np.savez(fh, **members)
+
+
+class _Boom:
+    """Unpickling this creates the file named in ``os.environ['RELSPAN_TEST_BOOM']``."""
+
+    def __reduce__(self):
+        return (open, (os.environ["RELSPAN_TEST_BOOM"], "w"))
+
+
+class TestNothingInACacheRuns:
+    """Planted pickles and forged headers are ignored with one note; nothing executes."""
+
+    def test_planted_pickle_in_the_old_layout_is_ignored_with_a_note_and_never_loaded(
+            self, tmp_path, monkeypatch):
+        boom = tmp_path / "ran"
+        monkeypatch.setenv("RELSPAN_TEST_BOOM", str(boom))
+        folder = tmp_path / "cache"
+        (folder / KEY[:2]).mkdir(parents=True)
+        (folder / KEY[:2] / f"{KEY}.pkl").write_bytes(pickle.dumps(_Boom()))
+        with pytest.warns(RelspanNote, match="older cache format .* never loaded"):
+            c = ResultCache(folder)
+        assert c.get(KEY, "miss") == "miss"
+        assert not boom.exists()
+
+    def test_pickle_written_at_the_entry_path_is_a_miss_with_a_note(self, tmp_path, monkeypatch):
+        boom = tmp_path / "ran"
+        monkeypatch.setenv("RELSPAN_TEST_BOOM", str(boom))
+        c = ResultCache(tmp_path / "cache")
+        path = c.path_for(KEY)
+        path.parent.mkdir(parents=True)
+        path.write_bytes(pickle.dumps(_Boom()))
+        with pytest.warns(RelspanNote, match="not a valid relspan cache entry"):
+            assert c.get(KEY, "miss") == "miss"
+        assert not boom.exists()
+
+    @pytest.mark.parametrize("forged", ["builtins:eval", "os:system", "relspan.cli:main",
+                                        "relspan.run.cache:ResultCache", "subprocess:Popen"])
+    def test_forged_header_naming_a_class_outside_the_allow_list_is_refused(self, tmp_path, forged):
+        c = ResultCache(tmp_path / "cache")
+        c.put(KEY, Result(1, np.zeros(1)))
+        _rewrite_header(c.path_for(KEY), lambda h: h["value"].update(c=forged))
+        with pytest.warns(RelspanNote, match="not a valid relspan cache entry"):
+            assert c.get(KEY, "miss") == "miss"
+
+    def test_forged_object_array_member_is_refused_without_unpickling(self, tmp_path, monkeypatch):
+        boom = tmp_path / "ran"
+        monkeypatch.setenv("RELSPAN_TEST_BOOM", str(boom))
+        c = ResultCache(tmp_path / "cache")
+        c.put(KEY, Result(1, np.zeros(1)))
+        path = c.path_for(KEY)
+        with np.load(path, allow_pickle=False) as npz:
+            header = npz["header"]
+        evil = np.empty(1, dtype=object)
+        evil[0] = _Boom()
+        with open(path, "wb") as fh:
+            np.savez(fh, header=header, a0=evil)  # numpy pickles object arrays when writing
+        with pytest.warns(RelspanNote, match="not a valid relspan cache entry"):
+            assert c.get(KEY, "miss") == "miss"
+        assert not boom.exists()
+
+    def test_compressed_member_is_refused(self, tmp_path):
+        c = ResultCache(tmp_path / "cache")
+        c.put(KEY, [1, 2, 3])
+        path = c.path_for(KEY)
+        with np.load(path, allow_pickle=False) as npz:
+            members = {k: npz[k] for k in npz.files}
+        with open(path, "wb") as fh:
+            np.savez_compressed(fh, **members)
+        with pytest.warns(RelspanNote, match="compressed"):
+            assert c.get(KEY, "miss") == "miss"
+
+    def test_only_one_note_per_cache_for_many_bad_entries(self, tmp_path, recwarn):
+        c = ResultCache(tmp_path / "cache")
+        keys = [task_key(i=i) for i in range(3)]
+        for k in keys:
+            c.path_for(k).parent.mkdir(parents=True, exist_ok=True)
+            c.path_for(k).write_bytes(b"junk")
+        assert [c.get(k, "miss") for k in keys] == ["miss"] * 3
+        assert len([w for w in recwarn if issubclass(w.category, RelspanNote)]) == 1
+
+
+class TestEnvironment:
+    """Cache keys include the library versions and the maths-library kernel (issue 13, item 5)."""
+
+    def test_environment_names_numeric_libraries_and_the_blas_kernel(self):
+        env = cache_module.cache_environment()
+        for name in ("numpy", "scipy", "pandas", "matplotlib", "pyarrow", "statsmodels"):
+            assert name in env["libraries"]
+        assert env["libraries"]["numpy"] == np.__version__
+        assert env["blas"] and {"internal_api", "version", "architecture"} <= set(env["blas"][0])
+
+    def test_cache_written_under_other_library_versions_is_not_reused(self, tmp_path, monkeypatch):
+        folder = tmp_path / "cache"
+        real = cache_module.cache_environment()
+        older = {**real, "libraries": {**real["libraries"], "numpy": "1.26.4", "matplotlib": "3.8.4"}}
+        monkeypatch.setattr(cache_module, "_ENVIRONMENT", older)
+        ResultCache(folder).put(KEY, "from numpy 1.26.4")
+        monkeypatch.setattr(cache_module, "_ENVIRONMENT", real)
+        with pytest.warns(RelspanNote, match=r"numpy 1\.26\.4 \(now " + np.__version__.replace(".", r"\.")):
+            c = ResultCache(folder)
+        assert c.get(KEY, "miss") == "miss"
+
+    def test_cache_written_under_another_blas_kernel_is_not_reused(self, tmp_path, monkeypatch):
+        folder = tmp_path / "cache"
+        real = cache_module.cache_environment()
+        other = {**real, "blas": [{"internal_api": "openblas", "version": "0.3.27", "architecture": "Haswell"}]}
+        monkeypatch.setattr(cache_module, "_ENVIRONMENT", other)
+        ResultCache(folder).put(KEY, "from Haswell")
+        monkeypatch.setattr(cache_module, "_ENVIRONMENT", real)
+        with pytest.warns(RelspanNote, match="Haswell"):
+            c = ResultCache(folder)
+        assert c.get(KEY, "miss") == "miss"
+
+    def test_forged_environment_field_in_the_header_is_a_miss(self, tmp_path):
+        c = ResultCache(tmp_path / "cache")
+        c.put(KEY, 1)
+        _rewrite_header(c.path_for(KEY), lambda h: h.update(environment="0" * 16))
+        with pytest.warns(RelspanNote):
+            assert c.get(KEY, "miss") == "miss"
+
+
+class TestPrune:
+    def test_prune_removes_other_environments_old_pickles_and_month_old_entries(self, tmp_path, monkeypatch):
+        folder = tmp_path / "cache"
+        real = cache_module.cache_environment()
+        monkeypatch.setattr(cache_module, "_ENVIRONMENT", {**real, "python": "3.0.0"})
+        ResultCache(folder).put(KEY, "elsewhere")
+        monkeypatch.setattr(cache_module, "_ENVIRONMENT", real)
+        (folder / "ab").mkdir()
+        (folder / "ab" / ("ab" * 32 + ".pkl")).write_bytes(b"old")
+        (folder / "mine.txt").write_text("not ours")
+        with pytest.warns(RelspanNote):
+            c = ResultCache(folder)
+        fresh, stale = task_key(n="fresh"), task_key(n="stale")
+        c.put(fresh, 1)
+        c.put(stale, 2)
+        month = cache_module.PRUNE_AFTER_DAYS * 86400
+        os.utime(c.path_for(stale), (0, c.path_for(stale).stat().st_mtime - month - 60))
+        c.prune()
+        left = sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*") if p.is_file())
+        own = c.environment_folder.name
+        assert left == sorted(["README.txt", "mine.txt", f"{own}/ENVIRONMENT.json",
+                               f"{own}/{fresh[:2]}/{fresh}.npz"])
+
+    def test_a_hit_counts_as_use(self, tmp_path):
+        c = ResultCache(tmp_path)
+        c.put(KEY, 1)
+        old = c.path_for(KEY).stat().st_mtime - cache_module.PRUNE_AFTER_DAYS * 86400 - 60
+        os.utime(c.path_for(KEY), (old, old))
+        assert c.get(KEY) == 1
+        c.prune()
+        assert c.get(KEY) == 1

@@ -30,6 +30,7 @@ import pandas as pd
 
 from relspan.analysis.moments import Moments
 from relspan.data.blocks import BlockBuilder, BlockTable, assemble_stacked, tree_levels
+from relspan.data.sources.cells import check_not_tiny
 from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, TableSource,
                                   arrow_available, numeric_block, open_source, select_columns,
                                   time_text)
@@ -391,6 +392,7 @@ class _Pass:
         self.blocks = BlockBuilder(n, lambda p, t: grid.keys(p, t, self.t0), timed=timed)
         self.origin: np.ndarray | None = None
         self.overview = _OverviewBuilder(n, timed)
+        self.largest = np.zeros(n)   # largest |value| per column (after row transforms)
         self.lo = self.hi = None
         if timed:
             key = "time"
@@ -431,6 +433,22 @@ class _Pass:
             self.order = OrderCheck(path=self.path, column=col, fmt=self.fmt)
         return parse_times(chunk.times, self.fmt, path=self.path, column=col, rows=chunk.rows)
 
+    def _periods(self, t: np.ndarray | None) -> np.ndarray | None:
+        """Period numbers of yearly, quarterly or monthly times (consecutive ones differ by 1).
+
+        None for daily or finer times and without a time column: those are
+        differenced row to row.
+        """
+        if t is None or self.fmt is None:
+            return None
+        months = self.fmt.period_months_days_seconds()[0]
+        if not months:
+            return None
+        ok = ~np.isnat(t)
+        out = np.zeros(t.size, dtype=np.int64)
+        out[ok] = np.floor_divide(t[ok].astype("datetime64[M]").astype(np.int64), months)
+        return out
+
     def feed(self, chunk: RawChunk) -> None:
         values, rows = chunk.values, chunk.rows
         t = None
@@ -448,13 +466,15 @@ class _Pass:
                 self.rows_outside += int((~inside).sum())
                 if not inside.all():
                     values, rows, t = values[inside], rows[inside], t[inside]
-        y, keep = self.stream.apply(values, rows, None if t is None else np.isnat(t))
+        y, keep = self.stream.apply(values, rows, None if t is None else np.isnat(t),
+                                    self._periods(t))
         if y.shape[0] == 0:
             return
         src = rows[keep]
         tk = None if t is None else t[keep]
         if tk is not None and self.t0 is None:
             self.t0 = tk[0]
+        self.largest = np.fmax(self.largest, np.abs(y).max(axis=0))
         if self.origin is None:
             self.origin = y[0].copy()
         rel = y - self.origin   # exact for values within a factor 2 of the origin (Sterbenz)
@@ -488,6 +508,7 @@ class _Pass:
             raise DataError(f"dataset {self.dataset_id!r} has only {self.kept} analysed rows, but "
                             f"{n} variables need at least {n + 2}.", path=path,
                             fix="use more data, or analyse fewer variables.")
+        check_not_tiny(self.largest, self.names, path=path)
         blocks = self.blocks.finish(self.origin)
         levels = tree_levels(blocks)
         fc, fm, fcm, fml, fcml = assemble_stacked(blocks, np.array([0]), np.array([len(blocks)]),
@@ -525,6 +546,8 @@ class _Pass:
         if blocks.first_time is not None:
             a, b = format_times(np.array([blocks.first_time[0], blocks.last_time[-1]]), self.fmt)
             period = (a, b)
+            _check_plottable(blocks.first_time[0], blocks.last_time[-1], a, b,
+                             column=self.time.column, path=path)
         return PreparedDataset(
             dataset_id=self.dataset_id, variables=self.names, labels=tuple(labels),
             units=tuple(units), transforms=self.transforms, source=source, sha256=sha256,
@@ -533,6 +556,28 @@ class _Pass:
             time_format=self.fmt, period=period, plans=tuple(prepared_plans), full=full,
             blocks=blocks, shift=shift, scale=scale,
             overview=self.overview.finish(self.names, shift_rel, scale, offset, self.fmt))
+
+
+#: calendar years the figures' date axes can show (matplotlib's date range is years 1 to 9999)
+PLOTTABLE_YEARS = (1, 9999)
+
+
+def _check_plottable(first, last, a: str, b: str, *, column: str, path: str | None) -> None:
+    """Times must leave room for the axes' margins inside years 1-9999 (else figures fail).
+
+    The margin allowed for is a tenth of the span (at least a year) on each side.
+    """
+    y0 = int(str(np.datetime64(first, "Y")))
+    y1 = int(str(np.datetime64(last, "Y")))
+    pad = max((y1 - y0) / 10.0, 1.0)
+    lo, hi = PLOTTABLE_YEARS
+    if y0 - pad < lo or y1 + pad > hi:
+        raise DataError(
+            f"column {column!r} runs from {a} to {b}, too close to year {lo if y0 - pad < lo else hi} "
+            f"for the figures' date axes, which show years {lo} to {hi} with a margin on each side.",
+            path=path, column=column, got=f"{a} to {b}",
+            fix="if these numbers are not calendar years, leave the time column out (rows are then "
+                "numbered) or add a fixed number of years to every value (e.g. 2000).")
 
 
 def _check_setup(dataset_id: str, names: Sequence[str], transforms: Sequence[str], missing: str,
@@ -560,11 +605,12 @@ def _check_setup(dataset_id: str, names: Sequence[str], transforms: Sequence[str
     if missing not in MISSING_POLICIES:
         raise DataError(f"missing {missing!r} is not drop or fail.", path=path, key="missing",
                         got=missing, fix="set missing: drop or missing: fail.")
-    ids = [p.id for p in plans]
-    dup = {i for i in ids if ids.count(i) > 1}
-    if dup:
-        raise DataError(f"window plan id {sorted(dup)[0]!r} is given twice.", path=path,
-                        key="windows", fix="give every window plan its own id.")
+    ids: set[str] = set()
+    for p in plans:
+        if p.id in ids:
+            raise DataError(f"window plan id {p.id!r} is given twice.", path=path,
+                            key="windows", fix="give every window plan its own id.")
+        ids.add(p.id)
 
 
 def prepare_dataset(ds: DatasetSpec, plans: Sequence[WindowPlanSpec], *,

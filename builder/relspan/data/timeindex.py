@@ -150,6 +150,13 @@ def resolve_format(spec_format: str, first_value: str | None, *, path: str | Non
     if fmt in ("year", "quarter", "month", "date", "datetime"):
         return TimeFormat(fmt)
     if "%" in fmt:
+        why = pattern_problem(fmt)
+        if why is not None:
+            raise DataError(f"the time format {spec_format!r} for column {column!r} cannot be "
+                            f"used: {why}.", path=path, column=column, key="time.format",
+                            got=spec_format,
+                            fix="use a pattern of %Y, %m, %d, %H, %M, %S (e.g. '%d/%m/%Y'), or "
+                                "one of auto, year, quarter, month, date, datetime.")
         return TimeFormat("pattern", fmt)
     if fmt != "auto":
         raise DataError(
@@ -169,6 +176,27 @@ def resolve_format(spec_format: str, first_value: str | None, *, path: str | Non
             fix="write the time column in one of those notations, or set time.format to a "
                 "strftime pattern such as '%d/%m/%Y'.")
     return TimeFormat(kind)
+
+
+def pattern_problem(pattern: str) -> str | None:
+    """Why the strftime ``pattern`` cannot be used to read times (None when it can).
+
+    A pattern must be one Python's ``strptime`` reads: ``%s`` (seconds since
+    1970), ``%Q`` and other unknown directives, and ISO weeks (``%G``/``%V``
+    without a weekday) are not. Checked by writing a known time with the
+    pattern and reading it back.
+    """
+    import datetime as _dt
+
+    if "%s" in pattern.replace("%%", ""):
+        return ("%s (seconds since 1970) cannot be read by a pattern; convert the column to dates "
+                "(e.g. 1994-03-05) first")
+    try:
+        sample = _dt.datetime(2001, 2, 3, 4, 5, 6, tzinfo=_dt.timezone.utc).strftime(pattern)
+        _dt.datetime.strptime(sample, pattern)
+    except ValueError as err:
+        return f"Python's date parser cannot read it ({' '.join(str(err).split())})"
+    return None
 
 
 def _as_str_series(values) -> tuple[pd.Series, np.ndarray]:
@@ -196,6 +224,25 @@ def _match(txt: pd.Series, pattern: str) -> np.ndarray:
                           .to_numpy(zero_copy_only=False), dtype=bool)
     except ImportError:
         return txt.str.match(pattern).fillna(False).to_numpy(dtype=bool)
+
+
+def _has_zone(pattern: str | None) -> bool:
+    p = (pattern or "").replace("%%", "")
+    return "%z" in p or "%Z" in p or "%:z" in p
+
+
+def _wall_time(text: str, pattern: str):
+    """One time read with a pattern holding a UTC offset: its local wall time (offset dropped).
+
+    Times are compared and grouped into periods as written (a value stamped
+    2020-03-01 00:00+02:00 belongs to March 2020), whatever offset each row has.
+    """
+    import datetime as _dt
+
+    try:
+        return _dt.datetime.strptime(str(text).strip(), pattern).replace(tzinfo=None)
+    except ValueError:
+        return None
 
 
 def parse_times(values, fmt: TimeFormat, *, path: str | None, column: str,
@@ -252,6 +299,9 @@ def parse_times(values, fmt: TimeFormat, *, path: str | None, column: str,
         elif kind == "datetime":
             good_shape = _match(txt, _REGEX["datetime"].pattern)
             dt = pd.to_datetime(txt.str.strip(), format="ISO8601", errors="coerce")
+        elif _has_zone(fmt.pattern):
+            good_shape = np.ones(len(txt), dtype=bool)
+            dt = pd.Series([_wall_time(v, fmt.pattern) for v in txt], dtype="datetime64[s]")
         else:
             good_shape = np.ones(len(txt), dtype=bool)
             dt = pd.to_datetime(txt, format=fmt.pattern, errors="coerce")
@@ -284,7 +334,7 @@ def from_datetimes(values) -> tuple[np.ndarray, bool]:
     """
     s = pd.Series(values)
     if getattr(s.dt, "tz", None) is not None:
-        s = s.dt.tz_convert("UTC").dt.tz_localize(None)
+        s = s.dt.tz_localize(None)  # the local wall time the values were stamped with
     arr = s.to_numpy().astype("datetime64[s]")
     ok = ~np.isnat(arr)
     tod = bool(ok.any() and ((arr[ok] - arr[ok].astype("datetime64[D]")).astype(np.int64) != 0).any())
@@ -331,6 +381,13 @@ class OrderCheck:
                 msg = (f"column {self.column!r} repeats the time {a}: rows {ra} and {rb} "
                        "have the same time.")
                 fix = "remove or combine the duplicated rows so each time appears once."
+            elif self._two_digit_pivot(t[i], t[i + 1]):
+                ya, yb = (int(str(x.astype("datetime64[Y]"))) for x in t[i:i + 2])
+                msg = (f"column {self.column!r} uses two-digit years (%y), which are read as "
+                       f"2000-2068 for 00-68 and 1969-1999 for 69-99: row {ra} ({a}) is read as "
+                       f"{ya}, so row {rb} ({b}), read as {yb}, seems to go back in time.")
+                fix = (f"write four-digit years in {self.column!r} and use %Y in time.format "
+                       "(two digits cannot say which century is meant).")
             else:
                 msg = (f"column {self.column!r} is not in time order: row {rb} ({b}) comes "
                        f"after row {ra} ({a}).")
@@ -338,6 +395,14 @@ class OrderCheck:
             raise DataError(msg, path=self.path, column=self.column, row=rb, fix=fix)
         self._last = t[-1]
         self._last_row = int(r[-1])
+
+
+    def _two_digit_pivot(self, a: np.datetime64, b: np.datetime64) -> bool:
+        """Whether a backward step is the %y century pivot (a year 2000-2068, then 1969-1999)."""
+        if self.fmt.kind != "pattern" or "%y" not in (self.fmt.pattern or "").replace("%%", ""):
+            return False
+        ya, yb = (int(str(np.datetime64(x, "Y"))) for x in (a, b))
+        return 2000 <= ya <= 2068 and 1969 <= yb <= 1999
 
 
 def add_months(t: np.ndarray, k: np.ndarray) -> np.ndarray:

@@ -8,7 +8,12 @@ Row-wise transforms run during the single pass:
   previous row is carried across chunks; the first row has no previous value
   and is dropped. ``t-1`` is the previous row of the file inside the
   from/to range, so a missing value also makes the next row's difference
-  missing (a two-step change is never passed off as a one-step one).
+  missing (a two-step change is never passed off as a one-step one). With a
+  time column of years, quarters or months, only consecutive periods are
+  differenced: when periods are absent from the file (a gap), the difference
+  across the gap is missing and the row is dropped with the reason
+  :data:`REASON_GAP`. Daily and finer times are differenced row to row (a
+  calendar gap there, e.g. a weekend, is usually not missing data).
 
 Whole-sample transforms act on the statistics at the end, as an affine map
 ``y' = (y - shift) / scale`` applied to every window's moments and to the
@@ -61,6 +66,7 @@ CONSTANT_RTOL = 1e-13
 
 REASON_MISSING = "missing value"
 REASON_NO_PREVIOUS = "no previous row to difference"
+REASON_GAP = "difference across a gap in the time column (the previous period is absent)"
 
 
 @dataclass(frozen=True, slots=True)
@@ -110,10 +116,11 @@ class StreamTransform:
         self._log = np.array([t in ("log", "logdiff") for t in self.transforms])
         self._diff = np.array([t in ("diff", "logdiff") for t in self.transforms])
         self._prev = np.full(n, np.nan)       # previous raw row (after log), carried
+        self._prev_period: int | None = None  # period number of that row (None: unknown)
         self._started = False
         self.present = np.zeros(n, dtype=np.int64)   # non-empty cells per column
         self.rows_seen = 0
-        self._drops = {REASON_MISSING: [0, []], REASON_NO_PREVIOUS: [0, []]}
+        self._drops = {REASON_MISSING: [0, []], REASON_NO_PREVIOUS: [0, []], REASON_GAP: [0, []]}
 
     @property
     def drops(self) -> tuple[Drop, ...]:
@@ -128,7 +135,8 @@ class StreamTransform:
             entry[1].extend(int(r) for r in rows[:need])
 
     def apply(self, values: np.ndarray, rows: np.ndarray,
-              time_missing: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+              time_missing: np.ndarray | None = None,
+              periods: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Transform one chunk (rows already inside the from/to range).
 
         Parameters
@@ -139,6 +147,10 @@ class StreamTransform:
             1-based data rows.
         time_missing : (m,) bool array, optional
             True where the time cell is empty.
+        periods : (m,) int64 array, optional
+            Period number of each row (consecutive periods differ by 1; rows
+            with an empty time cell are ignored); a difference is taken only
+            between consecutive periods.
 
         Returns
         -------
@@ -189,6 +201,17 @@ class StreamTransform:
             y[:, self._diff] = x[:, self._diff] - prev[:, self._diff]
             no_prev = (np.isnan(prev[:, self._diff]) & ~np.isnan(x[:, self._diff])).any(axis=1)
             self._prev = x[-1].copy()
+            if periods is not None:
+                known = ~time_missing if time_missing is not None else np.ones(m, dtype=bool)
+                p = np.asarray(periods, dtype=np.int64)
+                prev_p = np.concatenate([[self._prev_period if self._prev_period is not None else 0],
+                                         p[:-1]])
+                prev_known = np.concatenate([[self._prev_period is not None], known[:-1]])
+                gap = known & prev_known & (p - prev_p != 1) & ~no_prev
+                if gap.any():
+                    y[np.ix_(gap, self._diff)] = np.nan
+                    self._record(REASON_GAP, rows[gap & ~row_missing])
+                self._prev_period = int(p[-1]) if known[-1] else None
         if y is values:  # no row transform: NaN only where a cell was empty
             keep = ~row_missing
         else:

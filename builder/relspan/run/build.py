@@ -100,6 +100,10 @@ def check(spec_path, *, jobs: int | None = None, scheduler: str | None = None, u
     folder = Path(cache_dir) if cache_dir is not None else spec.folder / DEFAULT_CACHE_DIRNAME
     if use_cache and not folder.is_dir():
         # nothing to read; opening the cache would create its folder, and check writes nothing
+        if folder.exists():
+            from relspan.run.cache import ResultCache
+
+            ResultCache(folder)  # the located error for a file where the folder should be
         use_cache = False
     jobs, scheduler = where_tasks_run(spec, jobs, scheduler)
     run = run_analysis(spec, jobs=jobs, scheduler=scheduler, use_cache=use_cache, cache_dir=cache_dir,
@@ -122,7 +126,9 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
     out_dir = Path(out) if out is not None else (spec.site.out_path or spec.folder / spec.site.out)
     protected = [spec.folder] + [ds.source_path for ds in spec.datasets]
     _precheck_output(out_dir, protected)  # before the (long) analysis, so a bad --out fails fast
-    
+    if use_cache:
+        _precheck_cache(Path(cache_dir) if cache_dir is not None else spec.folder / DEFAULT_CACHE_DIRNAME,
+                        out_dir)
     cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
     jobs, scheduler = where_tasks_run(spec, jobs, scheduler)
     with LazyExecutor(jobs, scheduler) as executor:
@@ -130,6 +136,7 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
         content = _content_with_figures(run, executor, cache, progress)
     files = render_site(content)
     write_site(files, out_dir, protected=protected)
+    cache.prune()  # entries of other environments, old formats, unused for a month
     return Outcome(run, out_dir, time.perf_counter() - t0)
 
 
@@ -146,6 +153,24 @@ def _content_with_figures(run, executor, cache, progress: bool):
         rendered = draw_figures(draft.figure_jobs, draft.figure_format, executor=executor, cache=cache,
                                 progress=bar)
     return draft.finish(rendered)
+
+
+def _precheck_cache(cache_dir: Path, out_dir: Path) -> None:
+    """The cache may not live inside the site folder: each build replaces that folder whole."""
+    import os
+
+    from relspan.errors import OutputError
+
+    def real(p: Path) -> Path:
+        return Path(os.path.realpath(os.path.abspath(p)))
+
+    cache, out = real(cache_dir), real(out_dir)
+    if cache == out or out in cache.parents:
+        raise OutputError(
+            f"the cache folder {cache_dir} is inside the site folder {out_dir}, which every build "
+            "replaces as a whole.", path=str(cache_dir), key="--cache-dir",
+            fix="point --cache-dir at a folder outside the site (the default is .relspan-cache "
+                "beside the spec), or use --no-cache.")
 
 
 def _precheck_output(out_dir: Path, protected) -> None:

@@ -103,6 +103,11 @@ class _ProcessPool(ProcessPoolExecutor):
         # alone handles it and shuts the pool down, so no worker prints a traceback. The fork
         # server is started with SIGINT blocked (the mask is inherited by it and by every
         # worker it forks), so a Ctrl-C during its start-up cannot interrupt its imports either.
+        # Workers and the fork server die with this process (relspan.run._lifeline): the fork
+        # server through its preload list, each worker through the pool's initializer.
+        ctx = multiprocessing.get_context(method)
+        if method == "forkserver":
+            ctx.set_forkserver_preload(["__main__", "relspan.run._forkserver_preload"])
         if method == "forkserver" and hasattr(signal, "pthread_sigmask"):
             from multiprocessing import forkserver
 
@@ -111,8 +116,10 @@ class _ProcessPool(ProcessPoolExecutor):
                 forkserver.ensure_running()
             finally:
                 signal.pthread_sigmask(signal.SIG_SETMASK, old)
-        super().__init__(max_workers=workers, mp_context=multiprocessing.get_context(method),
-                         initializer=signal.signal, initargs=(signal.SIGINT, signal.SIG_IGN))
+        from relspan.run._lifeline import build_identity, worker_start
+
+        super().__init__(max_workers=workers, mp_context=ctx, initializer=worker_start,
+                         initargs=build_identity())
         self.workers = workers
         self.start_method = method
 
@@ -125,6 +132,10 @@ def available_cores() -> int:
         return max(1, os.cpu_count() or 1)
 
 
+#: most worker processes ``--jobs`` may ask for (each is a Python process of its own)
+MAX_JOBS = 1024
+
+
 def _check_jobs(jobs: object) -> int:
     if jobs is None:
         return available_cores()
@@ -133,6 +144,12 @@ def _check_jobs(jobs: object) -> int:
             f"--jobs must be a whole number of worker processes, 1 or more; got {jobs!r}.",
             key="jobs", expected="an integer >= 1", got=repr(jobs),
             fix="use --jobs 1 to run in this process, or leave it out to use every available core.")
+    if jobs > MAX_JOBS:
+        raise OptionsError(
+            f"--jobs {jobs} asks for more worker processes than relspan starts (at most {MAX_JOBS}; "
+            f"this machine lets it use {available_cores()} core(s)).",
+            key="jobs", expected=f"an integer from 1 to {MAX_JOBS}", got=repr(jobs),
+            fix="leave --jobs out to use every available core, or give a number up to the cores.")
     return jobs
 
 

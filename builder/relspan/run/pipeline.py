@@ -261,6 +261,30 @@ def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], s
                     version=code_version())
 
 
+#: a dataset with more windows than this gets a note before its analysis (time and pages)
+MANY_WINDOWS = 500
+
+
+def _note_many_windows(ds: DatasetSpec, counts: Sequence[tuple[WindowPlanSpec, int]]) -> None:
+    """Say up front when plans cut a dataset into very many windows (long analysis, many pages)."""
+    from relspan.errors import RelspanNote
+
+    total = sum(n for _, n in counts)
+    if total <= MANY_WINDOWS:
+        return
+    parts = []
+    for plan, n in sorted(counts, key=lambda pn: -pn[1]):
+        if n > 1:
+            shape = ""
+            if plan.width is not None and plan.step is not None:
+                shape = f" (width {plan.width.count} {plan.width.unit}, step {plan.step.count} {plan.step.unit})"
+            parts.append(f"plan {plan.id!r}: {n:,} windows{shape}")
+    warnings.warn(RelspanNote(
+        f"dataset {ds.id!r} has {total:,} windows ({'; '.join(parts[:3])}); each is analysed under "
+        f"every assumption and a build writes one page per window (about {total:,} pages), which "
+        "takes long. A larger step gives fewer windows."), stacklevel=3)
+
+
 def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None = None,
                  use_cache: bool = True, cache_dir: Path | None = None, progress: bool = True,
                  executor: LazyExecutor | None = None, cache=None, write_cache: bool = True) -> AnalysisRun:
@@ -289,10 +313,11 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
     from relspan.analysis.claims import evaluate_claims
     from relspan.data.prepare import prepare_dataset
     from relspan.data.sources import file_sha256
+    from relspan.data.sources.detect import check_file
     from relspan.run.progress import Progress
 
     if cache is None:
-        cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
+        cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir, create=write_cache)
     own = executor is None
     lazy = executor or LazyExecutor(jobs, scheduler)
     results: list[DatasetResult] = []
@@ -300,16 +325,20 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
     try:
         for ds in spec.datasets:
             plans = spec.plans_for(ds)
+            check_file(ds.source, ds.source_path)  # a missing, special or unreadable file is named
             key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
             cached = cache.get(key)
             if cached is not None:
                 result, cached_warnings = cached
+                _note_many_windows(ds, [(p.plan, len(p.windows)) for p in result.plans])
                 # the same analysis, bound to this spec's text (line numbers, paths may differ)
                 results.append(dataclasses.replace(result, spec=ds))
                 raised.extend(cached_warnings)
                 continue
             prepared = prepare_dataset(ds, plans)
-            total = 1 + sum(len(prepared.plan(p.id).windows) for p in plans)
+            counts = [(p, len(prepared.plan(p.id).windows)) for p in plans]
+            _note_many_windows(ds, counts)
+            total = 1 + sum(n for _, n in counts)
             sink: list[RelspanWarning] = []
             with Progress(f"analysis of {ds.id}", total, enabled=None if progress else False) as bar:
                 result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
@@ -329,8 +358,12 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
                        cache_misses=cache.misses)
 
 
-def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None):
-    """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled."""
+def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None, create: bool = True):
+    """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled.
+
+    ``create=False`` reads an existing folder only (``relspan check`` writes nothing).
+    """
     from relspan.run.cache import DEFAULT_CACHE_DIRNAME, ResultCache
 
-    return ResultCache((cache_dir or spec.folder / DEFAULT_CACHE_DIRNAME) if use_cache else None)
+    return ResultCache((cache_dir or spec.folder / DEFAULT_CACHE_DIRNAME) if use_cache else None,
+                       create=create)

@@ -25,6 +25,7 @@ from importlib import resources
 from urllib.parse import urlsplit, urlunsplit
 
 import jinja2
+import markupsafe
 
 from relspan.errors import OptionsError
 from relspan.site.content import NavItem, Page, SiteContent
@@ -183,12 +184,26 @@ def source_date(environ: Mapping[str, str] | None = None) -> str | None:
 
 # ------------------------------------------------------------------ rendering
 
+#: characters HTML does not allow in text (C0 controls but tab, newline and carriage return; DEL;
+#: C1 controls; lone surrogates): dropped from every value a template prints
+_NOT_IN_HTML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\ud800-\udfff]")
+
+
+def _drop_controls(value):
+    """Jinja ``finalize``: every printed value loses the characters HTML does not allow."""
+    if isinstance(value, str) and _NOT_IN_HTML.search(value):
+        cleaned = _NOT_IN_HTML.sub("", value)
+        return markupsafe.Markup(cleaned) if isinstance(value, markupsafe.Markup) else cleaned
+    return value
+
+
 def _environment() -> jinja2.Environment:
     return jinja2.Environment(
         loader=jinja2.PackageLoader("relspan.site", "templates"),
         autoescape=True,
         undefined=jinja2.StrictUndefined,
         keep_trailing_newline=True,
+        finalize=_drop_controls,
     )
 
 

@@ -101,6 +101,32 @@ def _owner_alive(folder: Path) -> bool:
     return True
 
 
+class _path_errors:
+    """Turn the operating system's complaints about a path into a located OutputError."""
+
+    def __init__(self, shown) -> None:
+        self.shown = str(shown)
+
+    def __enter__(self) -> None:
+        return None
+
+    def __exit__(self, exc_type, exc, tb) -> bool:
+        if exc is None or isinstance(exc, OutputError):
+            return False
+        if isinstance(exc, RuntimeError) and "Symlink loop" in str(exc):
+            why = "its symbolic links form a loop"
+        elif isinstance(exc, OSError) and exc.errno == errno.ENAMETOOLONG:
+            why = "a name in the path is too long (the filesystem allows 255 bytes per name)"
+        elif isinstance(exc, OSError) and exc.errno == errno.ELOOP:
+            why = "its symbolic links form a loop"
+        elif isinstance(exc, OSError):
+            why = exc.strerror or str(exc)
+        else:
+            return False
+        raise OutputError(f"cannot use {self.shown!r} as the site folder: {why}.", path=self.shown,
+                          fix="choose another output folder (site.out in the spec, or --out).") from None
+
+
 def _validate_files(files: Mapping[str, bytes]) -> None:
     paths = set(files)
     for path, data in files.items():
@@ -174,9 +200,32 @@ def _clean_stale(parent: Path, name: str, out: Path) -> None:
             if folder.name.startswith(f".{name}{_OLD_TAG}") and marked and not out.exists():
                 os.rename(folder, out)  # killed between the two renames: put it back
                 continue
-            shutil.rmtree(folder)
+            _remove_tree(folder)
         except OSError:
             continue  # best effort; never fail a build over leftovers
+
+
+def _remove_tree(path: Path) -> None:
+    """Remove a folder relspan made, even where a user took away write permission (mode 555).
+
+    A failed removal makes the entry's folder writable for its owner and tries
+    again once; what still cannot be removed is left (best effort, never an error).
+    """
+    import stat
+
+    def again(func, p, _exc) -> None:
+        try:
+            for folder in {os.path.dirname(p), p if os.path.isdir(p) and not os.path.islink(p) else None}:
+                if folder:
+                    os.chmod(folder, stat.S_IMODE(os.lstat(folder).st_mode) | stat.S_IRWXU)
+            func(p)
+        except OSError:
+            pass
+
+    if sys.version_info >= (3, 12):
+        shutil.rmtree(path, onexc=again)
+    else:
+        shutil.rmtree(path, onerror=again)
 
 
 def _load_renameat2() -> Callable[[str, str], bool] | None:
@@ -210,13 +259,13 @@ def _swap_in(tmp: Path, out: Path, parent: Path, name: str) -> None:
     exchange = _load_renameat2()
     if exchange is not None and exchange(str(tmp), str(out)):
         _fsync_dir(parent)
-        shutil.rmtree(tmp, ignore_errors=True)  # tmp now holds the old site
+        _remove_tree(tmp)  # tmp now holds the old site
         return
     old = parent / f".{name}{_OLD_TAG}{secrets.token_hex(4)}"
     os.rename(out, old)
     os.rename(tmp, out)
     _fsync_dir(parent)
-    shutil.rmtree(old, ignore_errors=True)
+    _remove_tree(old)
 
 
 def _make_tmp(parent: Path, name: str) -> Path:
@@ -226,6 +275,10 @@ def _make_tmp(parent: Path, name: str) -> Path:
             os.mkdir(tmp)  # honours the umask, unlike mkdtemp's 0700
         except FileExistsError:
             continue
+        except OSError as err:
+            raise OutputError(f"cannot write the site into {parent}: {err.strerror or err}.",
+                              path=str(parent), fix="choose an output folder you may write to "
+                                                    "(site.out in the spec, or --out).") from None
         return tmp
     raise OutputError(f"could not create a temporary folder in {parent}.", path=str(parent),
                       fix="remove old '.*.relspan-tmp-*' folders there.")
@@ -244,9 +297,17 @@ def check_output(out_dir: Path | str, *, protected: Sequence[Path | str] = ()) -
     if out.parent == out:
         raise OutputError(f"refusing to write the site to the filesystem root {out}.",
                           path=str(out), fix="choose an output folder of its own.")
-    if out.parent.exists():
-        out = out.parent.resolve() / out.name
-    _check_target(out, [Path(p) for p in protected])
+    with _path_errors(out_dir):
+        if out.parent.exists():
+            out = out.parent.resolve(strict=False) / out.name
+        _check_target(out, [Path(p) for p in protected])
+        parent = out.parent
+        while not parent.exists() and parent.parent != parent:
+            parent = parent.parent
+        if not os.access(parent, os.W_OK | os.X_OK):
+            raise OutputError(f"cannot write the site to {out}: {parent} is not writable.",
+                              path=str(out_dir), fix="choose an output folder you may write to, "
+                                                     "or make that folder writable.")
     return out
 
 
@@ -283,8 +344,9 @@ def write_site(files: Mapping[str, bytes], out_dir: Path | str, *,
     if out.parent == out:
         raise OutputError(f"refusing to write the site to the filesystem root {out}.",
                           path=str(out), fix="choose an output folder of its own.")
-    out = out.parent.resolve() / out.name
-    _check_target(out, [Path(p) for p in protected])
+    with _path_errors(out_dir):
+        out = out.parent.resolve() / out.name
+        _check_target(out, [Path(p) for p in protected])
     parent, name = out.parent, out.name
     try:
         parent.mkdir(parents=True, exist_ok=True)

@@ -18,6 +18,8 @@ Only the spec file itself is read here; data contents are read by
 
 from __future__ import annotations
 
+import math
+
 from pathlib import Path
 from typing import Any
 
@@ -29,7 +31,14 @@ from relspan.spec.model import Spec
 from relspan.spec.rules import build_spec
 from relspan.spec.validate import SCHEMA, Context, describe, validate
 
-__all__ = ["load_spec", "parse_spec"]
+__all__ = ["load_spec", "parse_spec", "MAX_SPEC_BYTES", "MAX_EXPANDED"]
+
+#: largest spec file read (specs are short text; data live in the data files)
+MAX_SPEC_BYTES = 16 * 1024 * 1024
+
+#: largest spec once YAML aliases (``*name``) are filled in, counted as values plus characters
+#: of text; a few aliases of aliases can otherwise expand a small file a millionfold
+MAX_EXPANDED = 2_000_000
 
 
 def load_spec(path: str | Path) -> Spec:
@@ -65,6 +74,17 @@ def load_spec(path: str | Path) -> Spec:
             raise SpecError(
                 "this is a folder, not a spec file.", path=shown,
                 fix="give the path of the YAML spec file inside it.")
+        from relspan.data.sources.detect import special_file
+
+        why = special_file(p)
+        if why is not None:
+            raise SpecError(f"the spec {why.replace('not a data file', 'not a spec file')}.",
+                            path=shown, fix="save the spec as an ordinary YAML file and give its path.")
+        size = p.stat().st_size
+        if size > MAX_SPEC_BYTES:
+            raise SpecError(f"the spec file is {size:,} bytes; relspan reads specs up to "
+                            f"{MAX_SPEC_BYTES:,} bytes.", path=shown,
+                            fix="a spec names data files and options; keep data in the data files.")
         data = p.read_bytes()
     except (OSError, ValueError) as exc:
         if isinstance(exc, SpecError):
@@ -146,6 +166,13 @@ def _parse_yaml(text: str, ctx: Context) -> LineDict:
         raise ctx.error("the spec nests lists or mappings too deeply to read.", line=None,
                         fix="the spec format needs at most a few levels; check for a run of "
                             "unclosed brackets.") from None
+    size = expanded_size(raw)
+    if size > max(MAX_EXPANDED, 2 * len(body)):
+        raise ctx.error(
+            f"the spec expands to more than {MAX_EXPANDED:,} values and characters once its YAML "
+            f"aliases (*name) are filled in, from a file of {len(body):,} characters.", line=None,
+            fix="write the repeated parts out, or reuse anchors less deeply (an alias of a list "
+                "of aliases multiplies the size).")
     if raw is None:
         raise ctx.error("the spec has no content (only comments or blank lines).", line=1,
                         fix="start from `relspan new DATA.csv`, or copy the example in "
@@ -160,6 +187,13 @@ def _parse_yaml(text: str, ctx: Context) -> LineDict:
             + f" (lines {first} and {second}); YAML would silently keep only the last one.",
             line=second, key=full,
             fix="keep one of the two and delete or rename the other.")
+    bad = _first_unwritable_text(raw)
+    if bad is not None:
+        where, line, ch = bad
+        raise ctx.error(
+            f"{where or 'the spec'} holds the lone surrogate \\u{ord(ch):04x}, which is not a character "
+            "and cannot be written to a web page or a UTF-8 file.", line=line, key=where or None,
+            fix="remove the \\u escape (or write the character it was meant to be).")
     if not isinstance(raw, LineDict):
         raise ctx.error(
             f"the spec must be a mapping of keys such as `relspan:`, `report:` and "
@@ -167,6 +201,68 @@ def _parse_yaml(text: str, ctx: Context) -> LineDict:
             fix="start the file with `relspan: 1` and write the sections as `key: value` "
                 "lines (see docs/spec.md).")
     return raw
+
+
+def expanded_size(raw: Any) -> float:
+    """Values plus characters of text in ``raw`` with every alias filled in.
+
+    Shared nodes (what aliases make) are counted each time they are used, but
+    computed once, so the cost is linear in the file, not in the expansion.
+    """
+    memo: dict[int, float] = {}
+    busy: set[int] = set()
+
+    def size(node: Any) -> float:
+        if isinstance(node, str):
+            return 1 + len(node)
+        if not isinstance(node, (dict, list)):
+            return 1
+        k = id(node)
+        if k in memo:
+            return memo[k]
+        if k in busy:
+            return 1  # an alias inside its own anchor: one reference (the schema refuses it later)
+        busy.add(k)
+        items = (list(node.keys()) + list(node.values())) if isinstance(node, dict) else node
+        total = 1.0
+        for item in items:
+            total += size(item)
+            if total > 4 * MAX_EXPANDED + 1e9:
+                break
+        busy.discard(k)
+        memo[k] = total
+        return total
+
+    try:
+        return size(raw)
+    except RecursionError:
+        return math.inf
+
+
+def _first_unwritable_text(raw: Any) -> tuple[str, int | None, str] | None:
+    """(key path, line, character) of the first text holding a lone surrogate, or None."""
+    seen: set[int] = set()
+    stack: list[tuple[Any, str, int | None]] = [(raw, "", getattr(raw, "line", None))]
+    while stack:
+        node, where, line = stack.pop()
+        if isinstance(node, str):
+            for ch in node:
+                if "\ud800" <= ch <= "\udfff":
+                    return where, line, ch
+            continue
+        if not isinstance(node, (dict, list)) or id(node) in seen:
+            continue
+        seen.add(id(node))
+        if isinstance(node, dict):
+            lines = getattr(node, "key_lines", {})
+            for k, v in reversed(list(node.items())):
+                stack.append((v, join_key(where, k), lines.get(k, line)))
+                stack.append((k, join_key(where, k), lines.get(k, line)))
+        else:
+            lines = getattr(node, "item_lines", [])
+            for i in reversed(range(len(node))):
+                stack.append((node[i], f"{where}[{i}]", lines[i] if i < len(lines) else line))
+    return None
 
 
 def _yaml_fix(problem: str) -> str:

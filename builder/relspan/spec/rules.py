@@ -371,6 +371,16 @@ class _Builder:
             start, end = self._date_range(t, f"{key}.time", tline)
             time = TimeSpec(column=t["column"], format=t.get("format", "auto"), start=start,
                             end=end)
+            if "%" in time.format:
+                from relspan.data.timeindex import pattern_problem
+
+                why = pattern_problem(time.format)
+                if why is not None:
+                    raise self.err(
+                        f"{key}.time.format {time.format!r} cannot be used: {why}.",
+                        line=_line(t, "format", tline), key=f"{key}.time.format",
+                        fix="use a pattern of %Y, %m, %d, %H, %M, %S (e.g. '%d/%m/%Y'), or one of "
+                            "auto, year, quarter, month, date, datetime.")
             if t["column"] in columns:
                 raise self.err(
                     f"{key}.time.column '{t['column']}' is also listed as a variable; the time "
@@ -378,8 +388,9 @@ class _Builder:
                     line=_line(t, "column", tline), key=f"{key}.time.column",
                     fix="remove it from the variables, or name another time column.")
         plans = tuple(d.get("plans", ()))
+        known_ids, listed = set(plan_ids), set(plans)
         for i, p in enumerate(plans):
-            if p not in plan_ids:
+            if p not in known_ids:
                 pl = _item_line(d["plans"], i, _line(d, "plans", line))
                 raise self.err(
                     f"{key}.plans[{i}] is '{p}', which is not the id of a window plan. Plans "
@@ -387,10 +398,11 @@ class _Builder:
                     line=pl, key=f"{key}.plans[{i}]",
                     fix="use one of the plan ids above, or add a plan with this id under "
                         "`windows:`.")
-        used = [w for w in windows if not plans or w.id in plans]
+        used = [w for w in windows if not plans or w.id in listed]
         if time is None:
+            position = {id(w): i for i, w in enumerate(windows)}
             for w in used:
-                wi = windows.index(w)
+                wi = position[id(w)]
                 needs = None
                 if w.kind == "periods":
                     needs = "is a periods plan"
@@ -420,6 +432,17 @@ class _Builder:
             vline = _item_line(vs, i, line)
             col = v["column"]
             cline = _line(v, "column", vline)
+            label = v.get("label", col)
+            if not str(label).strip():
+                given = "label" in v
+                raise self.err(
+                    f"{k}.{'label' if given else 'column'} is {label!r}, so the variable would have "
+                    "no visible name on the site" + ("" if given else " (the label defaults to the "
+                                                     "column name)") + ".",
+                    line=_line(v, "label", vline) if given else cline,
+                    key=f"{k}.{'label' if given else 'column'}",
+                    fix=(f"give {k} a `label:` with words in it"
+                         + ("" if given else ", or rename the column in the file's header") + "."))
             if col in seen:
                 raise self.err(
                     f"{k}.column '{col}' is listed twice in this dataset (lines {seen[col]} and "

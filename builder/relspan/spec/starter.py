@@ -99,7 +99,7 @@ def guess_time_column(head: pd.DataFrame) -> str | None:
 def _count_rows(path: Path, sep: str) -> int:
     n = 0
     for chunk in pd.read_csv(path, sep=sep, usecols=[0], chunksize=100_000, dtype=str,
-                             keep_default_na=False):
+                             keep_default_na=False, index_col=False):
         n += len(chunk)
     return n
 
@@ -143,9 +143,27 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
         raise DataError("data file not found." if not csv_path.exists()
                         else "this is a folder, not a data file.", path=shown,
                         fix="give the path of a CSV file.")
-    sep = "\t" if csv_path.suffix.lower() in (".tsv", ".tab") else ","
+    from relspan.data.sources import open_source
+    from relspan.data.sources.csv import check_field_counts
+
+    src = open_source(shown, csv_path)  # special files, empty files, UTF-8, the header
+    if src.format == "parquet":
+        raise DataError("is a Parquet file; `relspan new` writes starter specs for CSV and TSV files.",
+                        path=shown, fix="convert it to CSV, or write the spec by hand (see docs/spec.md).")
+    sep = src.delimiter or ","
+    names = [str(h) for h in src.header]
+    for j, name in enumerate(names):
+        if name in names[:j]:
+            raise DataError(
+                f"the header names the column {name!r} twice (columns {names.index(name) + 1} and "
+                f"{j + 1}), so a spec could not say which one it means.", path=shown, column=name,
+                fix="give every column of the header its own name.")
+    trailing, header_lines = check_field_counts(src)  # short rows refused, naming the line
+    shape = (dict(header=None, skiprows=header_lines, names=names + ["\x00extra"])
+             if trailing else dict(header=0))
     try:
-        head = pd.read_csv(csv_path, sep=sep, nrows=HEAD_ROWS)
+        head = pd.read_csv(csv_path, sep=sep, nrows=HEAD_ROWS, index_col=False, **shape)
+        head = head.loc[:, [c for c in head.columns if c != "\x00extra"]]
         rows = _count_rows(csv_path, sep)
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError,
             ValueError, OSError) as exc:

@@ -268,16 +268,30 @@ def validate(value: Any, schema: dict, key: str, line: int, ctx: Context,
             if items is not None:
                 validate(item, items, f"{key}[{i}]", lines[i], ctx)
         if schema.get("uniqueItems"):
+            first: dict = {}  # one pass: equal items (as JSON Schema means it) share a key
             for i, item in enumerate(value):
-                for j in range(i):
-                    if _same(value[j], item):
-                        raise ctx.error(
-                            f"{key} lists {describe(item)} twice (items {j} and {i}, lines "
-                            f"{lines[j]} and {lines[i]}).", line=lines[i], key=f"{key}[{i}]",
-                            fix="remove the repeated item.")
+                j = first.setdefault(_identity(item), i)
+                if j != i:
+                    raise ctx.error(
+                        f"{key} lists {describe(item)} twice (items {j} and {i}, lines "
+                        f"{lines[j]} and {lines[i]}).", line=lines[i], key=f"{key}[{i}]",
+                        fix="remove the repeated item.")
 
     if isinstance(value, dict) and t == "object":
         _validate_object(value, schema, key, line, ctx)
+
+
+def _identity(v: Any) -> Any:
+    """A hashable key such that two values share it iff :func:`_same` holds between them."""
+    if isinstance(v, bool):
+        return ("bool", v)
+    if isinstance(v, (int, float)):
+        return ("number", v)  # 1 and 1.0 are equal and hash alike
+    if isinstance(v, (list, tuple)):
+        return ("array", tuple(_identity(x) for x in v))
+    if isinstance(v, dict):
+        return ("object", frozenset((k, _identity(x)) for k, x in v.items()))
+    return (type(v).__name__, v)
 
 
 def _same(a: Any, b: Any) -> bool:

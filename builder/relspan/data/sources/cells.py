@@ -21,11 +21,16 @@ import pandas as pd
 
 from relspan.errors import DataError
 
-__all__ = ["MAX_MAGNITUDE", "RawChunk", "numeric_block", "check_finite", "time_text"]
+__all__ = ["MAX_MAGNITUDE", "MIN_MAGNITUDE", "check_not_tiny", "RawChunk", "numeric_block", "check_finite", "time_text"]
 
 #: larger magnitudes are refused: their squares (about 1e300) come close to the
 #: largest double (about 1.8e308, IEEE 754 binary64), and co-moments would overflow
 MAX_MAGNITUDE = 1e150
+
+#: a column whose every value is smaller in magnitude is refused: its squares (below about
+#: 1e-300) reach the subnormal range of doubles (below 2.2e-308, IEEE 754 binary64), where
+#: digits are lost and co-moments underflow to zero
+MIN_MAGNITUDE = 1e-150
 
 
 @dataclass(frozen=True, slots=True)
@@ -80,6 +85,10 @@ def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *
         if pd.api.types.is_bool_dtype(s.dtype):
             conv = pd.Series(np.full(m, np.nan))
             bad = s.notna().to_numpy()
+        elif pd.api.types.is_integer_dtype(s.dtype):
+            conv = s
+            bad = None
+            _check_exact_integers(s, name, rows, path=path)
         elif pd.api.types.is_numeric_dtype(s.dtype):
             conv = s
             bad = None
@@ -100,6 +109,42 @@ def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *
         out[:, j] = pd.Series(conv).to_numpy(dtype=float, na_value=np.nan)
     check_finite(out, names, rows, path=path)
     return out
+
+
+#: integers up to this magnitude are exact in double precision (2**53, IEEE 754 binary64)
+EXACT_INTEGER = 2 ** 53
+
+
+def _check_exact_integers(s: pd.Series, name: str, rows: np.ndarray, *, path: str | None) -> None:
+    """Refuse whole numbers a double cannot hold exactly (typed integer columns, e.g. Parquet int64).
+
+    Above 2**53 neighbouring integers round to the same double, so values that
+    differ would be analysed as equal (a column could even look constant).
+    """
+    present = s.notna().to_numpy(dtype=bool)
+    unsigned = pd.api.types.is_unsigned_integer_dtype(s.dtype)
+    ints = s[present].to_numpy(dtype=np.uint64 if unsigned else np.int64)
+    if ints.size == 0:
+        return
+    limit = np.uint64(EXACT_INTEGER) if unsigned else np.int64(EXACT_INTEGER)
+    big = (ints > limit) if unsigned else ((ints > limit) | (ints < -limit))
+    if not big.any():
+        return
+    lossy = np.zeros(ints.size, dtype=bool)
+    for k in np.flatnonzero(big):  # few, and Python ints compare exactly
+        v = int(ints[k])
+        lossy[k] = int(float(v)) != v
+    if lossy.any():
+        k = int(np.flatnonzero(lossy)[0])
+        i = int(np.flatnonzero(present)[k])
+        v = int(ints[k])
+        raise DataError(
+            f"column {name!r}, row {int(rows[i])}: the whole number {v} is larger than 2^53 = "
+            f"{EXACT_INTEGER} and has no exact double-precision value, so values that differ in "
+            "their last digits would be analysed as equal.", path=path, column=name,
+            row=int(rows[i]), got=str(v),
+            fix="store the column in a larger unit (e.g. thousands), or subtract a common baseline "
+                "before saving the file.")
 
 
 def check_finite(values: np.ndarray, names: Sequence[str], rows: np.ndarray, *,
@@ -148,6 +193,23 @@ def check_finite(values: np.ndarray, names: Sequence[str], rows: np.ndarray, *,
                 path=path, column=name, row=int(rows[i]), got=repr(col[i]),
                 fix="rescale the column (e.g. to thousands or millions of its unit), or correct "
                     "the cell if it is a typing error.")
+
+
+def check_not_tiny(largest: np.ndarray, names: Sequence[str], *, path: str | None) -> None:
+    """Refuse a column whose largest magnitude is above 0 but below :data:`MIN_MAGNITUDE`.
+
+    ``largest`` holds each column's largest absolute value over the analysed rows.
+    """
+    for j, name in enumerate(names):
+        v = float(largest[j])
+        if 0.0 < v < MIN_MAGNITUDE:
+            raise DataError(
+                f"column {name!r}: every value is smaller than {MIN_MAGNITUDE:.0e} in magnitude "
+                f"(the largest is {v:.3g}); squares and products of such numbers fall where double "
+                "precision loses its digits, so covariances and coefficients would be wrong.",
+                path=path, column=name, got=f"{v:.3g}",
+                fix="rescale the column in the file (express it in a unit many powers of ten "
+                    "smaller, so its values are nearer 1).")
 
 
 def time_text(t: pd.Series) -> np.ndarray:

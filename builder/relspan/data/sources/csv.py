@@ -116,6 +116,66 @@ def parser_error(path: str, err: Exception) -> DataError:
 # --------------------------------------------------------------------------- pandas
 
 
+def check_field_counts(src: TableSource) -> tuple[bool, int]:
+    """Refuse rows whose fields do not line up with the header, naming the first one.
+
+    pandas' C reader pads a short row with missing cells at its end and, when
+    every row has one field more than the header, takes the first field as
+    the row index (every column then shifts by one); neither can be seen after
+    the read. This pass counts the fields of every row with the standard
+    library's ``csv`` module (quotes and embedded newlines understood):
+
+    * a row with exactly one extra field that is empty (a separator at the end
+      of the line) is read as if the separator were not there;
+    * a row with fewer fields than the header is refused (a value left out
+      shifts the values after it into the wrong columns), unless the header's
+      only surplus is an unnamed empty last column (a separator at the end of
+      the header line);
+    * any other extra field is refused.
+
+    Only the pandas reader needs it: pyarrow's reader refuses both shapes
+    itself and hands such files to pandas. Returns whether some row ends with
+    a separator (the reader then makes room for one empty field more) and the
+    number of lines up to the end of the header.
+    """
+    trailing, header_lines = False, 1
+    width = len(src.header)
+    header_trailing = width > 1 and (src.header[-1].strip() == "" or src.header[-1].startswith("Unnamed: "))
+    # bytes that are not UTF-8 are located by the pandas pass (CheckedStream); here they only
+    # need to be counted past
+    with open(src.resolved, "r", encoding="utf-8-sig", errors="replace", newline="") as fh:
+        reader = csv.reader(fh, delimiter=src.delimiter or ",")
+        try:
+            for row in reader:  # the header: the first line that is not blank
+                if "".join(row).strip():
+                    break
+            header_lines = reader.line_num
+            for row in reader:
+                k = len(row)
+                if k == width or (k <= 1 and not "".join(row).strip()):
+                    continue
+                if k == width + 1 and row[-1] == "":
+                    trailing = True
+                    continue
+                if k == width - 1 and header_trailing:
+                    continue
+                line = reader.line_num
+                if k < width:
+                    raise DataError(
+                        f"line {line} has {k} fields but the header has {width}: a value is left "
+                        "out, so the values after it would land in the wrong columns.",
+                        path=src.path, line=line, expected=str(width), got=str(k),
+                        fix="add the missing value on that line (leave the cell empty between two "
+                            "separators if it is unknown).")
+                raise DataError(f"line {line} has {k} fields but the header has {width}.",
+                                path=src.path, line=line, expected=str(width), got=str(k),
+                                fix="remove the extra separators on that line, or quote fields "
+                                    "that contain the separator.")
+        except csv.Error:
+            return False, header_lines  # NUL bytes, an open quote: pandas' reader names the problem
+    return trailing, header_lines
+
+
 def pandas_chunks(table: TableReader) -> Iterator[RawChunk]:
     """pandas' C reader, the reference: hashes and checks UTF-8 in the same pass."""
     src = table.source
@@ -125,9 +185,15 @@ def pandas_chunks(table: TableReader) -> Iterator[RawChunk]:
     # error, which pandas skips silently when usecols is given); only the selected
     # columns are converted, checked and kept.
     dtype = {table.positions[-1]: str} if table.time_column is not None else None
+    trailing, header_lines = check_field_counts(src)
     with open(src.resolved, "rb") as fh:
         stream = CheckedStream(fh, src.path)
-        reader_args = dict(sep=src.delimiter, header=0, dtype=dtype,
+        # index_col=False: never take the first field as the row index (rows ending with a
+        # separator would otherwise shift every column by one); with such rows, positional
+        # names leave room for their empty last field
+        shape = (dict(header=None, skiprows=header_lines, names=list(range(len(src.header) + 1)))
+                 if trailing else dict(header=0))
+        reader_args = dict(sep=src.delimiter, **shape, dtype=dtype, index_col=False,
                            chunksize=table.chunk_rows, skip_blank_lines=True, engine="c",
                            encoding="utf-8", low_memory=False)
         try:

@@ -24,7 +24,8 @@ from typing import Sequence
 from relspan.errors import DataError
 from relspan.spec.schema import DATASET_FORMATS
 
-__all__ = ["FORMATS", "FIX_UTF8", "TableSource", "CheckedStream", "check_file", "detect_format",
+__all__ = ["FORMATS", "FIX_UTF8", "TableSource", "CheckedStream", "check_file", "special_file",
+           "detect_format",
            "select_columns", "file_sha256"]
 
 #: values of ``datasets[i].format`` (the schema's list)
@@ -152,7 +153,40 @@ class CheckedStream(io.RawIOBase):
             self._newlines += data.count(b"\n")
 
 
+#: folders of the operating system's own files: their sizes are not their contents and some
+#: never end (/dev/zero), so nothing under them is read as data or as a spec
+SYSTEM_FOLDERS = ("/proc", "/sys", "/dev")
+
+
+def special_file(resolved: Path) -> str | None:
+    """Why ``resolved`` is not an ordinary file to read (None when it is one).
+
+    Checked with ``stat`` before the file is opened: opening a named pipe
+    blocks until someone writes to it, and a device like /dev/zero never ends.
+    """
+    import os
+    import stat as st
+
+    real = os.path.realpath(resolved)
+    for folder in SYSTEM_FOLDERS:
+        if real == folder or real.startswith(folder + "/"):
+            return f"is a special file of the operating system (under {folder}), not a data file"
+    try:
+        mode = os.stat(real).st_mode
+    except OSError:
+        return None  # reported by the caller's own open
+    if st.S_ISREG(mode) or st.S_ISDIR(mode):
+        return None
+    kind = ("a named pipe (FIFO)" if st.S_ISFIFO(mode) else "a device" if st.S_ISCHR(mode) or
+            st.S_ISBLK(mode) else "a socket" if st.S_ISSOCK(mode) else "not an ordinary file")
+    return f"is {kind}, not an ordinary file; reading it could wait forever"
+
+
 def check_file(path: str, resolved: Path) -> None:
+    why = special_file(resolved)
+    if why is not None:
+        raise DataError(f"{why}.", path=path,
+                        fix="save the data to an ordinary file and point the dataset's source at it.")
     if not resolved.exists():
         raise DataError("does not exist.", path=path,
                         fix="check the dataset's source: it is read relative to the spec's folder.")

@@ -3,7 +3,8 @@
 :func:`parquet_header` reads the column names from the file's schema;
 :func:`parquet_chunks` reads only the selected columns, batch by batch, through
 the same cell checks as the text readers; a typed timestamp column stays
-datetime64 (in UTC, to the second). The SHA-256 is one streaming hash of the
+datetime64 (to the second); a time zone is dropped, keeping the local wall time
+(a value stamped 2020-03-01 00:00+02:00 is March 2020, not February in UTC). The SHA-256 is one streaming hash of the
 file after the read.
 """
 
@@ -81,7 +82,8 @@ def parquet_chunks(table: TableReader) -> Iterator[RawChunk]:
             if pd.api.types.is_datetime64_any_dtype(t.dtype):
                 times, typed = t.to_numpy(), True
                 if getattr(t.dt, "tz", None) is not None:
-                    times = t.dt.tz_convert("UTC").dt.tz_localize(None).to_numpy()
+                    # the wall time the data were stamped with: periods are read in local time
+                    times = t.dt.tz_localize(None).to_numpy()
                 times = times.astype("datetime64[s]")
             else:
                 times = time_text(t)

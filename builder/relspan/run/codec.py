@@ -1,0 +1,411 @@
+"""A safe codec for cached results: values become JSON plus plain arrays, never pickles.
+
+:func:`encode` turns a result (nested dataclasses, numpy arrays, tuples, dicts
+with any hashable keys, pandas frames, typed warnings, bytes) into a JSON-ready
+document and a list of numpy arrays; :func:`decode` turns them back. The
+document says what each value was by a small tag; a class is named by its module
+and qualified name and is looked up in an **allow-list**, never imported from the
+name in the document:
+
+* classes defined in relspan's own modules (the module name must be one of the
+  package's modules, listed from its installed files) that are dataclasses,
+  enums, :class:`~relspan.errors.RelspanWarning` subclasses, or whose
+  ``__reduce__`` rebuilds them from plain arguments (``(cls, args)``);
+* classes added by :func:`allow` (tests, extensions).
+
+Dataclasses are encoded generically from :func:`dataclasses.fields`, so a
+result type that gains a field needs no change here; they are rebuilt without
+running ``__init__`` or ``__post_init__`` (fields are set directly), so decoding
+runs no code of any class beyond an enum lookup and the constructors of
+``__reduce__`` classes of relspan's own. Arrays are stored by the caller (see
+:mod:`relspan.run.cache`) with ``numpy.save`` and read back with
+``allow_pickle=False``; object arrays are written element by element as
+documents. Anything the codec does not know raises :class:`CodecError`.
+
+The round trip is exact: floats keep every bit (JSON's shortest round-trip
+text, NaN and infinities tagged), dict order is kept, tuples stay tuples.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import enum
+import importlib
+import math
+import pkgutil
+from pathlib import PurePath, PurePosixPath, PureWindowsPath
+from typing import Any
+
+import numpy as np
+
+__all__ = ["CodecError", "encode", "decode", "allow", "FORMAT"]
+
+#: the document format; part of every cache entry's header
+FORMAT = "relspan-codec/1"
+
+#: nesting deeper than this is refused (a crafted document cannot exhaust the stack)
+MAX_DEPTH = 200
+
+
+class CodecError(ValueError):
+    """A value the codec cannot write, or a document it will not read."""
+
+
+_EXTRA: dict[str, type] = {}
+_PACKAGE_MODULES: frozenset[str] | None = None
+
+
+def allow(cls: type) -> type:
+    """Add ``cls`` (a dataclass, enum or exception class) to the allow-list; returns it.
+
+    Usable as a decorator. Only code can extend the list; a document never can.
+    """
+    _EXTRA[_name_of(cls)] = cls
+    return cls
+
+
+def _name_of(cls: type) -> str:
+    return f"{cls.__module__}:{cls.__qualname__}"
+
+
+def _package_modules() -> frozenset[str]:
+    """Names of relspan's own modules, listed from its installed files (nothing is imported)."""
+    global _PACKAGE_MODULES
+    if _PACKAGE_MODULES is None:
+        import relspan
+
+        names = {"relspan"}
+        for info in pkgutil.walk_packages(relspan.__path__, prefix="relspan.", onerror=lambda _: None):
+            names.add(info.name)
+        _PACKAGE_MODULES = frozenset(names)
+    return _PACKAGE_MODULES
+
+
+def _encodable_class(cls: type) -> bool:
+    mod = getattr(cls, "__module__", "") or ""
+    return _name_of(cls) in _EXTRA or mod == "relspan" or mod.startswith("relspan.")
+
+
+def _lookup(name: Any) -> type:
+    """The allowed class called ``name`` ("module:qualname"), or CodecError."""
+    if not isinstance(name, str) or name.count(":") != 1:
+        raise CodecError(f"not a class name: {name!r}")
+    if name in _EXTRA:
+        return _EXTRA[name]
+    module, qualname = name.split(":")
+    if module not in _package_modules():
+        raise CodecError(f"class {name!r} is not one of relspan's own")
+    mod = importlib.import_module(module)  # one of relspan's own modules, by its listed name
+    obj: Any = mod
+    for part in qualname.split("."):
+        if not part.isidentifier() or part.startswith("__"):
+            raise CodecError(f"not a class name: {name!r}")
+        obj = getattr(obj, part, None)
+    if not isinstance(obj, type) or obj.__module__ != module or obj.__qualname__ != qualname:
+        raise CodecError(f"{name!r} is not a class defined in {module}")
+    return obj
+
+
+# --------------------------------------------------------------------------- encode
+
+class _Encoder:
+    def __init__(self) -> None:
+        self.arrays: list[np.ndarray] = []
+
+    def array(self, a: np.ndarray) -> dict:
+        if a.dtype.hasobject:
+            return {"$": "objarray", "shape": list(a.shape),
+                    "items": [self.value(v, 1) for v in a.ravel(order="C").tolist()]}
+        if a.dtype.fields is not None or a.dtype.kind not in "biufcmMSU":
+            raise CodecError(f"cannot store an array of dtype {a.dtype}")
+        self.arrays.append(np.array(a, copy=True, order="C"))
+        return {"$": "array", "i": len(self.arrays) - 1, "ro": not a.flags.writeable}
+
+    def value(self, v: Any, depth: int = 0) -> Any:
+        if depth > MAX_DEPTH:
+            raise CodecError("value nested too deeply")
+        d = depth + 1
+        if v is None or isinstance(v, (bool, str)):
+            return v
+        t = type(v)
+        if t is int:
+            return v
+        if t is float:
+            if math.isfinite(v):
+                return v
+            return {"$": "float", "v": repr(v)}
+        if isinstance(v, np.ndarray):
+            return self.array(v)
+        if isinstance(v, np.generic):
+            return {"$": "scalar", "a": self.array(np.asarray(v))}
+        if t is tuple:
+            return {"$": "tuple", "v": [self.value(x, d) for x in v]}
+        if t is list:
+            return [self.value(x, d) for x in v]
+        if t is dict:
+            return {"$": "dict", "v": [[self.value(k, d), self.value(x, d)] for k, x in v.items()]}
+        if t in (set, frozenset):
+            return {"$": t.__name__, "v": [self.value(x, d) for x in v]}
+        if t in (bytes, bytearray):
+            return {"$": t.__name__, "a": self.array(np.frombuffer(bytes(v), dtype=np.uint8))}
+        if t is complex:
+            return {"$": "complex", "v": [self.value(v.real, d), self.value(v.imag, d)]}
+        if isinstance(v, PurePath):
+            kind = "winpath" if isinstance(v, PureWindowsPath) else "path"
+            return {"$": kind, "v": str(v)}
+        pd_doc = self._pandas(v, d)
+        if pd_doc is not None:
+            return pd_doc
+        if isinstance(v, enum.Enum) and _encodable_class(t):
+            return {"$": "enum", "c": _name_of(t), "v": self.value(v.value, d)}
+        from relspan.errors import RelspanWarning
+
+        if isinstance(v, RelspanWarning) and _encodable_class(t):
+            return {"$": "warning", "c": _name_of(t), "args": self.value(tuple(v.args), d),
+                    "attrs": self.value(dict(vars(v)), d)}
+        if dataclasses.is_dataclass(v) and not isinstance(v, type) and _encodable_class(t):
+            fields = [[f.name, self.value(getattr(v, f.name), d)] for f in dataclasses.fields(v)]
+            return {"$": "dc", "c": _name_of(t), "f": fields}
+        if _encodable_class(t) and "__reduce__" in vars(t):
+            red = v.__reduce__()
+            if isinstance(red, tuple) and len(red) == 2 and red[0] is t and isinstance(red[1], tuple):
+                return {"$": "obj", "c": _name_of(t), "args": [self.value(x, d) for x in red[1]]}
+        raise CodecError(f"cannot store a value of type {t.__module__}.{t.__qualname__} in the "
+                         "result cache; teach relspan.run.codec about it")
+
+    def _pandas(self, v: Any, d: int):
+        import pandas as pd
+
+        if isinstance(v, pd.DataFrame):
+            return {"$": "frame", "index": self._index(v.index, d),
+                    "columns": self._index(v.columns, d),
+                    "data": [self._series_values(v.iloc[:, j], d) for j in range(v.shape[1])]}
+        if isinstance(v, pd.Series):
+            return {"$": "series", "index": self._index(v.index, d), "name": self.value(v.name, d),
+                    "data": self._series_values(v, d)}
+        if isinstance(v, pd.Index):
+            return self._index(v, d)
+        if isinstance(v, pd.Timestamp):
+            if v.tz is not None:
+                raise CodecError("cannot store a time-zone aware Timestamp")
+            return {"$": "timestamp", "a": self.array(np.asarray(v.to_datetime64()))}
+        if v is pd.NaT:
+            return {"$": "nat"}
+        if v is pd.NA:
+            return {"$": "na"}
+        return None
+
+    def _values(self, obj) -> dict:
+        """The values of a Series or Index: a numpy array, or text with its pandas dtype name."""
+        import pandas as pd
+
+        dtype = obj.dtype
+        if isinstance(dtype, pd.StringDtype) and str(dtype) in _TEXT_DTYPES:
+            items = np.empty(len(obj), dtype=object)
+            items[:] = [None if v is pd.NA or (isinstance(v, float) and v != v) else v
+                        for v in obj.tolist()]
+            return {"$": "text", "dtype": str(dtype), "a": self.array(items)}
+        if not isinstance(dtype, np.dtype):
+            raise CodecError(f"cannot store pandas values of dtype {dtype}")
+        return self.array(obj.to_numpy(copy=True))
+
+    def _series_values(self, s, d: int):
+        return self._values(s)
+
+    def _index(self, idx, d: int):
+        import pandas as pd
+
+        if isinstance(idx, pd.MultiIndex):
+            raise CodecError("cannot store a pandas MultiIndex")
+        name = self.value(idx.name, d)
+        if isinstance(idx, pd.RangeIndex):
+            return {"$": "range", "v": [idx.start, idx.stop, idx.step], "name": name}
+        return {"$": "index", "a": self._values(idx), "name": name}
+
+
+def encode(value: Any) -> tuple[Any, list[np.ndarray]]:
+    """``(document, arrays)``: a JSON-ready document and the arrays it refers to by position."""
+    enc = _Encoder()
+    try:
+        doc = enc.value(value)
+    except RecursionError:
+        raise CodecError("value nested too deeply") from None
+    return doc, enc.arrays
+
+
+# --------------------------------------------------------------------------- decode
+
+class _Decoder:
+    def __init__(self, arrays) -> None:
+        self.arrays = arrays
+
+    def array(self, doc: Any) -> np.ndarray:
+        if not isinstance(doc, dict):
+            raise CodecError("not an array reference")
+        if doc.get("$") == "objarray":
+            shape = tuple(int(s) for s in doc["shape"])
+            items = [self.value(x, 1) for x in doc["items"]]
+            out = np.empty(len(items), dtype=object)
+            out[:] = items
+            return out.reshape(shape)
+        if doc.get("$") != "array":
+            raise CodecError("not an array reference")
+        i = doc["i"]
+        if type(i) is not int or not 0 <= i < len(self.arrays):
+            raise CodecError("array reference out of range")
+        a = self.arrays[i]
+        if not isinstance(a, np.ndarray) or a.dtype.hasobject:
+            raise CodecError("not a plain array")
+        if doc.get("ro"):
+            a.setflags(write=False)
+        return a
+
+    def value(self, doc: Any, depth: int = 0) -> Any:
+        if depth > MAX_DEPTH:
+            raise CodecError("document nested too deeply")
+        d = depth + 1
+        if doc is None or isinstance(doc, (bool, str, int, float)):
+            return doc
+        if isinstance(doc, list):
+            return [self.value(x, d) for x in doc]
+        if not isinstance(doc, dict) or not isinstance(doc.get("$"), str):
+            raise CodecError("not a codec document")
+        tag = doc["$"]
+        if tag == "float":
+            text = doc["v"]
+            if text not in ("nan", "inf", "-inf"):
+                raise CodecError("bad float")
+            return float(text)
+        if tag in ("array", "objarray"):
+            return self.array(doc)
+        if tag == "scalar":
+            a = self.array(doc["a"])
+            if a.ndim != 0:
+                raise CodecError("bad scalar")
+            return a[()]
+        if tag == "tuple":
+            return tuple(self.value(x, d) for x in self._list(doc["v"]))
+        if tag == "dict":
+            out = {}
+            for pair in self._list(doc["v"]):
+                if not isinstance(pair, list) or len(pair) != 2:
+                    raise CodecError("bad dict item")
+                out[self.value(pair[0], d)] = self.value(pair[1], d)
+            return out
+        if tag in ("set", "frozenset"):
+            items = [self.value(x, d) for x in self._list(doc["v"])]
+            return set(items) if tag == "set" else frozenset(items)
+        if tag in ("bytes", "bytearray"):
+            a = self.array(doc["a"])
+            if a.dtype != np.uint8 or a.ndim != 1:
+                raise CodecError("bad bytes")
+            return bytes(a.tobytes()) if tag == "bytes" else bytearray(a.tobytes())
+        if tag == "complex":
+            re_, im = (self.value(x, d) for x in self._list(doc["v"]))
+            return complex(re_, im)
+        if tag in ("path", "winpath"):
+            text = doc["v"]
+            if not isinstance(text, str):
+                raise CodecError("bad path")
+            from pathlib import Path
+
+            return Path(text) if tag == "path" else PureWindowsPath(text)
+        if tag in ("frame", "series", "range", "index", "timestamp", "nat", "na"):
+            return self._pandas(tag, doc, d)
+        if tag == "enum":
+            cls = _lookup(doc["c"])
+            if not issubclass(cls, enum.Enum):
+                raise CodecError(f"{doc['c']} is not an enum")
+            return cls(self.value(doc["v"], d))
+        if tag == "warning":
+            from relspan.errors import RelspanWarning
+
+            cls = _lookup(doc["c"])
+            if not issubclass(cls, RelspanWarning):
+                raise CodecError(f"{doc['c']} is not a relspan warning")
+            w = cls.__new__(cls)
+            args = self.value(doc["args"], d)
+            attrs = self.value(doc["attrs"], d)
+            if not isinstance(args, tuple) or not isinstance(attrs, dict) \
+                    or not all(isinstance(k, str) and k.isidentifier() and not k.startswith("__")
+                               for k in attrs):
+                raise CodecError("bad warning")
+            w.args = args
+            vars(w).update(attrs)
+            return w
+        if tag == "dc":
+            cls = _lookup(doc["c"])
+            if not dataclasses.is_dataclass(cls):
+                raise CodecError(f"{doc['c']} is not a dataclass")
+            names = [f.name for f in dataclasses.fields(cls)]
+            stored = self._list(doc["f"])
+            if [p[0] if isinstance(p, list) and len(p) == 2 else None for p in stored] != names:
+                raise CodecError(f"the fields of {doc['c']} have changed")
+            obj = object.__new__(cls)
+            for name, item in stored:
+                object.__setattr__(obj, name, self.value(item, d))
+            return obj
+        if tag == "obj":
+            cls = _lookup(doc["c"])
+            if "__reduce__" not in vars(cls) or dataclasses.is_dataclass(cls):
+                raise CodecError(f"{doc['c']} is not rebuilt from arguments")
+            return cls(*[self.value(x, d) for x in self._list(doc["args"])])
+        raise CodecError(f"unknown tag {tag!r}")
+
+    @staticmethod
+    def _list(v: Any) -> list:
+        if not isinstance(v, list):
+            raise CodecError("expected a list")
+        return v
+
+    def _values(self, doc):
+        """Values stored by ``_Encoder._values``: an array, or text with its pandas dtype."""
+        import pandas as pd
+
+        if isinstance(doc, dict) and doc.get("$") == "text":
+            if doc.get("dtype") not in _TEXT_DTYPES:
+                raise CodecError("bad text dtype")
+            return pd.array(list(self.array(doc["a"])), dtype=doc["dtype"])
+        return self.array(doc)
+
+    def _pandas(self, tag: str, doc: dict, d: int):
+        import pandas as pd
+
+        if tag == "nat":
+            return pd.NaT
+        if tag == "na":
+            return pd.NA
+        if tag == "timestamp":
+            return pd.Timestamp(self.array(doc["a"])[()])
+        if tag == "range":
+            start, stop, step = doc["v"]
+            if not all(type(x) is int for x in (start, stop, step)):
+                raise CodecError("bad range")
+            return pd.RangeIndex(start, stop, step, name=self.value(doc["name"], d))
+        if tag == "index":
+            return pd.Index(self._values(doc["a"]), name=self.value(doc["name"], d), copy=False)
+        index = self.value(doc["index"], d)
+        if tag == "series":
+            return pd.Series(self._values(doc["data"]), index=index, name=self.value(doc["name"], d),
+                             copy=False)
+        columns = self.value(doc["columns"], d)
+        data = [self._values(x) for x in self._list(doc["data"])]
+        if len(data) != len(columns):
+            raise CodecError("bad frame")
+        frame = pd.DataFrame({j: a for j, a in enumerate(data)}, index=index, copy=False)
+        frame.columns = columns
+        return frame
+
+
+#: pandas text dtypes stored as text (``str`` is pandas 3's default, ``string`` the NA-flavoured one)
+_TEXT_DTYPES = ("str", "string")
+
+
+def decode(doc: Any, arrays) -> Any:
+    """The value :func:`encode` was given; raises :class:`CodecError` on anything else."""
+    try:
+        return _Decoder(list(arrays)).value(doc)
+    except CodecError:
+        raise
+    except (KeyError, TypeError, ValueError, AttributeError, RecursionError, ImportError) as err:
+        raise CodecError(f"not a valid document ({type(err).__name__}: {err})") from None

@@ -1,0 +1,238 @@
+"""relspan.run.codec: results as JSON plus plain arrays, decoded only through an allow-list."""
+
+from __future__ import annotations
+
+import json
+import os
+import pickle
+import shutil
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from relspan.errors import IllConditionedWarning, NumericalWarning
+from relspan.run import codec
+
+REPO = Path(__file__).resolve().parents[2]
+
+
+def round_trip(value):
+    doc, arrays = codec.encode(value)
+    text = json.dumps(doc, allow_nan=False)  # the document really is JSON
+    return codec.decode(json.loads(text), [np.array(a) for a in arrays])
+
+
+def same_doc(a, b) -> bool:
+    """Equal documents and bit-identical arrays (the strictest equality the codec can offer)."""
+    da, aa = codec.encode(a)
+    db, ab = codec.encode(b)
+    return (json.dumps(da, sort_keys=True) == json.dumps(db, sort_keys=True) and len(aa) == len(ab)
+            and all(x.dtype == y.dtype and x.shape == y.shape and x.tobytes() == y.tobytes()
+                    for x, y in zip(aa, ab)))
+
+
+@codec.allow
+@dataclass(frozen=True, slots=True)
+class Inner:
+    q: int
+    basis: np.ndarray
+
+
+@codec.allow
+@dataclass(frozen=True)
+class Outer:
+    name: str
+    inner: Inner
+    by_key: dict
+    later: tuple = ()
+    derived: float = field(init=False, default=0.0)
+
+    def __post_init__(self):
+        object.__setattr__(self, "derived", 1.5)
+
+
+class TestRoundTrip:
+    @pytest.mark.parametrize("value", [
+        None, True, 0, -3, 2 ** 80, 0.1, -0.0, 1e-310, float("inf"), float("-inf"), "text",
+        "lone \udcff surrogate", (1, (2, 3)), [1, [2]], {"a": 1}, {(1, "x"): 2, 3: "y"}, {1, 2},
+        frozenset({"a"}), b"\x00\xff", complex(1, -2), Path("data/x.csv"),
+    ])
+    def test_plain_values_come_back_equal_and_of_the_same_type(self, value):
+        back = round_trip(value)
+        assert back == value and type(back) is type(value)
+
+    def test_nan_comes_back_as_nan(self):
+        assert np.isnan(round_trip(float("nan")))
+
+    def test_float_bits_are_kept(self):
+        x = np.random.default_rng(0).standard_normal(1000)
+        back = round_trip([float(v) for v in x])
+        assert np.array(back).tobytes() == x.tobytes()
+
+    @pytest.mark.parametrize("a", [
+        np.arange(12.0).reshape(3, 4), np.zeros((0, 3)), np.array([1, 2], dtype=np.int32),
+        np.array(["2020-01", "2021-06"], dtype="datetime64[M]"), np.array([True, False]),
+        np.asfortranarray(np.arange(6.0).reshape(2, 3)), np.array([1 + 2j]), np.array(["ab", "c"]),
+    ])
+    def test_arrays_keep_dtype_shape_and_bits(self, a):
+        back = round_trip(a)
+        assert back.dtype == a.dtype and back.shape == a.shape and np.array_equal(back, a)
+
+    def test_read_only_arrays_stay_read_only(self):
+        a = np.ones(3)
+        a.setflags(write=False)
+        assert not round_trip(a).flags.writeable
+
+    def test_object_arrays_are_stored_element_by_element(self):
+        a = np.array([None, "x", 1.5], dtype=object)
+        back = round_trip(a)
+        assert back.dtype == object and list(back) == [None, "x", 1.5]
+
+    def test_numpy_scalars_keep_their_type(self):
+        for v in (np.float64(0.25), np.int64(7), np.float32(1.5), np.bool_(True)):
+            back = round_trip(v)
+            assert type(back) is type(v) and back == v
+
+    def test_dataclasses_rebuild_every_field_without_running_init(self):
+        v = Outer("a", Inner(2, np.eye(2)), {("equal", 1): Inner(1, np.ones(2))})
+        back = round_trip(v)
+        assert isinstance(back, Outer) and back.derived == 1.5 and back.later == ()
+        assert back.inner.q == 2 and np.array_equal(back.by_key[("equal", 1)].basis, np.ones(2))
+
+    def test_typed_warnings_keep_class_message_and_fields(self):
+        w = IllConditionedWarning("window 3 is nearly singular", window="1990-1999", condition=1e12)
+        w.located(dataset="d", plan="r")
+        back = round_trip((w, NumericalWarning("slow")))
+        assert type(back[0]) is IllConditionedWarning and str(back[0]) == str(w)
+        assert (back[0].window, back[0].condition, back[0].plan) == ("1990-1999", 1e12, "r")
+        assert type(back[1]) is NumericalWarning and back[1].message == "slow"
+
+    def test_pandas_frames_series_and_indexes(self):
+        frame = pd.DataFrame({"a": [1.0, np.nan], "label": ["x", None],
+                              "t": np.array(["2020-01-01", "2020-02-01"], dtype="datetime64[s]")},
+                             index=pd.Index([10, 20], name="row"))
+        back = round_trip({"f": frame, "s": frame["a"], "r": pd.RangeIndex(2, 9, 3)})
+        pd.testing.assert_frame_equal(back["f"], frame)
+        pd.testing.assert_series_equal(back["s"], frame["a"])
+        pd.testing.assert_index_equal(back["r"], pd.RangeIndex(2, 9, 3))
+
+
+class TestAllowList:
+    def test_a_class_outside_relspan_cannot_be_stored(self):
+        @dataclass
+        class Stranger:
+            x: int
+
+        with pytest.raises(codec.CodecError, match="cannot store"):
+            codec.encode(Stranger(1))
+
+    @pytest.mark.parametrize("name", ["os:system", "builtins:eval", "pickle:loads", "relspan.cli:main",
+                                      "relspan.run.cache:ResultCache", "relspan:__builtins__",
+                                      "relspan.errors:RelspanError.__init__", "nonsense"])
+    def test_documents_naming_anything_else_are_refused(self, name):
+        for tag in ("dc", "obj", "enum", "warning"):
+            doc = {"$": tag, "c": name, "f": [], "args": [], "v": 0, "attrs": {"$": "dict", "v": []}}
+            with pytest.raises(codec.CodecError):
+                codec.decode(doc, [])
+
+    def test_a_document_cannot_name_a_module_outside_the_package_even_if_imported(self):
+        import subprocess  # noqa: F401 - imported, still not allowed
+
+        with pytest.raises(codec.CodecError, match="not one of relspan's own"):
+            codec.decode({"$": "obj", "c": "subprocess:Popen", "args": [["true"]]}, [])
+
+    def test_changed_fields_are_a_codec_error_not_a_half_built_object(self):
+        doc, arrays = codec.encode(Inner(1, np.zeros(1)))
+        doc["f"] = doc["f"][:1]
+        with pytest.raises(codec.CodecError, match="fields"):
+            codec.decode(doc, arrays)
+
+    def test_deep_nesting_is_refused(self):
+        doc: object = 1
+        for _ in range(codec.MAX_DEPTH + 5):
+            doc = [doc]
+        with pytest.raises(codec.CodecError):
+            codec.decode(doc, [])
+
+
+def test_a_whole_demo_analysis_round_trips_exactly():
+    """Every result type of a real run (plans, windows, findings, warnings, pandas overview)."""
+    from relspan.run.pipeline import run_analysis
+    from relspan.spec import load_spec
+
+    run = run_analysis(load_spec(REPO / "specs" / "demo.yaml"), jobs=1, use_cache=False, progress=False)
+    for ds in run.datasets:
+        back = round_trip((ds, run.warnings))
+        assert type(back[0]) is type(ds)
+        assert same_doc(back, (ds, run.warnings))
+        assert back[0].prepared.overview.values.equals(ds.prepared.overview.values)
+
+
+@pytest.fixture
+def project(tmp_path):
+    shutil.copytree(REPO / "tests" / "corpus" / "ok-plain" / "project", tmp_path / "p")
+    return tmp_path / "p"
+
+
+def test_cached_rebuild_gives_identical_site_bytes(project):
+    """The codec's round trip through the real command: cold build, then a build served by the cache."""
+    from corpus.harness import run_cli, snapshot
+
+    first = run_cli("build", "spec.yaml", "--jobs", "1", "--quiet", "--out", "a", cwd=project)
+    assert first.returncode == 0, first.stderr
+    second = run_cli("build", "spec.yaml", "--jobs", "1", "--quiet", "--out", "b", cwd=project)
+    assert second.returncode == 0, second.stderr
+    assert list((project / ".relspan-cache").rglob("*.npz"))
+    assert snapshot(project / "a") == snapshot(project / "b")
+
+
+class _Planted:
+    def __reduce__(self):
+        return (os.system, (f"touch {os.environ['RELSPAN_TEST_MARK']}",))
+
+
+def test_planted_pickle_and_forged_entry_in_a_sent_project_run_nothing(project, tmp_path, monkeypatch):
+    """A project folder someone sent, with a cache full of pickles: ignored with a note; exit 0."""
+    from corpus.harness import run_cli
+
+    mark = tmp_path / "EXECUTED"
+    monkeypatch.setenv("RELSPAN_TEST_MARK", str(mark))
+    from relspan.run.cache import ResultCache
+
+    import hashlib
+
+    from relspan.data.sources import file_sha256
+    from relspan.run.pipeline import _dataset_key
+    from relspan.spec import load_spec
+
+    spec = load_spec(project / "spec.yaml")
+    ds = spec.datasets[0]
+    key = _dataset_key(spec, ds, spec.plans_for(ds), file_sha256(ds.source_path))
+    cache = project / ".relspan-cache"
+    payload = pickle.dumps(_Planted())
+    # the old format, with a valid (unsigned) header, at the very key this build looks up
+    (cache / key[:2]).mkdir(parents=True)
+    (cache / key[:2] / f"{key}.pkl").write_bytes(
+        b"RSPC\x01\n" + key.encode() + hashlib.sha256(payload).digest() + payload)
+    # and a forged entry in the new layout at the same key: an npz whose array member is a pickle
+    env_folder = ResultCache(tmp_path / "probe").environment_folder.name
+    (cache / env_folder / key[:2]).mkdir(parents=True)
+    evil = np.empty(1, dtype=object)
+    evil[0] = _Planted()
+    header = json.dumps({"format": "relspan-cache-entry/2", "key": key, "environment": env_folder[4:],
+                         "arrays": 1, "value": {"$": "array", "i": 0}}).encode()
+    with open(cache / env_folder / key[:2] / f"{key}.npz", "wb") as fh:
+        np.savez(fh, header=np.frombuffer(header, dtype=np.uint8), a0=evil)
+    for command in ("check", "build"):
+        result = run_cli(command, "spec.yaml", "--jobs", "1", "--quiet", cwd=project)
+        assert result.returncode == 0, result.stderr
+        assert not mark.exists(), "code from the cache ran"
+        assert "Traceback" not in result.stderr
+        notes = [line for line in result.stderr.splitlines() if line.startswith("note:")]
+        if command == "check":
+            assert any("older cache format" in n for n in notes), result.stderr
+            assert any("not a valid relspan cache entry" in n for n in notes), result.stderr
+    assert not list(cache.rglob("*.pkl")), "the build prunes the old-format files"
