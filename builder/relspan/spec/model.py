@@ -135,6 +135,10 @@ class DatasetSpec:
     format: str = "auto"
     description: str = ""
     time: TimeSpec | None = None
+    separator: str = "auto"
+    decimal: str = "auto"
+    encoding: str = "auto"
+    sheet: str | int | None = None
     missing: str = "drop"
     plans: tuple[str, ...] = ()
     checks: ChecksSpec = field(default_factory=ChecksSpec)
