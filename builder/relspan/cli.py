@@ -89,18 +89,26 @@ def _parser() -> argparse.ArgumentParser:
     s.add_argument("folder", help="a folder written by `relspan build`")
     s.add_argument("--port", type=int, default=8000, help="port on 127.0.0.1 (default 8000; 0 = any free)")
 
-    n = sub.add_parser("new", help="write a starter spec for a CSV file",
-                       description="Write a commented starter spec for CSV: numeric columns as "
-                                   "variables, a guessed time column, a full-sample and a rolling plan.",
+    n = sub.add_parser("new", help="write a starter spec for a data file",
+                       description="Write a commented starter spec for a data file (CSV or TSV, "
+                                   "compressed or not, Parquet, Excel .xlsx, Stata .dta): numeric "
+                                   "columns as variables, a guessed time column, a full-sample and a "
+                                   "rolling plan; what was detected (separator, decimal mark, "
+                                   "encoding, sheet) is written into it.",
                        epilog="Example: relspan new data/regions.csv --out regions.yaml")
-    n.add_argument("csv", help="the CSV (or TSV) file")
+    n.add_argument("csv", metavar="DATA", help="the data file")
     n.add_argument("--out", default=None, metavar="SPEC",
                    help="where to write the spec (default: print it); an existing file is not overwritten")
 
-    sub.add_parser("schema", help="print the spec's JSON Schema",
-                   description="Print the JSON Schema of spec format v1 (for editors that validate "
-                               "and complete YAML).",
-                   epilog="Example: relspan schema > relspan-spec.schema.json")
+    sc = sub.add_parser("schema", help="print the spec's JSON Schema (or its reference in Markdown)",
+                        description="Print the JSON Schema of spec format v1 (for editors that "
+                                    "validate and complete YAML), or with --markdown the reference "
+                                    "of every key (type, default, example), generated from the same "
+                                    "schema.",
+                        epilog="Example: relspan schema > relspan-spec.schema.json; "
+                               "relspan schema --markdown > spec-reference.md")
+    sc.add_argument("--markdown", action="store_true",
+                    help="print the reference of every spec key in Markdown instead")
     return top
 
 
@@ -182,9 +190,14 @@ def _cmd_new(args: argparse.Namespace) -> int:
 
 
 def _cmd_schema(args: argparse.Namespace) -> int:
-    from relspan.spec.schema import schema_json_text
+    if args.markdown:
+        from relspan.spec.docs import spec_reference_markdown
 
-    text = schema_json_text()
+        text = spec_reference_markdown()
+    else:
+        from relspan.spec.schema import schema_json_text
+
+        text = schema_json_text()
     sys.stdout.write(text if text.endswith("\n") else text + "\n")
     return EXIT_OK
 

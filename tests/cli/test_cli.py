@@ -456,3 +456,18 @@ def test_a_bad_rebuild_leaves_the_previous_site_byte_for_byte(failing_build, tmp
     assert code == 2
     assert_one_paragraph(err)
     assert listing(site) == before
+
+
+def test_schema_markdown_prints_the_committed_spec_reference_so_an_installed_user_has_it(capsys):
+    code, out, _ = call_main(["schema", "--markdown"], capsys)
+    assert code == 0
+    assert out == (ROOT / "docs" / "spec.md").read_text(encoding="utf-8")
+    assert "#### `datasets[].separator`" in out and "#### `datasets[].sheet`" in out
+
+
+def test_new_points_to_the_installed_reference_not_a_repository_file(tmp_path, capsys):
+    data = tmp_path / "d.csv"
+    data.write_text("x,y\n" + "".join(f"{i},{i * i}\n" for i in range(20)), encoding="utf-8")
+    code, out, _ = call_main(["new", str(data)], capsys)
+    assert code == 0
+    assert "relspan schema --markdown" in out and "docs/spec.md" not in out

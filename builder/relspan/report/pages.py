@@ -1157,6 +1157,7 @@ def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
         f"`relspan check {spec.path.name}` re-checks the claims without writing the site.\n",
         "## Inputs {#inputs}\n",
         _table(("File", "SHA-256"), rows, csv=(pub, "data/tables/inputs.csv")),
+        _read_as_lines(spec, run),
         f"\nThe spec as used: [{spec_name}]({spec_download}).\n",
         f"Seed of the independent-noise search (checks.seed): {', '.join(str(s) for s in seeds)}.\n",
         "## Software {#software}\n",
@@ -1170,6 +1171,16 @@ def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
     ]
     return Page("reproduce.html", "Reproduce", "\n".join(body), "reproduce", breadcrumbs=(HOME,),
                 description="Inputs, versions and the one command that rebuilds this site.")
+
+
+def _read_as_lines(spec, run) -> str:
+    """How each file other than plain UTF-8 CSV was read ("" when all were plain)."""
+    lines = [f"- {_code(ds.source)}: read as {escape_text(r.prepared.read_as)}."
+             for ds, r in zip(spec.datasets, run.datasets) if getattr(r.prepared, "read_as", "")]
+    if not lines:
+        return ""
+    return ("\nHow the files were read (the checksums above are of the files as published; a "
+            "compressed file is hashed compressed):\n\n" + "\n".join(lines) + "\n")
 
 
 def _replication_readme(run, pub: Publisher) -> str:
