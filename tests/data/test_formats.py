@@ -281,3 +281,40 @@ def test_every_format_gives_identical_results_json_numbers(written, tmp_path):
     ref = numbers(docs[0])
     for name, doc in zip(names, docs):
         assert numbers(doc) == ref, name
+
+
+# ---------------------------------------------------------------- real files a package ships
+
+
+def _statsmodels_file(*parts):
+    sm = pytest.importorskip("statsmodels")
+    from pathlib import Path
+
+    path = Path(sm.__file__).parent.joinpath(*parts)
+    if not path.is_file():
+        pytest.skip(f"this statsmodels does not ship {'/'.join(parts)}")
+    return path
+
+
+def test_stata_file_shipped_by_statsmodels_reads_the_numbers_of_its_csv_twin():
+    # open data a package ships: statsmodels' macrodata (US macroeconomic series 1959Q1-2009Q3),
+    # shipped as statsmodels/datasets/macrodata/macrodata.dta (float32) and as macrodata.csv,
+    # which statsmodels' own loader reads (statsmodels.datasets.macrodata.load_pandas)
+    from statsmodels.datasets import macrodata
+
+    dta = _statsmodels_file("datasets", "macrodata", "macrodata.dta")
+    cols = ["realgdp", "realcons", "realinv"]
+    got = prepare_dataset(make_spec(dta, cols, source="macrodata.dta"), [FULL])
+    assert "a Stata .dta file" in got.read_as and got.rows_read == 203
+    ref = macrodata.load_pandas().data[cols].to_numpy(dtype=float)
+    # the .dta stores float32: about 7 significant digits
+    np.testing.assert_allclose(got.full.mean, ref.mean(axis=0), rtol=2e-7)
+    np.testing.assert_allclose(got.full.covariance(), np.cov(ref, rowvar=False), rtol=1e-5)
+
+
+def test_legacy_xls_shipped_by_statsmodels_is_refused_with_the_fix():
+    # a real Excel 97-2003 workbook from statsmodels' test data (frbny_nowcast/Nowcasting/test_spec.xls)
+    xls = _statsmodels_file("tsa", "statespace", "tests", "results", "frbny_nowcast", "Nowcasting",
+                            "test_spec.xls")
+    with pytest.raises(DataError, match=r"legacy Excel workbook .*\n  Fix: .*save it as \.xlsx"):
+        open_source("test_spec.xls", xls)
