@@ -50,7 +50,12 @@ def _add_run_options(p: argparse.ArgumentParser) -> None:
                    help="recompute everything; do not read or write the result cache")
     p.add_argument("--cache-dir", default=None, metavar="DIR",
                    help="result cache folder (default: .relspan-cache beside the spec; safe to delete)")
-    p.add_argument("--quiet", "-q", action="store_true", help="no progress line on stderr")
+    talk = p.add_mutually_exclusive_group()
+    talk.add_argument("--quiet", "-q", action="store_true",
+                      help="no progress bars on stderr (default: progress bars on a terminal only)")
+    talk.add_argument("--verbose", "-v", action="store_true",
+                      help="progress bars even when stderr is not a terminal (a log, CI), and where "
+                           "the tasks ran and how long the run took")
     p.add_argument("--strict", action="store_true",
                    help="treat warnings (ill-conditioned windows, solver limits) as failures: exit 1")
 
@@ -118,7 +123,8 @@ def _run_options(args: argparse.Namespace) -> dict:
                            key="--jobs", fix="use --jobs 1 for serial work, or leave it out.")
     return dict(jobs=args.jobs, scheduler=args.scheduler, use_cache=not args.no_cache,
                 cache_dir=Path(args.cache_dir) if args.cache_dir else None,
-                progress=not args.quiet)
+                progress=False if args.quiet else (True if args.verbose else None),
+                default_jobs=None)
 
 
 def _print_warnings(caught: Sequence[warnings.WarningMessage]) -> int:
@@ -139,6 +145,7 @@ def _cmd_build(args: argparse.Namespace) -> int:
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())
     print(f"site written to {outcome.out_dir}")
+    _say_more(args, outcome)
     return _exit_for(outcome, n_warn, args.strict)
 
 
@@ -150,7 +157,18 @@ def _cmd_check(args: argparse.Namespace) -> int:
         outcome = check(args.spec, **_run_options(args))
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())
+    _say_more(args, outcome)
     return _exit_for(outcome, n_warn, args.strict)
+
+
+def _say_more(args: argparse.Namespace, outcome) -> None:
+    """--verbose: where the tasks ran, the cache and the time, on stderr."""
+    if not args.verbose:
+        return
+    run = outcome.run
+    print(f"relspan: {len(run.datasets)} dataset(s) analysed {outcome.where.split(' (')[0]}; "
+          f"result cache: {run.cache_hits} reused, {run.cache_misses} computed; "
+          f"{outcome.seconds:.1f} s in all.", file=sys.stderr)
 
 
 def _exit_for(outcome, n_warn: int, strict: bool) -> int:

@@ -243,7 +243,7 @@ def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], s
 
 
 def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None = None,
-                 use_cache: bool = True, cache_dir: Path | None = None, progress: bool = True,
+                 use_cache: bool = True, cache_dir: Path | None = None, progress: bool | None = None,
                  executor: LazyExecutor | None = None, cache=None, write_cache: bool = True) -> AnalysisRun:
     """Analyse every dataset of ``spec`` and check its claims.
 
@@ -258,8 +258,9 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
         Read the result cache (``--no-cache`` sets False).
     cache_dir : Path, optional
         Cache folder (default ``.relspan-cache`` beside the spec).
-    progress : bool
-        Show a progress line on stderr when it is a terminal.
+    progress : bool, optional
+        Progress bars on stderr (tqdm): True always, False never, None on a
+        terminal or in a notebook only.
     executor : LazyExecutor, optional
         Shared with later stages (figures) so workers start once.
     cache : ResultCache, optional
@@ -292,7 +293,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
             prepared = prepare_dataset(ds, plans)
             total = 1 + sum(len(prepared.plan(p.id).windows) for p in plans)
             sink: list[RelspanWarning] = []
-            with Progress(f"analysis of {ds.id}", total, enabled=None if progress else False) as bar:
+            with Progress(f"analysis of {ds.id}", total, enabled=progress) as bar:
                 result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
                                           warn_sink=sink, cache_key=key)
             if write_cache:
