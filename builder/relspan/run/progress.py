@@ -1,6 +1,6 @@
 """Progress bars for long stages, drawn by tqdm: on a terminal, in a notebook, or when asked.
 
-``analysis of trio: 40%|####      | 120/300 [00:02<00:03, 52.1 task/s]`` is
+``analysis of trio: 120/300 tasks (40%) |####      | [00:02<00:03]`` is
 tqdm's line, rewritten in place on a terminal; in a Jupyter notebook (when
 ipywidgets is installed) it is tqdm's notebook widget. Where the stream is not
 a terminal (a log file, a pipe, CI) nothing at all is written unless drawing
@@ -17,6 +17,7 @@ References
 
 from __future__ import annotations
 
+import io
 import os
 import sys
 from threading import Lock
@@ -129,9 +130,11 @@ class Progress:
             return
         bar = _bar_class(self._stream)
         kwargs = dict(total=self._total, desc=self.stage, unit="task", mininterval=self._min_interval,
-                      leave=True, dynamic_ncols=True, colour=None)
+                      leave=True, colour=None)
         if bar.__module__ == "tqdm.std":
-            kwargs.update(file=self._stream)
+            # "analysis of trio: 120/480 tasks (25%) |###   | [00:02<00:06]": the stage and the
+            # count first, so a narrow terminal still shows them
+            kwargs.update(file=self._stream, bar_format=_BAR_FORMAT, **_width(self._stream))
         try:
             self._bar = bar(**kwargs)
         except (OSError, ValueError):  # the stream went away: stop drawing
@@ -167,6 +170,22 @@ class Progress:
 
     def __exit__(self, *exc: object) -> None:
         self.close()
+
+
+#: tqdm's line: stage, count, share, bar, elapsed and remaining time
+_BAR_FORMAT = "{desc}: {n_fmt}/{total_fmt} tasks ({percentage:.0f}%) |{bar}| [{elapsed}<{remaining}]"
+
+
+def _width(stream: TextIO) -> dict:
+    """Follow the terminal's size; 80 x 24 where it reports none (a fresh pseudo-terminal says
+    0 x 0, and tqdm then draws nothing)."""
+    try:
+        size = os.get_terminal_size(stream.fileno())
+        if size.columns > 0 and size.lines > 0:
+            return {"dynamic_ncols": True}
+    except (AttributeError, ValueError, OSError, io.UnsupportedOperation):
+        pass
+    return {"ncols": 80, "nrows": 24}
 
 
 def _check_count(value: object, what: str) -> None:
