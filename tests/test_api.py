@@ -188,7 +188,8 @@ def test_analyse_frame_elementary_coefficients_equal_ols_of_the_reference_variab
 
 def test_analyse_frame_windows_frame_has_a_row_per_window_and_assumption(trio_analysis, demo_check):
     windows = trio_analysis.windows_frame()
-    assert list(windows.columns) == ["plan", "window", "rows", "assumption", "corank"]
+    assert list(windows.columns)[:10] == ["plan", "window", "start", "end", "rows", "assumption",
+                                          "corank", "angle_to_full_deg", "normalised_on", "coefficients"]
     assert len(windows) == (1 + 14) * len(TRIO_ASSUMPTIONS)
     assert str(windows["corank"].dtype) == "Int64"
     rolling = windows[(windows["plan"] == "rolling") & (windows["assumption"] == "equal")]
@@ -230,3 +231,150 @@ def test_analyse_frame_without_time_uses_row_windows(trio_frame):
     windows = result.windows_frame()
     assert list(windows.loc[windows["plan"] == "rolling", "window"])[:2] == ["rows 1–40", "rows 9–48"]
     assert np.all(windows["corank"] == 2)
+
+
+def test_windows_frame_has_each_windows_start_end_and_angle_to_the_full_sample(trio_analysis):
+    windows = trio_analysis.windows_frame()
+    plan = trio_analysis.result.plan("rolling")
+    rows = windows[(windows["plan"] == "rolling") & (windows["assumption"] == "equal")]
+    assert list(rows["start"]) == [w.first_time for w in plan.windows]
+    assert list(rows["end"]) == [w.last_time for w in plan.windows]
+    assert rows["start"].iloc[0] == "1990Q1" and rows["end"].iloc[0] == "1999Q4"
+    q = trio_analysis.result.examined[0]
+    np.testing.assert_array_equal(rows["angle_to_full_deg"].to_numpy(),
+                                  plan.stability[("equal", q)].to_reference_deg)
+
+
+def test_coefficients_appear_only_where_one_relation_holds_and_name_the_normalising_variable(
+        trio_analysis):
+    table = trio_analysis.to_frame()
+    assert set(table["normalised_on"]) == {"cargo"}
+    # trio: two relations under equal noise: no single equation is fixed (the site says so too)
+    assert table.loc["equal", "corank"] == 2
+    assert table.loc["equal", "coefficients"] == "not identified (2 relations)"
+    assert table.loc[["equal"], ["coef[rail]", "coef[customs]", "coef[kelp]"]].isna().all(axis=None)
+    assert table.loc["elementary", "coefficients"] == "point, given which variable is noisy"
+    windows = trio_analysis.windows_frame()
+    two = windows[windows["corank"] >= 2]
+    assert len(two) and two.filter(like="coef[").isna().all(axis=None)
+
+
+def test_one_relation_gives_equal_noise_coefficients_near_the_truth():
+    rng = np.random.default_rng(16)
+    t = 400
+    x = rng.normal(size=(t, 2)) * [3.0, 2.0]
+    y = 2.0 * x[:, 0] - 0.5 * x[:, 1]          # the one relation: y = 2 a - 0.5 b
+    frame = pd.DataFrame({"y": y, "a": x[:, 0], "b": x[:, 1]}) + 0.01 * rng.normal(size=(t, 3))
+    table = relspan.analyse_frame(frame, columns=["y", "a", "b"], normalise_on="y",
+                                  assumptions=["elementary", "equal"]).to_frame()
+    assert table.loc["equal", "corank"] == 1 and table.loc["equal", "coefficients"] == "point"
+    assert table.loc["equal", "coef[a]"] == pytest.approx(2.0, abs=0.01)
+    assert table.loc["equal", "coef[b]"] == pytest.approx(-0.5, abs=0.01)
+
+
+@pytest.mark.parametrize("index_kind", ["period", "datetime"])
+def test_a_period_or_datetime_index_is_the_time_axis(trio_frame, index_kind):
+    periods = pd.PeriodIndex(trio_frame["quarter"], freq="Q")
+    frame = trio_frame.drop(columns="quarter")
+    frame.index = periods if index_kind == "period" else periods.to_timestamp()
+    result = relspan.analyse_frame(frame, columns=TRIO_COLUMNS, rolling=40, step=8,
+                                   assumptions=["equal"])
+    reference = relspan.analyse_frame(trio_frame, columns=TRIO_COLUMNS, time="quarter", rolling=40,
+                                      step=8, assumptions=["equal"])
+    got = result.windows_frame()
+    assert result.result.prepared.time_column is not None
+    if index_kind == "period":
+        assert list(got["window"]) == list(reference.windows_frame()["window"])
+    else:
+        assert got["start"].iloc[1] == "1990-01-01"
+    assert list(got["corank"]) == list(reference.windows_frame()["corank"])
+
+
+def _trio_table(result):
+    return result.to_frame().drop(columns=["coefficients"])
+
+
+@pytest.mark.parametrize("library", ["pyarrow", "polars", "xarray"])
+def test_tables_of_other_libraries_are_converted_and_give_the_same_answer(trio_frame, library):
+    lib = pytest.importorskip(library)
+    if library == "pyarrow":
+        data, time = lib.Table.from_pandas(trio_frame), "quarter"
+    elif library == "polars":
+        data, time = lib.from_pandas(trio_frame), "quarter"
+    else:
+        indexed = trio_frame.set_index(pd.PeriodIndex(trio_frame["quarter"], freq="Q").to_timestamp())
+        data, time = lib.Dataset.from_dataframe(indexed.drop(columns="quarter")), None
+    got = relspan.analyse_frame(data, columns=TRIO_COLUMNS, time=time, assumptions=["elementary", "equal"])
+    ref = relspan.analyse_frame(trio_frame, columns=TRIO_COLUMNS, time="quarter",
+                                assumptions=["elementary", "equal"])
+    pd.testing.assert_frame_equal(_trio_table(got), _trio_table(ref))
+
+
+def test_an_object_with_the_dataframe_interchange_protocol_is_converted(trio_frame):
+    class Interchange:
+        def __init__(self, frame):
+            self._frame = frame
+
+        def __dataframe__(self, nan_as_null=False, allow_copy=True):
+            return self._frame.__dataframe__(nan_as_null=nan_as_null, allow_copy=allow_copy)
+
+    got = relspan.analyse_frame(Interchange(trio_frame[TRIO_COLUMNS]), columns=TRIO_COLUMNS,
+                                assumptions=["equal"])
+    assert got.to_frame().loc["equal", "corank"] == 2
+
+
+def test_an_object_with_the_arrow_pycapsule_interface_is_converted(trio_frame):
+    pa = pytest.importorskip("pyarrow")
+
+    class Capsule:
+        def __init__(self, table):
+            self._table = table
+
+        def __arrow_c_stream__(self, requested_schema=None):
+            return self._table.__arrow_c_stream__(requested_schema)
+
+    got = relspan.analyse_frame(Capsule(pa.Table.from_pandas(trio_frame[TRIO_COLUMNS])),
+                                columns=TRIO_COLUMNS, assumptions=["equal"])
+    assert got.to_frame().loc["equal", "corank"] == 2
+
+
+@pytest.mark.parametrize("data", [[[1.0, 2.0]], np.ones((5, 2)), {"a": [1, 2]}])
+def test_anything_else_is_one_clear_type_error(data):
+    with pytest.raises(TypeError, match=r"analyse_frame needs a table: a pandas\.DataFrame, or a "
+                                        r"polars, pyarrow or xarray table.*; got "):
+        relspan.analyse_frame(data, columns=["a", "b"])
+
+
+# ------------------------------------------------------------ notebook display
+
+
+def test_reprs_are_short_whatever_the_size_of_the_run(demo_check, trio_analysis):
+    spec = relspan.load_spec(DEMO)
+    for obj in (demo_check, spec, demo_check.run, demo_check.run.datasets[0],
+                demo_check.run.datasets[0].plans[-1], trio_analysis):
+        assert len(repr(obj)) < 2000, type(obj).__name__
+    assert "5 of 5 claim(s) hold" in repr(demo_check)
+    assert "3 dataset(s) (trio, accounts, shift)" in repr(spec)
+    for obj in (demo_check, spec, trio_analysis):
+        html = obj._repr_html_()
+        assert html.startswith("<div>") and len(html) < 20_000, type(obj).__name__
+
+
+def test_outcome_html_escapes_what_the_spec_says(demo_check):
+    html = demo_check._repr_html_()
+    assert "<table>" in html and "trio-two-relations" in html
+    assert "<script" not in html
+
+
+def test_verdicts_frame_has_one_row_per_claim(demo_check):
+    frame = demo_check.verdicts_frame()
+    assert list(frame.index) == [v.claim.id for v in demo_check.run.verdicts]
+    assert frame["holds"].all() and set(frame["verdict"]) == {"holds"}
+    assert {"kind", "dataset", "plan", "observed", "text"} <= set(frame.columns)
+
+
+def test_outcome_tables_of_a_named_dataset(demo_check):
+    assert set(demo_check.windows_frame("shift")["plan"]) == {p.plan.id for p in
+                                                            demo_check.run.dataset("shift").plans}
+    with pytest.raises(KeyError, match="no dataset 'nope'; the datasets are trio, accounts, shift"):
+        demo_check.assumptions_frame("nope")

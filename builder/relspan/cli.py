@@ -62,7 +62,12 @@ def _add_run_options(p: argparse.ArgumentParser) -> None:
                    help="recompute everything; do not read or write the result cache")
     p.add_argument("--cache-dir", default=None, metavar="DIR",
                    help="result cache folder (default: .relspan-cache beside the spec; safe to delete)")
-    p.add_argument("--quiet", "-q", action="store_true", help="no progress line on stderr")
+    talk = p.add_mutually_exclusive_group()
+    talk.add_argument("--quiet", "-q", action="store_true",
+                      help="no progress bars on stderr (default: progress bars on a terminal only)")
+    talk.add_argument("--verbose", "-v", action="store_true",
+                      help="progress bars even when stderr is not a terminal (a log, CI), and where "
+                           "the tasks ran and how long the run took")
     p.add_argument("--strict", action="store_true",
                    help="treat warnings (ill-conditioned windows, solver limits) as failures: exit 1")
 
@@ -102,18 +107,26 @@ def _parser() -> argparse.ArgumentParser:
     s.add_argument("--port", type=_port, default=8000,
                    help="port on 127.0.0.1 (default 8000; 0 = any free)")
 
-    n = sub.add_parser("new", help="write a starter spec for a CSV file",
-                       description="Write a commented starter spec for CSV: numeric columns as "
-                                   "variables, a guessed time column, a full-sample and a rolling plan.",
+    n = sub.add_parser("new", help="write a starter spec for a data file",
+                       description="Write a commented starter spec for a data file (CSV or TSV, "
+                                   "compressed or not, Parquet, Excel .xlsx, Stata .dta): numeric "
+                                   "columns as variables, a guessed time column, a full-sample and a "
+                                   "rolling plan; what was detected (separator, decimal mark, "
+                                   "encoding, sheet) is written into it.",
                        epilog="Example: relspan new data/regions.csv --out regions.yaml")
-    n.add_argument("csv", help="the CSV (or TSV) file")
+    n.add_argument("csv", metavar="DATA", help="the data file")
     n.add_argument("--out", default=None, metavar="SPEC",
                    help="where to write the spec (default: print it); an existing file is not overwritten")
 
-    sub.add_parser("schema", help="print the spec's JSON Schema",
-                   description="Print the JSON Schema of spec format v1 (for editors that validate "
-                               "and complete YAML).",
-                   epilog="Example: relspan schema > relspan-spec.schema.json")
+    sc = sub.add_parser("schema", help="print the spec's JSON Schema (or its reference in Markdown)",
+                        description="Print the JSON Schema of spec format v1 (for editors that "
+                                    "validate and complete YAML), or with --markdown the reference "
+                                    "of every key (type, default, example), generated from the same "
+                                    "schema.",
+                        epilog="Example: relspan schema > relspan-spec.schema.json; "
+                               "relspan schema --markdown > spec-reference.md")
+    sc.add_argument("--markdown", action="store_true",
+                    help="print the reference of every spec key in Markdown instead")
     return top
 
 
@@ -123,7 +136,8 @@ def _run_options(args: argparse.Namespace) -> dict:
                            key="--jobs", fix="use --jobs 1 for serial work, or leave it out.")
     return dict(jobs=args.jobs, scheduler=args.scheduler, use_cache=not args.no_cache,
                 cache_dir=Path(args.cache_dir) if args.cache_dir else None,
-                progress=not args.quiet)
+                progress=False if args.quiet else (True if args.verbose else None),
+                default_jobs=None)
 
 
 class _Warnings(warnings.catch_warnings):
@@ -167,6 +181,7 @@ def _cmd_build(args: argparse.Namespace) -> int:
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())
     print(f"site written to {outcome.out_dir}")
+    _say_more(args, outcome)
     return _exit_for(outcome, n_warn, args.strict)
 
 
@@ -177,7 +192,18 @@ def _cmd_check(args: argparse.Namespace) -> int:
         outcome = check(args.spec, **_run_options(args))
     n_warn = _print_warnings(caught)
     print(outcome.verdict_table())
+    _say_more(args, outcome)
     return _exit_for(outcome, n_warn, args.strict)
+
+
+def _say_more(args: argparse.Namespace, outcome) -> None:
+    """--verbose: where the tasks ran, the cache and the time, on stderr."""
+    if not args.verbose:
+        return
+    run = outcome.run
+    print(f"relspan: {len(run.datasets)} dataset(s) analysed {outcome.where.split(' (')[0]}; "
+          f"result cache: {run.cache_hits} reused, {run.cache_misses} computed; "
+          f"{outcome.seconds:.1f} s in all.", file=sys.stderr)
 
 
 def _exit_for(outcome, n_warn: int, strict: bool) -> int:
@@ -229,9 +255,14 @@ def _cmd_new(args: argparse.Namespace) -> int:
 
 
 def _cmd_schema(args: argparse.Namespace) -> int:
-    from relspan.spec.schema import schema_json_text
+    if args.markdown:
+        from relspan.spec.docs import spec_reference_markdown
 
-    text = schema_json_text()
+        text = spec_reference_markdown()
+    else:
+        from relspan.spec.schema import schema_json_text
+
+        text = schema_json_text()
     sys.stdout.write(text if text.endswith("\n") else text + "\n")
     return EXIT_OK
 

@@ -456,3 +456,48 @@ def test_a_bad_rebuild_leaves_the_previous_site_byte_for_byte(failing_build, tmp
     assert code == 2
     assert_one_paragraph(err)
     assert listing(site) == before
+
+
+def test_schema_markdown_prints_the_committed_spec_reference_so_an_installed_user_has_it(capsys):
+    code, out, _ = call_main(["schema", "--markdown"], capsys)
+    assert code == 0
+    assert out == (ROOT / "docs" / "spec.md").read_text(encoding="utf-8")
+    assert "#### `datasets[].separator`" in out and "#### `datasets[].sheet`" in out
+
+
+def test_new_points_to_the_installed_reference_not_a_repository_file(tmp_path, capsys):
+    data = tmp_path / "d.csv"
+    data.write_text("x,y\n" + "".join(f"{i},{i * i}\n" for i in range(20)), encoding="utf-8")
+    code, out, _ = call_main(["new", str(data)], capsys)
+    assert code == 0
+    assert "relspan schema --markdown" in out and "docs/spec.md" not in out
+
+
+# ------------------------------------------------------------- --quiet / --verbose
+
+
+def _tiny_spec(folder: Path) -> Path:
+    rows = "".join(f"{i},{(i * 7) % 11},{(i * 7) % 11 + i + (i % 3) * 0.01}\n" for i in range(60))
+    (folder / "d.csv").write_text("x,y,z\n" + rows, encoding="utf-8")
+    spec = folder / "s.yaml"
+    spec.write_text("relspan: 1\nreport: {title: t}\ndatasets:\n  - id: d\n    source: d.csv\n"
+                    "    variables: [{column: x}, {column: y}, {column: z}]\n"
+                    "windows: [{id: full, kind: full}]\nchecks: {assumptions: [elementary, equal]}\n",
+                    encoding="utf-8")
+    return spec
+
+
+def test_verbose_draws_progress_bars_in_a_log_and_says_where_the_tasks_ran(tmp_path):
+    spec = _tiny_spec(tmp_path)
+    done = run_cli("check", str(spec), "--verbose", "--jobs", "1", "--no-cache")
+    assert done.returncode == 0, done.stderr
+    assert "analysis of d: 2/2 tasks (100%)" in done.stderr  # tqdm's bar, though not a terminal
+    assert "1 dataset(s) analysed in this process; result cache: 0 reused, 1 computed" in done.stderr
+
+
+def test_without_verbose_a_log_gets_no_progress_and_quiet_and_verbose_exclude_each_other(tmp_path):
+    spec = _tiny_spec(tmp_path)
+    done = run_cli("check", str(spec), "--jobs", "1", "--no-cache")
+    assert done.returncode == 0 and done.stderr == ""
+    both = run_cli("check", str(spec), "--quiet", "--verbose")
+    assert both.returncode == 2 and "not allowed with argument" in both.stderr

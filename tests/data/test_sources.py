@@ -34,10 +34,12 @@ def test_non_utf8_bytes_name_file_offset_and_line(write_csv):
         _prep(path)
 
 
-def test_utf16_file_is_refused_at_offset_zero(write_csv):
-    path = write_csv(GOOD.encode("utf-16"))
-    with pytest.raises(DataError, match=r"not UTF-8 text: the byte at offset 0 \(line 1\)"):
-        _prep(path)
+def test_utf16_file_with_a_bom_is_read_as_the_same_table_and_the_reading_is_said(write_csv):
+    utf8 = _prep(write_csv(GOOD))
+    utf16 = _prep(write_csv(GOOD.encode("utf-16"), name="u.csv"))
+    assert utf16.full == utf8.full
+    assert "UTF-16 with a byte-order mark" in utf16.read_as and "detected: encoding" in utf16.read_as
+    assert utf8.read_as == ""
 
 
 def test_tsv_and_txt_are_detected(write_csv):

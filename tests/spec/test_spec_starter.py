@@ -133,3 +133,34 @@ def test_missing_csv_is_a_data_error(tmp_path):
                                            ("jobsTotal", "Jobs Total")])
 def test_prettify_makes_readable_labels(column, label):
     assert prettify(column) == label
+
+
+def _frame(rows=120, seed=3):
+    rng = np.random.default_rng(seed)
+    return pd.DataFrame({"quarter": [f"{1990 + i // 4}Q{i % 4 + 1}" for i in range(rows)],
+                         "cargo": np.round(rng.normal(size=rows), 4),
+                         "rail": np.round(rng.normal(size=rows), 4)})
+
+
+@pytest.mark.parametrize("name,write,keys", [
+    ("d.parquet", lambda f, p: f.to_parquet(p, index=False), []),
+    ("d.xlsx", lambda f, p: f.to_excel(p, index=False, sheet_name="Data"),
+     ["format: excel", 'sheet: "Data"']),
+    ("d.dta", lambda f, p: f.to_stata(p, write_index=False), ["format: stata"]),
+    ("d.csv", lambda f, p: f.to_csv(p, index=False, sep=";", decimal=",", encoding="utf-16"),
+     ['separator: ";"', 'decimal: ","', "encoding: utf-16"]),
+    ("d.csv.gz", lambda f, p: f.to_csv(p, index=False, compression="gzip"), []),
+])
+def test_starter_reads_every_format_build_reads_and_pins_what_it_detected(tmp_path, name, write, keys):
+    if name.endswith(".parquet"):
+        pytest.importorskip("pyarrow")
+    if name.endswith(".xlsx"):
+        pytest.importorskip("openpyxl")
+    data = tmp_path / name
+    write(_frame(), data)
+    text, spec = _write(tmp_path, data)
+    for key in keys:
+        assert f"    {key}\n" in text, key
+    ds = spec.datasets[0]
+    assert ds.columns == ("cargo", "rail") and ds.time.column == "quarter"
+    assert "(120 rows, 2 numeric columns)" in text

@@ -57,6 +57,10 @@ class PlanResult:
     def labels(self) -> tuple[str, ...]:
         return tuple(a.label for a in self.analyses)
 
+    def __repr__(self) -> str:
+        return (f"<PlanResult {self.plan.id!r} ({self.plan.kind}): {len(self.analyses)} window(s), "
+                f"{len(self.stability)} stability summary(ies)>")
+
 
 @dataclass(frozen=True, slots=True, eq=False)
 class DatasetResult:
@@ -117,6 +121,14 @@ class DatasetResult:
                 return p
         raise KeyError(plan_id)
 
+    def __repr__(self) -> str:
+        coranks = ", ".join(f"{a} {'?' if q is None else q}" for a, q in self.full.coranks.items())
+        names = ", ".join(self.names)
+        names = names if len(names) <= 80 else names[:79] + "\u2026"
+        return (f"<DatasetResult {self.spec.id!r}: {len(self.names)} variables ({names}); "
+                f"full-sample corank {coranks}; {len(self.plans)} plan(s), "
+                f"{sum(len(p.analyses) for p in self.plans)} window(s); {len(self.findings)} finding(s)>")
+
 
 @dataclass(frozen=True, slots=True, eq=False)
 class AnalysisRun:
@@ -154,3 +166,11 @@ class AnalysisRun:
             if d.spec.id == dataset_id:
                 return d
         raise KeyError(dataset_id)
+
+    def __repr__(self) -> str:
+        n_fail = sum(not v.holds for v in self.verdicts)
+        ids = ", ".join(d.spec.id for d in self.datasets)
+        ids = ids if len(ids) <= 80 else ids[:79] + "\u2026"
+        return (f"<AnalysisRun: {len(self.datasets)} dataset(s) ({ids}); "
+                f"{len(self.verdicts) - n_fail} of {len(self.verdicts)} claim(s) hold; "
+                f"{len(self.warnings)} warning(s)>")

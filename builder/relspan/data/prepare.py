@@ -31,7 +31,7 @@ import pandas as pd
 from relspan.analysis.moments import Moments
 from relspan.data.blocks import BlockBuilder, BlockTable, assemble_stacked, tree_levels
 from relspan.data.sources.cells import check_not_tiny
-from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, TableSource,
+from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, TableSource, noted,
                                   arrow_available, numeric_block, open_source, select_columns,
                                   time_text)
 from relspan.data.timeindex import (OrderCheck, TimeFormat, format_times, parse_bound,
@@ -201,6 +201,10 @@ class PreparedDataset:
         The whole-sample transforms as an affine map: a row-transformed value
         ``y`` is analysed as ``(y - shift) / scale``.
     overview : Overview
+    read_as : str
+        How the file was read, in words, naming what was detected (compression,
+        encoding, separator, decimal mark, sheet); "" for plain UTF-8 CSV/TSV and
+        for a DataFrame.
     """
 
     dataset_id: str
@@ -223,6 +227,7 @@ class PreparedDataset:
     shift: np.ndarray
     scale: np.ndarray
     overview: Overview
+    read_as: str = ""
 
     @property
     def n_variables(self) -> int:
@@ -648,12 +653,13 @@ def prepare_dataset(ds: DatasetSpec, plans: Sequence[WindowPlanSpec], *,
     transforms = tuple(v.transform for v in ds.variables)
     _check_setup(ds.id, names, transforms, ds.missing, ds.time, plans, ds.source)
     grid = plan_grid(plans, has_time=ds.time is not None, dataset_id=ds.id, path=ds.source)
-    src = open_source(ds.source, ds.source_path, ds.format)
+    src = open_source(ds.source, ds.source_path, ds.format, separator=ds.separator,
+                      decimal=ds.decimal, encoding=ds.encoding, sheet=ds.sheet)
     if engine not in ENGINES:
         raise OptionsError(f"engine {engine!r} is not one of {', '.join(ENGINES)}.", key="engine",
                            fix="use auto, pyarrow or pandas.")
     use = engine if engine != "auto" else ("pyarrow" if arrow_available() else "pandas")
-    if use == "pyarrow" and src.format != "parquet":
+    if use == "pyarrow" and src.format in ("csv", "tsv") and src.plain:
         try:
             return _one_pass(ds, src, names, transforms, grid, plans, chunk_rows, "pyarrow")
         except FastPathDeclined:
@@ -667,11 +673,13 @@ def _one_pass(ds, src, names, transforms, grid, plans, chunk_rows, engine) -> Pr
                          chunk_rows=chunk_rows, engine=engine)
     run = _Pass(dataset_id=ds.id, names=names, transforms=transforms, missing=ds.missing,
                 path=ds.source, time=ds.time, grid=grid)
-    for chunk in reader.chunks():
-        run.feed(chunk)
-    return run.finish(rows_read=reader.rows_read, sha256=reader.sha256 or "", plans=plans,
-                      labels=[v.label for v in ds.variables], units=[v.unit for v in ds.variables],
-                      source=ds.source)
+    with noted(src):
+        for chunk in reader.chunks():
+            run.feed(chunk)
+        prepared = run.finish(rows_read=reader.rows_read, sha256=reader.sha256 or "", plans=plans,
+                              labels=[v.label for v in ds.variables],
+                              units=[v.unit for v in ds.variables], source=ds.source)
+    return prepared if src.plain else dataclasses.replace(prepared, read_as=src.read_as)
 
 
 def _per_column(value, columns: Sequence[str], default: str, what: str) -> tuple[str, ...]:

@@ -48,11 +48,14 @@ def dataset_document(result) -> dict:
             "coranks": plan.coranks.to_dict(),
         })
     p = result.prepared
+    read_as = getattr(p, "read_as", "")
     return jsonable({
         "id": result.spec.id,
         "title": result.spec.title,
         "source": result.spec.source,
         "source_sha256": p.sha256,
+        # how a file other than plain UTF-8 CSV/TSV was read (what was detected); absent otherwise
+        **({"source_read_as": read_as} if read_as else {}),
         "variables": [{"column": v.column, "label": v.label, "unit": v.unit, "transform": t,
                        "noise_share": v.noise_share} for v, t in zip(result.spec.variables, p.transforms)],
         "rows_read": p.rows_read,

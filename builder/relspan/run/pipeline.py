@@ -286,7 +286,7 @@ def _note_many_windows(ds: DatasetSpec, counts: Sequence[tuple[WindowPlanSpec, i
 
 
 def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None = None,
-                 use_cache: bool = True, cache_dir: Path | None = None, progress: bool = True,
+                 use_cache: bool = True, cache_dir: Path | None = None, progress: bool | None = None,
                  executor: LazyExecutor | None = None, cache=None, write_cache: bool = True) -> AnalysisRun:
     """Analyse every dataset of ``spec`` and check its claims.
 
@@ -301,8 +301,9 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
         Read the result cache (``--no-cache`` sets False).
     cache_dir : Path, optional
         Cache folder (default ``.relspan-cache`` beside the spec).
-    progress : bool
-        Show a progress line on stderr when it is a terminal.
+    progress : bool, optional
+        Progress bars on stderr (tqdm): True always, False never, None on a
+        terminal or in a notebook only.
     executor : LazyExecutor, optional
         Shared with later stages (figures) so workers start once.
     cache : ResultCache, optional
@@ -340,7 +341,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
             _note_many_windows(ds, counts)
             total = 1 + sum(n for _, n in counts)
             sink: list[RelspanWarning] = []
-            with Progress(f"analysis of {ds.id}", total, enabled=None if progress else False) as bar:
+            with Progress(f"analysis of {ds.id}", total, enabled=progress) as bar:
                 result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
                                           warn_sink=sink, cache_key=key)
             if write_cache:

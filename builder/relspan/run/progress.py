@@ -1,21 +1,29 @@
-"""A one-line progress counter for long stages, shown only on a terminal.
+"""Progress bars for long stages, drawn by tqdm: on a terminal, in a notebook, or when asked.
 
-``analysis: 120/480 tasks (25%)`` is rewritten in place (carriage return)
-while work advances, and ends with a newline on close. When the stream is not
-a terminal (a log file, a pipe, CI) or the user asked for quiet, nothing at
-all is written, so logs and captured output stay clean.
+``analysis of trio: 120/300 tasks (40%) |####      | [00:02<00:03]`` is
+tqdm's line, rewritten in place on a terminal; in a Jupyter notebook (when
+ipywidgets is installed) it is tqdm's notebook widget. Where the stream is not
+a terminal (a log file, a pipe, CI) nothing at all is written unless drawing
+was asked for (``relspan build --verbose``, ``progress=True``), so logs and
+captured output stay clean; ``--quiet`` (``progress=False``) silences it
+everywhere. The bars use no colour, so they read the same with ``NO_COLOR``
+set (https://no-color.org) as without.
+
+References
+----------
+.. [1] tqdm developers, "tqdm: A Fast, Extensible Progress Bar for Python
+       and CLI" (the ``tqdm`` package).
 """
 
 from __future__ import annotations
 
+import io
 import os
-import shutil
 import sys
-import time
 from threading import Lock
-from typing import Callable, TextIO
+from typing import TextIO
 
-__all__ = ["Progress"]
+__all__ = ["Progress", "in_notebook", "should_draw"]
 
 
 def _is_terminal(stream: TextIO) -> bool:
@@ -25,42 +33,58 @@ def _is_terminal(stream: TextIO) -> bool:
         return False
 
 
-def _duration(seconds: float) -> str:
-    seconds = int(round(seconds))
-    if seconds < 60:
-        return f"{seconds} s"
-    minutes, seconds = divmod(seconds, 60)
-    if minutes < 60:
-        return f"{minutes} min {seconds:02d} s"
-    hours, minutes = divmod(minutes, 60)
-    return f"{hours} h {minutes:02d} min"
+def in_notebook() -> bool:
+    """Whether this process is a Jupyter kernel (IPython's ZMQ shell)."""
+    if "IPython" not in sys.modules:
+        return False
+    try:
+        shell = sys.modules["IPython"].get_ipython()
+    except AttributeError:
+        return False
+    return shell is not None and type(shell).__name__ == "ZMQInteractiveShell"
+
+
+def should_draw(stream: TextIO, enabled: bool | None) -> bool:
+    """``enabled`` when given; else draw on a terminal (TERM not ``dumb``) or in a notebook."""
+    if enabled is not None:
+        return bool(enabled)
+    return _is_terminal(stream) or in_notebook()
+
+
+def _bar_class(stream: TextIO):
+    if stream is sys.stderr and in_notebook():
+        try:
+            import ipywidgets  # noqa: F401, PLC0415 (tqdm's notebook widget needs it)
+            from tqdm.notebook import tqdm as notebook_bar  # noqa: PLC0415
+
+            return notebook_bar
+        except ImportError:
+            pass
+    from tqdm import tqdm  # noqa: PLC0415
+
+    return tqdm
 
 
 class Progress:
-    """Count finished tasks of one stage, drawing ``stage: done/total tasks``.
+    """Count finished tasks of one stage on a tqdm bar.
 
     Parameters
     ----------
     stage : str
-        Name shown first, e.g. ``"analysis"``.
+        Name shown first, e.g. ``"analysis of trio"``.
     total : int
-        Number of tasks in the stage.
+        Number of tasks in the stage (may be set later through :attr:`total`).
     stream : text stream, optional
         Where to draw (default ``sys.stderr`` at construction time).
     enabled : bool, optional
-        Force drawing on or off (``False`` for ``--quiet``). Default: draw
-        only when ``stream`` is a terminal (and ``TERM`` is not ``dumb``).
+        Force drawing on (``--verbose``) or off (``--quiet``). Default: draw
+        on a terminal or in a notebook only (:func:`should_draw`).
     min_interval : float
-        Seconds between redraws; updates in between only count. The final
-        state is always drawn on close.
-    clock : callable
-        Monotonic clock in seconds (for tests).
+        Seconds between redraws (tqdm's ``mininterval``).
 
     Notes
     -----
-    :meth:`update` is thread-safe, so executor callbacks may call it. Once
-    a few seconds have passed, the line also estimates the time left from the
-    average rate so far.
+    :meth:`update` is thread-safe, so executor callbacks may call it.
 
     Examples
     --------
@@ -71,21 +95,16 @@ class Progress:
     """
 
     def __init__(self, stage: str, total: int, *, stream: TextIO | None = None,
-                 enabled: bool | None = None, min_interval: float = 0.1,
-                 clock: Callable[[], float] = time.monotonic) -> None:
-        if isinstance(total, bool) or not isinstance(total, int) or total < 0:
-            raise ValueError(f"total must be a whole number >= 0; got {total!r}")
+                 enabled: bool | None = None, min_interval: float = 0.1) -> None:
+        _check_count(total, "total")
         self.stage = str(stage)
-        self.total = total
+        self._total = total
         self._stream = sys.stderr if stream is None else stream
-        self.enabled = _is_terminal(self._stream) if enabled is None else bool(enabled)
+        self.enabled = should_draw(self._stream, enabled)
         self._min_interval = float(min_interval)
-        self._clock = clock
         self._lock = Lock()
         self._done = 0
-        self._start = clock()
-        self._last_draw: float | None = None
-        self._width = 0
+        self._bar = None
         self._closed = False
 
     @property
@@ -93,49 +112,44 @@ class Progress:
         with self._lock:
             return self._done
 
-    def text(self) -> str:
-        """The line as it would be drawn now."""
-        with self._lock:
-            return self._text(self._clock())
+    @property
+    def total(self) -> int:
+        return self._total
 
-    def _text(self, now: float) -> str:
-        done, total = self._done, self.total
-        line = f"{self.stage}: {done}/{total} tasks"
-        if total:
-            line += f" ({100 * min(done, total) // total}%)"
-        elapsed = now - self._start
-        if 0 < done < total and elapsed >= 2.0:
-            line += f", about {_duration(elapsed * (total - done) / done)} left"
-        return line
+    @total.setter
+    def total(self, value: int) -> None:
+        _check_count(value, "total")
+        with self._lock:
+            self._total = value
+            if self._bar is not None:
+                self._bar.total = value
+                self._bar.refresh()
+
+    def _open(self) -> None:
+        if self._bar is not None or not self.enabled or self._closed:
+            return
+        bar = _bar_class(self._stream)
+        kwargs = dict(total=self._total, desc=self.stage, unit="task", mininterval=self._min_interval,
+                      leave=True, colour=None)
+        if bar.__module__ == "tqdm.std":
+            # "analysis of trio: 120/480 tasks (25%) |###   | [00:02<00:06]": the stage and the
+            # count first, so a narrow terminal still shows them
+            kwargs.update(file=self._stream, bar_format=_BAR_FORMAT, **_width(self._stream))
+        try:
+            self._bar = bar(**kwargs)
+        except (OSError, ValueError):  # the stream went away: stop drawing
+            self.enabled = False
 
     def update(self, k: int = 1) -> None:
         """Record ``k`` more finished tasks (and redraw if due)."""
-        if isinstance(k, bool) or not isinstance(k, int) or k < 0:
-            raise ValueError(f"update takes a whole number >= 0 of tasks; got {k!r}")
+        _check_count(k, "update")
         with self._lock:
             self._done += k
-            if not self.enabled or self._closed:
-                return
-            now = self._clock()
-            due = (self._last_draw is None or now - self._last_draw >= self._min_interval
-                   or self._done >= self.total)
-            if due:
-                self._draw(now)
-
-    def _draw(self, now: float) -> None:
-        line = self._text(now)
-        columns = shutil.get_terminal_size(fallback=(80, 24)).columns
-        if columns > 1 and len(line) > columns - 1:
-            line = line[:columns - 1]
-        pad = " " * max(0, self._width - len(line))
-        try:
-            self._stream.write("\r" + line + pad)
-            self._stream.flush()
-        except (OSError, ValueError):  # the terminal went away: stop drawing
-            self.enabled = False
-            return
-        self._width = len(line)
-        self._last_draw = now
+            if self._bar is not None and not self._closed:
+                try:
+                    self._bar.update(k)
+                except (OSError, ValueError):
+                    self.enabled = False
 
     def close(self) -> None:
         """Draw the final state and end the line (once; later calls do nothing)."""
@@ -143,20 +157,39 @@ class Progress:
             if self._closed:
                 return
             self._closed = True
-            if not self.enabled:
-                return
-            self._draw(self._clock())
-            try:
-                self._stream.write("\n")
-                self._stream.flush()
-            except (OSError, ValueError):
-                pass
+            if self._bar is not None:
+                try:
+                    self._bar.close()
+                except (OSError, ValueError):
+                    pass
 
     def __enter__(self) -> "Progress":
-        if self.enabled:
-            with self._lock:
-                self._draw(self._clock())
+        with self._lock:
+            self._open()
         return self
 
     def __exit__(self, *exc: object) -> None:
         self.close()
+
+
+#: tqdm's line: stage, count, share, bar, elapsed and remaining time
+_BAR_FORMAT = "{desc}: {n_fmt}/{total_fmt} tasks ({percentage:.0f}%) |{bar}| [{elapsed}<{remaining}]"
+
+
+def _width(stream: TextIO) -> dict:
+    """Follow the terminal's size; 80 x 24 where it reports none (a fresh pseudo-terminal says
+    0 x 0, and tqdm then draws nothing)."""
+    try:
+        size = os.get_terminal_size(stream.fileno())
+        if size.columns > 0 and size.lines > 0:
+            return {"dynamic_ncols": True}
+    except (AttributeError, ValueError, OSError, io.UnsupportedOperation):
+        pass
+    return {"ncols": 80, "nrows": 24}
+
+
+def _check_count(value: object, what: str) -> None:
+    if isinstance(value, bool) or not isinstance(value, int) or value < 0:
+        if what == "total":
+            raise ValueError(f"total must be a whole number >= 0; got {value!r}")
+        raise ValueError(f"update takes a whole number >= 0 of tasks; got {value!r}")

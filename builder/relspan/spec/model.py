@@ -135,6 +135,10 @@ class DatasetSpec:
     format: str = "auto"
     description: str = ""
     time: TimeSpec | None = None
+    separator: str = "auto"
+    decimal: str = "auto"
+    encoding: str = "auto"
+    sheet: str | int | None = None
     missing: str = "drop"
     plans: tuple[str, ...] = ()
     checks: ChecksSpec = field(default_factory=ChecksSpec)
@@ -285,3 +289,29 @@ class Spec:
         if not dataset.plans:
             return self.windows
         return tuple(self.plan(p) for p in dataset.plans)
+
+    def _summary(self) -> str:
+        def cut(text: str, n: int = 80) -> str:
+            return text if len(text) <= n else text[: n - 1] + "\u2026"
+
+        return (f"{cut(self.path.name, 60)}: {cut(repr(self.report.title), 80)}; "
+                f"{len(self.datasets)} dataset(s) ({cut(', '.join(d.id for d in self.datasets))}); "
+                f"{len(self.windows)} window plan(s) ({cut(', '.join(w.id for w in self.windows))}); "
+                f"{len(self.claims)} claim(s)")
+
+    def __repr__(self) -> str:
+        return f"<relspan Spec {self._summary()}>"
+
+    def _repr_html_(self) -> str:
+        import html
+
+        rows = "".join(
+            f"<tr><td>{html.escape(d.id)}</td><td>{html.escape(d.source)}</td>"
+            f"<td>{html.escape(', '.join(d.columns)[:200])}</td>"
+            f"<td>{html.escape(', '.join(p.id for p in self.plans_for(d)))}</td></tr>"
+            for d in self.datasets[:20])
+        more = (f"<p>\u2026 and {len(self.datasets) - 20} more datasets.</p>"
+                if len(self.datasets) > 20 else "")
+        return (f"<div><p>{html.escape(self._summary())}</p><table><thead><tr><th>dataset</th>"
+                f"<th>source</th><th>variables</th><th>plans</th></tr></thead><tbody>{rows}"
+                f"</tbody></table>{more}</div>")

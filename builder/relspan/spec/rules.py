@@ -418,11 +418,30 @@ class _Builder:
                             f"step in rows, or list only other plans in {key}.plans.")
         checks = self._checks(top_checks_raw, d.get("checks") or LineDict(line), key, columns, d)
         source, source_path = self._source(d, key, line)
+        encoding = d.get("encoding", "auto")
+        if encoding != "auto":
+            import codecs
+
+            try:
+                codecs.lookup(encoding)
+            except LookupError:
+                raise self.err(f"{key}.encoding is {encoding!r}, which is not an encoding Python "
+                               "knows.", line=_line(d, "encoding", line), key=f"{key}.encoding",
+                               fix="use a name such as utf-8, utf-16, cp1252 or latin-1, or auto."
+                               ) from None
+        separator = d.get("separator", "auto")
+        decimal = d.get("decimal", "auto")
+        if separator != "auto" and separator == decimal:
+            raise self.err(f"{key}.separator and {key}.decimal are both {separator!r}.",
+                           line=_line(d, "decimal", line), key=f"{key}.decimal",
+                           fix="a comma-separated file uses '.' as its decimal mark; set one of them "
+                               "to another character, or to auto.")
         return DatasetSpec(id=d["id"], title=d.get("title", d["id"]), source=source,
                            source_path=source_path, variables=variables,
                            format=d.get("format", "auto"), description=d.get("description", ""),
                            time=time, missing=d.get("missing", "drop"), plans=plans,
-                           checks=checks)
+                           checks=checks, separator=separator, decimal=decimal, encoding=encoding,
+                           sheet=d.get("sheet"))
 
     def _variables(self, vs: LineList, key: str, line: int) -> tuple[VariableSpec, ...]:
         out = []

@@ -40,6 +40,8 @@ __all__ = [
     "SPAN_PATTERN",
     "SPAN_UNITS",
     "DATASET_FORMATS",
+    "DECIMAL_MARKS",
+    "SEPARATOR_PATTERN",
     "WINDOW_KINDS",
     "TIME_FORMATS",
     "MISSING_POLICIES",
@@ -57,7 +59,11 @@ DATE_PATTERN = r"^[0-9]{4}-[0-9]{2}-[0-9]{2}$"
 SPAN_UNITS = ("years", "quarters", "months", "weeks", "days")
 #: a width or step in time units, e.g. "10 years" or "1 quarter"
 SPAN_PATTERN = r"^ *[1-9][0-9]* +(years?|quarters?|months?|weeks?|days?) *$"
-DATASET_FORMATS = ("auto", "csv", "tsv", "parquet")
+DATASET_FORMATS = ("auto", "csv", "tsv", "parquet", "excel", "stata")
+#: decimal marks of text files
+DECIMAL_MARKS = ("auto", ".", ",")
+#: ``separator``: auto, or one character other than a quote or a line break (YAML "\t" is a tab)
+SEPARATOR_PATTERN = "^(auto|[^\"\\r\\n])$"
 WINDOW_KINDS = ("full", "rolling", "expanding", "periods")
 TIME_FORMATS = ("auto", "year", "quarter", "month")
 MISSING_POLICIES = ("drop", "fail")
@@ -273,8 +279,43 @@ def _build_schema() -> dict[str, Any]:
                                 "absolute path). A spec whose data live elsewhere cannot be "
                                 "rebuilt from its folder alone.", [False], default=False),
             "format": _p({"type": "string", "enum": list(DATASET_FORMATS)}, "File format",
-                         "Format of the data file; `auto` decides by the file extension.",
-                         ["auto", "parquet"], default="auto"),
+                         "Format of the data file: `csv` (any separator), `tsv`, `parquet`, "
+                         "`excel` (.xlsx/.xlsm, needs `pip install 'relspan[excel]'`) or `stata` "
+                         "(.dta). `auto` decides by the file's first bytes (so Parquet or gzip "
+                         "data named .csv are read as what they are), then by its extension. "
+                         "Text files compressed with gzip, bzip2, xz or zip (one file in the "
+                         "archive) are read as they are; the checksum on the reproduce page is "
+                         "of the file as published (compressed). What was detected is said in "
+                         "error messages and on the reproduce page.",
+                         ["auto", "parquet", "excel"], default="auto"),
+            "separator": _p({"type": "string", "pattern": SEPARATOR_PATTERN,
+                             "x-expected": "auto, or one character such as ',', ';', '|' or a tab"},
+                            "Field separator",
+                            "Character between the fields of a text file. `auto` takes the one a "
+                            "`sep=` first line names (as some spreadsheet programs write), else the "
+                            "one of comma, semicolon, tab and vertical bar that splits every "
+                            "sampled line into the same number of fields. Write a tab as "
+                            "`\"\\t\"`.", ["auto", ";", "|"], default="auto"),
+            "decimal": _p({"type": "string", "enum": list(DECIMAL_MARKS)}, "Decimal mark",
+                          "Decimal mark of the numbers in a text file. `auto` takes `,` when the "
+                          "separator is not a comma and the sampled numbers use decimal commas "
+                          "(`1,5`) and none a decimal point; else `.`.", ["auto", ","],
+                          default="auto"),
+            "encoding": _p({"type": "string", "minLength": 1,
+                            "x-expected": "auto, or an encoding name such as utf-8, utf-16 or cp1252"},
+                           "Text encoding",
+                           "Character encoding of a text file, as Python names it (`utf-8`, "
+                           "`utf-16`, `cp1252`, `latin-1`, ...). `auto` reads a byte-order mark "
+                           "(UTF-8, UTF-16, UTF-32), recognises UTF-16 without one by its NUL "
+                           "bytes, and otherwise reads UTF-8; text in another encoding is refused "
+                           "with the place of the first byte that is not UTF-8, never guessed.",
+                           ["auto", "cp1252"], default="auto"),
+            "sheet": _p({"anyOf": [{"type": "string", "minLength": 1},
+                                   {"type": "integer", "minimum": 0}],
+                         "x-expected": "a sheet name, or its position counted from 0"},
+                        "Sheet", "The worksheet of an Excel workbook to read: its name, or its "
+                        "position counted from 0. Default: the first sheet. The header is the "
+                        "sheet's first non-empty row.", ["Data", 0]),
             "time": time,
             "variables": _p({"type": "array", "minItems": 2, "items": variable},
                             "Variables", "The numeric columns to analyse, at least two. "

@@ -1,4 +1,4 @@
-"""A commented starter spec for a CSV file (what ``relspan new DATA.csv`` writes).
+"""A commented starter spec for a data file (what ``relspan new DATA`` writes).
 
 Only the head of the file is read (to list its columns and guess their kinds),
 plus one streaming pass that counts the rows; nothing is held in memory but
@@ -96,17 +96,26 @@ def guess_time_column(head: pd.DataFrame) -> str | None:
     return None
 
 
-def _count_rows(path: Path, sep: str) -> int:
-    n = 0
-    for chunk in pd.read_csv(path, sep=sep, usecols=[0], chunksize=100_000, dtype=str,
-                             keep_default_na=False, index_col=False):
-        n += len(chunk)
-    return n
-
-
 def _q(text: str) -> str:
     """A YAML double-quoted scalar (JSON strings are valid YAML)."""
     return json.dumps(str(text), ensure_ascii=False)
+
+
+def _reading_keys(src) -> list[str]:
+    """Spec lines that pin down what ``auto`` detected (so a reader of the spec sees it)."""
+    out = []
+    if src.format in ("excel", "stata") or (src.format == "parquet" and not src.plain):
+        out += ["    # File format (detected).", f"    format: {src.format}"]
+    if src.format == "excel" and src.sheet is not None:
+        out += ["    # The worksheet to read.", f"    sheet: {_q(src.sheet)}"]
+    if src.format in ("csv", "tsv"):
+        if src.delimiter not in (",", "\t"):
+            out += ["    # Field separator (detected).", f"    separator: {_q(src.delimiter)}"]
+        if src.decimal != ".":
+            out += ["    # Decimal mark (detected).", f"    decimal: {_q(src.decimal)}"]
+        if src.encoding != "utf-8":
+            out += ["    # Text encoding (detected).", f"    encoding: {src.encoding}"]
+    return out
 
 
 def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
@@ -115,7 +124,10 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
     Parameters
     ----------
     csv_path : str or Path
-        The data file (CSV; ``.tsv``/``.tab`` files are read as tab-separated).
+        The data file: CSV/TSV (compressed or not, in any detected encoding,
+        separator and decimal mark), Parquet, Excel or Stata; read as
+        ``relspan build`` reads it, with the detected reading written into the
+        spec as keys.
     spec_path : str or Path
         Where the spec will be written; the data path in it is relative to
         this file's folder (with ``allow_outside: true`` when the data lie
@@ -137,20 +149,15 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
         If the file cannot be read as a table or has fewer than two numeric
         columns.
     """
+    from relspan.data.sources import open_source, read_head
+
     csv_path, spec_path = Path(csv_path), Path(spec_path)
     shown = str(csv_path)
     if not csv_path.is_file():
         raise DataError("data file not found." if not csv_path.exists()
                         else "this is a folder, not a data file.", path=shown,
-                        fix="give the path of a CSV file.")
-    from relspan.data.sources import open_source
-    from relspan.data.sources.csv import check_field_counts
-
-    src = open_source(shown, csv_path)  # special files, empty files, UTF-8, the header
-    if src.format == "parquet":
-        raise DataError("is a Parquet file; `relspan new` writes starter specs for CSV and TSV files.",
-                        path=shown, fix="convert it to CSV, or write the spec by hand (see docs/spec.md).")
-    sep = src.delimiter or ","
+                        fix="give the path of a CSV, TSV, Parquet, Excel or Stata file.")
+    src = open_source(shown, csv_path)  # special files, empty files, encodings, the header
     names = [str(h) for h in src.header]
     for j, name in enumerate(names):
         if name in names[:j]:
@@ -158,19 +165,7 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
                 f"the header names the column {name!r} twice (columns {names.index(name) + 1} and "
                 f"{j + 1}), so a spec could not say which one it means.", path=shown, column=name,
                 fix="give every column of the header its own name.")
-    trailing, header_lines = check_field_counts(src)  # short rows refused, naming the line
-    shape = (dict(header=None, skiprows=header_lines, names=names + ["\x00extra"])
-             if trailing else dict(header=0))
-    try:
-        head = pd.read_csv(csv_path, sep=sep, nrows=HEAD_ROWS, index_col=False, **shape)
-        head = head.loc[:, [c for c in head.columns if c != "\x00extra"]]
-        rows = _count_rows(csv_path, sep)
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError,
-            ValueError, OSError) as exc:
-        raise DataError(f"cannot read the file as a table ({exc.__class__.__name__}: "
-                        f"{str(exc).splitlines()[0] if str(exc) else ''}).", path=shown,
-                        fix="check that it is comma-separated UTF-8 text with a header row.") \
-            from None
+    head, rows = read_head(src, HEAD_ROWS)
     time_col = guess_time_column(head)
     numeric = [str(c) for c in head.columns
                if str(c) != time_col and pd.api.types.is_numeric_dtype(head[c])
@@ -180,7 +175,8 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
             f"the file has {len(numeric)} numeric column{'s' if len(numeric) != 1 else ''} "
             f"besides the time column; relations need at least two "
             f"(columns: {', '.join(map(str, head.columns))}).", path=shown,
-            fix="check the separator and that numbers use '.' as the decimal point.")
+            fix=f"check how the file was read ({src.read_as or 'plain CSV'}) and set the "
+                "dataset's separator, decimal or sheet in the spec if that is wrong.")
 
     folder = spec_path.resolve().parent
     data_abs = csv_path.resolve()
@@ -199,7 +195,9 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
     out: list[str] = []
     add = out.append
     add(f"# Starter spec for {csv_path.name} ({rows} rows, {n} numeric columns).")
-    add("# Edit it, then build the site. Every key is described in docs/spec.md.")
+    add("# Edit it, then build the site. Every key is described by `relspan schema --markdown`.")
+    if src.read_as:
+        add(f"# The file was read as {src.read_as}.")
     add("")
     add("# Version of the spec format this file follows.")
     add("relspan: 1")
@@ -222,6 +220,8 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
     if outside:
         add("    # The data lie outside this spec's folder; copy them in to make it portable.")
         add("    allow_outside: true")
+    for line in _reading_keys(src):
+        add(line)
     if time_col is not None:
         add("    # The column that dates each row (guessed; check it).")
         add("    time:")

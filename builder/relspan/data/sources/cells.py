@@ -58,7 +58,7 @@ class RawChunk:
 
 
 def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *,
-                  path: str | None) -> np.ndarray:
+                  path: str | None, decimal: str = ".") -> np.ndarray:
     """Turn selected columns of a chunk into a float matrix, checking every cell.
 
     Parameters
@@ -71,6 +71,10 @@ def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *
         1-based data row numbers of the chunk.
     path : str or None
         The file (for messages).
+    decimal : str
+        The file's decimal mark: with ``","``, text cells such as ``"1,5"`` (in a
+        column that also holds a bad cell, which the CSV reader left as text)
+        read as 1.5.
 
     Raises
     ------
@@ -94,6 +98,9 @@ def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *
             bad = None
         else:
             obj = s.astype(object)
+            if decimal != ".":
+                obj = obj.map(lambda v: v.replace(decimal, ".") if isinstance(v, str) and "." not in v
+                              else v)
             conv = pd.to_numeric(obj.where(~obj.map(lambda v: isinstance(v, bool)), "x"),
                                  errors="coerce") if m else pd.Series([], dtype=float)
             bad = (conv.isna() & s.notna()).to_numpy(dtype=bool)
@@ -104,8 +111,8 @@ def numeric_block(frame: pd.DataFrame, names: Sequence[str], rows: np.ndarray, *
             raise DataError(
                 f"column {name!r}, row {int(rows[i])}: {shown} is not a number.", path=path,
                 column=name, row=int(rows[i]), got=str(value),
-                fix="correct or empty that cell (empty cells are missing values; use a dot as "
-                    "the decimal mark and no thousands separators).")
+                fix="correct or empty that cell (empty cells are missing values; write numbers "
+                    f"with {decimal!r} as the decimal mark and no thousands separators).")
         out[:, j] = pd.Series(conv).to_numpy(dtype=float, na_value=np.nan)
     check_finite(out, names, rows, path=path)
     return out

@@ -31,13 +31,13 @@ import numpy as np
 import pandas as pd
 
 from relspan.data.sources.cells import RawChunk, check_finite, numeric_block
-from relspan.data.sources.detect import CheckedStream, TableSource
+from relspan.data.sources.detect import CheckedStream, TableSource, file_sha256, open_text
 from relspan.errors import DataError
 
 if TYPE_CHECKING:
     from relspan.data.sources.reader import TableReader
 
-__all__ = ["ENGINES", "FastPathDeclined", "arrow_available", "read_header", "pandas_chunks",
+__all__ = ["ENGINES", "FastPathDeclined", "arrow_available", "read_header", "text_head", "pandas_chunks",
            "arrow_chunks", "parser_error"]
 
 #: CSV readers: ``auto`` (pyarrow's streaming reader when pyarrow is installed, else
@@ -78,13 +78,15 @@ def arrow_available() -> bool:
     return True
 
 
-def read_header(path: str, resolved: Path, delimiter: str) -> tuple[str, ...]:
-    with open(resolved, "rb") as fh:
-        stream = CheckedStream(fh, path)
+def read_header(src: TableSource) -> tuple[str, ...]:
+    """Column names of a CSV/TSV source (decompressed and transcoded as detected)."""
+    path = src.path
+    with open_text(src) as stream:
         try:
-            head = pd.read_csv(io.BufferedReader(stream), sep=delimiter, header=None, nrows=1,
+            head = pd.read_csv(io.BufferedReader(stream), sep=src.delimiter, header=None, nrows=1,
                                dtype=str, keep_default_na=False, na_filter=False,
-                               skip_blank_lines=True, engine="c", encoding="utf-8")
+                               skiprows=src.skip_lines, skip_blank_lines=True, engine="c",
+                               encoding="utf-8")
         except pd.errors.EmptyDataError:
             raise DataError("has no header line (it holds only blank lines).", path=path,
                             fix="write the column names on the first line.") from None
@@ -143,13 +145,17 @@ def check_field_counts(src: TableSource) -> tuple[bool, int]:
     header_trailing = width > 1 and (src.header[-1].strip() == "" or src.header[-1].startswith("Unnamed: "))
     # bytes that are not UTF-8 are located by the pandas pass (CheckedStream); here they only
     # need to be counted past
-    with open(src.resolved, "r", encoding="utf-8-sig", errors="replace", newline="") as fh:
+    with open_text(src) as stream:
+        fh = io.TextIOWrapper(io.BufferedReader(stream, buffer_size=1 << 16), encoding="utf-8-sig",
+                              errors="replace", newline="")
+        for _ in range(src.skip_lines):  # e.g. a `sep=` line before the header
+            fh.readline()
         reader = csv.reader(fh, delimiter=src.delimiter or ",")
         try:
             for row in reader:  # the header: the first line that is not blank
                 if "".join(row).strip():
                     break
-            header_lines = reader.line_num
+            header_lines = reader.line_num + src.skip_lines
             for row in reader:
                 k = len(row)
                 if k == width or (k <= 1 and not "".join(row).strip()):
@@ -186,14 +192,13 @@ def pandas_chunks(table: TableReader) -> Iterator[RawChunk]:
     # columns are converted, checked and kept.
     dtype = {table.positions[-1]: str} if table.time_column is not None else None
     trailing, header_lines = check_field_counts(src)
-    with open(src.resolved, "rb") as fh:
-        stream = CheckedStream(fh, src.path)
+    with open_text(src) as stream:
         # index_col=False: never take the first field as the row index (rows ending with a
         # separator would otherwise shift every column by one); with such rows, positional
         # names leave room for their empty last field
         shape = (dict(header=None, skiprows=header_lines, names=list(range(len(src.header) + 1)))
-                 if trailing else dict(header=0))
-        reader_args = dict(sep=src.delimiter, **shape, dtype=dtype, index_col=False,
+                 if trailing else dict(header=0, skiprows=src.skip_lines))
+        reader_args = dict(sep=src.delimiter, **shape, dtype=dtype, decimal=src.decimal, index_col=False,
                            chunksize=table.chunk_rows, skip_blank_lines=True, engine="c",
                            encoding="utf-8", low_memory=False)
         try:
@@ -219,13 +224,16 @@ def pandas_chunks(table: TableReader) -> Iterator[RawChunk]:
                 rows = np.arange(row0 + 1, row0 + m + 1, dtype=np.int64)
                 row0 += m
                 sub = frame.iloc[:, take]
-                values = numeric_block(sub.iloc[:, :nvar], table.columns, rows, path=src.path)
+                values = numeric_block(sub.iloc[:, :nvar], table.columns, rows, path=src.path,
+                                       decimal=src.decimal)
                 times = None
                 if table.time_column is not None:
                     times = sub.iloc[:, nvar].reset_index(drop=True)
                 yield RawChunk(values, times, False, rows)
         stream.drain()
-        table.sha256 = stream.sha.hexdigest()
+        # the checksum is of the file as published: a compressed file is hashed compressed
+        table.sha256 = stream.sha.hexdigest() if src.compression is None else \
+            file_sha256(src.resolved)
         table.rows_read = row0
 
 
@@ -409,3 +417,36 @@ class _Hasher(threading.Thread):
 
     def stop(self) -> None:
         self._halt.set()
+
+
+# --------------------------------------------------------------------------- head (relspan new)
+
+
+def text_head(src: TableSource, nrows: int) -> tuple[pd.DataFrame, int]:
+    """The first ``nrows`` rows (types inferred by pandas) and the number of data rows.
+
+    The rows are counted in one streaming pass over the first column; only the
+    head is kept in memory.
+    """
+    trailing, header_lines = check_field_counts(src)  # short rows refused, naming the line
+    names = list(src.header)
+    shape = (dict(header=None, skiprows=header_lines, names=names + ["\x00extra"]) if trailing
+             else dict(skiprows=src.skip_lines))
+    args = dict(sep=src.delimiter, decimal=src.decimal, index_col=False, skip_blank_lines=True,
+                engine="c", encoding="utf-8", **shape)
+    try:
+        with open_text(src) as stream:
+            head = pd.read_csv(io.BufferedReader(stream), nrows=nrows, **args)
+        head = head.loc[:, [c for c in head.columns if c != "\x00extra"]]
+        n = 0
+        with open_text(src) as stream:
+            with pd.read_csv(io.BufferedReader(stream), usecols=[0], dtype=str,
+                             keep_default_na=False, chunksize=100_000, **args) as reader:
+                for chunk in reader:
+                    n += len(chunk)
+    except pd.errors.EmptyDataError:
+        raise DataError("has no header line.", path=src.path,
+                        fix="write the column names on the first line.") from None
+    except (pd.errors.ParserError, ValueError, OverflowError, csv.Error) as err:
+        raise parser_error(src.path, err) from None
+    return head, n

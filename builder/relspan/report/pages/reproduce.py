@@ -10,7 +10,7 @@ from relspan.report.pages.tables import table
 from relspan.report.text import USUAL_CAUTIONS
 from relspan.site import blocks
 from relspan.site.content import Page
-from relspan.site.markdown import Raw, code, link, md
+from relspan.site.markdown import Raw, code, joined, link, md
 
 __all__ = ["reproduce_page", "downloads_page"]
 
@@ -93,6 +93,7 @@ def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
         Raw(f"`relspan check {spec.path.name}` re-checks the claims without writing the site.\n"),
         Raw("## Inputs {#inputs}\n"),
         table(("File", "SHA-256"), rows, csv=(pub, "data/tables/inputs.csv")),
+        _read_as_lines(spec, run),
         md("\nThe spec as used: {}.\n", link(spec.path.name, spec_download)),
         Raw(f"Seed of the independent-noise search (checks.seed): {', '.join(str(s) for s in seeds)}.\n"),
         Raw("## Software {#software}\n"),
@@ -131,3 +132,13 @@ def downloads_page(run, pub: Publisher) -> Page:
                         f"[the dataset page](/{dataset_path(ds.id)}); each window's tables on its window page.\n"))
     return Page("downloads.html", "Downloads", "\n".join(body), "downloads", breadcrumbs=(HOME,),
                 description="Every table and result as CSV and JSON.")
+
+
+def _read_as_lines(spec, run):
+    """How each file other than plain UTF-8 CSV was read (nothing when all were plain)."""
+    lines = [md("- {}: read as {}.", code(ds.source), r.prepared.read_as)
+             for ds, r in zip(spec.datasets, run.datasets) if getattr(r.prepared, "read_as", "")]
+    if not lines:
+        return Raw("")
+    return joined([Raw("\nHow the files were read (the checksums above are of the files as published; a "
+                       "compressed file is hashed compressed):\n\n")] + [joined([line, Raw("\n")]) for line in lines])
