@@ -83,7 +83,7 @@ def spec_reference_markdown() -> str:
     add = out.append
     add("# The relspan spec, format v1")
     add("")
-    add("<!-- Generated from relspan/relspan/spec/schema.py by relspan.spec.docs.spec_reference_markdown();")
+    add("<!-- Generated from builder/relspan/spec/schema.py by relspan.spec.docs.spec_reference_markdown();")
     add("     do not edit by hand. Refresh with:")
     add(f"     {REFRESH_COMMAND} -->")
     add("")
