@@ -394,3 +394,16 @@ def test_pages_statements_come_built_from_the_pipeline_with_what_they_rest_on(si
         stated = {(f.kind, f.topic) for card in sm.cards.values() for f in card}
         assert ("pinned_down", "corank") not in stated  # the pinned sentence states the corank itself
         assert all(f.assumptions or f.kind == "not_identified" or f.topic == "corank" for f in r.findings)
+
+
+def test_side_by_side_csv_gives_no_coefficients_where_two_relations_hold(site):
+    # the trio has two relations under equal noise: the pages refuse a single coefficient there,
+    # and so must the download behind them
+    import csv as _csv
+
+    out, _ = site
+    rows = list(_csv.DictReader((out / "data" / "trio" / "assumptions.csv").open(encoding="utf-8")))
+    equal = next(r for r in rows if r["assumption"] == "equal")
+    assert int(equal["corank"]) >= 2
+    assert equal["coefficients"].startswith("not identified")
+    assert all(v == "" for k, v in equal.items() if k.startswith("coef["))

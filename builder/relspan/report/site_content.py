@@ -83,21 +83,18 @@ def results_document(run) -> dict:
 
 
 def _assumptions_csv(result) -> bytes:
+    """The full sample side by side: coefficients only where the pages show them (one rule,
+    :func:`relspan.frames.coefficient_status`: none when two or more relations hold)."""
+    from relspan.frames import coefficient_status
+
     full = result.full
     rows = []
     for a in ASSUMPTION_IDS:
         if a not in full.coranks:
             continue
-        row = {"assumption": a, "corank": full.coranks[a], "normalise_on": full.names[full.ref]}
-        for k, name in enumerate(full.names):
-            if k == full.ref:
-                continue
-            if a == "diagonal" and full.frisch_lower is not None:
-                row[f"low[{name}]"] = full.frisch_lower[k]
-                row[f"high[{name}]"] = full.frisch_upper[k]
-            elif a in full.coefficients:
-                row[f"coef[{name}]"] = full.coefficients[a][k]
-        rows.append(row)
+        status, values = coefficient_status(full, a)
+        rows.append({"assumption": a, "corank": full.coranks[a], "normalise_on": full.names[full.ref],
+                     "coefficients": status, **values})
     return _csv(pd.DataFrame(rows))
 
 
