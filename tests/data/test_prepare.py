@@ -149,3 +149,37 @@ def test_windows_without_time_column_are_labelled_by_rows(offset_frame):
     prepared = prepare_frame(offset_frame, columns=["a", "b"], plans=[rolling("r", 40, 40)])
     labels = [w.label for w in prepared.plan("r").windows]
     assert labels == ["rows 1–40", "rows 41–80", "rows 81–120", "rows 121–160"]
+
+
+def _assert_granules_rebuild_windows(prepared):
+    """Merging a window's granules (each once) gives the window's moments after all transforms."""
+    for plan in prepared.plans:
+        for i, m in enumerate(plan.moments):
+            g = prepared.window_granules(plan.plan_id, i)
+            c, mean, cm = g.window_moments()
+            assert c == m.count
+            np.testing.assert_allclose(mean, m.mean, rtol=1e-12, atol=1e-12 * np.abs(m.mean).max())
+            np.testing.assert_allclose(cm, m.comoment, rtol=1e-9, atol=1e-11 * np.abs(m.comoment).max())
+
+
+def test_window_granules_rebuild_every_window(write_csv, offset_frame):
+    path = write_csv(offset_frame)
+    ds = make_spec(path, ["a", "b", "c"], time="quarter", transforms={"b": "standardise", "c": "demean"})
+    prepared = prepare_dataset(ds, PLANS, chunk_rows=7)
+    assert prepared.granules.rows_per_granule == 1 and len(prepared.granules) == len(offset_frame)
+    _assert_granules_rebuild_windows(prepared)
+    assert prepared.window_granules("r40", 0).ordered
+
+
+def test_window_granules_when_granules_hold_several_rows(write_csv, monkeypatch):
+    import relspan.data.blocks as blocks
+
+    monkeypatch.setattr(blocks.GranuleBuilder.__init__, "__kwdefaults__", {"timed": False, "cap": 32})
+    rng = np.random.default_rng(7)
+    x = 50 + rng.normal(size=(500, 3)) @ np.array([[1.0, 0.2, 0.0], [0.0, 1.0, 0.4], [0.0, 0.0, 1.5]])
+    path = write_csv(pd.DataFrame(x, columns=["a", "b", "c"]))
+    prepared = prepare_dataset(make_spec(path, ["a", "b", "c"]), [FULL, rolling("r90", 90, 35)],
+                               chunk_rows=13)
+    assert prepared.granules.rows_per_granule > 1
+    _assert_granules_rebuild_windows(prepared)
+    assert not prepared.window_granules("r90", 1).ordered   # no time column: unordered rows

@@ -29,7 +29,8 @@ import numpy as np
 import pandas as pd
 
 from relspan.analysis.moments import Moments
-from relspan.data.blocks import BlockBuilder, BlockTable, assemble_stacked, tree_levels
+from relspan.data.blocks import (BlockBuilder, BlockTable, GranuleBuilder, GranuleTable, assemble_stacked,
+                                  tree_levels)
 from relspan.data.sources.cells import check_not_tiny
 from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableReader, TableSource, noted,
                                   arrow_available, numeric_block, open_source, select_columns,
@@ -205,6 +206,11 @@ class PreparedDataset:
         How the file was read, in words, naming what was detected (compression,
         encoding, separator, decimal mark, sheet); "" for plain UTF-8 CSV/TSV and
         for a DataFrame.
+    granules : GranuleTable or None
+        Fine block statistics for resampling (:class:`relspan.data.blocks.GranuleTable`),
+        collected in the same pass as the blocks, before the whole-sample transforms
+        (like ``blocks``); :meth:`window_granules` returns one window's granules in
+        the analysed coordinates. None once dropped (:func:`without_blocks`).
     """
 
     dataset_id: str
@@ -228,6 +234,7 @@ class PreparedDataset:
     scale: np.ndarray
     overview: Overview
     read_as: str = ""
+    granules: GranuleTable | None = None
 
     @property
     def n_variables(self) -> int:
@@ -237,6 +244,40 @@ class PreparedDataset:
     def rows_dropped(self) -> int:
         """Rows inside the range that were left out (all reasons)."""
         return sum(d.count for d in self.drops)
+
+    def window_granules(self, plan_id: str, index: int, *, ordered: bool | None = None):
+        """The granules of window ``index`` of plan ``plan_id``, in the analysed coordinates.
+
+        Returns a :class:`relspan.analysis.resample.GranuleStats` whose merge of
+        every granule once gives the window's moments (after all transforms).
+        ``ordered`` (default: whether the dataset has a time column) says whether
+        rows are time-ordered, so that a block bootstrap applies.
+
+        Raises
+        ------
+        ValueError
+            When the granules were dropped (:func:`without_blocks`).
+        """
+        if self.granules is None:
+            raise ValueError(f"dataset {self.dataset_id!r}: the granule statistics were dropped "
+                             "after the analysis; resample before without_blocks()")
+        w = self.plan(plan_id).windows[index]
+        lo, hi = self.granules.span(w.first_row - 1, w.last_row - 1)
+        return self.granules_between(lo, hi, ordered=ordered)
+
+    def granules_between(self, lo: int, hi: int, *, ordered: bool | None = None):
+        """Granules ``lo .. hi-1`` (half-open) in the analysed coordinates (see :meth:`window_granules`)."""
+        from relspan.analysis.resample import GranuleStats
+
+        if self.granules is None:
+            raise ValueError(f"dataset {self.dataset_id!r}: the granule statistics were dropped")
+        t = self.granules.table
+        scale = np.asarray(self.scale, dtype=float)
+        means = (t.means[lo:hi] + t.origin - self.shift) / scale
+        comoments = t.comoments[lo:hi] / np.outer(scale, scale)
+        return GranuleStats(t.counts[lo:hi].astype(float), means, comoments,
+                            int(self.granules.rows_per_granule),
+                            self.time_column is not None if ordered is None else bool(ordered))
 
     def plan(self, plan_id: str) -> PlanWindows:
         """The windows of plan ``plan_id``."""
@@ -264,7 +305,7 @@ def without_blocks(prepared: PreparedDataset) -> PreparedDataset:
     empty = BlockTable(counts=none, means=np.zeros((0, n)), comoments=np.zeros((0, n, n)),
                        first_pos=none, last_pos=none, first_source_row=none,
                        last_source_row=none, first_time=t, last_time=t, origin=b.origin)
-    return dataclasses.replace(prepared, blocks=empty)
+    return dataclasses.replace(prepared, blocks=empty, granules=None)
 
 
 def window_moments(prepared: PreparedDataset, plan_id: str) -> list[tuple[Window, Moments]]:
@@ -395,6 +436,7 @@ class _Pass:
         self.first_chunk_rows = 0
         timed = time is not None
         self.blocks = BlockBuilder(n, lambda p, t: grid.keys(p, t, self.t0), timed=timed)
+        self.granules = GranuleBuilder(n, lambda p, t: grid.keys(p, t, self.t0), timed=timed)
         self.origin: np.ndarray | None = None
         self.overview = _OverviewBuilder(n, timed)
         self.largest = np.zeros(n)   # largest |value| per column (after row transforms)
@@ -486,6 +528,7 @@ class _Pass:
         pos = np.arange(self.kept, self.kept + y.shape[0], dtype=np.int64)
         self.kept += y.shape[0]
         self.blocks.push(rel, pos, src, tk)
+        self.granules.push(rel, pos, src, tk)
         self.overview.push(rel, pos, src, tk)
 
     def finish(self, *, rows_read: int, sha256: str, plans: Sequence[WindowPlanSpec],
@@ -515,6 +558,7 @@ class _Pass:
                             fix="use more data, or analyse fewer variables.")
         check_not_tiny(self.largest, self.names, path=path)
         blocks = self.blocks.finish(self.origin)
+        granules = self.granules.finish(self.origin)
         levels = tree_levels(blocks)
         fc, fm, fcm, fml, fcml = assemble_stacked(blocks, np.array([0]), np.array([len(blocks)]),
                                                   relative=True, levels=levels, low=True)
@@ -559,7 +603,7 @@ class _Pass:
             rows_read=rows_read, rows_outside_range=self.rows_outside, rows_used=self.kept,
             drops=self.stream.drops, time_column=None if self.time is None else self.time.column,
             time_format=self.fmt, period=period, plans=tuple(prepared_plans), full=full,
-            blocks=blocks, shift=shift, scale=scale,
+            blocks=blocks, shift=shift, scale=scale, granules=granules,
             overview=self.overview.finish(self.names, shift_rel, scale, offset, self.fmt))
 
 
