@@ -187,7 +187,7 @@ def test_two_variables_window_pages_say_why_no_map_is_shown(built):
 def test_no_relation_is_said_in_plain_words(built):
     site, _ = built
     text = _text(site / "datasets/indep/index.html")
-    assert "No linear relation ties the three series together at the stated tolerance" in text
+    assert "Under equal noise no linear relation ties the three series together at a tolerance of" in text
 
 
 def test_no_relation_under_equal_and_bounded_noise(datasets):

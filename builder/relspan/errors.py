@@ -40,6 +40,9 @@ __all__ = [
     "RelspanWarning",
     "IllConditionedWarning",
     "NumericalWarning",
+    "FindingsConflictWarning",
+    "TrendWarning",
+    "InfluenceWarning",
     "RelspanNote",
 ]
 
@@ -181,6 +184,49 @@ class IllConditionedWarning(RelspanWarning):
 
 class NumericalWarning(RelspanWarning):
     """A computation converged poorly or hit a limit; the result says how."""
+
+
+class FindingsConflictWarning(RelspanWarning):
+    """Two findings of one dataset contradict each other, or one claims more than it rests on.
+
+    An internal error of relspan's interpreter (the test suite makes it an
+    error); a build still writes the site and says so. Attributes ``rule``
+    (:data:`relspan.analysis.findings.consistency.RULES`) and ``statements``.
+    """
+
+    def __init__(self, message: str, *, rule: str | None = None, statements: tuple = ()) -> None:
+        super().__init__(message)
+        self.rule = rule
+        self.statements = tuple(statements)
+
+    def __reduce__(self):
+        return (_rebuild_conflict, (self.message, self.rule, self.statements, self.dataset, self.plan))
+
+
+def _rebuild_conflict(message, rule, statements, dataset, plan):
+    return FindingsConflictWarning(message, rule=rule, statements=statements).located(dataset=dataset, plan=plan)
+
+
+class TrendWarning(RelspanWarning):
+    """Levels of two or more trending series are analysed: relations among them may be spurious.
+
+    Attribute ``series`` (the trending series' names).
+    """
+
+    def __init__(self, message: str, *, series: tuple = ()) -> None:
+        super().__init__(message)
+        self.series = tuple(series)
+
+    def __reduce__(self):
+        return (_rebuild_trend, (self.message, self.series, self.dataset, self.plan))
+
+
+def _rebuild_trend(message, series, dataset, plan):
+    return TrendWarning(message, series=series).located(dataset=dataset, plan=plan)
+
+
+class InfluenceWarning(RelspanWarning):
+    """A single row or block of rows decides a headline finding."""
 
 
 class RelspanNote(UserWarning):

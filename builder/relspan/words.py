@@ -22,7 +22,7 @@ import math
 from collections.abc import Sequence
 
 __all__ = ["MISSING", "fmt", "num", "num_fig", "angle_text", "count", "plural", "join_words", "cap",
-           "times"]
+           "times", "digits_for", "fmt_range", "num_range", "WIDTH_DIGITS"]
 
 #: how a page shows a value that does not exist
 MISSING = "\u2014"
@@ -52,6 +52,57 @@ def fmt(x, digits: int = 3, *, minus: str = "\u2212", missing: str = MISSING) ->
         return "0"
     text = f"{x:.{digits}g}"
     return text if minus == "-" else text.replace("-", minus)
+
+
+#: significant digits a shown width (high minus low) keeps: a range is printed so that its width
+#: can be read to two significant digits
+WIDTH_DIGITS = 2
+
+
+def digits_for(*values, digits: int = 3, width_digits: int = WIDTH_DIGITS) -> int:
+    """Significant digits that show ``values`` (a range or an interval) with its width readable.
+
+    The one rule for every number shown beside another: at least ``digits``
+    significant digits, and enough that the smallest gap between the values
+    (the width of a range ``lo to hi``) keeps ``width_digits`` significant
+    digits, so a range never prints as "2 to 2". Capped at 15 (float64).
+
+    Examples
+    --------
+    >>> digits_for(2.001, 2.004), digits_for(0.42, 0.46), digits_for(1.0, 1.0)
+    (5, 3, 3)
+    """
+    xs = sorted({float(v) for v in values if v is not None and math.isfinite(float(v))})
+    if len(xs) < 2:
+        return digits
+    gap = min(b - a for a, b in zip(xs, xs[1:]))
+    if gap <= 0:
+        return digits
+    last = math.floor(math.log10(gap)) - (width_digits - 1)  # decimal place of the last digit kept
+    need = digits
+    for x in xs:
+        if x != 0:
+            need = max(need, math.floor(math.log10(abs(x))) - last + 1)
+    return int(min(max(need, digits), 15))
+
+
+def fmt_range(lo, hi, *, sep: str = " to ", digits: int = 3, minus: str = "\u2212",
+              missing: str = MISSING) -> str:
+    """A range or interval for a page, both ends with the digits :func:`digits_for` chooses.
+
+    Examples
+    --------
+    >>> fmt_range(2.0012, 2.0041, minus="-"), fmt_range(0.422, 0.456)
+    ('2.0012 to 2.0041', '0.422 to 0.456')
+    """
+    d = digits_for(lo, hi, digits=digits)
+    return f"{fmt(lo, d, minus=minus, missing=missing)}{sep}{fmt(hi, d, minus=minus, missing=missing)}"
+
+
+def num_range(lo, hi, *, sep: str = " to ", sig: int = 3) -> str:
+    """:func:`fmt_range` in the figures' style (:func:`num`): for alt texts and descriptions."""
+    d = digits_for(lo, hi, digits=sig)
+    return f"{num(lo, d)}{sep}{num(hi, d)}"
 
 
 def num(x: float, sig: int = 3) -> str:

@@ -240,10 +240,22 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
                                       labels=labels))
     summary = dataset_summary(full=full, plans=plan_results, examined=examined, identified=identified,
                               labels=labels, findings=findings, period=prepared.period)
+    _check_findings(ds, findings, summary, full, sink)
     # the block statistics are not needed once the windows are assembled: do not keep them
     return DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
                          examined=examined, examined_from=examined_from, findings=findings,
                          summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold, cache_key=cache_key)
+
+
+def _check_findings(ds: DatasetSpec, findings, summary, full, sink: list) -> None:
+    """Run the findings-consistency rules; each conflict becomes a located warning in ``sink``."""
+    from relspan.analysis.findings import check_consistency
+    from relspan.errors import FindingsConflictWarning
+
+    for c in check_consistency(findings, summary, coranks=full.coranks):
+        sink.append(FindingsConflictWarning(
+            f"two findings contradict each other or one overclaims (an internal error of relspan; please "
+            f"report it): {c}", rule=c.rule, statements=(c.first, c.second)).located(dataset=ds.id))
 
 
 def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], sha: str) -> str:

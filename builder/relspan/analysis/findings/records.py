@@ -13,7 +13,7 @@ __all__ = ["FINDING_KINDS", "CARD_OF_KIND", "KIND_WORDS", "Tolerance", "Finding"
            "AssumptionRow", "WindowReading", "DatasetSummary"]
 
 FINDING_KINDS = ("pinned_down", "set_only", "not_identified", "depends", "unstable", "stable",
-                 "no_relation")
+                 "no_relation", "cannot_be_judged", "influence", "caution")
 
 #: which home-page card each kind belongs to
 CARD_OF_KIND = {
@@ -21,6 +21,7 @@ CARD_OF_KIND = {
     "set_only": "open", "not_identified": "open", "no_relation": "open",
     "depends": "depends",
     "unstable": "unstable",
+    "cannot_be_judged": "open", "influence": "open", "caution": "open",
 }
 
 #: each kind in a reader's words (the label before a finding in a list)
@@ -28,6 +29,7 @@ KIND_WORDS = {
     "pinned_down": "Pinned down", "stable": "Stable", "set_only": "Known only as a set",
     "not_identified": "Not identified", "no_relation": "No relation",
     "depends": "Depends on the noise assumption", "unstable": "Unstable across windows",
+    "cannot_be_judged": "Cannot be judged", "influence": "Driven by a few rows", "caution": "Caution",
 }
 
 
@@ -58,6 +60,13 @@ class Tolerance:
         if self.scale == "correlation":
             return f"noise up to {100 * self.eps:g}% of each variable's variance"
         return f"noise of spectral norm up to {self.eps:g} in the data's units"
+
+    @property
+    def short(self) -> str:
+        """The tolerance in a few words, for the end of a sentence ("at a tolerance of ...")."""
+        if self.scale == "correlation":
+            return f"a tolerance of {100 * self.eps:g}% of each variable's variance"
+        return f"a tolerance of {self.eps:g} in the data's units"
 
 
 @dataclass(frozen=True, slots=True)

@@ -26,14 +26,38 @@ import numpy as np
 from relspan.assumptions import assumption as _assumption
 
 from relspan.analysis.findings.records import Finding, Tolerance
-from relspan.words import fmt, times as _times
+from relspan.words import cap, count, fmt, fmt_range, times as _times
 
-__all__ = ["dataset_findings"]
+__all__ = ["dataset_findings", "corank_words", "no_evidence", "DIAGONAL_ALWAYS"]
 
 
 def _g(x: float) -> str:
     """A number in a finding (ASCII, also stored in results.json and findings.csv)."""
     return fmt(x, minus="-", missing="n/a")
+
+
+#: under independent noise (Frisch scheme) corank 1 is always reachable: d = lambda_min * ones makes
+#: S - diag(d) singular and positive semidefinite, so a count of 1 there is no evidence of a relation
+DIAGONAL_ALWAYS = 1
+
+
+def no_evidence(a: str, q) -> bool:
+    """True when assumption ``a``'s corank ``q`` holds for any data (independent noise, corank 1)."""
+    return a == "diagonal" and q == DIAGONAL_ALWAYS
+
+
+def corank_words(a: str, q) -> str:
+    """One assumption's full-sample count, with what the count means under it ("2 (admissible)")."""
+    name = _assumption(a).name
+    if q is None:
+        return f"{name}: not settled"
+    if q == 0:
+        return f"{name}: 0"
+    if no_evidence(a, q):
+        return f"{name}: {q} (always reachable under this assumption, so no evidence)"
+    if a == "bounded":
+        return f"{name}: {q} (admissible, not shown to hold)"
+    return f"{name}: {q}"
 
 
 def _corank_findings(result) -> list[Finding]:
@@ -47,36 +71,42 @@ def _corank_findings(result) -> list[Finding]:
     values = sorted(set(known.values()))
     tol = Tolerance.of(full)
     rests = tuple(known)
-    eps_text = (f"tolerance {full.eps:g} on the correlation scale (noise up to {100 * full.eps:g}% of each "
-                f"variable's variance)" if full.scale == "correlation" else f"tolerance {full.eps:g}")
+    undetermined = [a for a, q in cor.items() if q is None]
+    by = "; ".join(corank_words(a, q) for a, q in cor.items())
+    detail = f"Full-sample corank by assumption at {tol.short}: {by}."
     if len(values) == 1:
         q = values[0]
+        names = ", ".join(_assumption(a).name for a in known)
+        every = "under every noise assumption checked" if not undetermined else f"under {names}"
+        unsettled = (f"; {', '.join(_assumption(a).name for a in undetermined)}: not settled"
+                     if undetermined else "")
         if q == 0:
             out.append(Finding("no_relation", "corank",
-                               f"No linear relation among the {n} variables is supported: every "
-                               "direction of the data varies more than the noise allows.",
-                               f"Corank 0 under {', '.join(_assumption(a).name for a in known)} at {eps_text}.",
-                               {"corank": 0, "by_assumption": cor}, "corank", assumptions=rests,
-                               tolerance=tol))
-        else:
-            out.append(Finding("pinned_down", "corank",
-                               f"{q} linear relation{'s' if q > 1 else ''} hold{'' if q > 1 else 's'} among the "
-                               f"{n} variables, under every noise assumption checked.",
-                               f"Corank {q} in the full sample under {', '.join(_assumption(a).name for a in known)} at "
-                               f"{eps_text}.", {"corank": q, "by_assumption": cor}, "corank",
+                               f"No linear relation among the {n} variables is supported {every}, at "
+                               f"{tol.short}: every direction of the data varies more than that noise"
+                               f"{unsettled}.", detail, {"corank": 0, "by_assumption": cor}, "corank",
                                assumptions=rests, tolerance=tol))
+        else:
+            caveats = []
+            if "bounded" in known:
+                caveats.append("under bounded noise the count is admissible, not shown to hold")
+            if any(no_evidence(a, q) for a in known):
+                caveats.append("under independent noise one relation is always reachable, so that agreement "
+                               "is no evidence")
+            more = f" ({'; '.join(caveats)})" if caveats else ""
+            out.append(Finding("pinned_down", "corank",
+                               f"{cap(count(q, 'linear relation'))} among the {n} variables {every}, at "
+                               f"{tol.short}{unsettled}{more}.", detail,
+                               {"corank": q, "by_assumption": cor}, "corank", assumptions=rests, tolerance=tol))
     else:
-        parts = "; ".join(f"{_assumption(a).name}: {q}" for a, q in known.items())
         out.append(Finding("depends", "corank",
-                           f"How many relations hold depends on the noise assumption: between "
-                           f"{values[0]} and {values[-1]}.",
-                           f"Full-sample corank by assumption ({eps_text}): {parts}.",
-                           {"by_assumption": cor}, "corank", assumptions=rests, tolerance=tol))
-    undetermined = [a for a, q in cor.items() if q is None]
+                           f"How many relations hold depends on the noise assumption ({tol.short}): "
+                           f"{by}.", detail, {"by_assumption": cor}, "corank", assumptions=tuple(cor),
+                           tolerance=tol))
     if undetermined:
         out.append(Finding("set_only", "corank",
-                           "Under independent noise of unknown size the number of relations is not "
-                           "settled at this tolerance.",
+                           f"Under independent noise of unknown size the number of relations is not "
+                           f"settled at {tol.short}.",
                            "The diagonal-noise search neither certified nor ruled out every corank "
                            "(\u201cundetermined at eps\u201d).", {"undetermined": undetermined}, "corank",
                            assumptions=tuple(undetermined), tolerance=tol))
@@ -97,17 +127,19 @@ def _subspace_findings(result) -> list[Finding]:
             entry = None
         if entry is not None and not entry.vacuous:
             out.append(Finding("pinned_down", "subspace",
-                               f"The {what} is pinned down to within {entry.angle_bound_deg:.2g} degrees, "
-                               "whatever the shape of the noise (within the tolerance).",
+                               f"If {q} relation{'s' if q > 1 else ''} hold{'' if q > 1 else 's'} and the noise is "
+                               f"within {tol.short}, whatever its form, the {what} lies within "
+                               f"{entry.angle_bound_deg:.2g} degrees of the estimate (a bound for the population: "
+                               "sampling error is not included).",
                                f"Davis-Kahan bound for corank {q} under bounded noise: largest principal "
                                f"angle at most {entry.angle_bound_deg:.3g} degrees (eps {full.eps:g}, gap "
-                               f"{entry.gap:.3g}).",
+                               f"{entry.gap:.3g}; {full.scale} scale).",
                                {"corank": q, "angle_bound_deg": entry.angle_bound_deg}, "assumptions",
                                assumptions=("bounded",), tolerance=tol))
         elif entry is not None:
             out.append(Finding("set_only", "subspace",
                                f"The {what} is not pinned down by the bounded-noise assumption alone: the "
-                               "noise allowed is as large as the signal gap.",
+                               f"noise allowed ({tol.short}) is as large as the signal gap.",
                                f"Davis-Kahan bound vacuous for corank {q} (eps {full.eps:g} vs gap "
                                f"{entry.gap:.3g}).", {"corank": q}, "assumptions",
                                assumptions=("bounded",), tolerance=tol))
@@ -116,26 +148,26 @@ def _subspace_findings(result) -> list[Finding]:
             ok = q * (q + 1) >= 2 * n
             spread = (fr.spread.max_angle_deg if fr.spread is not None and fr.spread.q == q else None)
             if not ok:
-                extra = (f" Distinct exact solutions differ by up to {spread:.2g} degrees."
-                         if spread is not None and np.isfinite(spread) else "")
+                extra = (f" Solutions that fit within the tolerance (approximately, not exactly) differ by up "
+                         f"to {spread:.2g} degrees." if spread is not None and np.isfinite(spread) else "")
                 out.append(Finding("set_only", "subspace",
-                                   f"Under independent noise of unknown size the {what} is a family, not a "
-                                   f"single answer.{extra}",
+                                   f"Under independent noise of unknown size, at {tol.short}, the {what} is a "
+                                   f"family, not a single answer.{extra}",
                                    f"Frisch scheme: point identification needs q(q+1) >= 2n; here "
                                    f"{q * (q + 1)} < {2 * n}.", {"corank": q, "spread_deg": spread},
                                    "assumptions", assumptions=("diagonal",), tolerance=tol))
         if ident is not None and q >= 2:
             targets = [result.labels[result.names.index(t)] for t in ident.targets]
             out.append(Finding("not_identified", "coefficient",
-                               f"No single coefficient of one relation is pinned down: with {q} relations, "
-                               "any mix of them is also a relation.",
+                               f"No single coefficient of one relation is pinned down: with {q} relations "
+                               f"(equal noise, {tol.short}), any mix of them is also a relation.",
                                f"Corank {q}: a normalised coefficient depends on which member of the "
                                "relation subspace is picked; only the subspace (or a reduced form chosen in "
                                "advance) is identified.", {"corank": q}, "identified", single_coefficient=True,
-                               tolerance=tol))
+                               assumptions=("equal",), tolerance=tol))
             out.append(Finding("pinned_down", "reduced_form",
-                               f"A reduced form is pinned down: {', '.join(targets)} expressed through the "
-                               "other variables.",
+                               f"Under equal noise, at {tol.short}, a reduced form is pinned down: "
+                               f"{', '.join(targets)} expressed through the other variables.",
                                f"Reduced form from the equal-noise subspace; condition number of the choice "
                                f"{ident.reduced_condition:.3g}.", {"corank": q, "targets": targets,
                                                            "condition": ident.reduced_condition}, "identified",
@@ -149,9 +181,10 @@ def _coefficient_findings(result) -> list[Finding]:
     ref = full.ref
     names, labels = result.names, result.labels
     q1 = (result.examined and result.examined[0] == 1)
-    # signs across assumptions (full sample)
+    # signs across assumptions (full sample): only where one relation makes a single coefficient
+    # meaningful; with several (or none) the site calls single coefficients unidentified
     flips = []
-    for k in range(full.n):
+    for k in (range(full.n) if q1 else ()):
         if k == ref:
             continue
         vals = {a: full.coefficient(a, ref, k) for a in ("elementary", "equal", "shaped")
@@ -171,15 +204,17 @@ def _coefficient_findings(result) -> list[Finding]:
         lo, hi = full.frisch_lower, full.frisch_upper
         bounded = [k for k in range(full.n) if k != ref and np.isfinite(lo[k]) and np.isfinite(hi[k])]
         if len(bounded) == full.n - 1:
-            items = ", ".join(f"{labels[k]} between {_g(lo[k])} and {_g(hi[k])}" for k in bounded)
+            items = ", ".join(f"{labels[k]} between {fmt_range(lo[k], hi[k], sep=' and ', minus='-')}"
+                              for k in bounded)
             out.append(Finding("set_only", "coefficient",
-                               f"Under independent noise of unknown size each coefficient of the equation for "
-                               f"{labels[ref]} is bounded: {items}.",
+                               f"Under independent noise of unknown size, at {Tolerance.of(full).short}, each "
+                               f"coefficient of the equation for {labels[ref]} is bounded: {items}.",
                                "Frisch scheme, corank 1: all elementary regressions lie in one orthant, so the "
                                "solutions form their convex hull (Klepper & Leamer 1984).",
                                {"normalise_on": names[ref],
                                 "intervals": {names[k]: [lo[k], hi[k]] for k in bounded}},
-                               "frisch", single_coefficient=True, assumptions=("diagonal",)))
+                               "frisch", single_coefficient=True, assumptions=("diagonal",),
+                               tolerance=Tolerance.of(full)))
         else:
             out.append(Finding("not_identified", "coefficient",
                                f"Under independent noise of unknown size the coefficients of the equation for "
@@ -187,7 +222,7 @@ def _coefficient_findings(result) -> list[Finding]:
                                "Frisch scheme, corank 1: the elementary regressions do not lie in one "
                                "orthant, so the set of solutions is unbounded.",
                                {"normalise_on": names[ref]}, "frisch", single_coefficient=True,
-                               assumptions=("diagonal",)))
+                               assumptions=("diagonal",), tolerance=Tolerance.of(full)))
     return out
 
 
@@ -207,19 +242,22 @@ def _stability_findings(result) -> list[Finding]:
             stab = plan.stability[key]
             worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else stab.max_pairwise_deg
             what = "relation" if q == 1 else "plane of relations" if q == 2 else f"{q}-dimensional relation subspace"
+            tol = Tolerance.of(result.full)
+            on = f"under {_assumption(key[0]).name} at {tol.short}"
             if stab.stable:
-                headline = (f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} "
-                            f"stays within {worst:.2g} degrees of the full sample's.")
+                headline = (f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} found "
+                            f"{on} stays within {worst:.2g} degrees of the full sample's (threshold "
+                            f"{stab.threshold_deg:g} degrees).")
             else:
-                headline = (f"Across the windows of \u201c{title}\u201d the {what} moves: up to "
+                headline = (f"Across the windows of \u201c{title}\u201d the {what} found {on} moves: up to "
                             f"{worst:.2g} degrees from the full sample's (threshold "
-                            f"{stab.threshold_deg:g}).")
+                            f"{stab.threshold_deg:g} degrees).")
             out.append(Finding("stable" if stab.stable else "unstable", "stability", headline,
                                f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
                                                    "max_to_full_deg": worst,
                                                    "threshold_deg": stab.threshold_deg},
                                f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key[0],),
-                               tolerance=Tolerance.of(result.full)))
+                               tolerance=tol))
             swing = plan.swings.get("elementary")
             if swing is not None:
                 changed = [k for k in range(len(names)) if k != ref and swing.sign_changes[k] > 0]
@@ -229,9 +267,10 @@ def _stability_findings(result) -> list[Finding]:
                     out.append(Finding("unstable", "coefficient",
                                        f"The least-squares coefficient of {labels[k]} in the equation for "
                                        f"{labels[ref]} changes sign {_times(int(swing.sign_changes[k]))} across "
-                                       f"\u201c{title}\u201d{more}, from {_g(swing.minimum[k])} to "
-                                       f"{_g(swing.maximum[k])}"
-                                       + (f", while the {what} moves at most {worst:.2g} degrees." if stab.stable
+                                       f"\u201c{title}\u201d{more}, from "
+                                       f"{fmt_range(swing.minimum[k], swing.maximum[k], minus='-')}"
+                                       + (f", while the {what} found under {_assumption(key[0]).name} moves at "
+                                          f"most {worst:.2g} degrees." if stab.stable
                                           else "."),
                                        "Elementary regression (only the reference variable noisy), normalised "
                                        "coefficient per window.",
@@ -241,14 +280,29 @@ def _stability_findings(result) -> list[Finding]:
                                        f"plan-{plan.plan.id}", plan=plan.plan.id, single_coefficient=True,
                                        assumptions=("elementary",)))
         seq = plan.coranks
-        moving = [a for a, c in seq.constant.items() if not c and a != "elementary"]
+        tol = Tolerance.of(result.full)
+        # an undetermined window is not a different count: only settled counts are compared
+        settled = {a: [c for c in cs if c is not None] for a, cs in seq.coranks.items() if a != "elementary"}
+        moving = [a for a, cs in settled.items() if len(set(cs)) > 1]
         if moving:
+            spans = "; ".join(f"{_assumption(a).name}: from {min(settled[a])} to {max(settled[a])}"
+                              for a in moving)
             out.append(Finding("unstable", "corank",
                                f"The number of relations changes across the windows of \u201c{title}\u201d "
-                               f"under {', '.join(_assumption(a).name for a in moving)}.",
+                               f"at {tol.short} ({spans}).",
                                "Corank per window: see the timeline.",
                                {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
-                               plan=plan.plan.id, assumptions=tuple(moving), tolerance=Tolerance.of(result.full)))
+                               plan=plan.plan.id, assumptions=tuple(moving), tolerance=tol))
+        for a, cs in seq.coranks.items():
+            missing = sum(c is None for c in cs)
+            if a != "elementary" and missing:
+                out.append(Finding("set_only", "corank",
+                                   f"Under {_assumption(a).name} the number of relations is not settled in "
+                                   f"{missing} of the {len(cs)} windows of \u201c{title}\u201d at {tol.short}; "
+                                   "those windows are not counted as a change.",
+                                   "Undetermined at eps: the search neither certified nor ruled out the corank.",
+                                   {"plan": plan.plan.id, "assumption": a, "undetermined": missing},
+                                   f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(a,), tolerance=tol))
     return out
 
 

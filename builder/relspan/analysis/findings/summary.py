@@ -14,7 +14,7 @@ from relspan.analysis.findings.records import (AssumptionRow, DatasetSummary, St
                                                WindowReading)
 from relspan.analysis.stability import principal_angles
 from relspan.assumptions import ASSUMPTION_IDS, assumption
-from relspan.words import cap, count, fmt, join_words
+from relspan.words import cap, count, fmt, fmt_range, join_words
 
 __all__ = ["dataset_summary", "why_assumptions_differ", "assumption_rows", "PURE_NOISE_SHARE"]
 
@@ -68,6 +68,27 @@ def _one_relation_each(plan) -> bool:
     return bool(seq) and all(c == 1 for c in seq)
 
 
+def examined_from_assumption(full, q: int) -> str:
+    """The assumption whose full-sample count is the examined corank ``q`` (the preference order)."""
+    from relspan.assumptions import corank_preference
+
+    for record in corank_preference():
+        if full.coranks.get(record.id) == q:
+            return record.id
+    return "equal"
+
+
+def _other_counts(full, q) -> str:
+    """What the other assumptions say when they differ from the examined count ("" when all agree)."""
+    from relspan.analysis.findings.statements import corank_words
+
+    q = 0 if q is None else q
+    differ = [(a, c) for a, c in full.coranks.items() if a != "elementary" and c != q]
+    if not differ:
+        return ""
+    return "other assumptions differ (" + "; ".join(corank_words(a, c) for a, c in differ) + ")"
+
+
 # ------------------------------------------------------------------- why assumptions differ
 
 def why_assumptions_differ(full, labels) -> str:
@@ -102,6 +123,13 @@ def why_assumptions_differ(full, labels) -> str:
         if dg <= corank.ledermann:
             text += (f" With only {count(full.n, 'series')}, up to {rel(corank.ledermann)} of this kind can "
                      "appear from chance variation alone.")
+        else:
+            text += (f" With {count(full.n, 'series')}, chance variation alone fits up to "
+                     f"{rel(corank.ledermann)} of this kind exactly; the {rel(dg)} found here fit only "
+                     "approximately, within the tolerance, so they too are weak evidence.")
+        if eq == 0 and dg == 1:
+            text += (" Under independent noise one relation can always be fitted (take each series' error "
+                     "variance equal to the smallest eigenvalue), so this count is no evidence of a relation.")
         return text
     return (f"Equal noise finds {rel(eq)}, independent noise only {rel(dg)}: the independent-noise check "
             "could not fit the larger number with non-negative error variances within the tolerance.")
@@ -151,7 +179,8 @@ def _relations_words(full, a: str, q) -> str:
         if q == 1:
             return ("a set of answers (every mix of the elementary regressions)" if fr.q1.status == "bounded"
                     else "an unbounded set of answers")
-        return "one answer (enough equations to fix it)"
+        return ("one answer near the estimate (enough equations to fix it locally; a second solution "
+                "is not ruled out)")
     return "one answer"
 
 
@@ -202,7 +231,9 @@ def _plan_sentences(plan, examined) -> tuple[str, ...]:
         if stab is not None and n >= 2:
             what = "relation" if q == 1 else "set of relations"
             word = "stays" if stab.stable else "moves"
-            out.append(f"under equal noise the {what} {word} within an angle of {fmt(stab.max_to_reference_deg)}"
+            tol = Tolerance.of(plan.analyses[0])
+            out.append(f"under equal noise ({tol.short}) the {what} {word} within an angle of "
+                       f"{fmt(stab.max_to_reference_deg)}"
                        f"\u00b0 of the full sample's in every window (threshold {fmt(stab.threshold_deg)}\u00b0). "
                        + stab.verdict)
     return tuple(out)
@@ -275,30 +306,39 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
     covers = [("pinned_down", "corank")]
     ev = {"pinned": "corank", "open": "identified", "depends": "assumptions"}
     rests = {"pinned": ("equal",), "open": ()}
+    others = _other_counts(full, q)
     if q is not None and q >= 1:
         what = "relation" if q == 1 else "relations"
-        pinned = f"{cap(count(q, 'relation'))} tie{'s' if q == 1 else ''} the {series} together"
+        source = examined_from_assumption(full, q)
+        pinned = (f"Under {assumption(source).name}, at {tol.short}, {count(q, 'relation')} "
+                  f"tie{'s' if q == 1 else ''} the {series} together")
+        rests["pinned"] = (source,)
         entry = None
         if full.bounded is not None:
             entry = next((c for c in full.bounded.coranks if c.q == q and not c.vacuous), None)
         bits = []
+        if others:
+            bits.append(others)
         if entry is not None:
-            bits.append(f"the {what} {'is' if q == 1 else 'are'} fixed to within an angle of "
-                        f"{entry.angle_bound_deg:.2g} degrees, whatever form the noise takes")
+            bits.append(f"if the noise is within the tolerance, whatever its form, the {what} lie"
+                        f"{'s' if q == 1 else ''} within an angle of {entry.angle_bound_deg:.2g} degrees of the "
+                        "estimate (a population bound that leaves out sampling error)")
             rests["pinned"] += ("bounded",)
         steady = [st for _, st in stab if st.stable]
         if stab and len(steady) == len(stab):
             worst = max(st.max_to_reference_deg for st in steady)
-            bits.append(f"{'it moves' if q == 1 else 'they move'} at most {worst:.2g} degrees between "
-                        "windows of time")
+            bits.append(f"under equal noise {'it moves' if q == 1 else 'they move'} at most {worst:.2g} degrees "
+                        "between windows of time")
         elif stab:
             worst = max(st.max_to_reference_deg for _, st in stab)
-            bits.append(f"but {'it moves' if q == 1 else 'they move'} by up to {worst:.2g} degrees between "
-                        "windows of time")
+            bits.append(f"but under equal noise {'it moves' if q == 1 else 'they move'} by up to {worst:.2g} "
+                        "degrees between windows of time")
         pinned += (": " + "; ".join(bits) if bits else "") + "."
         covers += [("pinned_down", "subspace")] if entry is not None else []
         covers += [("stable", "stability")] if stab and len(steady) == len(stab) else []
-        pinned_short = f"{count(q, 'relation')} among the {series}"
+        pinned_short = f"{count(q, 'relation')} among the {series} under {assumption(source).name}"
+        if others:
+            pinned_short += " (other assumptions differ)"
         if stab:
             pinned_short += (", steady across time windows" if len(steady) == len(stab)
                              else ", but moving across time windows")
@@ -308,8 +348,9 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
             open_ = (f"No single weight of one series in \u201cthe\u201d equation: with {count(q, 'relation')}, "
                      "any mix of them is also a relation, so such a weight is a choice, not a finding.")
             if targets:
-                open_ += (f" What is fixed is {join_words(targets)} written through the other "
-                          f"series.")
+                open_ += (f" What is fixed, under equal noise, is {join_words(targets)} written through the "
+                          f"other series.")
+            rests["open"] = ("equal",)
             open_short = "the weight of any single series (only the relations as a set are fixed)"
             covers += [("not_identified", "coefficient"), ("pinned_down", "reduced_form")]
             single = True
@@ -318,9 +359,10 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
             lo, hi = full.frisch_lower, full.frisch_upper
             rests["open"] = ("diagonal",)
             if all(np.isfinite(lo[k]) and np.isfinite(hi[k]) for k in ks):
-                ranges = join_words([f"{labels[k]} {fmt(lo[k])} to {fmt(hi[k])}" for k in ks])
-                open_ = (f"The exact weights, if each series has its own error of unknown size: the data only "
-                         f"give ranges in the equation for {labels[full.ref]} ({ranges}).")
+                ranges = join_words([f"{labels[k]} {fmt_range(lo[k], hi[k])}" for k in ks])
+                open_ = (f"The exact weights, if each series has its own error of unknown size: at "
+                         f"{tol.short} the data only give ranges in the equation for {labels[full.ref]} "
+                         f"({ranges}).")
                 ev["open"] = "frisch"
                 open_short = "the exact weights: only ranges, if each series has its own error"
                 covers += [("set_only", "coefficient")]
@@ -338,9 +380,11 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         if windowed:
             plan, qq, change = windowed[0]
             titles = join_words([f"\u201c{p.plan.title or p.plan.id}\u201d" for p, _, _ in windowed])
-            pinned = (f"Within each window of {titles}, {count(qq, 'relation')} "
-                      f"tie{'s' if qq == 1 else ''} the {series} together.")
-            open_ = f"No single relation fits{span}"
+            pinned = (f"Under equal noise, at {tol.short}, {count(qq, 'relation')} "
+                      f"tie{'s' if qq == 1 else ''} the {series} together within each window of {titles}"
+                      + (f"; over all rows together, {others}" if others else "") + ".")
+            open_ = f"Under equal noise no single relation fits{span}"
+            rests["open"] = ("equal",)
             if change is not None:
                 open_ += (f": the relation differs between the windows of \u201c{plan.plan.title or plan.plan.id}"
                           f"\u201d by an angle of up to {change:.2g} degrees, the pattern a change of relation "
@@ -349,14 +393,16 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
                 open_ += "."
             ev["pinned"] = f"plan-{plan.plan.id}"
             ev["open"] = f"plan-{plan.plan.id}"
-            pinned_short = f"{count(qq, 'relation')} within each time window"
+            pinned_short = f"{count(qq, 'relation')} within each time window under equal noise"
             open_short = "a single relation for the whole period" + (
                 f": it differs between windows by up to {change:.2g} degrees" if change is not None else "")
         else:
-            pinned = (f"No linear relation ties the {series} together at the stated tolerance: each "
-                      "combination of them varies more than the noise allows.")
+            pinned = (f"Under equal noise no linear relation ties the {series} together at {tol.short}: each "
+                      "combination of them varies more than that noise"
+                      + (f"; {others}" if others else "") + ".")
             open_ = "Nothing further can be identified without a relation."
-            pinned_short = f"no relation among the {series}"
+            pinned_short = f"no relation among the {series} under equal noise" + (
+                " (other assumptions differ)" if others else "")
             open_short = "nothing further without a relation"
     depends_rests: tuple = ()
     depends = why_assumptions_differ(full, labels)
@@ -365,12 +411,7 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         depends_rests = ("equal", "diagonal")
     else:
         flips = [f for f in findings if f.kind == "depends" and f.topic == "coefficient"]
-        if flips and q is not None and q >= 2:
-            depends = ("The signs of single weights differ between methods. With several relations this is "
-                       "expected: each method picks a different mix of the same relations.")
-            single = True
-            depends_rests = flips[0].assumptions
-        elif flips:
+        if flips:
             depends = flips[0].headline
             single = True
             depends_rests = flips[0].assumptions
@@ -388,12 +429,14 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         unstable_ev = swings[0].evidence
         single = True
     elif moving:
-        unstable = "The relations move between windows of time by more than the stated threshold."
+        unstable = (f"Under {join_words(sorted({assumption(a).name for f in moving for a in f.assumptions}))}, "
+                    "the relations move between windows of time by more than the stated threshold.")
         unstable_ev = moving[0].evidence
     elif q is None and windowed and windowed[0][2] is not None:
         plan, _, change = windowed[0]
-        unstable = (f"The relation itself changes over time: between the windows of \u201c"
-                    f"{plan.plan.title or plan.plan.id}\u201d it turns by an angle of up to {change:.2g} degrees.")
+        unstable = (f"Under equal noise ({tol.short}) the relation itself changes over time: between the "
+                    f"windows of \u201c{plan.plan.title or plan.plan.id}\u201d it turns by an angle of up to "
+                    f"{change:.2g} degrees.")
         unstable_ev = f"plan-{plan.plan.id}"
     cards = {"pinned": [], "open": [], "depends": [], "unstable": []}
     for f in findings:
