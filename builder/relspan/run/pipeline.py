@@ -249,10 +249,10 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
 
 def _check_findings(ds: DatasetSpec, findings, summary, full, sink: list) -> None:
     """Run the findings-consistency rules; each conflict becomes a located warning in ``sink``."""
-    from relspan.analysis.findings import check_consistency
+    from relspan.analysis.findings import consistency
     from relspan.errors import FindingsConflictWarning
 
-    for c in check_consistency(findings, summary, coranks=full.coranks):
+    for c in consistency.check_consistency(findings, summary, coranks=full.coranks):
         sink.append(FindingsConflictWarning(
             f"two findings contradict each other or one overclaims (an internal error of relspan; please "
             f"report it): {c}", rule=c.rule, statements=(c.first, c.second)).located(dataset=ds.id))
