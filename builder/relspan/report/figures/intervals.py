@@ -10,7 +10,7 @@ import pandas as pd
 from relspan.report.figures.checks import as_float_array, as_labels, fail
 from relspan.report.figures.contract import FigureResult, fit_alt
 from relspan.report.figures.style import INK, MUTED, PALETTE, new_figure, style_context
-from relspan.words import join_words, num, num_fig, plural
+from relspan.words import join_words, num, num_fig, num_range, plural
 
 __all__ = ["frisch_intervals"]
 
@@ -182,7 +182,7 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
         if status[i] == "point":
             return f"exactly {num(lo[i])}"
         if status[i] == "bounded":
-            return f"{num(lo[i])} to {num(hi[i])}" if short else f"from {num(lo[i])} to {num(hi[i])}"
+            return num_range(lo[i], hi[i]) if short else f"from {num_range(lo[i], hi[i])}"
         if status[i] == "unbounded below":
             return f"unbounded below, up to {num(hi[i])}"
         if status[i] == "unbounded above":

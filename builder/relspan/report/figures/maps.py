@@ -31,7 +31,7 @@ from relspan.report.figures.checks import as_float_array, as_labels, fail
 from relspan.report.figures.contract import FigureResult, fit_alt
 from relspan.report.figures.labels import place_point_labels
 from relspan.report.figures.style import FAINT, INK, MUTED, PALETTE, new_figure, series_style, style_context
-from relspan.words import num, num_fig, plural
+from relspan.words import num, num_fig, num_range, plural
 
 __all__ = ["ElementaryMapData", "elementary_map", "window_gallery"]
 
@@ -479,7 +479,7 @@ def elementary_map(points, *, names: Sequence[str], ref: str, flat_point, flat_d
                  + f". The band around it has the root-mean-square (RMS) distance of the points, "
                  f"{num(m.rms)}, as half-width. ")
     if m.simplex is not None:
-        rng = "; ".join(f"coefficient on {c} from {num(m.simplex[:, i].min())} to {num(m.simplex[:, i].max())}"
+        rng = "; ".join(f"coefficient on {c} from {num_range(m.simplex[:, i].min(), m.simplex[:, i].max())}"
                         for i, c in enumerate(m.coef_names))
         desc += (f"Shaded and hatched: the Frisch set (convex hull of {plural(m.simplex.shape[0], 'vertex', 'vertices')}), "
                  f"the relations consistent with independent noise of unknown variances: {rng}.")

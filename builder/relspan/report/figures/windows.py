@@ -25,7 +25,7 @@ from relspan.report.figures.contract import FigureResult, fit_alt
 from relspan.report.figures.labels import spread_1d
 from relspan.report.figures.style import (INK, MUTED, PALETTE, SEQUENTIAL, new_figure, style_context,
                                           styles_for, text_color_on)
-from relspan.words import angle_text, join_words, num, num_fig, plural
+from relspan.words import angle_text, join_words, num, num_fig, num_range, plural
 
 __all__ = ["subspace_stability", "coefficient_swing"]
 
@@ -374,7 +374,7 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
         if not ok.any():
             parts.append(f"{nm}: not available in any window")
             continue
-        txt = f"{nm}: from {num(v[ok].min())} to {num(v[ok].max())}"
+        txt = f"{nm}: from {num_range(v[ok].min(), v[ok].max())}"
         fl = flips[nm]
         if fl:
             where = "; ".join(f"between {wl[i]} and {wl[j]} ({num(v[i])} to {num(v[j])})" for i, j in fl[:4])

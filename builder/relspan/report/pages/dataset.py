@@ -11,7 +11,7 @@ from relspan.report.text import ASSUMPTION_PLAIN, CAUTION_LINK, USUAL_CAUTIONS
 from relspan.site import blocks
 from relspan.site.content import Page
 from relspan.site.markdown import Raw, bullets, code, joined, link, md
-from relspan.words import cap, count, fmt, join_words
+from relspan.words import cap, count, digits_for, fmt, fmt_range, join_words
 
 __all__ = ["dataset_page", "coefficient_cell", "NO_MAP"]
 
@@ -24,7 +24,7 @@ NO_MAP = Raw("No map of the elementary regressions is shown: a map needs at leas
 def coefficient_cell(row) -> Raw:
     """The coefficients of an :class:`~relspan.analysis.findings.AssumptionRow` as one table cell."""
     if row.intervals:
-        return joined((md("{}: {} to {}", lab, fmt(lo), fmt(hi)) for lab, lo, hi in row.intervals), "; ")
+        return joined((md("{}: {}", lab, fmt_range(lo, hi)) for lab, lo, hi in row.intervals), "; ")
     if row.points:
         return joined((md("{}: {}", lab, fmt(v)) for lab, v in row.points), "; ")
     return md("{}", row.coefficients_note)
@@ -169,7 +169,8 @@ def _plan_section(result, plan, pub: Publisher, folder: str) -> str:
     swing = plan.swings.get("elementary")
     if swing is not None and n >= 2:
         ref = result.full.ref
-        rows = [(result.labels[k], fmt(swing.minimum[k]), fmt(swing.maximum[k]), str(int(swing.sign_changes[k])))
+        rows = [(result.labels[k], fmt(swing.minimum[k], digits_for(swing.minimum[k], swing.maximum[k])),
+                 fmt(swing.maximum[k], digits_for(swing.minimum[k], swing.maximum[k])), str(int(swing.sign_changes[k])))
                 for k in range(len(result.names)) if k != ref]
         out.append(md("Least-squares coefficients in the equation for {} across the windows ({}):\n",
                       result.labels[ref], CAUTION_LINK))
