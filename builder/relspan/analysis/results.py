@@ -106,6 +106,8 @@ class DatasetResult:
     flat: dict
     threshold_deg: float
     cache_key: str = ""
+    trends: object = None
+    influence: object = None
 
     @property
     def names(self) -> tuple[str, ...]:

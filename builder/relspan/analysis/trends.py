@@ -55,7 +55,12 @@ from relspan.analysis._common import check_names_len, jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["SeriesDiagnostic", "TrendReport", "series_diagnostics", "effective_sample_size",
-           "lag1_autocorrelation", "VERDICTS"]
+           "lag1_autocorrelation", "VERDICTS", "dataset_trends", "LEVEL_TRANSFORMS", "MIN_ROWS"]
+
+#: transforms that leave a series in levels (a trend in the data stays a trend in what is analysed)
+LEVEL_TRANSFORMS = ("none", "log")
+#: fewest time-ordered points the tests are run on
+MIN_ROWS = 12
 
 VERDICTS = ("stationary", "trending", "cannot be judged")
 
@@ -118,11 +123,14 @@ class TrendReport:
     caution: str
     effective_rows: float
     rule: str
+    source: str = ""
+    trending_levels: tuple[str, ...] = ()
 
     def to_dict(self) -> dict:
         return jsonable({"series": [s.to_dict() for s in self.series], "rows": self.rows,
                          "alpha": self.alpha, "spurious_caution": self.spurious_caution,
-                         "caution": self.caution, "effective_rows": self.effective_rows, "rule": self.rule})
+                         "caution": self.caution, "effective_rows": self.effective_rows, "rule": self.rule,
+                         "source": self.source, "trending_levels": list(self.trending_levels)})
 
 
 def lag1_autocorrelation(x) -> np.ndarray:
@@ -213,3 +221,50 @@ def series_diagnostics(x, *, names: Sequence[str], alpha: float = 0.05) -> Trend
             "judged. Effective rows: T(1 - r_i r_j)/(1 + r_i r_j) with lag-1 autocorrelations r, smallest pair.")
     return TrendReport(series=tuple(out), rows=int(a.shape[0]), alpha=float(alpha),
                        spurious_caution=len(trending) >= 2, caution=caution, effective_rows=eff, rule=rule)
+
+
+def dataset_trends(stats, *, names: Sequence[str], labels: Sequence[str] | None = None,
+                   transforms: Sequence[str], gaps: int = 0, alpha: float = 0.05) -> TrendReport | None:
+    """The trend diagnostics of a whole dataset, from its granules (time order), or None when too short.
+
+    Parameters
+    ----------
+    stats : GranuleStats
+        The dataset's granules in the analysed coordinates, in time order
+        (:meth:`relspan.data.prepare.PreparedDataset.granules_between`).
+        With one row per granule the series tested are the analysed rows
+        themselves; with ``g`` rows per granule they are the granule means
+        (an approximation, said in ``source``).
+    names, labels : sequence of str
+        Variable names and the reader's labels (labels are used in the caution).
+    transforms : sequence of str
+        The row transform of each variable; a trending series counts as analysed
+        in levels when its transform is one of :data:`LEVEL_TRANSFORMS`.
+    gaps : int
+        Rows dropped because the previous period was absent (differences across
+        a gap); the tests take the remaining rows as equally spaced.
+    alpha : float
+
+    Returns
+    -------
+    TrendReport or None
+        None with fewer than :data:`MIN_ROWS` granules.
+    """
+    import dataclasses
+
+    means = np.asarray(stats.means, dtype=float)
+    if means.shape[0] < MIN_ROWS:
+        return None
+    labels = tuple(labels) if labels is not None else tuple(names)
+    report = series_diagnostics(means, names=labels, alpha=alpha)
+    g = int(stats.rows_per_granule)
+    source = ("the analysed rows in time order (after the transforms)" if g == 1 else
+              f"means of consecutive runs of {g} rows (the dataset is large; the tests and the effective "
+              "rows judge these means, an approximation to the rows themselves)")
+    if gaps:
+        source += (f"; {gaps} row(s) after gaps in the time index were dropped by the difference transform and "
+                   "the remaining rows are taken as equally spaced")
+    levels = tuple(lab for lab, t, s in zip(labels, transforms, report.series)
+                   if s.verdict == "trending" and t in LEVEL_TRANSFORMS)
+    # rows and effective_rows count the points tested (granule means when g > 1)
+    return dataclasses.replace(report, source=source, trending_levels=levels)

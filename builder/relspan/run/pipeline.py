@@ -236,15 +236,90 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     from relspan.data.prepare import without_blocks
 
     labels = tuple(v.label for v in ds.variables)
+    trends = _trends(ds, prepared, labels, sink)
+    influence = _influence(ds, prepared, full, options, common_std, sink)
     findings = tuple(dataset_findings(full=full, plans=plan_results, examined=examined, identified=identified,
-                                      labels=labels))
+                                      labels=labels, trends=trends, influence=influence))
     summary = dataset_summary(full=full, plans=plan_results, examined=examined, identified=identified,
                               labels=labels, findings=findings, period=prepared.period)
     _check_findings(ds, findings, summary, full, sink)
     # the block statistics are not needed once the windows are assembled: do not keep them
     return DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
                          examined=examined, examined_from=examined_from, findings=findings,
-                         summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold, cache_key=cache_key)
+                         summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold,
+                         cache_key=cache_key, trends=trends, influence=influence)
+
+
+def _all_granules(prepared):
+    """The dataset's granules in time order (analysed coordinates), or None when dropped."""
+    if prepared.granules is None:
+        return None
+    return prepared.granules_between(0, int(prepared.granules.table.counts.shape[0]))
+
+
+def _trends(ds: DatasetSpec, prepared, labels, sink: list):
+    """Trend diagnostics of a time-ordered dataset (None without a time column or with too few rows).
+
+    Raises a located :class:`~relspan.errors.TrendWarning` when the levels of two or more trending series
+    are analysed (the spurious-regression caution of Granger & Newbold 1974).
+    """
+    from relspan.analysis.trends import dataset_trends
+    from relspan.data.transforms import REASON_GAP
+    from relspan.errors import TrendWarning
+
+    if prepared.time_column is None:
+        return None
+    stats = _all_granules(prepared)
+    if stats is None:
+        return None
+    gaps = sum(d.count for d in prepared.drops if d.reason == REASON_GAP)
+    report = dataset_trends(stats, names=prepared.variables, labels=labels, transforms=prepared.transforms,
+                            gaps=gaps)
+    if report is not None and len(report.trending_levels) >= 2:
+        from relspan.words import join_words
+
+        sink.append(TrendWarning(
+            f"the levels of {len(report.trending_levels)} trending series ({join_words(report.trending_levels)}) "
+            "are analysed: relations among trending levels can appear without any real relation (Granger & "
+            "Newbold 1974) unless the series are cointegrated, which is not tested. Fix: analyse differences "
+            "or growth rates (a variable's transform: diff or logdiff), or read these relations with that "
+            "caution.", series=report.trending_levels).located(dataset=ds.id))
+    return report
+
+
+def _influence(ds: DatasetSpec, prepared, full, options, common_std, sink: list):
+    """Leave-one-block-out and robust-covariance check of the full-sample counts (None when not possible).
+
+    Re-decides with the analysis's own window function on the fast assumptions (independent noise is not
+    re-run); raises a located :class:`~relspan.errors.InfluenceWarning` when one block or a few rows decide.
+    """
+    from relspan.analysis.findings.records import Tolerance
+    from relspan.analysis.influence import influence_report
+    from relspan.analysis.resample import window_rng
+    from relspan.errors import InfluenceWarning
+
+    stats = _all_granules(prepared)
+    if stats is None:
+        return None
+    fast = tuple(a for a in options.assumptions if a in ("elementary", "equal", "shaped", "bounded"))
+    opts = dataclasses.replace(options, assumptions=fast or ("elementary",))
+    names = tuple(prepared.variables)
+
+    def decide(count, mean, comoment):
+        m = Moments(count=int(count), mean=np.asarray(mean), comoment=np.asarray(comoment))
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return dict(analyse_window(m, names=names, options=opts, common_std=common_std).coranks)
+
+    checked = tuple(a for a in fast if a != "elementary")
+    if not checked:
+        return None
+    report = influence_report(stats, decide=decide, full=full.coranks, assumptions=checked,
+                              rng=window_rng(int(ds.checks.seed), ds.id, "influence", 0),
+                              tolerance=Tolerance.of(full))
+    if report.driven:
+        sink.append(InfluenceWarning(" ".join(f.headline for f in report.findings)).located(dataset=ds.id))
+    return report
 
 
 def _check_findings(ds: DatasetSpec, findings, summary, full, sink: list) -> None:

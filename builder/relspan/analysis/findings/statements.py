@@ -320,7 +320,28 @@ class _Evidence(NamedTuple):
         return self.full.names
 
 
-def dataset_findings(*, full, plans, examined, identified, labels) -> list[Finding]:
+def _influence_findings(influence) -> list[Finding]:
+    """Said when one row or one block of rows decides the full-sample count (leave-one-out, robust covariance)."""
+    if influence is None or not influence.findings:
+        return []
+    return list(influence.findings)
+
+
+def _trend_findings(trends) -> list[Finding]:
+    """The spurious-regression caution (Granger & Newbold 1974) when two or more analysed series trend."""
+    if trends is None or not trends.spurious_caution:
+        return []
+    trending = [s.name for s in trends.series if s.verdict == "trending"]
+    return [Finding("caution", "trend",
+                    f"{cap(count(len(trending), 'analysed series'))} trend ({', '.join(trending)}): relations "
+                    "among trending series can appear without any real relation (spurious regression), so every "
+                    "relation on this page needs that caution.",
+                    trends.caution + " " + trends.rule,
+                    {"trending": trending, "in_levels": list(trends.trending_levels),
+                     "effective_rows": trends.effective_rows, "rows": trends.rows}, "trends")]
+
+
+def dataset_findings(*, full, plans, examined, identified, labels, trends=None, influence=None) -> list[Finding]:
     """All findings for one dataset, most important first.
 
     Parameters
@@ -335,6 +356,10 @@ def dataset_findings(*, full, plans, examined, identified, labels) -> list[Findi
         Identified quantities per examined corank.
     labels : tuple of str
         The variables' labels (the reader's names), in order.
+    trends : TrendReport, optional
+        :func:`relspan.analysis.trends.dataset_trends` (the trend caution).
+    influence : InfluenceReport, optional
+        :func:`relspan.analysis.influence.influence_report` (a single row or block deciding a finding).
     """
     result = _Evidence(full, tuple(plans), tuple(examined), identified, tuple(labels))
     out = []
@@ -342,6 +367,7 @@ def dataset_findings(*, full, plans, examined, identified, labels) -> list[Findi
     out += _subspace_findings(result)
     out += _coefficient_findings(result)
     out += _stability_findings(result)
+    out = _trend_findings(trends) + _influence_findings(influence) + out
     if result.full.elementary.singular:
         out.insert(0, Finding("pinned_down", "corank", "Some relations hold exactly in the data.",
                               result.full.elementary.singular_reason,

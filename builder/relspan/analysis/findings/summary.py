@@ -404,6 +404,11 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
             pinned_short = f"no relation among the {series} under equal noise" + (
                 " (other assumptions differ)" if others else "")
             open_short = "nothing further without a relation"
+    driven = [f for f in findings if f.kind == "influence"]
+    if driven:
+        pinned += (" This count rests on a single row or block of rows: leaving it out changes it (see the "
+                   "influence check).")
+        pinned_short += " (resting on a single row or block)"
     depends_rests: tuple = ()
     depends = why_assumptions_differ(full, labels)
     if depends:
