@@ -196,7 +196,44 @@ class WindowAnalysis:
             obj = getattr(self, key)
             if obj is not None and hasattr(obj, "to_dict"):
                 out[key] = obj.to_dict()
-        return jsonable(out)
+        return jsonable(label_scales(out, self))
+
+
+#: what each scale means, as results.json states it beside the numbers computed on it
+SCALE_WORDS = {
+    "correlation": ("correlation scale: each variable divided by this window's own standard deviation (ddof 1); "
+                    "eigenvalues, eps and noise variances are shares of each variable's variance"),
+    "as given": "the data's own units (after the spec's transforms)",
+}
+
+
+def label_scales(out: dict, analysis: "WindowAnalysis") -> dict:
+    """Label every method result in a window's JSON with the scale it was computed on.
+
+    The equal, shaped, bounded and diagonal analyses all run on the analysed
+    matrix (``scale``); their own ``scale`` field described the matrix they
+    were handed, so it is replaced here by the window's analysed scale. Noise
+    variances are also given in the data's units (``*_data_units``): variance
+    share times the variable's variance in the window.
+    """
+    var = np.diag(np.asarray(analysis.cov, dtype=float))
+    factor = var if analysis.scale == "correlation" else np.ones_like(var)
+    out["scale_words"] = SCALE_WORDS.get(analysis.scale, analysis.scale)
+    out["variances_data_units"] = var
+    for key in ("equal", "shaped", "bounded", "diagonal"):
+        doc = out.get(key)
+        if not isinstance(doc, dict):
+            continue
+        doc["scale"] = analysis.scale
+        doc["scale_words"] = SCALE_WORDS.get(analysis.scale, analysis.scale)
+        for entry in doc.get("coranks", ()) if key in ("equal", "shaped") else ():
+            if isinstance(entry, dict) and entry.get("noise_variances") is not None:
+                entry["noise_variances_data_units"] = np.asarray(entry["noise_variances"], float) * factor
+        if key == "diagonal":
+            for cert in (doc.get("corank") or {}).get("certificates", ()):
+                if isinstance(cert, dict) and cert.get("noise_variances") is not None:
+                    cert["noise_variances_data_units"] = np.asarray(cert["noise_variances"], float) * factor
+    return out
 
 
 def normalised_coefficients(relation: np.ndarray, ref: int) -> np.ndarray:

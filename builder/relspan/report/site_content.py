@@ -67,6 +67,8 @@ def dataset_document(result) -> dict:
         "identified": {str(q): i.to_dict() for q, i in sorted(result.identified.items())},
         "plans": plans,
         "findings": [f.to_dict() for f in result.findings],
+        "trends": None if getattr(result, "trends", None) is None else result.trends.to_dict(),
+        "influence": None if getattr(result, "influence", None) is None else result.influence.to_dict(),
     })
 
 

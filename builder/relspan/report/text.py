@@ -204,6 +204,34 @@ METHODS = (
      "at least 12 correct digits.",
      ("chan1979", "chan1983", "welford1962", "bjorck1996", "dekker1971", "knuth1997", "ogita2005",
       "ozaki2012")),
+    ("trends", "Trends and autocorrelation",
+     "Rows are in time order; each analysed series is tested for a trend on its own.",
+     [(r"$n_{\mathrm{eff}} = T\,(1 - r_i r_j)/(1 + r_i r_j)$",
+       "effective rows are T times one minus r i r j over one plus r i r j, with r the lag-1 "
+       "autocorrelations; the smallest pair is reported")],
+     "Each series gets the ADF test (null: a unit root; constant, lag order by AIC) and the KPSS test (null: "
+     "level stationarity; automatic bandwidth), both at 5%: stationary when ADF rejects and KPSS does not, "
+     "trending when KPSS rejects and ADF does not, otherwise cannot be judged. When two or more analysed "
+     "series trend, relations among their levels can appear without any real relation (spurious regression) "
+     "unless they are cointegrated, which is not tested: the dataset page says so and the build raises a "
+     "warning when they are analysed in levels (transform none or log; diff and logdiff analyse changes). "
+     "Differences are taken only between consecutive periods, so a gap in the time index drops the row "
+     "after it. For very large datasets the tests run on means of consecutive runs of rows (said on the "
+     "page).",
+     ("dickey1979", "kwiatkowski1992", "granger1974", "bartlett1946", "bretherton1999")),
+    ("influence", "Single rows and blocks of rows",
+     "No single row or block of rows should decide a finding; the check says when one does.",
+     [(r"$\min_{|H| = h}\ \det\,\mathrm{cov}(x_H),\quad h = \lfloor (T + n + 1)/2 \rfloor$",
+       "the minimum covariance determinant estimate uses the h rows whose covariance has the smallest "
+       "determinant")],
+     "The full-sample counts under equal, known-shape and bounded noise are decided again with each of up "
+     "to 20 contiguous blocks of rows left out, from the covariance of a robust fit (Minimum Covariance "
+     "Determinant by FAST-MCD: 500 random starts, concentration steps, consistency factor and reweighting at "
+     "the 97.5% chi-square quantile), and without the rows that fit flags as outlying (the most outlying "
+     "row alone first; then all flagged rows when they are at most 5% of the rows). A count that changes is "
+     "said to rest on that block, row or few rows. Independent noise is not re-run (its search is slow). The "
+     "robust fit needs single rows, so very large datasets, pooled into granules, get only the block check.",
+     ("rousseeuw1984", "rousseeuw1999")),
 )
 
 REFERENCES = {
@@ -275,4 +303,21 @@ REFERENCES = {
     "chan1983": "Chan, T. F., Golub, G. H. & LeVeque, R. J. (1983). Algorithms for computing the sample "
                 "variance: analysis and recommendations. *The American Statistician*, 37(3), 242–247.",
     "bjorck1996": "Björck, Å. (1996). *Numerical Methods for Least Squares Problems*. Philadelphia: SIAM.",
+    "dickey1979": "Dickey, D. A. & Fuller, W. A. (1979). Distribution of the estimators for autoregressive time "
+                  "series with a unit root. *Journal of the American Statistical Association*, 74(366), 427–431.",
+    "kwiatkowski1992": "Kwiatkowski, D., Phillips, P. C. B., Schmidt, P. & Shin, Y. (1992). Testing the null "
+                       "hypothesis of stationarity against the alternative of a unit root. *Journal of "
+                       "Econometrics*, 54(1–3), 159–178.",
+    "granger1974": "Granger, C. W. J. & Newbold, P. (1974). Spurious regressions in econometrics. *Journal of "
+                   "Econometrics*, 2(2), 111–120.",
+    "bartlett1946": "Bartlett, M. S. (1946). On the theoretical specification and sampling properties of "
+                    "autocorrelated time-series. *Journal of the Royal Statistical Society Supplement*, 8(1), "
+                    "27–41.",
+    "bretherton1999": "Bretherton, C. S., Widmann, M., Dymnikov, V. P., Wallace, J. M. & Bladé, I. (1999). The "
+                      "effective number of spatial degrees of freedom of a time-varying field. *Journal of "
+                      "Climate*, 12(7), 1990–2009.",
+    "rousseeuw1984": "Rousseeuw, P. J. (1984). Least median of squares regression. *Journal of the American "
+                     "Statistical Association*, 79(388), 871–880.",
+    "rousseeuw1999": "Rousseeuw, P. J. & Van Driessen, K. (1999). A fast algorithm for the minimum covariance "
+                     "determinant estimator. *Technometrics*, 41(3), 212–223.",
 }

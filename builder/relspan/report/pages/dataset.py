@@ -5,6 +5,7 @@ from __future__ import annotations
 from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.report.pages.addresses import HOME, csv_path, dataset_path, plan_anchor, window_path
 from relspan.report.pages.claims import claims_table
+from relspan.report.pages.diagnostics import effective_rows_text, influence_section, trend_caution, trend_section
 from relspan.report.pages.publisher import Publisher
 from relspan.report.pages.tables import table
 from relspan.report.text import ASSUMPTION_PLAIN, CAUTION_LINK, USUAL_CAUTIONS
@@ -36,6 +37,9 @@ def _data_summary(result, pub: Publisher) -> str:
     rows = [("Source file", code(ds.source)),
             ("Rows read", str(p.rows_read)),
             ("Rows analysed", str(p.rows_used))]
+    eff = effective_rows_text(result)
+    if eff:
+        rows.append(("Effective rows", md("{} ([trends](#trends))", eff)))
     if p.period:
         rows.append(("Period", f"{p.period[0]} to {p.period[1]}"))
     if p.rows_outside_range:
@@ -230,6 +234,7 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     if sm.single_coefficient or any(f.single_coefficient for f in result.findings):
         body.append(_single_coefficient_note())
     body.append(_numerical_notes(result))
+    body.append(trend_caution(result))
     body.append(blocks.details(
         "Every finding, one line each",
         bullets(md("**{}:** {} ([evidence](#{}))", f.kind_words, f.headline, Raw(f.evidence))
@@ -241,6 +246,7 @@ def dataset_page(run, result, pub: Publisher) -> Page:
                            Raw("The analysed series, each standardised (0 is its average, 1 is one standard "
                                "deviation), with the windows of each plan below."),
                            ident="overview", dataset_key=key))
+    body.append(trend_section(result, pub))
     body.append(Raw("## The noise assumptions side by side {#assumptions}\n"))
     body.append(Raw(f"Each row answers the same question under a different assumption about the measurement "
                     f"error. Full sample, {full.count} rows; tolerance: {sm.pinned.tolerance.words}. "
@@ -259,18 +265,24 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     line = f"Relations in the full sample \u2014 {counts}."
     if full.equal is not None:
         ev = full.equal.eigenvalues
-        line += (f" The smallest eigenvalues are {', '.join(fmt(v) for v in ev[:min(3, len(ev))])} against the "
-                 f"tolerance {full.eps:g}; each one at or below it is room for one relation.")
+        where = ("of the full-sample correlation matrix (each variable divided by its standard deviation)"
+                 if full.scale == "correlation" else "of the full-sample covariance (the data's units)")
+        line += (f" The smallest eigenvalues {where} are {', '.join(fmt(v) for v in ev[:min(3, len(ev))])} "
+                 f"against the tolerance {full.eps:g} on the same scale; each one at or below it is room for one "
+                 "relation under bounded noise.")
     body.append(md("{}\n", line))
     body.append(md("Relations examined in the rest of this page: {} ({}).\n",
                    Raw(", ".join(str(q) for q in result.examined) or "none"), result.examined_from))
     body.append(pub.figure(ff.spectrum_figure, (result, full, f"{ds.id}-spectrum"), folder,
-                           Raw("Eigenvalues of the full-sample covariance (how much the data vary in each "
+                           Raw(("Eigenvalues of the full-sample correlation matrix" if full.scale == "correlation"
+                                else "Eigenvalues of the full-sample covariance (the data's units)")
+                               + " (how much the data vary in each "
                                "independent direction) against the tolerance: every eigenvalue below the line is "
                                "room for one more relation."), ident="spectrum", dataset_key=key))
     if full.diagonal is not None:
         body.append(blocks.details("Independent noise (Frisch scheme): the corank search",
                                    full.diagonal.corank.summary))
+    body.append(influence_section(result))
     body.append(Raw("## What the data identify {#identified}\n"))
     body.append(_identified_section(result, pub))
     body.append(Raw(f"\n{CAUTION_LINK}.\n"))
