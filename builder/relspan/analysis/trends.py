@@ -174,7 +174,8 @@ def series_diagnostics(x, *, names: Sequence[str], alpha: float = 0.05) -> Trend
     References
     ----------
     .. [1] D. A. Dickey and W. A. Fuller, JASA 74(366), 427-431, 1979.
-    .. [2] D. Kwiatkowski et al., Journal of Econometrics 54(1-3), 159-178, 1992.
+    .. [2] D. Kwiatkowski, P. C. B. Phillips, P. Schmidt and Y. Shin, Journal of Econometrics 54(1-3),
+           159-178, 1992.
     .. [3] C. W. J. Granger and P. Newbold, Journal of Econometrics 2(2), 111-120, 1974.
     """
     from statsmodels.tools.sm_exceptions import InterpolationWarning

@@ -1,0 +1,184 @@
+"""Trends and influence wired through the pipeline: findings, page words, warnings, ``check --strict``.
+
+Outside data: statsmodels' shipped US quarterly macro data (``statsmodels.datasets.macrodata``,
+1959Q1-2009Q3). Outside reference for the robust fit: scikit-learn's ``MinCovDet``.
+"""
+
+from __future__ import annotations
+
+import textwrap
+import warnings
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from relspan.cli import main
+from relspan.errors import InfluenceWarning, TrendWarning
+
+
+def _macro_csv(path):
+    from statsmodels.datasets import macrodata  # open dataset shipped with statsmodels
+
+    d = macrodata.load_pandas().data
+    out = pd.DataFrame({"quarter": [f"{int(y)}Q{int(q)}" for y, q in zip(d["year"], d["quarter"])],
+                        "gdp": d["realgdp"], "cons": d["realcons"], "inv": d["realinv"]})
+    out.to_csv(path, index=False)
+    return out
+
+
+def _spec(folder, transform: str, csv: str = "macro.csv") -> str:
+    text = textwrap.dedent(f"""\
+        relspan: 1
+        report:
+          title: "US macro (statsmodels' macrodata)"
+        datasets:
+          - id: macro
+            title: "US real GDP, consumption and investment"
+            source: {csv}
+            format: csv
+            time: {{column: quarter, format: quarter}}
+            variables:
+              - {{column: gdp, label: "Real GDP", transform: {transform}}}
+              - {{column: cons, label: "Real consumption", transform: {transform}}}
+              - {{column: inv, label: "Real investment", transform: {transform}}}
+            missing: fail
+            plans: [full]
+            checks:
+              assumptions: [elementary, equal, bounded]
+        windows:
+          - {{id: full, kind: full, title: "Full sample"}}
+        """)
+    path = folder / f"macro-{transform}.yaml"
+    path.write_text(text, encoding="utf-8")
+    return str(path)
+
+
+def _run(spec_path):
+    from relspan.run.pipeline import run_analysis
+    from relspan.spec import load_spec
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        run = run_analysis(load_spec(spec_path), jobs=1, use_cache=False, write_cache=False, progress=False)
+    return run, [w.message for w in caught]
+
+
+class TestTrendsOnMacroData:
+    def test_log_levels_raise_the_caution_finding_and_a_warning(self, tmp_path):
+        _macro_csv(tmp_path / "macro.csv")
+        run, raised = _run(_spec(tmp_path, "log"))
+        res = run.dataset("macro")
+        assert res.trends is not None and res.trends.spurious_caution
+        assert len(res.trends.trending_levels) >= 2
+        assert any(f.kind == "caution" and f.topic == "trend" for f in res.findings)
+        assert any(isinstance(w, TrendWarning) and w.dataset == "macro" for w in raised)
+
+    def test_growth_rates_raise_no_caution(self, tmp_path):
+        _macro_csv(tmp_path / "macro.csv")
+        run, raised = _run(_spec(tmp_path, "logdiff"))
+        res = run.dataset("macro")
+        assert res.trends is not None and not res.trends.spurious_caution
+        assert not any(isinstance(w, TrendWarning) for w in raised)
+        assert not any(f.topic == "trend" for f in res.findings)
+
+    def test_check_strict_exits_1_on_trending_levels(self, tmp_path, capsys):
+        _macro_csv(tmp_path / "macro.csv")
+        assert main(["check", _spec(tmp_path, "log"), "--strict", "--no-cache"]) == 1
+        assert "Granger & Newbold 1974" in capsys.readouterr().err
+
+    def test_effective_rows_are_shown_beside_t_on_the_page(self, tmp_path):
+        from relspan.report.pages.diagnostics import effective_rows_text, trend_section
+
+        _macro_csv(tmp_path / "macro.csv")
+        run, _ = _run(_spec(tmp_path, "log"))
+        res = run.dataset("macro")
+        words = effective_rows_text(res)
+        assert f"of the {res.prepared.rows_used} tested" in words
+        assert res.trends.effective_rows < res.prepared.rows_used / 4  # log levels: lag-1 near 1
+
+
+class TestDifferencesAcrossGaps:
+    def test_logdiff_drops_the_row_after_a_gap_and_the_trend_source_says_so(self, tmp_path):
+        d = _macro_csv(tmp_path / "full.csv")
+        gappy = d.drop(index=range(40, 44))  # 1969 missing
+        gappy.to_csv(tmp_path / "gappy.csv", index=False)
+        run, _ = _run(_spec(tmp_path, "logdiff", csv="gappy.csv"))
+        res = run.dataset("macro")
+        # 203 rows, 4 removed, the first row has no previous one, the row after the gap is dropped
+        assert res.prepared.rows_used == 203 - 4 - 1 - 1
+        assert "gaps in the time index" in res.trends.source
+        # the difference across the gap is not formed: the analysed growth rates are those of the full
+        # data minus the rows that would span 1969
+        full_growth = np.diff(np.log(d["gdp"].to_numpy()))
+        keep = np.ones(full_growth.size, dtype=bool)
+        keep[39:44] = False  # growth into 1969Q1..Q4 and into 1970Q1 (across the gap)
+        assert res.full.count == keep.sum()
+
+
+def _outlier_frame(t: int = 300, seed: int = 1, outlier: bool = True) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
+    z = rng.standard_normal((t, 2))
+    y = z[:, 0] + z[:, 1] + 0.2 * rng.standard_normal(t)
+    x = np.column_stack([y, z])
+    if outlier:
+        x[150] = [300.0, -300.0, 300.0]  # one gross error (a typing slip of a few digits)
+    return pd.DataFrame(x, columns=["y", "a", "b"])
+
+
+class TestInfluence:
+    def test_fast_mcd_matches_scikit_learn_on_contaminated_rows(self):
+        sk = pytest.importorskip("sklearn.covariance")  # reference library: scikit-learn MinCovDet
+        from relspan.analysis.influence import fast_mcd
+
+        rng = np.random.default_rng(4)
+        x = rng.multivariate_normal([0, 0, 0], [[1, .6, .3], [.6, 1, .2], [.3, .2, 1]], size=400)
+        x[:40] += [8.0, -8.0, 6.0]  # 10% contamination
+        ours = fast_mcd(x, rng=np.random.default_rng(0))
+        ref = sk.MinCovDet(random_state=0).fit(x)
+        det = lambda s: np.linalg.det(np.cov(x[s].T, ddof=0))  # noqa: E731  the MCD objective
+        assert ours.support.sum() == ref.raw_support_.sum()  # the same h
+        assert det(ours.support) <= det(ref.raw_support_) * (1 + 1e-9)  # an h-subset at least as good
+        jaccard = np.sum(ours.support & ref.raw_support_) / np.sum(ours.support | ref.raw_support_)
+        assert jaccard > 0.85
+        # after reweighting both keep the same rows and agree closely
+        assert np.sum(~ours.flagged & ref.support_) / np.sum(~ours.flagged | ref.support_) > 0.97
+        np.testing.assert_allclose(ours.location, ref.location_, atol=0.05)
+        np.testing.assert_allclose(ours.covariance, ref.covariance_, atol=0.15)
+        assert set(np.flatnonzero(ours.flagged)) >= set(range(40))
+
+    def test_one_gross_outlier_in_300_rows_is_named_as_deciding_the_count(self):
+        from relspan.api import analyse_frame
+
+        res = analyse_frame(_outlier_frame(), columns=["y", "a", "b"]).result
+        clean = analyse_frame(_outlier_frame(outlier=False), columns=["y", "a", "b"]).result
+        assert res.full.coranks["equal"] != clean.full.coranks["equal"], "the outlier must flip the count"
+        driven = [f for f in res.findings if f.kind == "influence"]
+        assert any("single row" in f.headline and "row 151" in f.headline for f in driven)
+        assert any("rows 151 to 165" in f.headline for f in driven)
+        assert "rests on a single row or block" in res.summary.pinned.text
+        assert res.influence.robust_coranks["equal"] == clean.full.coranks["equal"]
+        assert not [f for f in clean.findings if f.kind == "influence"]
+        assert clean.influence.sentence.startswith("Leaving out any one of 20 blocks")
+
+    def test_the_build_warns_when_one_row_decides(self, tmp_path):
+        _outlier_frame().assign(quarter=[f"{1900 + i // 4}Q{i % 4 + 1}" for i in range(300)]).to_csv(
+            tmp_path / "o.csv", index=False)
+        (tmp_path / "o.yaml").write_text(textwrap.dedent("""\
+            relspan: 1
+            report: {title: "One outlier"}
+            datasets:
+              - id: o
+                title: "Three series, one gross error"
+                source: o.csv
+                format: csv
+                time: {column: quarter, format: quarter}
+                variables: [{column: y}, {column: a}, {column: b}]
+                missing: fail
+                plans: [full]
+                checks: {assumptions: [elementary, equal, bounded]}
+            windows:
+              - {id: full, kind: full, title: "Full sample"}
+            """), encoding="utf-8")
+        _, raised = _run(str(tmp_path / "o.yaml"))
+        assert any(isinstance(w, InfluenceWarning) and "row 151" in str(w) for w in raised)
