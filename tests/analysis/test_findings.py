@@ -160,6 +160,16 @@ class TestOverclaims:
         assert any("not settled in 1 of" in f.headline for f in findings)
 
 
+def test_a_count_chosen_in_the_spec_is_not_stated_as_found():
+    # one true relation; the spec asks to examine two (checks.coranks)
+    res = _result(_one_relation(), coranks=[2])
+    assert res.examined == (2,) and res.full.coranks["equal"] == 1
+    pinned = res.summary.pinned
+    assert "two relations tie" not in pinned.text.lower()
+    assert "the spec asks for two relations" in pinned.text.lower()
+    assert "not found by any assumption" in pinned.short
+
+
 class TestDigits:
     def test_a_narrow_range_never_prints_as_the_same_number_twice(self):
         from relspan.words import digits_for, fmt_range, num_range
