@@ -218,6 +218,13 @@ class TestDemo:
         assert "Under equal noise" in trio.summary.pinned.text
         assert "whatever form the noise takes" not in trio.summary.pinned.text
 
+    def test_trio_search_keeps_ledermanns_caution_past_the_bound_and_says_approximately(self, demo):
+        trio = demo.dataset("trio")
+        assert trio.full.coranks["diagonal"] > trio.full.diagonal.corank.ledermann
+        text = trio.summary.diagonal_search
+        assert "Ledermann's bound" in text and "approximately" in text
+        assert "exact linear relation" not in text
+
     def test_accounts_count_does_not_change_across_windows(self, demo):
         # true corank 1 throughout (specs/data/truth.json); undetermined windows are not a change
         acc = demo.dataset("accounts")

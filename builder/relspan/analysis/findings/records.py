@@ -235,6 +235,9 @@ class DatasetSummary:
     relation_track : frozenset of str
         Plans whose windows each support exactly one equal-noise relation
         (their table of per-window relations is shown).
+    diagonal_search : str
+        The independent-noise corank search in words (what is certified within
+        the tolerance, and Ledermann's caution); "" when not run.
     """
 
     pinned: Statement
@@ -248,3 +251,4 @@ class DatasetSummary:
     plans: dict
     windows: dict
     relation_track: frozenset = frozenset()
+    diagonal_search: str = ""

@@ -16,7 +16,8 @@ from relspan.analysis.stability import principal_angles
 from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.words import cap, count, fmt, fmt_range, join_words
 
-__all__ = ["dataset_summary", "why_assumptions_differ", "assumption_rows", "PURE_NOISE_SHARE"]
+__all__ = ["dataset_summary", "why_assumptions_differ", "assumption_rows", "frisch_search_words",
+           "PURE_NOISE_SHARE"]
 
 #: a noise share at or above this is read as "almost all of the variable's variance is noise"
 PURE_NOISE_SHARE = 0.9
@@ -133,6 +134,49 @@ def why_assumptions_differ(full, labels) -> str:
         return text
     return (f"Equal noise finds {rel(eq)}, independent noise only {rel(dg)}: the independent-noise check "
             "could not fit the larger number with non-negative error variances within the tolerance.")
+
+
+def frisch_search_words(full) -> str:
+    """The independent-noise corank search in words ("" when not run): what is certified, how, and its caution.
+
+    Certificates hold within the tolerance (S - D has q eigenvalues within eps of zero), so the relations
+    they certify fit approximately, not exactly; Ledermann's caution is kept when the count exceeds the bound.
+    """
+    fr = full.diagonal
+    if fr is None:
+        return ""
+    corank = fr.corank
+    n = full.n
+    tol = Tolerance.of(full)
+    certs = corank.certificates
+    best = max((c.q for c in certs if c.status == "certified"), default=0)
+    ruled = [c.q for c in certs if c.status == "ruled out"]
+    und = [c.q for c in certs if c.status == "undetermined"]
+    led = corank.ledermann
+    if best:
+        parts = [f"Under independent noise of unknown variances (Frisch scheme), up to {count(best, 'linear relation')} "
+                 f"{'fit' if best > 1 else 'fits'} these {n} variables within {tol.short}: approximately, not "
+                 f"exactly (after removing the certified noise variances, {best} eigenvalue{'s' if best > 1 else ''} "
+                 f"of the remainder {'lie' if best > 1 else 'lies'} within the tolerance of zero)."]
+    else:
+        parts = [f"Under independent noise of unknown variances (Frisch scheme), no linear relation could be "
+                 f"shown to fit these {n} variables within {tol.short}."]
+    if ruled:
+        parts.append(f"{min(ruled)} or more relations are ruled out.")
+    if und:
+        parts.append("Not settled at this tolerance: " + join_words([str(q) for q in und]) + " relations.")
+    if best == 1:
+        parts.append("One relation is always reachable under this assumption (take every noise variance equal to "
+                     "the smallest eigenvalue), so a count of one is no evidence of a relation.")
+    if best and best <= led:
+        parts.append(f"Caution: with {n} variables, up to {count(led, 'relation')} of this kind can appear from "
+                     "sampling noise alone (Ledermann's bound), so this count is not by itself evidence of real "
+                     "relations.")
+    elif best:
+        parts.append(f"Caution: with {n} variables, sampling noise alone can produce up to {count(led, 'relation')} "
+                     f"of this kind exactly (Ledermann's bound); the {count(best, 'relation')} found here exceed "
+                     "it only approximately, within the tolerance, so this count too is weak evidence.")
+    return " ".join(parts)
 
 
 # ------------------------------------------------------------------------- assumption rows
@@ -437,11 +481,12 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
     moving = [f for f in findings if f.kind == "unstable" and f.topic == "stability"]
     if swings and stab and not moving:
         worst = max(st.max_to_reference_deg for _, st in stab)
-        unstable = (f"Single weights swing between windows of time, some even change sign, while the "
-                    f"relations as a set stay within {worst:.2g} degrees. With several relations this is "
-                    "expected and is no evidence that the relation changed." if q and q >= 2 else
-                    f"Single weights swing between windows of time while the relation stays within "
-                    f"{worst:.2g} degrees.")
+        unstable = (f"Single least-squares weights swing between windows of time, some even change sign, while "
+                    f"the relations as a set found under equal noise ({tol.short}) stay within {worst:.2g} "
+                    "degrees of the full sample's. With several relations this is expected and is no evidence "
+                    "that the relation changed." if q and q >= 2 else
+                    f"Single least-squares weights swing between windows of time while the relation found under "
+                    f"equal noise ({tol.short}) stays within {worst:.2g} degrees of the full sample's.")
         unstable_ev = swings[0].evidence
         single = True
     elif moving:
@@ -470,4 +515,5 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         plans={p.plan.id: _plan_sentences(p, examined) for p in plans},
         windows={p.plan.id: _window_readings(p, examined, labels) for p in plans},
         relation_track=frozenset(p.plan.id for p in plans if _one_relation_each(p)),
+        diagonal_search=frisch_search_words(full),
     )

@@ -281,7 +281,7 @@ def dataset_page(run, result, pub: Publisher) -> Page:
                                "room for one more relation."), ident="spectrum", dataset_key=key))
     if full.diagonal is not None:
         body.append(blocks.details("Independent noise (Frisch scheme): the corank search",
-                                   full.diagonal.corank.summary))
+                                   getattr(sm, "diagonal_search", "") or full.diagonal.corank.summary))
     body.append(influence_section(result))
     body.append(Raw("## What the data identify {#identified}\n"))
     body.append(_identified_section(result, pub))
