@@ -412,7 +412,8 @@ def influence_report(stats, *, decide: Callable, full: Mapping[str, int | None],
             if flagged_rows and without is None:
                 flags += f"; more than {100 * FEW_ROWS_SHARE:g}% of the rows, so not a few rows"
             same = robust_c == dict(full)
-            parts.append(f"a robust covariance (MCD) gives {'the same counts' if same else words(robust_c)}"
+            parts.append(f"a robust covariance (MCD, fitted to the most concentrated half of the rows and "
+                         f"reweighted) gives {'the same counts' if same else words(robust_c)}"
                          + ("" if same else f" (all rows: {words(full)})") + f", with {flags}")
         sentence = (cap("; ".join(parts)) + ".") if parts else "The influence of single rows cannot be judged: too few rows."
     if robust:

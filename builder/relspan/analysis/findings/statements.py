@@ -54,9 +54,9 @@ def corank_words(a: str, q) -> str:
     if q == 0:
         return f"{name}: 0"
     if no_evidence(a, q):
-        return f"{name}: {q} (always reachable under this assumption, so no evidence)"
+        return f"{name}: {q}, always reachable under this assumption and so no evidence"
     if a == "bounded":
-        return f"{name}: {q} (admissible, not shown to hold)"
+        return f"{name}: {q}, admissible, not shown to hold"
     return f"{name}: {q}"
 
 

@@ -289,9 +289,15 @@ def _window_plain(plan, i: int, a, w, q) -> str:
     for key in ("equal", "shaped", "bounded", "diagonal"):
         if key in a.coranks:
             c = a.coranks[key]
-            words.append(f"{assumption(key).title.lower()}: " + ("not settled" if c is None else count(c, "relation")))
+            said = "not settled" if c is None else count(c, "relation")
+            if key == "bounded" and c:
+                said += " admissible"
+            if key == "diagonal" and c == 1:
+                said += " (always reachable under this assumption, so no evidence)"
+            words.append(f"{assumption(key).title.lower()}: {said}")
     span = f"{w.first_time} to {w.last_time}, " if w.first_time is not None else ""
-    text = f"This window covers {span}{w.rows} rows. Relations found \u2014 " + "; ".join(words) + "."
+    text = (f"This window covers {span}{w.rows} rows. Relations found at {Tolerance.of(a).short} \u2014 "
+            + "; ".join(words) + ".")
     if q is not None and ("equal", q) in plan.stability:
         stab = plan.stability[("equal", q)]
         what = "relation" if q == 1 else "set of relations"
