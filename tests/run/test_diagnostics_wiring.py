@@ -182,3 +182,88 @@ class TestInfluence:
             """), encoding="utf-8")
         _, raised = _run(str(tmp_path / "o.yaml"))
         assert any(isinstance(w, InfluenceWarning) and "row 151" in str(w) for w in raised)
+
+
+class TestDetrend:
+    """``transform: detrend`` removes the least-squares line in time, fitted on the time values (gaps included)."""
+
+    @staticmethod
+    def _data(seed: int = 2, t: int = 120):
+        rng = np.random.default_rng(seed)
+        period = np.arange(t)
+        e = np.zeros((t, 2))
+        for i in range(1, t):  # stationary AR(1) deviations around straight lines
+            e[i] = 0.5 * e[i - 1] + rng.standard_normal(2)
+        x = 10 + 0.8 * period + e[:, 0]
+        y = 5 + 0.5 * period + 0.6 * e[:, 0] + 0.8 * e[:, 1]
+        q = [f"{1980 + p // 4}Q{p % 4 + 1}" for p in period]
+        return pd.DataFrame({"quarter": q, "x": x, "y": y}), period
+
+    def _spec(self, folder, csv, transform):
+        text = textwrap.dedent(f"""\
+            relspan: 1
+            report: {{title: "Trends"}}
+            datasets:
+              - id: tr
+                title: "Two series on straight lines"
+                source: {csv}
+                format: csv
+                time: {{column: quarter, format: quarter}}
+                variables: [{{column: x, transform: {transform}}}, {{column: y, transform: {transform}}}]
+                missing: fail
+                plans: [full]
+                checks: {{assumptions: [elementary, equal, bounded]}}
+            windows:
+              - {{id: full, kind: full, title: "Full sample"}}
+            """)
+        path = folder / f"tr-{transform}.yaml"
+        path.write_text(text, encoding="utf-8")
+        return str(path)
+
+    def test_detrend_across_a_gap_matches_numpy_residuals_on_the_time_values(self, tmp_path):
+        df, period = self._data()
+        drop = np.arange(40, 48)  # two years missing
+        keep = np.setdiff1d(np.arange(len(df)), drop)
+        df.iloc[keep].to_csv(tmp_path / "gappy.csv", index=False)
+        run, _ = _run(self._spec(tmp_path, "gappy.csv", "detrend"))
+        res = run.dataset("tr")
+        t = period[keep].astype(float)
+        resid = []
+        for col in ("x", "y"):
+            b, a = np.polyfit(t, df[col].to_numpy()[keep], 1)  # reference: numpy least-squares line
+            resid.append(df[col].to_numpy()[keep] - (a + b * t))
+        ref = np.cov(np.column_stack(resid), rowvar=False)
+        assert res.full.count == keep.size  # no row dropped at the gap: detrending needs no previous row
+        np.testing.assert_allclose(res.full.cov, ref, rtol=1e-9)
+        # against the row index instead of the time values, the answer would differ
+        idx = np.arange(keep.size, dtype=float)
+        wrong = np.cov(np.column_stack([df[c].to_numpy()[keep] - np.polyval(np.polyfit(idx, df[c].to_numpy()[keep], 1), idx)
+                                        for c in ("x", "y")]), rowvar=False)
+        assert not np.allclose(res.full.cov, wrong, rtol=1e-6)
+
+    def test_levels_on_lines_raise_the_caution_and_detrended_series_do_not(self, tmp_path):
+        df, _ = self._data()
+        df.to_csv(tmp_path / "tr.csv", index=False)
+        run, raised = _run(self._spec(tmp_path, "tr.csv", "none"))
+        assert run.dataset("tr").trends.spurious_caution
+        assert any(isinstance(w, TrendWarning) for w in raised)
+        run, raised = _run(self._spec(tmp_path, "tr.csv", "detrend"))
+        assert not run.dataset("tr").trends.spurious_caution
+        assert not any(isinstance(w, TrendWarning) for w in raised)
+
+    def test_detrend_without_a_time_column_is_refused(self):
+        from relspan.api import analyse_frame
+        from relspan.errors import DataError
+
+        df, _ = self._data()
+        with pytest.raises(DataError, match="detrend .* no time column"):
+            analyse_frame(df.drop(columns="quarter"), columns=["x", "y"], transforms=["detrend", "detrend"])
+
+    def test_detrend_in_a_data_frame_matches_the_file_path(self, tmp_path):
+        from relspan.api import analyse_frame
+
+        df, _ = self._data()
+        df.to_csv(tmp_path / "tr.csv", index=False)
+        run, _ = _run(self._spec(tmp_path, "tr.csv", "detrend"))
+        frame = analyse_frame(df, columns=["x", "y"], time="quarter", transforms=["detrend", "detrend"]).result
+        np.testing.assert_allclose(frame.full.cov, run.dataset("tr").full.cov, rtol=1e-12)

@@ -58,7 +58,7 @@ __all__ = ["SeriesDiagnostic", "TrendReport", "series_diagnostics", "effective_s
            "lag1_autocorrelation", "VERDICTS", "dataset_trends", "LEVEL_TRANSFORMS", "MIN_ROWS"]
 
 #: transforms that leave a series in levels (a trend in the data stays a trend in what is analysed)
-LEVEL_TRANSFORMS = ("none", "log")
+LEVEL_TRANSFORMS = ("none", "log", "demean", "standardise")
 #: fewest time-ordered points the tests are run on
 MIN_ROWS = 12
 
@@ -215,7 +215,8 @@ def series_diagnostics(x, *, names: Sequence[str], alpha: float = 0.05) -> Trend
         caution = (f"{', '.join(trending)} trend (ADF does not reject a unit root and KPSS rejects level "
                    f"stationarity, each at {alpha:g}): relations among the levels of trending series can "
                    "appear without any real relation (Granger & Newbold 1974) unless the series are "
-                   "cointegrated, which is not tested here. Analyse differences or growth rates, or read "
+                   "cointegrated, which is not tested here. Analyse differences, growth rates or detrended "
+                   "series, or read "
                    "these relations with that caution.")
     rule = (f"ADF (constant, lag by AIC) and KPSS (level, automatic bandwidth) at {alpha:g}: stationary when "
             "ADF rejects and KPSS does not, trending when KPSS rejects and ADF does not, otherwise cannot be "

@@ -37,7 +37,7 @@ from relspan.data.sources import (ENGINES, FastPathDeclined, RawChunk, TableRead
                                   time_text)
 from relspan.data.timeindex import (OrderCheck, TimeFormat, format_times, parse_bound,
                                     parse_times, resolve_format)
-from relspan.data.transforms import (MISSING_POLICIES, ROW_TRANSFORMS, SAMPLE_TRANSFORMS, Drop,
+from relspan.data.transforms import (MISSING_POLICIES, ROW_TRANSFORMS, SAMPLE_TRANSFORMS, Drop, TrendFit,
                                      StreamTransform, affine_for, affine_moments, affine_stacked, check_variation,
                                      check_window_variation)
 from relspan.data.windows import Grid, Window, WindowTable, plan_grid, plan_windows
@@ -417,7 +417,8 @@ class _Pass:
     """State of one streaming pass over a table."""
 
     def __init__(self, *, dataset_id: str, names: Sequence[str], transforms: Sequence[str],
-                 missing: str, path: str | None, time: TimeSpec | None, grid: Grid) -> None:
+                 missing: str, path: str | None, time: TimeSpec | None, grid: Grid,
+                 trend=None, fit_trend: bool = False) -> None:
         self.dataset_id = dataset_id
         self.names = tuple(names)
         self.transforms = tuple(transforms)
@@ -426,7 +427,8 @@ class _Pass:
         self.grid = grid
         n = len(self.names)
         self.stream = StreamTransform(self.names, self.transforms, missing=missing, path=path,
-                                      time_column=None if time is None else time.column)
+                                      time_column=None if time is None else time.column, trend=trend)
+        self.trend_fit = TrendFit(n) if fit_trend else None
         self.fmt: TimeFormat | None = None
         self.order: OrderCheck | None = None
         self.t0: np.datetime64 | None = None
@@ -496,6 +498,18 @@ class _Pass:
         out[ok] = np.floor_divide(t[ok].astype("datetime64[M]").astype(np.int64), months)
         return out
 
+    @staticmethod
+    def _tnum(t: np.ndarray | None, periods: np.ndarray | None) -> np.ndarray | None:
+        """Numeric time of each row for ``detrend``: period number (years, quarters, months) or days."""
+        if t is None:
+            return None
+        if periods is not None:
+            return periods.astype(float)
+        out = np.full(t.size, np.nan)
+        ok = ~np.isnat(t)
+        out[ok] = t[ok].astype("datetime64[s]").astype(np.int64) / 86400.0
+        return out
+
     def feed(self, chunk: RawChunk) -> None:
         values, rows = chunk.values, chunk.rows
         t = None
@@ -513,10 +527,13 @@ class _Pass:
                 self.rows_outside += int((~inside).sum())
                 if not inside.all():
                     values, rows, t = values[inside], rows[inside], t[inside]
-        y, keep = self.stream.apply(values, rows, None if t is None else np.isnat(t),
-                                    self._periods(t))
+        periods = self._periods(t)
+        tnum = self._tnum(t, periods)
+        y, keep = self.stream.apply(values, rows, None if t is None else np.isnat(t), periods, tnum)
         if y.shape[0] == 0:
             return
+        if self.trend_fit is not None:
+            self.trend_fit.push(tnum[keep], y)
         src = rows[keep]
         tk = None if t is None else t[keep]
         if tk is not None and self.t0 is None:
@@ -651,6 +668,12 @@ def _check_setup(dataset_id: str, names: Sequence[str], transforms: Sequence[str
                             f"{', '.join(ROW_TRANSFORMS + SAMPLE_TRANSFORMS)}.", path=path,
                             key=f"variables[{j}].transform", got=t,
                             fix="use one of those transforms.")
+    if time is None and "detrend" in transforms:
+        j = list(transforms).index("detrend")
+        raise DataError(f"transform detrend of column {names[j]!r} removes a straight line in time, but "
+                        f"dataset {dataset_id!r} has no time column.", path=path,
+                        key=f"variables[{j}].transform", got="detrend",
+                        fix="add time: {column: ..., format: ...} to the dataset, or use transform: diff.")
     if missing not in MISSING_POLICIES:
         raise DataError(f"missing {missing!r} is not drop or fail.", path=path, key="missing",
                         got=missing, fix="set missing: drop or missing: fail.")
@@ -712,11 +735,26 @@ def prepare_dataset(ds: DatasetSpec, plans: Sequence[WindowPlanSpec], *,
     return _one_pass(ds, src, names, transforms, grid, plans, chunk_rows, "pandas")
 
 
+def _fit_trend(ds, src, names, transforms, grid, chunk_rows, engine):
+    """The first pass of ``detrend``: the least-squares line in time of each analysed column."""
+    reader = TableReader(src, names, time_column=None if ds.time is None else ds.time.column,
+                         chunk_rows=chunk_rows, engine=engine)
+    plain = tuple("none" if t == "detrend" else t for t in transforms)
+    run = _Pass(dataset_id=ds.id, names=names, transforms=plain, missing=ds.missing, path=ds.source,
+                time=ds.time, grid=grid, fit_trend=True)
+    with noted(src):
+        for chunk in reader.chunks():
+            run.feed(chunk)
+    return run.trend_fit.line()
+
+
 def _one_pass(ds, src, names, transforms, grid, plans, chunk_rows, engine) -> PreparedDataset:
+    trend = (_fit_trend(ds, src, names, transforms, grid, chunk_rows, engine)
+             if "detrend" in transforms else None)
     reader = TableReader(src, names, time_column=None if ds.time is None else ds.time.column,
                          chunk_rows=chunk_rows, engine=engine)
     run = _Pass(dataset_id=ds.id, names=names, transforms=transforms, missing=ds.missing,
-                path=ds.source, time=ds.time, grid=grid)
+                path=ds.source, time=ds.time, grid=grid, trend=trend)
     with noted(src):
         for chunk in reader.chunks():
             run.feed(chunk)
@@ -786,26 +824,42 @@ def prepare_frame(df: pd.DataFrame, *, columns: Sequence[str], time: str | TimeS
     keys = [f"columns[{j}]" for j in range(len(columns))] + (["time"] if ts else [])
     positions = select_columns(fake, wanted, keys)
     grid = plan_grid(plans, has_time=ts is not None, dataset_id=dataset_id, path=path)
-    run = _Pass(dataset_id=dataset_id, names=columns, transforms=tr, missing=missing, path=path,
-                time=ts, grid=grid)
     h = hashlib.sha256()
     total = len(df)
-    for a in range(0, total, max(int(chunk_rows), 1)):
-        part = df.iloc[a:a + chunk_rows, positions]
-        rows = np.arange(a + 1, a + part.shape[0] + 1, dtype=np.int64)
-        values = numeric_block(part.iloc[:, :len(columns)], columns, rows, path=path)
-        h.update(np.ascontiguousarray(values).tobytes())
-        times, typed = None, False
-        if ts is not None:
-            tcol = part.iloc[:, len(columns)]
-            if pd.api.types.is_datetime64_any_dtype(tcol.dtype):
-                if getattr(tcol.dt, "tz", None) is not None:
-                    tcol = tcol.dt.tz_convert("UTC").dt.tz_localize(None)
-                times, typed = tcol.to_numpy().astype("datetime64[s]"), True
-                h.update(times.astype(np.int64).tobytes())
-            else:
-                times = time_text(tcol)
-                h.update("\x1f".join("" if v is None else v for v in times).encode())
-        run.feed(RawChunk(values, times, typed, rows))
+
+    def chunks(hashing: bool):
+        for a in range(0, total, max(int(chunk_rows), 1)):
+            part = df.iloc[a:a + chunk_rows, positions]
+            rows = np.arange(a + 1, a + part.shape[0] + 1, dtype=np.int64)
+            values = numeric_block(part.iloc[:, :len(columns)], columns, rows, path=path)
+            if hashing:
+                h.update(np.ascontiguousarray(values).tobytes())
+            times, typed = None, False
+            if ts is not None:
+                tcol = part.iloc[:, len(columns)]
+                if pd.api.types.is_datetime64_any_dtype(tcol.dtype):
+                    if getattr(tcol.dt, "tz", None) is not None:
+                        tcol = tcol.dt.tz_convert("UTC").dt.tz_localize(None)
+                    times, typed = tcol.to_numpy().astype("datetime64[s]"), True
+                    if hashing:
+                        h.update(times.astype(np.int64).tobytes())
+                else:
+                    times = time_text(tcol)
+                    if hashing:
+                        h.update("\x1f".join("" if v is None else v for v in times).encode())
+            yield RawChunk(values, times, typed, rows)
+
+    trend = None
+    if "detrend" in tr:  # the first pass fits the straight line in time that detrend removes
+        fit = _Pass(dataset_id=dataset_id, names=columns, transforms=tuple("none" if t == "detrend" else t
+                                                                            for t in tr),
+                    missing=missing, path=path, time=ts, grid=grid, fit_trend=True)
+        for chunk in chunks(False):
+            fit.feed(chunk)
+        trend = fit.trend_fit.line()
+    run = _Pass(dataset_id=dataset_id, names=columns, transforms=tr, missing=missing, path=path,
+                time=ts, grid=grid, trend=trend)
+    for chunk in chunks(True):
+        run.feed(chunk)
     return run.finish(rows_read=total, sha256=h.hexdigest(), plans=plans, labels=lab, units=un,
                       source=None)

@@ -15,6 +15,13 @@ Row-wise transforms run during the single pass:
   :data:`REASON_GAP`. Daily and finer times are differenced row to row (a
   calendar gap there, e.g. a weekend, is usually not missing data).
 
+- ``detrend``: ``x[t] - (a + b t)``, the residual from a straight line in
+  time fitted by least squares to all analysed rows (a first, cheap pass over
+  the file fits it: :class:`TrendFit`). ``t`` is the period number for
+  years, quarters and months and the day (fractional) otherwise, so a gap in
+  the time index is a gap in ``t``: the line is fitted and removed across it
+  correctly. Needs a time column.
+
 Whole-sample transforms act on the statistics at the end, as an affine map
 ``y' = (y - shift) / scale`` applied to every window's moments and to the
 overview (:func:`affine_for`, :func:`affine_moments`):
@@ -49,10 +56,11 @@ __all__ = [
     "affine_moments",
     "check_variation",
     "check_window_variation",
+    "TrendFit",
 ]
 
 #: transforms applied row by row during the pass
-ROW_TRANSFORMS = ("none", "log", "diff", "logdiff")
+ROW_TRANSFORMS = ("none", "log", "diff", "logdiff", "detrend")
 #: transforms applied to the statistics of the whole sample at the end
 SAMPLE_TRANSFORMS = ("demean", "standardise")
 MISSING_POLICIES = ("drop", "fail")
@@ -67,6 +75,48 @@ CONSTANT_RTOL = 1e-13
 REASON_MISSING = "missing value"
 REASON_NO_PREVIOUS = "no previous row to difference"
 REASON_GAP = "difference across a gap in the time column (the previous period is absent)"
+
+
+class TrendFit:
+    """Least-squares straight line in time per column, accumulated chunk by chunk (shifted sums).
+
+    ``push(t, y)`` with ``t`` the numeric time of each kept row and ``y`` the values;
+    ``line()`` returns ``(a, b)`` per column so that ``y - (a + b t)`` is the residual.
+    """
+
+    def __init__(self, n: int) -> None:
+        self.n = n
+        self.count = 0
+        self.t0: float | None = None
+        self.y0: np.ndarray | None = None
+        self.st = 0.0
+        self.stt = 0.0
+        self.sy = np.zeros(n)
+        self.sty = np.zeros(n)
+
+    def push(self, t: np.ndarray, y: np.ndarray) -> None:
+        if t.size == 0:
+            return
+        if self.t0 is None:
+            self.t0, self.y0 = float(t[0]), np.asarray(y[0], dtype=float).copy()
+        dt = np.asarray(t, dtype=float) - self.t0
+        dy = np.asarray(y, dtype=float) - self.y0
+        self.count += int(t.size)
+        self.st += float(dt.sum())
+        self.stt += float(dt @ dt)
+        self.sy += dy.sum(axis=0)
+        self.sty += dt @ dy
+
+    def line(self) -> tuple[np.ndarray, np.ndarray]:
+        """``(a, b)``: intercept and slope per column (in the column's units per time unit)."""
+        if self.count < 2 or self.t0 is None:
+            return np.zeros(self.n), np.zeros(self.n)
+        m = self.count
+        vt = self.stt - self.st * self.st / m
+        b = (self.sty - self.st * self.sy / m) / vt if vt > 0 else np.zeros(self.n)
+        ybar = self.y0 + self.sy / m
+        tbar = self.t0 + self.st / m
+        return ybar - b * tbar, b
 
 
 @dataclass(frozen=True, slots=True)
@@ -106,7 +156,8 @@ class StreamTransform:
     """
 
     def __init__(self, names: Sequence[str], transforms: Sequence[str], *, missing: str,
-                 path: str | None, time_column: str | None = None) -> None:
+                 path: str | None, time_column: str | None = None,
+                 trend: tuple[np.ndarray, np.ndarray] | None = None) -> None:
         self.names = tuple(names)
         self.transforms = tuple(transforms)
         self.missing = missing
@@ -115,6 +166,8 @@ class StreamTransform:
         n = len(self.names)
         self._log = np.array([t in ("log", "logdiff") for t in self.transforms])
         self._diff = np.array([t in ("diff", "logdiff") for t in self.transforms])
+        self._detrend = np.array([t == "detrend" for t in self.transforms])
+        self._trend = trend  # (a, b) per column for detrend (None on the fitting pass)
         self._prev = np.full(n, np.nan)       # previous raw row (after log), carried
         self._prev_period: int | None = None  # period number of that row (None: unknown)
         self._started = False
@@ -136,7 +189,8 @@ class StreamTransform:
 
     def apply(self, values: np.ndarray, rows: np.ndarray,
               time_missing: np.ndarray | None = None,
-              periods: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+              periods: np.ndarray | None = None,
+              tnum: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Transform one chunk (rows already inside the from/to range).
 
         Parameters
@@ -151,6 +205,9 @@ class StreamTransform:
             Period number of each row (consecutive periods differ by 1; rows
             with an empty time cell are ignored); a difference is taken only
             between consecutive periods.
+        tnum : (m,) float array, optional
+            Numeric time of each row (period number, or days): the ``t`` of
+            ``detrend``.
 
         Returns
         -------
@@ -193,6 +250,14 @@ class StreamTransform:
             x = x.copy()
             with np.errstate(invalid="ignore", divide="ignore"):
                 x[:, self._log] = np.log(x[:, self._log])
+        if self._detrend.any() and self._trend is not None and m:
+            if tnum is None:
+                raise DataError("transform detrend needs a time column.", path=self.path,
+                                key="transform", fix="add time: {column: ...} to the dataset, or use diff.")
+            a, b = self._trend
+            x = x.copy()
+            x[:, self._detrend] = x[:, self._detrend] - (a[self._detrend][None, :]
+                                                         + np.asarray(tnum, float)[:, None] * b[self._detrend][None, :])
         y = x
         no_prev = np.zeros(m, dtype=bool)
         if self._diff.any() and m:

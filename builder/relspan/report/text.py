@@ -214,7 +214,8 @@ METHODS = (
      "trending when KPSS rejects and ADF does not, otherwise cannot be judged. When two or more analysed "
      "series trend, relations among their levels can appear without any real relation (spurious regression) "
      "unless they are cointegrated, which is not tested: the dataset page says so and the build raises a "
-     "warning when they are analysed in levels (transform none or log; diff and logdiff analyse changes). "
+     "warning when they are analysed in levels (transform none, log, demean or standardise; diff and logdiff "
+     "analyse changes, detrend removes a least-squares straight line in time fitted on the time values). "
      "Differences are taken only between consecutive periods, so a gap in the time index drops the row "
      "after it. For very large datasets the tests run on means of consecutive runs of rows (said on the "
      "page).",

@@ -282,7 +282,8 @@ def _trends(ds: DatasetSpec, prepared, labels, sink: list):
             f"the levels of {len(report.trending_levels)} trending series ({join_words(report.trending_levels)}) "
             "are analysed: relations among trending levels can appear without any real relation (Granger & "
             "Newbold 1974) unless the series are cointegrated, which is not tested. Fix: analyse differences "
-            "or growth rates (a variable's transform: diff or logdiff), or read these relations with that "
+            "or growth rates, or remove a straight-line trend (a variable's transform: diff, logdiff or detrend), "
+            "or read these relations with that "
             "caution.", series=report.trending_levels).located(dataset=ds.id))
     return report
 

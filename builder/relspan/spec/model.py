@@ -38,7 +38,7 @@ __all__ = [
 SPEC_VERSION = 1
 
 #: transforms a variable may get, applied in the data layer in this order of meaning
-TRANSFORMS = ("none", "log", "diff", "logdiff", "demean", "standardise")
+TRANSFORMS = ("none", "log", "diff", "logdiff", "detrend", "demean", "standardise")
 
 #: noise assumptions relspan compares side by side
 #:  - elementary: one variable at a time is the only noisy one (the n elementary regressions, OLS)

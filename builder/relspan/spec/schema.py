@@ -218,8 +218,14 @@ def _build_schema() -> dict[str, Any]:
             "transform": _p({"type": "string", "enum": list(TRANSFORMS)}, "Transform",
                             "Applied to the column before analysis: `none`, `log` (natural "
                             "logarithm; values must be > 0), `diff` (first difference), "
-                            "`logdiff` (difference of logarithms), `demean`, `standardise` "
-                            "(zero mean, unit variance).",
+                            "`logdiff` (difference of logarithms; differences are taken only "
+                            "between consecutive years, quarters or months, so a gap in the time "
+                            "index drops the row after it), `detrend` (the residual from a "
+                            "least-squares straight line in time, fitted on the time values so "
+                            "gaps are respected; needs a time column), `demean`, `standardise` "
+                            "(zero mean, unit variance). Levels of two or more trending series "
+                            "raise a warning (spurious regression); diff, logdiff or detrend "
+                            "avoid it.",
                             ["log"], default="none"),
             "noise_share": _p({"type": "number", "minimum": 0}, "Noise share",
                               "Relative noise variance of this variable, for the `shaped` "
