@@ -407,3 +407,36 @@ def test_side_by_side_csv_gives_no_coefficients_where_two_relations_hold(site):
     assert int(equal["corank"]) >= 2
     assert equal["coefficients"].startswith("not identified")
     assert all(v == "" for k, v in equal.items() if k.startswith("coef["))
+
+
+def test_eigenvalue_captions_name_the_correlation_scale_they_are_on(site):
+    out, run = site
+    text = _text(_main(_read(out, "datasets/trio/index.html")))
+    assert run.dataset("trio").full.scale == "correlation"
+    assert "Eigenvalues of the full-sample correlation matrix" in text
+    assert "Eigenvalues of the full-sample covariance" not in text
+
+
+def test_results_json_labels_each_method_with_its_scale_and_gives_noise_variances_in_data_units(site):
+    import numpy as np
+
+    out, run = site
+    doc = json.loads(_read(out, "data/trio/results.json"))["full_sample"]
+    assert doc["scale"] == "correlation"
+    for key in ("equal", "bounded", "diagonal"):
+        assert doc[key]["scale"] == "correlation", key  # computed on the correlation matrix, not "as given"
+    var = np.array(doc["variances_data_units"])
+    np.testing.assert_allclose(var, np.diag(run.dataset("trio").full.cov), rtol=1e-9)
+    entry = doc["equal"]["coranks"][1]
+    np.testing.assert_allclose(entry["noise_variances_data_units"], np.array(entry["noise_variances"]) * var,
+                               rtol=1e-12)
+    cert = doc["diagonal"]["corank"]["certificates"][0]
+    np.testing.assert_allclose(cert["noise_variances_data_units"], np.array(cert["noise_variances"]) * var,
+                               rtol=1e-12)
+
+
+def test_dataset_page_shows_trends_effective_rows_and_influence(site):
+    out, run = site
+    text = _text(_main(_read(out, "datasets/trio/index.html")))
+    assert "Trends and autocorrelation" in text and "effective rows of the 144 tested" in text
+    assert "Single rows and blocks of rows" in text and "robust covariance (MCD" in text

@@ -115,7 +115,9 @@ def why_assumptions_differ(full, labels) -> str:
                     "tied together.")
         else:
             most = int(np.argmax(shares)) if shares is not None else None
-            extra = (f" (here up to {100 * shares[most]:.0f}% of the variance of {labels[most]})"
+            var = np.diag(np.asarray(full.cov, dtype=float))
+            extra = (f" (here up to {100 * shares[most]:.0f}% of the variance of {labels[most]}, a noise standard "
+                     f"deviation of about {fmt(np.sqrt(shares[most] * var[most]), 2)} in its own units)"
                      if most is not None else "")
             text = (f"Equal noise finds {rel(eq)}, independent noise {rel(dg)}. Independent noise of unknown "
                     f"size is the looser assumption: it lets each series carry its own error{extra}, while "
