@@ -415,6 +415,10 @@ def influence_report(stats, *, decide: Callable, full: Mapping[str, int | None],
             parts.append(f"a robust covariance (MCD, fitted to the most concentrated half of the rows and "
                          f"reweighted) gives {'the same counts' if same else words(robust_c)}"
                          + ("" if same else f" (all rows: {words(full)})") + f", with {flags}")
+            if not same and without is None and flagged_rows:
+                parts.append(f"the robust covariance sets the {len(flagged_rows)} flagged rows aside together, so "
+                             "that difference reflects many rows at once (for example a period unlike the rest), "
+                             "not a single row or block")
         sentence = (cap("; ".join(parts)) + ".") if parts else "The influence of single rows cannot be judged: too few rows."
     if robust:
         sentence += f" Robust check {robust}."

@@ -106,7 +106,9 @@ def why_assumptions_differ(full, labels) -> str:
         shares = np.asarray(cert.noise_share, dtype=float) if cert is not None and cert.noise_share else None
         if shares is not None and np.any(shares >= PURE_NOISE_SHARE):
             pure = [k for k in range(full.n) if shares[k] >= PURE_NOISE_SHARE]
-            who = join_words([f"{labels[k]} ({100 * shares[k]:.0f}% of its variance)" for k in pure])
+            var = np.diag(np.asarray(full.cov, dtype=float))
+            who = join_words([f"{labels[k]} ({100 * shares[k]:.0f}% of its variance, a noise standard deviation of "
+                              f"about {fmt(np.sqrt(shares[k] * var[k]), 2)} in its own units)" for k in pure])
             text = (f"Equal noise finds {rel(eq)}, independent noise {rel(dg)}. This is not a contradiction: "
                     f"when each series may have its own error of any size, {who} can be declared almost "
                     f"pure measurement error, because {'it is' if len(pure) == 1 else 'they are'} nearly "
