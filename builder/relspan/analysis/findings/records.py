@@ -13,12 +13,12 @@ __all__ = ["FINDING_KINDS", "CARD_OF_KIND", "KIND_WORDS", "Tolerance", "Finding"
            "AssumptionRow", "WindowReading", "DatasetSummary"]
 
 FINDING_KINDS = ("pinned_down", "set_only", "not_identified", "depends", "unstable", "stable",
-                 "no_relation")
+                 "no_relation", "cannot_be_judged")
 
 #: which home-page card each kind belongs to
 CARD_OF_KIND = {
     "pinned_down": "pinned", "stable": "pinned",
-    "set_only": "open", "not_identified": "open", "no_relation": "open",
+    "set_only": "open", "not_identified": "open", "no_relation": "open", "cannot_be_judged": "open",
     "depends": "depends",
     "unstable": "unstable",
 }
@@ -28,6 +28,7 @@ KIND_WORDS = {
     "pinned_down": "Pinned down", "stable": "Stable", "set_only": "Known only as a set",
     "not_identified": "Not identified", "no_relation": "No relation",
     "depends": "Depends on the noise assumption", "unstable": "Unstable across windows",
+    "cannot_be_judged": "Cannot be judged",
 }
 
 

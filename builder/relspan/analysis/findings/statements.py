@@ -200,26 +200,37 @@ def _stability_findings(result) -> list[Finding]:
             continue
         title = plan.plan.title or plan.plan.id
         for q in result.examined:
-            key = ("equal", q) if plan.stability.get(("equal", q)) else next(
-                (k for k in plan.stability if k[1] == q and plan.stability[k]), None)
+            key = next((a for a in ("equal", "shaped", "bounded") if a in plan.stability
+                        and plan.stability[a].reference_dim == q), None)
             if key is None:
                 continue
             stab = plan.stability[key]
-            worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else stab.max_pairwise_deg
+            worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else (
+                stab.max_pairwise_deg if stab.max_pairwise_deg is not None else stab.max_neighbour_deg)
             what = "relation" if q == 1 else "plane of relations" if q == 2 else f"{q}-dimensional relation subspace"
+            tol = Tolerance.of(result.full)
+            under = f"under {_assumption(key).name} (tolerance: {tol.words})"
+            rule = ("a change counts only beyond what resampling each window produces when nothing changes, "
+                    "all comparisons judged together at the 5% level")
+            if stab.stable is None or worst is None:
+                out.append(Finding("cannot_be_judged", "stability",
+                                   f"Whether the {what} changes across \u201c{title}\u201d cannot be judged "
+                                   f"{under}.", stab.verdict, {"plan": plan.plan.id, "corank": q},
+                                   f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key,), tolerance=tol))
+                continue
             if stab.stable:
                 headline = (f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} "
-                            f"stays within {worst:.2g} degrees of the full sample's.")
+                            f"{under} stays within {worst:.2g} degrees of the full sample's: within what "
+                            "resampling produces when nothing changes.")
             else:
-                headline = (f"Across the windows of \u201c{title}\u201d the {what} moves: up to "
-                            f"{worst:.2g} degrees from the full sample's (threshold "
-                            f"{stab.threshold_deg:g}).")
+                headline = (f"Across the windows of \u201c{title}\u201d the {what} {under} moves: up to "
+                            f"{worst:.2g} degrees, more than resampling produces when nothing changes.")
             out.append(Finding("stable" if stab.stable else "unstable", "stability", headline,
-                               f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
-                                                   "max_to_full_deg": worst,
-                                                   "threshold_deg": stab.threshold_deg},
-                               f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key[0],),
-                               tolerance=Tolerance.of(result.full)))
+                               f"{stab.verdict} Rule: {rule}.", {"plan": plan.plan.id, "corank": q,
+                                                                 "max_to_full_deg": worst,
+                                                                 "family_critical": stab.family_critical},
+                               f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key,),
+                               tolerance=tol))
             swing = plan.swings.get("elementary")
             if swing is not None:
                 changed = [k for k in range(len(names)) if k != ref and swing.sign_changes[k] > 0]
@@ -240,13 +251,39 @@ def _stability_findings(result) -> list[Finding]:
                                         "min": swing.minimum[k], "max": swing.maximum[k]},
                                        f"plan-{plan.plan.id}", plan=plan.plan.id, single_coefficient=True,
                                        assumptions=("elementary",)))
+        if not any(f.topic == "stability" and f.plan == plan.plan.id for f in out):
+            # windows compared with each other where the full sample offers no common reference
+            key = next((a for a in ("equal", "shaped", "bounded")
+                        if a in plan.stability and plan.stability[a].stable is False), None)
+            if key is not None:
+                st = plan.stability[key]
+                worst = max(x for x in (st.max_pairwise_deg, st.max_neighbour_deg, st.max_to_reference_deg)
+                            if x is not None)
+                dims = sorted({d for d in st.dims if d})
+                what = ("relation" if dims == [1] else "relations")
+                tol = Tolerance.of(result.full)
+                out.append(Finding(
+                    "unstable", "stability",
+                    f"Across the windows of \u201c{title}\u201d the {what} under {_assumption(key).name} "
+                    f"(tolerance: {tol.words}) change{'s' if what == 'relation' else ''}: windows differ by up "
+                    f"to {worst:.2g} degrees, more than resampling produces when nothing changes.",
+                    f"{st.verdict} Rule: a change counts only beyond what resampling each window produces "
+                    "when nothing changes, all comparisons judged together at the 5% level.",
+                    {"plan": plan.plan.id, "max_between_windows_deg": worst,
+                     "family_critical": st.family_critical},
+                    f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key,), tolerance=tol))
         seq = plan.coranks
-        moving = [a for a, c in seq.constant.items() if not c and a != "elementary"]
+        changes = seq.changes or {}
+        moving = [a for a in seq.assumptions if a != "elementary" and changes.get(a)]
         if moving:
             out.append(Finding("unstable", "corank",
                                f"The number of relations changes across the windows of \u201c{title}\u201d "
-                               f"under {', '.join(_assumption(a).name for a in moving)}.",
-                               "Corank per window: see the timeline.",
+                               f"under {', '.join(_assumption(a).name for a in moving)} (tolerance: "
+                               f"{Tolerance.of(result.full).words}).",
+                               "Corank per window: see the timeline. Windows whose count is undetermined are "
+                               "not counted as a change; where resampling support is known (equal, known-shape "
+                               "and bounded noise) two windows differ only when no count has at least 5% "
+                               "support in both.",
                                {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
                                plan=plan.plan.id, assumptions=tuple(moving), tolerance=Tolerance.of(result.full)))
     return out

@@ -93,12 +93,32 @@ def gallery_figure(result, plan, q: int):
                           name=f"{result.spec.id}-{plan.plan.id}-gallery")
 
 
+def _drawable_stability(plan, q: int):
+    """The plan's stability under the first assumption that compared every window (and the full sample) at q."""
+    for a in ("equal", "shaped", "bounded"):
+        st = plan.stability.get(a)
+        if (st is not None and st.reference_dim == q and all(d == q for d in st.dims)
+                and np.all(np.isfinite(st.to_reference_deg))):
+            return st
+    return None
+
+
+def _drawn_threshold(stab) -> float:
+    """One line for the figure: the largest per-window threshold (a window above it is a change)."""
+    thr = np.asarray(stab.reference_threshold_deg, dtype=float)
+    thr = thr[np.isfinite(thr)]
+    return float(min(max(thr.max() if thr.size else 90.0, 1e-3), 90.0))
+
+
 def stability_figure(result, plan, assumption: str, q: int):
-    stab = plan.stability.get((assumption, q))
-    if stab is None or len(plan.analyses) < 2:
+    stab = plan.stability.get(assumption)
+    if stab is None or len(plan.analyses) < 2 or stab.pairwise_deg is None:
+        return None
+    if not (stab.reference_dim == q and all(d == q for d in stab.dims)
+            and np.all(np.isfinite(stab.to_reference_deg)) and np.all(np.isfinite(stab.pairwise_deg))):
         return None
     return subspace_stability(stab.pairwise_deg, list(plan.labels), stab.to_reference_deg,
-                              threshold_deg=stab.threshold_deg,
+                              threshold_deg=_drawn_threshold(stab),
                               name=f"{result.spec.id}-{plan.plan.id}-angles")
 
 
@@ -134,12 +154,11 @@ def swing_figure(result, plan, q: int):
         coefs[assumption(a).name] = np.array([np.nan if v is None else v for v in vals], dtype=float)
     if not coefs:
         return None
-    stab = plan.stability.get(("equal", q)) or next((s for (a, qq), s in plan.stability.items() if qq == q),
-                                                    None)
+    stab = _drawable_stability(plan, q)
     if stab is None:
         return None
     label = (f"coefficient of {result.labels[k]} in the equation for {result.labels[ref]}")
-    return coefficient_swing(list(plan.labels), coefs, stab.to_reference_deg, stab.threshold_deg, label,
+    return coefficient_swing(list(plan.labels), coefs, stab.to_reference_deg, _drawn_threshold(stab), label,
                              name=f"{result.spec.id}-{plan.plan.id}-swing")
 
 
