@@ -103,6 +103,18 @@ def _drawable_stability(plan, q: int):
     return None
 
 
+def _break_marker(result, plan) -> dict:
+    """Where the break the scan found falls among the plan's windows (between two window positions)."""
+    br = next((b for b in getattr(result, "breaks", {}).values() if b.scan is not None and b.scan.found), None)
+    if br is None:
+        return {}
+    starts = [int(w.first_row) - 1 for w in plan.windows]   # 0-based first row of each window
+    after = next((i for i, r in enumerate(starts) if r >= br.scan.split_row), None)
+    if after is None or after == 0:
+        return {}
+    return {"break_at": after - 0.5, "break_label": f"break from {br.date} (scan)"}
+
+
 def _drawn_threshold(stab) -> float:
     """One line for the figure: the largest per-window threshold (a window above it is a change)."""
     thr = np.asarray(stab.reference_threshold_deg, dtype=float)
@@ -119,7 +131,7 @@ def stability_figure(result, plan, assumption: str, q: int):
         return None
     return subspace_stability(stab.pairwise_deg, list(plan.labels), stab.to_reference_deg,
                               threshold_deg=_drawn_threshold(stab),
-                              name=f"{result.spec.id}-{plan.plan.id}-angles")
+                              name=f"{result.spec.id}-{plan.plan.id}-angles", **_break_marker(result, plan))
 
 
 def swing_variable(result) -> int:
@@ -159,7 +171,7 @@ def swing_figure(result, plan, q: int):
         return None
     label = (f"coefficient of {result.labels[k]} in the equation for {result.labels[ref]}")
     return coefficient_swing(list(plan.labels), coefs, stab.to_reference_deg, _drawn_threshold(stab), label,
-                             name=f"{result.spec.id}-{plan.plan.id}-swing")
+                             name=f"{result.spec.id}-{plan.plan.id}-swing", **_break_marker(result, plan))
 
 
 def spectrum_figure(result, analysis, name: str):
