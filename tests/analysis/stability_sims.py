@@ -14,6 +14,8 @@ import numpy as np
 
 from tests.analysis.inference_sims import one_relation_cov, rows
 
+HALVES_PLAN = "- {id: quarters, kind: rolling, width: 75, step: 75}"
+
 
 def quarters(t: int, start: int = 1960) -> list[str]:
     return [f"{start + k // 4}Q{k % 4 + 1}" for k in range(t)]

@@ -98,6 +98,9 @@ class DatasetResult:
     breaks : mapping assumption -> DatasetBreak
         The scan for one break of the relation subspace at an unknown date
         (:func:`relspan.run.cross_window.dataset_breaks`), or why it did not run.
+    sampling_spread : mapping assumption -> SamplingSpread
+        The bootstrap spread of the full sample's relation subspace (equal and
+        bounded noise), shown beside the bounded-noise population bound.
     """
 
     spec: DatasetSpec
@@ -113,6 +116,7 @@ class DatasetResult:
     threshold_deg: float
     cache_key: str = ""
     breaks: dict = field(default_factory=dict)
+    sampling_spread: dict = field(default_factory=dict)
 
     @property
     def names(self) -> tuple[str, ...]:

@@ -30,7 +30,7 @@ from relspan.analysis.intervals import largest_angle_stack
 from relspan.errors import OptionsError
 
 __all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "compare_windows",
-           "direct_rotation_stack", "null_angle_stack", "TEST_LEVEL", "PAIRWISE_CAP", "CoefficientSwing",
+           "direct_rotation_stack", "null_angle_stack", "SamplingSpread", "sampling_spread", "TEST_LEVEL", "PAIRWISE_CAP", "CoefficientSwing",
            "coefficient_swing", "CorankSequence", "corank_sequence", "ZERO_SIGN_TOL"]
 
 #: a coefficient within this distance of 0 has no sign (it neither starts nor ends a sign change)
@@ -324,6 +324,55 @@ class SubspaceStability:
                              "reference_threshold_deg": self.reference_threshold_deg,
                              "reference_change": self.reference_change},
                             index=pd.Index(self.labels, name="window"))
+
+
+@dataclass(frozen=True, slots=True)
+class SamplingSpread:
+    """How far one window's relation subspace moves under resampling: the bootstrap spread of its angle.
+
+    Attributes
+    ----------
+    assumption : str
+    q : int
+    angle_deg : float
+        The ``level`` quantile of the largest principal angle between the
+        estimate and its resampled subspaces (degrees).
+    level : float
+    resamples : int
+    rule : str
+    """
+
+    assumption: str
+    q: int
+    angle_deg: float
+    level: float
+    resamples: int
+    rule: str
+
+    def to_dict(self) -> dict:
+        return jsonable({"assumption": self.assumption, "q": self.q, "angle_deg": self.angle_deg,
+                         "level": self.level, "resamples": self.resamples, "rule": self.rule})
+
+
+def sampling_spread(basis, draws, *, assumption: str, level: float) -> SamplingSpread:
+    """:class:`SamplingSpread` of one estimate from its resampled bases ``(B, q, n)``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> a = np.array([[1.0, 0.0, 0.0]])
+    >>> d = np.tile(a, (99, 1, 1)); d[:, 0, 1] = np.linspace(-0.1, 0.1, 99)
+    >>> round(sampling_spread(a, d, assumption="equal", level=0.9).angle_deg, 1)
+    5.1
+    """
+    b = np.atleast_2d(np.asarray(basis, dtype=float))
+    d = np.asarray(draws, dtype=float)
+    ang = largest_angle_stack(b, d)
+    val = float(np.quantile(ang, level))
+    rule = (f"the {level:.0%} quantile of the largest principal angle between the estimate and its "
+            f"{d.shape[0]} bootstrap resamples")
+    return SamplingSpread(assumption=assumption, q=int(b.shape[0]), angle_deg=val, level=float(level),
+                          resamples=int(d.shape[0]), rule=rule)
 
 
 def _as_basis(b) -> np.ndarray | None:

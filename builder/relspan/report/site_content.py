@@ -66,6 +66,7 @@ def dataset_document(result) -> dict:
         "identified": {str(q): i.to_dict() for q, i in sorted(result.identified.items())},
         "plans": plans,
         "breaks": [b.to_dict() for _, b in sorted(getattr(result, "breaks", {}).items())],
+        "sampling_spread": [sp.to_dict() for _, sp in sorted(getattr(result, "sampling_spread", {}).items())],
         "findings": [f.to_dict() for f in result.findings],
     })
 

@@ -19,14 +19,18 @@ import numpy as np
 
 from relspan.analysis import resample
 from relspan.analysis.breaks import DatasetBreak, subspace_break_scan
-from relspan.analysis.stability import TEST_LEVEL, SubspaceStability, compare_windows
+from relspan.analysis.stability import (TEST_LEVEL, SamplingSpread, SubspaceStability, compare_windows,
+                                        sampling_spread)
 
 __all__ = ["ResamplingOptions", "window_resamples", "resampled_bases", "plausible_coranks",
-           "plan_stability", "dataset_breaks", "STABILITY_ASSUMPTIONS", "BREAK_PLAN"]
+           "plan_stability", "dataset_breaks", "full_sample_spread", "STABILITY_ASSUMPTIONS", "BREAK_PLAN",
+           "FULL_PLAN"]
 
 #: assumptions whose relation basis is a single estimate that resampling can follow; under
 #: diagonal noise the answer is a set or family of subspaces and one member is no answer
 STABILITY_ASSUMPTIONS = ("elementary", "equal", "shaped", "bounded")
+#: the stream name of the full sample's own resamples (not a plan's window)
+FULL_PLAN = "full sample"
 #: the stream name of the break scan (it resamples the whole sample, not a window of a plan)
 BREAK_PLAN = "break scan"
 
@@ -59,14 +63,19 @@ def _resampling_options(ds) -> ResamplingOptions:
                              seed=int(checks.seed if seed is None else seed))
 
 
-def window_resamples(prepared, ds, plan_id: str, index: int, opts: ResamplingOptions
+def window_resamples(prepared, ds, plan_id: str | None, index: int, opts: ResamplingOptions
                      ) -> resample.CovarianceResamples:
     """The resampled covariances of window ``index`` of plan ``plan_id`` (analysed coordinates).
 
     Granules from ``prepared.window_granules``; the stream is
     ``window_rng(seed, dataset, plan, index)``: the same draws whoever asks.
+    ``plan_id=None`` resamples the whole sample (stream :data:`FULL_PLAN`, index 0).
     """
-    stats = prepared.window_granules(plan_id, index)
+    if plan_id is None:
+        stats = prepared.granules_between(0, len(prepared.granules))
+        plan_id, index = FULL_PLAN, 0
+    else:
+        stats = prepared.window_granules(plan_id, index)
     rng = resample.window_rng(opts.seed, ds.id, plan_id, index)
     return resample.resample_covariances(stats, resamples=opts.resamples, rng=rng,
                                          seed=(opts.seed, ds.id, plan_id, int(index)))
@@ -279,4 +288,24 @@ def dataset_breaks(prepared, ds, full, plans, *, opts: ResamplingOptions | None 
         out[a] = DatasetBreak(assumption=a, q=q, q_from=q_from, scan=scan, reason="",
                               date=_row_time(prepared, scan.split_row + 1),
                               date_low=_row_time(prepared, lo + 1), date_high=_row_time(prepared, hi + 1))
+    return out
+
+
+def full_sample_spread(prepared, ds, full, *, opts: ResamplingOptions | None = None
+                       ) -> dict[str, SamplingSpread]:
+    """The bootstrap spread of the full sample's relation subspace (equal and bounded noise).
+
+    Shown beside the bounded-noise angle bound, which treats the sample
+    covariance as the population's: this is what sampling adds.
+    """
+    opts = opts or _resampling_options(ds)
+    out: dict[str, SamplingSpread] = {}
+    cr = None
+    for a in ("equal", "bounded"):
+        basis = _own_basis(full, a)
+        if basis is None:
+            continue
+        cr = cr or window_resamples(prepared, ds, None, 0, opts)
+        draws = resampled_bases(cr, full, a, int(basis.shape[0]), ds.noise_shape)
+        out[a] = sampling_spread(basis, draws, assumption=a, level=opts.level)
     return out

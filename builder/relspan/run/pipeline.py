@@ -220,9 +220,10 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     threshold = float(ds.checks.max_angle_deg)
     plan_results = tuple(_plan_summaries(ds, prepared, plan, wins, analyses[a:b], full, examined)
                          for plan, wins, a, b in spans)
-    from relspan.run.cross_window import dataset_breaks
+    from relspan.run.cross_window import dataset_breaks, full_sample_spread
 
     breaks = dataset_breaks(prepared, ds, full, plan_results)
+    spread = full_sample_spread(prepared, ds, full)
 
     identified: dict = {}
     for q in examined:
@@ -236,14 +237,14 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
 
     labels = tuple(v.label for v in ds.variables)
     findings = tuple(dataset_findings(full=full, plans=plan_results, examined=examined, identified=identified,
-                                      labels=labels))
+                                      labels=labels, spread=spread))
     summary = dataset_summary(full=full, plans=plan_results, examined=examined, identified=identified,
-                              labels=labels, findings=findings, period=prepared.period)
+                              labels=labels, findings=findings, period=prepared.period, spread=spread)
     # the block statistics are not needed once the windows are assembled: do not keep them
     return DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
                          examined=examined, examined_from=examined_from, findings=findings,
                          summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold, cache_key=cache_key,
-                         breaks=breaks)
+                         breaks=breaks, sampling_spread=spread)
 
 
 def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], sha: str) -> str:

@@ -96,13 +96,21 @@ def _subspace_findings(result) -> list[Finding]:
         else:
             entry = None
         if entry is not None and not entry.vacuous:
+            sp = result.spread.get("bounded")
+            sp = sp if sp is not None and sp.q == q else None
+            sampling = (f"; sampling moves it by up to {sp.angle_deg:.2g} degrees more ({sp.rule})" if sp
+                        else "; sampling adds an error this bound does not cover")
             out.append(Finding("pinned_down", "subspace",
-                               f"The {what} is pinned down to within {entry.angle_bound_deg:.2g} degrees, "
-                               "whatever the shape of the noise (within the tolerance).",
-                               f"Davis-Kahan bound for corank {q} under bounded noise: largest principal "
-                               f"angle at most {entry.angle_bound_deg:.3g} degrees (eps {full.eps:g}, gap "
-                               f"{entry.gap:.3g}).",
-                               {"corank": q, "angle_bound_deg": entry.angle_bound_deg}, "assumptions",
+                               f"The {what} is pinned down to within {entry.angle_bound_deg:.2g} degrees by the "
+                               "population bound, whatever the shape of the noise (within the tolerance)"
+                               + sampling + ".",
+                               f"Davis-Kahan bound for corank {q} under bounded noise, treating the sample "
+                               f"covariance as the population's: largest principal angle at most "
+                               f"{entry.angle_bound_deg:.3g} degrees (eps {full.eps:g}, gap {entry.gap:.3g})"
+                               + (f"; bootstrap spread of the same subspace: {sp.angle_deg:.3g} degrees "
+                                  f"({sp.rule})." if sp else "."),
+                               {"corank": q, "angle_bound_deg": entry.angle_bound_deg,
+                                "sampling_spread_deg": None if sp is None else sp.angle_deg}, "assumptions",
                                assumptions=("bounded",), tolerance=tol))
         elif entry is not None:
             out.append(Finding("set_only", "subspace",
@@ -297,13 +305,14 @@ class _Evidence(NamedTuple):
     examined: tuple
     identified: dict
     labels: tuple
+    spread: dict = {}
 
     @property
     def names(self) -> tuple[str, ...]:
         return self.full.names
 
 
-def dataset_findings(*, full, plans, examined, identified, labels) -> list[Finding]:
+def dataset_findings(*, full, plans, examined, identified, labels, spread=None) -> list[Finding]:
     """All findings for one dataset, most important first.
 
     Parameters
@@ -318,8 +327,11 @@ def dataset_findings(*, full, plans, examined, identified, labels) -> list[Findi
         Identified quantities per examined corank.
     labels : tuple of str
         The variables' labels (the reader's names), in order.
+    spread : mapping assumption -> SamplingSpread, optional
+        The bootstrap spread of the full sample's subspace, said beside the
+        bounded-noise population bound.
     """
-    result = _Evidence(full, tuple(plans), tuple(examined), identified, tuple(labels))
+    result = _Evidence(full, tuple(plans), tuple(examined), identified, tuple(labels), dict(spread or {}))
     out = []
     out += _corank_findings(result)
     out += _subspace_findings(result)

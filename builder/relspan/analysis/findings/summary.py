@@ -249,7 +249,8 @@ def _window_readings(plan, examined, labels) -> tuple[WindowReading, ...]:
 
 # ------------------------------------------------------------------------------ the summary
 
-def dataset_summary(*, full, plans, examined, identified, labels, findings, period=None) -> DatasetSummary:
+def dataset_summary(*, full, plans, examined, identified, labels, findings, period=None,
+                    spread=None) -> DatasetSummary:
     """The plain summary of one dataset and the statements of its pages.
 
     Built from the results alone (no dataset-specific wording), so any spec gets them.
@@ -297,8 +298,13 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
             entry = next((c for c in full.bounded.coranks if c.q == q and not c.vacuous), None)
         bits = []
         if entry is not None:
-            bits.append(f"the {what} {'is' if q == 1 else 'are'} fixed to within an angle of "
-                        f"{entry.angle_bound_deg:.2g} degrees, whatever form the noise takes")
+            sp = (spread or {}).get("bounded")
+            bits.append(f"if the sample were the population, the {what} {'would be' if q == 1 else 'would be'} "
+                        f"fixed to within an angle of {entry.angle_bound_deg:.2g} degrees for any form of noise "
+                        "within the tolerance"
+                        + (f", and sampling moves {'it' if q == 1 else 'them'} by up to "
+                           f"{sp.angle_deg:.2g} degrees more ({sp.level:.0%} of bootstrap resamples)"
+                           if sp is not None and sp.q == q else ""))
             rests["pinned"] += ("bounded",)
         steady = [st for _, st in stab if st.stable]
         if stab and len(steady) == len(stab):
