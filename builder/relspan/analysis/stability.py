@@ -165,6 +165,23 @@ def direct_rotation_stack(bases_from, bases_to) -> np.ndarray:
     return r
 
 
+def _largest_angles(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Largest principal angle (degrees) between paired ``(P, q, n)`` bases; one relation by a dot product.
+
+    For q = 1 the angle is ``atan2(|b - (a.b) a|, |a.b|)`` on unit vectors (the
+    sine and cosine pair of Björck & Golub, without a batched QR and SVD);
+    otherwise :func:`relspan.analysis.intervals.largest_angle_stack`.
+    """
+    if a.shape[1] != 1:
+        return largest_angle_stack(a, b)
+    u = a[:, 0, :] / np.linalg.norm(a[:, 0, :], axis=1, keepdims=True)
+    v = b[:, 0, :] / np.linalg.norm(b[:, 0, :], axis=1, keepdims=True)
+    c = np.einsum("pi,pi->p", u, v)
+    sn = np.linalg.norm(v - c[:, None] * u, axis=1)
+    sn = np.where(sn <= 4.0 * u.shape[1] * EPS, 0.0, sn)
+    return np.degrees(np.arctan2(sn, np.abs(c)))
+
+
 def null_angle_stack(est_a, draws_a, est_b, draws_b) -> np.ndarray:
     """Angles sampling alone produces between two windows that share one subspace, batched.
 
@@ -192,7 +209,7 @@ def null_angle_stack(est_a, draws_a, est_b, draws_b) -> np.ndarray:
     else:
         rot = direct_rotation_stack(est_b, ea)
         moved = np.asarray(draws_b, dtype=float) @ np.swapaxes(rot, 1, 2)[:, None]
-    return largest_angle_stack(da.reshape(p * nb, q, n), np.reshape(moved, (p * nb, q, n))).reshape(p, nb)
+    return _largest_angles(da.reshape(p * nb, q, n), np.reshape(moved, (p * nb, q, n))).reshape(p, nb)
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -459,8 +476,9 @@ def compare_windows(bases: Sequence, *, labels: Sequence[str], resampled, refere
     usable = [i for i in range(w) if mats[i] is not None and dims[i] not in (None, 0)
               and mats[i].shape[0] == dims[i]]
     not_comp = []
+    usable_set = set(usable)
     for i in range(w):
-        if i in usable:
+        if i in usable_set:
             continue
         why = ("its corank is undetermined at the tolerance" if dims[i] is None else
                "no relation holds in it" if dims[i] == 0 else "it has no relation basis")
@@ -481,7 +499,7 @@ def compare_windows(bases: Sequence, *, labels: Sequence[str], resampled, refere
     for q, ks in by_q.items():
         a = np.stack([mats[comps[k][0]] for k in ks])
         b = np.stack([ref if comps[k][1] < 0 else mats[comps[k][1]] for k in ks])
-        obs[ks] = largest_angle_stack(a, b)
+        obs[ks] = _largest_angles(a, b)
     # null draws, chunked in window order; only the running family maximum is kept
     q_level = np.full(len(comps), np.nan)
     fam: np.ndarray | None = None
