@@ -103,3 +103,18 @@ def test_corank_claim_with_undetermined_windows_and_no_disagreement_cannot_be_ju
     P.analyses = (W(1), W(None), W(2))
     assert _corank(ClaimSpec(id="c", kind="corank", dataset="d", plan="p", assumption="diagonal", equals=1),
                    P()).word == "fails"
+
+
+def test_no_break_claim_takes_no_plan_and_other_kinds_need_one(tmp_path):
+    import pytest
+
+    from relspan.errors import SpecError
+    from relspan.spec import load_spec
+
+    x = break_rows(1, t=120, angle=0.0)
+    with pytest.raises(SpecError, match=r"claims\[0\]\.plan does not apply to a no_break claim"):
+        load_spec(write_case(tmp_path / "a", x, plans=HALVES_PLAN, claims=(
+            "claims:\n  - {id: c, kind: no_break, dataset: case, plan: quarters}\n")))
+    with pytest.raises(SpecError, match=r"claims\[0\]\.plan is missing; a subspace_stable claim"):
+        load_spec(write_case(tmp_path / "b", x, plans=HALVES_PLAN, claims=(
+            "claims:\n  - {id: c, kind: subspace_stable, dataset: case, corank: 1}\n")))

@@ -185,20 +185,23 @@ def _break_section(result) -> str:
         return ""
     out = [Raw("### A break at an unknown date {#break}\n")]
     moving = [p for p in result.plans if any(st.stable is False for st in p.stability.values())]
-    seen: dict[int, list[str]] = {}
+    def same(scan) -> tuple:  # equal and bounded noise share one scan (one object before caching, two after)
+        return (scan.q, scan.statistic, scan.critical_value, scan.split_row, scan.angle_deg)
+
+    seen: dict[tuple, list[str]] = {}
     for a, br in breaks.items():
         if br.scan is not None:
-            seen.setdefault(id(br.scan), []).append(a)
-    shown: set[int] = set()
+            seen.setdefault(same(br.scan), []).append(a)
+    shown: set[tuple] = set()
     for a, br in breaks.items():
         name = assumption(a).name
         if br.scan is None:
             out.append(md("- Under {}: {}\n", name, br.reason))
             continue
-        if id(br.scan) in shown:
+        if same(br.scan) in shown:
             continue
-        shown.add(id(br.scan))
-        names = join_words([assumption(x).name for x in seen[id(br.scan)]])
+        shown.add(same(br.scan))
+        names = join_words([assumption(x).name for x in seen[same(br.scan)]])
         sc = br.scan
         rel = "relation" if sc.q == 1 else f"subspace of {count(sc.q, 'relation')}"
         if sc.found:
