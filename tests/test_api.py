@@ -242,7 +242,7 @@ def test_windows_frame_has_each_windows_start_end_and_angle_to_the_full_sample(t
     assert rows["start"].iloc[0] == "1990Q1" and rows["end"].iloc[0] == "1999Q4"
     q = trio_analysis.result.examined[0]
     np.testing.assert_array_equal(rows["angle_to_full_deg"].to_numpy(),
-                                  plan.stability[("equal", q)].to_reference_deg)
+                                  plan.stability["equal"].to_reference_deg)
 
 
 def test_coefficients_appear_only_where_one_relation_holds_and_name_the_normalising_variable(

@@ -99,8 +99,8 @@ def windows_frame(dataset_result):
     examined = tuple(getattr(dataset_result, "examined", ()) or ())
     for plan in dataset_result.plans:
         angles: dict[str, np.ndarray] = {}
-        for (a, q), stab in plan.stability.items():
-            if examined and q == examined[0] and stab.to_reference_deg is not None:
+        for a, stab in plan.stability.items():
+            if examined and stab.reference_dim == examined[0]:
                 angles[a] = np.asarray(stab.to_reference_deg, dtype=float)
         for i, (w, analysis) in enumerate(zip(plan.windows, plan.analyses)):
             start = w.first_time if w.first_time is not None else str(w.first_row)

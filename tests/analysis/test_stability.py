@@ -117,6 +117,14 @@ def _plane_cov(phi: float, tilt: float) -> np.ndarray:
     return (vecs.T * lam) @ vecs
 
 
+def _draws(basis, spread_deg: float, seed: int, resamples: int = 199) -> np.ndarray:
+    """Resampled bases scattered around ``basis`` by about ``spread_deg`` degrees (constructed)."""
+    rng = np.random.default_rng(seed)
+    b = np.atleast_2d(basis)
+    d = np.tile(b, (resamples, 1, 1)) + rng.normal(scale=np.radians(spread_deg), size=(resamples,) + b.shape)
+    return np.swapaxes(np.linalg.qr(np.swapaxes(d, 1, 2))[0], 1, 2)
+
+
 class TestSubspaceStability:
     def test_single_coefficient_flips_sign_while_subspace_barely_moves(self):
         # constructed: two windows with the same 2-relation plane (tilted by 0.01 degrees); the single
@@ -124,7 +132,8 @@ class TestSubspaceStability:
         names = list("abcd")
         covs = [_plane_cov(0.3, 0.0), _plane_cov(0.3 + np.pi / 2, np.radians(0.01))]
         fits = [equal_noise(s, names=names) for s in covs]
-        stab = subspace_stability([f.corank(2).basis for f in fits], labels=["w1", "w2"], threshold_deg=1.0)
+        bases = [f.corank(2).basis for f in fits]
+        stab = subspace_stability(bases, labels=["w1", "w2"], draws=[_draws(b, 1.0, i) for i, b in enumerate(bases)])
         assert stab.stable and stab.max_pairwise_deg < 0.02
         single = np.array([f.corank(1).basis[0] / f.corank(1).basis[0][0] for f in fits])
         swing = coefficient_swing(single, labels=["w1", "w2"], names=names)
@@ -135,30 +144,33 @@ class TestSubspaceStability:
         base = np.array([[1.0, 0, 0], [0, 1.0, 0]])
         tilt = lambda t: np.array([[1.0, 0, 0], [0, np.cos(t), np.sin(t)]])  # noqa: E731
         bases = [base, tilt(np.radians(2.0)), tilt(np.radians(5.0))]
-        st_ = subspace_stability(bases, labels=["a", "b", "c"], reference=base, threshold_deg=4.0)
+        draws = [_draws(b, 0.3, i) for i, b in enumerate(bases)]   # sampling spread well below 3 degrees
+        st_ = subspace_stability(bases, labels=["a", "b", "c"], draws=draws, reference=base)
         assert st_.pairwise_deg[0, 2] == pytest.approx(5.0)
         assert st_.pairwise_deg[1, 2] == pytest.approx(3.0)
         np.testing.assert_allclose(st_.to_reference_deg, [0.0, 2.0, 5.0], atol=1e-12)
         assert st_.max_to_reference_deg == pytest.approx(5.0)
-        assert st_.median_to_reference_deg == pytest.approx(2.0)
-        assert not st_.stable and "above the threshold of 4 degrees" in st_.verdict
-        assert subspace_stability(bases, labels=["a", "b", "c"], reference=base, threshold_deg=6).stable
+        assert not st_.stable and st_.changes_at == (("a", "b"), ("b", "c"))
+        assert "Changes under the equal-noise assumption" in st_.verdict
+        # the same angles with a sampling spread of several degrees are no evidence of change
+        wide = [_draws(b, 6.0, i) for i, b in enumerate(bases)]
+        assert subspace_stability(bases, labels=["a", "b", "c"], draws=wide, reference=base).stable
         json.dumps(st_.to_dict(), allow_nan=False)
-        assert list(st_.to_frame().columns) == ["a", "b", "c", "to_reference"]
+        assert list(st_.to_frame().columns) == ["corank", "to_reference_deg", "reference_threshold_deg",
+                                                "reference_change"]
 
-    def test_different_dimensions_are_unstable(self):
-        st_ = subspace_stability([np.eye(3)[:1], np.eye(3)[:2]], labels=["a", "b"], threshold_deg=10)
-        assert st_.dimension_mismatch and not st_.stable
-        assert st_.pairwise_deg[0, 1] == 90.0
-        assert "number of relations differs" in st_.verdict
+    def test_different_dimensions_are_not_compared_by_angle(self):
+        b1, b2 = np.eye(3)[:1], np.eye(3)[:2]
+        st_ = subspace_stability([b1, b2], labels=["a", "b"], draws=[_draws(b1, 1, 0), _draws(b2, 1, 1)])
+        assert st_.compared == 0 and st_.stable is None and np.isnan(st_.pairwise_deg[0, 1])
 
     def test_labels_must_match_windows(self):
         with pytest.raises(OptionsError, match="labels has 1 entries but 2 are needed"):
-            subspace_stability([np.eye(2)[:1], np.eye(2)[:1]], labels=["a"], threshold_deg=5)
+            subspace_stability([np.eye(2)[:1], np.eye(2)[:1]], labels=["a"], draws=[None, None])
 
-    def test_threshold_outside_range_is_rejected(self):
-        with pytest.raises(OptionsError, match=r"threshold_deg must be a number of degrees in \(0, 90\]"):
-            subspace_stability([np.eye(2)[:1]], labels=["a"], threshold_deg=0)
+    def test_level_outside_range_is_rejected(self):
+        with pytest.raises(OptionsError, match=r"level must be in \[0.5, 1\)"):
+            subspace_stability([np.eye(2)[:1]], labels=["a"], draws=[None], level=1.0)
 
 
 class TestCoefficientSwing:
@@ -206,6 +218,22 @@ class TestCorankSequence:
     def test_undetermined_window_makes_sequence_not_constant(self):
         cs = corank_sequence({"bounded": [1, None]}, labels=["a", "b"])
         assert not cs.constant["bounded"] and cs.changes_at["bounded"] == ()
+
+    def test_an_undetermined_window_is_not_a_change(self):
+        # issue 12: an undetermined window counted as a different corank
+        cs = corank_sequence({"diagonal": [1, None, 1, None], "equal": [None, None, None, None]},
+                             labels=list("abcd"))
+        assert cs.changes == {"diagonal": False, "equal": None}
+        assert cs.undetermined == {"diagonal": 2, "equal": 4}
+
+    def test_counts_differ_only_when_their_resampling_supports_do_not_overlap(self):
+        seq = {"equal": [1, 0, 1, 2]}
+        overlapping = corank_sequence(seq, labels=list("abcd"),
+                                      plausible={"equal": [{0, 1}, {0, 1}, {1}, {1, 2}]})
+        assert overlapping.changes["equal"] is False and overlapping.changes_at["equal"] == ()
+        apart = corank_sequence(seq, labels=list("abcd"), plausible={"equal": [{1}, {0}, {1}, {2}]})
+        assert apart.changes["equal"] is True and len(apart.changes_at["equal"]) == 3
+        assert corank_sequence(seq, labels=list("abcd")).changes["equal"] is True
 
     def test_wrong_length_names_the_assumption(self):
         with pytest.raises(OptionsError, match=r"coranks\['equal'\] has 1 entries for 2 windows"):

@@ -259,7 +259,7 @@ def test_caution_page_carries_the_usual_cautions(site):
 
 #: inference modules (issue 11) whose results are not on the site yet; the integration step adds their
 #: references to relspan.report.text.REFERENCES (and the methods page) and empties this set
-_NOT_YET_ON_SITE = {"resample.py", "equal_test.py", "corank_support.py", "intervals.py", "breaks.py"}
+_NOT_YET_ON_SITE = {"resample.py", "equal_test.py", "corank_support.py", "intervals.py"}
 
 
 def _code_references() -> list[tuple[str, str]]:

@@ -111,7 +111,9 @@ def test_full_example_loads_to_the_expected_objects(write_spec):
     assert [w.kind for w in spec.windows] == ["full", "rolling", "expanding", "periods"]
     assert spec.report.authors == ("A. Writer", "B. Analyst")
     assert [c.kind for c in spec.claims] == ["corank", "subspace_stable", "sign_stable",
-                                             "coefficient_bounded"]
+                                             "coefficient_bounded", "no_break"]
+    # no_break takes no plan and defaults to the equal-noise assumption (documented in docs/spec.md)
+    assert spec.claims[-1].plan == "" and spec.claims[-1].assumption == "equal"
     assert all(isinstance(c, ClaimSpec) for c in spec.claims)
 
 

@@ -46,7 +46,7 @@ from relspan.analysis.resample import (GranuleStats, draw_granules, merge_weight
                                        politis_white_block_length, scale_stack)
 from relspan.errors import OptionsError
 
-__all__ = ["BreakScan", "subspace_break_scan", "DEFAULT_TRIM", "MAX_SCAN_UNITS"]
+__all__ = ["BreakScan", "DatasetBreak", "subspace_break_scan", "DEFAULT_TRIM", "MAX_SCAN_UNITS"]
 
 #: share of the sample excluded at each end (Andrews 1993 uses 0.15)
 DEFAULT_TRIM = 0.15
@@ -104,6 +104,50 @@ class BreakScan:
                          "split_row": self.split_row, "split_interval": list(self.split_interval),
                          "angle_deg": self.angle_deg, "trim": self.trim, "candidates": self.candidates,
                          "resamples": self.resamples, "rule": self.rule})
+
+
+@dataclass(frozen=True, slots=True)
+class DatasetBreak:
+    """The break scan of one dataset under one noise assumption, or why it was not run.
+
+    Attributes
+    ----------
+    assumption : str
+    q : int or None
+        Dimension of the subspace scanned.
+    q_from : str
+        Where ``q`` came from, in words (the full sample's corank, or the one
+        most windows show when the full sample shows none).
+    scan : BreakScan or None
+        None when not scanned (see ``reason``).
+    reason : str
+        Why the scan did not run ("" when it ran).
+    date, date_low, date_high : str or None
+        The first time (or row) after the most likely break, and the ends of
+        its interval, in the data's notation (None when not scanned).
+    """
+
+    assumption: str
+    q: int | None
+    q_from: str
+    scan: BreakScan | None
+    reason: str
+    date: str | None = None
+    date_low: str | None = None
+    date_high: str | None = None
+
+    @property
+    def status(self) -> str:
+        """``"break"``, ``"no break"`` or ``"cannot be judged"``."""
+        if self.scan is None:
+            return "cannot be judged"
+        return "break" if self.scan.found else "no break"
+
+    def to_dict(self) -> dict:
+        return jsonable({"assumption": self.assumption, "q": self.q, "q_from": self.q_from,
+                         "status": self.status, "reason": self.reason, "date": self.date,
+                         "date_low": self.date_low, "date_high": self.date_high,
+                         "scan": None if self.scan is None else self.scan.to_dict()})
 
 
 def _units(stats: GranuleStats, max_units: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

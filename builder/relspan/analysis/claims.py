@@ -1,8 +1,14 @@
 """Claim verdicts: the authors' statements, re-checked on every build.
 
 A claim (``claims:`` in the spec, :class:`relspan.spec.model.ClaimSpec`) is
-tested against the analysis of every window of its plan. The verdict keeps
-the numbers behind it so the site and ``relspan check`` can show them.
+tested against the analysis of every window of its plan (``no_break``: against
+the scan of the whole sample). The verdict keeps the numbers behind it so the
+site and ``relspan check`` can show them.
+
+Three verdicts: the claim holds, fails, or *cannot be judged* (the data or the
+analysis cannot support either: e.g. a stability claim where a compared window
+has no determined relation, or where sampling alone moves the subspace by more
+than the claimed angle). ``relspan check`` exits 1 unless every claim holds.
 """
 
 from __future__ import annotations
@@ -11,7 +17,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from relspan.analysis.stability import subspace_stability
 from relspan.assumptions import assumption as _assumption
 from relspan.spec.model import ClaimSpec
 
@@ -35,6 +40,10 @@ class ClaimVerdict:
         The numbers behind the verdict (JSON-ready).
     windows_failing : tuple of str
         Labels of the windows where the claim does not hold.
+    judged : bool
+        False when the claim cannot be judged (``holds`` is then False too).
+    why : str
+        Why it cannot be judged ("" otherwise).
     """
 
     claim: ClaimSpec
@@ -42,9 +51,14 @@ class ClaimVerdict:
     observed: str
     numbers: dict = field(default_factory=dict)
     windows_failing: tuple[str, ...] = ()
+    judged: bool = True
+    why: str = ""
 
     @property
     def word(self) -> str:
+        """``"holds"``, ``"fails"`` or ``"cannot be judged"``."""
+        if not self.judged:
+            return "cannot be judged"
         return "holds" if self.holds else "fails"
 
     def to_dict(self) -> dict:
@@ -52,7 +66,8 @@ class ClaimVerdict:
 
         c = self.claim
         return jsonable({"id": c.id, "kind": c.kind, "dataset": c.dataset, "plan": c.plan,
-                         "text": c.text, "holds": self.holds, "observed": self.observed,
+                         "text": c.text, "holds": self.holds, "verdict": self.word, "why": self.why,
+                         "observed": self.observed,
                          "numbers": self.numbers, "windows_failing": list(self.windows_failing)})
 
 
@@ -60,8 +75,12 @@ def _fmt(x: float) -> str:
     return f"{x:.3g}"
 
 
+def _unjudged(claim: ClaimSpec, observed: str, why: str, numbers: dict | None = None) -> ClaimVerdict:
+    return ClaimVerdict(claim, False, observed, numbers or {}, (), judged=False, why=why)
+
+
 def _corank(claim: ClaimSpec, plan) -> ClaimVerdict:
-    assumption = claim.assumption or "equal"
+    assumption = claim.assumption  # the spec requires it for corank claims
     seq = [a.coranks.get(assumption) for a in plan.analyses]
     labels = plan.labels
 
@@ -86,34 +105,99 @@ def _corank(claim: ClaimSpec, plan) -> ClaimVerdict:
                 f"{len(seq)} window(s); {len(seq) - len(failing)} of {len(seq)} agree")
     if undetermined:
         observed += f"; undetermined at the tolerance in {undetermined}"
-    return ClaimVerdict(claim, not failing, observed + ".",
-                        {"assumption": assumption, "coranks": dict(zip(labels, seq))}, failing)
+    numbers = {"assumption": assumption, "coranks": dict(zip(labels, seq))}
+    determined_failing = tuple(lab for lab, q in zip(labels, seq) if q is not None and not ok(q))
+    if undetermined and not determined_failing:
+        return ClaimVerdict(claim, False, observed + ".", numbers, failing, judged=False,
+                            why=f"the corank is undetermined at the tolerance in {undetermined} of "
+                                f"{len(seq)} window(s), and every determined one agrees")
+    return ClaimVerdict(claim, not failing, observed + ".", numbers, failing)
 
 
 def _subspace(claim: ClaimSpec, plan, result) -> ClaimVerdict:
+    """The windows' relation subspaces compared with each other (not with the full sample)."""
     assumption = claim.assumption or "equal"
-    q = claim.corank or (result.examined[0] if result.examined else 1)
-    stab = plan.stability.get((assumption, q))
+    q = int(claim.corank)
+    name = _assumption(assumption).name
+    below = float(claim.below_deg)
+    labels = plan.labels
+    numbers = {"assumption": assumption, "corank": q, "below_deg": below}
+    head = f"Corank-{q} relation subspaces of the windows of plan {plan.plan.id!r} under {name}"
+    if len(plan.analyses) < 2:
+        why = "the plan has a single window, so there is nothing to compare"
+        return _unjudged(claim, f"{head}: cannot be judged: {why}.", why, numbers)
+    seq = [a.coranks.get(assumption) for a in plan.analyses]
+    numbers["coranks"] = dict(zip(labels, seq))
+    other = tuple(lab for lab, c in zip(labels, seq) if c is not None and c >= 1 and c != q)
+    if other:
+        return ClaimVerdict(claim, False, f"{head}: the number of relations is not {q} in "
+                            f"{len(other)} window(s) ({', '.join(other[:4])}), so no {q}-dimensional "
+                            "subspace persists across them.", numbers, other)
+    missing = [(lab, c) for lab, c in zip(labels, seq) if c is None or c == 0]
+    if missing:
+        parts = [f"{lab} ({'undetermined at the tolerance' if c is None else 'no relation found'})"
+                 for lab, c in missing[:4]]
+        why = (f"under {name} the corank is not {q} in compared window(s): {', '.join(parts)}; angles "
+               "between relations that the data do not show mean nothing")
+        return _unjudged(claim, f"{head}: cannot be judged: {why}.", why, numbers)
+    stab = plan.stability.get(assumption)
     if stab is None:
-        bases = [a.bases.get(assumption, {}).get(q) for a in plan.analyses]
-        ref = result.full.bases.get(assumption, {}).get(q)
-        if ref is None or any(b is None for b in bases):
-            return ClaimVerdict(claim, False, f"No corank-{q} relation subspace under "
-                                f"{_assumption(assumption).name} could be computed in every window, so the "
-                                "claim cannot be confirmed.", {"assumption": assumption, "corank": q})
-        stab = subspace_stability(bases, labels=plan.labels, reference=ref,
-                                  threshold_deg=float(claim.below_deg))
-    angles = np.asarray(stab.to_reference_deg, dtype=float)
-    failing = tuple(lab for lab, a in zip(plan.labels, angles) if not a < claim.below_deg)
-    worst = float(np.max(angles)) if angles.size else 0.0
-    observed = (f"Largest angle between a window's corank-{q} relation subspace and the full sample's, "
-                f"under {_assumption(assumption).name}: {_fmt(worst)} degrees (claim: below "
-                f"{_fmt(claim.below_deg)}); largest angle between any two windows: "
-                f"{_fmt(stab.max_pairwise_deg)} degrees.")
-    return ClaimVerdict(claim, not failing, observed,
-                        {"assumption": assumption, "corank": q, "max_to_full_deg": worst,
-                         "max_pairwise_deg": float(stab.max_pairwise_deg),
-                         "to_full_deg": dict(zip(plan.labels, angles.tolist()))}, failing)
+        why = (f"under {name} the answer in a window is a set or family of subspaces, not one subspace, "
+               "so windows cannot be compared by one angle" if assumption == "diagonal" else
+               f"no comparison of windows was computed under {name}")
+        return _unjudged(claim, f"{head}: cannot be judged: {why}.", why, numbers)
+    if stab.pairwise_deg is not None:
+        iu = np.triu_indices(len(labels), 1)
+        ang, thr = stab.pairwise_deg[iu], stab.pairwise_threshold_deg[iu]
+        pairs = list(zip(iu[0].tolist(), iu[1].tolist()))
+        compared = "every pair of windows"
+    else:
+        ang, thr = stab.neighbour_deg, stab.neighbour_threshold_deg
+        pairs = [tuple(p) for p in stab.neighbour_pairs.tolist()]
+        compared = "neighbouring windows"
+    worst = float(np.max(ang)) if ang.size else 0.0
+    spread = float(np.max(thr)) if thr.size else 0.0
+    numbers.update({"max_between_windows_deg": worst, "max_sampling_threshold_deg": spread,
+                    "compared": compared, "rule": stab.rule,
+                    "between_windows_deg": {f"{labels[i]} | {labels[j]}": float(a)
+                                            for (i, j), a in zip(pairs, ang)}})
+    failing = tuple(dict.fromkeys(lab for (i, j), a in zip(pairs, ang) if not a < below
+                                  for lab in (labels[i], labels[j])))
+    observed = (f"{head}, compared between {compared}: largest angle {_fmt(worst)} degrees (claim: below "
+                f"{_fmt(below)}); sampling alone produces angles up to {_fmt(spread)} degrees here "
+                f"({stab.rule.rstrip('.')})")
+    if failing:
+        return ClaimVerdict(claim, False, observed + ".", numbers, failing)
+    if spread >= below:
+        why = (f"sampling alone moves these subspaces by up to {_fmt(spread)} degrees, more than the claimed "
+               f"{_fmt(below)}, so an angle below {_fmt(below)} is no evidence of stability")
+        return _unjudged(claim, observed + f"; cannot be judged: {why}.", why, numbers)
+    return ClaimVerdict(claim, True, observed + ".", numbers, ())
+
+
+def _no_break(claim: ClaimSpec, result) -> ClaimVerdict:
+    """No break of the relation subspace at any date (the scan of the whole sample)."""
+    assumption = claim.assumption or "equal"
+    name = _assumption(assumption).name
+    br = getattr(result, "breaks", {}).get(assumption)
+    if br is None:
+        why = f"no break scan was run under {name}"
+        return _unjudged(claim, f"Break scan under {name}: cannot be judged: {why}.", why,
+                         {"assumption": assumption})
+    if br.scan is None:
+        why = br.reason.rstrip(".")
+        return _unjudged(claim, f"Break scan under {name}: {br.reason}", why, br.to_dict())
+    sc = br.scan
+    if sc.found:
+        observed = (f"A break of the {sc.q}-dimensional relation subspace under {name} at {br.date} "
+                    f"(interval {br.date_low} to {br.date_high}); angle before/after {_fmt(sc.angle_deg)} "
+                    f"degrees; statistic {_fmt(sc.statistic)} above the critical value "
+                    f"{_fmt(sc.critical_value)} (p = {_fmt(sc.p_value)}). {sc.rule}")
+        return ClaimVerdict(claim, False, observed, br.to_dict(), (str(br.date),))
+    observed = (f"No break of the {sc.q}-dimensional relation subspace under {name}: statistic "
+                f"{_fmt(sc.statistic)} at most the critical value {_fmt(sc.critical_value)} "
+                f"(p = {_fmt(sc.p_value)}). {sc.rule}")
+    return ClaimVerdict(claim, True, observed, br.to_dict(), ())
 
 
 def _sign(claim: ClaimSpec, plan, names) -> ClaimVerdict:
@@ -156,6 +240,8 @@ def _bounded(claim: ClaimSpec, plan, names) -> ClaimVerdict:
 def evaluate_claim(claim: ClaimSpec, datasets) -> ClaimVerdict:
     """Verdict on one claim against the :class:`~relspan.analysis.results.DatasetResult` s of a run."""
     result = next(d for d in datasets if d.spec.id == claim.dataset)  # the loader checked it exists
+    if claim.kind == "no_break":
+        return _no_break(claim, result)
     plan = result.plan(claim.plan)
     if claim.kind == "corank":
         return _corank(claim, plan)

@@ -9,7 +9,7 @@ an analysis quantity.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from relspan.analysis._common import jsonable
 from relspan.analysis.findings.records import DatasetSummary, Finding
@@ -32,9 +32,11 @@ class PlanResult:
         The data layer's window descriptions (label, rows, first/last time).
     analyses : tuple of WindowAnalysis
         One per window, same order.
-    stability : mapping (assumption, q) -> SubspaceStability
-        Principal angles between the windows' relation subspaces (and to the
-        full sample) for every examined corank and assumption with a basis.
+    stability : mapping assumption -> SubspaceStability
+        Each window at its own corank, compared with its neighbours, the full
+        sample (and every other window in small plans), a change judged
+        against resampling (:func:`relspan.analysis.stability.compare_windows`);
+        assumptions with a single relation basis only (not diagonal noise).
     swings : mapping assumption -> CoefficientSwing
         Normalised coefficients of the reference relation across windows.
     coranks : CorankSequence
@@ -89,9 +91,16 @@ class DatasetResult:
     flat : mapping int -> object
         :class:`relspan.analysis.flat.ElementaryFlat` per examined corank.
     threshold_deg : float
-        Stability threshold (largest principal angle) in degrees.
+        The spec's ``checks.max_angle_deg`` (degrees): the angle a claim or a
+        reader calls large; changes are decided by resampling, not by it.
     cache_key : str
         Content key of everything this result depends on ("" when not cached).
+    breaks : mapping assumption -> DatasetBreak
+        The scan for one break of the relation subspace at an unknown date
+        (:func:`relspan.run.cross_window.dataset_breaks`), or why it did not run.
+    sampling_spread : mapping assumption -> SamplingSpread
+        The bootstrap spread of the full sample's relation subspace (equal and
+        bounded noise), shown beside the bounded-noise population bound.
     """
 
     spec: DatasetSpec
@@ -108,6 +117,8 @@ class DatasetResult:
     cache_key: str = ""
     trends: object = None
     influence: object = None
+    breaks: dict = field(default_factory=dict)
+    sampling_spread: dict = field(default_factory=dict)
 
     @property
     def names(self) -> tuple[str, ...]:

@@ -26,9 +26,11 @@ import pandas as pd
 
 from relspan.analysis._common import EPS, check_names_len
 from relspan.analysis._export import jsonable
+from relspan.analysis.intervals import largest_angle_stack
 from relspan.errors import OptionsError
 
-__all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "CoefficientSwing",
+__all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "compare_windows",
+           "direct_rotation_stack", "null_angle_stack", "SamplingSpread", "sampling_spread", "TEST_LEVEL", "PAIRWISE_CAP", "CoefficientSwing",
            "coefficient_swing", "CorankSequence", "corank_sequence", "ZERO_SIGN_TOL"]
 
 #: a coefficient within this distance of 0 has no sign (it neither starts nor ends a sign change)
@@ -120,155 +122,515 @@ def principal_angles(a, b, *, layout: str = "rows") -> np.ndarray:
     return np.sort(ang)
 
 
-def _largest_angle(a: np.ndarray, b: np.ndarray) -> float:
-    ang = principal_angles(a, b)
-    return float(ang[-1]) if ang.size else 0.0
+#: decisions (a change between windows, a break) are taken at this quantile of the resampled
+#: null: a 5% family-wise level; intervals use the spec's own level
+TEST_LEVEL = 0.95
+#: below this many comparable windows every pair is compared (a w x w matrix); above it only
+#: neighbours in sequence and each window against the reference, so cost grows linearly
+PAIRWISE_CAP = 40
+#: comparisons whose resampled null draws are held at once (bounds memory)
+_CHUNK = 256
+
+
+def direct_rotation_stack(bases_from, bases_to) -> np.ndarray:
+    """Batched :func:`relspan.analysis.intervals.direct_rotation`: ``(P, n, n)`` rotations.
+
+    ``R_p`` turns ``span(bases_from[p])`` onto ``span(bases_to[p])`` in the
+    planes of their principal vector pairs only (Davis & Kahan 1970) and is the
+    identity elsewhere. ``bases_from``, ``bases_to``: ``(P, q, n)``.
+    """
+    a = np.asarray(bases_from, dtype=float)
+    b = np.asarray(bases_to, dtype=float)
+    p, q, n = a.shape
+    qa, _ = np.linalg.qr(np.swapaxes(a, 1, 2))
+    qb, _ = np.linalg.qr(np.swapaxes(b, 1, 2))
+    u, _, vt = np.linalg.svd(np.swapaxes(qa, 1, 2) @ qb)
+    v_from = qa @ u
+    u_to = qb @ np.swapaxes(vt, 1, 2)
+    r = np.broadcast_to(np.eye(n), (p, n, n)).copy()
+    for i in range(q):
+        e1 = v_from[:, :, i]
+        ut = u_to[:, :, i]
+        c = np.einsum("pi,pi->p", ut, e1)
+        w = ut - c[:, None] * e1
+        sn = np.linalg.norm(w, axis=1)
+        ok = sn > 4.0 * n * EPS
+        e2 = np.where(ok[:, None], w / np.where(ok, sn, 1.0)[:, None], 0.0)
+        c = np.where(ok, np.clip(c, -1.0, 1.0), 1.0)
+        sn = np.where(ok, sn, 0.0)
+        o11 = e1[:, :, None] * e1[:, None, :]
+        o22 = e2[:, :, None] * e2[:, None, :]
+        o21 = e2[:, :, None] * e1[:, None, :]
+        r = r + (c - 1.0)[:, None, None] * (o11 + o22) + sn[:, None, None] * (o21 - np.swapaxes(o21, 1, 2))
+    return r
+
+
+def _largest_angles(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Largest principal angle (degrees) between paired ``(P, q, n)`` bases; one relation by a dot product.
+
+    For q = 1 the angle is ``atan2(|b - (a.b) a|, |a.b|)`` on unit vectors (the
+    sine and cosine pair of Björck & Golub, without a batched QR and SVD);
+    otherwise :func:`relspan.analysis.intervals.largest_angle_stack`.
+    """
+    if a.shape[1] != 1:
+        return largest_angle_stack(a, b)
+    u = a[:, 0, :] / np.linalg.norm(a[:, 0, :], axis=1, keepdims=True)
+    v = b[:, 0, :] / np.linalg.norm(b[:, 0, :], axis=1, keepdims=True)
+    c = np.einsum("pi,pi->p", u, v)
+    sn = np.linalg.norm(v - c[:, None] * u, axis=1)
+    sn = np.where(sn <= 4.0 * u.shape[1] * EPS, 0.0, sn)
+    return np.degrees(np.arctan2(sn, np.abs(c)))
+
+
+def null_angle_stack(est_a, draws_a, est_b, draws_b) -> np.ndarray:
+    """Angles sampling alone produces between two windows that share one subspace, batched.
+
+    For each comparison ``p`` the draws of window B are carried onto window A's
+    estimate by the direct rotation from B's estimate to A's, and paired with
+    A's draws (the rule of :func:`relspan.analysis.intervals.angle_change_test`).
+    ``draws_b`` may be None: B is then treated as fixed (a reference estimated
+    from many more rows) and the null is the angle between A's draws and A's
+    estimate.
+
+    Parameters
+    ----------
+    est_a, est_b : (P, q, n) arrays
+    draws_a, draws_b : (P, B, q, n) arrays
+
+    Returns
+    -------
+    (P, B) ndarray of degrees
+    """
+    ea = np.asarray(est_a, dtype=float)
+    da = np.asarray(draws_a, dtype=float)
+    p, nb, q, n = da.shape
+    if draws_b is None:
+        moved = np.broadcast_to(ea[:, None], da.shape)
+    else:
+        rot = direct_rotation_stack(est_b, ea)
+        moved = np.asarray(draws_b, dtype=float) @ np.swapaxes(rot, 1, 2)[:, None]
+    return _largest_angles(da.reshape(p * nb, q, n), np.reshape(moved, (p * nb, q, n))).reshape(p, nb)
 
 
 @dataclass(frozen=True, slots=True, eq=False)
 class SubspaceStability:
-    """How far the relation subspaces of several windows lie from each other and from the full sample.
+    """Whether the relation subspace of one noise assumption changes across the windows of a plan.
 
-    Method: principal angles (Björck & Golub 1973, *Numerical methods for
-    computing angles between linear subspaces*); the distance between two
-    subspaces is their largest principal angle.
+    Each window is taken at its own corank. Two windows are compared when both
+    have a determined corank >= 1 and the same one (windows whose corank is
+    undetermined, or zero, cannot be compared and are no evidence of change;
+    a different determined corank is a change in the number of relations,
+    judged in :class:`CorankSequence`, not an angle). Compared: neighbours in
+    sequence (each comparable window with the previous comparable one), every
+    window with the reference (the full sample, at its own corank), and every
+    pair when at most :data:`PAIRWISE_CAP` windows are comparable.
+
+    Rule (one sentence in :attr:`rule`): a comparison's null draws are the
+    angles sampling alone produces between two estimates of one subspace
+    (:func:`null_angle_stack`: paired resamples, B's carried onto A's
+    estimate by the direct rotation; the reference is treated as fixed). Each
+    comparison is standardised by the ``level`` quantile of its own null, and
+    the family of comparisons is judged by the max-T rule (Westfall & Young
+    1993, *Resampling-Based Multiple Testing*): a change is declared where the
+    standardised angle exceeds the ``level`` quantile, over resamples, of the
+    largest standardised null draw of the whole family. So a plan of many
+    windows raises a false alarm with probability about ``1 - level``, not
+    once per comparison.
 
     Attributes
     ----------
+    assumption : str
     labels : tuple of str
-        Window labels, in order.
-    dims : tuple of int
-        Dimension (corank) of each window's subspace.
-    pairwise_deg : (w, w) ndarray
-        Largest principal angle between windows i and j (degrees); 90 where
-        the dimensions differ.
-    to_reference_deg : (w,) ndarray or None
-        Largest principal angle of each window to the reference (full sample).
-    max_pairwise_deg, median_pairwise_deg : float
-        Over pairs i < j (0 with a single window).
-    max_to_reference_deg, median_to_reference_deg : float or None
-        Over windows, when a reference is given.
-    threshold_deg : float
-        Largest angle accepted as stable.
-    dimension_mismatch : bool
-        True when the windows (or the reference) do not all have the same dimension.
-    stable : bool
-        True when dimensions agree and the judged angle (the largest angle to
-        the reference when given, else the largest pairwise angle) is at
-        most ``threshold_deg``.
+    dims : tuple of (int or None)
+        Each window's own corank (None: undetermined at the tolerance).
+    reference_dim : int or None
+        The reference's corank (None: undetermined or no reference).
+    neighbour_pairs : (m, 2) int ndarray
+        Window indices of the neighbour comparisons, in sequence.
+    neighbour_deg, neighbour_threshold_deg : (m,) ndarray
+        Largest principal angle of each neighbour comparison, and the
+        family-adjusted angle it had to exceed to count as a change.
+    neighbour_change : (m,) bool ndarray
+    to_reference_deg, reference_threshold_deg : (w,) ndarray
+        Per window, the angle to the reference and its threshold (NaN where
+        the window cannot be compared with the reference).
+    reference_change : (w,) bool ndarray
+    pairwise_deg : (w, w) ndarray or None
+        Largest angle between every comparable pair (NaN where not comparable);
+        None above :data:`PAIRWISE_CAP` comparable windows.
+    pairwise_change : (w, w) bool ndarray or None
+    pairwise_threshold_deg : (w, w) ndarray or None
+        The family-adjusted threshold of each pair (NaN where not comparable).
+    max_to_reference_deg, max_neighbour_deg, max_pairwise_deg : float or None
+        Largest observed angle of each kind (None when there is none).
+    family_critical : float or None
+        The max-T critical ratio (None without comparisons).
+    compared : int
+        Comparisons made.
+    not_comparable : tuple of str
+        Labels of windows that could not be compared, each with why.
+    level : float
+    resamples : int
+    stable : bool or None
+        True: no comparison shows a change; False: at least one does; None:
+        cannot be judged (no two windows, or no window and the reference, comparable).
+    rule : str
     verdict : str
-        One sentence stating the verdict, the angle judged and the threshold.
+        One sentence: the verdict with the assumption and the rule it rests on.
     """
 
+    assumption: str
     labels: tuple[str, ...]
-    dims: tuple[int, ...]
-    pairwise_deg: np.ndarray
-    to_reference_deg: np.ndarray | None
-    max_pairwise_deg: float
-    median_pairwise_deg: float
+    dims: tuple[int | None, ...]
+    reference_dim: int | None
+    neighbour_pairs: np.ndarray
+    neighbour_deg: np.ndarray
+    neighbour_threshold_deg: np.ndarray
+    neighbour_change: np.ndarray
+    to_reference_deg: np.ndarray
+    reference_threshold_deg: np.ndarray
+    reference_change: np.ndarray
+    pairwise_deg: np.ndarray | None
+    pairwise_change: np.ndarray | None
+    pairwise_threshold_deg: np.ndarray | None
     max_to_reference_deg: float | None
-    median_to_reference_deg: float | None
-    threshold_deg: float
-    dimension_mismatch: bool
-    stable: bool
+    max_neighbour_deg: float | None
+    max_pairwise_deg: float | None
+    family_critical: float | None
+    compared: int
+    not_comparable: tuple[str, ...]
+    level: float
+    resamples: int
+    stable: bool | None
+    rule: str
     verdict: str
 
+    @property
+    def status(self) -> str:
+        """``"steady"``, ``"changes"`` or ``"cannot be judged"``."""
+        return "cannot be judged" if self.stable is None else ("steady" if self.stable else "changes")
+
+    @property
+    def changes_at(self) -> tuple[tuple[str, str], ...]:
+        """(before, after) labels of the neighbour comparisons that show a change."""
+        return tuple((self.labels[i], self.labels[j])
+                     for (i, j), c in zip(self.neighbour_pairs.tolist(), self.neighbour_change) if c)
+
     def to_dict(self) -> dict:
-        """JSON-ready dict."""
-        return jsonable({"labels": list(self.labels), "dims": list(self.dims),
-                         "pairwise_deg": self.pairwise_deg, "to_reference_deg": self.to_reference_deg,
-                         "max_pairwise_deg": self.max_pairwise_deg,
-                         "median_pairwise_deg": self.median_pairwise_deg,
-                         "max_to_reference_deg": self.max_to_reference_deg,
-                         "median_to_reference_deg": self.median_to_reference_deg,
-                         "threshold_deg": self.threshold_deg,
-                         "dimension_mismatch": self.dimension_mismatch, "stable": self.stable,
-                         "verdict": self.verdict})
+        """JSON-ready dict (see docs/results.md)."""
+        return jsonable({
+            "assumption": self.assumption, "labels": list(self.labels), "dims": list(self.dims),
+            "reference_dim": self.reference_dim,
+            "neighbours": [{"before": self.labels[i], "after": self.labels[j], "angle_deg": a,
+                            "threshold_deg": t, "change": bool(c)}
+                           for (i, j), a, t, c in zip(self.neighbour_pairs.tolist(), self.neighbour_deg,
+                                                      self.neighbour_threshold_deg, self.neighbour_change)],
+            "to_reference_deg": self.to_reference_deg, "reference_threshold_deg": self.reference_threshold_deg,
+            "reference_change": self.reference_change, "pairwise_deg": self.pairwise_deg,
+            "pairwise_change": self.pairwise_change, "pairwise_threshold_deg": self.pairwise_threshold_deg,
+            "max_to_reference_deg": self.max_to_reference_deg,
+            "max_neighbour_deg": self.max_neighbour_deg, "max_pairwise_deg": self.max_pairwise_deg,
+            "family_critical": self.family_critical, "compared": self.compared,
+            "not_comparable": list(self.not_comparable), "level": self.level, "resamples": self.resamples,
+            "status": self.status, "rule": self.rule, "verdict": self.verdict})
 
     def to_frame(self) -> pd.DataFrame:
-        """Pairwise largest angles (degrees), windows by windows, plus a column to the reference."""
-        df = pd.DataFrame(self.pairwise_deg, index=pd.Index(self.labels, name="window"),
-                          columns=list(self.labels))
-        if self.to_reference_deg is not None:
-            df["to_reference"] = self.to_reference_deg
-        return df
+        """One row per window: own corank, angle to the reference, its threshold, change."""
+        return pd.DataFrame({"corank": pd.array(list(self.dims), dtype="Int64"),
+                             "to_reference_deg": self.to_reference_deg,
+                             "reference_threshold_deg": self.reference_threshold_deg,
+                             "reference_change": self.reference_change},
+                            index=pd.Index(self.labels, name="window"))
 
 
-def subspace_stability(bases: Sequence, *, labels: Sequence[str], reference=None,
-                       threshold_deg: float) -> SubspaceStability:
-    """Compare the relation subspaces of several windows.
+@dataclass(frozen=True, slots=True)
+class SamplingSpread:
+    """How far one window's relation subspace moves under resampling: the bootstrap spread of its angle.
+
+    Attributes
+    ----------
+    assumption : str
+    q : int
+    angle_deg : float
+        The ``level`` quantile of the largest principal angle between the
+        estimate and its resampled subspaces (degrees).
+    level : float
+    resamples : int
+    rule : str
+    """
+
+    assumption: str
+    q: int
+    angle_deg: float
+    level: float
+    resamples: int
+    rule: str
+
+    def to_dict(self) -> dict:
+        return jsonable({"assumption": self.assumption, "q": self.q, "angle_deg": self.angle_deg,
+                         "level": self.level, "resamples": self.resamples, "rule": self.rule})
+
+
+def sampling_spread(basis, draws, *, assumption: str, level: float) -> SamplingSpread:
+    """:class:`SamplingSpread` of one estimate from its resampled bases ``(B, q, n)``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> a = np.array([[1.0, 0.0, 0.0]])
+    >>> d = np.tile(a, (99, 1, 1)); d[:, 0, 1] = np.linspace(-0.1, 0.1, 99)
+    >>> round(sampling_spread(a, d, assumption="equal", level=0.9).angle_deg, 1)
+    5.1
+    """
+    b = np.atleast_2d(np.asarray(basis, dtype=float))
+    d = np.asarray(draws, dtype=float)
+    ang = largest_angle_stack(b, d)
+    val = float(np.quantile(ang, level))
+    rule = (f"the {level:.0%} quantile of the largest principal angle between the estimate and its "
+            f"{d.shape[0]} bootstrap resamples")
+    return SamplingSpread(assumption=assumption, q=int(b.shape[0]), angle_deg=val, level=float(level),
+                          resamples=int(d.shape[0]), rule=rule)
+
+
+def _as_basis(b) -> np.ndarray | None:
+    if b is None:
+        return None
+    m = np.atleast_2d(np.asarray(b, dtype=float))
+    return m if m.shape[0] >= 1 else None
+
+
+def _max_or_none(x: np.ndarray) -> float | None:
+    x = np.asarray(x, dtype=float)
+    x = x[np.isfinite(x)]
+    return float(x.max()) if x.size else None
+
+
+def compare_windows(bases: Sequence, *, labels: Sequence[str], resampled, reference=None,
+                    coranks: Sequence[int | None] | None = None, assumption: str = "equal",
+                    level: float = TEST_LEVEL, pairwise_cap: int = PAIRWISE_CAP,
+                    chunk: int = _CHUNK) -> SubspaceStability:
+    """Compare the relation subspaces of a plan's windows against their sampling spread.
 
     Parameters
     ----------
-    bases : sequence of (q_i, n) array_like
-        One relation basis (rows) per window.
+    bases : sequence of ((q_i, n) array_like or None)
+        Each window's relation basis at its own corank (None: no basis, e.g.
+        the corank is undetermined or zero).
     labels : sequence of str
-        One label per window.
+    resampled : callable
+        ``resampled(i)`` returns window ``i``'s resampled bases ``(B, q_i, n)``
+        (same B for every window). Called for comparable windows only, in
+        window order, at most twice per window above the pairwise cap.
     reference : (q, n) array_like, optional
-        Basis of the full-sample subspace.
-    threshold_deg : float
-        Largest principal angle (degrees) still called stable; in (0, 90].
+        The full sample's basis at its own corank (treated as fixed).
+    coranks : sequence of (int or None), optional
+        Each window's corank, to say why a window without a basis is not
+        compared (default: the basis dimension, None without a basis).
+    assumption : str
+        Recorded on the result and named in its sentences.
+    level : float
+        Quantile of the family's null for a change (0.95: 5% family-wise).
+    pairwise_cap : int
+        Compare every pair when at most this many windows are comparable.
+    chunk : int
+        Comparisons per batched null computation (memory bound).
 
     Returns
     -------
     SubspaceStability
 
+    References
+    ----------
+    .. [1] Å. Björck and G. H. Golub, Math. Comp. 27(123), 579-594, 1973.
+    .. [2] C. Davis and W. M. Kahan, SIAM J. Numer. Anal. 7(1), 1-46, 1970.
+    .. [3] P. H. Westfall and S. S. Young, Resampling-Based Multiple Testing,
+           Wiley, 1993.
+
     Examples
     --------
     >>> import numpy as np
-    >>> a = np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 0.0]])
-    >>> b = np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 1.0]])
-    >>> st = subspace_stability([a, b, a], labels=["w1", "w2", "w3"], threshold_deg=10.0)
-    >>> st.stable, round(st.max_pairwise_deg, 6)
-    (False, 45.0)
+    >>> rng = np.random.default_rng(0)
+    >>> a = np.array([[1.0, 0.0, 0.0]])
+    >>> b = np.array([[np.cos(0.5), np.sin(0.5), 0.0]])   # about 29 degrees away
+    >>> est = [a, a, b]
+    >>> def draws(i):  # each window's estimate jitters by about 1 degree
+    ...     d = np.tile(est[i], (199, 1, 1)) + rng.normal(scale=0.02, size=(199, 1, 3))
+    ...     return d / np.linalg.norm(d, axis=2, keepdims=True)
+    >>> st = compare_windows(est, labels=["w1", "w2", "w3"], resampled=draws)
+    >>> st.stable, st.changes_at
+    (False, (('w2', 'w3'),))
     """
-    mats = [np.atleast_2d(np.asarray(b, dtype=float)) for b in bases]
-    if not mats:
-        raise OptionsError("subspace_stability needs at least one window basis.", key="bases",
-                           fix="Pass one relation basis per window.")
-    labels_t = check_names_len(labels, len(mats), key="labels")
-    if not (isinstance(threshold_deg, (int, float, np.floating, np.integer))
-            and 0 < float(threshold_deg) <= 90):
-        raise OptionsError(f"threshold_deg must be a number of degrees in (0, 90]; got {threshold_deg!r}.",
-                           key="max_angle_deg", fix="Use a threshold such as 10 (degrees).")
-    thr = float(threshold_deg)
+    mats = [_as_basis(b) for b in bases]
     w = len(mats)
-    dims = tuple(int(m.shape[0]) for m in mats)
-    pair = np.zeros((w, w))
+    labels_t = check_names_len(labels, w, key="labels")
+    if not 0.5 <= float(level) < 1.0:
+        raise OptionsError(f"level must be in [0.5, 1); got {level!r}.", key="level",
+                           fix="Use 0.95 (a change declared at the 5% level).")
+    dims_given = list(coranks) if coranks is not None else [None if m is None else m.shape[0] for m in mats]
+    if len(dims_given) != w:
+        raise OptionsError(f"coranks has {len(dims_given)} entries for {w} windows.", key="coranks",
+                           fix="Give one corank (or None) per window.")
+    dims = tuple(None if d is None else int(d) for d in dims_given)
+    ref = _as_basis(reference)
+    ref_dim = None if ref is None else int(ref.shape[0])
+    usable = [i for i in range(w) if mats[i] is not None and dims[i] not in (None, 0)
+              and mats[i].shape[0] == dims[i]]
+    not_comp = []
+    usable_set = set(usable)
     for i in range(w):
-        for j in range(i + 1, w):
-            ang = 90.0 if dims[i] != dims[j] else _largest_angle(mats[i], mats[j])
-            pair[i, j] = pair[j, i] = ang
-    iu = np.triu_indices(w, 1)
-    offd = pair[iu]
-    max_p = float(offd.max()) if offd.size else 0.0
-    med_p = float(np.median(offd)) if offd.size else 0.0
-    to_ref = None
-    max_r = med_r = None
-    mismatch = len(set(dims)) > 1
-    if reference is not None:
-        ref = np.atleast_2d(np.asarray(reference, dtype=float))
-        mismatch = mismatch or any(d != ref.shape[0] for d in dims)
-        to_ref = np.array([90.0 if m.shape[0] != ref.shape[0] else _largest_angle(m, ref) for m in mats])
-        max_r = float(to_ref.max())
-        med_r = float(np.median(to_ref))
-    judged = max_r if max_r is not None else max_p
-    what = "to the full sample" if max_r is not None else "between any two windows"
-    stable = (not mismatch) and judged <= thr
-    if mismatch:
-        verdict = (f"Unstable: the number of relations differs across windows (dimensions "
-                   f"{sorted(set(dims))}), so the subspaces cannot agree; threshold {thr:g} degrees.")
+        if i in usable_set:
+            continue
+        why = ("its corank is undetermined at the tolerance" if dims[i] is None else
+               "no relation holds in it" if dims[i] == 0 else "it has no relation basis")
+        not_comp.append(f"{labels_t[i]}: {why}")
+    # the comparisons: (i, j) with j = -1 for the reference
+    neigh = [(a, b) for a, b in zip(usable, usable[1:]) if dims[a] == dims[b]]
+    pairwise = len(usable) <= pairwise_cap
+    pairs = ([(a, b) for k, a in enumerate(usable) for b in usable[k + 1:] if dims[a] == dims[b]]
+             if pairwise else list(neigh))
+    # a single window is the whole plan: comparing it with the full sample compares nothing
+    refc = [(i, -1) for i in usable if ref_dim is not None and dims[i] == ref_dim and w >= 2]
+    comps = pairs + refc
+    # observed angles: one batched call per dimension
+    obs = np.full(len(comps), np.nan)
+    by_q: dict[int, list[int]] = {}
+    for k, (i, _) in enumerate(comps):
+        by_q.setdefault(dims[i], []).append(k)
+    for q, ks in by_q.items():
+        a = np.stack([mats[comps[k][0]] for k in ks])
+        b = np.stack([ref if comps[k][1] < 0 else mats[comps[k][1]] for k in ks])
+        obs[ks] = _largest_angles(a, b)
+    # null draws, chunked in window order; only the running family maximum is kept
+    q_level = np.full(len(comps), np.nan)
+    fam: np.ndarray | None = None
+    order = sorted(range(len(comps)), key=lambda k: (max(comps[k]), comps[k][0]))
+    held: dict[int, np.ndarray] = {}
+    resamples = 0
+    for s0 in range(0, len(order), chunk):
+        part = order[s0:s0 + chunk]
+        need = sorted({x for k in part for x in comps[k] if x >= 0})
+        for x in list(held):
+            if x not in need and not pairwise:
+                del held[x]
+        for x in need:
+            if x not in held:
+                d = np.asarray(resampled(x), dtype=float)
+                if d.ndim != 3 or d.shape[1:] != mats[x].shape:
+                    raise OptionsError(f"resampled bases of window {labels_t[x]!r} have shape {d.shape}; "
+                                       f"expected (B, {mats[x].shape[0]}, {mats[x].shape[1]}).",
+                                       key="resampled", fix="Resample at the window's own corank.")
+                held[x] = d
+        groups: dict[tuple[int, bool], list[int]] = {}
+        for k in part:
+            groups.setdefault((dims[comps[k][0]], comps[k][1] < 0), []).append(k)
+        for (_, to_ref), ks in groups.items():
+            nb = min(held[x].shape[0] for k in ks for x in comps[k] if x >= 0)
+            ea = np.stack([mats[comps[k][0]] for k in ks])
+            da = np.stack([held[comps[k][0]][:nb] for k in ks])
+            if to_ref:
+                null = null_angle_stack(ea, da, None, None)
+            else:
+                eb = np.stack([mats[comps[k][1]] for k in ks])
+                db = np.stack([held[comps[k][1]][:nb] for k in ks])
+                null = null_angle_stack(ea, da, eb, db)
+            ql = np.quantile(null, level, axis=1)
+            q_level[ks] = ql
+            ratio = null / np.maximum(ql, 1e-12)[:, None]
+            mx = ratio.max(axis=0)
+            if fam is None:
+                fam = mx
+            else:
+                m = min(fam.size, mx.size)
+                fam = np.maximum(fam[:m], mx[:m])
+            resamples = nb if resamples == 0 else min(resamples, nb)
+    crit = float(np.quantile(fam, level)) if fam is not None else None
+    thr = q_level * crit if crit is not None else np.full(len(comps), np.nan)
+    change = obs > thr if crit is not None else np.zeros(len(comps), dtype=bool)
+    index = {c: k for k, c in enumerate(comps)}
+    npairs = np.array(neigh, dtype=int).reshape(-1, 2)
+    n_deg = np.array([obs[index[c]] for c in neigh], dtype=float)
+    n_thr = np.array([thr[index[c]] for c in neigh], dtype=float)
+    n_chg = np.array([bool(change[index[c]]) for c in neigh], dtype=bool)
+    r_deg = np.full(w, np.nan)
+    r_thr = np.full(w, np.nan)
+    r_chg = np.zeros(w, dtype=bool)
+    for (i, _), k in ((c, index[c]) for c in refc):
+        r_deg[i], r_thr[i], r_chg[i] = obs[k], thr[k], change[k]
+    p_deg = p_chg = p_thr = None
+    if pairwise:
+        p_deg = np.full((w, w), np.nan)
+        p_thr = np.full((w, w), np.nan)
+        p_chg = np.zeros((w, w), dtype=bool)
+        for i in usable:
+            p_deg[i, i] = 0.0
+        for (i, j) in pairs:
+            k = index[(i, j)]
+            p_deg[i, j] = p_deg[j, i] = obs[k]
+            p_thr[i, j] = p_thr[j, i] = thr[k]
+            p_chg[i, j] = p_chg[j, i] = change[k]
+    stable = None if not comps else not bool(change.any())
+    name = _assumption_name(assumption)
+    lvl = f"{1 - float(level):.0%}"
+    rule = (f"Each window is taken at its own corank under {name}; two subspaces count as different only "
+            f"where their largest principal angle exceeds what resampling produces when nothing changes "
+            f"(paired bootstrap resamples, {resamples} per window, carried onto one common subspace; the "
+            f"full sample treated as fixed), judged for all {len(comps)} comparisons together at the {lvl} "
+            f"level (max-T rule, Westfall & Young 1993).")
+    what = ("every pair of windows and each window against the full sample" if pairwise else
+            "neighbouring windows and each window against the full sample")
+    if stable is None:
+        verdict = (f"Cannot be judged under {name}: " + ("a single window has nothing to be compared with."
+                   if w < 2 else "no two windows (nor a window and the full sample) have the same determined "
+                   "number of relations, so no relation subspaces can be compared."))
     elif stable:
-        verdict = (f"Stable: the largest principal angle {what} is {judged:.3g} degrees, within the "
-                   f"threshold of {thr:g} degrees.")
+        verdict = (f"No change under {name}: comparing {what} ({len(comps)} comparisons), no angle exceeds "
+                   f"what sampling alone produces at the {lvl} level; largest angle "
+                   f"{float(np.nanmax(obs)):.3g} degrees.")
     else:
-        verdict = (f"Unstable: the largest principal angle {what} is {judged:.3g} degrees, above the "
-                   f"threshold of {thr:g} degrees.")
-    return SubspaceStability(labels=labels_t, dims=dims, pairwise_deg=pair, to_reference_deg=to_ref,
-                             max_pairwise_deg=max_p, median_pairwise_deg=med_p,
-                             max_to_reference_deg=max_r, median_to_reference_deg=med_r,
-                             threshold_deg=thr, dimension_mismatch=mismatch, stable=stable,
-                             verdict=verdict)
+        k = int(np.nanargmax(np.where(change, obs / np.maximum(thr, 1e-12), -np.inf)))
+        i, j = comps[k]
+        other = "the full sample" if j < 0 else labels_t[j]
+        verdict = (f"Changes under {name}: {int(change.sum())} of {len(comps)} comparisons exceed what "
+                   f"sampling alone produces at the {lvl} level; e.g. {labels_t[i]} against {other}: "
+                   f"{obs[k]:.3g} degrees, above the threshold of {thr[k]:.3g} degrees.")
+    return SubspaceStability(
+        assumption=assumption, labels=labels_t, dims=dims, reference_dim=ref_dim, neighbour_pairs=npairs,
+        neighbour_deg=n_deg, neighbour_threshold_deg=n_thr, neighbour_change=n_chg, to_reference_deg=r_deg,
+        reference_threshold_deg=r_thr, reference_change=r_chg, pairwise_deg=p_deg, pairwise_change=p_chg,
+        pairwise_threshold_deg=p_thr,
+        max_to_reference_deg=_max_or_none(r_deg), max_neighbour_deg=_max_or_none(n_deg),
+        max_pairwise_deg=None if p_deg is None else _max_or_none(p_deg[np.triu_indices(w, 1)]),
+        family_critical=crit, compared=len(comps), not_comparable=tuple(not_comp), level=float(level),
+        resamples=int(resamples), stable=stable, rule=rule, verdict=verdict)
+
+
+def _assumption_name(aid: str) -> str:
+    try:
+        from relspan.assumptions import assumption
+        return f"the {assumption(aid).adjective} assumption"
+    except Exception:  # an id outside the table (tests, notebooks): say it as given
+        return f"the {aid} assumption"
+
+
+def subspace_stability(bases: Sequence, *, labels: Sequence[str], draws: Sequence, reference=None,
+                       assumption: str = "equal", level: float = TEST_LEVEL,
+                       pairwise_cap: int = PAIRWISE_CAP) -> SubspaceStability:
+    """:func:`compare_windows` with every window's resampled bases given up front (small plans, tests).
+
+    ``draws[i]`` is window i's ``(B, q_i, n)`` stack (None where ``bases[i]`` is None).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(1)
+    >>> a = np.array([[0.0, 0.0, 1.0]])
+    >>> jitter = lambda: np.tile(a, (199, 1, 1)) + rng.normal(scale=0.05, size=(199, 1, 3))
+    >>> st = subspace_stability([a, a], labels=["early", "late"], draws=[jitter(), jitter()])
+    >>> st.stable, st.compared     # one pair; the plan has no reference here
+    (True, 1)
+    """
+    return compare_windows(bases, labels=labels, resampled=lambda i: draws[i], reference=reference,
+                           assumption=assumption, level=level, pairwise_cap=pairwise_cap)
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -401,7 +763,20 @@ class CorankSequence:
     values : dict of str to tuple of int
         Distinct determined coranks, ascending.
     changes_at : dict of str to tuple of (str, str)
-        (before, after) labels where the determined corank changes.
+        (before, after) labels of successive windows with a determined corank
+        whose coranks differ *and* count as a change (see ``changes``).
+        Undetermined windows are skipped: they are no evidence of a change.
+    changes : dict of str to bool or None
+        True when the number of relations changes: two successive determined
+        windows differ (and, where resampling support is known, their sets of
+        plausible coranks do not overlap); False when every window has the same
+        determined corank, or differences stay within resampling support; None
+        (cannot be judged) when no window's corank is determined.
+    undetermined : dict of str to int
+        Windows whose corank is undetermined at the tolerance.
+    plausible : dict of str to tuple of (frozenset or None)
+        Per window, the coranks with at least 5% resampling support under the
+        window's own rule (only for assumptions where it was computed).
     """
 
     labels: tuple[str, ...]
@@ -410,6 +785,9 @@ class CorankSequence:
     constant: Mapping[str, bool]
     values: Mapping[str, tuple[int, ...]]
     changes_at: Mapping[str, tuple[tuple[str, str], ...]]
+    changes: Mapping[str, bool | None] = None
+    undetermined: Mapping[str, int] = None
+    plausible: Mapping[str, tuple] = None
 
     def to_dict(self) -> dict:
         """JSON-ready dict."""
@@ -417,7 +795,10 @@ class CorankSequence:
                          "coranks": {a: list(c) for a, c in self.coranks.items()},
                          "constant": dict(self.constant),
                          "values": {a: list(c) for a, c in self.values.items()},
-                         "changes_at": {a: [list(p) for p in c] for a, c in self.changes_at.items()}})
+                         "changes_at": {a: [list(p) for p in c] for a, c in self.changes_at.items()},
+                         "changes": dict(self.changes or {}), "undetermined": dict(self.undetermined or {}),
+                         "plausible": {a: [None if p is None else sorted(p) for p in seq]
+                                       for a, seq in (self.plausible or {}).items()}})
 
     def to_frame(self) -> pd.DataFrame:
         """Windows by assumptions (nullable integers)."""
@@ -425,8 +806,9 @@ class CorankSequence:
                             index=pd.Index(self.labels, name="window"))
 
 
-def corank_sequence(coranks: Mapping[str, Sequence[int | None]], *, labels: Sequence[str]) -> CorankSequence:
-    """Corank per window per assumption, and whether it stays the same.
+def corank_sequence(coranks: Mapping[str, Sequence[int | None]], *, labels: Sequence[str],
+                    plausible: Mapping[str, Sequence] | None = None) -> CorankSequence:
+    """Corank per window per assumption, and whether the number of relations changes.
 
     Parameters
     ----------
@@ -435,12 +817,22 @@ def corank_sequence(coranks: Mapping[str, Sequence[int | None]], *, labels: Sequ
         where it could not be determined, e.g. "undetermined at eps").
     labels : sequence of str
         One label per window.
+    plausible : mapping of assumption to sequence of (set or None), optional
+        Per window, the coranks with resampling support. Where given for both
+        of two successive determined windows, their coranks count as different
+        only when the two sets do not overlap (a stated rule, not a bare count).
+
+    Notes
+    -----
+    An undetermined window is not a change: successive *determined* windows
+    are compared, skipping undetermined ones.
     """
     if not coranks:
         raise OptionsError("corank_sequence needs at least one assumption.", key="coranks",
                            fix="Pass {assumption: [corank per window]}.")
     labels_t = check_names_len(labels, len(list(labels)), key="labels")
-    out, const, vals, chg = {}, {}, {}, {}
+    plausible = dict(plausible or {})
+    out, const, vals, chg, changes, undet, plaus = {}, {}, {}, {}, {}, {}, {}
     for a, seq in coranks.items():
         seq_t = tuple(None if c is None else int(c) for c in seq)
         if len(seq_t) != len(labels_t):
@@ -449,11 +841,28 @@ def corank_sequence(coranks: Mapping[str, Sequence[int | None]], *, labels: Sequ
         if any(c is not None and c < 0 for c in seq_t):
             raise OptionsError(f"coranks[{a!r}] contains a negative corank.", key=f"coranks.{a}",
                                fix="Coranks are whole numbers >= 0.")
+        pl = plausible.get(a)
+        if pl is not None:
+            pl = tuple(None if p is None else frozenset(int(x) for x in p) for p in pl)
+            if len(pl) != len(seq_t):
+                raise OptionsError(f"plausible[{a!r}] has {len(pl)} entries for {len(seq_t)} windows.",
+                                   key=f"plausible.{a}", fix="Give one set (or None) per window.")
+            plaus[a] = pl
         det = [(i, c) for i, c in enumerate(seq_t) if c is not None]
         out[a] = seq_t
         vals[a] = tuple(sorted({c for _, c in det}))
         const[a] = len(vals[a]) == 1 and len(det) == len(seq_t)
-        chg[a] = tuple((labels_t[i0], labels_t[i1]) for (i0, c0), (i1, c1) in zip(det, det[1:]) if c0 != c1)
-    return CorankSequence(labels=labels_t, assumptions=tuple(coranks), coranks=out, constant=const,
-                          values=vals, changes_at=chg)
+        undet[a] = len(seq_t) - len(det)
 
+        def differs(i0, c0, i1, c1, pl=pl):
+            if c0 == c1:
+                return False
+            if pl is not None and pl[i0] is not None and pl[i1] is not None:
+                return not (pl[i0] & pl[i1])
+            return True
+
+        chg[a] = tuple((labels_t[i0], labels_t[i1]) for (i0, c0), (i1, c1) in zip(det, det[1:])
+                       if differs(i0, c0, i1, c1))
+        changes[a] = None if not det else bool(chg[a])
+    return CorankSequence(labels=labels_t, assumptions=tuple(coranks), coranks=out, constant=const,
+                          values=vals, changes_at=chg, changes=changes, undetermined=undet, plausible=plaus)

@@ -42,8 +42,7 @@ def dataset_document(result) -> dict:
             "title": plan.plan.title,
             "windows": [dict(a.to_dict(), rows=w.rows, first_time=w.first_time, last_time=w.last_time)
                         for a, w in zip(plan.analyses, plan.windows)],
-            "stability": [dict(s.to_dict(), assumption=a, corank=q)
-                          for (a, q), s in sorted(plan.stability.items())],
+            "stability": [s.to_dict() for _, s in sorted(plan.stability.items())],
             "coefficient_swings": {a: s.to_dict() for a, s in sorted(plan.swings.items())},
             "coranks": plan.coranks.to_dict(),
         })
@@ -66,6 +65,8 @@ def dataset_document(result) -> dict:
         "full_sample": result.full.to_dict(),
         "identified": {str(q): i.to_dict() for q, i in sorted(result.identified.items())},
         "plans": plans,
+        "breaks": [b.to_dict() for _, b in sorted(getattr(result, "breaks", {}).items())],
+        "sampling_spread": [sp.to_dict() for _, sp in sorted(getattr(result, "sampling_spread", {}).items())],
         "findings": [f.to_dict() for f in result.findings],
         "trends": None if getattr(result, "trends", None) is None else result.trends.to_dict(),
         "influence": None if getattr(result, "influence", None) is None else result.influence.to_dict(),
@@ -104,8 +105,8 @@ def _windows_csv(result) -> bytes:
     rows = []
     for plan in result.plans:
         angles = {}
-        for (a, q), s in plan.stability.items():
-            for lab, ang in zip(plan.labels, s.to_reference_deg):
+        for a, s in plan.stability.items():
+            for lab, q, ang in zip(plan.labels, s.dims, s.to_reference_deg):
                 angles[(lab, a, q)] = ang
         for an, w in zip(plan.analyses, plan.windows):
             for a in ASSUMPTION_IDS:

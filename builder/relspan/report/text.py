@@ -157,7 +157,9 @@ METHODS = (
       (r"$\sin\theta \leq \varepsilon / \lambda_{q+1}(S)$",
        "the sine of the largest angle to the eigenvector subspace is at most eps over the next eigenvalue")],
      "The angle bound is vacuous when eps approaches the next eigenvalue; it bounds the largest principal "
-     "angle between the relation subspace and the eigenvectors.",
+     "angle between the relation subspace and the eigenvectors. It is a population bound: it treats the "
+     "sample covariance as the population's, and sampling adds cross-products of signal and noise that "
+     "eps does not bound, so the site shows the bootstrap spread of the same subspace beside it.",
      ("weyl1912", "daviskahan1970", "stewart1990")),
     ("diagonal", _heading("diagonal"),
      "Each variable has independent noise of unknown variance: N = diag(d), d \u2265 0, S \u2212 N "
@@ -194,6 +196,39 @@ METHODS = (
        "matrix")],
      "Sines and cosines are both computed so that small angles keep their accuracy.",
      ("bjorck1973", "knyazev2002")),
+    ("stability", "Change across windows, judged against resampling",
+     "Windows are compared only where each shows the same determined number of relations; a change is an "
+     "angle larger than sampling alone produces.",
+     [(r"$\theta_{ij} > c^{*}\, Q_{0.95}(\theta^{*}_{ij})$",
+       "the angle between windows i and j counts as a change when it exceeds its own resampled 95% "
+       "quantile times the family's critical ratio c star")],
+     "Each window is taken at its own corank. Compared: neighbouring windows, each window and the full "
+     "sample, and every pair of windows in plans of at most 40 windows (the cost then grows only linearly "
+     "with the number of windows). The null draws of a comparison are the angles between the two windows' "
+     "bootstrap subspaces after the second is carried onto the first estimate by the direct rotation "
+     "(Davis & Kahan), so they show what sampling alone produces when nothing changes; the full sample is "
+     "treated as fixed. All comparisons of a plan are judged together by the max-T rule: each angle is "
+     "divided by the 95% quantile of its own null draws, and the critical ratio c* is the 95% quantile, "
+     "over resamples, of the largest such ratio in the family, so a plan raises a false alarm about 5% of "
+     "the time however many windows it has. Windows whose corank is undetermined, or zero, are not "
+     "compared and are no evidence of change; a different number of relations counts as a change only "
+     "when no count has at least 5% resampling support in both windows. Under independent noise the "
+     "answer in a window is a set or family of subspaces, and one member of it is no answer: windows are "
+     "not compared by an angle there.",
+     ("bjorck1973", "daviskahan1970", "westfall1993")),
+    ("breaks", "A break at an unknown date",
+     "The relation subspace may change once, at a date the data must reveal.",
+     [(r"$\sup_{t}\ \sqrt{T_b T_a / T}\ \sin\theta_t$",
+       "the supremum over candidate dates t of the square root of T before times T after over T, times "
+       "the sine of the largest angle between the subspaces before and after")],
+     "Candidate dates leave out the first and last 15% of the rows. The critical value is the 95% "
+     "quantile of the same statistic over block-bootstrap resamples of the whole sample, which carry no "
+     "break; the date's interval comes from resampling the two segments separately. The scan follows the "
+     "eigenvector subspace (equal and bounded noise) at the full sample's corank, or, where the full "
+     "sample shows no relation, at the corank most windows show. Only one break is looked for: a "
+     "sequential search for several breaks in the spirit of Bai & Perron needs critical values for the "
+     "sequence of tests that this resampling scheme does not give, so several breaks are not offered.",
+     ("andrews1993", "baiperron1998", "politis1994")),
     ("moments", "Window statistics from mergeable blocks",
      "Windows are merged from block statistics, never recomputed from raw rows.",
      [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
@@ -303,6 +338,14 @@ REFERENCES = {
                    "Scientific Computing*, 23(6), 2008–2040.",
     "chan1983": "Chan, T. F., Golub, G. H. & LeVeque, R. J. (1983). Algorithms for computing the sample "
                 "variance: analysis and recommendations. *The American Statistician*, 37(3), 242–247.",
+    "politis1994": "Politis, D. N. & Romano, J. P. (1994). The stationary bootstrap. *Journal of the American "
+                   "Statistical Association*, 89(428), 1303–1313.",
+    "westfall1993": "Westfall, P. H. & Young, S. S. (1993). *Resampling-Based Multiple Testing: Examples "
+                    "and Methods for p-Value Adjustment*. New York: Wiley.",
+    "andrews1993": "Andrews, D. W. K. (1993). Tests for parameter instability and structural change with "
+                   "unknown change point. *Econometrica*, 61(4), 821–856.",
+    "baiperron1998": "Bai, J. & Perron, P. (1998). Estimating and testing linear models with multiple "
+                     "structural changes. *Econometrica*, 66(1), 47–78.",
     "bjorck1996": "Björck, Å. (1996). *Numerical Methods for Least Squares Problems*. Philadelphia: SIAM.",
     "dickey1979": "Dickey, D. A. & Fuller, W. A. (1979). Distribution of the estimators for autoregressive time "
                   "series with a unit root. *Journal of the American Statistical Association*, 74(366), 427–431.",

@@ -23,7 +23,7 @@ from relspan import __version__
 from relspan.assumptions import corank_preference
 from relspan.analysis.moments import Moments
 from relspan.analysis.results import AnalysisRun, DatasetResult, PlanResult
-from relspan.analysis.stability import coefficient_swing, corank_sequence, subspace_stability
+from relspan.analysis.stability import coefficient_swing, corank_sequence
 from relspan.analysis.window import WindowAnalysis, WindowOptions, analyse_window, reference_index
 from relspan.errors import OptionsError, RelspanWarning
 from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
@@ -163,18 +163,14 @@ def _flats(analysis: WindowAnalysis, examined: Sequence[int]) -> dict:
     return {q: elementary_flat(analysis.elementary, q=q, ref=analysis.ref) for q in examined if q >= 1}
 
 
-def _plan_summaries(plan: WindowPlanSpec, windows: Sequence, analyses: Sequence[WindowAnalysis],
-                    full: WindowAnalysis, examined: Sequence[int], threshold: float) -> PlanResult:
+def _plan_summaries(ds: DatasetSpec, prepared, plan: WindowPlanSpec, windows: Sequence,
+                    analyses: Sequence[WindowAnalysis], full: WindowAnalysis,
+                    examined: Sequence[int]) -> PlanResult:
+    from relspan.run.cross_window import plan_stability
+
     labels = [a.label for a in analyses]
-    stability: dict = {}
-    for q in examined:
-        for assumption in full.bases:
-            ref_basis = full.bases[assumption].get(q)
-            bases = [a.bases.get(assumption, {}).get(q) for a in analyses]
-            if ref_basis is None or any(b is None for b in bases) or not bases:
-                continue
-            stability[(assumption, q)] = subspace_stability(bases, labels=labels, reference=ref_basis,
-                                                            threshold_deg=threshold)
+    # each window at its own corank, judged against resampling (relspan.run.cross_window)
+    stability, plausible = plan_stability(prepared, ds, plan.id, analyses, full)
     swings: dict = {}
     for assumption in full.coefficients:
         vals = [a.coefficients.get(assumption) for a in analyses]
@@ -182,7 +178,7 @@ def _plan_summaries(plan: WindowPlanSpec, windows: Sequence, analyses: Sequence[
             continue
         swings[assumption] = coefficient_swing(np.vstack(vals), labels=labels, names=full.names)
     coranks = corank_sequence({a: [w.coranks.get(a) for w in analyses] for a in full.coranks},
-                              labels=labels)
+                              labels=labels, plausible=plausible)
     return PlanResult(plan=plan, windows=tuple(windows), analyses=tuple(analyses),
                       stability=stability, swings=swings, coranks=coranks,
                       flats=tuple(_flats(a, examined) for a in analyses))
@@ -222,8 +218,12 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     full = analyses[0]
     examined, examined_from = _choose_examined(ds, full)
     threshold = float(ds.checks.max_angle_deg)
-    plan_results = tuple(_plan_summaries(plan, wins, analyses[a:b], full, examined, threshold)
+    plan_results = tuple(_plan_summaries(ds, prepared, plan, wins, analyses[a:b], full, examined)
                          for plan, wins, a, b in spans)
+    from relspan.run.cross_window import dataset_breaks, full_sample_spread
+
+    breaks = dataset_breaks(prepared, ds, full, plan_results)
+    spread = full_sample_spread(prepared, ds, full)
 
     identified: dict = {}
     for q in examined:
@@ -239,15 +239,16 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     trends = _trends(ds, prepared, labels, sink)
     influence = _influence(ds, prepared, full, options, common_std, sink)
     findings = tuple(dataset_findings(full=full, plans=plan_results, examined=examined, identified=identified,
-                                      labels=labels, trends=trends, influence=influence))
+                                      labels=labels, trends=trends, influence=influence, spread=spread))
     summary = dataset_summary(full=full, plans=plan_results, examined=examined, identified=identified,
-                              labels=labels, findings=findings, period=prepared.period)
+                              labels=labels, findings=findings, period=prepared.period, spread=spread)
     _check_findings(ds, findings, summary, full, sink)
     # the block statistics are not needed once the windows are assembled: do not keep them
     return DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
                          examined=examined, examined_from=examined_from, findings=findings,
                          summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold,
-                         cache_key=cache_key, trends=trends, influence=influence)
+                         cache_key=cache_key, trends=trends, influence=influence, breaks=breaks,
+                         sampling_spread=spread)
 
 
 def _all_granules(prepared):

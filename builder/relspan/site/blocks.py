@@ -32,6 +32,7 @@ VERDICTS = {
     "holds": ("\u2713", "holds"),     # check mark
     "fails": ("\u2717", "fails"),     # ballot x
     "warning": ("!", "warning"),
+    "cannot be judged": ("?", "cannot be judged"),
 }
 
 _CALLOUT_KINDS = ("caution", "note")
@@ -82,7 +83,7 @@ def badge(verdict: str) -> str:
     if verdict not in VERDICTS:
         raise ValueError(f"verdict must be one of {', '.join(VERDICTS)}; got {verdict!r}.")
     symbol, word = VERDICTS[verdict]
-    return Raw(f'<span class="badge badge-{verdict}"><span class="badge-symbol" '
+    return Raw(f'<span class="badge badge-{verdict.replace(" ", "-")}"><span class="badge-symbol" '
                f'aria-hidden="true">{_attr(symbol)}</span> {_attr(word)}</span>')
 
 

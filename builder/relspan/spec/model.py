@@ -50,7 +50,7 @@ TRANSFORMS = ("none", "log", "diff", "logdiff", "detrend", "demean", "standardis
 ASSUMPTIONS = ASSUMPTION_IDS
 
 #: statements a claim can make
-CLAIM_KINDS = ("corank", "subspace_stable", "sign_stable", "coefficient_bounded")
+CLAIM_KINDS = ("corank", "subspace_stable", "sign_stable", "coefficient_bounded", "no_break")
 
 
 @dataclass(frozen=True, slots=True)
@@ -201,15 +201,25 @@ class ClaimSpec:
 
     - ``corank``: ``assumption``, one of ``equals`` / ``at_least`` / ``at_most``;
       holds when the corank in every window of ``plan`` satisfies it.
-    - ``subspace_stable``: ``corank``, ``assumption`` (default equal), ``below_deg``;
-      holds when the largest principal angle between any window's relation
-      subspace and the full sample's is below ``below_deg``.
+    - ``subspace_stable``: ``corank``, ``assumption`` (default equal), ``below_deg``
+      (default ``checks.max_angle_deg``); holds when every window has that corank
+      and the largest principal angle between windows (every pair, or neighbours
+      in large plans) is below ``below_deg``; cannot be judged where a window's
+      corank is undetermined or zero, or sampling alone moves the subspaces by
+      ``below_deg`` or more.
+    - ``no_break``: ``assumption`` (default equal); no ``plan`` (``plan`` is "");
+      holds when the scan of the whole sample finds no break of the relation
+      subspace at any date, fails when it finds one.
     - ``sign_stable``: ``assumption`` (default elementary), ``normalise_on``,
       ``variable``, optional ``sign`` (``positive``/``negative``); holds when
       the coefficient of ``variable`` in the relation normalised on
       ``normalise_on`` keeps one sign (the given one) in every window.
     - ``coefficient_bounded``: ``normalise_on``, ``variable``; holds when the
       diagonal-noise (Frisch) interval of the coefficient is finite in every window.
+
+    ``assumption`` defaults: none for ``corank`` (it must be given), ``equal``
+    for ``subspace_stable`` and ``no_break``, ``elementary`` for ``sign_stable``,
+    ``diagonal`` for ``coefficient_bounded`` (the only one it takes).
     """
 
     id: str

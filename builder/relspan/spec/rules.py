@@ -46,6 +46,7 @@ _CLAIM_FIELDS = {
     "subspace_stable": ("assumption", "corank", "below_deg"),
     "sign_stable": ("assumption", "normalise_on", "variable", "sign"),
     "coefficient_bounded": ("assumption", "normalise_on", "variable"),
+    "no_break": ("assumption",),
 }
 #: assumption a claim kind uses when it names none (None: it must name one)
 _CLAIM_DEFAULT_ASSUMPTION = {
@@ -53,6 +54,7 @@ _CLAIM_DEFAULT_ASSUMPTION = {
     "subspace_stable": "equal",
     "sign_stable": "elementary",
     "coefficient_bounded": "diagonal",
+    "no_break": "equal",
 }
 
 
@@ -537,6 +539,8 @@ class _Builder:
             self._unique(c["id"], seen, f"{key}.id", L("id"), "claims", "claim")
             kind = c["kind"]
             allowed = set(_CLAIM_COMMON) | set(_CLAIM_FIELDS[kind])
+            if kind == "no_break":
+                allowed.discard("plan")  # the scan covers the whole sample
             for k in c:
                 if k not in allowed:
                     uses = ", ".join(_CLAIM_FIELDS[kind])
@@ -553,13 +557,20 @@ class _Builder:
                     fix="use the id of one of the datasets above.")
             plan_ids = [w.id for w in windows]
             usable = [p for p in (ds.plans or plan_ids)]
-            if c["plan"] not in plan_ids:
+            if kind != "no_break" and "plan" not in c:
+                raise self.err(
+                    f"{key}.plan is missing; a {kind} claim is checked in the windows of a plan.",
+                    line=line, key=f"{key}.plan",
+                    fix=f"add `plan:` with one of {', '.join(usable)}.")
+            if kind == "no_break":
+                pass
+            elif c["plan"] not in plan_ids:
                 raise self.err(
                     f"{key}.plan is '{c['plan']}', which is not the id of a window plan. Plans: "
                     f"{', '.join(plan_ids)}.{_nearest(c['plan'], plan_ids)}",
                     line=L("plan"), key=f"{key}.plan",
                     fix="use the id of one of the plans under `windows:`.")
-            if c["plan"] not in usable:
+            elif c["plan"] not in usable:
                 raise self.err(
                     f"{key}.plan is '{c['plan']}', but dataset '{ds.id}' does not use that plan "
                     f"(its plans: {', '.join(usable)}).", line=L("plan"), key=f"{key}.plan",
@@ -649,7 +660,7 @@ class _Builder:
                         line=L("variable"), key=f"{key}.variable",
                         fix="name another variable to examine.")
             out.append(ClaimSpec(
-                id=c["id"], kind=kind, dataset=c["dataset"], plan=c["plan"],
+                id=c["id"], kind=kind, dataset=c["dataset"], plan=c.get("plan", ""),
                 text=c.get("text", ""), assumption=assumption,
                 corank=None if "corank" not in c else int(c["corank"]),
                 equals=None if "equals" not in c else int(c["equals"]),

@@ -397,32 +397,44 @@ def _build_schema() -> dict[str, Any]:
             "and their fields: `corank` (`assumption` and at least one of `equals`, "
             "`at_least`, `at_most`: holds when the corank in every window satisfies it); "
             "`subspace_stable` (`corank`, optional `assumption` (default `equal`) and "
-            "`below_deg` (default `checks.max_angle_deg`): holds when every window's relation "
-            "subspace is within `below_deg` of the full sample's); `sign_stable` "
+            "`below_deg` (default `checks.max_angle_deg`): the windows are compared with each "
+            "other (every pair, or neighbours in plans of more than 40 windows); holds when every "
+            "window has that corank and every angle is below `below_deg`; cannot be judged when a "
+            "window's corank is undetermined or zero, or when sampling alone moves the subspaces by "
+            "`below_deg` or more); `sign_stable` "
             "(`normalise_on`, `variable`, optional `sign` and `assumption` (default "
             "`elementary`): holds when the coefficient keeps one sign in every window); "
             "`coefficient_bounded` (`normalise_on`, `variable`: holds when the diagonal-noise "
-            "interval of the coefficient is finite in every window). Fields a kind does not "
-            "use are rejected."),
+            "interval of the coefficient is finite in every window); `no_break` (optional "
+            "`assumption` (default `equal`), no `plan`: holds when the scan of the whole sample "
+            "finds no break of the relation subspace at any date, fails when it finds one). A "
+            "claim that the data cannot decide gets the verdict \"cannot be judged\", with why; "
+            "`relspan check` then exits 1, as for a failed claim. Fields a kind does not use are "
+            "rejected."),
         "examples": [{"id": "two-relations", "kind": "corank", "dataset": "harbour",
                       "plan": "rolling", "assumption": "equal", "equals": 2}],
         "additionalProperties": False,
-        "required": ["id", "kind", "dataset", "plan"],
+        "required": ["id", "kind", "dataset"],
         "properties": {
             "id": _id("Claim id", "Short name of the claim; unique among claims.",
                       ["two-relations"]),
             "kind": _p({"type": "string", "enum": list(CLAIM_KINDS)}, "Claim kind",
-                       "What the claim states: `corank`, `subspace_stable`, `sign_stable` or "
-                       "`coefficient_bounded`.", ["corank"]),
+                       "What the claim states: `corank`, `subspace_stable`, `sign_stable`, "
+                       "`coefficient_bounded` or `no_break`.", ["corank"]),
             "text": _text("Claim text", "The claim in the authors' words, shown with its "
                           "verdict.", ["Two relations hold among the three indicators."],
                           default=""),
             "dataset": _id("Claim dataset", "Id of the dataset the claim is about.",
                            ["harbour"]),
-            "plan": _id("Claim plan", "Id of a window plan used by that dataset.", ["rolling"]),
+            "plan": _id("Claim plan", "Id of a window plan used by that dataset. Required for every "
+                        "kind except `no_break`, which takes none (its scan covers the whole "
+                        "sample).", ["rolling"]),
             "assumption": _p({"type": "string", "enum": list(ASSUMPTIONS)}, "Claim assumption",
                              "Noise assumption the claim is made under; it must be among the "
-                             "dataset's `checks.assumptions`.", ["equal"]),
+                             "dataset's `checks.assumptions`. Default: none for `corank` (required "
+                             "there); `equal` for `subspace_stable` and `no_break`; `elementary` "
+                             "for `sign_stable`; `diagonal` for `coefficient_bounded` (the only "
+                             "one it takes).", ["equal"]),
             "corank": _p({"type": "integer", "minimum": 1}, "Claim corank",
                          "`subspace_stable`: the number of relations whose subspace is "
                          "compared; below the number of variables.", [2]),
@@ -434,8 +446,9 @@ def _build_schema() -> dict[str, Any]:
                           "`corank`: the corank in every window is at most this; not below "
                           "`at_least`.", [2]),
             "below_deg": _p({"type": "number", "exclusiveMinimum": 0, "maximum": 90},
-                            "Angle below", "`subspace_stable`: the largest principal angle, "
-                            "in degrees, that still counts as stable.", [5]),
+                            "Angle below", "`subspace_stable`: the largest principal angle "
+                            "between two windows, in degrees, that still counts as stable. "
+                            "Default: the dataset's `checks.max_angle_deg`.", [5]),
             "normalise_on": _text("Claim normalise on", "`sign_stable`, "
                                   "`coefficient_bounded`: the variable (column) whose "
                                   "coefficient is set to 1.", ["cargo"], minLength=1),
@@ -632,6 +645,11 @@ claims:
     plan: full
     normalise_on: jobs
     variable: ships
+  - id: no-break
+    kind: no_break
+    text: "The relations hold throughout, with no break at any date."
+    dataset: harbour
+    assumption: equal
 site:
   out: _site
   figures: svg

@@ -126,15 +126,23 @@ def _subspace_findings(result) -> list[Finding]:
         else:
             entry = None
         if entry is not None and not entry.vacuous:
+            sp = result.spread.get("bounded")
+            sp = sp if sp is not None and sp.q == q else None
+            sampling = (f"; sampling moves it by up to {sp.angle_deg:.2g} degrees more ({sp.rule})" if sp
+                        else "; sampling adds an error this bound does not cover")
             out.append(Finding("pinned_down", "subspace",
                                f"If {q} relation{'s' if q > 1 else ''} hold{'' if q > 1 else 's'} and the noise is "
                                f"within {tol.short}, whatever its form, the {what} lies within "
-                               f"{entry.angle_bound_deg:.2g} degrees of the estimate (a bound for the population: "
-                               "sampling error is not included).",
-                               f"Davis-Kahan bound for corank {q} under bounded noise: largest principal "
-                               f"angle at most {entry.angle_bound_deg:.3g} degrees (eps {full.eps:g}, gap "
-                               f"{entry.gap:.3g}; {full.scale} scale).",
-                               {"corank": q, "angle_bound_deg": entry.angle_bound_deg}, "assumptions",
+                               f"{entry.angle_bound_deg:.2g} degrees of the estimate by the population bound"
+                               + sampling + ".",
+                               f"Davis-Kahan bound for corank {q} under bounded noise, treating the sample "
+                               f"covariance as the population's: largest principal angle at most "
+                               f"{entry.angle_bound_deg:.3g} degrees (eps {full.eps:g}, gap {entry.gap:.3g}; "
+                               f"{full.scale} scale)"
+                               + (f"; bootstrap spread of the same subspace: {sp.angle_deg:.3g} degrees "
+                                  f"({sp.rule})." if sp else "."),
+                               {"corank": q, "angle_bound_deg": entry.angle_bound_deg,
+                                "sampling_spread_deg": None if sp is None else sp.angle_deg}, "assumptions",
                                assumptions=("bounded",), tolerance=tol))
         elif entry is not None:
             out.append(Finding("set_only", "subspace",
@@ -235,28 +243,36 @@ def _stability_findings(result) -> list[Finding]:
             continue
         title = plan.plan.title or plan.plan.id
         for q in result.examined:
-            key = ("equal", q) if plan.stability.get(("equal", q)) else next(
-                (k for k in plan.stability if k[1] == q and plan.stability[k]), None)
+            key = next((a for a in ("equal", "shaped", "bounded") if a in plan.stability
+                        and plan.stability[a].reference_dim == q), None)
             if key is None:
                 continue
             stab = plan.stability[key]
-            worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else stab.max_pairwise_deg
+            worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else (
+                stab.max_pairwise_deg if stab.max_pairwise_deg is not None else stab.max_neighbour_deg)
             what = "relation" if q == 1 else "plane of relations" if q == 2 else f"{q}-dimensional relation subspace"
             tol = Tolerance.of(result.full)
-            on = f"under {_assumption(key[0]).name} at {tol.short}"
+            under = f"under {_assumption(key).name} (tolerance: {tol.words})"
+            rule = ("a change counts only beyond what resampling each window produces when nothing changes, "
+                    "all comparisons judged together at the 5% level")
+            if stab.stable is None or worst is None:
+                out.append(Finding("cannot_be_judged", "stability",
+                                   f"Whether the {what} changes across \u201c{title}\u201d cannot be judged "
+                                   f"{under}.", stab.verdict, {"plan": plan.plan.id, "corank": q},
+                                   f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key,), tolerance=tol))
+                continue
             if stab.stable:
-                headline = (f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} found "
-                            f"{on} stays within {worst:.2g} degrees of the full sample's (threshold "
-                            f"{stab.threshold_deg:g} degrees).")
+                headline = (f"Across the {len(plan.analyses)} windows of \u201c{title}\u201d the {what} "
+                            f"{under} stays within {worst:.2g} degrees of the full sample's: within what "
+                            "resampling produces when nothing changes.")
             else:
-                headline = (f"Across the windows of \u201c{title}\u201d the {what} found {on} moves: up to "
-                            f"{worst:.2g} degrees from the full sample's (threshold "
-                            f"{stab.threshold_deg:g} degrees).")
+                headline = (f"Across the windows of \u201c{title}\u201d the {what} {under} moves: up to "
+                            f"{worst:.2g} degrees, more than resampling produces when nothing changes.")
             out.append(Finding("stable" if stab.stable else "unstable", "stability", headline,
-                               f"{stab.verdict}", {"plan": plan.plan.id, "corank": q,
-                                                   "max_to_full_deg": worst,
-                                                   "threshold_deg": stab.threshold_deg},
-                               f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key[0],),
+                               f"{stab.verdict} Rule: {rule}.", {"plan": plan.plan.id, "corank": q,
+                                                                 "max_to_full_deg": worst,
+                                                                 "family_critical": stab.family_critical},
+                               f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key,),
                                tolerance=tol))
             swing = plan.swings.get("elementary")
             if swing is not None:
@@ -269,7 +285,7 @@ def _stability_findings(result) -> list[Finding]:
                                        f"{labels[ref]} changes sign {_times(int(swing.sign_changes[k]))} across "
                                        f"\u201c{title}\u201d{more}, from "
                                        f"{fmt_range(swing.minimum[k], swing.maximum[k], minus='-')}"
-                                       + (f", while the {what} found under {_assumption(key[0]).name} moves at "
+                                       + (f", while the {what} found under {_assumption(key).name} moves at "
                                           f"most {worst:.2g} degrees." if stab.stable
                                           else "."),
                                        "Elementary regression (only the reference variable noisy), normalised "
@@ -279,18 +295,43 @@ def _stability_findings(result) -> list[Finding]:
                                         "min": swing.minimum[k], "max": swing.maximum[k]},
                                        f"plan-{plan.plan.id}", plan=plan.plan.id, single_coefficient=True,
                                        assumptions=("elementary",)))
+        if not any(f.topic == "stability" and f.plan == plan.plan.id for f in out):
+            # windows compared with each other where the full sample offers no common reference
+            key = next((a for a in ("equal", "shaped", "bounded")
+                        if a in plan.stability and plan.stability[a].stable is False), None)
+            if key is not None:
+                st = plan.stability[key]
+                worst = max(x for x in (st.max_pairwise_deg, st.max_neighbour_deg, st.max_to_reference_deg)
+                            if x is not None)
+                dims = sorted({d for d in st.dims if d})
+                what = ("relation" if dims == [1] else "relations")
+                tol = Tolerance.of(result.full)
+                out.append(Finding(
+                    "unstable", "stability",
+                    f"Across the windows of \u201c{title}\u201d the {what} under {_assumption(key).name} "
+                    f"(tolerance: {tol.words}) change{'s' if what == 'relation' else ''}: windows differ by up "
+                    f"to {worst:.2g} degrees, more than resampling produces when nothing changes.",
+                    f"{st.verdict} Rule: a change counts only beyond what resampling each window produces "
+                    "when nothing changes, all comparisons judged together at the 5% level.",
+                    {"plan": plan.plan.id, "max_between_windows_deg": worst,
+                     "family_critical": st.family_critical},
+                    f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key,), tolerance=tol))
         seq = plan.coranks
         tol = Tolerance.of(result.full)
         # an undetermined window is not a different count: only settled counts are compared
         settled = {a: [c for c in cs if c is not None] for a, cs in seq.coranks.items() if a != "elementary"}
-        moving = [a for a, cs in settled.items() if len(set(cs)) > 1]
+        changes = seq.changes or {}
+        moving = [a for a in seq.assumptions if a != "elementary" and changes.get(a) and settled.get(a)]
         if moving:
             spans = "; ".join(f"{_assumption(a).name}: from {min(settled[a])} to {max(settled[a])}"
                               for a in moving)
             out.append(Finding("unstable", "corank",
                                f"The number of relations changes across the windows of \u201c{title}\u201d "
                                f"at {tol.short} ({spans}).",
-                               "Corank per window: see the timeline.",
+                               "Corank per window: see the timeline. Windows whose count is undetermined are "
+                               "not counted as a change; where resampling support is known (equal, known-shape "
+                               "and bounded noise) two windows differ only when no count has at least 5% "
+                               "support in both.",
                                {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
                                plan=plan.plan.id, assumptions=tuple(moving), tolerance=tol))
         for a, cs in seq.coranks.items():
@@ -314,6 +355,7 @@ class _Evidence(NamedTuple):
     examined: tuple
     identified: dict
     labels: tuple
+    spread: dict = {}
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -341,7 +383,8 @@ def _trend_findings(trends) -> list[Finding]:
                      "effective_rows": trends.effective_rows, "rows": trends.rows}, "trends")]
 
 
-def dataset_findings(*, full, plans, examined, identified, labels, trends=None, influence=None) -> list[Finding]:
+def dataset_findings(*, full, plans, examined, identified, labels, trends=None, influence=None,
+                     spread=None) -> list[Finding]:
     """All findings for one dataset, most important first.
 
     Parameters
@@ -360,8 +403,11 @@ def dataset_findings(*, full, plans, examined, identified, labels, trends=None, 
         :func:`relspan.analysis.trends.dataset_trends` (the trend caution).
     influence : InfluenceReport, optional
         :func:`relspan.analysis.influence.influence_report` (a single row or block deciding a finding).
+    spread : mapping assumption -> SamplingSpread, optional
+        The bootstrap spread of the full sample's subspace, said beside the
+        bounded-noise population bound.
     """
-    result = _Evidence(full, tuple(plans), tuple(examined), identified, tuple(labels))
+    result = _Evidence(full, tuple(plans), tuple(examined), identified, tuple(labels), dict(spread or {}))
     out = []
     out += _corank_findings(result)
     out += _subspace_findings(result)

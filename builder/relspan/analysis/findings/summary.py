@@ -26,15 +26,24 @@ PURE_NOISE_SHARE = 0.9
 # --------------------------------------------------------------------------- across windows
 
 def _largest_angle_between_windows(plan, q: int, assumption_id: str = "equal") -> float | None:
-    """Largest angle (degrees) between the windows' corank-q relations, or None when not every window has one."""
-    bases = [a.bases.get(assumption_id, {}).get(q) for a in plan.analyses]
-    if len(bases) < 2 or any(b is None for b in bases):
+    """Largest angle (degrees) between compared windows' corank-q relations (every pair in small plans,
+    neighbours in large ones), or None when not every window has one; read from the stability result."""
+    st = plan.stability.get(assumption_id)
+    if st is None or len(plan.analyses) < 2 or any(d != q for d in st.dims):
         return None
-    worst = 0.0
-    for i in range(len(bases)):
-        for j in range(i + 1, len(bases)):
-            worst = max(worst, float(np.max(principal_angles(bases[i], bases[j]))))
-    return worst
+    return st.max_pairwise_deg if st.max_pairwise_deg is not None else st.max_neighbour_deg
+
+
+def _equal_stability(plan, q):
+    """The plan's equal-noise stability when it judged corank-q subspaces against the full sample's."""
+    st = plan.stability.get("equal")
+    if st is None or q is None or st.reference_dim != q:
+        return None
+    return st
+
+
+STABILITY_RULE = ("a change counts only where an angle exceeds what resampling each window produces when "
+                  "nothing changes, all comparisons judged together at the 5% level")
 
 
 def _windowed_relations(plans) -> list[tuple]:
@@ -275,15 +284,16 @@ def _plan_sentences(plan, examined) -> tuple[str, ...]:
     out = []
     n = len(plan.analyses)
     for q in examined:
-        stab = plan.stability.get(("equal", q))
+        stab = _equal_stability(plan, q)
         if stab is not None and n >= 2:
             what = "relation" if q == 1 else "set of relations"
-            word = "stays" if stab.stable else "moves"
-            tol = Tolerance.of(plan.analyses[0])
-            out.append(f"under equal noise ({tol.short}) the {what} {word} within an angle of "
-                       f"{fmt(stab.max_to_reference_deg)}"
-                       f"\u00b0 of the full sample's in every window (threshold {fmt(stab.threshold_deg)}\u00b0). "
-                       + stab.verdict)
+            if stab.stable is None or stab.max_to_reference_deg is None:
+                out.append(stab.verdict[:1].lower() + stab.verdict[1:])
+                continue
+            word = "shows no change" if stab.stable else "changes"
+            tol = Tolerance.of(plan.analyses[0]).words
+            out.append(f"under equal noise (tolerance: {tol}) the {what} {word}: its largest angle to the full "
+                       f"sample's is {fmt(stab.max_to_reference_deg)}\u00b0 ({STABILITY_RULE}). " + stab.verdict)
     return tuple(out)
 
 
@@ -302,11 +312,13 @@ def _window_plain(plan, i: int, a, w, q) -> str:
     span = f"{w.first_time} to {w.last_time}, " if w.first_time is not None else ""
     text = (f"This window covers {span}{w.rows} rows. Relations found at {Tolerance.of(a).short} \u2014 "
             + "; ".join(words) + ".")
-    if q is not None and ("equal", q) in plan.stability:
-        stab = plan.stability[("equal", q)]
+    stab = _equal_stability(plan, q)
+    if stab is not None and np.isfinite(stab.to_reference_deg[i]):
         what = "relation" if q == 1 else "set of relations"
+        beyond = "beyond" if stab.reference_change[i] else "within"
         text += (f" Under equal noise its {what} is {fmt(stab.to_reference_deg[i])}\u00b0 from the full sample's "
-                 f"(0\u00b0: the same; the stability threshold is {fmt(stab.threshold_deg)}\u00b0).")
+                 f"(0\u00b0: the same), {beyond} what resampling produces when nothing changes "
+                 f"({fmt(stab.reference_threshold_deg[i])}\u00b0 at the 5% level, all comparisons together).")
     return text
 
 
@@ -320,7 +332,8 @@ def _window_readings(plan, examined, labels) -> tuple[WindowReading, ...]:
 
 # ------------------------------------------------------------------------------ the summary
 
-def dataset_summary(*, full, plans, examined, identified, labels, findings, period=None) -> DatasetSummary:
+def dataset_summary(*, full, plans, examined, identified, labels, findings, period=None,
+                    spread=None) -> DatasetSummary:
     """The plain summary of one dataset and the statements of its pages.
 
     Built from the results alone (no dataset-specific wording), so any spec gets them.
@@ -349,8 +362,8 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
     for plan in plans:
         if plan.plan.kind == "full" or len(plan.analyses) < 2 or q is None:
             continue
-        st = plan.stability.get(("equal", q))
-        if st is not None and st.max_to_reference_deg is not None:
+        st = _equal_stability(plan, q)
+        if st is not None and st.max_to_reference_deg is not None and st.stable is not None:
             stab.append((plan, st))
     single = False
     every_windowed = _windowed_relations(plans)
@@ -383,19 +396,23 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         if others:
             bits.append(others)
         if entry is not None:
-            bits.append(f"if the noise is within the tolerance, whatever its form, the {what} lie"
-                        f"{'s' if q == 1 else ''} within an angle of {entry.angle_bound_deg:.2g} degrees of the "
-                        "estimate (a population bound that leaves out sampling error)")
+            sp = (spread or {}).get("bounded")
+            bits.append(f"if the sample were the population, the {what} {'would be' if q == 1 else 'would be'} "
+                        f"fixed to within an angle of {entry.angle_bound_deg:.2g} degrees for any form of noise "
+                        "within the tolerance"
+                        + (f", and sampling moves {'it' if q == 1 else 'them'} by up to "
+                           f"{sp.angle_deg:.2g} degrees more ({sp.level:.0%} of bootstrap resamples)"
+                           if sp is not None and sp.q == q else ""))
             rests["pinned"] += ("bounded",)
         steady = [st for _, st in stab if st.stable]
         if stab and len(steady) == len(stab):
             worst = max(st.max_to_reference_deg for st in steady)
             bits.append(f"under equal noise {'it moves' if q == 1 else 'they move'} at most {worst:.2g} degrees "
-                        "between windows of time")
+                        "between windows of time, within what resampling produces when nothing changes")
         elif stab:
             worst = max(st.max_to_reference_deg for _, st in stab)
             bits.append(f"but under equal noise {'it moves' if q == 1 else 'they move'} by up to {worst:.2g} "
-                        "degrees between windows of time")
+                        "degrees between windows of time, more than resampling produces when nothing changes")
         pinned += (": " + "; ".join(bits) if bits else "") + "."
         covers += [("pinned_down", "subspace")] if entry is not None else []
         covers += [("stable", "stability")] if stab and len(steady) == len(stab) else []
@@ -501,7 +518,8 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         single = True
     elif moving:
         unstable = (f"Under {join_words(sorted({assumption(a).name for f in moving for a in f.assumptions}))}, "
-                    "the relations move between windows of time by more than the stated threshold.")
+                    "the relations move between windows of time by more than resampling produces when "
+                    "nothing changes (5% level, all comparisons together).")
         unstable_ev = moving[0].evidence
     elif q is None and windowed and windowed[0][2] is not None:
         plan, _, change = windowed[0]

@@ -93,13 +93,45 @@ def gallery_figure(result, plan, q: int):
                           name=f"{result.spec.id}-{plan.plan.id}-gallery")
 
 
+def _drawable_stability(plan, q: int):
+    """The plan's stability under the first assumption that compared every window (and the full sample) at q."""
+    for a in ("equal", "shaped", "bounded"):
+        st = plan.stability.get(a)
+        if (st is not None and st.reference_dim == q and all(d == q for d in st.dims)
+                and np.all(np.isfinite(st.to_reference_deg))):
+            return st
+    return None
+
+
+def _break_marker(result, plan) -> dict:
+    """Where the break the scan found falls among the plan's windows (between two window positions)."""
+    br = next((b for b in getattr(result, "breaks", {}).values() if b.scan is not None and b.scan.found), None)
+    if br is None:
+        return {}
+    starts = [int(w.first_row) - 1 for w in plan.windows]   # 0-based first row of each window
+    after = next((i for i, r in enumerate(starts) if r >= br.scan.split_row), None)
+    if after is None or after == 0:
+        return {}
+    return {"break_at": after - 0.5, "break_label": f"break from {br.date} (scan)"}
+
+
+def _drawn_threshold(stab) -> float:
+    """One line for the figure: the largest per-window threshold (a window above it is a change)."""
+    thr = np.asarray(stab.reference_threshold_deg, dtype=float)
+    thr = thr[np.isfinite(thr)]
+    return float(min(max(thr.max() if thr.size else 90.0, 1e-3), 90.0))
+
+
 def stability_figure(result, plan, assumption: str, q: int):
-    stab = plan.stability.get((assumption, q))
-    if stab is None or len(plan.analyses) < 2:
+    stab = plan.stability.get(assumption)
+    if stab is None or len(plan.analyses) < 2 or stab.pairwise_deg is None:
+        return None
+    if not (stab.reference_dim == q and all(d == q for d in stab.dims)
+            and np.all(np.isfinite(stab.to_reference_deg)) and np.all(np.isfinite(stab.pairwise_deg))):
         return None
     return subspace_stability(stab.pairwise_deg, list(plan.labels), stab.to_reference_deg,
-                              threshold_deg=stab.threshold_deg,
-                              name=f"{result.spec.id}-{plan.plan.id}-angles")
+                              threshold_deg=_drawn_threshold(stab),
+                              name=f"{result.spec.id}-{plan.plan.id}-angles", **_break_marker(result, plan))
 
 
 def swing_variable(result) -> int:
@@ -134,13 +166,12 @@ def swing_figure(result, plan, q: int):
         coefs[assumption(a).name] = np.array([np.nan if v is None else v for v in vals], dtype=float)
     if not coefs:
         return None
-    stab = plan.stability.get(("equal", q)) or next((s for (a, qq), s in plan.stability.items() if qq == q),
-                                                    None)
+    stab = _drawable_stability(plan, q)
     if stab is None:
         return None
     label = (f"coefficient of {result.labels[k]} in the equation for {result.labels[ref]}")
-    return coefficient_swing(list(plan.labels), coefs, stab.to_reference_deg, stab.threshold_deg, label,
-                             name=f"{result.spec.id}-{plan.plan.id}-swing")
+    return coefficient_swing(list(plan.labels), coefs, stab.to_reference_deg, _drawn_threshold(stab), label,
+                             name=f"{result.spec.id}-{plan.plan.id}-swing", **_break_marker(result, plan))
 
 
 def spectrum_figure(result, analysis, name: str):

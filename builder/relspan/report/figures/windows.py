@@ -63,6 +63,15 @@ def _threshold_line(ax, threshold: float, text: str) -> None:
                 fontweight="bold")
 
 
+def _break_marker(ax, at, label: str | None) -> None:
+    """The break the scan found: one dashed vertical line, labelled (nothing when ``at`` is None)."""
+    if at is None:
+        return
+    ax.axvline(at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
+    ax.annotate(label or "break", xy=(at, 1), xycoords=("data", "axes fraction"), xytext=(3, -3),
+                textcoords="offset points", rotation=90, ha="left", va="top", fontsize=8, color=INK)
+
+
 def _angle_panel(ax, x, angles, threshold, is_dt) -> None:
     above = angles > threshold
     ax.plot(x, angles, color=PALETTE[0], marker="o", markersize=5, linewidth=1.4, zorder=3)
@@ -78,7 +87,8 @@ def _angle_panel(ax, x, angles, threshold, is_dt) -> None:
 
 def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times=None,
                        threshold_deg: float = 10.0, *, title: str | None = None,
-                       name: str = "subspace-stability") -> FigureResult:
+                       name: str = "subspace-stability", break_at=None,
+                       break_label: str | None = None) -> FigureResult:
     """Principal angles between the windows' relation subspaces, and each window's angle to the full sample.
 
     Left: a heatmap of the angle between every pair of windows (a sequential
@@ -105,6 +115,10 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
         The stability threshold (spec ``checks.max_angle_deg``).
     title, name : str
         Optional title; file stem.
+    break_at : float, optional
+        Where the break scan dates a break, in the right panel's x units (a
+        time, or a position between window indices): drawn as a dashed line
+        labelled ``break_label``.
 
     Returns
     -------
@@ -181,6 +195,7 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
 
         x, is_dt = _window_axis(func, axl, wl, times)
         _angle_panel(axl, x, f, thr, is_dt)
+        _break_marker(axl, break_at, break_label)
         axl.set_title("angle to the full sample", fontsize=10, fontweight="normal")
         axl.set_ylabel("degrees")
 
@@ -219,6 +234,8 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
         desc += (f"{plural(len(above), 'window')} of {w} exceed the threshold: {join_words(shown)}.")
     else:
         desc += f"All {w} windows stay within the threshold."
+    if break_at is not None:
+        desc += f" Dashed vertical line: {break_label or 'the break the scan found'}."
     alt = fit_alt(f"{head}; {len(above)} of {w} windows above it.", f"{head}.",
                   f"Largest angle to the full sample: {angle_text(f[jf])} degrees (threshold {num(thr)}).")
     return FigureResult(name, fig, alt, desc.strip(), table)
@@ -232,7 +249,8 @@ def _sign_flips(v: np.ndarray) -> list[tuple[int, int]]:
 
 def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence[float]],
                       angle_to_full, threshold_deg: float, coefficient_label: str, *, times=None,
-                      title: str | None = None, name: str = "coefficient-swing") -> FigureResult:
+                      title: str | None = None, name: str = "coefficient-swing", break_at=None,
+                      break_label: str | None = None) -> FigureResult:
     """A normalised coefficient per window under each noise assumption, above the subspace angle.
 
     Top: the chosen coefficient in every window, one line per assumption
@@ -261,6 +279,8 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
         Window positions in time; by default windows are evenly spaced and labelled.
     title, name : str
         Optional title; file stem.
+    break_at, break_label
+        The break the scan found, as for :func:`subspace_stability` (both panels).
 
     Returns
     -------
@@ -329,6 +349,9 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
         for t in ax.get_xticklabels():
             t.set_visible(False)
         _angle_panel(axa, x, f, thr, is_dt)
+        _break_marker(axa, break_at, break_label)
+        if break_at is not None:
+            ax.axvline(break_at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
         axa.set_ylabel("angle to full\nsample (°)")
         ax.margins(x=0.03)
         fig.draw_without_rendering()
@@ -400,6 +423,8 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
     if total_flips and not (f > thr).any():
         desc += ("The coefficient changes sign while the subspace of relations stays within the threshold: "
                  "the relations are stable, but this single coefficient is not pinned down by the data.")
+    if break_at is not None:
+        desc += f" Dashed vertical line: {break_label or 'the break the scan found'}."
     flipping = [nm for nm in names if flips[nm]]
     fl_txt = (f"sign flips under {join_words(flipping)}" if flipping else "no sign flip")
     alt = fit_alt(f"{coefficient_label}: {fl_txt}; angle to full sample at most {angle_text(f[jf])} "

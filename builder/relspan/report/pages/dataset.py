@@ -183,6 +183,55 @@ def _plan_section(result, plan, pub: Publisher, folder: str) -> str:
     return Raw("\n".join(o for o in out if o))
 
 
+def _break_section(result) -> str:
+    """"A break at an unknown date": what the scan of the whole sample found, with its rule (renders results)."""
+    breaks = getattr(result, "breaks", {}) or {}
+    if not breaks:
+        return ""
+    out = [Raw("### A break at an unknown date {#break}\n")]
+    moving = [p for p in result.plans if any(st.stable is False for st in p.stability.values())]
+    def same(scan) -> tuple:  # equal and bounded noise share one scan (one object before caching, two after)
+        return (scan.q, scan.statistic, scan.critical_value, scan.split_row, scan.angle_deg)
+
+    seen: dict[tuple, list[str]] = {}
+    for a, br in breaks.items():
+        if br.scan is not None:
+            seen.setdefault(same(br.scan), []).append(a)
+    shown: set[tuple] = set()
+    for a, br in breaks.items():
+        name = assumption(a).name
+        if br.scan is None:
+            out.append(md("- Under {}: {}\n", name, br.reason))
+            continue
+        if same(br.scan) in shown:
+            continue
+        shown.add(same(br.scan))
+        names = join_words([assumption(x).name for x in seen[same(br.scan)]])
+        sc = br.scan
+        rel = "relation" if sc.q == 1 else f"subspace of {count(sc.q, 'relation')}"
+        if sc.found:
+            out.append(md("- Under {} ({} taken as {}): **a break**: the {} before and after differ by "
+                          "{}\u00b0; most likely from {} on, with a {} interval from {} to {} (resampling "
+                          "each segment). Scan statistic {} against a critical value of {} (p = {}).\n",
+                          names, count(sc.q, "relation"), br.q_from, rel, fmt(sc.angle_deg), br.date,
+                          f"{sc.level:.0%}", br.date_low, br.date_high, fmt(sc.statistic),
+                          fmt(sc.critical_value), fmt(sc.p_value)))
+        else:
+            extra = ("" if not moving else " The window comparisons above do show change; the scan, which "
+                     "tests the whole sample for one sharp break, does not confirm a single break at this "
+                     "level. Both can hold: a gradual drift, several breaks, or a break too small for the scan.")
+            out.append(md("- Under {} ({} taken as {}): **no break found** at the {} level: scan statistic {} "
+                          "against a critical value of {} (p = {}).{}\n", names, count(sc.q, "relation"),
+                          br.q_from, f"{1 - sc.level:.0%}", fmt(sc.statistic), fmt(sc.critical_value),
+                          fmt(sc.p_value), extra))
+    rule = next((b.scan.rule for b in breaks.values() if b.scan is not None), None)
+    if rule:
+        out.append(md("**Rule.** {} Only one break is looked for: a search for several breaks needs critical "
+                      "values for a sequence of tests that this resampling does not give "
+                      "(see [the methods](/methods.html#breaks)).\n", rule))
+    return Raw("\n".join(out))
+
+
 def _single_coefficient_note() -> str:
     return blocks.callout(Raw(f"Some statements on this page quote a single coefficient. {CAUTION_LINK} "
                               "before using one."), title="Single coefficients")
@@ -310,6 +359,7 @@ def dataset_page(run, result, pub: Publisher) -> Page:
         if plan.plan.kind == "full":
             continue
         body.append(_plan_section(result, plan, pub, folder))
+    body.append(_break_section(result))
     verdicts = [v for v in run.verdicts if v.claim.dataset == ds.id]
     body.append(Raw("## Claims about this dataset {#claims}\n"))
     body.append(claims_table(verdicts, pub, csv_path(ds.id, "claims")) if verdicts

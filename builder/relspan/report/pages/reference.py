@@ -41,8 +41,11 @@ def methods_page(pub: Publisher) -> Page:
                     "at most eps (on the analysed scale).\n- Corank under bounded noise: the same test (Weyl), "
                     "with the Davis-Kahan angle bound on the subspace.\n- Corank under independent noise: the "
                     "largest corank with an existence certificate; \u201cundetermined\u201d when a larger one is "
-                    "neither certified nor ruled out.\n- Stability: a window plan is stable when every window's "
-                    "relation subspace is within the stated angle (checks.max_angle_deg) of the full sample's.\n"
+                    "neither certified nor ruled out.\n- Change across windows: an angle counts as a change only "
+                    "when it exceeds what resampling produces when nothing changes, all comparisons of a plan "
+                    "judged together at the 5% level (max-T rule); undetermined windows are not compared.\n"
+                    "- A break at an unknown date: the sup-type scan with resampled critical values at the 5% "
+                    "level, one break only.\n"
                     "- Windows are compared on one scale: each variable divided by its full-sample standard "
                     "deviation.\n"))
     return Page("methods.html", "Methods", "\n".join(body), "methods", breadcrumbs=(HOME,),

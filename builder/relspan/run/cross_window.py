@@ -1,0 +1,311 @@
+"""The cross-window stage: resampled relation bases per window, calibrated stability, the break scan.
+
+Runs inside :func:`relspan.run.pipeline.analyse_prepared`, after every window
+is analysed and while the dataset's granules are still held. Every random
+draw comes from a stream named by ``(seed, dataset, plan, window)``
+(:func:`relspan.analysis.resample.window_rng`), so the numbers do not depend on
+``--jobs``, the executor or the order windows were analysed in.
+
+One helper, :func:`window_resamples`, builds a window's resampled covariances;
+everything here that needs a window's sampling spread goes through it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping, Sequence
+
+import numpy as np
+
+from relspan.analysis import resample
+from relspan.analysis.breaks import DatasetBreak, subspace_break_scan
+from relspan.analysis.stability import (TEST_LEVEL, SamplingSpread, SubspaceStability, compare_windows,
+                                        sampling_spread)
+
+__all__ = ["ResamplingOptions", "window_resamples", "resampled_bases", "plausible_coranks",
+           "plan_stability", "dataset_breaks", "full_sample_spread", "STABILITY_ASSUMPTIONS", "BREAK_PLAN",
+           "FULL_PLAN"]
+
+#: assumptions whose relation basis is a single estimate that resampling can follow; under
+#: diagonal noise the answer is a set or family of subspaces and one member is no answer
+STABILITY_ASSUMPTIONS = ("elementary", "equal", "shaped", "bounded")
+#: the stream name of the full sample's own resamples (not a plan's window)
+FULL_PLAN = "full sample"
+#: the stream name of the break scan (it resamples the whole sample, not a window of a plan)
+BREAK_PLAN = "break scan"
+
+
+@dataclass(frozen=True, slots=True)
+class ResamplingOptions:
+    """How many resamples, at which interval level, and from which seed.
+
+    ``test_level`` is the quantile decisions use (a change, a break): 0.95.
+    """
+
+    resamples: int
+    level: float
+    seed: int
+    test_level: float = TEST_LEVEL
+
+
+def _resampling_options(ds) -> ResamplingOptions:
+    """Resamples, interval level and seed for ``ds``: 499 and 0.90 unless the spec says otherwise.
+
+    The single place this stage reads them (the spec's resampling keys, once
+    they exist, are read here).
+    """
+    checks = ds.checks
+    rs = getattr(checks, "resampling", None)
+    resamples = int(getattr(rs, "resamples", None) or resample.DEFAULT_RESAMPLES)
+    level = float(getattr(rs, "level", None) or resample.DEFAULT_LEVEL)
+    seed = getattr(rs, "seed", None)
+    return ResamplingOptions(resamples=resamples, level=level,
+                             seed=int(checks.seed if seed is None else seed))
+
+
+def window_resamples(prepared, ds, plan_id: str | None, index: int, opts: ResamplingOptions
+                     ) -> resample.CovarianceResamples:
+    """The resampled covariances of window ``index`` of plan ``plan_id`` (analysed coordinates).
+
+    Granules from ``prepared.window_granules``; the stream is
+    ``window_rng(seed, dataset, plan, index)``: the same draws whoever asks.
+    ``plan_id=None`` resamples the whole sample (stream :data:`FULL_PLAN`, index 0).
+    """
+    if plan_id is None:
+        stats = prepared.granules_between(0, len(prepared.granules))
+        plan_id, index = FULL_PLAN, 0
+    else:
+        stats = prepared.window_granules(plan_id, index)
+    rng = resample.window_rng(opts.seed, ds.id, plan_id, index)
+    return resample.resample_covariances(stats, resamples=opts.resamples, rng=rng,
+                                         seed=(opts.seed, ds.id, plan_id, int(index)))
+
+
+def _analysed(covs: np.ndarray, scale: str) -> tuple[np.ndarray, np.ndarray]:
+    """Each resample on the window's analysis scale, and the standard deviations used."""
+    if scale == "correlation":
+        d = np.sqrt(np.clip(np.diagonal(covs, axis1=1, axis2=2), 1e-300, None))
+        return covs / (d[:, :, None] * d[:, None, :]), d
+    return covs, np.ones(covs.shape[:2])
+
+
+def _shape_weights(shape, tstd: np.ndarray) -> np.ndarray:
+    w = np.asarray(shape, dtype=float)[None, :] / tstd**2
+    return w / w.mean(axis=1, keepdims=True)
+
+
+def _common_rows(rows_data: np.ndarray, common_std: np.ndarray) -> np.ndarray:
+    """(B, q, n) rows in data units -> orthonormal rows on the common scale."""
+    b = rows_data * common_std[None, None, :]
+    qq, _ = np.linalg.qr(np.swapaxes(b, 1, 2))
+    return np.swapaxes(qq, 1, 2)
+
+
+def resampled_bases(cr: resample.CovarianceResamples, analysis, assumption: str, q: int,
+                    shape=None) -> np.ndarray:
+    """Resampled relation bases ``(B, q, n)`` on the common scale, computed as the window's own are.
+
+    equal, bounded: the q smallest eigenvectors of each resample on the
+    window's analysis scale; shaped: of the whitened generalised problem;
+    elementary: row ``ref`` of the inverse covariance.
+    """
+    covs = cr.covariances
+    if assumption == "elementary":
+        rows = np.linalg.inv(covs)[:, analysis.ref, :][:, None, :]
+        return _common_rows(rows, analysis.common_std)
+    mat, tstd = _analysed(covs, analysis.scale)
+    if assumption == "shaped":
+        w = _shape_weights(shape, tstd)
+        sw = np.sqrt(w)
+        vec = np.linalg.eigh(mat / (sw[:, :, None] * sw[:, None, :]))[1][:, :, :q] / sw[:, :, None]
+    else:
+        vec = np.linalg.eigh(mat)[1][:, :, :q]
+    rows = np.swapaxes(vec, 1, 2) / tstd[:, None, :]
+    return _common_rows(rows, analysis.common_std)
+
+
+def plausible_coranks(cr: resample.CovarianceResamples, analysis, assumption: str, shape=None,
+                      share: float = 1.0 - TEST_LEVEL) -> frozenset[int] | None:
+    """Coranks the window's own rule picks in at least ``share`` of its resamples (and its own corank).
+
+    The rule applied to each resample is the window's: count the eigenvalues
+    at most the tolerance (equal, bounded) or the tolerance over the largest
+    shape weight (shaped). None for assumptions without such a rule.
+    """
+    from relspan.analysis.window import _corank_by_eigenvalues
+
+    if assumption not in ("equal", "bounded", "shaped"):
+        return None
+    mat, tstd = _analysed(cr.covariances, analysis.scale)
+    eps = analysis.eps
+    if assumption == "shaped":
+        w = _shape_weights(shape, tstd)
+        sw = np.sqrt(w)
+        lam = np.linalg.eigvalsh(mat / (sw[:, :, None] * sw[:, None, :]))
+        qs = [_corank_by_eigenvalues(lam[b], eps / float(w[b].max())) for b in range(lam.shape[0])]
+    else:
+        lam = np.linalg.eigvalsh(mat)
+        qs = [_corank_by_eigenvalues(lam[b], eps) for b in range(lam.shape[0])]
+    counts = np.bincount(np.asarray(qs, dtype=int), minlength=mat.shape[1])
+    out = {int(q) for q in np.flatnonzero(counts >= share * len(qs))}
+    own = analysis.coranks.get(assumption)
+    if own is not None:
+        out.add(int(own))
+    return frozenset(out)
+
+
+def _own_basis(analysis, assumption: str):
+    q = analysis.coranks.get(assumption)
+    if q is None or q < 1:
+        return None
+    return analysis.bases.get(assumption, {}).get(q)
+
+
+def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
+                   opts: ResamplingOptions | None = None
+                   ) -> tuple[dict[str, SubspaceStability], dict[str, tuple]]:
+    """Calibrated stability of each assumption over one plan, and each window's plausible coranks.
+
+    Returns ``(stability, plausible)``: ``stability[assumption]`` (assumptions
+    with a single relation basis, see :data:`STABILITY_ASSUMPTIONS`) and
+    ``plausible[assumption]``: per window, the set of coranks with resampling
+    support (None where the assumption has no per-resample rule).
+    """
+    opts = opts or _resampling_options(ds)
+    shape = ds.noise_shape
+    labels = [a.label for a in analyses]
+    wanted = [a for a in STABILITY_ASSUMPTIONS if a in full.coranks and a in full.bases]
+    if len(analyses) < 1 or not wanted:
+        return {}, {}
+    held: dict[int, resample.CovarianceResamples] = {}
+    plaus: dict[str, dict[int, frozenset | None]] = {a: {} for a in wanted}
+
+    def resamples_of(i: int) -> resample.CovarianceResamples:
+        if i not in held:
+            held.clear()  # windows are asked for in order; keep one at a time
+            held[i] = window_resamples(prepared, ds, plan_id, i, opts)
+        return held[i]
+
+    out: dict[str, SubspaceStability] = {}
+    for a in wanted:
+        bases = [_own_basis(w, a) for w in analyses]
+
+        def draws(i: int, a=a):
+            cr = resamples_of(i)
+            w = analyses[i]
+            if a not in ("elementary",):
+                plaus[a][i] = plausible_coranks(cr, w, a, shape)
+            return resampled_bases(cr, w, a, int(bases[i].shape[0]), shape)
+
+        out[a] = compare_windows(bases, labels=labels, resampled=draws, reference=_own_basis(full, a),
+                                 coranks=[w.coranks.get(a) for w in analyses], assumption=a,
+                                 level=opts.test_level)
+        # windows not compared (no basis) still get their plausible coranks
+        if a in ("equal", "bounded", "shaped"):
+            for i, w in enumerate(analyses):
+                if i not in plaus[a]:
+                    plaus[a][i] = plausible_coranks(resamples_of(i), w, a, shape)
+    plausible = {a: tuple(plaus[a].get(i) for i in range(len(analyses)))
+                 for a in wanted if a in ("equal", "bounded", "shaped")}
+    return out, plausible
+
+
+def _row_time(prepared, row1: int) -> str:
+    """The time (or row number) of analysed row ``row1`` (1-based), in the data's notation."""
+    pos = prepared.overview.positions
+    if prepared.time_column is not None and "time_label" in pos.columns and len(pos):
+        k = int(np.searchsorted(pos["last_row"].to_numpy(), row1, side="left"))
+        k = min(max(k, 0), len(pos) - 1)
+        return str(pos["time_label"].iloc[k])
+    return f"row {row1}"
+
+
+def _scan_corank(full, plans, assumption: str) -> tuple[int | None, str]:
+    q = full.coranks.get(assumption)
+    if q is not None and q >= 1:
+        return int(q), "the full sample's corank"
+    seen = [w.coranks.get(assumption) for p in plans for w in p.analyses]
+    seen = [c for c in seen if c is not None and c >= 1]
+    if not seen:
+        why = ("the full sample's corank is undetermined" if q is None else "the full sample shows no relation")
+        return None, f"{why}, and no window shows one"
+    vals, counts = np.unique(seen, return_counts=True)
+    return int(vals[np.argmax(counts)]), ("the corank most windows show (the full sample shows none"
+                                          + (")" if q == 0 else "; its own is undetermined)"))
+
+
+#: assumptions whose relation subspace is the q smallest eigenvectors: the scan follows these
+_SCANNED = ("equal", "bounded")
+
+
+def dataset_breaks(prepared, ds, full, plans, *, opts: ResamplingOptions | None = None
+                   ) -> dict[str, DatasetBreak]:
+    """Scan the whole sample for one break of each assumption's relation subspace.
+
+    equal and bounded noise share their subspace (the q smallest
+    eigenvectors), so one scan serves both when their q agree. Assumptions
+    the scan does not follow get a :class:`DatasetBreak` saying why.
+    """
+    opts = opts or _resampling_options(ds)
+    out: dict[str, DatasetBreak] = {}
+    done: dict[int, object] = {}
+    ordered = prepared.time_column is not None
+    for a in full.coranks:
+        if a == "elementary":
+            continue
+        if a not in _SCANNED:
+            why = ("under independent noise the answer is a set or family of subspaces, not one subspace "
+                   "to follow" if a == "diagonal" else
+                   "the scan follows the smallest eigenvectors, not the known-shape solution")
+            out[a] = DatasetBreak(assumption=a, q=None, q_from="", scan=None, reason=f"Not scanned: {why}.")
+            continue
+        q, q_from = _scan_corank(full, plans, a)
+        if not ordered:
+            out[a] = DatasetBreak(assumption=a, q=q, q_from=q_from, scan=None,
+                                  reason="Not scanned: the rows have no time order (no time column).")
+            continue
+        if q is None:
+            out[a] = DatasetBreak(assumption=a, q=None, q_from=q_from, scan=None,
+                                  reason=f"Cannot be judged: {q_from}.")
+            continue
+        if q not in done:
+            stats = prepared.granules_between(0, len(prepared.granules))
+            rng = resample.window_rng(opts.seed, ds.id, BREAK_PLAN, q)
+            try:
+                done[q] = subspace_break_scan(stats, q=q, rng=rng, scale=full.scale,
+                                              resamples=opts.resamples, level=opts.test_level)
+            except Exception as exc:  # too few rows for the trimmed scan: say so, do not fail the build
+                from relspan.errors import OptionsError
+                if not isinstance(exc, OptionsError):
+                    raise
+                done[q] = exc
+        scan = done[q]
+        if not hasattr(scan, "found"):
+            out[a] = DatasetBreak(assumption=a, q=q, q_from=q_from, scan=None,
+                                  reason=f"Cannot be judged: {scan.message if hasattr(scan, 'message') else scan}")
+            continue
+        lo, hi = scan.split_interval
+        out[a] = DatasetBreak(assumption=a, q=q, q_from=q_from, scan=scan, reason="",
+                              date=_row_time(prepared, scan.split_row + 1),
+                              date_low=_row_time(prepared, lo + 1), date_high=_row_time(prepared, hi + 1))
+    return out
+
+
+def full_sample_spread(prepared, ds, full, *, opts: ResamplingOptions | None = None
+                       ) -> dict[str, SamplingSpread]:
+    """The bootstrap spread of the full sample's relation subspace (equal and bounded noise).
+
+    Shown beside the bounded-noise angle bound, which treats the sample
+    covariance as the population's: this is what sampling adds.
+    """
+    opts = opts or _resampling_options(ds)
+    out: dict[str, SamplingSpread] = {}
+    cr = None
+    for a in ("equal", "bounded"):
+        basis = _own_basis(full, a)
+        if basis is None:
+            continue
+        cr = cr or window_resamples(prepared, ds, None, 0, opts)
+        draws = resampled_bases(cr, full, a, int(basis.shape[0]), ds.noise_shape)
+        out[a] = sampling_spread(basis, draws, assumption=a, level=opts.level)
+    return out
