@@ -126,18 +126,51 @@ _SPEC_KEYS = {"eps": "checks.tolerance", "starts": "checks.frisch_starts", "seed
 
 def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ...]]:
     """One window (top-level so process pools and Dask can pickle it)."""
-    moments, names, options, common_std, label = item
+    moments, names, options, common_std, label, *given = item
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
         try:
             result = analyse_window(moments, names=names, options=options, common_std=common_std,
-                                    label=label)
+                                    label=label, elementary=given[0] if given else None)
         except OptionsError as exc:
             if exc.key not in _SPEC_KEYS:
                 raise
             raise OptionsError(exc.message, key=_SPEC_KEYS[exc.key], fix=exc.fix) from exc
     raised = tuple(w.message for w in caught if isinstance(w.message, RelspanWarning))
     return result, raised
+
+
+def _with_elementary(items: list[tuple], names: tuple[str, ...]) -> list[tuple]:
+    """Every window's elementary regressions in one batched call, attached to its task.
+
+    :func:`~relspan.analysis.elementary.elementary_regressions_stack` gives each
+    window the result of the one-window function (within the bound its tests
+    state); a window whose moments cannot give a covariance is left to the task,
+    which reports it as before.
+    """
+    from relspan.analysis import _dd
+    from relspan.analysis.elementary import elementary_regressions_stack
+
+    ok = [i for i, it in enumerate(items) if it[0].count > 1]
+    if not ok:
+        return items
+    n = len(names)
+    counts = np.array([items[i][0].count for i in ok], dtype=np.int64)
+    means = np.array([items[i][0].mean for i in ok], dtype=float).reshape(len(ok), n)
+    com = np.array([items[i][0].comoment for i in ok], dtype=float).reshape(len(ok), n, n)
+    com_lo = np.array([np.zeros((n, n)) if items[i][0].comoment_lo is None else items[i][0].comoment_lo
+                       for i in ok], dtype=float).reshape(len(ok), n, n)
+    # Moments.covariance_parts, for all windows at once (the same elementwise arithmetic)
+    hi, lo = _dd.dd_div_float(com, com_lo, (counts - 1).astype(float)[:, None, None])
+    lo = 0.5 * (lo + lo.transpose(0, 2, 1))
+    if not (np.all(np.isfinite(hi)) and np.all(np.isfinite(lo))):
+        return items
+    ers = elementary_regressions_stack(hi, names=names, counts=counts, means=means, cov_los=lo,
+                                       labels=[items[i][4] for i in ok])
+    out = list(items)
+    for i, er in zip(ok, ers):
+        out[i] = items[i] + (er,)
+    return out
 
 
 def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, ...], str]:
@@ -212,6 +245,7 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
         pairs = window_moments(prepared, plan.id)
         spans.append((plan, [w for w, _ in pairs], len(items), len(items) + len(pairs)))
         items.extend((m, names, options, common_std, w.label) for w, m in pairs)
+    items = _with_elementary(items, names)
     executor = executor or SerialExecutor()
     results = map_in_chunks(executor, _analyse_task, items, progress=progress)
     sink = warn_sink if warn_sink is not None else []
