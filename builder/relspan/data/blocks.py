@@ -46,7 +46,7 @@ __all__ = ["BlockTable", "BlockBuilder", "assemble", "assemble_stacked", "tree_l
 #: runs are reduced together, vectorised
 _LONG_RUN = 64
 #: windows merged together in one vectorised batch (bounds temporary memory)
-_WINDOW_BATCH = 1024
+_WINDOW_BATCH = 512
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -235,7 +235,9 @@ class BlockBuilder:
         comoments = np.empty((starts.size, n, n))
         means_lo = np.empty((starts.size, n))
         comoments_lo = np.empty((starts.size, n, n))
-        long = counts >= _LONG_RUN
+        # granules (packed) are stacked whatever their length: a block's numbers are the same
+        # alone or in a stack (exact_comoment treats one block as a stack of one)
+        long = (counts >= _LONG_RUN) if self._tri is None else np.zeros(counts.size, bool)
         for i in np.flatnonzero(long):
             means[i], means_lo[i], comoments[i], comoments_lo[i] = _dd.exact_comoment(
                 y[starts[i]:ends[i]])

@@ -32,14 +32,41 @@ __all__ = ["run_analysis", "analyse_prepared", "LazyExecutor", "open_cache"]
 
 
 class LazyExecutor:
-    """Opens the executor the user asked for on first use only (a cached rebuild needs none)."""
+    """Opens the executor the user asked for on first use only (a cached rebuild needs none).
 
-    def __init__(self, jobs: int | None = None, scheduler: str | None = None) -> None:
+    With ``auto`` (no ``jobs`` given: the command line's default), each stage
+    says how much work it expects (:meth:`expect`, estimated seconds in one
+    process) and :meth:`get` runs it in this process below
+    :data:`relspan.run.executors.POOL_ABOVE_S`, on a pool of every available
+    core above it (opened once, kept for later stages). :attr:`decisions` lists
+    each stage's choice with its reason, in words.
+    """
+
+    def __init__(self, jobs: int | None = None, scheduler: str | None = None, *, auto: bool = False) -> None:
         self.jobs, self.scheduler = jobs, scheduler
+        self.auto = bool(auto) and scheduler is None and jobs is None
         self._cm = None
         self._ex = None
+        self._expected: tuple[float, str] | None = None
+        self.decisions: list[tuple[str, str]] = []
+
+    def expect(self, work_s: float, stage: str) -> None:
+        """The next :meth:`get` serves ``stage``, about ``work_s`` seconds of work in one process."""
+        self._expected = (float(work_s), str(stage))
 
     def get(self):
+        if self.auto:
+            from relspan.run.executors import SerialExecutor, available_cores, choose_local
+
+            work, stage = self._expected or (float("inf"), "tasks")
+            self._expected = None
+            if self._ex is not None:     # a pool is open already: later stages use it
+                self.decisions.append((stage, f"on the {available_cores()} worker processes already started"))
+                return self._ex
+            workers, words = choose_local(work, available_cores())
+            self.decisions.append((stage, words))
+            if workers == 1:
+                return SerialExecutor()
         if self._ex is None:
             from relspan.run.executors import open_executor
 
@@ -295,6 +322,33 @@ def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], s
                     version=code_version())
 
 
+def _cached_result(cache, spec: Spec, ds: DatasetSpec, plans) -> tuple[object | None, str]:
+    """``(cached result or None, key)``; hashes the file first only when a result may be cached.
+
+    A result may be cached when the cache remembers the file unchanged
+    (:meth:`~relspan.run.cache.ResultCache.sha_hint`) under a hash for which an
+    entry exists; the file is then hashed (one pass) and the entry looked up
+    under the hash computed now. Otherwise nothing is hashed here: the
+    analysis reads the file once and hashes it as it reads (key "" until then).
+    """
+    from relspan.data.sources import file_sha256
+
+    hint = cache.sha_hint(ds.source_path)
+    if hint is None or _dataset_key(spec, ds, plans, hint) not in cache:
+        cache.count_miss()
+        return None, ""
+    key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
+    return cache.get(key), key
+
+
+def _analysis_work(ds: DatasetSpec, tasks: int) -> float:
+    """Estimated seconds in one process for a dataset's window tasks (to choose where they run)."""
+    from relspan.run.executors import window_work
+
+    return window_work(tasks, len(ds.variables), tuple(ds.checks.assumptions),
+                       frisch_starts=ds.checks.frisch_starts)
+
+
 #: a dataset with more windows than this gets a note before its analysis (time and pages)
 MANY_WINDOWS = 500
 
@@ -343,11 +397,10 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
     cache : ResultCache, optional
         Shared with later stages; default: opened from ``cache_dir``.
     write_cache : bool
-        Store new results (``relspan check`` only reads the cache).
+        Store new results.
     """
     from relspan.analysis.claims import evaluate_claims
     from relspan.data.prepare import prepare_dataset
-    from relspan.data.sources import file_sha256
     from relspan.data.sources.detect import check_file
     from relspan.run.progress import Progress
 
@@ -361,8 +414,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
         for ds in spec.datasets:
             plans = spec.plans_for(ds)
             check_file(ds.source, ds.source_path)  # a missing, special or unreadable file is named
-            key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
-            cached = cache.get(key)
+            cached, key = _cached_result(cache, spec, ds, plans)
             if cached is not None:
                 result, cached_warnings = cached
                 _note_many_windows(ds, [(p.plan, len(p.windows)) for p in result.plans])
@@ -370,13 +422,19 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
                 results.append(dataclasses.replace(result, spec=ds))
                 raised.extend(cached_warnings)
                 continue
-            prepared = prepare_dataset(ds, plans)
+            prepared = prepare_dataset(ds, plans)   # reads the file once, hashing it as it goes
+            key = _dataset_key(spec, ds, plans, prepared.sha256)
+            cache.remember_sha(ds.source_path, prepared.sha256)
             counts = [(p, len(prepared.plan(p.id).windows)) for p in plans]
             _note_many_windows(ds, counts)
             total = 1 + sum(n for _, n in counts)
             sink: list[RelspanWarning] = []
+            lazy.expect(_analysis_work(ds, total), f"analysis of {ds.id}")
             with Progress(f"analysis of {ds.id}", total, enabled=progress) as bar:
-                result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
+                ex = lazy.get()
+                if lazy.decisions:
+                    bar.note = lazy.decisions[-1][1].split(":")[0]
+                result = analyse_prepared(ds, prepared, plans, executor=ex, progress=bar,
                                           warn_sink=sink, cache_key=key)
             if write_cache:
                 cache.put(key, (result, tuple(sink)))
@@ -396,7 +454,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
 def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None, create: bool = True):
     """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled.
 
-    ``create=False`` reads an existing folder only (``relspan check`` writes nothing).
+    ``create=False`` reads an existing folder only.
     """
     from relspan.run.cache import DEFAULT_CACHE_DIRNAME, ResultCache
 
