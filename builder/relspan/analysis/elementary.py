@@ -298,12 +298,7 @@ def elementary_regressions(cov, *, names: Sequence[str], count: int | None = Non
         resvar = d**2 / diag
         r2 = 1.0 - 1.0 / diag
         if cond_r > warn_condition:
-            where = f"window {label!r}: " if label else ""
-            warnings.warn(IllConditionedWarning(
-                f"{where}the covariance is nearly singular (condition number {cond_r:.3g} on the "
-                f"correlation scale, {condition:.3g} in the data's units); about "
-                f"{max(0, int(np.log10(cond_r))):d} of 16 significant digits of the regression "
-                "coefficients may be lost.", window=label, condition=cond_r), stacklevel=2)
+            warnings.warn(_ill_conditioned(cond_r, condition, label), stacklevel=2)
         exact = np.zeros((0, n))
         exact_norm = np.zeros((0, n))
         pivots: tuple[int, ...] = ()
@@ -430,12 +425,16 @@ def warn_ill_conditioned(er: ElementaryRegressions, *, label: str | None = None,
     cond_r, condition = er.condition_correlation, er.condition
     if er.singular or not cond_r > warn_condition:
         return
+    warnings.warn(_ill_conditioned(cond_r, condition, label), stacklevel=3)
+
+
+def _ill_conditioned(cond_r: float, condition: float, label: str | None) -> IllConditionedWarning:
     where = f"window {label!r}: " if label else ""
-    warnings.warn(IllConditionedWarning(
+    return IllConditionedWarning(
         f"{where}the covariance is nearly singular (condition number {cond_r:.3g} on the "
         f"correlation scale, {condition:.3g} in the data's units); about "
         f"{max(0, int(np.log10(cond_r))):d} of 16 significant digits of the regression "
-        "coefficients may be lost.", window=label, condition=cond_r), stacklevel=3)
+        "coefficients may be lost.", window=label, condition=cond_r)
 
 
 def _dot2_residual_stack(ah: np.ndarray, al: np.ndarray, x: np.ndarray) -> np.ndarray:
