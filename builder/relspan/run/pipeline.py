@@ -328,14 +328,14 @@ def _cached_result(cache, spec: Spec, ds: DatasetSpec, plans) -> tuple[object | 
     A result may be cached when the cache remembers the file unchanged
     (:meth:`~relspan.run.cache.ResultCache.sha_hint`) under a hash for which an
     entry exists; the file is then hashed (one pass) and the entry looked up
-    under the hash computed now. Otherwise nothing is hashed here: the
-    analysis reads the file once and hashes it as it reads (key "" until then).
+    under the hash computed now. Otherwise nothing is hashed here (key ""):
+    the data pass reads the file once and hashes it as it reads, and the
+    entry is looked up under that hash before any analysis.
     """
     from relspan.data.sources import file_sha256
 
     hint = cache.sha_hint(ds.source_path)
     if hint is None or _dataset_key(spec, ds, plans, hint) not in cache:
-        cache.count_miss()
         return None, ""
     key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
     return cache.get(key), key
@@ -415,6 +415,13 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
             plans = spec.plans_for(ds)
             check_file(ds.source, ds.source_path)  # a missing, special or unreadable file is named
             cached, key = _cached_result(cache, spec, ds, plans)
+            prepared = None
+            if cached is None and not key:
+                prepared = prepare_dataset(ds, plans)   # reads the file once, hashing it as it goes
+                key = _dataset_key(spec, ds, plans, prepared.sha256)
+                cache.remember_sha(ds.source_path, prepared.sha256)
+                # an entry the hint did not know of (a project moved or sent without its hints)
+                cached = cache.get(key) if key in cache else cache.count_miss()
             if cached is not None:
                 result, cached_warnings = cached
                 _note_many_windows(ds, [(p.plan, len(p.windows)) for p in result.plans])
@@ -422,9 +429,8 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
                 results.append(dataclasses.replace(result, spec=ds))
                 raised.extend(cached_warnings)
                 continue
-            prepared = prepare_dataset(ds, plans)   # reads the file once, hashing it as it goes
-            key = _dataset_key(spec, ds, plans, prepared.sha256)
-            cache.remember_sha(ds.source_path, prepared.sha256)
+            if prepared is None:
+                prepared = prepare_dataset(ds, plans)
             counts = [(p, len(prepared.plan(p.id).windows)) for p in plans]
             _note_many_windows(ds, counts)
             total = 1 + sum(n for _, n in counts)
