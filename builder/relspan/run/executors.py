@@ -287,10 +287,11 @@ def choose_local(work_s: float, workers: int) -> tuple[int, str]:
     Below :data:`POOL_ABOVE_S` (or with one core) the tasks run in this process;
     above it on ``workers`` processes. The words say which and why.
     """
+    amount = "under 0.1 s" if work_s < 0.05 else f"about {work_s:.1f} s"
     if workers <= 1:
-        return 1, f"in this process (about {work_s:.1f} s of work; one core available)"
+        return 1, f"in this process ({amount} of work; one core available)"
     if work_s < POOL_ABOVE_S:
-        return 1, (f"in this process: about {work_s:.1f} s of work, below the {POOL_ABOVE_S:g} s "
+        return 1, (f"in this process: {amount} of work, below the {POOL_ABOVE_S:g} s "
                    f"from which {workers} worker processes pay for their start")
     return workers, (f"on {workers} worker processes: about {work_s:.0f} s of work, above the "
                      f"{POOL_ABOVE_S:g} s from which they pay for their start")
