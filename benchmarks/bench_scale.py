@@ -1,4 +1,7 @@
-"""Scale benchmarks for relspan, side by side in one run; writes docs/performance.md.
+"""Scale benchmarks for relspan, side by side in one run; prints Markdown (``--out FILE`` writes it).
+
+Section A times ``benchmarks/batched.py``, a batched reference the pipeline does not run;
+the pipeline's own path is timed by ``benchmarks/bench_user_path.py`` (docs/performance.md).
 
 Run: ``python benchmarks/bench_scale.py`` (full: a few minutes and ~2 GB of
 scratch disk in benchmarks/_work/, removed afterwards) or
@@ -755,7 +758,7 @@ def main(argv: list[str] | None = None) -> int:
                                  formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--quick", action="store_true", help="small sizes (under a minute), print only")
     ap.add_argument("--out", type=Path, default=None,
-                    help="Markdown file to write (default: docs/performance.md for a full run)")
+                    help="Markdown file to write (default: print only)")
     ap.add_argument("--skip-pipeline", action="store_true", help="run section A only")
     ap.add_argument("--big-csv-gb", type=float, default=2.0, help="size of the peak-RSS CSV (full run)")
     args = ap.parse_args(argv)
@@ -789,7 +792,7 @@ def main(argv: list[str] | None = None) -> int:
     machine["load_average_end"] = _load()
 
     text = render(machine, rows, outcomes, args.quick)
-    out = args.out if args.out is not None else (None if args.quick else REPO / "docs" / "performance.md")
+    out = args.out
     print()
     print(text)
     if out is not None:

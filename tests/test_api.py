@@ -77,16 +77,17 @@ def test_check_returns_an_outcome_with_every_demo_claim_holding_and_no_site(demo
     assert "5 of 5 claim(s) hold" in table
 
 
-def test_check_does_not_create_a_cache_folder(tmp_path):
+def test_check_fills_the_cache_that_build_reads_so_build_recomputes_no_dataset(tmp_path):
     folder = tmp_path / "demo"
     (folder / "data").mkdir(parents=True)
     shutil.copy2(SPECS / "data" / "shift.csv", folder / "data" / "shift.csv")
     spec = folder / "fares.yaml"
     spec.write_text(_SMALL_SPEC, encoding="utf-8")
-    outcome = relspan.check(spec, jobs=1)
-    assert outcome.all_claims_hold
-    assert sorted(p.relative_to(folder).as_posix() for p in folder.rglob("*")) == [
-        "data", "data/shift.csv", "fares.yaml"]
+    checked = relspan.check(spec, jobs=1)
+    assert checked.all_claims_hold and checked.run.cache_misses == len(checked.run.datasets) >= 1
+    assert (folder / ".relspan-cache").is_dir()
+    built = relspan.build(spec, jobs=1, out=tmp_path / "site")
+    assert built.run.cache_misses == 0 and built.run.cache_hits == len(checked.run.datasets)
 
 
 # ------------------------------------------------------------------- build

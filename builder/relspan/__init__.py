@@ -3,7 +3,7 @@
 Python face of relspan (the command line is :mod:`relspan.cli`):
 
 * :func:`load_spec` - read and validate a spec file;
-* :func:`check` - analyse a spec and evaluate its claims (writes nothing);
+* :func:`check` - analyse a spec and evaluate its claims (writes no site; fills the result cache);
 * :func:`build` - analyse a spec and write its site;
 * :func:`analyse_frame` - the whole analysis on a pandas DataFrame (notebooks).
 

@@ -37,7 +37,7 @@ from relspan.analysis._export import jsonable
 from relspan.errors import IllConditionedWarning, OptionsError
 
 __all__ = ["ElementaryRegressions", "elementary_regressions", "choose_reference",
-           "DEFAULT_WARN_CONDITION"]
+           "DEFAULT_WARN_CONDITION", "elementary_regressions_stack", "warn_ill_conditioned"]
 
 #: condition number (correlation scale, 2-norm) above which a window is reported as
 #: ill-conditioned: about 10 of the 16 significant digits may be lost beyond it.
@@ -298,12 +298,7 @@ def elementary_regressions(cov, *, names: Sequence[str], count: int | None = Non
         resvar = d**2 / diag
         r2 = 1.0 - 1.0 / diag
         if cond_r > warn_condition:
-            where = f"window {label!r}: " if label else ""
-            warnings.warn(IllConditionedWarning(
-                f"{where}the covariance is nearly singular (condition number {cond_r:.3g} on the "
-                f"correlation scale, {condition:.3g} in the data's units); about "
-                f"{max(0, int(np.log10(cond_r))):d} of 16 significant digits of the regression "
-                "coefficients may be lost.", window=label, condition=cond_r), stacklevel=2)
+            warnings.warn(_ill_conditioned(cond_r, condition, label), stacklevel=2)
         exact = np.zeros((0, n))
         exact_norm = np.zeros((0, n))
         pivots: tuple[int, ...] = ()
@@ -418,3 +413,215 @@ def choose_reference(er: ElementaryRegressions) -> int:
     score = np.min(np.abs(a), axis=0)
     return int(np.argmax(score))
 
+
+
+def warn_ill_conditioned(er: ElementaryRegressions, *, label: str | None = None,
+                         warn_condition: float = DEFAULT_WARN_CONDITION) -> None:
+    """Emit the :class:`~relspan.errors.IllConditionedWarning` :func:`elementary_regressions` gives.
+
+    For results computed by :func:`elementary_regressions_stack`, which does not
+    warn, so that a window analysed from a precomputed result says the same.
+    """
+    cond_r, condition = er.condition_correlation, er.condition
+    if er.singular or not cond_r > warn_condition:
+        return
+    warnings.warn(_ill_conditioned(cond_r, condition, label), stacklevel=3)
+
+
+def _ill_conditioned(cond_r: float, condition: float, label: str | None) -> IllConditionedWarning:
+    where = f"window {label!r}: " if label else ""
+    return IllConditionedWarning(
+        f"{where}the covariance is nearly singular (condition number {cond_r:.3g} on the "
+        f"correlation scale, {condition:.3g} in the data's units); about "
+        f"{max(0, int(np.log10(cond_r))):d} of 16 significant digits of the regression "
+        "coefficients may be lost.", window=label, condition=cond_r)
+
+
+def _dot2_residual_stack(ah: np.ndarray, al: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """:func:`relspan.analysis._dd.dot2_residual` for stacks ``(w, n, n)``: the same operations per matrix."""
+    n = ah.shape[-1]
+    p, e = _dd.two_prod(ah[:, :, :, None], x[:, None, :, :])     # (w, i, k, j)
+    comp = -(e.sum(axis=2) + np.matmul(al, x))
+    terms = np.concatenate([np.broadcast_to(np.eye(n)[None, :, None, :], (x.shape[0], n, 1, n)), -p],
+                           axis=2)
+    while terms.shape[2] > 1:
+        k = terms.shape[2]
+        even = k - (k % 2)
+        s, err = _dd.two_sum(terms[:, :, 0:even:2], terms[:, :, 1:even:2])
+        comp = comp + err.sum(axis=2)
+        terms = np.concatenate([s, terms[:, :, even:]], axis=2) if k % 2 else s
+    return terms[:, :, 0] + comp
+
+
+def _refined_inverse_stack(s: np.ndarray, s_lo: np.ndarray, pr: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """:func:`_refined_inverse` for stacks: every matrix takes the steps it would take alone."""
+    _, ex = np.frexp(d)
+    t = np.ldexp(1.0, ex)
+    tt = t[:, :, None] * t[:, None, :]
+    a_hi, a_lo = s / tt, s_lo / tt
+    dd = d[:, :, None] * d[:, None, :]
+    ok = np.all(np.isfinite(a_hi), axis=(1, 2)) & np.all(np.isfinite(a_lo), axis=(1, 2))
+    out = pr.copy()
+    x = pr / dd * tt
+    active = np.flatnonzero(ok)
+    for _ in range(_REFINE_STEPS):
+        if active.size == 0:
+            break
+        xa = x[active]
+        step = np.matmul(xa, _dot2_residual_stack(a_hi[active], a_lo[active], xa))
+        xa = xa + step
+        xa = 0.5 * (xa + xa.transpose(0, 2, 1))
+        x[active] = xa
+        finite = np.all(np.isfinite(xa), axis=(1, 2))
+        ok[active[~finite]] = False          # as alone: a non-finite step keeps the first inverse
+        with np.errstate(invalid="ignore"):
+            small = np.max(np.abs(step), axis=(1, 2)) <= _REFINE_TOL * np.max(np.abs(xa), axis=(1, 2))
+        active = active[finite & ~small]
+    good = np.flatnonzero(ok)
+    out[good] = x[good] / tt[good] * dd[good]
+    return out
+
+
+#: bytes of the largest temporaries of one batch of :func:`elementary_regressions_stack`
+_STACK_BYTES = 1 << 22
+
+
+def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, means=None, cov_los=None,
+                                 ddof: int = 1, labels: Sequence[str] | None = None,
+                                 warn_condition: float = DEFAULT_WARN_CONDITION,
+                                 warn: bool = False) -> list[ElementaryRegressions]:
+    """:func:`elementary_regressions` for a stack of windows in one batched call.
+
+    Every window gets the result :func:`elementary_regressions` gives it
+    (same fields, same rules); the arithmetic runs on the whole stack at once
+    (correlation scaling, eigenvalues, inverse, refinement). Windows whose
+    covariance is singular to tolerance are handed to
+    :func:`elementary_regressions` one by one.
+
+    Parameters
+    ----------
+    covs : (w, n, n) array_like
+        Window covariances.
+    names : sequence of str
+    counts : (w,) array_like of int, optional
+    means : (w, n) array_like, optional
+    cov_los : (w, n, n) array_like, optional
+        Low-order parts of the covariances (double-double), as for ``cov_lo``.
+    ddof : int, default 1
+    labels : sequence of str, optional
+        Window names for warnings.
+    warn_condition : float
+    warn : bool, default False
+        Emit the ill-conditioning warnings here; by default the caller does
+        (:func:`warn_ill_conditioned`, as :func:`relspan.analysis.window.analyse_window`).
+
+    Returns
+    -------
+    list of ElementaryRegressions
+
+    Notes
+    -----
+    Against :func:`elementary_regressions` window by window, eigenvalues,
+    ranks and condition numbers are the same numbers (the same LAPACK routine
+    on the same matrices); the first inverse comes from a batched LU solve
+    instead of a Cholesky solve and both are refined against the
+    double-double covariance, so coefficients, residual variances and R^2
+    agree to a few units in the last place (``tests/analysis/test_elementary_stack.py``
+    states the bound).
+
+    References
+    ----------
+    As :func:`elementary_regressions` (Frisch 1934; Higham 2002; Ogita, Rump & Oishi 2005).
+    """
+    s = np.array(covs, dtype=float)
+    if s.ndim != 3 or s.shape[1] != s.shape[2]:
+        raise OptionsError(f"covs must be a (w, n, n) stack; got shape {s.shape}.", key="covs",
+                           fix="Stack the window covariances along a first axis.")
+    w, n = s.shape[0], s.shape[1]
+    names_t = tuple(str(x) for x in names)
+    if len(names_t) != n:
+        raise OptionsError(f"names has {len(names_t)} entries but covs has {n} variables.", key="names",
+                           fix=f"Pass exactly {n} names.")
+    if w == 0:
+        return []
+    per = max(64, _STACK_BYTES // (8 * n ** 3))
+    if w > per:   # bounded temporaries (the refinement holds a few (w, n, n, n) arrays)
+        out_all: list[ElementaryRegressions] = []
+        for a in range(0, w, per):
+            sl = slice(a, a + per)
+            out_all.extend(elementary_regressions_stack(
+                s[sl], names=names_t, counts=None if counts is None else np.asarray(counts)[sl],
+                means=None if means is None else np.asarray(means)[sl],
+                cov_los=None if cov_los is None else np.asarray(cov_los)[sl], ddof=ddof,
+                labels=None if labels is None else list(labels)[sl], warn_condition=warn_condition,
+                warn=warn))
+        return out_all
+    lab = [None] * w if labels is None else [str(x) or None for x in labels]
+    cnt = [None] * w if counts is None else [int(c) for c in np.asarray(counts)]
+    mv = None if means is None else np.asarray(means, dtype=float).reshape(w, n)
+    lo = np.zeros_like(s) if cov_los is None else np.asarray(cov_los, dtype=float).reshape(w, n, n)
+
+    if not (np.all(np.isfinite(s)) and np.all(np.isfinite(lo))):
+        bad_rows = np.flatnonzero(~(np.isfinite(s).all(axis=(1, 2)) & np.isfinite(lo).all(axis=(1, 2))))
+    else:
+        bad_rows = np.zeros(0, np.int64)
+    st = s.transpose(0, 2, 1)
+    asym = np.max(np.abs(s - st), axis=(1, 2))
+    scale = np.maximum(np.max(np.abs(s), axis=(1, 2)), np.finfo(float).tiny)
+    odd = (asym > 1e-8 * scale) | np.any(np.diagonal(s, axis1=1, axis2=2) < 0, axis=1)
+    s = 0.5 * (s + st)                                       # check_cov's symmetrised copy
+    lo = 0.5 * (lo + lo.transpose(0, 2, 1))                  # _check_lo
+
+    d = np.sqrt(np.diagonal(s, axis1=1, axis2=2))            # correlation_scale, per window
+    d = np.where(d > 0, d, 1.0)
+    r = s / (d[:, :, None] * d[:, None, :])
+    r = 0.5 * (r + r.transpose(0, 2, 1))
+    ev, _ = np.linalg.eigh(r)
+    wmax = np.maximum(ev[:, -1], 0.0)
+    rtol = 100.0 * n * EPS
+    tol = np.where(wmax > 0, rtol * wmax, 1.0)
+    rank = n - np.count_nonzero(ev <= tol[:, None], axis=1)
+    ws = np.linalg.eigvalsh(s)
+    full = (rank == n) & ~odd
+    full[bad_rows] = False
+    idx = np.flatnonzero(full)
+
+    out: list[ElementaryRegressions | None] = [None] * w
+    if idx.size:
+        sf, rf, df, lof = s[idx], r[idx], d[idx], lo[idx]
+        pr = np.linalg.inv(rf)
+        pr = 0.5 * (pr + pr.transpose(0, 2, 1))
+        pr = _refined_inverse_stack(sf, lof, pr, df)
+        diag = np.diagonal(pr, axis1=1, axis2=2).copy()
+        rel = pr / diag[:, :, None] * (df[:, :, None] / df[:, None, :])
+        eye = np.eye(n, dtype=bool)
+        rel[:, eye] = 1.0
+        resvar = df ** 2 / diag
+        r2 = 1.0 - 1.0 / diag
+        coef = -rel
+        coef[:, eye] = 0.0
+        wsf, evf = ws[idx], ev[idx]
+        empty = np.zeros((0, n))
+        for a, i in enumerate(idx):
+            c = cnt[i]
+            condition = float(wsf[a, -1] / wsf[a, 0]) if wsf[a, 0] > 0 else float("inf")
+            cond_r = float(evf[a, -1] / evf[a, 0]) if evf[a, 0] > 0 else float("inf")
+            unbiased = None if c is None or c <= n else resvar[a] * (c - ddof) / (c - n)
+            out[i] = ElementaryRegressions(
+                names=names_t, relations=rel[a], coefficients=coef[a],
+                intercepts=None if mv is None else rel[a] @ mv[i], residual_variance=resvar[a],
+                residual_variance_unbiased=unbiased, r_squared=r2[a], std=df[a], condition=condition,
+                condition_correlation=cond_r, rank=n, singular=False, singular_reason="",
+                exact_relations=empty, exact_normalised=empty, exact_pivots=(), count=c, ddof=int(ddof))
+    for i in range(w):
+        if out[i] is None:   # singular, or input the one-window function must judge (and name)
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", IllConditionedWarning)
+                out[i] = elementary_regressions(
+                    s[i] if i not in set(bad_rows.tolist()) and not odd[i] else np.asarray(covs)[i],
+                    names=names_t, count=cnt[i], mean=None if mv is None else mv[i], ddof=ddof,
+                    cov_lo=lo[i], label=lab[i], warn_condition=warn_condition)
+    if warn:
+        for i, er in enumerate(out):
+            warn_ill_conditioned(er, label=lab[i], warn_condition=warn_condition)
+    return out  # type: ignore[return-value]

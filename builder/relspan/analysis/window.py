@@ -29,7 +29,8 @@ from typing import Mapping, Sequence
 import numpy as np
 
 from relspan.analysis.bounded import BoundedNoise, bounded_noise, tolerance_eps
-from relspan.analysis.elementary import ElementaryRegressions, choose_reference, elementary_regressions
+from relspan.analysis.elementary import (ElementaryRegressions, choose_reference, elementary_regressions,
+                                         warn_ill_conditioned)
 from relspan.analysis.equal_noise import EqualNoise, equal_noise
 from relspan.analysis.frisch import FrischResult, frisch_analysis
 from relspan.analysis.moments import Moments
@@ -259,7 +260,8 @@ def _corank_by_eigenvalues(eigenvalues: np.ndarray, limit: float) -> int:
 
 
 def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOptions,
-                   common_std: np.ndarray, label: str = "") -> WindowAnalysis:
+                   common_std: np.ndarray, label: str = "",
+                   elementary: ElementaryRegressions | None = None) -> WindowAnalysis:
     """Run every requested noise assumption on one window.
 
     Parameters
@@ -274,6 +276,11 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
         Full-sample standard deviations (the common scale).
     label : str
         Window label, used in warnings.
+    elementary : ElementaryRegressions, optional
+        This window's elementary regressions when already computed (the
+        pipeline computes every window's at once,
+        :func:`~relspan.analysis.elementary.elementary_regressions_stack`);
+        its warning is given here as if computed here.
 
     Returns
     -------
@@ -294,8 +301,12 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        er = elementary_regressions(cov, names=names, count=moments.count, mean=moments.mean,
-                                    cov_lo=cov_lo, label=label or None)
+        if elementary is None:
+            er = elementary_regressions(cov, names=names, count=moments.count, mean=moments.mean,
+                                        cov_lo=cov_lo, label=label or None)
+        else:
+            er = elementary
+            warn_ill_conditioned(er, label=label or None)
     for w in caught:
         warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
         notes.append(str(w.message))

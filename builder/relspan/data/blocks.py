@@ -40,13 +40,13 @@ from relspan.analysis import _dd
 from relspan.analysis.moments import Moments
 
 __all__ = ["BlockTable", "BlockBuilder", "assemble", "assemble_stacked", "tree_levels", "GRANULE_CAP",
-           "GranuleTable", "GranuleBuilder", "granulate", "granule_rows_for", "coarsen"]
+           "GranuleTable", "GranuleBuilder", "granulate", "granule_rows_for"]
 
 #: runs at least this long are reduced with one BLAS product each; shorter
 #: runs are reduced together, vectorised
 _LONG_RUN = 64
 #: windows merged together in one vectorised batch (bounds temporary memory)
-_WINDOW_BATCH = 4096
+_WINDOW_BATCH = 512
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -115,16 +115,28 @@ class _Grow:
     final size instead of three times it.
     """
 
-    __slots__ = ("_a", "_n")
+    __slots__ = ("_a", "_n", "_factor")
 
-    def __init__(self, shape_tail: tuple[int, ...], dtype) -> None:
+    def __init__(self, shape_tail: tuple[int, ...], dtype, factor: float = 2.0) -> None:
         self._a = np.empty((16, *shape_tail), dtype=dtype)
         self._n = 0
+        self._factor = factor
+
+    def __len__(self) -> int:
+        return self._n
+
+    def view(self) -> np.ndarray:
+        """The rows so far, as a writable view (valid until the next extend)."""
+        return self._a[:self._n]
+
+    def truncate(self, k: int) -> None:
+        """Keep the first ``k`` rows (the buffer keeps its size for later rows)."""
+        self._n = min(int(k), self._n)
 
     def extend(self, values: np.ndarray) -> None:
         k = values.shape[0]
         if self._n + k > self._a.shape[0]:
-            cap = max(2 * self._a.shape[0], self._n + k)
+            cap = max(int(self._factor * self._a.shape[0]), self._n + k, 16)
             self._a.resize((cap, *self._a.shape[1:]), refcheck=False)  # only we hold it
         self._a[self._n:self._n + k] = values
         self._n += k
@@ -152,17 +164,20 @@ class BlockBuilder:
     """
 
     def __init__(self, n: int, keys: Callable[[np.ndarray, np.ndarray | None], np.ndarray], *,
-                 timed: bool) -> None:
+                 timed: bool, packed: bool = False, growth: float = 2.0) -> None:
+        # packed (granules): co-moments stored as their upper triangle and no low parts
         self.n = n
         self._keys = keys
         self._timed = timed
-        self._counts = _Grow((), np.int64)
-        self._means = _Grow((n,), float)
-        self._comoments = _Grow((n, n), float)
-        self._means_lo = _Grow((n,), float)
-        self._comoments_lo = _Grow((n, n), float)
-        self._meta = _Grow((4,), np.int64)
-        self._times = _Grow((2,), np.int64)
+        self._tri = np.triu_indices(n) if packed else None
+        tail = (n * (n + 1) // 2,) if packed else (n, n)
+        self._counts = _Grow((), np.int64, growth)
+        self._means = _Grow((n,), float, growth)
+        self._comoments = _Grow(tail, float, growth)
+        self._means_lo = None if packed else _Grow((n,), float, growth)
+        self._comoments_lo = None if packed else _Grow(tail, float, growth)
+        self._meta = _Grow((4,), np.int64, growth)
+        self._times = _Grow((2,), np.int64, growth)
         self._carry: tuple | None = None
 
     def push(self, y: np.ndarray, pos: np.ndarray, source_rows: np.ndarray,
@@ -188,12 +203,18 @@ class BlockBuilder:
         self._carry = (y[last:].copy(), pos[last:].copy(), source_rows[last:].copy(),
                        None if times is None else times[last:].copy())
 
-    def finish(self, origin: np.ndarray) -> BlockTable:
-        """Close the last block and return all blocks (rows were pushed minus ``origin``)."""
+    def flush(self) -> None:
+        """Close the open block (the next row starts a new one whatever its bucket)."""
         if self._carry is not None:
             cy, cp, cs, ct = self._carry
             self._carry = None
             self._emit(cy, np.array([0]), cp, cs, ct)
+
+    def finish(self, origin: np.ndarray) -> BlockTable:
+        """Close the last block and return all blocks (rows were pushed minus ``origin``)."""
+        if self._tri is not None:
+            raise TypeError("a packed builder is read by its owner (GranuleBuilder), not finished")
+        self.flush()
         meta = self._meta.get()
         t = self._times.get()
         return BlockTable(
@@ -214,7 +235,9 @@ class BlockBuilder:
         comoments = np.empty((starts.size, n, n))
         means_lo = np.empty((starts.size, n))
         comoments_lo = np.empty((starts.size, n, n))
-        long = counts >= _LONG_RUN
+        # granules (packed) are stacked whatever their length: a block's numbers are the same
+        # alone or in a stack (exact_comoment treats one block as a stack of one)
+        long = (counts >= _LONG_RUN) if self._tri is None else np.zeros(counts.size, bool)
         for i in np.flatnonzero(long):
             means[i], means_lo[i], comoments[i], comoments_lo[i] = _dd.exact_comoment(
                 y[starts[i]:ends[i]])
@@ -223,15 +246,19 @@ class BlockBuilder:
         # depend on its own rows and length only, never on the chunk it arrived in
         for length in np.unique(counts[short]):
             sel = short[counts[short] == length]
-            for p0 in range(0, sel.size, _STACK_BLOCKS):
-                part = sel[p0:p0 + _STACK_BLOCKS]
+            per = _stack_blocks(int(length), n)
+            for p0 in range(0, sel.size, per):
+                part = sel[p0:p0 + per]
                 (means[part], means_lo[part], comoments[part],
                  comoments_lo[part]) = _short_moments(y, starts[part], int(length))
         self._counts.extend(counts.astype(np.int64))
         self._means.extend(means)
-        self._comoments.extend(comoments)
-        self._means_lo.extend(means_lo)
-        self._comoments_lo.extend(comoments_lo)
+        if self._tri is not None:
+            self._comoments.extend(comoments[:, self._tri[0], self._tri[1]])
+        else:
+            self._comoments.extend(comoments)
+            self._means_lo.extend(means_lo)
+            self._comoments_lo.extend(comoments_lo)
         self._meta.extend(np.stack([pos[starts], pos[ends - 1], src[starts], src[ends - 1]], axis=1))
         if self._timed and times is not None:
             ti = times.astype("datetime64[s]").astype(np.int64)
@@ -266,6 +293,18 @@ def _short_moments(y: np.ndarray, starts: np.ndarray, length: int):
 
 #: short blocks reduced together in one stack (bounds the temporary copy of their rows)
 _STACK_BLOCKS = 2048
+#: bytes of temporaries one stack may use (about a dozen (n, n) and eight (L, n) arrays per block)
+_STACK_BYTES = 1 << 19
+
+
+def _stack_blocks(length: int, n: int) -> int:
+    """Blocks of ``length`` rows reduced in one stack: at most ``_STACK_BLOCKS`` and about ``_STACK_BYTES``.
+
+    Each block's numbers depend on its own rows only, so the stack size changes
+    memory and speed, never a result.
+    """
+    per_block = 8 * (12 * n * n + 8 * length * n)
+    return max(1, min(_STACK_BLOCKS, _STACK_BYTES // per_block))
 
 
 def _merge_arrays(ca, ma, mla, cma, cmla, cb, mb, mlb, cmb, cmlb):
@@ -482,63 +521,49 @@ def granule_rows_for(rows: int, cap: int = GRANULE_CAP) -> int:
     return g
 
 
-def _concat_tables(parts: list[BlockTable], origin: np.ndarray) -> BlockTable:
-    timed = parts[0].first_time is not None
-    cat = np.concatenate
-    return BlockTable(
-        counts=cat([p.counts for p in parts]), means=cat([p.means for p in parts]),
-        comoments=cat([p.comoments for p in parts]), first_pos=cat([p.first_pos for p in parts]),
-        last_pos=cat([p.last_pos for p in parts]),
-        first_source_row=cat([p.first_source_row for p in parts]),
-        last_source_row=cat([p.last_source_row for p in parts]),
-        first_time=cat([p.first_time for p in parts]) if timed else None,
-        last_time=cat([p.last_time for p in parts]) if timed else None,
-        origin=np.asarray(origin, dtype=float).copy())
+def _merge_packed(ca, mah, mal, cah, cal, cb, mbh, mbl, cbh, cbl, tri):
+    """:func:`relspan.analysis._dd.merge_dd` on co-moments packed as their upper triangle.
 
-
-def coarsen(table: BlockTable, g: int, plan_keys: np.ndarray) -> BlockTable:
-    """Merge neighbouring granules that share their plan bucket and their ``g``-row bucket.
-
-    Each new granule is the Chan-Golub-LeVeque merge of at most two old
-    ones (the builder only ever doubles ``g``), so the result depends on the
-    rows alone, not on how they arrived.
-
-    Parameters
-    ----------
-    table : BlockTable
-        Granules of ``g / 2`` rows.
-    g : int
-        New granule size.
-    plan_keys : (k, K) int array
-        The plan-grid bucket of each granule (of its first row).
+    ``cah, cal, cbh, cbl`` are ``(w, p)`` with ``p = n (n + 1) / 2`` entries
+    ``(i, j), i <= j`` in ``tri`` order. Every entry gets exactly the
+    arithmetic ``merge_dd`` gives the same entry of the full matrix (which
+    computes the upper triangle and mirrors it), so unpacking the result gives
+    the full merge bit for bit.
     """
-    k = len(table)
-    if k < 2:
-        return table
-    fp = table.first_pos
-    same = np.all(plan_keys[1:] == plan_keys[:-1], axis=1) & (fp[1:] // g == fp[:-1] // g)
-    start = np.concatenate([[True], ~same])
-    gid = np.cumsum(start) - 1
-    size = np.bincount(gid)
-    if size.max() > 2:
-        raise AssertionError("coarsen merges at most two granules at a time")
-    first = np.flatnonzero(start)
-    pair = first[size == 2]
-    ml, cml = _lo_parts(table)
-    c, m, ml, cm, cml = (table.counts.copy(), table.means.copy(), ml.copy(), table.comoments.copy(), cml.copy())
-    if pair.size:
-        merged = _merge_arrays(c[pair], m[pair], ml[pair], cm[pair], cml[pair],
-                               c[pair + 1], m[pair + 1], ml[pair + 1], cm[pair + 1], cml[pair + 1])
-        c[pair], m[pair], ml[pair], cm[pair], cml[pair] = merged
-    last = first + size - 1
-    return BlockTable(
-        counts=c[first], means=m[first], comoments=cm[first], means_lo=ml[first], comoments_lo=cml[first],
-        first_pos=fp[first],
-        last_pos=table.last_pos[last], first_source_row=table.first_source_row[first],
-        last_source_row=table.last_source_row[last],
-        first_time=None if table.first_time is None else table.first_time[first],
-        last_time=None if table.last_time is None else table.last_time[last],
-        origin=table.origin)
+    i, j = tri
+    ca = np.asarray(ca)
+    cb = np.asarray(cb)
+    tot = ca + cb
+    safe = np.where(tot > 0, tot, 1).astype(float)
+    dh, dl = _dd.two_sum(mbh, -mah)
+    dl = dl + (mbl - mal)
+    dh, dl = _dd.fast_two_sum(dh, dl)
+    wh, wl = _dd.ratio(cb, safe)
+    ph, pl = _dd.dd_mul(dh, dl, wh[:, None], wl[:, None])
+    mh, ml = _dd.dd_add(mah, mal, ph, pl)
+    fh, fl = _dd.ratio(np.asarray(ca, dtype=float) * cb, safe)
+    uh, ul = _dd.dd_mul(dh, dl, fh[:, None], fl[:, None])
+    ush, usl = _dd.split(uh)
+    dsh, dsl = _dd.split(dh)
+    th, tl = _dd.two_prod_split(uh[:, i], ush[:, i], usl[:, i], dh[:, j], dsh[:, j], dsl[:, j])
+    tl = tl + (uh[:, i] * dl[:, j] + ul[:, i] * dh[:, j])
+    ch, e = _dd.two_sum(cah, cbh)
+    ch, e2 = _dd.two_sum(ch, th)
+    ch, cl = _dd.fast_two_sum(ch, ((e + e2) + (cal + cbl)) + tl)
+    return tot.astype(np.int64), mh, _dd.finite_lo(ml), ch, _dd.finite_lo(cl)
+
+
+def _unpack(packed: np.ndarray, n: int) -> np.ndarray:
+    """``(k, p)`` upper triangles -> ``(k, n, n)`` symmetric matrices."""
+    i, j = np.triu_indices(n)
+    out = np.empty((packed.shape[0], n, n))
+    out[:, i, j] = packed
+    out[:, j, i] = packed
+    return out
+
+
+#: granule pairs merged (and rows moved) at a time when the granules coarsen (bounds temporaries)
+_COARSEN_BATCH = 256
 
 
 class GranuleBuilder:
@@ -550,6 +575,15 @@ class GranuleBuilder:
     result does not depend on the chunk size (the switch happens at fixed
     row positions, and a granule is always the two-pass reduction of its own
     rows or a merge of two such).
+
+    Memory: one table of granules, grown by a quarter at a time and coarsened
+    in place (pairs merged in batches, rows moved down), co-moments packed as
+    upper triangles, no double-double low parts: a granule is a float64
+    value, and a merge of two granules is the double-double merge of those
+    values rounded to float64 (the numbers of the first granule builder, bit
+    for bit; ``tests/granule_oracle.py``). About ``8 (4 + 2 n + n (n + 1) / 2)``
+    bytes per granule (and two time stamps with a time column), at most about
+    ``1.25 cap`` granules held.
 
     Parameters
     ----------
@@ -572,13 +606,9 @@ class GranuleBuilder:
         self._timed = timed
         self._cap = int(cap) + int(cap) % 2
         self._g = 1
-        self._parts: list[BlockTable] = []
-        self._inner = self._new_inner()
-
-    def _new_inner(self) -> BlockBuilder:
-        g = self._g
-        return BlockBuilder(self.n, lambda p, t: np.column_stack([self._plan_keys(p, t), p // g]),
-                            timed=self._timed)
+        self._tri = np.triu_indices(n)
+        self._store = BlockBuilder(n, lambda p, t: np.column_stack([keys(p, t), p // self._g]),
+                                   timed=timed, packed=True, growth=1.25)
 
     @property
     def rows_per_granule(self) -> int:
@@ -591,36 +621,77 @@ class GranuleBuilder:
             limit = self._cap * self._g  # cap is even: a multiple of the next granule size
             cut = int(np.searchsorted(pos, limit, side="left"))
             if cut == y.shape[0]:
-                self._inner.push(y, pos, source_rows, times)
+                self._store.push(y, pos, source_rows, times)
                 return
             if cut:
-                self._inner.push(y[:cut], pos[:cut], source_rows[:cut],
+                self._store.push(y[:cut], pos[:cut], source_rows[:cut],
                                  None if times is None else times[:cut])
             self._double()
             y, pos, source_rows = y[cut:], pos[cut:], source_rows[cut:]
             times = None if times is None else times[cut:]
 
     def _double(self) -> None:
-        part = self._inner.finish(np.zeros(self.n))
-        if len(part):
-            self._parts.append(part)
+        """Close the open granule, double ``g`` and merge neighbours in place."""
+        s = self._store
+        s.flush()
         self._g *= 2
-        if self._parts:
-            whole = _concat_tables(self._parts, np.zeros(self.n))
-            self._parts = [coarsen(whole, self._g, self._keys_of(whole))]
-        self._inner = self._new_inner()
-
-    def _keys_of(self, t: BlockTable) -> np.ndarray:
-        times = None if t.first_time is None else t.first_time
-        return np.asarray(self._plan_keys(t.first_pos, times))
+        k = len(s._counts)
+        if k < 2:
+            return
+        g = self._g
+        meta = s._meta.view()
+        fp = meta[:, 0]
+        times = s._times.view()[:, 0].astype("datetime64[s]") if self._timed else None
+        plan_keys = np.asarray(self._plan_keys(fp, times))
+        same = np.all(plan_keys[1:] == plan_keys[:-1], axis=1) & (fp[1:] // g == fp[:-1] // g)
+        del plan_keys, times
+        start = np.concatenate([[True], ~same])
+        first = np.flatnonzero(start)
+        size = np.diff(np.append(first, k))
+        if size.max() > 2:
+            raise AssertionError("coarsening merges at most two granules at a time")
+        pair = first[size == 2]
+        c, m, cm = s._counts.view(), s._means.view(), s._comoments.view()
+        for b0 in range(0, pair.size, _COARSEN_BATCH):
+            a = pair[b0:b0 + _COARSEN_BATCH]
+            b = a + 1
+            zm, zc = np.zeros((a.size, self.n)), np.zeros((a.size, cm.shape[1]))
+            c[a], m[a], _, cm[a], _ = _merge_packed(c[a], m[a], zm, cm[a], zc, c[b], m[b], zm,
+                                                    cm[b], zc, self._tri)
+        last = first + size - 1
+        # move the merged granules down: row i takes row first[i] >= i (last[i] for the ends),
+        # batch by batch, so no batch overwrites a row a later batch still reads
+        tv = s._times.view() if self._timed else None
+        for b0 in range(0, first.size, _COARSEN_BATCH):
+            sl = slice(b0, min(b0 + _COARSEN_BATCH, first.size))
+            f, e = first[sl], last[sl]
+            for arr in (c, m, cm):
+                arr[sl] = arr[f]
+            meta[sl] = np.column_stack([meta[f, 0], meta[e, 1], meta[f, 2], meta[e, 3]])
+            if tv is not None:
+                tv[sl] = np.column_stack([tv[f, 0], tv[e, 1]])
+        for grow in (s._counts, s._means, s._comoments, s._meta, s._times):
+            grow.truncate(first.size)
 
     def finish(self, origin: np.ndarray) -> GranuleTable:
-        """All granules (rows were pushed minus ``origin``, as for :class:`BlockBuilder`)."""
-        part = self._inner.finish(origin)
-        parts = [p for p in self._parts + [part] if len(p)]
-        if not parts:
-            return GranuleTable(part, self._g, self._cap)
-        return GranuleTable(_concat_tables(parts, origin), self._g, self._cap)
+        """All granules (rows were pushed minus ``origin``, as for :class:`BlockBuilder`).
+
+        Co-moments are unpacked to ``(k, n, n)``; the table has no low parts.
+        """
+        s = self._store
+        s.flush()
+        comoments = _unpack(s._comoments.view(), self.n)
+        s._comoments = None
+        meta = s._meta.get()
+        t = s._times.get()
+        table = BlockTable(
+            counts=s._counts.get(), means=s._means.get(), comoments=comoments,
+            first_pos=meta[:, 0], last_pos=meta[:, 1], first_source_row=meta[:, 2],
+            last_source_row=meta[:, 3],
+            first_time=t[:, 0].astype("datetime64[s]") if self._timed else None,
+            last_time=t[:, 1].astype("datetime64[s]") if self._timed else None,
+            origin=np.asarray(origin, dtype=float).copy())
+        return GranuleTable(table, self._g, self._cap)
 
 
 def granulate(y, *, cap: int = GRANULE_CAP, cuts=None) -> GranuleTable:

@@ -575,7 +575,6 @@ class _Pass:
                             fix="use more data, or analyse fewer variables.")
         check_not_tiny(self.largest, self.names, path=path)
         blocks = self.blocks.finish(self.origin)
-        granules = self.granules.finish(self.origin)
         levels = tree_levels(blocks)
         fc, fm, fcm, fml, fcml = assemble_stacked(blocks, np.array([0]), np.array([len(blocks)]),
                                                   relative=True, levels=levels, low=True)
@@ -608,6 +607,8 @@ class _Pass:
             prepared_plans.append(PlanWindows(
                 plan.id, plan.kind, wins if isinstance(wins, WindowTable) else tuple(wins), mom))
         del levels
+        # after the segment tree is freed: the granules stay packed while it is held
+        granules = self.granules.finish(self.origin)
         period = None
         if blocks.first_time is not None:
             a, b = format_times(np.array([blocks.first_time[0], blocks.last_time[-1]]), self.fmt)

@@ -222,13 +222,19 @@ def _is_main_test(test) -> bool:
     return len(names) == 1 and len(consts) == 1
 
 
+#: plan_workers' words when the choice is made per stage, from the expected work
+AUTO = "chosen from the amount of work"
+
+
 def plan_workers(spec, jobs: int | None, scheduler: str | None, *,
                  default_jobs: int | None) -> tuple[int | None, str | None, str]:
     """Where the window tasks run: ``(jobs, scheduler, words)``.
 
     The caller's ``jobs``/``scheduler``, else the spec's ``run:`` section, else
     ``default_jobs`` (1 from Python: in this process; None from the command line:
-    every available core). Local worker processes are not started from a main
+    chosen per stage from the work it expects, ``(None, None, AUTO)``: in this
+    process below :data:`relspan.run.executors.POOL_ABOVE_S` seconds, on every
+    available core above). Local worker processes are not started from a main
     program that they would run again (:func:`main_module_is_unguarded`): the
     tasks then run in this process, with a :class:`RuntimeWarning` that says how
     to use more cores.
@@ -243,6 +249,8 @@ def plan_workers(spec, jobs: int | None, scheduler: str | None, *,
     if jobs is None:
         jobs = default_jobs
     workers = available_cores() if jobs is None else jobs
+    if jobs is None and not main_module_is_unguarded():
+        return None, None, AUTO   # chosen per stage from the work it expects (LazyExecutor)
     if isinstance(workers, int) and not isinstance(workers, bool) and workers > 1 \
             and main_module_is_unguarded():
         warnings.warn(
@@ -261,8 +269,9 @@ def check(spec_path, *, jobs: int | None = None, scheduler: str | None = None, u
           default_jobs: int | None = 1) -> Outcome:
     """Validate a spec and its data, analyse, and evaluate the claims; write no site.
 
-    An existing result cache is read; none is written or created (no cache
-    folder appears where there was none).
+    Results are read from and written to the result cache (``.relspan-cache``
+    beside the spec, or ``cache_dir``) unless ``use_cache`` is False, so a
+    ``build`` after a ``check`` of the same spec and data recomputes no dataset.
 
     Parameters
     ----------
@@ -280,25 +289,28 @@ def check(spec_path, *, jobs: int | None = None, scheduler: str | None = None, u
         terminal or in a notebook only.
     default_jobs : int or None
         Workers when neither ``jobs`` nor the spec says: 1 (in this process, the
-        Python default, safe in any script) or None (every available core, what
+        Python default, safe in any script) or None (chosen from the amount of work, what
         the command line uses). A script without an ``if __name__ == "__main__":``
         block runs in this process whatever is asked (see :func:`plan_workers`).
     """
 
     t0 = time.perf_counter()
     spec = _load(spec_path)
-    folder = Path(cache_dir) if cache_dir is not None else spec.folder / DEFAULT_CACHE_DIRNAME
-    if use_cache and not folder.is_dir():
-        # nothing to read; opening the cache would create its folder, and check writes nothing
-        if folder.exists():
-            from relspan.run.cache import ResultCache
-
-            ResultCache(folder)  # the located error for a file where the folder should be
-        use_cache = False
+    cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
     jobs, scheduler, where = plan_workers(spec, jobs, scheduler, default_jobs=default_jobs)
-    run = run_analysis(spec, jobs=jobs, scheduler=scheduler, use_cache=use_cache, cache_dir=cache_dir,
-                       progress=progress, write_cache=False)
-    return Outcome(run, None, time.perf_counter() - t0, where)
+    with LazyExecutor(jobs, scheduler, auto=where == AUTO) as executor:
+        run = run_analysis(spec, progress=progress, executor=executor, cache=cache)
+    return Outcome(run, None, time.perf_counter() - t0, _where(where, executor))
+
+
+def _where(planned: str, executor: LazyExecutor) -> str:
+    """Where the tasks ran, in words: the plan, or each stage's automatic choice and its reason."""
+    if planned != AUTO:
+        return planned
+    if not executor.decisions:
+        return "nowhere: every result came from the cache"
+    said = list(dict.fromkeys(words for _, words in executor.decisions))
+    return "; ".join(said)
 
 
 def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None = None,
@@ -324,13 +336,13 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
                         out_dir)
     cache = open_cache(spec, use_cache=use_cache, cache_dir=cache_dir)
     jobs, scheduler, where = plan_workers(spec, jobs, scheduler, default_jobs=default_jobs)
-    with LazyExecutor(jobs, scheduler) as executor:
+    with LazyExecutor(jobs, scheduler, auto=where == AUTO) as executor:
         run = run_analysis(spec, progress=progress, executor=executor, cache=cache)
         content = _content_with_figures(run, executor, cache, progress)
     files = render_site(content)
     write_site(files, out_dir, protected=protected)
     cache.prune()  # entries of other environments, old formats, unused for a month
-    return Outcome(run, out_dir, time.perf_counter() - t0, where)
+    return Outcome(run, out_dir, time.perf_counter() - t0, _where(where, executor))
 
 
 def _content_with_figures(run, executor, cache, progress: bool | None):
@@ -341,6 +353,10 @@ def _content_with_figures(run, executor, cache, progress: bool | None):
     from relspan.run.progress import Progress
 
     draft = site_draft(run)
+    if hasattr(executor, "expect"):   # automatic choice: serial below the work a pool pays for
+        from relspan.run.executors import FIGURE_S
+
+        executor.expect(FIGURE_S * len(draft.figure_jobs), "figures")
     # the total is set once the uncached figures are known
     with Progress("figures", 0, enabled=progress) as bar:
         rendered = draw_figures(draft.figure_jobs, draft.figure_format, executor=executor, cache=cache,

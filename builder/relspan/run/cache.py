@@ -289,6 +289,12 @@ def _note(text: str) -> None:
     warnings.warn(RelspanNote(text), stacklevel=3)
 
 
+#: file of :meth:`ResultCache.sha_hint` (JSON: resolved path -> size, mtime, inode, SHA-256)
+_HINTS_FILE = "file-hashes.json"
+#: files remembered at most (the most recent)
+_HINTS_MAX = 256
+
+
 class ResultCache:
     """Task results on disk, keyed by :func:`task_key` within the computing environment.
 
@@ -299,7 +305,7 @@ class ResultCache:
         ``None`` is the disabled cache (``--no-cache``): every lookup misses
         and nothing is written.
     create : bool
-        Create the folder (``relspan check`` only reads an existing cache).
+        Create the folder (False: only read an existing cache).
 
     Raises
     ------
@@ -444,6 +450,10 @@ class ResultCache:
         self._count(hits=1)
         return value
 
+    def count_miss(self) -> None:
+        """Count a lookup known to miss without reading (no entry can exist for it)."""
+        self._count(misses=1)
+
     def __contains__(self, key: str) -> bool:
         path = self.path_for(key)
         return path is not None and path.is_file()
@@ -479,6 +489,60 @@ class ResultCache:
             return False
         self._count(writes=1)
         return True
+
+    # -- which files were hashed to what: a hint that saves a hashing pass on a first build
+
+    def _hints_path(self) -> Path | None:
+        return None if self._folder is None else self._folder / _HINTS_FILE
+
+    def _read_hints(self) -> dict:
+        path = self._hints_path()
+        try:
+            data = json.loads(path.read_text(encoding="utf-8")) if path is not None else {}
+        except (OSError, ValueError):
+            return {}
+        return data if isinstance(data, dict) else {}
+
+    @staticmethod
+    def _stat_of(path: Path) -> list[int] | None:
+        try:
+            st = os.stat(path)
+        except OSError:
+            return None
+        return [int(st.st_size), int(st.st_mtime_ns), int(st.st_ino)]
+
+    def sha_hint(self, path: Path) -> str | None:
+        """The SHA-256 this file had when it was last read, if its size, time and inode are unchanged.
+
+        Only a hint for choosing the order of work: a run that finds a cached
+        result for the hinted hash still hashes the file and looks the result
+        up under the hash it computed. With no hint (a first build, a changed
+        file, no cache) the file is read once, hashed as it is read, and its
+        result stored under that hash: one pass over the file either way.
+        """
+        if self._folder is None:
+            return None
+        entry = self._read_hints().get(str(Path(path).resolve()))
+        if not (isinstance(entry, dict) and entry.get("stat") == self._stat_of(path)):
+            return None
+        sha = entry.get("sha256")
+        return sha if isinstance(sha, str) and len(sha) == 64 and all(c in "0123456789abcdef" for c in sha) \
+            else None
+
+    def remember_sha(self, path: Path, sha: str) -> None:
+        """Record the SHA-256 read from ``path`` (for :meth:`sha_hint`); a failed write is ignored."""
+        target = self._hints_path()
+        st = self._stat_of(path)
+        if target is None or st is None or not target.parent.is_dir():
+            return
+        hints = self._read_hints()
+        hints[str(Path(path).resolve())] = {"stat": st, "sha256": str(sha)}
+        if len(hints) > _HINTS_MAX:
+            hints = dict(list(hints.items())[-_HINTS_MAX:])
+        try:
+            self._write_atomic(target, json.dumps(hints, indent=1, sort_keys=True).encode("utf-8"))
+        except OSError:
+            pass
 
     def prune(self, *, now: float | None = None) -> int:
         """Delete what no build of this environment will read again; returns the files removed.

@@ -33,6 +33,10 @@ from typing import Any, Callable, Iterable, Iterator, Protocol, Sequence
 from ..errors import DependencyError, OptionsError
 
 __all__ = [
+    "POOL_ABOVE_S",
+    "FIGURE_S",
+    "window_work",
+    "choose_local",
     "SerialExecutor",
     "open_executor",
     "available_cores",
@@ -243,6 +247,54 @@ def open_executor(jobs: int | None = None, scheduler: str | None = None, *,
         raise
     else:
         executor.shutdown(wait=True)
+
+
+#: estimated work (seconds in one process) from which local worker processes are started;
+#: below it the tasks run in this process. Starting two workers (fork server, imports, the
+#: first pickled chunk) costs about a second on the 2-core machine of docs/performance.md,
+#: and they then share the cores with the main process and other work
+POOL_ABOVE_S = 4.0
+
+#: seconds of one window task in one process, by assumption family (measured on the machine
+#: of docs/performance.md, medians over n = 3..10; an estimate for choosing, never a result)
+_WINDOW_S = 0.0004
+_SHAPED_S = 0.0002
+_DIAGONAL_S_PER_N2 = 0.007
+#: seconds to draw one figure (median over the demo's figures, same machine)
+FIGURE_S = 0.2
+
+
+def window_work(windows: int, n: int, assumptions, *, frisch_starts: int = 8) -> float:
+    """Estimated seconds in one process for ``windows`` window tasks of ``n`` variables.
+
+    A rough cost model (constants measured on the machine of docs/performance.md):
+    about 0.4 ms per window for the elementary, equal and bounded analyses, and
+    about 7 ms x n^2 per window for the diagonal-noise (Frisch scheme) search
+    with 8 starts, in proportion to the starts. Used only to choose where tasks
+    run; the choice never changes a result.
+    """
+    per = _WINDOW_S
+    if "shaped" in assumptions:
+        per += _SHAPED_S
+    if "diagonal" in assumptions:
+        per += _DIAGONAL_S_PER_N2 * n * n * max(int(frisch_starts), 1) / 8.0
+    return float(windows) * per
+
+
+def choose_local(work_s: float, workers: int) -> tuple[int, str]:
+    """Serial or a local pool for ``work_s`` estimated seconds: ``(workers to use, words)``.
+
+    Below :data:`POOL_ABOVE_S` (or with one core) the tasks run in this process;
+    above it on ``workers`` processes. The words say which and why.
+    """
+    amount = "under 0.1 s" if work_s < 0.05 else f"about {work_s:.1f} s"
+    if workers <= 1:
+        return 1, f"in this process ({amount} of work; one core available)"
+    if work_s < POOL_ABOVE_S:
+        return 1, (f"in this process: {amount} of work, below the {POOL_ABOVE_S:g} s "
+                   f"from which {workers} worker processes pay for their start")
+    return workers, (f"on {workers} worker processes: about {work_s:.0f} s of work, above the "
+                     f"{POOL_ABOVE_S:g} s from which they pay for their start")
 
 
 def worker_count(executor: Executor) -> int:

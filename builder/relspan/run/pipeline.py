@@ -32,14 +32,41 @@ __all__ = ["run_analysis", "analyse_prepared", "LazyExecutor", "open_cache"]
 
 
 class LazyExecutor:
-    """Opens the executor the user asked for on first use only (a cached rebuild needs none)."""
+    """Opens the executor the user asked for on first use only (a cached rebuild needs none).
 
-    def __init__(self, jobs: int | None = None, scheduler: str | None = None) -> None:
+    With ``auto`` (no ``jobs`` given: the command line's default), each stage
+    says how much work it expects (:meth:`expect`, estimated seconds in one
+    process) and :meth:`get` runs it in this process below
+    :data:`relspan.run.executors.POOL_ABOVE_S`, on a pool of every available
+    core above it (opened once, kept for later stages). :attr:`decisions` lists
+    each stage's choice with its reason, in words.
+    """
+
+    def __init__(self, jobs: int | None = None, scheduler: str | None = None, *, auto: bool = False) -> None:
         self.jobs, self.scheduler = jobs, scheduler
+        self.auto = bool(auto) and scheduler is None and jobs is None
         self._cm = None
         self._ex = None
+        self._expected: tuple[float, str] | None = None
+        self.decisions: list[tuple[str, str]] = []
+
+    def expect(self, work_s: float, stage: str) -> None:
+        """The next :meth:`get` serves ``stage``, about ``work_s`` seconds of work in one process."""
+        self._expected = (float(work_s), str(stage))
 
     def get(self):
+        if self.auto:
+            from relspan.run.executors import SerialExecutor, available_cores, choose_local
+
+            work, stage = self._expected or (float("inf"), "tasks")
+            self._expected = None
+            if self._ex is not None:     # a pool is open already: later stages use it
+                self.decisions.append((stage, f"on the {available_cores()} worker processes already started"))
+                return self._ex
+            workers, words = choose_local(work, available_cores())
+            self.decisions.append((stage, words))
+            if workers == 1:
+                return SerialExecutor()
         if self._ex is None:
             from relspan.run.executors import open_executor
 
@@ -126,18 +153,51 @@ _SPEC_KEYS = {"eps": "checks.tolerance", "starts": "checks.frisch_starts", "seed
 
 def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ...]]:
     """One window (top-level so process pools and Dask can pickle it)."""
-    moments, names, options, common_std, label = item
+    moments, names, options, common_std, label, *given = item
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
         try:
             result = analyse_window(moments, names=names, options=options, common_std=common_std,
-                                    label=label)
+                                    label=label, elementary=given[0] if given else None)
         except OptionsError as exc:
             if exc.key not in _SPEC_KEYS:
                 raise
             raise OptionsError(exc.message, key=_SPEC_KEYS[exc.key], fix=exc.fix) from exc
     raised = tuple(w.message for w in caught if isinstance(w.message, RelspanWarning))
     return result, raised
+
+
+def _with_elementary(items: list[tuple], names: tuple[str, ...]) -> list[tuple]:
+    """Every window's elementary regressions in one batched call, attached to its task.
+
+    :func:`~relspan.analysis.elementary.elementary_regressions_stack` gives each
+    window the result of the one-window function (within the bound its tests
+    state); a window whose moments cannot give a covariance is left to the task,
+    which reports it as before.
+    """
+    from relspan.analysis import _dd
+    from relspan.analysis.elementary import elementary_regressions_stack
+
+    ok = [i for i, it in enumerate(items) if it[0].count > 1]
+    if not ok:
+        return items
+    n = len(names)
+    counts = np.array([items[i][0].count for i in ok], dtype=np.int64)
+    means = np.array([items[i][0].mean for i in ok], dtype=float).reshape(len(ok), n)
+    com = np.array([items[i][0].comoment for i in ok], dtype=float).reshape(len(ok), n, n)
+    com_lo = np.array([np.zeros((n, n)) if items[i][0].comoment_lo is None else items[i][0].comoment_lo
+                       for i in ok], dtype=float).reshape(len(ok), n, n)
+    # Moments.covariance_parts, for all windows at once (the same elementwise arithmetic)
+    hi, lo = _dd.dd_div_float(com, com_lo, (counts - 1).astype(float)[:, None, None])
+    lo = 0.5 * (lo + lo.transpose(0, 2, 1))
+    if not (np.all(np.isfinite(hi)) and np.all(np.isfinite(lo))):
+        return items
+    ers = elementary_regressions_stack(hi, names=names, counts=counts, means=means, cov_los=lo,
+                                       labels=[items[i][4] for i in ok])
+    out = list(items)
+    for i, er in zip(ok, ers):
+        out[i] = items[i] + (er,)
+    return out
 
 
 def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, ...], str]:
@@ -208,6 +268,7 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
         pairs = window_moments(prepared, plan.id)
         spans.append((plan, [w for w, _ in pairs], len(items), len(items) + len(pairs)))
         items.extend((m, names, options, common_std, w.label) for w, m in pairs)
+    items = _with_elementary(items, names)
     executor = executor or SerialExecutor()
     results = map_in_chunks(executor, _analyse_task, items, progress=progress)
     sink = warn_sink if warn_sink is not None else []
@@ -350,6 +411,33 @@ def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], s
                     version=code_version())
 
 
+def _cached_result(cache, spec: Spec, ds: DatasetSpec, plans) -> tuple[object | None, str]:
+    """``(cached result or None, key)``; hashes the file first only when a result may be cached.
+
+    A result may be cached when the cache remembers the file unchanged
+    (:meth:`~relspan.run.cache.ResultCache.sha_hint`) under a hash for which an
+    entry exists; the file is then hashed (one pass) and the entry looked up
+    under the hash computed now. Otherwise nothing is hashed here (key ""):
+    the data pass reads the file once and hashes it as it reads, and the
+    entry is looked up under that hash before any analysis.
+    """
+    from relspan.data.sources import file_sha256
+
+    hint = cache.sha_hint(ds.source_path)
+    if hint is None or _dataset_key(spec, ds, plans, hint) not in cache:
+        return None, ""
+    key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
+    return cache.get(key), key
+
+
+def _analysis_work(ds: DatasetSpec, tasks: int) -> float:
+    """Estimated seconds in one process for a dataset's window tasks (to choose where they run)."""
+    from relspan.run.executors import window_work
+
+    return window_work(tasks, len(ds.variables), tuple(ds.checks.assumptions),
+                       frisch_starts=ds.checks.frisch_starts)
+
+
 #: a dataset with more windows than this gets a note before its analysis (time and pages)
 MANY_WINDOWS = 500
 
@@ -398,11 +486,10 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
     cache : ResultCache, optional
         Shared with later stages; default: opened from ``cache_dir``.
     write_cache : bool
-        Store new results (``relspan check`` only reads the cache).
+        Store new results.
     """
     from relspan.analysis.claims import evaluate_claims
     from relspan.data.prepare import prepare_dataset
-    from relspan.data.sources import file_sha256
     from relspan.data.sources.detect import check_file
     from relspan.run.progress import Progress
 
@@ -416,8 +503,14 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
         for ds in spec.datasets:
             plans = spec.plans_for(ds)
             check_file(ds.source, ds.source_path)  # a missing, special or unreadable file is named
-            key = _dataset_key(spec, ds, plans, file_sha256(ds.source_path))
-            cached = cache.get(key)
+            cached, key = _cached_result(cache, spec, ds, plans)
+            prepared = None
+            if cached is None and not key:
+                prepared = prepare_dataset(ds, plans)   # reads the file once, hashing it as it goes
+                key = _dataset_key(spec, ds, plans, prepared.sha256)
+                cache.remember_sha(ds.source_path, prepared.sha256)
+                # an entry the hint did not know of (a project moved or sent without its hints)
+                cached = cache.get(key) if key in cache else cache.count_miss()
             if cached is not None:
                 result, cached_warnings = cached
                 _note_many_windows(ds, [(p.plan, len(p.windows)) for p in result.plans])
@@ -425,13 +518,18 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
                 results.append(dataclasses.replace(result, spec=ds))
                 raised.extend(cached_warnings)
                 continue
-            prepared = prepare_dataset(ds, plans)
+            if prepared is None:
+                prepared = prepare_dataset(ds, plans)
             counts = [(p, len(prepared.plan(p.id).windows)) for p in plans]
             _note_many_windows(ds, counts)
             total = 1 + sum(n for _, n in counts)
             sink: list[RelspanWarning] = []
+            lazy.expect(_analysis_work(ds, total), f"analysis of {ds.id}")
             with Progress(f"analysis of {ds.id}", total, enabled=progress) as bar:
-                result = analyse_prepared(ds, prepared, plans, executor=lazy.get(), progress=bar,
+                ex = lazy.get()
+                if lazy.decisions:
+                    bar.note = lazy.decisions[-1][1].split(":")[0]
+                result = analyse_prepared(ds, prepared, plans, executor=ex, progress=bar,
                                           warn_sink=sink, cache_key=key)
             if write_cache:
                 cache.put(key, (result, tuple(sink)))
@@ -451,7 +549,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
 def open_cache(spec: Spec, *, use_cache: bool = True, cache_dir: Path | None = None, create: bool = True):
     """The result cache of a spec: ``.relspan-cache`` beside it, or ``cache_dir``, or disabled.
 
-    ``create=False`` reads an existing folder only (``relspan check`` writes nothing).
+    ``create=False`` reads an existing folder only.
     """
     from relspan.run.cache import DEFAULT_CACHE_DIRNAME, ResultCache
 

@@ -106,6 +106,22 @@ class Progress:
         self._done = 0
         self._bar = None
         self._closed = False
+        self._note = ""
+
+    @property
+    def note(self) -> str:
+        """A few words shown after the bar (e.g. where the tasks run)."""
+        return self._note
+
+    @note.setter
+    def note(self, value: str) -> None:
+        with self._lock:
+            self._note = str(value)
+            if self._bar is not None and hasattr(self._bar, "set_postfix_str"):
+                try:
+                    self._bar.set_postfix_str(self._note)
+                except (OSError, ValueError):
+                    self.enabled = False
 
     @property
     def done(self) -> int:
@@ -173,7 +189,7 @@ class Progress:
 
 
 #: tqdm's line: stage, count, share, bar, elapsed and remaining time
-_BAR_FORMAT = "{desc}: {n_fmt}/{total_fmt} tasks ({percentage:.0f}%) |{bar}| [{elapsed}<{remaining}]"
+_BAR_FORMAT = "{desc}: {n_fmt}/{total_fmt} tasks ({percentage:.0f}%) |{bar}| [{elapsed}<{remaining}{postfix}]"
 
 
 def _width(stream: TextIO) -> dict:

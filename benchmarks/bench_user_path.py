@@ -1,0 +1,257 @@
+"""The user's path, stage by stage, beside its peers; prints ratios (nothing is asserted).
+
+    python benchmarks/bench_user_path.py elementary [--rows 100000]   # all elementary regressions
+    python benchmarks/bench_user_path.py stages --windows 1000 --n 6 [--assumptions elementary,equal,bounded]
+    python benchmarks/bench_user_path.py check SPEC                   # one `relspan check`, for whole-process timing
+
+``elementary``: every elementary regression (each variable on the others, with intercept) of
+every rolling window (width 250, step 50 rows), n = 6, on invented rows (seeded):
+relspan's pipeline path (block statistics of the rows, windows merged from blocks,
+``elementary_regressions_stack``), the floor (one X'X pass over the rows, window sums,
+one batched ``numpy.linalg.inv`` of the window stack), a per-window numpy loop
+(``np.cov`` + ``np.linalg.inv``) and statsmodels ``RollingOLS`` (per fitted window: it fits
+every step-1 window). Timed interleaved, best of 3.
+
+``stages``: a generated CSV and spec with the asked number of windows and variables; the
+stages of ``relspan check`` timed in this process: the data pass (``prepare_dataset``), the
+batched elementary regressions, the per-window tasks (serial), the cross-window summaries and
+findings (``analyse_prepared`` minus the above); peak RSS of the process at the end.
+"""
+
+from __future__ import annotations
+
+import argparse
+import resource
+import sys
+import tempfile
+import time
+import warnings
+from pathlib import Path
+
+import numpy as np
+
+WIDTH, STEP, N = 250, 50, 6
+SEED = 15015  # invented data
+
+
+def rows(t: int, n: int = N, seed: int = SEED) -> np.ndarray:
+    """Invented rows: n - 2 common factors plus noise, offset from zero (two near-relations)."""
+    rng = np.random.default_rng(seed)
+    f = rng.standard_normal((t, max(n - 2, 1)))
+    return f @ rng.uniform(-1, 1, (f.shape[1], n)) + 0.2 * rng.standard_normal((t, n)) + rng.uniform(10, 100, n)
+
+
+def _best(fn, repeats=3):
+    best, out = float("inf"), None
+    for _ in range(repeats):
+        t = time.perf_counter()
+        out = fn()
+        best = min(best, time.perf_counter() - t)
+    return best, out
+
+
+def relspan_path(x: np.ndarray):
+    """Block statistics -> window moments -> elementary_regressions_stack (as the pipeline)."""
+    from relspan.analysis import _dd
+    from relspan.analysis.elementary import elementary_regressions_stack
+    from relspan.data.blocks import BlockBuilder, assemble_stacked
+
+    t = x.shape[0]
+    origin = x[0].copy()
+    b = BlockBuilder(x.shape[1], lambda p, _t: (p // STEP)[:, None], timed=False)
+    pos = np.arange(t, dtype=np.int64)
+    b.push(x - origin, pos, pos + 1, None)
+    blocks = b.finish(origin)
+    lo = np.arange(0, (t - WIDTH) // STEP + 1)
+    c, m, cm, _, cml = assemble_stacked(blocks, lo, lo + WIDTH // STEP, low=True)
+    t1 = time.perf_counter()
+    hi, clo = _dd.dd_div_float(cm, cml, (c - 1).astype(float)[:, None, None])
+    ers = elementary_regressions_stack(hi, cov_los=0.5 * (clo + clo.transpose(0, 2, 1)),
+                                       names=[f"x{j}" for j in range(x.shape[1])], counts=c, means=m)
+    return ers, time.perf_counter() - t1
+
+
+def floor_path(x: np.ndarray):
+    """One X'X pass (per block of STEP rows), window sums, one batched inverse."""
+    t, n = x.shape
+    k = t // STEP
+    xb = x[:k * STEP].reshape(k, STEP, n)
+    xtx = np.matmul(xb.transpose(0, 2, 1), xb)
+    s = xb.sum(axis=1)
+    per = WIDTH // STEP
+    cx = np.concatenate([np.zeros((1, n, n)), np.cumsum(xtx, axis=0)])
+    cs = np.concatenate([np.zeros((1, n)), np.cumsum(s, axis=0)])
+    lo = np.arange(0, (t - WIDTH) // STEP + 1)
+    wx, ws = cx[lo + per] - cx[lo], cs[lo + per] - cs[lo]
+    cov = (wx - ws[:, :, None] * ws[:, None, :] / WIDTH) / (WIDTH - 1)
+    return np.linalg.inv(cov)
+
+
+def loop_path(x: np.ndarray):
+    out = []
+    for s in range(0, x.shape[0] - WIDTH + 1, STEP):
+        out.append(np.linalg.inv(np.cov(x[s:s + WIDTH], rowvar=False)))
+    return np.array(out)
+
+
+def rolling_ols(x: np.ndarray):
+    import statsmodels.api as sm
+    from statsmodels.regression.rolling import RollingOLS
+
+    for j in range(x.shape[1]):
+        others = [k for k in range(x.shape[1]) if k != j]
+        RollingOLS(x[:, j], sm.add_constant(x[:, others]), window=WIDTH).fit()
+
+
+def one_vs_stack(x: np.ndarray) -> None:
+    """The stack against the one-window function the pipeline called before, same windows."""
+    from relspan.analysis import _dd
+    from relspan.analysis.elementary import elementary_regressions, elementary_regressions_stack
+    from relspan.data.blocks import BlockBuilder, assemble_stacked
+
+    t, n = x.shape
+    b = BlockBuilder(n, lambda p, _t: (p // STEP)[:, None], timed=False)
+    pos = np.arange(t, dtype=np.int64)
+    b.push(x - x[0], pos, pos + 1, None)
+    blocks = b.finish(x[0].copy())
+    lo = np.arange(0, (t - WIDTH) // STEP + 1)
+    c, m, cm, _, cml = assemble_stacked(blocks, lo, lo + WIDTH // STEP, low=True)
+    hi, clo = _dd.dd_div_float(cm, cml, (c - 1).astype(float)[:, None, None])
+    clo = 0.5 * (clo + clo.transpose(0, 2, 1))
+    names = [f"x{j}" for j in range(n)]
+
+    def one_by_one():
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            for i in range(len(c)):
+                elementary_regressions(hi[i], cov_lo=clo[i], names=names, count=int(c[i]), mean=m[i])
+
+    ts, to = [], []
+    for _ in range(3):
+        a = time.perf_counter()
+        elementary_regressions_stack(hi, cov_los=clo, names=names, counts=c, means=m)
+        ts.append(time.perf_counter() - a)
+        a = time.perf_counter()
+        one_by_one()
+        to.append(time.perf_counter() - a)
+    print(f"  stack {min(ts) * 1e3:.0f} ms against elementary_regressions window by window "
+          f"{min(to) * 1e3:.0f} ms: {min(to) / min(ts):.1f}x")
+
+
+def elementary(t: int) -> None:
+    x = rows(t)
+    w = (t - WIDTH) // STEP + 1
+    timings = {"relspan": [], "floor": [], "loop": []}
+    stack_only = []
+    for _ in range(3):   # interleaved
+        a = time.perf_counter()
+        ers, st = relspan_path(x)
+        timings["relspan"].append(time.perf_counter() - a)
+        stack_only.append(st)
+        a = time.perf_counter()
+        p = floor_path(x)
+        timings["floor"].append(time.perf_counter() - a)
+        a = time.perf_counter()
+        loop_path(x)
+        timings["loop"].append(time.perf_counter() - a)
+    best = {k: min(v) for k, v in timings.items()}
+    st = min(stack_only)
+    rel = np.array([e.relations for e in ers])
+    ref = p / np.diagonal(p, axis1=1, axis2=2)[:, :, None]
+    diff = float(np.max(np.abs(rel - ref) / np.maximum(np.abs(ref), 1e-300)))
+    print(f"elementary regressions, n={N}, T={t:,}, {w:,} windows (width {WIDTH}, step {STEP}); best of 3, interleaved")
+    print(f"  relspan pipeline path (blocks + merge + stack): {best['relspan'] * 1e3:8.1f} ms "
+          f"({best['relspan'] / best['floor']:.2f}x the floor, {best['loop'] / best['relspan']:.1f}x faster than the loop)")
+    print(f"    of which elementary_regressions_stack:         {st * 1e3:8.1f} ms ({st / best['floor']:.2f}x the floor)")
+    print(f"  floor (one X'X pass + batched inverse):         {best['floor'] * 1e3:8.1f} ms")
+    print(f"  per-window loop (np.cov + np.linalg.inv):       {best['loop'] * 1e3:8.1f} ms")
+    print(f"  largest relative difference of the relations, relspan vs floor: {diff:.1e}")
+    if w <= 5_000:
+        one_vs_stack(x)
+    if t <= 20_000:
+        r, _ = _best(lambda: rolling_ols(x), 1)
+        fitted = t - WIDTH + 1
+        print(f"  statsmodels RollingOLS x {N} (every step-1 window, {fitted:,} fits each): {r:.2f} s; "
+              f"per fitted window {r / fitted * 1e6:.0f} us for all {N} fits vs relspan "
+              f"{best['relspan'] / w * 1e6:.1f} us per window")
+
+
+def _spec(folder: Path, windows: int, n: int, assumptions: list[str]) -> Path:
+    step = 10
+    width = 100
+    t = width + step * (windows - 1)
+    x = rows(t, n)
+    names = [f"x{j}" for j in range(n)]
+    np.savetxt(folder / "d.csv", x, delimiter=",", header=",".join(names), comments="", fmt="%.6f")
+    vars_ = ", ".join("{column: %s}" % c for c in names)
+    (folder / "s.yaml").write_text(
+        "relspan: 1\nreport: {title: bench}\ndatasets:\n  - id: d\n    title: d\n    source: d.csv\n"
+        f"    variables: [{vars_}]\nwindows:\n  - {{id: full, kind: full}}\n"
+        f"  - {{id: r, kind: rolling, width: {width}, step: {step}}}\n"
+        f"checks: {{assumptions: [{', '.join(assumptions)}]}}\n", encoding="utf-8")
+    return folder / "s.yaml"
+
+
+def stages(windows: int, n: int, assumptions: list[str], summaries: bool) -> None:
+    from relspan.data import prepare_dataset
+    from relspan.run import pipeline
+    from relspan.spec import load_spec
+
+    with tempfile.TemporaryDirectory() as d, warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        spec = load_spec(_spec(Path(d), windows, n, assumptions))
+        ds = spec.datasets[0]
+        plans = spec.plans_for(ds)
+        a = time.perf_counter()
+        prepared = prepare_dataset(ds, plans)
+        t_prep = time.perf_counter() - a
+        names = tuple(prepared.variables)
+        opts = pipeline._window_options(ds, 0)
+        items = [(prepared.full, names, opts, prepared.full.std(), "full sample")]
+        items += [(m, names, opts, prepared.full.std(), w.label)
+                  for w, m in pipeline.window_moments(prepared, "r")] if hasattr(pipeline, "window_moments") \
+            else [(m, names, opts, prepared.full.std(), w.label) for w, m in zip(prepared.plan("r").windows,
+                                                                                  prepared.plan("r").moments)]
+        a = time.perf_counter()
+        with_er = pipeline._with_elementary(items, names)
+        t_er = time.perf_counter() - a
+        a = time.perf_counter()
+        for it in with_er:
+            pipeline._analyse_task(it)
+        t_tasks = time.perf_counter() - a
+        t_rest = None
+        if summaries:
+            a = time.perf_counter()
+            pipeline.analyse_prepared(ds, prepared, plans)
+            t_rest = time.perf_counter() - a - t_er - t_tasks
+        rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+        print(f"stages of check: {windows:,} windows, n={n}, assumptions {','.join(assumptions)}")
+        print(f"  data pass {t_prep:.2f} s; elementary (batched, all windows) {t_er:.3f} s; "
+              f"window tasks {t_tasks:.2f} s ({t_tasks / len(items) * 1e3:.2f} ms per window)"
+              + ("" if t_rest is None else f"; summaries + findings {max(t_rest, 0):.2f} s")
+              + f"; peak RSS {rss:.0f} MiB")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("what", choices=["elementary", "stages", "check"])
+    ap.add_argument("spec", nargs="?")
+    ap.add_argument("--rows", type=int, default=100_000)
+    ap.add_argument("--windows", type=int, default=1000)
+    ap.add_argument("--n", type=int, default=6)
+    ap.add_argument("--assumptions", default="elementary,equal,bounded")
+    ap.add_argument("--no-summaries", action="store_true")
+    args = ap.parse_args()
+    if args.what == "elementary":
+        elementary(args.rows)
+    elif args.what == "stages":
+        stages(args.windows, args.n, args.assumptions.split(","), not args.no_summaries)
+    else:
+        import relspan
+
+        out = relspan.check(args.spec, jobs=1, use_cache=False)
+        print(f"check: {out.seconds:.2f} s", file=sys.stderr)
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,148 @@
+"""All windows' elementary regressions in one batched call give the one-window results.
+
+Bound (stated here, checked below): eigenvalue-based fields (rank, condition numbers, std) are
+identical; relations, coefficients, residual variances, R^2 and intercepts agree with
+:func:`elementary_regressions` window by window to ``ULPS`` units in the last place of the
+largest entry of their row, times the correlation-scale condition number over 1e6 when that is
+larger (the first inverse is found by LU instead of Cholesky; both are refined against the
+double-double covariance, which leaves a few ulp times the condition).
+"""
+
+from __future__ import annotations
+
+import warnings
+
+import numpy as np
+import pytest
+
+from relspan.analysis.elementary import elementary_regressions, elementary_regressions_stack
+from relspan.analysis.window import WindowOptions, analyse_window
+from relspan.data import prepare_frame
+from relspan.errors import IllConditionedWarning
+from relspan.spec.model import Span, WindowPlanSpec
+
+from test_elementary import _lre, longley_exact  # noqa: F401  (fixture)
+
+sm = pytest.importorskip("statsmodels.api")
+
+ULPS = 8
+
+
+def _close(a, b, cond):
+    a, b = np.asarray(a, float), np.asarray(b, float)
+    assert np.array_equal(np.isnan(a), np.isnan(b))
+    if np.isnan(b).all():
+        return
+    scale = np.max(np.abs(np.nan_to_num(b)), axis=-1, keepdims=True) if b.ndim else np.abs(b)
+    bound = ULPS * np.spacing(scale) * max(1.0, cond / 1e6)
+    diff = np.abs(np.nan_to_num(a) - np.nan_to_num(b))
+    assert np.all(diff <= bound), float(np.max(diff / np.spacing(scale)))
+
+
+def _compare(stack, one):
+    assert stack.rank == one.rank and stack.singular == one.singular
+    assert stack.condition == one.condition and stack.condition_correlation == one.condition_correlation
+    assert np.array_equal(stack.std, one.std) and stack.count == one.count
+    assert stack.singular_reason == one.singular_reason
+    cond = one.condition_correlation if np.isfinite(one.condition_correlation) else 1.0
+    for name in ("relations", "coefficients", "residual_variance", "r_squared", "intercepts",
+                 "residual_variance_unbiased"):
+        a, b = getattr(stack, name), getattr(one, name)
+        if b is None:
+            assert a is None
+            continue
+        _close(a, b, cond)
+    assert np.array_equal(stack.exact_relations, one.exact_relations)
+
+
+def _windows(seed, w=60, n=5, t=80):
+    rng = np.random.default_rng(seed)
+    covs, los, means, counts = [], [], [], []
+    for i in range(w):
+        x = rng.normal(size=(t, n)) @ rng.normal(size=(n, n)) * rng.uniform(1e-3, 1e3, n) + rng.normal(0, 1e4, n)
+        if i % 7 == 3:   # nearly collinear: a large condition number
+            x[:, 0] = x[:, 1] - 2 * x[:, 2]
+            x[:, 0] += 1e-6 * rng.normal(size=t) * x[:, 0].std()
+        if i % 11 == 5:  # exactly collinear: singular, handed to the one-window function
+            x[:, -1] = 2.0 * x[:, 0]
+        covs.append(np.cov(x.T))
+        los.append(rng.normal(size=(n, n)) * 1e-17 * np.abs(covs[-1]))
+        means.append(x.mean(axis=0))
+        counts.append(t)
+    return np.array(covs), np.array(los), np.array(means), np.array(counts)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_stack_matches_the_one_window_function_within_the_stated_bound(seed):
+    covs, los, means, counts = _windows(seed)
+    names = [f"x{i}" for i in range(covs.shape[1])]
+    stack = elementary_regressions_stack(covs, names=names, counts=counts, means=means, cov_los=los)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", IllConditionedWarning)
+        for i in range(covs.shape[0]):
+            one = elementary_regressions(covs[i], names=names, count=int(counts[i]), mean=means[i],
+                                         cov_lo=los[i])
+            _compare(stack[i], one)
+    assert any(er.singular for er in stack) and not all(er.singular for er in stack)
+
+
+def test_stack_warns_like_the_one_window_function_only_when_asked():
+    covs, los, means, counts = _windows(3, w=15)
+    names = [f"x{i}" for i in range(covs.shape[1])]
+    labels = [f"w{i}" for i in range(covs.shape[0])]
+    with warnings.catch_warnings(record=True) as quiet:
+        warnings.simplefilter("always")
+        elementary_regressions_stack(covs, names=names, labels=labels)
+    assert not [w for w in quiet if issubclass(w.category, IllConditionedWarning)]
+    with warnings.catch_warnings(record=True) as loud:
+        warnings.simplefilter("always")
+        elementary_regressions_stack(covs, names=names, labels=labels, warn=True)
+    with warnings.catch_warnings(record=True) as one:
+        warnings.simplefilter("always")
+        for i in range(covs.shape[0]):
+            elementary_regressions(covs[i], names=names, label=labels[i])
+    said = [str(w.message) for w in loud if issubclass(w.category, IllConditionedWarning)]
+    assert said and said == [str(w.message) for w in one if issubclass(w.category, IllConditionedWarning)]
+
+
+def test_longley_slopes_reach_lre_12_through_the_stack(longley_exact):  # noqa: F811
+    # references: exact rational least squares of the NIST StRD Longley data (fixture in
+    # test_elementary.py), which reproduce the NIST certified TOTEMP regression
+    df, names, slopes = longley_exact
+    plans = [WindowPlanSpec("full", "full"),
+             WindowPlanSpec("r", "rolling", width=Span(16, "rows"), step=Span(4, "rows"))]
+    prepared = prepare_frame(df, columns=names, plans=plans, chunk_rows=5)
+    m = prepared.full
+    hi, lo = m.covariance_parts()
+    er = elementary_regressions_stack(hi[None], cov_los=lo[None], names=names, counts=[m.count],
+                                      means=m.mean[None])[0]
+    lre = {key: _lre(er.coefficients[key], v) for key, v in slopes.items()}
+    assert min(lre.values()) >= 12
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", IllConditionedWarning)
+        one = elementary_regressions(hi, cov_lo=lo, names=names, count=m.count, mean=m.mean)
+    _compare(er, one)
+
+
+def test_window_analysis_from_a_precomputed_result_equals_computing_it():
+    covs, los, means, counts = _windows(4, w=6, n=4)
+    from relspan.analysis.moments import Moments
+    names = list("abcd")
+    opts = WindowOptions(assumptions=("elementary", "equal", "bounded"), absolute=None, relative=0.05,
+                         ref=0, coranks=(1,))
+    for i in range(6):
+        m = Moments(int(counts[i]), means[i], covs[i] * (counts[i] - 1))
+        hi, lo = m.covariance_parts()
+        er = elementary_regressions_stack(hi[None], cov_los=lo[None], names=names,
+                                          counts=[m.count], means=m.mean[None], labels=["w"])[0]
+        with warnings.catch_warnings(record=True) as a:
+            warnings.simplefilter("always")
+            given = analyse_window(m, names=names, options=opts, common_std=np.ones(4), label="w",
+                                   elementary=er)
+        with warnings.catch_warnings(record=True) as b:
+            warnings.simplefilter("always")
+            computed = analyse_window(m, names=names, options=opts, common_std=np.ones(4), label="w")
+        assert given.notes == computed.notes
+        assert [str(w.message) for w in a] == [str(w.message) for w in b]
+        assert given.coranks == computed.coranks
+        _compare(given.elementary, computed.elementary)

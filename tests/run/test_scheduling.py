@@ -1,0 +1,84 @@
+"""Where tasks run when nobody says: serial below a stated amount of work, a pool above it."""
+
+from __future__ import annotations
+
+import pytest
+
+from relspan.run.executors import POOL_ABOVE_S, SerialExecutor, choose_local, window_work
+from relspan.run.pipeline import LazyExecutor
+
+
+def test_small_work_runs_in_this_process_and_says_why():
+    workers, words = choose_local(0.3, 2)
+    assert workers == 1
+    assert words.startswith("in this process") and f"{POOL_ABOVE_S:g} s" in words and "0.3 s" in words
+
+
+def test_large_work_runs_on_every_core_and_says_why():
+    workers, words = choose_local(10 * POOL_ABOVE_S, 2)
+    assert workers == 2 and words.startswith("on 2 worker processes") and "above" in words
+
+
+def test_one_core_always_runs_in_this_process():
+    assert choose_local(1e6, 1)[0] == 1
+
+
+def test_the_diagonal_analysis_dominates_the_estimate_and_grows_with_n_squared():
+    base = window_work(1000, 4, ("elementary", "equal", "bounded"))
+    diag4 = window_work(1000, 4, ("elementary", "diagonal"))
+    diag8 = window_work(1000, 8, ("elementary", "diagonal"))
+    assert base < POOL_ABOVE_S < diag4 and diag8 > 3.5 * diag4 - base
+
+
+def test_lazy_executor_chooses_per_stage_and_records_the_reason(monkeypatch):
+    monkeypatch.setattr("relspan.run.executors.available_cores", lambda: 2)
+    lazy = LazyExecutor(auto=True)
+    lazy.expect(0.1, "analysis of small")
+    assert isinstance(lazy.get(), SerialExecutor)
+    assert lazy.decisions == [("analysis of small", choose_local(0.1, 2)[1])]
+    lazy.close()
+
+
+@pytest.mark.parametrize("jobs, scheduler", [(1, None), (3, None), (None, "tcp://127.0.0.1:1")])
+def test_explicit_jobs_or_a_cluster_are_never_second_guessed(jobs, scheduler):
+    assert not LazyExecutor(jobs, scheduler, auto=True).auto
+
+
+def test_a_first_build_reads_its_file_once_and_a_rebuild_only_hashes_it(tmp_path, monkeypatch):
+    """One pass over the data file: hashed as it is parsed; an unchanged rebuild hashes it alone."""
+    import numpy as np
+
+    import relspan
+    import relspan.data.sources as sources
+    from relspan.data.sources import csv as csv_source
+
+    rng = np.random.default_rng(3)
+    x = rng.normal(size=(400, 3))
+    x[:, 2] = x[:, 0] - x[:, 1] + 0.05 * rng.normal(size=400)
+    data = tmp_path / "d.csv"
+    np.savetxt(data, x, delimiter=",", header="a,b,c", comments="", fmt="%.6f")
+    spec = tmp_path / "s.yaml"
+    spec.write_text("relspan: 1\nreport: {title: t}\ndatasets:\n  - id: d\n    title: d\n    source: d.csv\n"
+                    "    variables: [{column: a}, {column: b}, {column: c}]\n"
+                    "windows:\n  - {id: full, kind: full}\n"
+                    "checks: {assumptions: [elementary, equal]}\n", encoding="utf-8")
+    hashed, streamed = [], []
+    real_hash = sources.file_sha256
+    monkeypatch.setattr(sources, "file_sha256", lambda p, **k: hashed.append(p) or real_hash(p, **k))
+    real_read = csv_source._HashingFile.readinto
+
+    def counting(self, buf):
+        n = real_read(self, buf)
+        streamed.append(n)
+        return n
+
+    monkeypatch.setattr(csv_source._HashingFile, "readinto", counting)
+    first = relspan.check(spec, jobs=1)
+    assert first.run.cache_misses == 1 and not hashed
+    assert sum(streamed) == data.stat().st_size        # every byte once, by the parser's reads
+    streamed.clear()
+    again = relspan.check(spec, jobs=1)
+    assert again.run.cache_hits == 1 and len(hashed) == 1 and sum(streamed) == 0
+    data.write_text(data.read_text().replace("a,b,c", "a,b,c", 1) + "0.1,0.2,0.3\n")
+    changed = relspan.check(spec, jobs=1)
+    assert changed.run.cache_misses == 1
