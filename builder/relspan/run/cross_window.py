@@ -111,7 +111,11 @@ def resampled_bases(cr: resample.CovarianceResamples, analysis, assumption: str,
     """
     covs = cr.covariances
     if assumption == "elementary":
-        rows = np.linalg.inv(covs)[:, analysis.ref, :][:, None, :]
+        try:
+            inv = np.linalg.inv(covs)
+        except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
+            inv = np.linalg.pinv(covs, hermitian=True)
+        rows = inv[:, analysis.ref, :][:, None, :]
         return _common_rows(rows, analysis.common_std)
     mat, tstd = _analysed(covs, analysis.scale)
     if assumption == "shaped":
