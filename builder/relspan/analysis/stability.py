@@ -380,7 +380,7 @@ def sampling_spread(basis, draws, *, assumption: str, level: float) -> SamplingS
     >>> a = np.array([[1.0, 0.0, 0.0]])
     >>> d = np.tile(a, (99, 1, 1)); d[:, 0, 1] = np.linspace(-0.1, 0.1, 99)
     >>> round(sampling_spread(a, d, assumption="equal", level=0.9).angle_deg, 1)
-    5.1
+    5.2
     """
     b = np.atleast_2d(np.asarray(basis, dtype=float))
     d = np.asarray(draws, dtype=float)

@@ -111,7 +111,11 @@ def resampled_bases(cr: resample.CovarianceResamples, analysis, assumption: str,
     """
     covs = cr.covariances
     if assumption == "elementary":
-        rows = np.linalg.inv(covs)[:, analysis.ref, :][:, None, :]
+        try:
+            inv = np.linalg.inv(covs)
+        except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
+            inv = np.linalg.pinv(covs, hermitian=True)
+        rows = inv[:, analysis.ref, :][:, None, :]
         return _common_rows(rows, analysis.common_std)
     mat, tstd = _analysed(covs, analysis.scale)
     if assumption == "shaped":
@@ -230,8 +234,9 @@ def _scan_corank(full, plans, assumption: str) -> tuple[int | None, str]:
         why = ("the full sample's corank is undetermined" if q is None else "the full sample shows no relation")
         return None, f"{why}, and no window shows one"
     vals, counts = np.unique(seen, return_counts=True)
-    return int(vals[np.argmax(counts)]), ("the corank most windows show (the full sample shows none"
-                                          + (")" if q == 0 else "; its own is undetermined)"))
+    return int(vals[np.argmax(counts)]), ("the corank most windows show, as the full sample shows none"
+                                          if q == 0 else "the corank most windows show, as the full "
+                                          "sample's own is undetermined")
 
 
 #: assumptions whose relation subspace is the q smallest eigenvectors: the scan follows these

@@ -210,7 +210,7 @@ def _break_section(result) -> str:
         sc = br.scan
         rel = "relation" if sc.q == 1 else f"subspace of {count(sc.q, 'relation')}"
         if sc.found:
-            out.append(md("- Under {} ({} taken as {}): **a break**: the {} before and after differ by "
+            out.append(md("- Under {} (at {}: {}): **a break**: the {} before and after differ by "
                           "{}\u00b0; most likely from {} on, with a {} interval from {} to {} (resampling "
                           "each segment). Scan statistic {} against a critical value of {} (p = {}).\n",
                           names, count(sc.q, "relation"), br.q_from, rel, fmt(sc.angle_deg), br.date,
@@ -220,7 +220,7 @@ def _break_section(result) -> str:
             extra = ("" if not moving else " The window comparisons above do show change; the scan, which "
                      "tests the whole sample for one sharp break, does not confirm a single break at this "
                      "level. Both can hold: a gradual drift, several breaks, or a break too small for the scan.")
-            out.append(md("- Under {} ({} taken as {}): **no break found** at the {} level: scan statistic {} "
+            out.append(md("- Under {} (at {}: {}): **no break found** at the {} level: scan statistic {} "
                           "against a critical value of {} (p = {}).{}\n", names, count(sc.q, "relation"),
                           br.q_from, f"{1 - sc.level:.0%}", fmt(sc.statistic), fmt(sc.critical_value),
                           fmt(sc.p_value), extra))
