@@ -88,6 +88,26 @@ class _Searcher:
         rank = int(np.sum(sv > 1e-10 * max(sv[0], 1e-300)))
         return vt[rank:].T
 
+    def _tangent_steps(self, q: int, d: np.ndarray, directions: np.ndarray) -> np.ndarray:
+        """Each row of ``directions`` projected on the tangent space at the matching row of ``d``.
+
+        The stacked form of :meth:`tangent` (one batched ``eigh`` and SVD for
+        all walkers): rows of zeros where the tangent space is trivial.
+        """
+        k, n = d.shape
+        _, vec = np.linalg.eigh(self.r[None] - d[:, :, None] * np.eye(n))
+        v = vec[:, :, :q]
+        iu = np.triu_indices(q)
+        a = np.swapaxes((v[:, :, :, None] * v[:, :, None, :])[:, :, iu[0], iu[1]], 1, 2)
+        _, sv, vt = np.linalg.svd(a, full_matrices=True)
+        out = np.zeros((k, n))
+        for b in range(k):
+            rank = int(np.sum(sv[b] > 1e-10 * max(sv[b][0], 1e-300)))
+            t = vt[b, rank:].T
+            if t.size:
+                out[b] = t @ (t.T @ directions[b])
+        return out
+
     def walk(self, q: int, d0: np.ndarray, directions: np.ndarray, *, steps: int = 6,
              h0: float = 0.02) -> list[np.ndarray]:
         """Walk along the corank-q family from ``d0``, one walker per direction.
@@ -108,18 +128,11 @@ class _Searcher:
             idx = np.flatnonzero(alive)
             if idx.size == 0:
                 break
-            trial = np.empty((idx.size, n))
-            moving = np.ones(idx.size, dtype=bool)
-            for m, b in enumerate(idx):
-                t = self.tangent(q, cur[b])
-                p = t @ (t.T @ directions[b]) if t.size else np.zeros(n)
-                norm = float(np.linalg.norm(p))
-                if norm < 1e-8:
-                    moving[m] = False
-                    p = np.zeros(n)
-                else:
-                    p = p / norm
-                trial[m] = np.clip(cur[b] + h[b] * p, 0.0, None)
+            p = self._tangent_steps(q, cur[idx], directions[idx])
+            norm = np.linalg.norm(p, axis=1)
+            moving = norm >= 1e-8
+            p = np.where(moving[:, None], p / np.where(moving, norm, 1.0)[:, None], 0.0)
+            trial = np.clip(cur[idx] + h[idx, None] * p, 0.0, None)
             alive[idx[~moving]] = False
             new, _ = self.descend(q, trial, max_iter=5)
             for m, b in enumerate(idx):

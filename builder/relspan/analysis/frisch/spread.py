@@ -42,6 +42,33 @@ def _principal_angles_deg(qa: np.ndarray, qb: np.ndarray) -> np.ndarray:
     return principal_angles(qa, qb, layout="columns")
 
 
+def _pairwise_largest_angles_deg(bases: np.ndarray) -> np.ndarray:
+    """Largest principal angle (degrees) between every pair of ``k`` subspaces, all at once.
+
+    ``bases`` is (k, n, q) with orthonormal columns. For each pair the
+    cosines are the singular values of ``Q_a^T Q_b`` and the sines those of
+    ``Q_b - Q_a Q_a^T Q_b``; the largest angle is ``atan2(max sine, min
+    cosine)`` (Björck & Golub 1973), the same formula as
+    :func:`relspan.analysis.stability.principal_angles`, here on stacked
+    arrays (one batched SVD for all ``k (k - 1) / 2`` pairs). Returns the
+    symmetric (k, k) matrix with a zero diagonal.
+    """
+    k, n, q = bases.shape
+    ang = np.zeros((k, k))
+    if k < 2:
+        return ang
+    ia, ib = np.triu_indices(k, 1)
+    qa, qb = bases[ia], bases[ib]
+    c = np.swapaxes(qa, 1, 2) @ qb
+    cos = np.linalg.svd(c, compute_uv=False)[:, -1]
+    sin = np.linalg.svd(qb - qa @ c, compute_uv=False)[:, 0]
+    sin = np.where(sin <= 4.0 * n * np.finfo(float).eps, 0.0, sin)
+    a = np.degrees(np.arctan2(sin, np.clip(cos, 0.0, 1.0)))
+    ang[ia, ib] = a
+    ang[ib, ia] = a
+    return ang
+
+
 @dataclass(frozen=True, slots=True)
 class SolutionSpread:
     """The spread of the relation subspaces over many corank-q solutions.
@@ -197,10 +224,7 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
                    f"tolerance {eps:g}, so no spread can be reported.")
         return SolutionSpread(nm, q, eps, ident, 0, 0, None, None, None, None, (), None, None,
                               np.zeros((0, n)), starts, seed, summary)
-    ang = np.zeros((k, k))
-    for a in range(k):
-        for b in range(a + 1, k):
-            ang[a, b] = ang[b, a] = _principal_angles_deg(bases[a], bases[b])[-1]
+    ang = _pairwise_largest_angles_deg(np.array(bases))
     rep = int(np.argmin(ang.max(axis=1)))
     a_max, b_max = np.unravel_index(int(np.argmax(ang)), ang.shape)
     widest = _principal_angles_deg(bases[a_max], bases[b_max])
