@@ -52,13 +52,26 @@ class _Searcher:
     small ``eps`` certifiable.
     """
 
-    def __init__(self, r: np.ndarray, eps: float) -> None:
+    def __init__(self, r: np.ndarray, eps: float, *, certify: tuple[np.ndarray, float] | None = None) -> None:
+        # certify: the matrix and tolerance a point must pass to count (default: r, eps); the
+        # search on R + eps I (R - D indefinite) certifies on R at eps.
+        self.cert_r, self.cert_eps = (r, eps) if certify is None else certify
         self.r = r
         self.rb = _regularised(r)
         self.eps = eps
         self.gap = max(1e-10, min(1e-7, 1e-3 * eps))
         self.gap_coarse = max(self.gap, 1e-3)
         self.bound = 1.0 / np.diag(np.linalg.inv(self.rb))
+
+    @classmethod
+    def indefinite(cls, r: np.ndarray, eps: float) -> "_Searcher":
+        """The search on ``R + eps I`` with target ``2 eps``: certificates whose ``R - D`` is indefinite.
+
+        ``d >= 0`` certifies corank ``q`` within ``eps`` (``|lambda_1..q(R - D)| <= eps``,
+        no eigenvalue below ``-eps``) exactly when ``R + eps I - D`` is positive
+        semidefinite with ``lambda_q <= 2 eps``.
+        """
+        return cls(r + eps * np.eye(r.shape[0]), 2.0 * eps, certify=(r, eps))
 
     def solve(self, w: np.ndarray, gap: float | None = None) -> np.ndarray:
         """Weighted trace problems, one per row of ``w``."""
@@ -138,7 +151,7 @@ class _Searcher:
             for m, b in enumerate(idx):
                 if not moving[m]:
                     continue
-                ok, _, _ = _certify(self.r, new[m], q, self.eps)
+                ok, _, _ = _certify(self.cert_r, new[m], q, self.cert_eps)
                 if ok and np.linalg.norm(new[m] - cur[b]) > 1e-9:
                     cur[b] = new[m]
                     found.append(new[m].copy())
