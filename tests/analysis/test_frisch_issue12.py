@@ -213,3 +213,29 @@ def test_verdicts_of_the_200_recorded_cases_are_kept_except_the_intended_changes
             if r["max_angle_deg"] is not None:
                 assert v["max_angle_deg"] == pytest.approx(r["max_angle_deg"], abs=1e-6)
     assert changed < 200
+
+
+class TestResampleStack:
+    """frisch_corank_stack gives each resample the verdict of a full search (issue 11's support)."""
+
+    @pytest.mark.parametrize("seed,n,k", [(0, 4, 2), (1, 6, 3), (2, 5, 1)])
+    def test_same_verdict_as_one_analysis_per_resample(self, seed, n, k):
+        from relspan.analysis.frisch import corank_verdict, frisch_corank_stack, frisch_max_corank
+
+        rng = np.random.default_rng(seed)
+        x = rng.standard_normal((150, n - k)) @ rng.standard_normal((n - k, n))
+        x = x + 0.3 * rng.standard_normal((150, n))
+        est = frisch_max_corank(np.cov(x.T), eps=0.01)
+        covs = np.stack([np.cov(x[rng.integers(0, 150, 150)].T) for _ in range(12)])
+        out = frisch_corank_stack(covs, eps=0.01, warm=est)
+        full = [corank_verdict(frisch_max_corank(c, eps=0.01, warm=est)) for c in covs]
+        assert list(out.coranks) == full
+
+    def test_warm_start_never_loses_a_certificate(self):
+        from relspan.analysis.frisch import frisch_max_corank
+
+        for i in range(0, 200, 9):
+            s, eps, _ = case(i)
+            cold = frisch_max_corank(s, eps=eps)
+            warm = frisch_max_corank(s * 1.01, eps=eps, warm=cold)
+            assert warm.max_certified >= cold.max_certified
