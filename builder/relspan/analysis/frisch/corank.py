@@ -506,7 +506,9 @@ def frisch_corank_stack(covs: Any, *, eps: float, eps_impossible: float | None =
     holds and the second rules the next corank out, the corank is settled
     without any search. The rest get :func:`frisch_max_corank` with ``warm``
     (its certificates tried first, then the ten Berge & Kiers search from
-    ``starts`` starts).
+    ``starts`` starts). Where the carried-over certificate just misses but
+    the next corank is ruled out, a few ten Berge & Kiers iterations from it
+    come first.
 
     Parameters
     ----------
@@ -574,7 +576,16 @@ def frisch_corank_stack(covs: Any, *, eps: float, eps_impossible: float | None =
             else:
                 rb = 1.0 / np.diagonal(np.linalg.inv(r + eps_imp * eye), axis1=1, axis2=2)
                 bl = np.linalg.eigvalsh(r - rb[:, :, None] * eye)[:, qw]
-                nxt = ok & (bl > eps_imp)
+                nxt_ruled = bl > eps_imp
+                nxt = ok & nxt_ruled
+            # Where only the carried-over certificate misses (the next corank is ruled out),
+            # a few ten Berge & Kiers iterations from it, per resample, usually settle it.
+            retry = np.flatnonzero(~ok & (nxt_ruled if qw < n - 1 else np.ones(b, dtype=bool))
+                                   & np.all(d >= 0, axis=1))
+            for i in retry:
+                d1, _ = _Searcher(r[i], eps).descend(qw, d[i][None, :], max_iter=8, stop_on_first=True)
+                if _certify(r[i], d1[0], qw, eps)[0]:
+                    nxt[i] = True
             for i in np.flatnonzero(nxt):
                 out[i] = qw
             done = nxt
