@@ -580,11 +580,20 @@ class TestBadInput:
         with pytest.raises(OptionsError, match="not positive semidefinite"):
             frisch_analysis(s, eps=1e-3)
 
-    @pytest.mark.parametrize("eps", [0.0, -1.0, 1.5, float("nan"), "small"])
+    @pytest.mark.parametrize("eps", [0.0, -1.0, float("inf"), float("nan"), "small", True])
     def test_bad_tolerance(self, eps):
-        with pytest.raises(OptionsError, match=r"eps .* must be a number in \(0, 1\)") as e:
+        with pytest.raises(OptionsError, match=r"eps .* must be a finite number > 0") as e:
             frisch_max_corank(np.eye(3), eps=eps)
         assert e.value.key == "eps"
+
+    def test_tolerance_above_one_is_a_valid_tolerance(self):
+        # an absolute tolerance converted to the correlation scale can exceed 1
+        assert frisch_max_corank(np.eye(3), eps=1.5).max_certified == 2
+
+    def test_impossibility_tolerance_below_existence_tolerance_is_refused(self):
+        with pytest.raises(OptionsError, match="eps_impossible .* must be at least eps") as e:
+            frisch_max_corank(np.eye(3), eps=0.1, eps_impossible=0.05)
+        assert e.value.key == "eps_impossible"
 
     def test_bad_starts(self):
         with pytest.raises(OptionsError, match="starts must be a whole number >= 1") as e:

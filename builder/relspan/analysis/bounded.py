@@ -76,6 +76,33 @@ class NoiseTolerance:
     std: np.ndarray
     convention: str
 
+    def diagonal_eps(self) -> tuple[float, float]:
+        """The tolerance of the diagonal-noise (Frisch scheme) certificates on the correlation scale.
+
+        The one place an absolute tolerance is converted for that analysis.
+        Returns ``(eps_exist, eps_impossible)``. A relative tolerance is
+        already a share of each variable's variance: both are ``eps``. An
+        absolute tolerance ``e`` bounds the spectral norm of the noise
+        covariance's non-diagonal part ``E`` in the data's units; on the
+        correlation scale ``E_R = Sigma^-1 E Sigma^-1`` (``Sigma`` the standard
+        deviations), so ``||E|| <= max_j s_jj ||E_R||`` and
+        ``||E_R|| <= ||E|| / min_j s_jj``. Hence a certificate found with
+        ``||E_R|| <= e / max s_jj`` has ``||E|| <= e`` (existence), and any
+        corank admitted at ``e`` has ``||E_R|| <= e / min s_jj``, so ruling
+        it out at that tolerance rules it out at ``e`` (impossibility). Both
+        are valid; between them a corank can stay undetermined.
+
+        Examples
+        --------
+        >>> import numpy as np
+        >>> tolerance_eps(np.diag([8000.0, 9000.0, 10000.0]), absolute=900.0).diagonal_eps()
+        (0.09, 0.1125)
+        """
+        if self.scale == "correlation":
+            return self.eps, self.eps
+        v = np.diag(self.matrix)
+        return float(self.eps / v.max()), float(self.eps / v.min())
+
     def to_dict(self) -> dict:
         """JSON-ready dict."""
         return jsonable({"matrix": self.matrix, "eps": self.eps, "scale": self.scale, "std": self.std,

@@ -359,7 +359,9 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
     fr = None
     lower = upper = None
     if "diagonal" in options.assumptions:
-        fr = frisch_analysis(mat, names=names, eps=eps, starts=options.frisch_starts,
+        eps_exist, eps_impossible = tol.diagonal_eps()  # absolute tolerances converted here, once
+        fr = frisch_analysis(mat, names=names, eps=eps_exist, eps_impossible=eps_impossible,
+                             starts=options.frisch_starts,
                              seed=options.seed, ref=None)
         coranks["diagonal"] = _frisch_corank(fr)
         fb = {}

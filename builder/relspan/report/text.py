@@ -176,10 +176,14 @@ METHODS = (
      "minimum-rank factor analysis from several starts and states a certificate, a proof of "
      "impossibility, or \u201cundetermined at eps\u201d. The weighted minimum-trace problems are solved by "
      "a log-barrier interior-point method. When q(q+1) < 2n the solutions form a family, whose spread is "
-     "reported. A variable nearly unrelated to the others can be declared pure noise, which adds one "
+     "reported. When q(q+1) = 2n the solutions are isolated but need not be unique, so relspan searches "
+     "for a second one and says \u201clocally identified\u201d unless it finds one. A certificate allows "
+     "S \u2212 N to be indefinite by at most eps; an absolute tolerance e is applied as e over the largest "
+     "variance for certificates and e over the smallest for proofs of impossibility. A variable nearly unrelated to the others can be declared pure noise, which adds one "
      "trivial relation; and up to Ledermann's bound, relations can appear from sampling noise alone.",
      ("frisch1934", "reiersol1941", "kleppe1984", "shapiro1982", "dellariccia1982", "tenberge1991",
-      "shapiro2002", "ning2015", "boyd2004", "ledermann1937", "spearman1904", "gini1921")),
+      "shapiro2002", "ning2015", "boyd2004", "ledermann1937", "spearman1904", "gini1921", "wilson1939",
+      "bekker1997")),
     ("identified", "What is identified: subspace, reduced form, single coefficients",
      "Only what is the same for every admissible answer is identified; everything else is a choice.",
      [(r"$A = [\,I_q \;\; -B\,]\,\Pi$",
@@ -300,6 +304,10 @@ REFERENCES = {
                 "noisy data and the Frisch scheme. *SIAM Review*, 57(2), 167–197.",
     "ledermann1937": "Ledermann, W. (1937). On the rank of the reduced correlational matrix in multiple-"
                      "factor analysis. *Psychometrika*, 2(2), 85–93.",
+    "wilson1939": "Wilson, E. B. & Worcester, J. (1939). The resolution of six tests into three general "
+                  "factors. *Proceedings of the National Academy of Sciences*, 25(2), 73–77.",
+    "bekker1997": "Bekker, P. A. & ten Berge, J. M. F. (1997). Generic global identification in factor "
+                  "analysis. *Linear Algebra and its Applications*, 264, 255–263.",
     "spearman1904": "Spearman, C. (1904). \u201cGeneral intelligence,\u201d objectively determined and "
                     "measured. *American Journal of Psychology*, 15(2), 201–292.",
     "bjorck1973": "Björck, Å. & Golub, G. H. (1973). Numerical methods for computing angles between linear "

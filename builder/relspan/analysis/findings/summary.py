@@ -236,8 +236,13 @@ def _relations_words(full, a: str, q) -> str:
         if q == 1:
             return ("a set of answers (every mix of the elementary regressions)" if fr.q1.status == "bounded"
                     else "an unbounded set of answers")
-        return ("one answer near the estimate (enough equations to fix it locally; a second solution "
-                "is not ruled out)")
+        status = fr.identification.status if fr.identification is not None else "count met"
+        return {"identified": "one answer (three-variable formula)",
+                "approximate only": "no exact answer; a set within the tolerance",
+                "locally identified": "locally one answer; a second may exist",
+                "not unique": "two or more answers",
+                }.get(status, "one answer near the estimate (enough equations to fix it locally; a second "
+                        "solution is not ruled out)")
     return "one answer"
 
 

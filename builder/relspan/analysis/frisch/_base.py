@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from typing import Any, Sequence
 
 import numpy as np
@@ -28,6 +29,27 @@ def frisch_cov(cov: Any, names: Sequence[str] | None) -> tuple[np.ndarray, tuple
     check_positive_variances(s, method="the diagonal-noise (Frisch) analysis")
     check_psd(s)
     return s, nm
+
+
+def check_eps(value: Any, *, key: str = "eps") -> float:
+    """A tolerance on the correlation scale: a finite number > 0 (``OptionsError`` naming ``key``).
+
+    No upper limit: a tolerance converted from an absolute one
+    (:meth:`relspan.analysis.bounded.NoiseTolerance.diagonal_eps`) can exceed
+    1 when it is larger than a variable's variance; every certificate keeps
+    its meaning then.
+    """
+    from relspan.errors import OptionsError
+
+    try:
+        e = float(value)
+    except (TypeError, ValueError):
+        e = float("nan")
+    if isinstance(value, bool) or not (math.isfinite(e) and e > 0.0):
+        raise OptionsError(f"{key} (the tolerance on the correlation scale) must be a finite number > 0; "
+                           f"got {value!r}.", key=key,
+                           fix="use a small relative tolerance such as 1e-6 or 0.01.")
+    return e
 
 
 def correlation(s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -5,10 +5,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any, Sequence
 
-from relspan.analysis._common import check_fraction, check_whole, variable_index
+from relspan.analysis._common import check_whole, variable_index
 from relspan.analysis._export import fields_dict
 from relspan.analysis.frisch._base import frisch_cov
-from relspan.analysis.frisch.corank import FrischCorank, frisch_max_corank
+from relspan.analysis.frisch.corank import FrischCorank, _check_eps_pair, frisch_max_corank
 from relspan.analysis.frisch.identification import FrischIdentification, frisch_identification
 from relspan.analysis.frisch.orthant import FrischSet, OrthantTest, frisch_q1, one_orthant
 from relspan.analysis.frisch.spread import SolutionSpread, solution_spread
@@ -38,10 +38,13 @@ class FrischResult:
     corank : FrischCorank
         Certificates for every corank.
     identification : FrischIdentification or None
-        The parameter count at the largest certified corank (None if 0).
+        The parameter count at the largest certified corank (None if 0), with
+        what the analysis adds (closed form for three variables, the search
+        for a second solution at the counting equality).
     spread : SolutionSpread or None
-        The spread of the solution family at the largest certified corank
-        when it is at least 2 and fails the parameter count.
+        The spread of the solutions at the largest certified corank when it
+        is at least 2 and fails the parameter count, or meets it with
+        equality (n > 3: the search for a second solution).
     summary : str
         Plain-language summary for the report.
     """
@@ -68,7 +71,8 @@ class FrischResult:
 
 
 def frisch_analysis(cov: Any, *, names: Sequence[str] | None = None, eps: float,
-                    starts: int = 8, seed: int = 0, ref: str | int | None = None) -> FrischResult:
+                    eps_impossible: float | None = None, starts: int = 8, seed: int = 0,
+                    ref: str | int | None = None, warm: Any = None) -> FrischResult:
     """Run the whole diagonal-noise analysis for one window.
 
     Bundles :func:`one_orthant`, :func:`frisch_q1`, :func:`triad` (for three
@@ -83,11 +87,19 @@ def frisch_analysis(cov: Any, *, names: Sequence[str] | None = None, eps: float,
     names : sequence of str, optional
         Variable names.
     eps : float
-        Tolerance in (0, 1) on the correlation scale.
+        Tolerance (> 0) of the existence certificates on the correlation
+        scale.
+    eps_impossible : float, optional
+        Tolerance (>= ``eps``) of the impossibility certificates; default
+        ``eps``. For an absolute tolerance take both from
+        :meth:`relspan.analysis.bounded.NoiseTolerance.diagonal_eps`.
     starts, seed : int
         Starts of the minimum-rank search and their seed.
     ref : str or int, optional
         Normalise the single-relation intervals on this variable only.
+    warm : FrischResult or FrischCorank, optional
+        A previous analysis of the same variables (overlapping window, or the
+        estimate when this is a resample); see :func:`frisch_max_corank`.
 
     Returns
     -------
@@ -112,7 +124,7 @@ def frisch_analysis(cov: Any, *, names: Sequence[str] | None = None, eps: float,
     """
     s, nm = frisch_cov(cov, names)
     n = s.shape[0]
-    eps = check_fraction(eps, key="eps", meaning="the tolerance on the correlation scale")
+    eps, eps_imp = _check_eps_pair(eps, eps_impossible)
     starts = check_whole(starts, key="starts", minimum=1)
     seed = check_whole(seed, key="seed", minimum=0)
     if ref is not None:
@@ -120,12 +132,28 @@ def frisch_analysis(cov: Any, *, names: Sequence[str] | None = None, eps: float,
     orth = one_orthant(s, names=nm)
     q1 = frisch_q1(s, names=nm, ref=ref)
     tri = triad(s, names=nm) if n == 3 else None
-    cor = frisch_max_corank(s, names=nm, eps=eps, starts=starts, seed=seed)
+    cor = frisch_max_corank(s, names=nm, eps=eps, eps_impossible=eps_imp, starts=starts, seed=seed,
+                            warm=warm)
     qs = cor.max_certified
-    ident = frisch_identification(n, qs) if qs >= 1 else None
     spread = None
-    if ident is not None and qs >= 2 and not ident.count_met:
-        spread = solution_spread(s, qs, eps, names=nm, starts=starts, seed=seed)
+    ident = None
+    if qs >= 1:
+        cert = cor.certificate(qs)
+        equality = qs * (qs + 1) == 2 * n
+        if qs >= 2 and (qs * (qs + 1) < 2 * n or (equality and tri is None)):
+            # A family, or the counting equality where a second solution can exist
+            # (Wilson & Worcester 1939): search with more starts there.
+            spread = solution_spread(s, qs, eps, names=nm, starts=starts if not equality else 4 * starts,
+                                     seed=seed, certified=cert.noise_share)
+        evidence = None
+        angle = None
+        if tri is not None and qs == 2:
+            evidence = "unique" if tri.feasible else "approximate"
+        elif spread is not None and equality:
+            angle = spread.max_angle_deg
+            evidence = "second" if spread.distinct > 1 else "searched"
+        ident = frisch_identification(n, qs, evidence=evidence, second_angle_deg=angle,
+                                      starts=4 * starts if equality else None)
     # TODO(architecture): reader-facing prose (FrischResult.summary, carried into results.json);
     # it moves to analysis/findings with the report restructuring, not in this refactor.
     parts = [cor.summary]
@@ -141,9 +169,29 @@ def frisch_analysis(cov: Any, *, names: Sequence[str] | None = None, eps: float,
     else:
         parts.append(q1.reason[0].upper() + q1.reason[1:] + ".")
     if tri is not None:
-        parts.append(tri.reason[0].upper() + tri.reason[1:] + ".")
-    if spread is not None:
+        parts.append(_triad_sentence(tri, cor.certificate(2).status, eps))
+    if spread is not None and not (ident is not None and ident.status == "locally identified"):
         parts.append(spread.summary)
-    elif ident is not None and qs >= 2:
+    elif ident is not None and qs >= 2 and (tri is None or ident.status == "count met"):
         parts.append(ident.text[0].upper() + ident.text[1:] + ".")
     return FrischResult(nm, eps, starts, seed, orth, q1, tri, cor, ident, spread, " ".join(parts))
+
+
+def _triad_sentence(tri: TriadResult, status: str, eps: float) -> str:
+    """One sentence on corank 2 of three variables: the exact formula and the certificate agree.
+
+    The triad formula says whether two relations hold *exactly* with
+    non-negative noise variances; the certificate says whether they hold
+    within the tolerance. Both are true at once, so they are said together.
+    """
+    if tri.feasible:
+        return ("A single factor reproduces the covariances exactly with non-negative noise variances "
+                "(three-variable formula): two relations hold exactly, and their noise variances are "
+                "pinned down.")
+    why = ("the product of the three covariances is not positive" if not tri.sign_condition else
+           "Heywood case: " + ", ".join(tri.heywood) + " would need a negative noise variance")
+    within = {"certified": f"but two relations fit within tolerance {eps:g}, approximately, so their "
+                           "noise variances are not pinned down",
+              "ruled out": f"and none fits within tolerance {eps:g} either",
+              "undetermined": f"whether two fit within tolerance {eps:g} cannot be judged"}[status]
+    return f"No exact fit with two relations exists ({why}); {within}."

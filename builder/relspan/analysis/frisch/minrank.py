@@ -52,13 +52,26 @@ class _Searcher:
     small ``eps`` certifiable.
     """
 
-    def __init__(self, r: np.ndarray, eps: float) -> None:
+    def __init__(self, r: np.ndarray, eps: float, *, certify: tuple[np.ndarray, float] | None = None) -> None:
+        # certify: the matrix and tolerance a point must pass to count (default: r, eps); the
+        # search on R + eps I (R - D indefinite) certifies on R at eps.
+        self.cert_r, self.cert_eps = (r, eps) if certify is None else certify
         self.r = r
         self.rb = _regularised(r)
         self.eps = eps
         self.gap = max(1e-10, min(1e-7, 1e-3 * eps))
         self.gap_coarse = max(self.gap, 1e-3)
         self.bound = 1.0 / np.diag(np.linalg.inv(self.rb))
+
+    @classmethod
+    def indefinite(cls, r: np.ndarray, eps: float) -> "_Searcher":
+        """The search on ``R + eps I`` with target ``2 eps``: certificates whose ``R - D`` is indefinite.
+
+        ``d >= 0`` certifies corank ``q`` within ``eps`` (``|lambda_1..q(R - D)| <= eps``,
+        no eigenvalue below ``-eps``) exactly when ``R + eps I - D`` is positive
+        semidefinite with ``lambda_q <= 2 eps``.
+        """
+        return cls(r + eps * np.eye(r.shape[0]), 2.0 * eps, certify=(r, eps))
 
     def solve(self, w: np.ndarray, gap: float | None = None) -> np.ndarray:
         """Weighted trace problems, one per row of ``w``."""
@@ -88,6 +101,26 @@ class _Searcher:
         rank = int(np.sum(sv > 1e-10 * max(sv[0], 1e-300)))
         return vt[rank:].T
 
+    def _tangent_steps(self, q: int, d: np.ndarray, directions: np.ndarray) -> np.ndarray:
+        """Each row of ``directions`` projected on the tangent space at the matching row of ``d``.
+
+        The stacked form of :meth:`tangent` (one batched ``eigh`` and SVD for
+        all walkers): rows of zeros where the tangent space is trivial.
+        """
+        k, n = d.shape
+        _, vec = np.linalg.eigh(self.r[None] - d[:, :, None] * np.eye(n))
+        v = vec[:, :, :q]
+        iu = np.triu_indices(q)
+        a = np.swapaxes((v[:, :, :, None] * v[:, :, None, :])[:, :, iu[0], iu[1]], 1, 2)
+        _, sv, vt = np.linalg.svd(a, full_matrices=True)
+        out = np.zeros((k, n))
+        for b in range(k):
+            rank = int(np.sum(sv[b] > 1e-10 * max(sv[b][0], 1e-300)))
+            t = vt[b, rank:].T
+            if t.size:
+                out[b] = t @ (t.T @ directions[b])
+        return out
+
     def walk(self, q: int, d0: np.ndarray, directions: np.ndarray, *, steps: int = 6,
              h0: float = 0.02) -> list[np.ndarray]:
         """Walk along the corank-q family from ``d0``, one walker per direction.
@@ -108,24 +141,17 @@ class _Searcher:
             idx = np.flatnonzero(alive)
             if idx.size == 0:
                 break
-            trial = np.empty((idx.size, n))
-            moving = np.ones(idx.size, dtype=bool)
-            for m, b in enumerate(idx):
-                t = self.tangent(q, cur[b])
-                p = t @ (t.T @ directions[b]) if t.size else np.zeros(n)
-                norm = float(np.linalg.norm(p))
-                if norm < 1e-8:
-                    moving[m] = False
-                    p = np.zeros(n)
-                else:
-                    p = p / norm
-                trial[m] = np.clip(cur[b] + h[b] * p, 0.0, None)
+            p = self._tangent_steps(q, cur[idx], directions[idx])
+            norm = np.linalg.norm(p, axis=1)
+            moving = norm >= 1e-8
+            p = np.where(moving[:, None], p / np.where(moving, norm, 1.0)[:, None], 0.0)
+            trial = np.clip(cur[idx] + h[idx, None] * p, 0.0, None)
             alive[idx[~moving]] = False
             new, _ = self.descend(q, trial, max_iter=5)
             for m, b in enumerate(idx):
                 if not moving[m]:
                     continue
-                ok, _, _ = _certify(self.r, new[m], q, self.eps)
+                ok, _, _ = _certify(self.cert_r, new[m], q, self.cert_eps)
                 if ok and np.linalg.norm(new[m] - cur[b]) > 1e-9:
                     cur[b] = new[m]
                     found.append(new[m].copy())

@@ -34,6 +34,9 @@ from relspan.errors import OptionsError
 
 __all__ = ["MinimumTrace", "minimum_trace"]
 
+#: Relative duality gap of the minimum-trace solve inside the diagonal-noise analysis.
+_MT_GAP = 1e-12
+
 
 @dataclass(frozen=True, slots=True)
 class MinimumTrace:

@@ -22,9 +22,9 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from relspan.analysis._common import check_fraction, check_whole
+from relspan.analysis._common import check_whole
 from relspan.analysis._export import fields_dict, frame
-from relspan.analysis.frisch._base import correlation, frisch_cov
+from relspan.analysis.frisch._base import check_eps, correlation, frisch_cov
 from relspan.analysis.frisch.identification import FrischIdentification, frisch_identification
 from relspan.analysis.frisch.minrank import _certify, _relations_back, _Searcher
 
@@ -40,6 +40,33 @@ def _principal_angles_deg(qa: np.ndarray, qb: np.ndarray) -> np.ndarray:
     from relspan.analysis.stability import principal_angles
 
     return principal_angles(qa, qb, layout="columns")
+
+
+def _pairwise_largest_angles_deg(bases: np.ndarray) -> np.ndarray:
+    """Largest principal angle (degrees) between every pair of ``k`` subspaces, all at once.
+
+    ``bases`` is (k, n, q) with orthonormal columns. For each pair the
+    cosines are the singular values of ``Q_a^T Q_b`` and the sines those of
+    ``Q_b - Q_a Q_a^T Q_b``; the largest angle is ``atan2(max sine, min
+    cosine)`` (Björck & Golub 1973), the same formula as
+    :func:`relspan.analysis.stability.principal_angles`, here on stacked
+    arrays (one batched SVD for all ``k (k - 1) / 2`` pairs). Returns the
+    symmetric (k, k) matrix with a zero diagonal.
+    """
+    k, n, q = bases.shape
+    ang = np.zeros((k, k))
+    if k < 2:
+        return ang
+    ia, ib = np.triu_indices(k, 1)
+    qa, qb = bases[ia], bases[ib]
+    c = np.swapaxes(qa, 1, 2) @ qb
+    cos = np.linalg.svd(c, compute_uv=False)[:, -1]
+    sin = np.linalg.svd(qb - qa @ c, compute_uv=False)[:, 0]
+    sin = np.where(sin <= 4.0 * n * np.finfo(float).eps, 0.0, sin)
+    a = np.degrees(np.arctan2(sin, np.clip(cos, 0.0, 1.0)))
+    ang[ia, ib] = a
+    ang[ib, ia] = a
+    return ang
 
 
 @dataclass(frozen=True, slots=True)
@@ -119,7 +146,8 @@ class SolutionSpread:
 
 
 def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None = None,
-                    starts: int = 8, seed: int = 0, max_iter: int = 20) -> SolutionSpread:
+                    starts: int = 8, seed: int = 0, max_iter: int = 20,
+                    certified: np.ndarray | None = None) -> SolutionSpread:
     """Sample distinct corank-q solutions and report how far their relations differ.
 
     Solutions come from the ten Berge & Kiers minimum-rank iteration started
@@ -130,7 +158,10 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     lowering one noise variance, with a doubling step, and returns to the
     family by the same iteration, until the family's edge. Every member is
     certified within ``eps``. The spread found is a lower bound on the
-    family's true spread.
+    family's true spread. Where no member keeps ``R - D`` positive
+    semidefinite, the same search runs on ``R + eps I`` (members whose
+    ``R - D`` is indefinite within ``eps``, as :func:`frisch_max_corank`
+    certifies them).
     The spread is the largest principal angle between members' relation
     subspaces (sines and cosines combined by atan2); the representative is
     the medoid member, reported beside the spread, never alone.
@@ -149,6 +180,10 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
         Random starts and their seed.
     max_iter : int
         Iteration cap per run.
+    certified : (n,) array_like, optional
+        Noise shares (correlation scale) of a corank-q certificate already
+        found (e.g. by :func:`frisch_max_corank`): kept as a member when the
+        searches find none, so a certified corank never has an empty spread.
 
     Returns
     -------
@@ -163,7 +198,7 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     """
     s, nm = frisch_cov(cov, names)
     n = s.shape[0]
-    eps = check_fraction(eps, key="eps", meaning="the tolerance on the correlation scale")
+    eps = check_eps(eps)
     starts = check_whole(starts, key="starts", minimum=1)
     seed = check_whole(seed, key="seed", minimum=0)
     ident = frisch_identification(n, q)
@@ -172,6 +207,7 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     search = _Searcher(r, eps)
     rng = np.random.default_rng(seed)
     d_mt = search.solve(np.ones((1, n)))[0]
+    dirs = np.vstack([np.eye(n), -np.eye(n)])
     members: list[np.ndarray] = []
     bases: list[np.ndarray] = []
 
@@ -182,25 +218,28 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
             members.append(d)
             bases.append(_relations_back(vec[:, :q], sd).T)
 
-    first, _ = search.descend(q, d_mt[None, :], max_iter=max_iter)
-    _keep(first[0])
-    rand, _ = search.descend(q, search.random_starts(rng, starts - 1), max_iter=max_iter)
-    for d1 in rand:
-        _keep(d1)
-    if members:
-        dirs = np.vstack([np.eye(n), -np.eye(n)])
-        for d1 in search.walk(q, members[0], dirs):
+    rand_starts = search.random_starts(rng, starts - 1)
+    for attempt in (search, _Searcher.indefinite(r, eps)):
+        # The search keeping R - D PSD first; where it finds no member, the
+        # same on R + eps I (members whose R - D is indefinite, as certified).
+        first, _ = attempt.descend(q, d_mt[None, :], max_iter=max_iter)
+        _keep(first[0])
+        rand, _ = attempt.descend(q, rand_starts, max_iter=max_iter)
+        for d1 in rand:
             _keep(d1)
+        if members:
+            for d1 in attempt.walk(q, members[0], dirs):
+                _keep(d1)
+            break
+    if not members and certified is not None:
+        _keep(np.asarray(certified, dtype=float))
     k = len(members)
     if k == 0:
         summary = (f"No solution with {q} relation{'s' if q > 1 else ''} was found within "
                    f"tolerance {eps:g}, so no spread can be reported.")
         return SolutionSpread(nm, q, eps, ident, 0, 0, None, None, None, None, (), None, None,
                               np.zeros((0, n)), starts, seed, summary)
-    ang = np.zeros((k, k))
-    for a in range(k):
-        for b in range(a + 1, k):
-            ang[a, b] = ang[b, a] = _principal_angles_deg(bases[a], bases[b])[-1]
+    ang = _pairwise_largest_angles_deg(np.array(bases))
     rep = int(np.argmin(ang.max(axis=1)))
     a_max, b_max = np.unravel_index(int(np.argmax(ang)), ang.shape)
     widest = _principal_angles_deg(bases[a_max], bases[b_max])
@@ -219,8 +258,9 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
         summary = (f"Under diagonal noise, {q} {rel} among {n} variables are not pinned down: "
                    f"{k} solutions found within tolerance {eps:g} ({len(distinct)} distinct) have "
                    f"relation subspaces up to {max_angle:.3g} degrees apart; the noise variance of "
-                   f"{nm[j]} ranges from {lo[j]:.3g} to {hi[j]:.3g}. Any member of this family "
-                   "fits the data equally well.")
+                   f"{nm[j]} ranges from {lo[j]:.3g} to {hi[j]:.3g}. "
+                   + ("Any member of this family fits the data equally well." if not ident.count_met
+                      else "Each of them fits the data equally well."))
     else:
         summary = (f"{k} solutions with {q} {rel} found within tolerance {eps:g} all give the same "
                    f"relation subspace (within 0.001 degrees)"

@@ -126,7 +126,7 @@ def triad(cov: Any, *, names: Sequence[str] | None = None) -> TriadResult:
     scale = float(np.prod(np.diag(s)))
     if not prod > _ZERO * scale:
         reason = (f"s12 s13 s23 = {prod:.3g} is not positive, so no single factor reproduces the "
-                  "covariances: corank 2 is impossible")
+                  "covariances exactly: no exact corank 2 (within a tolerance it can still be certified)")
         return TriadResult(nm, False, False, None, None, (), None, reason)
     l1 = math.sqrt(s12 * s13 / s23)
     lam = np.array([l1, s12 / l1, s13 / l1])
@@ -139,9 +139,10 @@ def triad(cov: Any, *, names: Sequence[str] | None = None) -> TriadResult:
         _, _, vt = np.linalg.svd(u[None, :])
         relations = vt[1:]
         reason = ("a single factor reproduces the covariances with non-negative noise variances: "
-                  "corank 2 holds and is point-identified")
+                  "corank 2 holds exactly and is point-identified")
     else:
         reason = ("Heywood case: the one-factor fit needs a negative noise variance for "
-                  + ", ".join(hey) + ", so corank 2 is impossible under diagonal noise")
+                  + ", ".join(hey) + ", so no exact corank 2 under diagonal noise (within a tolerance it can "
+                  "still be certified)")
     return TriadResult(nm, True, feasible, tuple(float(v) for v in lam),
                        tuple(float(v) for v in d), hey, relations, reason)
