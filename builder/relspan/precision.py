@@ -49,7 +49,7 @@ from dataclasses import dataclass
 from typing import Any, Iterable, Mapping
 
 __all__ = ["Precision", "CLOSED_FORM", "ITERATIVE", "precision_for", "round_number", "round_array",
-           "canonical_document", "canonical_frame", "quantum", "within", "precision_table", "MEASURED"]
+           "canonical_document", "canonical_frame", "reference_scale", "quantum", "within", "precision_table", "MEASURED"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -203,6 +203,16 @@ def _numeric_array(v) -> bool:
     return has_float
 
 
+def reference_scale(key: str, context) -> float | None:
+    """The scale a solver residual named ``key`` is rounded on (its sibling's largest magnitude), or None."""
+    ref = _SCALE_OF.get(key)
+    if ref is None or not isinstance(context, dict) or context.get(ref) is None:
+        return None
+    value = context[ref]
+    return max((abs(v) for v in _numbers(value if isinstance(value, list) else [float(value)])
+                if math.isfinite(v)), default=0.0)
+
+
 def canonical_document(doc: Any, path: tuple[str, ...] = ()) -> Any:
     """A JSON-ready document with every float rounded to its published precision.
 
@@ -221,13 +231,9 @@ def _canon(x, path, context):
         return [_canon(v, path, context) for v in x]
     if isinstance(x, float):
         digits = precision_for(path, context).digits
-        ref = _SCALE_OF.get(path[-1]) if path and isinstance(context, dict) else None
-        if ref is not None and ref in context:
-            scale = max((abs(v) for v in _numbers(context[ref] if isinstance(context[ref], list)
-                                                   else [context[ref]]) if math.isfinite(v)),
-                        default=0.0)
-            if scale > abs(x):
-                return round_array([x], digits, scale=scale)[0]
+        scale = reference_scale(path[-1] if path else "", context)
+        if scale is not None and scale > abs(x):
+            return round_array([x], digits, scale=scale)[0]
         return round_number(x, digits)
     return x
 

@@ -273,7 +273,7 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
     add("# Where the site is written, relative to this spec's folder.")
     add("site:")
     add("  # Output folder.")
-    add("  out: _site")
+    add("  out: relspan-site")
     add("  # Figure format: svg or png.")
     add("  figures: svg")
     return "\n".join(out) + "\n"
