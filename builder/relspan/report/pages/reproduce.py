@@ -108,9 +108,9 @@ def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
             "are made, and `relspan verify` checks both:\n"),
         Raw("- **The same bytes in the pinned environment.** With the same inputs and the package versions "
             "listed under Software (pinned in [data/constraints.txt](/data/constraints.txt)), a rebuild "
-            "writes the same files: compare the `SHA256SUMS` file at the site's root. This was checked for "
-            "the demo on two CPU kernels of the maths library (OpenBLAS Haswell and SkylakeX); other "
-            "processors are expected, not proven, to agree.\n"
+            "writes the same files: compare the `SHA256SUMS` file at the site's root. relspan's own tests "
+            "build its demo under two CPU kernels of the maths library (OpenBLAS Haswell and SkylakeX) "
+            "and require the same bytes; other processors are expected, not proven, to agree.\n"
             "- **The same numbers, within their stated precision, anywhere.** Other machines or other "
             "package versions can change the last bits of a computation. Every published number is "
             "therefore rounded to the precision its method supports (see Precision below); a rebuild "
