@@ -20,6 +20,7 @@ import hashlib
 import json
 import os
 import re
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -178,3 +179,36 @@ def test_committed_demo_site_lists_every_file_in_its_checksums(committed):
         listed[name] = digest
     expected = {k: v for k, v in committed.items() if k not in ("SHA256SUMS", ".relspan-site", MACHINE_FILE)}
     assert listed == expected, f"SHA256SUMS is out of step with site_demo/; refresh with `{REFRESH}`"
+
+
+def _readme_commands() -> list[str]:
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    return [line.strip() for line in text.splitlines() if line.startswith("    python3 -m venv .venv")]
+
+
+def test_readme_has_exactly_two_setup_commands_and_ci_runs_the_test_one():
+    demo, tests = _readme_commands()
+    assert "-c constraints.txt" in demo and "-c constraints.txt" in tests
+    assert "relspan build specs/demo.yaml --out " in demo and "pytest" in tests
+    ci = (ROOT / ".ci" / "run").read_text(encoding="utf-8")
+    assert tests in ci.splitlines()
+
+
+def test_readme_demo_command_writes_only_where_git_ignores():
+    """The demo build goes to an ignored folder (and its cache beside the spec is ignored), never site_demo/."""
+    if shutil.which("git") is None or not (ROOT / ".git").exists():
+        pytest.skip("not a git checkout")
+    demo, _ = _readme_commands()
+    out = demo.split("--out ", 1)[1].split()[0]
+    assert Path(out).resolve() != SITE_DEMO.resolve() and "site_demo" not in out
+    for path in (f"{out}/index.html", f"{out}/data/results.json", "specs/.relspan-cache/README.txt"):
+        done = subprocess.run(["git", "check-ignore", "-q", path], cwd=ROOT)
+        assert done.returncode == 0, f"{path} would show in git status"
+
+
+def test_constraints_pin_every_runtime_dependency():
+    from relspan.environment import runtime_distributions
+
+    pinned = CONSTRAINTS.read_text(encoding="utf-8").lower().replace("_", "-")
+    missing = [name for name in runtime_distributions() if f"\n{name}==" not in "\n" + pinned]
+    assert not missing, f"constraints.txt does not pin {missing}; refresh it (command in its header)"

@@ -216,7 +216,7 @@ def compare_documents(published, rebuilt, *, path: tuple = (), result: Compariso
             compare_documents(a, b, path=path + (str(i),), result=out, context=context, scale=scale)
         return out
     if _is_num(published) and _is_num(rebuilt):
-        if published == rebuilt and type(published) is type(rebuilt) or published == rebuilt:
+        if published == rebuilt:
             out.add(IDENTICAL)
             return out
         if isinstance(published, int) and isinstance(rebuilt, int):
