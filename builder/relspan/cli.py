@@ -4,7 +4,7 @@ It parses arguments, calls the library, prints short human-readable output
 and maps outcomes to exit codes:
 
 * 0 - success (every claim holds);
-* 1 - a claim failed (or, with ``--strict``, a warning was raised);
+* 1 - a claim failed (or, with ``--strict``, a warning was raised); ``verify``: something differs;
 * 2 - bad input: spec, data, options or output folder (one located paragraph
   on stderr, never a traceback);
 * 3 - an internal error (a bug of relspan's; one paragraph, traceback with RELSPAN_DEBUG=1);
@@ -99,24 +99,50 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("spec", help="the spec file (YAML)")
     _add_run_options(c)
 
-    s = sub.add_parser("serve", help="preview a built site on 127.0.0.1",
-                       description="Serve a built site folder on 127.0.0.1 only (never on other "
-                                   "interfaces). Stop with Ctrl-C.",
-                       epilog="Example: relspan serve site_demo --port 8000")
-    s.add_argument("folder", help="a folder written by `relspan build`")
-    s.add_argument("--port", type=_port, default=8000,
-                   help="port on 127.0.0.1 (default 8000; 0 = any free)")
+    for name, hidden in (("show", False), ("serve", True)):  # `serve`: the old name, hidden, for one release
+        s = sub.add_parser(name, **({} if hidden else {"help": "serve a built site on 127.0.0.1, to read it in a browser"}),
+                           description="Serve a built site folder on 127.0.0.1 only (never on other "
+                                       "interfaces), on a free port unless --port says which. Stop with "
+                                       "Ctrl-C." + (" (`serve` is the old name of `show`; it will be "
+                                                    "removed in the next release.)" if hidden else ""),
+                           epilog="Example: relspan show relspan-site")
+        s.add_argument("folder", help="a folder written by `relspan build`")
+        s.add_argument("--port", type=_port, default=0,
+                       help="port on 127.0.0.1 (default 0: any free port, printed at start)")
 
-    n = sub.add_parser("new", help="write a starter spec for a data file",
-                       description="Write a commented starter spec for a data file (CSV or TSV, "
-                                   "compressed or not, Parquet, Excel .xlsx, Stata .dta): numeric "
-                                   "columns as variables, a guessed time column, a full-sample and a "
-                                   "rolling plan; what was detected (separator, decimal mark, "
-                                   "encoding, sheet) is written into it.",
-                       epilog="Example: relspan new data/regions.csv --out regions.yaml")
-    n.add_argument("csv", metavar="DATA", help="the data file")
-    n.add_argument("--out", default=None, metavar="SPEC",
-                   help="where to write the spec (default: print it); an existing file is not overwritten")
+    for name, hidden in (("draft", False), ("new", True)):  # `new`: the old name, hidden, for one release
+        n = sub.add_parser(name, **({} if hidden else {"help": "write a draft spec for a data file"}),
+                           description="Write a commented draft spec for a data file (CSV or TSV, "
+                                       "compressed or not, Parquet, Excel .xlsx, Stata .dta): numeric "
+                                       "columns as variables with units split from their names, a "
+                                       "guessed time column (day-first dates detected), a full-sample "
+                                       "and a rolling plan in time units, one example claim, and the "
+                                       "columns it skipped; what was detected (separator, decimal mark, "
+                                       "encoding, sheet) is written into it."
+                                       + (" (`new` is the old name of `draft`; it will be removed in the "
+                                          "next release.)" if hidden else ""),
+                           epilog="Example: relspan draft data/regions.csv --out regions.yaml")
+        n.add_argument("csv", metavar="DATA", help="the data file")
+        n.add_argument("--out", default=None, metavar="SPEC",
+                       help="where to write the spec (default: print it); an existing file is not "
+                            "overwritten")
+
+    v = sub.add_parser("verify", help="re-run a published site's analysis and compare every number",
+                       description="Re-run the analysis of a published site from the spec and data it "
+                                   "names: check the SHA-256 of every input, compare every published "
+                                   "number within its stated precision and every claim verdict, and "
+                                   "print a replication report (identical / within precision / "
+                                   "different, per input, dataset and claim) with a one-line verdict. "
+                                   "Exit 0: everything agrees; 1: something differs (named); 2: bad "
+                                   "input.",
+                       epilog="Example: relspan verify site_demo --spec specs/demo.yaml")
+    v.add_argument("site", metavar="SITE", help="the folder of a site written by `relspan build`")
+    v.add_argument("--spec", default=None, metavar="SPEC",
+                   help="the spec to re-run (default: the file named like the site's published spec, "
+                        "in this folder or one folder below)")
+    v.add_argument("--jobs", "-j", type=int, default=1, metavar="N",
+                   help="worker processes for the re-run (default 1: in this process)")
+    v.add_argument("--quiet", "-q", action="store_true", help="print only the one-line verdict")
 
     sc = sub.add_parser("schema", help="print the spec's JSON Schema (or its reference in Markdown)",
                         description="Print the JSON Schema of spec format v1 (for editors that "
@@ -250,8 +276,21 @@ def _cmd_new(args: argparse.Namespace) -> int:
         raise OptionsError(f"cannot write the starter spec {spec_path}: {why}.", path=str(spec_path),
                            key="--out", fix="give --out a path in an existing folder you may write "
                                             "to, or create the folder first.") from None
-    print(f"starter spec written to {spec_path}; next: relspan check {spec_path}")
+    print(f"draft spec written to {spec_path}; next: relspan check {spec_path}")
     return EXIT_OK
+
+
+def _cmd_verify(args: argparse.Namespace) -> int:
+    from relspan.verify import verify
+
+    if args.jobs is not None and args.jobs < 1:
+        raise OptionsError(f"--jobs must be a whole number >= 1; got {args.jobs}.",
+                           key="--jobs", fix="use --jobs 1 for serial work, or leave it out.")
+    with _Warnings() as caught:
+        rep = verify(Path(args.site), spec=args.spec, jobs=args.jobs, progress=False)
+    _print_warnings(caught)
+    print(rep.verdict() if args.quiet else rep.report())
+    return EXIT_OK if rep.agrees else EXIT_CLAIM_FAILED
 
 
 def _cmd_schema(args: argparse.Namespace) -> int:
@@ -305,8 +344,8 @@ class _CtrlC:
             signal.signal(signal.SIGINT, signal.SIG_IGN if interrupted else self._previous)
 
 
-_COMMANDS = {"build": _cmd_build, "check": _cmd_check, "serve": _cmd_serve,
-             "new": _cmd_new, "schema": _cmd_schema}
+_COMMANDS = {"build": _cmd_build, "check": _cmd_check, "show": _cmd_serve, "serve": _cmd_serve,
+             "draft": _cmd_new, "new": _cmd_new, "verify": _cmd_verify, "schema": _cmd_schema}
 
 
 def _stderr_is_terminal() -> bool:

@@ -35,7 +35,9 @@ FAILING = ROOT / "tests" / "fixtures" / "failing_claim.yaml"
 SITE_DEMO = ROOT / "site_demo"
 DEMO_CLAIMS = ("trio-two-relations", "trio-plane-stable", "accounts-weight-bounded",
                "accounts-weight-sign", "fares-one-relation-per-era")
-SUBCOMMANDS = ("build", "check", "serve", "new", "schema")
+SUBCOMMANDS = ("build", "check", "show", "draft", "verify", "schema")
+#: the old names, hidden aliases for one release
+OLD_NAMES = {"serve": "show", "new": "draft"}
 
 
 # ----------------------------------------------------------------- helpers
@@ -111,6 +113,23 @@ def test_top_level_help_shows_an_example_and_every_subcommand(capsys):
     assert "Example: relspan build specs/demo.yaml" in out
     for command in SUBCOMMANDS:
         assert command in out
+
+
+@pytest.mark.parametrize("old", sorted(OLD_NAMES))
+def test_old_command_names_still_work_but_are_not_listed(old, capsys, tmp_path):
+    code, out, _ = call_main(["--help"], capsys)
+    assert not re.search(rf"^\s+{old}\s", out, flags=re.M), out
+    assert re.search(rf"^\s+{OLD_NAMES[old]}\s", out, flags=re.M), out
+    code, out, _ = call_main([old, "--help"], capsys)
+    assert code == 0 and f"`{old}` is the old name of `{OLD_NAMES[old]}`" in " ".join(out.split())
+
+
+def test_show_listens_on_a_free_port_unless_told(capsys):
+    from relspan.cli import _parser
+
+    assert _parser().parse_args(["show", "x"]).port == 0
+    assert _parser().parse_args(["serve", "x"]).port == 0
+    assert _parser().parse_args(["show", "x", "--port", "8123"]).port == 8123
 
 
 def test_no_command_prints_usage_and_exits_2(capsys):
@@ -288,9 +307,9 @@ def some_csv(tmp_path) -> Path:
     return target
 
 
-def test_new_prints_a_starter_spec_that_check_accepts(some_csv, capsys, monkeypatch):
+def test_draft_prints_a_starter_spec_that_check_accepts(some_csv, capsys, monkeypatch):
     monkeypatch.chdir(some_csv.parent)
-    code, out, _ = call_main(["new", some_csv.name], capsys)
+    code, out, _ = call_main(["draft", some_csv.name], capsys)
     assert code == 0
     assert yaml.safe_load(out)["relspan"] == 1
     spec = some_csv.parent / "some.yaml"
@@ -300,20 +319,20 @@ def test_new_prints_a_starter_spec_that_check_accepts(some_csv, capsys, monkeypa
     assert "no claims in the spec; analysis ran on 1 dataset(s)" in out
 
 
-def test_new_with_out_writes_the_spec_and_says_what_to_do_next(some_csv, capsys, monkeypatch):
+def test_draft_with_out_writes_the_spec_and_says_what_to_do_next(some_csv, capsys, monkeypatch):
     monkeypatch.chdir(some_csv.parent)
-    code, out, _ = call_main(["new", some_csv.name, "--out", "fresh.yaml"], capsys)
+    code, out, _ = call_main(["draft", some_csv.name, "--out", "fresh.yaml"], capsys)
     assert code == 0
     assert "next: relspan check fresh.yaml" in out
     assert yaml.safe_load((some_csv.parent / "fresh.yaml").read_text(encoding="utf-8"))["relspan"] == 1
     assert sorted(p.name for p in some_csv.parent.iterdir()) == ["fresh.yaml", "some.csv"]
 
 
-def test_new_with_out_refuses_to_overwrite_an_existing_file(some_csv, capsys, monkeypatch):
+def test_draft_with_out_refuses_to_overwrite_an_existing_file(some_csv, capsys, monkeypatch):
     monkeypatch.chdir(some_csv.parent)
     existing = some_csv.parent / "mine.yaml"
     existing.write_text("# my own notes\n", encoding="utf-8")
-    code, _, err = call_main(["new", some_csv.name, "--out", "mine.yaml"], capsys)
+    code, _, err = call_main(["draft", some_csv.name, "--out", "mine.yaml"], capsys)
     assert code == 2
     assert "mine.yaml already exists; relspan does not overwrite it." in err
     assert_one_paragraph(err)
@@ -348,10 +367,10 @@ def test_schema_rejects_a_spec_with_an_unknown_key(capsys):
 # ------------------------------------------------------------------- serve
 
 
-def test_serve_serves_a_built_folder_on_localhost_until_terminated():
+def test_show_serves_a_built_folder_on_a_free_localhost_port_until_terminated():
     if not (SITE_DEMO / "index.html").is_file():
         pytest.skip("site_demo/ is not built (relspan build specs/demo.yaml --no-cache)")
-    proc = subprocess.Popen([sys.executable, "-m", "relspan", "serve", str(SITE_DEMO), "--port", "0"],
+    proc = subprocess.Popen([sys.executable, "-m", "relspan", "show", str(SITE_DEMO)],
                             cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     try:
         line = proc.stderr.readline()
@@ -373,8 +392,8 @@ def test_serve_serves_a_built_folder_on_localhost_until_terminated():
         proc.stderr.close()
 
 
-def test_serve_of_a_folder_without_a_site_exits_2(tmp_path, capsys):
-    code, _, err = call_main(["serve", str(tmp_path), "--port", "0"], capsys)
+def test_show_of_a_folder_without_a_site_exits_2(tmp_path, capsys):
+    code, _, err = call_main(["show", str(tmp_path)], capsys)
     assert code == 2
     assert "has no index.html, so it is not a built site." in err
     assert_one_paragraph(err)
@@ -466,7 +485,7 @@ def test_schema_markdown_prints_the_committed_spec_reference_so_an_installed_use
     assert "#### `datasets[].separator`" in out and "#### `datasets[].sheet`" in out
 
 
-def test_new_points_to_the_installed_reference_not_a_repository_file(tmp_path, capsys):
+def test_draft_points_to_the_installed_reference_not_a_repository_file(tmp_path, capsys):
     data = tmp_path / "d.csv"
     data.write_text("x,y\n" + "".join(f"{i},{i * i}\n" for i in range(20)), encoding="utf-8")
     code, out, _ = call_main(["new", str(data)], capsys)

@@ -335,6 +335,13 @@ class TestEnvironment:
             c = ResultCache(folder)
         assert c.get(KEY, "miss") == "miss"
 
+    def test_every_library_that_parses_dates_or_draws_text_is_part_of_the_key(self):
+        env = cache_module.cache_environment()
+        for name in ("pyparsing", "cycler", "python-dateutil", "tzdata", "patsy", "threadpoolctl"):
+            assert name in env["libraries"], name
+        changed = {**env, "libraries": {**env["libraries"], "pyparsing": "0.0.1"}}
+        assert cache_module.environment_id(changed) != cache_module.environment_id(env)
+
     def test_cache_written_under_another_blas_kernel_is_not_reused(self, tmp_path, monkeypatch):
         folder = tmp_path / "cache"
         real = cache_module.cache_environment()

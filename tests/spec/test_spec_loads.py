@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+from pathlib import Path
 
 import pytest
 
@@ -42,7 +43,7 @@ def test_minimal_spec_loads_with_model_defaults(write_spec, tmp_path):
     assert spec.windows == (WindowPlanSpec(id="full", kind="full"),)
     assert spec.checks == ChecksSpec()
     assert spec.claims == ()
-    assert spec.site == SiteSpec(out="_site", out_path=(tmp_path / "_site").resolve())
+    assert spec.site == SiteSpec(out="relspan-site", out_path=(tmp_path / "relspan-site").resolve())
     assert spec.path == (tmp_path / "spec.yaml").resolve()
 
 
@@ -171,3 +172,9 @@ def test_data_outside_the_folder_loads_with_allow_outside(write_spec, tmp_path):
         assert ds.source_path == outside.resolve()
     finally:
         outside.unlink()
+
+
+def test_default_output_folder_is_our_own_name_and_git_ignores_it():
+    root = Path(__file__).resolve().parents[2]
+    assert SiteSpec().out == "relspan-site"
+    assert "relspan-site/" in (root / ".gitignore").read_text(encoding="utf-8").splitlines()

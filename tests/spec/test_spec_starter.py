@@ -82,11 +82,84 @@ def test_no_time_column_gives_no_time_key(tmp_path):
     assert spec.datasets[0].time is None and "time:" not in text
 
 
-def test_rolling_plan_is_a_quarter_of_the_rows_stepping_a_fifth_of_that(tmp_path):
-    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv", rows=1000))
+def test_rolling_plan_without_a_time_column_is_a_quarter_of_the_rows_stepping_a_fifth_of_that(tmp_path):
+    _, spec = _write(tmp_path, _csv(tmp_path / "h.csv", rows=1000, time=(None, None)))
     rolling = spec.plan("rolling")
     assert (rolling.width.count, rolling.width.unit) == (250, "rows")
     assert (rolling.step.count, rolling.step.unit) == (50, "rows")
+
+
+def test_rolling_plan_with_a_time_column_is_in_time_units(tmp_path):
+    # 1000 quarters = 250 years: a quarter of that is 62.5 years, rounded to 62; a fifth of 62 is 12
+    text, spec = _write(tmp_path, _csv(tmp_path / "h.csv", rows=1000))
+    rolling = spec.plan("rolling")
+    assert (rolling.width.count, rolling.width.unit) == (62, "years")
+    assert (rolling.step.count, rolling.step.unit) == (12, "years")
+    assert "rows about one quarter apart" in text
+
+
+def test_short_daily_data_get_widths_in_days(tmp_path):
+    days = pd.date_range("2020-01-01", periods=120, freq="D").strftime("%Y-%m-%d")
+    text, spec = _write(tmp_path, _csv(tmp_path / "d.csv", rows=120, time=("date", list(days))))
+    rolling = spec.plan("rolling")
+    assert (rolling.width.count, rolling.width.unit) == (30, "days")
+    assert (rolling.step.count, rolling.step.unit) == (6, "days")
+
+
+def test_units_in_brackets_are_split_from_column_names():
+    from relspan.spec.starter import split_unit
+
+    assert split_unit("Dissolved oxygen (mg/l)") == ("Dissolved oxygen", "mg/l")
+    assert split_unit("conductivity [uS/cm]") == ("Conductivity", "uS/cm")
+    assert split_unit("cargo_handled") == ("Cargo handled", "")
+
+
+def test_draft_writes_label_and_unit_for_a_column_with_a_unit(tmp_path):
+    rng = np.random.default_rng(5)
+    pd.DataFrame({"Dissolved oxygen (mg/l)": rng.normal(size=50), "Temperature (°C)": rng.normal(size=50)}
+                 ).to_csv(tmp_path / "river.csv", index=False)
+    text, spec = _write(tmp_path, tmp_path / "river.csv")
+    v = spec.datasets[0].variables
+    assert [(x.column, x.label, x.unit) for x in v] == [
+        ("Dissolved oxygen (mg/l)", "Dissolved oxygen", "mg/l"), ("Temperature (°C)", "Temperature", "°C")]
+
+
+def test_day_first_dates_get_a_format_that_reads_them(tmp_path):
+    dates = pd.date_range("2001-01-01", periods=300, freq="7D").strftime("%d/%m/%Y")
+    text, spec = _write(tmp_path, _csv(tmp_path / "w.csv", rows=300, time=("Date", list(dates))))
+    assert spec.datasets[0].time.format == "%d/%m/%Y"
+    assert "day first (a first field above 12" in text
+    from relspan.run.build import check
+
+    outcome = check(tmp_path / "spec.yaml", use_cache=False)  # the dates really read with that format
+    prepared = outcome.run.datasets[0].prepared
+    assert prepared.rows_used == 300 and tuple(prepared.period) == (dates[0], dates[-1])
+
+
+def test_month_first_and_undecided_dates_are_said():
+    from relspan.spec.starter import time_format
+
+    assert time_format(pd.Series(["01/13/2001", "01/14/2001"]))[0] == "%m/%d/%Y"
+    fmt, why = time_format(pd.Series(["01.02.2001", "01.03.2001"]))
+    assert fmt == "%d.%m.%Y" and "a guess" in why
+    assert time_format(pd.Series([1990, 1991]))[0] == "year"
+
+
+def test_skipped_columns_are_listed_with_the_reason(tmp_path):
+    text, _ = _write(tmp_path, _csv(tmp_path / "h.csv", text_col=True))
+    assert '# Columns left out (1): "berth" (text, not numbers).' in text
+
+
+def test_the_proposed_example_claim_loads_and_holds_once_uncommented(tmp_path):
+    text, _ = _write(tmp_path, _csv(tmp_path / "h.csv", rows=120))
+    assert "#   - id: a-relation-holds" in text
+    live = text.replace("claims: []\n", "").replace("# claims:", "claims:")
+    live = re.sub(r"^#(   .*)$", lambda m: m.group(1)[1:], live, flags=re.M)
+    path = tmp_path / "live.yaml"
+    path.write_text(live, encoding="utf-8")
+    spec = load_spec(path)
+    claim = spec.claims[0]
+    assert (claim.kind, claim.plan, claim.assumption) == ("corank", "rolling", "equal")
 
 
 def test_row_count_covers_the_whole_file_beyond_the_head(tmp_path):

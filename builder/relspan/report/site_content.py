@@ -13,6 +13,8 @@ import pandas as pd
 from relspan import __version__
 from relspan.analysis.results import jsonable
 from relspan.assumptions import ASSUMPTION_IDS
+from relspan.environment import constraints_text
+from relspan.precision import canonical_document, canonical_frame, precision_table
 from relspan.report import pages as P
 from relspan.site.content import NavItem, Page, SiteContent
 
@@ -26,9 +28,10 @@ RESULTS_SCHEMA_VERSION = 1
 RESULTS_SCHEMA_PATH = Path(__file__).with_name("results.schema.json")
 
 
-def _csv(df: pd.DataFrame) -> bytes:
+def _csv(df: pd.DataFrame, context: tuple = ()) -> bytes:
+    """CSV download; every float column rounded to its published precision (relspan.precision)."""
     buf = io.StringIO()
-    df.to_csv(buf, index=False, lineterminator="\n", float_format="%.10g")
+    canonical_frame(df, context=context).to_csv(buf, index=False, lineterminator="\n", float_format="%.10g")
     return buf.getvalue().encode("utf-8")
 
 
@@ -48,7 +51,7 @@ def dataset_document(result) -> dict:
         })
     p = result.prepared
     read_as = getattr(p, "read_as", "")
-    return jsonable({
+    return canonical_document(jsonable({
         "id": result.spec.id,
         "title": result.spec.title,
         "source": result.spec.source,
@@ -70,7 +73,7 @@ def dataset_document(result) -> dict:
         "findings": [f.to_dict() for f in result.findings],
         "trends": None if getattr(result, "trends", None) is None else result.trends.to_dict(),
         "influence": None if getattr(result, "influence", None) is None else result.influence.to_dict(),
-    })
+    }))
 
 
 def results_document(run) -> dict:
@@ -79,9 +82,10 @@ def results_document(run) -> dict:
         "schema": RESULTS_SCHEMA_VERSION,
         "relspan": __version__,
         "title": run.spec.report.title,
-        "environment": dict(sorted(run.environment.items())),
+        "environment": run.environment,
+        "precision": precision_table(),
         "datasets": [dataset_document(r) for r in run.datasets],
-        "claims": [v.to_dict() for v in run.verdicts],
+        "claims": canonical_document(jsonable([v.to_dict() for v in run.verdicts]), ("claims",)),
     }
 
 
@@ -171,6 +175,7 @@ def site_draft(run) -> SiteDraft:
     pub.add("data/findings.csv", _findings_csv(run))
     spec_link = pub.add(f"data/{spec.path.name}", spec.text.encode("utf-8"))
     pub.add("data/results.schema.json", RESULTS_SCHEMA_PATH.read_bytes())
+    pub.add("data/constraints.txt", constraints_text(run.environment).encode("utf-8"))
     pages += [P.claims_page(run, pub), P.caution_page(), P.methods_page(pub), P.glossary_page()]
     pages += [P.reproduce_page(run, pub, spec_link), P.downloads_page(run, pub)]
     nav = (

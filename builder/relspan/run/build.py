@@ -324,6 +324,7 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
     parameters are :func:`check`'s; from Python the work runs in this process
     unless ``jobs`` (or the spec's ``run.jobs``) asks for workers.
     """
+    from relspan.environment import MACHINE_FILE, machine_json_bytes
     from relspan.site import render_site, write_site
 
     t0 = time.perf_counter()
@@ -340,6 +341,7 @@ def build(spec_path, *, out=None, jobs: int | None = None, scheduler: str | None
         run = run_analysis(spec, progress=progress, executor=executor, cache=cache)
         content = _content_with_figures(run, executor, cache, progress)
     files = render_site(content)
+    files[MACHINE_FILE] = machine_json_bytes()  # machine-specific: outside SHA256SUMS on purpose
     write_site(files, out_dir, protected=protected)
     cache.prune()  # entries of other environments, old formats, unused for a month
     return Outcome(run, out_dir, time.perf_counter() - t0, _where(where, executor))

@@ -70,7 +70,13 @@ STALE_TEMP_SECONDS = 3600
 
 #: libraries whose versions can change a number or a figure (absent ones are recorded as absent)
 NUMERIC_LIBRARIES = ("numpy", "scipy", "pandas", "matplotlib", "pyarrow", "statsmodels",
-                     "contourpy", "fonttools", "pillow", "kiwisolver")
+                     "contourpy", "fonttools", "pillow", "kiwisolver",
+                     # also touch numbers or figures: mathtext parsing (pyparsing), colour cycles
+                     # (cycler), date parsing (python-dateutil, tzdata), statsmodels' formulas and
+                     # arrays (patsy), Excel and Stata cells (openpyxl), pandas' optional
+                     # accelerators (bottleneck, numexpr) and the BLAS probe itself (threadpoolctl)
+                     "pyparsing", "cycler", "python-dateutil", "tzdata", "patsy", "openpyxl",
+                     "bottleneck", "numexpr", "threadpoolctl")
 
 _ENV_PREFIX = "env-"
 _ENV_FILE = "ENVIRONMENT.json"

@@ -111,25 +111,10 @@ def code_version() -> str:
 
 
 def environment() -> dict:
-    """Versions that a reader needs to rebuild the same bytes."""
-    import jinja2
-    import markdown
-    import matplotlib
-    import pandas
-    import scipy
-    import yaml
+    """What a rebuild must match to give the same bytes (:func:`relspan.environment.portable_environment`)."""
+    from relspan.environment import portable_environment
 
-    return {
-        "python": platform.python_version(),
-        "relspan": __version__,
-        "numpy": np.__version__,
-        "scipy": scipy.__version__,
-        "pandas": pandas.__version__,
-        "matplotlib": matplotlib.__version__,
-        "markdown": markdown.__version__,
-        "pyyaml": yaml.__version__,
-        "jinja2": jinja2.__version__,
-    }
+    return portable_environment()
 
 
 def _window_options(ds: DatasetSpec, ref: int) -> WindowOptions:

@@ -66,7 +66,7 @@ def make_server(folder: Path, port: int = 0) -> http.server.ThreadingHTTPServer:
                            fix="choose another --port, or --port 0 for any free port.") from None
 
 
-def serve_folder(folder: Path, port: int = 8000) -> None:
+def serve_folder(folder: Path, port: int = 0) -> None:
     """Serve until Ctrl-C (KeyboardInterrupt propagates to the command line)."""
     server = make_server(folder, port)
     host, real_port = server.server_address[:2]

@@ -243,7 +243,7 @@ class ClaimSpec:
 class SiteSpec:
     """``site:`` - where and how the site is written."""
 
-    out: str = "_site"
+    out: str = "relspan-site"
     out_path: Path | None = None
     figures: str = "svg"
     notes: str = ""

@@ -169,14 +169,14 @@ class _Builder:
 
     def _site(self, s: dict | None) -> SiteSpec:
         s = s if s is not None else LineDict(_line(self.raw, "site", 1))
-        out = s.get("out", "_site")
+        out = s.get("out", "relspan-site")
         line = _line(s, "out", _line(self.raw, "site", 1))
         try:
             out_path = (self.ctx.folder / out).resolve()
         except (OSError, ValueError, RuntimeError) as exc:
             raise self.err(f"site.out {out!r} cannot be used as a folder path ({exc}).",
                            line=line, key="site.out",
-                           fix="write a plain relative folder name such as `out: _site`.") \
+                           fix="write a plain relative folder name such as `out: relspan-site`.") \
                 from None
         folder = self.ctx.folder
         if out_path == folder or folder.is_relative_to(out_path):
@@ -184,7 +184,7 @@ class _Builder:
                 f"site.out '{out}' is the spec's own folder or a folder above it; building "
                 f"the site replaces that folder, with the spec and data in it.",
                 line=line, key="site.out",
-                fix="write the site to a folder of its own, e.g. `out: _site`.")
+                fix="write the site to a folder of its own, e.g. `out: relspan-site`.")
         return SiteSpec(out=out, out_path=out_path, figures=s.get("figures", "svg"),
                         notes=s.get("notes", ""), language=s.get("language", "en"))
 

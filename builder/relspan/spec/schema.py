@@ -488,12 +488,12 @@ def _build_schema() -> dict[str, Any]:
         "type": "object",
         "title": "Site",
         "description": "Where and how the site is written.",
-        "examples": [{"out": "_site", "figures": "svg"}],
+        "examples": [{"out": "relspan-site", "figures": "svg"}],
         "additionalProperties": False,
         "properties": {
             "out": _text("Output folder", "Folder the site is written to, relative to the "
                          "spec's folder; not the spec's folder itself nor one above it.",
-                         ["_site"], default="_site", minLength=1),
+                         ["relspan-site"], default="relspan-site", minLength=1),
             "figures": _p({"type": "string", "enum": list(FIGURE_FORMATS)}, "Figure format",
                           "Image format of the figures.", ["svg"], default="svg"),
             "notes": _text("Notes", "A note for readers shown on the home page.",
@@ -651,7 +651,7 @@ claims:
     dataset: harbour
     assumption: equal
 site:
-  out: _site
+  out: relspan-site
   figures: svg
   notes: "All figures are invented for this example."
   language: en

@@ -13,12 +13,13 @@ import re
 import warnings
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 from relspan.errors import DataError
 from relspan.spec.model import ChecksSpec
 
-__all__ = ["starter_spec", "guess_time_column", "prettify"]
+__all__ = ["starter_spec", "guess_time_column", "prettify", "split_unit", "time_format", "time_widths"]
 
 #: rows read to list columns and guess their kinds
 HEAD_ROWS = 200
@@ -38,6 +39,107 @@ def prettify(column: str) -> str:
     first, rest = words[0], words[1:]
     # keep acronyms (GDP) and already mixed case as written; lower-case only CamelCase splits
     return first.upper() + rest
+
+
+_UNIT = re.compile(r"^(?P<name>.*?\S)\s*[\(\[](?P<unit>[^()\[\]]+)[\)\]]\s*$")
+
+
+def split_unit(column: str) -> tuple[str, str]:
+    """``("Dissolved oxygen", "mg/l")`` from ``"Dissolved oxygen (mg/l)"`` (or ``[mg/l]``).
+
+    A name without a bracketed unit at its end gives ``(prettify(column), "")``.
+    """
+    m = _UNIT.match(str(column))
+    if not m:
+        return prettify(column), ""
+    return prettify(m.group("name")), " ".join(m.group("unit").split())
+
+
+_DMY = re.compile(r"^(?P<a>\d{1,2})(?P<sep>[/.\-])(?P<b>\d{1,2})(?P=sep)(?P<y>\d{4})$")
+
+
+def time_format(values: pd.Series) -> tuple[str, str]:
+    """``(format, why)`` for a time column: a format the reader understands, and a note.
+
+    Whole-number years give ``year``; ``1994Q1`` ``quarter``; ``1994-03`` ``month``;
+    ``31/01/1994`` (any of ``/ . -``) a strftime pattern, day first when a first
+    field above 12 shows it (month first when a second field does; day first,
+    said as a guess, when no value decides); anything else ``auto``.
+    """
+    if pd.api.types.is_numeric_dtype(values):
+        return "year", "whole-number years"
+    vals = values.dropna().astype(str).str.strip()
+    vals = vals[vals != ""]
+    if len(vals) and vals.str.match(_QUARTER).all():
+        return "quarter", "quarters such as 1994Q1"
+    if len(vals) and vals.str.match(_MONTH).all():
+        return "month", "months such as 1994-03"
+    parts = vals.str.extract(_DMY)
+    if len(vals) and parts["a"].notna().all():
+        a, b = parts["a"].astype(int), parts["b"].astype(int)
+        sep = parts["sep"].iloc[0]
+        if (parts["sep"] != sep).any():
+            return "auto", "dates with mixed separators"
+        day_first = "%d" + sep + "%m" + sep + "%Y"
+        if (a > 12).any() and not (b > 12).any():
+            return day_first, f"day first (a first field above 12, e.g. {vals[a > 12].iloc[0]})"
+        if (b > 12).any() and not (a > 12).any():
+            return "%m" + sep + "%d" + sep + "%Y", f"month first (a second field above 12, e.g. {vals[b > 12].iloc[0]})"
+        return day_first, "day first is a guess: no date in the first rows has a field above 12; check it"
+    return "auto", "recognised when read"
+
+
+#: (unit word, length in days) used to propose window widths in time units
+_UNITS = (("years", 365.25), ("quarters", 91.3), ("months", 30.44), ("weeks", 7.0), ("days", 1.0))
+
+
+def time_widths(times: pd.Series, fmt: str, rows: int, n_vars: int) -> tuple[str, str, str] | None:
+    """``(width, step, why)`` in time units for a rolling plan, or None when the dates cannot be read.
+
+    The spacing of the rows is the median gap between consecutive dates in the
+    head; the span is that spacing times the rows. The width is about a quarter
+    of the span (at least the variables + 2 rows), the step about a fifth of the
+    width, both in whole years when the span covers 8 years or more, else in the
+    data's own unit.
+    """
+    vals = times.dropna()
+    try:
+        if fmt == "year":
+            t = pd.to_datetime(vals.astype(int).astype(str), format="%Y")
+        elif fmt == "quarter":
+            t = pd.PeriodIndex(vals.astype(str).str.replace(r"[-\s]", "", regex=True), freq="Q").to_timestamp()
+        elif fmt == "month":
+            t = pd.to_datetime(vals.astype(str), format="%Y-%m")
+        elif fmt.startswith("%"):
+            t = pd.to_datetime(vals.astype(str), format=fmt)
+        else:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                t = pd.to_datetime(vals.astype(str), format="mixed")
+    except (ValueError, TypeError, OverflowError):
+        return None
+    t = pd.Series(pd.DatetimeIndex(t)).dropna().sort_values()
+    if len(t) < 3:
+        return None
+    gap = float(t.diff().dropna().dt.total_seconds().median()) / 86400.0
+    if not gap > 0:
+        return None
+    span_days = gap * rows
+    own = min(_UNITS, key=lambda u: abs(np.log(gap / u[1])))
+    unit, days = ("years", 365.25) if span_days >= 8 * 365.25 else own
+    min_width = (n_vars + 2) * gap
+    width = max(round(span_days / 4 / days), int(np.ceil(min_width / days)), 1)
+    step = max(round(width / 5), 1)
+    why = (f"rows about {_spacing_word(gap)} apart, about {span_days / days:.0f} {unit} in all")
+    def n_units(k: int) -> str:
+        return f"{k} {unit if k != 1 else unit[:-1]}"
+
+    return n_units(width), n_units(step), why
+
+
+def _spacing_word(gap_days: float) -> str:
+    word, days = min(_UNITS, key=lambda u: abs(np.log(gap_days / u[1])))
+    return "one " + word[:-1]
 
 
 def _slug(text: str) -> str:
@@ -94,6 +196,15 @@ def guess_time_column(head: pd.DataFrame) -> str | None:
         if _looks_like_dates(s):
             return str(col)
     return None
+
+
+def _why_skipped(values: pd.Series) -> str:
+    """Why a column is not a variable, in a few words."""
+    if values.isna().all():
+        return "empty in the first rows"
+    if pd.api.types.is_bool_dtype(values):
+        return "yes/no values"
+    return "text, not numbers"
 
 
 def _q(text: str) -> str:
@@ -178,6 +289,11 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
             fix=f"check how the file was read ({src.read_as or 'plain CSV'}) and set the "
                 "dataset's separator, decimal or sheet in the spec if that is wrong.")
 
+    skipped = [(str(c), _why_skipped(head[c])) for c in head.columns
+               if str(c) != time_col and str(c) not in numeric]
+    fmt, fmt_why = time_format(head[time_col]) if time_col is not None else ("auto", "")
+    widths = time_widths(head[time_col], fmt, rows, len(numeric)) if time_col is not None else None
+
     folder = spec_path.resolve().parent
     data_abs = csv_path.resolve()
     outside = not data_abs.is_relative_to(folder)
@@ -194,10 +310,13 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
 
     out: list[str] = []
     add = out.append
-    add(f"# Starter spec for {csv_path.name} ({rows} rows, {n} numeric columns).")
+    add(f"# Draft spec for {csv_path.name} ({rows} rows, {n} numeric columns).")
     add("# Edit it, then build the site. Every key is described by `relspan schema --markdown`.")
     if src.read_as:
         add(f"# The file was read as {src.read_as}.")
+    if skipped:
+        add(f"# Columns left out ({len(skipped)}): "
+            + "; ".join(f"{_q(c)} ({why})" for c, why in skipped) + ".")
     add("")
     add("# Version of the spec format this file follows.")
     add("relspan: 1")
@@ -227,15 +346,19 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
         add("    time:")
         add("      # Name of the time column.")
         add(f"      column: {_q(time_col)}")
-        add("      # How dates are written: auto, year, quarter, month or a strftime pattern.")
-        add("      format: auto")
+        add(f"      # How dates are written: auto, year, quarter, month or a strftime pattern ({fmt_why}).")
+        add(f"      format: {_q(fmt) if fmt.startswith('%') else fmt}")
     add("    # The numeric columns to analyse (remove any that do not belong).")
     add("    variables:")
     for col in numeric:
         add("      # Column in the file.")
         add(f"      - column: {_q(col)}")
+        label, unit = split_unit(col)
         add("        # Name readers see.")
-        add(f"        label: {_q(prettify(col))}")
+        add(f"        label: {_q(label)}")
+        if unit:
+            add("        # Unit of measurement (split from the column name).")
+            add(f"        unit: {_q(unit)}")
     add("    # Rows with a missing value: drop them, or fail.")
     add("    missing: drop")
     add("# How each dataset is cut into windows.")
@@ -248,10 +371,17 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
     add("  - id: rolling")
     add("    # Kind of plan: full, rolling, expanding or periods.")
     add("    kind: rolling")
-    add(f"    # Rows in each window (about a quarter of the {rows} rows).")
-    add(f"    width: {width}")
-    add("    # Rows each window moves on (about a fifth of the width).")
-    add(f"    step: {step}")
+    if widths is not None:
+        w_text, s_text, w_why = widths
+        add(f"    # Length of each window, in time ({w_why}; about a quarter of that).")
+        add(f"    width: {_q(w_text)}")
+        add("    # How far each window moves on (about a fifth of the width).")
+        add(f"    step: {_q(s_text)}")
+    else:
+        add(f"    # Rows in each window (about a quarter of the {rows} rows).")
+        add(f"    width: {width}")
+        add("    # Rows each window moves on (about a fifth of the width).")
+        add(f"    step: {step}")
     add("# Which noise assumptions to compare, with which options.")
     add("checks:")
     add("  # 'shaped' also needs noise_share on every variable.")
@@ -270,10 +400,21 @@ def starter_spec(csv_path: str | Path, spec_path: str | Path) -> str:
     add(f"  seed: {defaults.seed}")
     add("# Statements to re-check on every build (none yet).")
     add("claims: []")
+    add("# An example claim: remove the '# ' in front of the next lines (and 'claims: []' above) to")
+    add("# re-check it on every build. It says at least one linear relation holds among the")
+    add("# variables in every rolling window when all of them carry noise of the same size.")
+    add("# claims:")
+    add("#   - id: a-relation-holds")
+    add("#     kind: corank")
+    add(f"#     text: {_q('At least one linear relation holds among ' + ', '.join(split_unit(c)[0] for c in numeric[:4]) + (' and the rest' if n > 4 else '') + ' in every window.')}")
+    add(f"#     dataset: {ds_id}")
+    add("#     plan: rolling")
+    add("#     assumption: equal")
+    add("#     at_least: 1")
     add("# Where the site is written, relative to this spec's folder.")
     add("site:")
     add("  # Output folder.")
-    add("  out: _site")
+    add("  out: relspan-site")
     add("  # Figure format: svg or png.")
     add("  figures: svg")
     return "\n".join(out) + "\n"

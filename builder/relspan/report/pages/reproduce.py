@@ -55,17 +55,22 @@ def _replication_readme(run, pub: Publisher) -> str:
                      f"SHA-256 {r.prepared.sha256}.")
     if spec.report.licence:
         lines.append(f"- Licence of the data and report: {spec.report.licence}.")
+    dists = env.get("distributions", {})
     lines += ["", "## Computational requirements", "",
-              f"- Software: Python {env.get('python', '')}, relspan {env.get('relspan', '')}, "
-              + ", ".join(f"{k} {v}" for k, v in sorted(env.items()) if k not in ('python', 'relspan')) + ".",
+              f"- Software: Python {env.get('python', '')} on {env.get('os', '')} {env.get('architecture', '')}, "
+              f"relspan {env.get('relspan', '')}, "
+              + ", ".join(f"{k} {v}" for k, v in sorted(dists.items()))
+              + " (pinned in the site's data/constraints.txt).",
               "- Hardware: a plain CPU machine; no GPU and no network access are needed.",
               f"- Randomness: the independent-noise search uses seed "
               f"{', '.join(str(s) for s in sorted({d.checks.seed for d in spec.datasets}))} (checks.seed).",
               "", "## Instructions to replicators", "",
-              f"1. Install relspan {env.get('relspan', '')} and the versions above (for example with pip).",
-              f"2. In the folder holding `{spec.path.name}`, run `relspan build {spec.path.name}`; it writes "
-              f"the site to `{spec.site.out}`.",
-              "3. Compare the `SHA256SUMS` file of the new site with the published one.", "",
+              f"1. Install relspan {env.get('relspan', '')} with the pinned versions: "
+              f"`pip install -c constraints.txt relspan=={env.get('relspan', '')}`.",
+              f"2. In the folder holding `{spec.path.name}`, run `relspan verify SITE` (SITE: the published "
+              "site's folder); it re-runs the analysis and compares every number and verdict.",
+              f"3. Or rebuild with `relspan build {spec.path.name}` and compare the `SHA256SUMS` file of the "
+              "new site with the published one (same bytes in the pinned environment).", "",
               "## List of tables, figures and programs", "",
               "| Output | Program | File |", "|---|---|---|"]
     for what, program, path in _outputs(run, pub):
@@ -73,31 +78,80 @@ def _replication_readme(run, pub: Publisher) -> str:
     return "\n".join(lines).replace("`", "'") + "\n"
 
 
+def _software_rows(env: dict) -> list[tuple[str, str]]:
+    rows = [("Python", f"{env.get('python', '')} ({env.get('implementation', '')})"),
+            ("Operating system, processor architecture", f"{env.get('os', '')}, {env.get('architecture', '')}"),
+            ("relspan", env.get("relspan", ""))]
+    rows += [(f"maths library: {b.get('library', '')}", b.get("version", "")) for b in env.get("blas", [])]
+    rows += sorted(env.get("distributions", {}).items())
+    return rows
+
+
+def _precision_rows() -> list[tuple[str, str, str]]:
+    from relspan.precision import CLOSED_FORM, ITERATIVE
+
+    return [(p.name.replace("_", " "), str(p.digits), p.basis) for p in (CLOSED_FORM, ITERATIVE)]
+
+
 def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
+    from relspan.environment import MACHINE_FILE
+
     spec = run.spec
     spec_bytes = spec.text.encode("utf-8")
     rows = [(md("{} (the spec)", code(spec.path.name)), Raw(f"`{_sha256(spec_bytes)}`"))]
     rows += [(code(ds.source), Raw(f"`{r.prepared.sha256}`")) for ds, r in zip(spec.datasets, run.datasets)]
-    env_rows = sorted(run.environment.items())
     seeds = sorted({ds.checks.seed for ds in spec.datasets})
+    version = run.environment.get("relspan", "")
     body = [
         Raw("## In plain words {#summary}\n"),
-        Raw("Everything on this site is computed from the spec and the data files below. With the same "
-            "inputs and the same package versions, a rebuild produces the same bytes: compare the "
-            "`SHA256SUMS` file at the site's root. Nothing on this page changes between two builds of the "
-            "same inputs.\n"),
-        Raw("## The one command {#command}\n"),
-        Raw("In the folder that holds the spec:\n"),
+        Raw("Everything on this site is computed from the spec and the data files listed below. Two promises "
+            "are made, and `relspan verify` checks both:\n"),
+        Raw("- **The same bytes in the pinned environment.** With the same inputs and the package versions "
+            "listed under Software (pinned in [data/constraints.txt](/data/constraints.txt)), a rebuild "
+            "writes the same files: compare the `SHA256SUMS` file at the site's root. relspan's own tests "
+            "build its demo under two CPU kernels of the maths library (OpenBLAS Haswell and SkylakeX) "
+            "and require the same bytes; other processors are expected, not proven, to agree.\n"
+            "- **The same numbers, within their stated precision, anywhere.** Other machines or other "
+            "package versions can change the last bits of a computation. Every published number is "
+            "therefore rounded to the precision its method supports (see Precision below); a rebuild "
+            "elsewhere should agree within one unit in the last published digit, with the same claim "
+            "verdicts and the same text. A difference larger than that is a real difference and "
+            "`relspan verify` names it.\n"),
+        Raw("## The commands {#command}\n"),
+        Raw("In the folder that holds the spec, with relspan installed from the pinned versions:\n"),
         # the spec's file name as typed in a shell (a fenced block shows it literally)
-        Raw(f"```\nrelspan build {spec.path.name}\n```\n"),
-        Raw(f"`relspan check {spec.path.name}` re-checks the claims without writing the site.\n"),
+        Raw(f"```\npip install -c constraints.txt relspan=={version}\nrelspan verify SITE\n"
+            f"relspan build {spec.path.name}\n```\n"),
+        Raw("`relspan verify SITE` (SITE is the folder of this site) checks the SHA-256 of every input, "
+            "re-runs the analysis from the spec and data this site names, compares every number in "
+            "`data/results.json` within its stated precision and every claim verdict, and prints a "
+            "replication report (identical, within precision or different, per dataset and claim) with a "
+            "one-line verdict; it exits with 0 when everything agrees, 1 when something differs (named), "
+            "2 when an input is missing or unreadable. "
+            f"`relspan check {spec.path.name}` re-checks the claims without writing a site; "
+            f"`relspan build {spec.path.name}` writes a new site.\n"),
         Raw("## Inputs {#inputs}\n"),
         table(("File", "SHA-256"), rows, csv=(pub, "data/tables/inputs.csv")),
         _read_as_lines(spec, run),
         md("\nThe spec as used: {}.\n", link(spec.path.name, spec_download)),
         Raw(f"Seed of the independent-noise search (checks.seed): {', '.join(str(s) for s in seeds)}.\n"),
         Raw("## Software {#software}\n"),
-        table(("Package", "Version"), env_rows, csv=(pub, "data/tables/software.csv")),
+        Raw("The environment a rebuild must match for the same bytes: Python, the operating-system family, "
+            "the maths library and every package relspan needs at run time (its dependencies and theirs). "
+            "The same list, as a pip constraints file: [data/constraints.txt](/data/constraints.txt).\n"),
+        table(("Package", "Version"), _software_rows(run.environment), csv=(pub, "data/tables/software.csv")),
+        Raw(f"\nWhat differs from machine to machine (the processor model, the CPU kernel the maths library "
+            f"chose, the operating-system release, every installed package including optional and test "
+            f"tools) is recorded in `{MACHINE_FILE}` at the site's root. That file is deliberately left out "
+            "of `SHA256SUMS`, of the freshness comparison and of `relspan verify`, so that two machines can "
+            "write the same site.\n"),
+        Raw("## Precision {#precision}\n"),
+        Raw("Each number in the JSON and CSV downloads keeps the significant digits below; the numbers of "
+            "one array (a matrix, a vector, a list across windows) share one last digit, set by the "
+            "array's largest magnitude, so round-off around zero is written as 0. Two builds agree within "
+            "precision when every number differs by at most one unit in that last digit.\n"),
+        table(("Quantities", "Significant digits", "What the precision rests on"), _precision_rows(),
+              csv=(pub, "data/tables/precision.csv")),
         Raw("\n## For a replication package README {#readme}\n"),
         Raw("A section ready to paste, in the structure commonly used for replication packages "
             "(data availability, computational requirements, instructions, and a list mapping each table "
@@ -106,7 +160,7 @@ def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
         blocks.callout(USUAL_CAUTIONS, title="Read with care"),
     ]
     return Page("reproduce.html", "Reproduce", "\n".join(body), "reproduce", breadcrumbs=(HOME,),
-                description="Inputs, versions and the one command that rebuilds this site.")
+                description="Inputs, versions, precision and the commands that check and rebuild this site.")
 
 
 def downloads_page(run, pub: Publisher) -> Page:
