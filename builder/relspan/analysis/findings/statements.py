@@ -369,7 +369,11 @@ def dataset_findings(*, full, plans, examined, identified, labels, trends=None, 
     out += _stability_findings(result)
     out = _trend_findings(trends) + _influence_findings(influence) + out
     if result.full.elementary.singular:
-        out.insert(0, Finding("pinned_down", "corank", "Some relations hold exactly in the data.",
+        rests = tuple(a for a in result.full.coranks if a != "elementary") or ("elementary",)
+        out.insert(0, Finding("pinned_down", "corank",
+                              "Some relations hold exactly in the data: they need no noise at all, so they hold "
+                              f"at any tolerance ({Tolerance.of(result.full).short} here).",
                               result.full.elementary.singular_reason,
-                              {"exact": result.full.elementary.exact_relations}, "assumptions"))
+                              {"exact": result.full.elementary.exact_relations}, "assumptions",
+                              assumptions=rests, tolerance=Tolerance.of(result.full)))
     return out
