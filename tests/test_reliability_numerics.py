@@ -98,7 +98,7 @@ def _text(page: Path) -> str:
 
 def test_exact_relation_is_reported_on_the_dataset_page(built):
     site, _ = built
-    assert "Some relations hold exactly in the data." in _text(site / "datasets/exact/index.html")
+    assert "Some relations hold exactly in the data" in _text(site / "datasets/exact/index.html")
 
 
 def test_exact_relation_window_page_explains_the_singular_covariance(built):

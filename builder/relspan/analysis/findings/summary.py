@@ -12,6 +12,7 @@ import numpy as np
 
 from relspan.analysis.findings.records import (AssumptionRow, DatasetSummary, Statement, Tolerance,
                                                WindowReading)
+from relspan.analysis.findings.statements import window_supports
 from relspan.analysis.stability import principal_angles
 from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.words import cap, count, fmt, fmt_range, join_words
@@ -276,7 +277,10 @@ def _plan_sentences(plan, examined) -> tuple[str, ...]:
     n = len(plan.analyses)
     for q in examined:
         stab = plan.stability.get(("equal", q))
-        if stab is not None and n >= 2:
+        if stab is not None and n >= 2 and not window_supports(plan, "equal", q):
+            out.append(f"under equal noise not every window supports {count(q, 'relation')}, so whether "
+                       f"{'it stays' if q == 1 else 'they stay'} put cannot be judged.")
+        elif stab is not None and n >= 2:
             what = "relation" if q == 1 else "set of relations"
             word = "stays" if stab.stable else "moves"
             tol = Tolerance.of(plan.analyses[0])
@@ -302,7 +306,8 @@ def _window_plain(plan, i: int, a, w, q) -> str:
     span = f"{w.first_time} to {w.last_time}, " if w.first_time is not None else ""
     text = (f"This window covers {span}{w.rows} rows. Relations found at {Tolerance.of(a).short} \u2014 "
             + "; ".join(words) + ".")
-    if q is not None and ("equal", q) in plan.stability:
+    if q is not None and ("equal", q) in plan.stability and a.coranks.get("equal") is not None \
+            and a.coranks["equal"] >= q:
         stab = plan.stability[("equal", q)]
         what = "relation" if q == 1 else "set of relations"
         text += (f" Under equal noise its {what} is {fmt(stab.to_reference_deg[i])}\u00b0 from the full sample's "
@@ -350,7 +355,7 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         if plan.plan.kind == "full" or len(plan.analyses) < 2 or q is None:
             continue
         st = plan.stability.get(("equal", q))
-        if st is not None and st.max_to_reference_deg is not None:
+        if st is not None and st.max_to_reference_deg is not None and window_supports(plan, "equal", q):
             stab.append((plan, st))
     single = False
     every_windowed = _windowed_relations(plans)
