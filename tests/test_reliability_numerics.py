@@ -98,7 +98,7 @@ def _text(page: Path) -> str:
 
 def test_exact_relation_is_reported_on_the_dataset_page(built):
     site, _ = built
-    assert "Some relations hold exactly in the data." in _text(site / "datasets/exact/index.html")
+    assert "Some relations hold exactly in the data" in _text(site / "datasets/exact/index.html")
 
 
 def test_exact_relation_window_page_explains_the_singular_covariance(built):
@@ -117,9 +117,16 @@ def test_exact_relation_found_is_the_one_in_the_data(datasets):
     assert abs(abs(float(rel[0] @ truth)) / np.linalg.norm(rel[0]) - 1.0) < 1e-10
 
 
+def _conditioning_lines(stderr: str, ds: str) -> list[str]:
+    """Warning lines about conditioning (nearly singular covariance, lost digits) for one dataset."""
+    return [line for line in stderr.splitlines() if f"dataset '{ds}'" in line
+            and ("nearly singular" in line or "significant digits" in line or "condition" in line)]
+
+
 def test_exact_relation_prints_no_conditioning_warning(built):
     _, result = built
-    assert "dataset 'exact'" not in result.stderr
+    assert not _conditioning_lines(result.stderr, "exact")
+    assert "contradict" not in result.stderr
 
 
 # ------------------------------------------------------------------ near-singular
@@ -164,7 +171,8 @@ def test_rescaled_coefficients_scale_by_the_ratio_of_units(datasets):
 
 def test_scales_from_1e_minus_8_to_1e8_raise_no_conditioning_warning(built):
     _, result = built
-    assert "dataset 'scales'" not in result.stderr
+    # other warnings may name it (e.g. a count resting on a few rows); none about conditioning
+    assert not _conditioning_lines(result.stderr, "scales")
 
 
 # ------------------------------------------------------------------ two variables

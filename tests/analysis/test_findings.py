@@ -147,6 +147,20 @@ class TestOverclaims:
                     assert f.assumptions and f.tolerance is not None, f.headline
                     assert "tolerance" in f.headline, f.headline
 
+    def test_stability_is_not_judged_where_a_window_does_not_support_the_relation(self, one):
+        plan = next(p for p in one.plans if p.plan.id == "rolling")
+        seq = plan.coranks
+        fake = dict(seq.coranks)
+        fake["equal"] = (0,) + tuple(fake["equal"][1:])
+        plan2 = dataclasses.replace(plan, coranks=dataclasses.replace(seq, coranks=fake))
+        plans = tuple(plan2 if p is plan else p for p in one.plans)
+        findings, summary = _rebuild(one, plans=plans)
+        mine = [f for f in findings if f.plan == "rolling" and f.topic == "stability"]
+        assert [f.kind for f in mine] == ["cannot_be_judged"]
+        assert "1 of the" in mine[0].headline
+        assert "steady" not in summary.pinned.short
+        assert check_consistency(findings, summary, coranks=one.full.coranks) == ()
+
     def test_undetermined_windows_are_not_a_change_of_count(self, one):
         plan = next(p for p in one.plans if p.plan.id == "rolling")
         seq = plan.coranks

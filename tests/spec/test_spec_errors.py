@@ -86,7 +86,7 @@ def test_yes_read_as_boolean_suggests_quotes(write_spec):
 def test_enum_lists_allowed_values_and_nearest(write_spec):
     text = MINIMAL.replace("      - column: jobs\n", "      - {column: jobs, transform: logg}\n")
     err = _error(write_spec, text)
-    assert re.search(r"transform must be one of: none, log, diff, logdiff, demean, standardise; "
+    assert re.search(r"transform must be one of: none, log, diff, logdiff, detrend, demean, standardise; "
                      r"got the text 'logg'\. Did you mean 'log'\?", str(err))
     assert "e.g. `transform: log`" in str(err)
 

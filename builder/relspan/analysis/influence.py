@@ -374,11 +374,15 @@ def influence_report(stats, *, decide: Callable, full: Mapping[str, int | None],
     if changed:
         first, last, c = changed[0]
         diff = _changed(full, c, assumptions)
-        more = f" ({len(changed)} of the {len(blocks)} blocks do)" if len(changed) > 1 else ""
+        if len(changed) == 1:
+            head = (f"The full-sample count rests on one block of rows{tol}: leaving out analysed rows {first} to "
+                    f"{last} alone changes it ({becomes(diff)}).")
+        else:
+            head = (f"The full-sample count is fragile{tol}: leaving out any one of {len(changed)} of the "
+                    f"{len(blocks)} blocks of rows changes it (for example analysed rows {first} to {last}: "
+                    f"{becomes(diff)}).")
         findings.append(Finding(
-            "influence", "corank",
-            f"The full-sample count rests on one block of rows{tol}: leaving out analysed rows {first} to {last} "
-            f"alone changes it ({becomes(diff)}){more}.",
+            "influence", "corank", head,
             RULE, {"first_row": first, "last_row": last, "without": diff, "blocks": len(blocks),
                    "changed_blocks": len(changed)}, "influence", assumptions=tuple(diff), tolerance=tolerance))
     diff_w = _changed(full, without, assumptions)

@@ -144,8 +144,9 @@ class _Encoder:
             return [self.value(x, d) for x in v]
         if t is dict:
             return {"$": "dict", "v": [[self.value(k, d), self.value(x, d)] for k, x in v.items()]}
-        if t in (set, frozenset):
-            return {"$": t.__name__, "v": [self.value(x, d) for x in v]}
+        if t in (set, frozenset):  # in a fixed order: a set's iteration order follows the string hash seed
+            return {"$": t.__name__, "v": [self.value(x, d) for x in sorted(v, key=lambda x: (type(x).__name__,
+                                                                                          repr(x)))]}
         if t in (bytes, bytearray):
             return {"$": t.__name__, "a": self.array(np.frombuffer(bytes(v), dtype=np.uint8))}
         if t is complex:

@@ -28,7 +28,7 @@ from relspan.assumptions import assumption as _assumption
 from relspan.analysis.findings.records import Finding, Tolerance
 from relspan.words import cap, count, fmt, fmt_range, times as _times
 
-__all__ = ["dataset_findings", "corank_words", "no_evidence", "DIAGONAL_ALWAYS"]
+__all__ = ["dataset_findings", "corank_words", "no_evidence", "window_supports", "DIAGONAL_ALWAYS"]
 
 
 def _g(x: float) -> str:
@@ -58,6 +58,15 @@ def corank_words(a: str, q) -> str:
     if a == "bounded":
         return f"{name}: {q}, admissible, not shown to hold"
     return f"{name}: {q}"
+
+
+def window_supports(plan, assumption_id: str, q: int) -> bool:
+    """True when every window of ``plan`` settles at least ``q`` relations under the assumption.
+
+    A window's corank-q relation can be compared across windows only where the window supports it.
+    """
+    counts = plan.coranks.coranks.get(assumption_id)
+    return bool(counts) and all(c is not None and c >= q for c in counts)
 
 
 def _corank_findings(result) -> list[Finding]:
@@ -247,6 +256,19 @@ def _stability_findings(result) -> list[Finding]:
                         and plan.stability[a].reference_dim == q), None)
             if key is None:
                 continue
+            if not window_supports(plan, key[0], q):
+                counts = plan.coranks.coranks.get(key[0], ())
+                short = sum(1 for c in counts if c is None or c < q)
+                tol = Tolerance.of(result.full)
+                out.append(Finding("cannot_be_judged", "stability",
+                                   f"Whether the {'relation' if q == 1 else f'{q} relations'} stay"
+                                   f"{'s' if q == 1 else ''} put across \u201c{title}\u201d cannot be judged under "
+                                   f"{_assumption(key[0]).name} at {tol.short}: {short} of the {len(counts)} windows "
+                                   f"do not support {count(q, 'relation')}.",
+                                   "A window's relation can only be compared with the full sample's when the window "
+                                   "supports it.", {"plan": plan.plan.id, "corank": q, "windows_without": short},
+                                   f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key[0],), tolerance=tol))
+                continue
             stab = plan.stability[key]
             worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else (
                 stab.max_pairwise_deg if stab.max_pairwise_deg is not None else stab.max_neighbour_deg)
@@ -415,7 +437,11 @@ def dataset_findings(*, full, plans, examined, identified, labels, trends=None, 
     out += _stability_findings(result)
     out = _trend_findings(trends) + _influence_findings(influence) + out
     if result.full.elementary.singular:
-        out.insert(0, Finding("pinned_down", "corank", "Some relations hold exactly in the data.",
+        rests = tuple(a for a in result.full.coranks if a != "elementary") or ("elementary",)
+        out.insert(0, Finding("pinned_down", "corank",
+                              "Some relations hold exactly in the data: they need no noise at all, so they hold "
+                              f"at any tolerance ({Tolerance.of(result.full).short} here).",
                               result.full.elementary.singular_reason,
-                              {"exact": result.full.elementary.exact_relations}, "assumptions"))
+                              {"exact": result.full.elementary.exact_relations}, "assumptions",
+                              assumptions=rests, tolerance=Tolerance.of(result.full)))
     return out

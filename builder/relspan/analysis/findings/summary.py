@@ -12,6 +12,7 @@ import numpy as np
 
 from relspan.analysis.findings.records import (AssumptionRow, DatasetSummary, Statement, Tolerance,
                                                WindowReading)
+from relspan.analysis.findings.statements import window_supports
 from relspan.analysis.stability import principal_angles
 from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.words import cap, count, fmt, fmt_range, join_words
@@ -290,7 +291,10 @@ def _plan_sentences(plan, examined) -> tuple[str, ...]:
     n = len(plan.analyses)
     for q in examined:
         stab = _equal_stability(plan, q)
-        if stab is not None and n >= 2:
+        if stab is not None and n >= 2 and not window_supports(plan, "equal", q):
+            out.append(f"under equal noise not every window supports {count(q, 'relation')}, so whether "
+                       f"{'it stays' if q == 1 else 'they stay'} put cannot be judged.")
+        elif stab is not None and n >= 2:
             what = "relation" if q == 1 else "set of relations"
             if stab.stable is None or stab.max_to_reference_deg is None:
                 out.append(stab.verdict[:1].lower() + stab.verdict[1:])
@@ -368,7 +372,8 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         if plan.plan.kind == "full" or len(plan.analyses) < 2 or q is None:
             continue
         st = _equal_stability(plan, q)
-        if st is not None and st.max_to_reference_deg is not None and st.stable is not None:
+        if (st is not None and st.max_to_reference_deg is not None and st.stable is not None
+                and window_supports(plan, "equal", q)):
             stab.append((plan, st))
     single = False
     every_windowed = _windowed_relations(plans)
