@@ -28,7 +28,7 @@ from matplotlib.patches import Circle, Polygon
 
 from relspan.report.figures import geometry
 from relspan.report.figures.checks import as_float_array, as_labels, fail
-from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.contract import FigureResult, fit_alt, settle
 from relspan.report.figures.labels import place_point_labels
 from relspan.report.figures.style import FAINT, INK, MUTED, PALETTE, new_figure, series_style, style_context
 from relspan.words import num, num_fig, plural
@@ -245,7 +245,7 @@ def _set_limits(fig, ax, lims: tuple[float, float, float, float]) -> bool:
     x0, x1, y0, y1 = lims
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
-    fig.draw_without_rendering()
+    settle(fig)
     bb = ax.get_window_extent()
     rb = bb.width / max(bb.height, 1.0)
     rd = (x1 - x0) / (y1 - y0)
@@ -265,7 +265,7 @@ def _label_flat(fig, ax, p0: np.ndarray, dvec: np.ndarray, text: str, avoid=None
     """Write ``text`` along the flat line, ending near the right end of its visible
     part, where it covers the fewest points; returns display boxes covering the
     label (for the point labels to avoid), or None when the line is not visible."""
-    fig.draw_without_rendering()
+    settle(fig)
     x0, x1 = ax.get_xlim()
     y0, y1 = ax.get_ylim()
     ts = []
@@ -588,7 +588,7 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
             for row in axs:
                 for ax in row:
                     ax.set_aspect("equal", adjustable="box")
-        fig.draw_without_rendering()
+        settle(fig)
         place_point_labels(fig, ax0, frame.coords(m0.points), list(m0.names),
                            colors=[series_style(j).color for j in range(n)], fontsize=8)
 

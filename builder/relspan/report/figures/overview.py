@@ -9,7 +9,7 @@ import pandas as pd
 
 from relspan.report.figures.checks import (as_float_array, as_labels, as_times, check_mapping, fail, time_text,
                                            time_values)
-from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.contract import FigureResult, fit_alt, settle
 from relspan.report.figures.labels import spread_1d
 from relspan.report.figures.style import MUTED, PALETTE, new_figure, series_style, style_context
 from relspan.words import num, plural
@@ -144,7 +144,7 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
         else:
             ax.set_xlabel("row" if axw is None else "")
         # direct labels at the end of each line
-        fig.draw_without_rendering()
+        settle(fig)
         last = []
         for lab in labels:
             ok = np.flatnonzero(np.isfinite(z[lab]))
@@ -263,7 +263,7 @@ def _draw_window_strip(fig, axw, plans, lane_of, n_lanes) -> None:
     axw.grid(axis="y", visible=False)
     axw.spines["left"].set_visible(False)
     # window labels inside bars when there are few windows and the label fits
-    fig.draw_without_rendering()
+    settle(fig)
     renderer = fig.canvas.get_renderer()
     for rect, label, count in bars:
         if count > 8:
