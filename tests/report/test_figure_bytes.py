@@ -65,3 +65,12 @@ def test_round_sig_keeps_the_stated_digits_and_never_writes_minus_zero():
     assert x[0] == 123457.0 and x[1] == -0.000123457
     assert x[2] == 0.0 and not np.signbit(x[2])
     assert x[3] == 0.0 and np.isinf(x[4])
+
+
+def test_map_with_equal_scales_keeps_its_clip_path_ids_under_last_bit_noise():
+    # equal scales: the axes box follows the limits' ratio, which carries the noise unless rounded
+    x = fi.two_relation_data(21, 3, rows=400, noise=0.05)
+    m = fi.map_data(x, fi.NAMES3)
+    rng = np.random.default_rng(13)
+    for _ in range(3):
+        assert _map_svg(m) == _map_svg(_jitter(m, rng, 1e-11))

@@ -14,7 +14,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from relspan.errors import OptionsError
-from relspan.report.figures.snap import snap_figure
+from relspan.report.figures.snap import round_sig, snap_figure
 from relspan.report.figures.style import style_context
 
 __all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout"]
@@ -110,8 +110,18 @@ def settle(fig: Figure) -> None:
 
 def freeze_layout(fig: Figure) -> None:
     """The layout made final (:func:`settle`); with a fixed count of passes (one) the positions never
-    depend on timing or state, so every later rendering sees exactly the same positions."""
+    depend on timing or state, so every later rendering sees exactly the same positions.
+
+    The axes positions are then rounded to :data:`~.snap.FIGURE_DIGITS` significant digits (of the
+    figure's width and height): a layout computed before the plotted data were rounded may carry
+    last-bit noise, and matplotlib names clip paths after a hash of the exact axes box.
+    """
     settle(fig)
+    for ax in fig.axes:
+        box = ax.get_position(original=True)
+        ax.set_position([float(v) for v in round_sig([box.x0, box.y0, box.width, box.height])],
+                        which="both")
+        ax.apply_aspect()
 
 
 def fit_alt(*candidates: str) -> str:

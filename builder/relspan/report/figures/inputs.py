@@ -19,7 +19,7 @@ from relspan.report.figures.maps import ElementaryMapData, elementary_map, windo
 from relspan.report.figures.overview import data_overview
 from relspan.report.figures.windows import coefficient_swing, subspace_stability
 
-__all__ = ["overview_figure", "map_data", "map_figure", "gallery_figure", "stability_figure",
+__all__ = ["overview_figure", "map_data", "set_map_data", "map_figure", "gallery_figure", "stability_figure",
            "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure"]
 
 
@@ -84,13 +84,46 @@ def map_figure(result, analysis, flat, q: int, name: str):
                           name=name)
 
 
+#: the assumption whose relation set the shared-frame figure draws: the one the plan's
+#: stability statements (principal angles) are made under on the dataset page
+GALLERY_ASSUMPTION = "equal"
+
+
+def set_map_data(result, analysis, flat, q: int, assumption: str = GALLERY_ASSUMPTION):
+    """ElementaryMapData whose drawn set is the window's relation set under ``assumption``
+    (its stored corank-``q`` basis, normalised on the reference variable) and whose points are
+    the window's elementary regressions; None when either cannot be drawn."""
+    from relspan.report.figures import geometry
+
+    if flat is None or analysis.elementary.singular or q < 1 or len(result.names) < 3:
+        return None
+    basis = analysis.bases.get(assumption, {}).get(q)
+    if basis is None or not np.all(np.isfinite(flat.points)):
+        return None
+    drawn = geometry.normalised_set(np.atleast_2d(basis) / analysis.common_std[None, :], analysis.ref)
+    if drawn is None:
+        return None
+    point, dirs = drawn
+    dist = np.linalg.norm(geometry.residuals(flat.points, point, dirs), axis=1)
+    return ElementaryMapData(points=flat.points, names=tuple(result.names), ref=result.names[analysis.ref],
+                             flat_point=point, flat_dirs=dirs, distances=dist)
+
+
 def gallery_figure(result, plan, q: int):
-    maps = [map_data(result, a, flats.get(q), q) for a, flats in zip(plan.analyses, plan.flats)]
+    """Every window of ``plan`` in one frame: the relation set under equal noise and the elementary
+    regressions (overlay, then small multiples on the same axes)."""
+    maps = [set_map_data(result, a, flats.get(q), q) for a, flats in zip(plan.analyses, plan.flats)]
     if not maps or any(m is None for m in maps) or len(maps) < 2:
         return None
-    maps, labels = maps[:24], list(plan.labels)[:24]
-    return window_gallery(maps, labels, reference=map_data(result, result.full, result.flat.get(q), q),
-                          name=f"{result.spec.id}-{plan.plan.id}-gallery")
+    reference = set_map_data(result, result.full, result.flat.get(q), q)
+    stab = plan.stability.get((GALLERY_ASSUMPTION, q))
+    angles = None
+    if stab is not None and stab.to_reference_deg is not None:
+        angles = (f"the largest principal angle between a window's relation subspace and the full "
+                  f"sample's ({assumption(GALLERY_ASSUMPTION).name}, common scale)", stab.to_reference_deg)
+    return window_gallery(maps, list(plan.labels), reference=reference,
+                          set_name=f"relation set ({assumption(GALLERY_ASSUMPTION).name})",
+                          subspace_angles=angles, name=f"{result.spec.id}-{plan.plan.id}-gallery")
 
 
 def stability_figure(result, plan, assumption: str, q: int):
