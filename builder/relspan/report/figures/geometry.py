@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["fix_sign", "norm", "independent_rows", "main_direction", "residuals", "top_direction", "Frame",
-           "frame_for", "line_angle_deg", "normalised_set"]
+           "frame_for", "line_angle_deg", "normalised_set", "distances"]
 
 
 def norm(v: np.ndarray) -> float:
@@ -52,6 +52,11 @@ def residuals(points: np.ndarray, flat_point: np.ndarray, flat_dirs: np.ndarray)
         return p
     qf, _ = np.linalg.qr(flat_dirs.T)
     return p - (p @ qf) @ qf.T
+
+
+def distances(points: np.ndarray, flat_point: np.ndarray, flat_dirs: np.ndarray) -> np.ndarray:
+    """Euclidean distance of each point from the flat (display geometry of a drawn set)."""
+    return np.linalg.norm(residuals(points, flat_point, flat_dirs), axis=1)
 
 
 def fix_sign(v: np.ndarray) -> np.ndarray:

@@ -19,7 +19,8 @@ from relspan.report.figures.maps import ElementaryMapData, elementary_map, windo
 from relspan.report.figures.overview import data_overview
 from relspan.report.figures.windows import coefficient_swing, subspace_stability
 
-__all__ = ["overview_figure", "map_data", "set_map_data", "map_figure", "gallery_figure", "stability_figure",
+__all__ = ["overview_figure", "map_data", "set_map_data", "map_figure", "gallery_figure", "WINDOW_MAP_CAP",
+           "has_window_maps", "stability_figure",
            "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure"]
 
 
@@ -84,6 +85,36 @@ def map_figure(result, analysis, flat, q: int, name: str):
                           name=name)
 
 
+def _map_content_key(result, analysis, flat, q: int, name: str) -> str | None:
+    """What a map shows, as a digest (its file name left out): two jobs with the same key draw the
+    same figure, so the driver draws it once (the full sample's map on the dataset page and the
+    one-window "full" plan's window page)."""
+    import hashlib
+
+    data = map_data(result, analysis, flat, q)
+    if data is None:
+        return None
+    h = hashlib.sha256(repr((data.names, data.ref, q)).encode())
+    for a in (data.points, data.flat_point, data.flat_dirs, data.distances, data.simplex):
+        h.update(b"-" if a is None else np.ascontiguousarray(a, dtype=float).tobytes())
+    return h.hexdigest()
+
+
+map_figure.content_key = _map_content_key
+
+#: a plan of more windows than this gets no map per window (each would be a full figure on its
+#: window page, ~0.2 s each); its windows are all drawn in the plan's shared-frame figure
+WINDOW_MAP_CAP = 8
+
+
+def has_window_maps(result, plan, q) -> bool:
+    """Whether the window pages of ``plan`` carry a map of their own: at most :data:`WINDOW_MAP_CAP`
+    windows, or a plan whose shared-frame figure cannot be drawn (then each window keeps its map)."""
+    if q is None or len(plan.analyses) <= WINDOW_MAP_CAP:
+        return True
+    return any(set_map_data(result, a, flats.get(q), q) is None for a, flats in zip(plan.analyses, plan.flats))
+
+
 #: the assumption whose relation set the shared-frame figure draws: the one the plan's
 #: stability statements (principal angles) are made under on the dataset page
 GALLERY_ASSUMPTION = "equal"
@@ -104,7 +135,7 @@ def set_map_data(result, analysis, flat, q: int, assumption: str = GALLERY_ASSUM
     if drawn is None:
         return None
     point, dirs = drawn
-    dist = np.linalg.norm(geometry.residuals(flat.points, point, dirs), axis=1)
+    dist = geometry.distances(flat.points, point, dirs)
     return ElementaryMapData(points=flat.points, names=tuple(result.names), ref=result.names[analysis.ref],
                              flat_point=point, flat_dirs=dirs, distances=dist)
 
