@@ -74,3 +74,14 @@ def test_map_with_equal_scales_keeps_its_clip_path_ids_under_last_bit_noise():
     rng = np.random.default_rng(13)
     for _ in range(3):
         assert _map_svg(m) == _map_svg(_jitter(m, rng, 1e-11))
+
+
+def test_overview_has_one_panel_per_series_titled_with_label_and_unit():
+    from relspan.report import data_overview
+
+    times, series, windows = fi.overview_inputs()
+    res = data_overview(times, series, windows, units={"Cargo handled": "kt", "Truck trips": "thousand"})
+    titles = [a.get_title(loc="left") for a in res.figure.axes]
+    assert titles[:2] == ["Cargo handled (kt)", "Truck trips (thousand)"]
+    assert len(res.figure.axes) == 2 + 1  # two series panels, then the window strip
+    assert "one panel each" in res.alt and "each in its own units" in res.description

@@ -39,7 +39,7 @@ def _window_time_span(prepared, window):
 
 
 def overview_figure(result):
-    """Data overview: the analysed series (standardised) with the windows of each plan."""
+    """Data overview: one panel per analysed series (spec labels and units) with the windows of each plan."""
     prepared = result.prepared
     pos = prepared.overview.positions
     if "first_time" in pos.columns:
@@ -54,7 +54,11 @@ def overview_figure(result):
             continue
         title = plan.plan.title or plan.plan.id
         windows[title] = [(*_window_time_span(prepared, w), w.label) for w in plan.windows]
-    return data_overview(times, series, windows, name=f"{result.spec.id}-overview")
+    units = {}
+    for v in result.spec.variables:
+        if v.label in series and v.unit:
+            units[v.label] = v.unit if v.transform == "none" else f"{v.unit}, {v.transform}"
+    return data_overview(times, series, windows, units=units, name=f"{result.spec.id}-overview")
 
 
 def map_data(result, analysis, flat, q: int):
