@@ -664,8 +664,9 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
         # shared axes, each axis fitted to the data (the panels are too small for equal scales)
         ov.set_xlim(x0, x1)
         ov.set_ylim(y0, y1)
-        for axis in (ov.xaxis, ov.yaxis):
-            axis.set_major_locator(MaxNLocator(nbins=4, steps=[1, 2, 2.5, 5, 10]))
+        ov.xaxis.set_major_locator(MaxNLocator(nbins=4, steps=[1, 2, 2.5, 5, 10]))
+        # no tick label at the top edge, where it would meet the panel title or legend above
+        ov.yaxis.set_major_locator(MaxNLocator(nbins=4, steps=[1, 2, 2.5, 5, 10], prune="upper"))
         equal = False
         settle(fig)
 

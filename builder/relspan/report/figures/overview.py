@@ -145,7 +145,7 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
             unit = units.get(lab, "")
             ax.set_title(f"{lab} ({unit})" if unit else lab, fontsize=9.5, fontweight="bold", loc="left",
                          pad=2, color=st.color)
-            ax.yaxis.set_major_locator(MaxNLocator(nbins=3))
+            ax.yaxis.set_major_locator(MaxNLocator(nbins=4, prune="upper"))  # no tick label at the top edge
             ax.tick_params(axis="y", labelsize=8.5)
             ax.margins(x=0.01, y=0.12)
         if is_dt:
