@@ -182,7 +182,10 @@ def _draw_flat(ax, m: ElementaryMapData, frame: geometry.Frame, *, color: str, b
                    p0 + big * dvec + rms * normal, p0 - big * dvec + rms * normal]
         ax.add_patch(Polygon(corners, closed=True, facecolor=FAINT, edgecolor="none", alpha=0.9,
                              zorder=1))
-    ax.axline(tuple(p0), tuple(p0 + dvec), color=color, linestyle=linestyle, linewidth=linewidth,
+    # the second point one data extent away, so the line's direction survives the rounding of
+    # plotted numbers (snap.py) to a few millionths of a degree
+    reach = max(float(np.max(np.abs(frame.coords(m.points) - p0))), 1e-12)
+    ax.axline(tuple(p0), tuple(p0 + reach * dvec), color=color, linestyle=linestyle, linewidth=linewidth,
               zorder=zorder)
     return p0, dvec
 

@@ -7,8 +7,8 @@ a label's ``rotate(-0)`` against no rotation, and the clip-path ids that
 matplotlib derives from hashed coordinates. :func:`snap_figure` rounds every
 number a figure draws in data coordinates (line and patch vertices, offsets,
 text anchors and angles, axis limits, image values) to :data:`FIGURE_DIGITS`
-significant digits, and sets to exactly 0 what lies within
-``10 ** -FIGURE_DIGITS`` of an axis span from 0. Six significant digits are
+significant digits: of the axis span on a linear axis (so a date axis keeps
+its resolution), of each value on a log axis. Six significant digits are
 below anything a reader can see (a 760 px figure resolves about three) and
 far above the noise of closed-form results (about 1e-12 relative).
 
@@ -28,7 +28,7 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, Ellipse, Patch, PathPatch, Polygon, Rectangle
 from matplotlib.text import Annotation, Text
 
-__all__ = ["FIGURE_DIGITS", "round_sig", "snap_figure"]
+__all__ = ["FIGURE_DIGITS", "round_sig", "round_grid", "snap_figure"]
 
 #: significant digits of every number a figure draws (data coordinates, angles, limits)
 FIGURE_DIGITS = 6
@@ -58,42 +58,63 @@ def _span(lo: float, hi: float) -> float:
     return s if math.isfinite(s) and s > 0 else 1.0
 
 
+def round_grid(values, quantum: float) -> np.ndarray:
+    """``values`` rounded to whole multiples of ``quantum`` (non-finite kept; never -0)."""
+    x = np.array(values, dtype=float, copy=True)
+    fin = np.isfinite(x)
+    x[fin] = np.round(x[fin] / quantum) * quantum
+    return x + 0.0
+
+
+def _axis_rounder(scale: str, lo: float, hi: float, digits: int):
+    """How one axis' data are rounded: on a linear axis to ``digits`` significant digits of its span
+    (a grid of 10**(floor(log10(span)) - digits + 1), so dates and offsets keep their resolution);
+    on any other scale each value to ``digits`` significant digits."""
+    if scale != "linear":
+        return lambda a: round_sig(a, digits)
+    span = _span(lo, hi)
+    quantum = 10.0 ** (math.floor(math.log10(span)) - digits + 1)
+    mid = 0.5 * (float(lo) + float(hi)) if math.isfinite(float(lo) + float(hi)) else 0.0
+
+    def rounder(a):
+        a = np.asarray(a, dtype=float)
+        out = round_grid(a, quantum)
+        # far outside the view (the clipped ends of bands and lines drawn "to infinity") only the
+        # direction matters: fewer digits there, so their last-bit noise never reaches the bytes
+        far = np.isfinite(a) & (np.abs(a - mid) > 1.5 * span)
+        if far.any():
+            out[far] = round_sig(a[far], digits - 2)
+        return out
+
+    return rounder
+
+
 def snap_figure(fig: Figure, digits: int = FIGURE_DIGITS) -> None:
     """Round every number ``fig`` draws in data coordinates to ``digits`` significant digits.
 
-    Axis limits are rounded first (they fix the transforms and the ticks), then
-    the data of lines, patches, collections, images and texts. Values within
-    ``10 ** -digits`` of an axis span from 0 become 0. Text rotations are
-    rounded to 1e-6 degrees (so -0 and 0 agree). Call it when the figure is
-    complete, before its layout is frozen.
+    On a linear axis the digits are those of the axis span (values on a grid of
+    ``10 ** (floor(log10(span)) - digits + 1)``), on a log axis those of each
+    value. Axis limits are rounded first (they fix the transforms and the
+    ticks), then the data of lines, patches, collections, images and texts.
+    Text rotations are rounded to 1e-6 degrees (so -0 and 0 agree). Call it
+    when the figure is complete, before its layout is frozen.
     """
-    eps = 10.0 ** -digits
     for ax in fig.axes:
-        xs, ys = ax.get_xscale(), ax.get_yscale()
         x0, x1 = ax.get_xlim()
         y0, y1 = ax.get_ylim()
-        if xs == "linear":
-            zx = eps * _span(x0, x1)
-            ax.set_xlim(*(_round_scalar(v, digits, zx) for v in (x0, x1)))
-        else:
-            zx = 0.0
-            ax.set_xlim(*(_round_scalar(v, digits, 0.0) for v in (x0, x1)))
-        if ys == "linear":
-            zy = eps * _span(y0, y1)
-            ax.set_ylim(*(_round_scalar(v, digits, zy) for v in (y0, y1)))
-        else:
-            zy = 0.0
-            ax.set_ylim(*(_round_scalar(v, digits, 0.0) for v in (y0, y1)))
-        zxy = np.array([zx, zy])
+        fx = _axis_rounder(ax.get_xscale(), x0, x1, digits)
+        fy = _axis_rounder(ax.get_yscale(), y0, y1, digits)
+        ax.set_xlim(*(float(v) for v in fx([x0, x1])))
+        ax.set_ylim(*(float(v) for v in fy([y0, y1])))
         data = ax.transData
 
-        def rxy(a):
+        def rxy(a, fx=fx, fy=fy):
             a = np.asarray(a, dtype=float)
             if a.ndim == 1:
-                return np.array([_round_scalar(a[0], digits, zx), _round_scalar(a[1], digits, zy)])
+                return np.array([fx([a[0]])[0], fy([a[1]])[0]])
             out = a.copy()
-            out[:, 0] = round_sig(a[:, 0], digits, zero_below=zxy[0])
-            out[:, 1] = round_sig(a[:, 1], digits, zero_below=zxy[1])
+            out[:, 0] = fx(a[:, 0])
+            out[:, 1] = fy(a[:, 1])
             return out
 
         def in_data(artist) -> bool:
@@ -122,7 +143,7 @@ def snap_figure(fig: Figure, digits: int = FIGURE_DIGITS) -> None:
                 except (TypeError, ValueError):
                     continue
                 if line.get_transform().contains_branch(data):
-                    line.set_data(round_sig(x, digits, zero_below=zx), round_sig(y, digits, zero_below=zy))
+                    line.set_data(fx(x), fy(y))
                 else:  # blended (e.g. axhline): round the data side as data, the other as a fraction
                     line.set_data(round_sig(x, digits), round_sig(y, digits))
         for patch in ax.patches:
