@@ -85,3 +85,12 @@ def test_overview_has_one_panel_per_series_titled_with_label_and_unit():
     assert titles[:2] == ["Cargo handled (kt)", "Truck trips (thousand)"]
     assert len(res.figure.axes) == 2 + 1  # two series panels, then the window strip
     assert "one panel each" in res.alt and "each in its own units" in res.description
+
+
+def test_dollar_signs_in_labels_and_units_are_drawn_literally_in_the_overview_panels():
+    from relspan.report import data_overview
+
+    times, series, windows = fi.overview_inputs()
+    series = {"Cost $5 & $x": series["Cargo handled"], "Truck trips": series["Truck trips"]}
+    res = data_overview(times, series, windows, units={"Cost $5 & $x": "$ per t"})
+    assert render_figure(res).startswith(b"<?xml")

@@ -99,6 +99,7 @@ def settle(fig: Figure) -> None:
     Figure functions call it wherever they need display coordinates, instead of
     a full draw; the save is then the figure's only full draw.
     """
+    literal_dollars(fig)  # user text is measured by the layout pass: its '$' must not start mathtext
     with style_context():
         engine = fig.get_layout_engine()
         if engine is not None:
