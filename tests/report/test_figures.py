@@ -267,21 +267,28 @@ class TestWindowGallery:
     def test_panels_share_axes_and_rms_range_is_stated(self, figs):
         res = figs["gallery"]
         axes = [a for a in res.figure.axes if a.get_visible()]
-        assert len(axes) == 6
+        assert len(axes) == 1 + 6  # the overlay of all windows, then one panel per window
         assert len({a.get_xlim() for a in axes}) == 1 and len({a.get_ylim() for a in axes}) == 1
         rms = [fi.map_data(fi.two_relation_data(3, 3, rows=600)[60 * k: 60 * k + 240], fi.NAMES3).rms
                for k in range(6)]
-        assert f"{num(min(rms))} to {num(max(rms))}" in res.alt
+        assert f"ranges from {num(min(rms))} (" in res.description and f"to {num(max(rms))} (" in res.description
 
     def test_table_has_every_window_and_the_reference(self, figs):
         tab = figs["gallery"].table
         assert list(dict.fromkeys(tab.window)) == ["full sample"] + fi.LABELS6
         assert (tab.kind == "elementary regression").sum() == 7 * 3
 
-    def test_more_than_30_windows_is_refused(self):
-        m = fi.map_data(fi.two_relation_data(1, 3), fi.NAMES3)
-        with pytest.raises(OptionsError, match="more than 30 windows"):
-            window_gallery([m] * 31, [str(i) for i in range(31)])
+    def test_more_windows_than_panels_get_evenly_spaced_panels_and_all_are_in_the_overlay(self):
+        ms = [fi.map_data(fi.two_relation_data(3, 3, rows=600)[10 * k: 10 * k + 240], fi.NAMES3)
+              for k in range(31)]
+        res = window_gallery(ms, [f"w{i}" for i in range(31)], max_panels=8)
+        panels = [a for a in res.figure.axes[1:] if a.get_visible()]
+        assert [a.get_title(loc="left") for a in panels][:1] == ["w0"] and panels[-1].get_title(loc="left") == "w30"
+        assert len(panels) == 8
+        assert "8 panels for 8 evenly spaced windows of 31" in res.description
+        overlay = res.figure.axes[0]
+        assert sum(1 for ln in overlay.lines if hasattr(ln, "get_xy1")) == 31
+        assert list(dict.fromkeys(res.table.window)) == [f"w{i}" for i in range(31)]
 
     def test_mixed_reference_variables_are_refused(self):
         a = fi.map_data(fi.two_relation_data(1, 3), fi.NAMES3)

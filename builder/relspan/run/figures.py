@@ -54,14 +54,44 @@ def draw_figures(jobs: Sequence, fmt: str, *, executor=None, cache=None, progres
             if hit is not missing:
                 done[i] = hit
     todo = [i for i in range(len(jobs)) if i not in done]
-    if todo:
+    # figures that show the same content (a figure function's ``content_key``) are drawn once
+    first: dict = {}
+    same_as: dict[int, int] = {}
+    for i in todo:
+        ck = _content_key(jobs[i])
+        if ck is not None and ck in first:
+            same_as[i] = first[ck]
+        elif ck is not None:
+            first[ck] = i
+    draw = [i for i in todo if i not in same_as]
+    if draw:
         ex = executor.get() if hasattr(executor, "get") else executor
         if progress is not None and hasattr(progress, "total"):
-            progress.total = len(todo)
+            progress.total = len(draw)
         drawn = map_in_chunks(ex or SerialExecutor(), render_job,
-                              [(jobs[i].fn, jobs[i].args, fmt) for i in todo], progress=progress)
-        for i, rendered in zip(todo, drawn):
+                              [(jobs[i].fn, jobs[i].args, fmt) for i in draw], progress=progress)
+        for i, rendered in zip(draw, drawn):
             done[i] = rendered
-            if keys[i] is not None:
-                cache.put(keys[i], rendered)
+    for i, j in same_as.items():
+        done[i] = _renamed(done[j], jobs[i])
+    for i in todo:
+        if keys[i] is not None:
+            cache.put(keys[i], done[i])
     return [done[i] for i in range(len(jobs))]
+
+
+def _content_key(job) -> str | None:
+    """The figure function's digest of what the job shows (its name left out), or None."""
+    fn = getattr(job.fn, "content_key", None)
+    if fn is None:
+        return None
+    key = fn(*job.args)
+    return None if key is None else f"{job.fn.__module__}.{job.fn.__qualname__}:{key}"
+
+
+def _renamed(rendered, job):
+    """A drawn figure under the file stem ``job`` asks for (the stem is the last argument)."""
+    if rendered is None:
+        return None
+    name = job.args[-1] if job.args and isinstance(job.args[-1], str) else rendered[0]
+    return (name,) + tuple(rendered[1:])

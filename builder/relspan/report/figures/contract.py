@@ -14,9 +14,10 @@ import pandas as pd
 from matplotlib.figure import Figure
 
 from relspan.errors import OptionsError
+from relspan.report.figures.snap import round_sig, snap_figure
 from relspan.report.figures.style import style_context
 
-__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "freeze_layout"]
+__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout"]
 
 #: longest alt text we accept (characters)
 ALT_MAX = 150
@@ -53,6 +54,7 @@ class FigureResult:
                 f"FigureResult: name must be a file stem of letters, digits, '-' and '_'; got {self.name!r}.",
                 key="name", fix="Pass a name such as 'subspace-stability'.")
         literal_dollars(self.figure)
+        snap_figure(self.figure)
         freeze_layout(self.figure)
         if len(self.alt) > ALT_MAX:
             raise OptionsError(
@@ -87,21 +89,40 @@ def _escape_dollars(value: str) -> str:
     return re.sub(r"(?<!\\)\$", lambda m: "\\$", value)
 
 
-def freeze_layout(fig: Figure) -> None:
-    """Run the constrained layout (twice), then switch it off.
+def settle(fig: Figure) -> None:
+    """Fix the figure's layout with ONE pass of its layout engine, then keep it fixed.
 
-    With fixed-aspect axes (heatmaps, maps on equal scales) the layout moves
-    axes by fractions of a point on each draw until it settles; freezing it
-    makes every later rendering see exactly the same positions.
+    The first call runs the constrained layout once (a layout pass: text and
+    tick extents, no drawing of the data), switches the engine off and applies
+    each axes' aspect, so axes boxes, transforms and text extents are final for
+    label placement. Later calls only re-apply the aspects (after new limits).
+    Figure functions call it wherever they need display coordinates, instead of
+    a full draw; the save is then the figure's only full draw.
     """
-    if fig.get_layout_engine() is None:
-        return
+    literal_dollars(fig)  # user text is measured by the layout pass: its '$' must not start mathtext
     with style_context():
-        # two passes bring the layout within a small fraction of a point of its fixed
-        # point; the count is fixed so the result never depends on timing or state
-        for _ in range(2):
-            fig.draw_without_rendering()
-        fig.set_layout_engine("none")
+        engine = fig.get_layout_engine()
+        if engine is not None:
+            engine.execute(fig)
+            fig.set_layout_engine("none")
+        for ax in fig.axes:
+            ax.apply_aspect()
+
+
+def freeze_layout(fig: Figure) -> None:
+    """The layout made final (:func:`settle`); with a fixed count of passes (one) the positions never
+    depend on timing or state, so every later rendering sees exactly the same positions.
+
+    The axes positions are then rounded to :data:`~.snap.FIGURE_DIGITS` significant digits (of the
+    figure's width and height): a layout computed before the plotted data were rounded may carry
+    last-bit noise, and matplotlib names clip paths after a hash of the exact axes box.
+    """
+    settle(fig)
+    for ax in fig.axes:
+        box = ax.get_position(original=True)
+        ax.set_position([float(v) for v in round_sig([box.x0, box.y0, box.width, box.height])],
+                        which="both")
+        ax.apply_aspect()
 
 
 def fit_alt(*candidates: str) -> str:

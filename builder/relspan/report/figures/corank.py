@@ -26,7 +26,7 @@ import pandas as pd
 from matplotlib.patches import Rectangle
 
 from relspan.report.figures.checks import as_float_array, as_labels, check_mapping, fail
-from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.contract import FigureResult, fit_alt, settle
 from relspan.report.figures.labels import spread_1d
 from relspan.report.figures.style import (INK, MUTED, PALETTE, SEQUENTIAL, new_figure, style_context,
                                           text_color_on)
@@ -145,7 +145,7 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
         ax.grid(axis="x", visible=False)
         ax.set_xlabel("eigenvalue, smallest first (corank q needs the q-th at or below eps)")
         ax.set_ylabel(scale_label + " (log scale)")
-        fig.draw_without_rendering()
+        settle(fig)
         # threshold labels at the right edge, spread so they do not overlap
         logs = [math.log10(v) for _, v in epss]
         lo, hi = math.log10(bottom), math.log10(top)

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["fix_sign", "norm", "independent_rows", "main_direction", "residuals", "top_direction", "Frame",
-           "frame_for", "line_angle_deg"]
+           "frame_for", "line_angle_deg", "normalised_set", "distances"]
 
 
 def norm(v: np.ndarray) -> float:
@@ -52,6 +52,11 @@ def residuals(points: np.ndarray, flat_point: np.ndarray, flat_dirs: np.ndarray)
         return p
     qf, _ = np.linalg.qr(flat_dirs.T)
     return p - (p @ qf) @ qf.T
+
+
+def distances(points: np.ndarray, flat_point: np.ndarray, flat_dirs: np.ndarray) -> np.ndarray:
+    """Euclidean distance of each point from the flat (display geometry of a drawn set)."""
+    return np.linalg.norm(residuals(points, flat_point, flat_dirs), axis=1)
 
 
 def fix_sign(v: np.ndarray) -> np.ndarray:
@@ -127,3 +132,26 @@ def line_angle_deg(u: np.ndarray, v: np.ndarray) -> float:
     c = abs(float(u @ v))
     s = float(np.linalg.norm(v - (u @ v) * u))
     return math.degrees(math.atan2(s, c))
+
+
+def normalised_set(basis: np.ndarray, ref: int) -> tuple[np.ndarray, np.ndarray] | None:
+    """The relations spanned by ``basis`` normalised on variable ``ref`` (``a[ref] = 1``), as the
+    flat of their other coefficients: ``(point, directions)`` with ``q - 1`` orthonormal
+    directions (none for q = 1), in the coordinates of the elementary-regression map.
+
+    ``basis`` is (q, n) in the data's units. Returns None when no relation of the span gives
+    ``ref`` a coefficient clearly away from 0 (the set then lies at infinity on the map).
+    """
+    b = np.atleast_2d(np.asarray(basis, dtype=float))
+    q, n = b.shape
+    br = b[:, ref]
+    if not np.all(np.isfinite(b)) or float(br @ br) <= 1e-24 * float(np.sum(b * b)):
+        return None
+    point = (br / float(br @ br)) @ b  # the member of the span with a[ref] = 1 nearest the origin
+    keep = [k for k in range(n) if k != ref]
+    if q == 1:
+        return point[keep], np.zeros((0, n - 1))
+    _, _, vt = np.linalg.svd(br[None, :])
+    dirs = (vt[1:] @ b)[:, keep]  # members of the span with a[ref] = 0
+    qd, _ = np.linalg.qr(dirs.T)
+    return point[keep], np.array([fix_sign(v) for v in qd.T[: q - 1]])

@@ -19,7 +19,8 @@ from relspan.report.figures.maps import ElementaryMapData, elementary_map, windo
 from relspan.report.figures.overview import data_overview
 from relspan.report.figures.windows import coefficient_swing, subspace_stability
 
-__all__ = ["overview_figure", "map_data", "map_figure", "gallery_figure", "stability_figure",
+__all__ = ["overview_figure", "map_data", "set_map_data", "map_figure", "gallery_figure", "WINDOW_MAP_CAP",
+           "has_window_maps", "stability_figure",
            "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure"]
 
 
@@ -38,7 +39,7 @@ def _window_time_span(prepared, window):
 
 
 def overview_figure(result):
-    """Data overview: the analysed series (standardised) with the windows of each plan."""
+    """Data overview: one panel per analysed series (spec labels and units) with the windows of each plan."""
     prepared = result.prepared
     pos = prepared.overview.positions
     if "first_time" in pos.columns:
@@ -53,7 +54,11 @@ def overview_figure(result):
             continue
         title = plan.plan.title or plan.plan.id
         windows[title] = [(*_window_time_span(prepared, w), w.label) for w in plan.windows]
-    return data_overview(times, series, windows, name=f"{result.spec.id}-overview")
+    units = {}
+    for v in result.spec.variables:
+        if v.label in series and v.unit:
+            units[v.label] = v.unit if v.transform == "none" else f"{v.unit}, {v.transform}"
+    return data_overview(times, series, windows, units=units, name=f"{result.spec.id}-overview")
 
 
 def map_data(result, analysis, flat, q: int):
@@ -84,13 +89,76 @@ def map_figure(result, analysis, flat, q: int, name: str):
                           name=name)
 
 
+def _map_content_key(result, analysis, flat, q: int, name: str) -> str | None:
+    """What a map shows, as a digest (its file name left out): two jobs with the same key draw the
+    same figure, so the driver draws it once (the full sample's map on the dataset page and the
+    one-window "full" plan's window page)."""
+    import hashlib
+
+    data = map_data(result, analysis, flat, q)
+    if data is None:
+        return None
+    h = hashlib.sha256(repr((data.names, data.ref, q)).encode())
+    for a in (data.points, data.flat_point, data.flat_dirs, data.distances, data.simplex):
+        h.update(b"-" if a is None else np.ascontiguousarray(a, dtype=float).tobytes())
+    return h.hexdigest()
+
+
+map_figure.content_key = _map_content_key
+
+#: a plan of more windows than this gets no map per window (each would be a full figure on its
+#: window page, ~0.2 s each); its windows are all drawn in the plan's shared-frame figure
+WINDOW_MAP_CAP = 8
+
+
+def has_window_maps(result, plan, q) -> bool:
+    """Whether the window pages of ``plan`` carry a map of their own: at most :data:`WINDOW_MAP_CAP`
+    windows, or a plan whose shared-frame figure cannot be drawn (then each window keeps its map)."""
+    if q is None or len(plan.analyses) <= WINDOW_MAP_CAP:
+        return True
+    return any(set_map_data(result, a, flats.get(q), q) is None for a, flats in zip(plan.analyses, plan.flats))
+
+
+#: the assumption whose relation set the shared-frame figure draws: the one the plan's
+#: stability statements (principal angles) are made under on the dataset page
+GALLERY_ASSUMPTION = "equal"
+
+
+def set_map_data(result, analysis, flat, q: int, assumption: str = GALLERY_ASSUMPTION):
+    """ElementaryMapData whose drawn set is the window's relation set under ``assumption``
+    (its stored corank-``q`` basis, normalised on the reference variable) and whose points are
+    the window's elementary regressions; None when either cannot be drawn."""
+    from relspan.report.figures import geometry
+
+    if flat is None or analysis.elementary.singular or q < 1 or len(result.names) < 3:
+        return None
+    basis = analysis.bases.get(assumption, {}).get(q)
+    if basis is None or not np.all(np.isfinite(flat.points)):
+        return None
+    drawn = geometry.normalised_set(np.atleast_2d(basis) / analysis.common_std[None, :], analysis.ref)
+    if drawn is None:
+        return None
+    point, dirs = drawn
+    dist = geometry.distances(flat.points, point, dirs)
+    return ElementaryMapData(points=flat.points, names=tuple(result.names), ref=result.names[analysis.ref],
+                             flat_point=point, flat_dirs=dirs, distances=dist)
+
+
 def gallery_figure(result, plan, q: int):
-    maps = [map_data(result, a, flats.get(q), q) for a, flats in zip(plan.analyses, plan.flats)]
+    """Every window of ``plan`` in one frame: the relation set under equal noise and the elementary
+    regressions (overlay, then small multiples on the same axes)."""
+    maps = [set_map_data(result, a, flats.get(q), q) for a, flats in zip(plan.analyses, plan.flats)]
     if not maps or any(m is None for m in maps) or len(maps) < 2:
         return None
-    maps, labels = maps[:24], list(plan.labels)[:24]
-    return window_gallery(maps, labels, reference=map_data(result, result.full, result.flat.get(q), q),
-                          name=f"{result.spec.id}-{plan.plan.id}-gallery")
+    reference = set_map_data(result, result.full, result.flat.get(q), q)
+    stab = plan.stability.get((GALLERY_ASSUMPTION, q))
+    angles = None
+    if stab is not None and stab.to_reference_deg is not None:
+        angles = (f"the largest principal angle between a window's relation subspace and the full "
+                  f"sample's ({assumption(GALLERY_ASSUMPTION).name}, common scale)", stab.to_reference_deg)
+    return window_gallery(maps, list(plan.labels), reference=reference,
+                          set_name=f"relation set ({assumption(GALLERY_ASSUMPTION).name})",
+                          subspace_angles=angles, name=f"{result.spec.id}-{plan.plan.id}-gallery")
 
 
 def _drawable_stability(plan, q: int):

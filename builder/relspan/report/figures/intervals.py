@@ -8,7 +8,7 @@ import numpy as np
 import pandas as pd
 
 from relspan.report.figures.checks import as_float_array, as_labels, fail
-from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.contract import FigureResult, fit_alt, settle
 from relspan.report.figures.style import INK, MUTED, PALETTE, new_figure, style_context
 from relspan.words import join_words, num, num_fig, num_range, plural
 
@@ -128,7 +128,7 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
                           ha="left", fontsize=9, color=INK, fontstyle="italic")
         # 2) widen the axis so no end label leaves it
         for _ in range(2):
-            fig.draw_without_rendering()
+            settle(fig)
             renderer = fig.canvas.get_renderer()
             box = ax.get_window_extent(renderer)
             need_l = need_r = 0.0

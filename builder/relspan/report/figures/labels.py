@@ -49,7 +49,7 @@ def place_point_labels(fig: Figure, ax, xy: np.ndarray, texts: Sequence[str], *,
     (``(x0, y0, x1, y1)``, e.g. other labels) and with the axes edge; offsets
     of 5 and then 14 points are tried.
 
-    The figure layout must be final (call ``fig.draw_without_rendering()``
+    The figure layout must be final (call ``contract.settle(fig)``
     first); labels are excluded from the layout so they do not move it.
     Returns the text artists.
     """

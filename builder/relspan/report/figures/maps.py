@@ -25,15 +25,17 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 from matplotlib.patches import Circle, Polygon
+from matplotlib.ticker import MaxNLocator
 
 from relspan.report.figures import geometry
 from relspan.report.figures.checks import as_float_array, as_labels, fail
-from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.contract import FigureResult, fit_alt, settle
 from relspan.report.figures.labels import place_point_labels
-from relspan.report.figures.style import FAINT, INK, MUTED, PALETTE, new_figure, series_style, style_context
-from relspan.words import num, num_fig, num_range, plural
+from relspan.report.figures.style import (FAINT, INK, MUTED, PALETTE, SEQUENTIAL, new_figure, series_style,
+                                          style_context)
+from relspan.words import angle_text, fmt, num, num_fig, num_range, plural
 
-__all__ = ["ElementaryMapData", "elementary_map", "window_gallery"]
+__all__ = ["ElementaryMapData", "elementary_map", "window_gallery", "drawn_angles_deg"]
 
 _MAX_PANELS = 30
 
@@ -180,7 +182,10 @@ def _draw_flat(ax, m: ElementaryMapData, frame: geometry.Frame, *, color: str, b
                    p0 + big * dvec + rms * normal, p0 - big * dvec + rms * normal]
         ax.add_patch(Polygon(corners, closed=True, facecolor=FAINT, edgecolor="none", alpha=0.9,
                              zorder=1))
-    ax.axline(tuple(p0), tuple(p0 + dvec), color=color, linestyle=linestyle, linewidth=linewidth,
+    # the second point one data extent away, so the line's direction survives the rounding of
+    # plotted numbers (snap.py) to a few millionths of a degree
+    reach = max(float(np.max(np.abs(frame.coords(m.points) - p0))), 1e-12)
+    ax.axline(tuple(p0), tuple(p0 + reach * dvec), color=color, linestyle=linestyle, linewidth=linewidth,
               zorder=zorder)
     return p0, dvec
 
@@ -245,7 +250,7 @@ def _set_limits(fig, ax, lims: tuple[float, float, float, float]) -> bool:
     x0, x1, y0, y1 = lims
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
-    fig.draw_without_rendering()
+    settle(fig)
     bb = ax.get_window_extent()
     rb = bb.width / max(bb.height, 1.0)
     rd = (x1 - x0) / (y1 - y0)
@@ -265,7 +270,7 @@ def _label_flat(fig, ax, p0: np.ndarray, dvec: np.ndarray, text: str, avoid=None
     """Write ``text`` along the flat line, ending near the right end of its visible
     part, where it covers the fewest points; returns display boxes covering the
     label (for the point labels to avoid), or None when the line is not visible."""
-    fig.draw_without_rendering()
+    settle(fig)
     x0, x1 = ax.get_xlim()
     y0, y1 = ax.get_ylim()
     ts = []
@@ -490,27 +495,69 @@ def elementary_map(points, *, names: Sequence[str], ref: str, flat_point, flat_d
     return FigureResult(name, fig, alt, desc.strip(), table)
 
 
+def _panel_indices(w: int, cap: int) -> list[int]:
+    """Which of ``w`` windows get a panel: all when ``w <= cap``, else ``cap`` evenly spaced
+    ones, the first and the last among them."""
+    if w <= cap:
+        return list(range(w))
+    return sorted({int(round(i * (w - 1) / (cap - 1))) for i in range(cap)})
+
+
+def drawn_angles_deg(maps: Sequence[ElementaryMapData], reference: ElementaryMapData,
+                     frame: geometry.Frame) -> np.ndarray | None:
+    """Angle, on the drawing's axes, between each window's drawn line and the reference's
+    (None when the sets are points). This is the number the gallery's description states."""
+    ref = reference.main_direction()
+    if ref is None:
+        return None
+    r2 = frame.direction(ref)
+    out = []
+    for m in maps:
+        d = m.main_direction()
+        if d is None:
+            return None
+        out.append(geometry.line_angle_deg(r2, frame.direction(d)))
+    return np.array(out)
+
+
 def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
                    reference: ElementaryMapData | None = None, title: str | None = None,
-                   name: str = "window-gallery") -> FigureResult:
-    """Small multiples of the elementary-regression map, one panel per window, on shared axes.
+                   set_name: str = "fitted flat", subspace_angles: tuple[str, Sequence[float]] | None = None,
+                   max_panels: int = 24, name: str = "window-gallery") -> FigureResult:
+    """Every window in ONE coordinate frame: an overlay of all windows, then one panel per window.
 
-    All panels use the same axes and the same drawing plane (for n > 3 a
-    common projection: the horizontal axis along the direction closest to all
-    windows' flats, the vertical axis along the largest pooled spread away
-    from them), so the reader sees whether the flat stays while the points
-    move. Points keep one marker and colour per variable in every panel and are
-    labelled in the first panel; a key below names them all.
+    The top panel draws every window's fitted set (a line for two relations, a
+    point for one; shade from light to dark follows the windows' order) and
+    every window's elementary regressions (one marker per variable), so the
+    reader sees whether the set stays put (or moves at a break) while single
+    normalised points wander. Below, small multiples on the very same axes show
+    one window each with its points, its set and the band of their RMS distance
+    from it. All panels use one drawing plane (for n > 3 a common projection:
+    the horizontal axis along the direction closest to all windows' sets, the
+    vertical axis along the largest pooled spread of the points away from
+    them). The description states the largest angle between a window's drawn
+    line and the full sample's, measured on the drawing's axes
+    (:func:`drawn_angles_deg`), beside the principal angles the page reports.
 
     Parameters
     ----------
     maps : sequence of ElementaryMapData
-        One per window (at most 30), all with the same ``names`` and ``ref``.
+        One per window, all with the same ``names`` and ``ref``; ``flat_point``
+        and ``flat_dirs`` are the set drawn (``set_name``).
     labels : sequence of str
         Window labels, one per map (panel titles).
     reference : ElementaryMapData, optional
-        The full-sample map; its flat is drawn as a grey dashed line in every
-        panel, and angles in the description are measured against it.
+        The full sample; its set is drawn dashed grey in every panel and
+        angles are measured against it.
+    set_name : str
+        What the drawn set is, e.g. ``"relation set under equal noise"``.
+    subspace_angles : (str, sequence of float), optional
+        What the page states about the same sets: a description of the
+        measure and the per-window angle to the full sample in degrees
+        (principal angles between relation subspaces).
+    max_panels : int
+        At most this many small panels (evenly spaced windows, first and last
+        included); the overlay and the table always hold every window.
     title, name : str
         Optional title; file stem.
 
@@ -519,15 +566,19 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
     FigureResult
         Table: the rows of :func:`elementary_map`'s table for every window,
         with a ``window`` column (``"full sample"`` for the reference).
+
+    References
+    ----------
+    .. [1] R. Frisch, Statistical Confluence Analysis by Means of Complete
+           Regression Systems, 1934.
     """
     func = "window_gallery"
     maps = list(maps)
     if not maps:
         raise fail(func, "maps", "is empty", "Pass one ElementaryMapData per window.")
-    if len(maps) > _MAX_PANELS:
-        raise fail(func, "maps", f"has more than {_MAX_PANELS} windows, too many panels to read",
-                   "Pass a subset (e.g. every second window) and show the rest in the table.",
-                   got=len(maps))
+    if not 1 <= int(max_panels) <= _MAX_PANELS:
+        raise fail(func, "max_panels", f"must be between 1 and {_MAX_PANELS}",
+                   "Pass a smaller number; the overlay shows every window.", got=max_panels)
     for i, m in enumerate(maps):
         if not isinstance(m, ElementaryMapData):
             raise fail(func, f"maps[{i}]", "must be an ElementaryMapData", "Build one per window.",
@@ -542,22 +593,45 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
     w = len(maps)
     m0 = maps[0]
     n = len(m0.names)
-    frame = geometry.frame_for(maps + ([reference] if reference is not None else []))
-    ncols = w if w <= 3 else (3 if w <= 9 else 4)
-    nrows = math.ceil(w / ncols)
-    x0, x1, y0, y1 = _limits(maps + ([reference] if reference is not None else []), frame)
+    allm = maps + ([reference] if reference is not None else [])
+    frame = geometry.frame_for(allm)
+    shown = _panel_indices(w, int(max_panels))
+    ws = len(shown)
+    ncols = ws if ws <= 3 else (3 if ws <= 9 else 4)
+    nrows = math.ceil(ws / ncols)
+    x0, x1, y0, y1 = _limits(allm, frame)
+    shade = [SEQUENTIAL(0.35 + 0.65 * k / max(w - 1, 1)) for k in range(w)]
     with style_context():
         panel_h = 2.1 if ncols <= 3 else 1.6
-        fig = new_figure(0.9 + panel_h * nrows + (0.3 if title else 0.0))
-        axs = fig.subplots(nrows, ncols, sharex=True, sharey=True, squeeze=False)
+        over_h = 3.2
+        fig = new_figure(1.0 + over_h + panel_h * nrows + (0.3 if title else 0.0))
+        gs = fig.add_gridspec(1 + nrows, ncols, height_ratios=[over_h / panel_h] + [1.0] * nrows)
+        ov = fig.add_subplot(gs[0, :])
+        axs = [[fig.add_subplot(gs[1 + r, c], sharex=ov, sharey=ov) for c in range(ncols)] for r in range(nrows)]
         if title:
             fig.suptitle(title, x=0.01, ha="left", fontweight="bold", fontsize=11)
+        # the overlay: every window's set and points in one frame
+        ov.set_title(f"All {plural(w, 'window')} in one frame", fontsize=10, fontweight="bold", loc="left",
+                     pad=4)
+        if reference is not None:
+            _draw_flat(ov, reference, frame, color=MUTED, band=False, linestyle=(0, (4, 2)), linewidth=1.3,
+                       zorder=3)
+        for k, m in enumerate(maps):
+            _draw_flat(ov, m, frame, color=shade[k], band=False, linewidth=1.1, zorder=2)
+        cloud = np.array([frame.coords(m.points) for m in maps])  # (w, n, 2)
+        for j in range(n):
+            st = series_style(j)
+            ov.plot(cloud[:, j, 0], cloud[:, j, 1], marker=st.marker, markersize=4.5, color=st.color,
+                    markerfacecolor=st.color if j % 2 == 0 else "white", markeredgewidth=1.0,
+                    linestyle="none", alpha=0.85, zorder=6, label=f"{m0.names[j]} alone noisy")
+        ov.tick_params(labelbottom=True)
+        # the small multiples, one window each, same axes
         for k in range(nrows * ncols):
             ax = axs[k // ncols][k % ncols]
-            if k >= w:
+            if k >= ws:
                 ax.set_visible(False)
                 continue
-            m = maps[k]
+            m = maps[shown[k]]
             if m.simplex is not None:
                 _draw_simplex(ax, m, frame)
             if reference is not None:
@@ -565,32 +639,39 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
                            linewidth=1.1, zorder=2)
             _draw_flat(ax, m, frame, color=PALETTE[0])
             _draw_points(ax, m, frame, size=6 if ncols <= 3 else 5)
-            ax.set_title(wl[k], fontsize=9, fontweight="normal", loc="left", pad=3)
+            ax.set_title(wl[shown[k]], fontsize=9, fontweight="normal", loc="left", pad=3)
             ax.annotate(f"RMS {num_fig(m.rms)}", xy=(1, 0), xycoords="axes fraction", xytext=(-3, 3),
-                        textcoords="offset points", ha="right", va="bottom", fontsize=7.5, color=MUTED)
-            ax.tick_params(labelsize=8)
-        ax0 = axs[0][0]
-        for k in range(w):
-            if k + ncols >= w:  # nothing below this panel: it carries the x tick labels
-                axs[k // ncols][k % ncols].tick_params(labelbottom=True)
-        xl, yl = _axis_labels(m0, frame)
+                        textcoords="offset points", ha="right", va="bottom", fontsize=8, color=MUTED)
+            ax.tick_params(labelsize=8, labelbottom=k + ncols >= ws, labelleft=k % ncols == 0)
+        if frame.axes is None:
+            xl, yl = _axis_labels(m0, frame)
+        elif m0.q == 1:
+            xl, yl = "largest spread around the fitted points", "second-largest spread"
+        else:
+            xl, yl = "along the sets (direction closest to all)", "across the sets (largest spread of the points)"
         fig.supxlabel(xl, fontsize=9.5)
         fig.supylabel(yl, fontsize=9.5)
-        handles, hl = ax0.get_legend_handles_labels()
+        from matplotlib.lines import Line2D
+        handles, hl = ov.get_legend_handles_labels()
+        handles.append(Line2D([], [], color=shade[-1], linewidth=1.3) if m0.q > 1 else
+                       Line2D([], [], color=shade[-1], marker="+", markersize=9, markeredgewidth=2,
+                              linestyle="none"))
+        hl.append(f"{set_name}, one per window (light: early, dark: late)")
         if reference is not None:
-            from matplotlib.lines import Line2D
-            handles.append(Line2D([], [], color=MUTED, linestyle=(0, (4, 2)), linewidth=1.1))
-            hl.append("full-sample flat")
-        fig.legend(handles, hl, loc="outside upper center", ncol=min(len(hl), 3 if n > 3 else 4),
-                   fontsize=8.5, handletextpad=0.3, columnspacing=1.0)
-        equal = _set_limits(fig, ax0, (x0, x1, y0, y1))
-        if equal:
-            for row in axs:
-                for ax in row:
-                    ax.set_aspect("equal", adjustable="box")
-        fig.draw_without_rendering()
-        place_point_labels(fig, ax0, frame.coords(m0.points), list(m0.names),
-                           colors=[series_style(j).color for j in range(n)], fontsize=8)
+            handles.append(Line2D([], [], color=MUTED, linestyle=(0, (4, 2)), linewidth=1.3) if m0.q > 1 else
+                           Line2D([], [], color=MUTED, marker="+", markersize=9, markeredgewidth=2,
+                                  linestyle="none"))
+            hl.append(f"full sample's {set_name}")
+        fig.legend(handles, hl, loc="outside upper center", ncol=2 if n > 3 else 3, fontsize=8.5,
+                   handletextpad=0.3, columnspacing=1.0)
+        # shared axes, each axis fitted to the data (the panels are too small for equal scales)
+        ov.set_xlim(x0, x1)
+        ov.set_ylim(y0, y1)
+        ov.xaxis.set_major_locator(MaxNLocator(nbins=4, steps=[1, 2, 2.5, 5, 10]))
+        # no tick label at the top edge, where it would meet the panel title or legend above
+        ov.yaxis.set_major_locator(MaxNLocator(nbins=4, steps=[1, 2, 2.5, 5, 10], prune="upper"))
+        equal = False
+        settle(fig)
 
     rows = []
     if reference is not None:
@@ -602,28 +683,42 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
     rms = np.array([m.rms for m in maps])
     i_lo, i_hi = int(np.argmin(rms)), int(np.argmax(rms))
     q_set = sorted({m.q for m in maps})
-    desc = (f"{plural(w, 'panel')}, one per window, each showing the {n} elementary regressions "
-            f"normalised on {m0.ref} (coefficient on {m0.ref} fixed at 1) and the fitted flat, all on "
-            f"the same axes. ")
+    panels = (f"{plural(ws, 'panel')}, one per window" if ws == w else
+              f"{plural(ws, 'panel')} for {ws} evenly spaced windows of {w} (first and last included; "
+              f"every window is in the top panel and the table)")
+    desc = (f"Top: all {plural(w, 'window')} in one frame, each window's {set_name}, light to dark in "
+            f"time order, and its {n} elementary regressions normalised on {m0.ref} (coefficient on "
+            f"{m0.ref} fixed at 1). Below: {panels}, with the same axes. ")
     if frame.axes is None:
         desc += (f"Horizontal axis: coefficient on {m0.coef_names[0]}; vertical axis: coefficient on "
-                 f"{m0.coef_names[1]}. ")
+                 f"{m0.coef_names[1]}" + ("" if equal else " (not to the same scale)") + ". ")
     else:
         desc += (f"The {n - 1} coefficients are shown in one common 2-D projection: horizontal along the "
-                 f"direction closest to all windows' flats, vertical along the largest spread of the points "
+                 f"direction closest to all windows' sets, vertical along the largest spread of the points "
                  f"away from them ({num(100 * frame.share, 2)}% of the squared distances). ")
     desc += ("Corank " + join_q(q_set) + " in these windows. ")
-    desc += (f"The RMS distance of the points from the window's flat ranges from {num(rms[i_lo])} "
+    drawn = drawn_angles_deg(maps, reference, frame) if reference is not None else None
+    if drawn is not None:
+        j = int(np.argmax(drawn))
+        desc += (f"Measured in coefficient units on the drawing's axes (not drawn to the same scale, so "
+                 f"angles on screen look different), every window's line is within {angle_text(drawn[j])} "
+                 f"degrees of the full sample's (largest: {wl[j]}). ")
+    elif reference is not None and all(m.q == 1 for m in allm):
+        d0 = frame.coords(reference.flat_point)[0]
+        dist = np.array([geometry.norm(frame.coords(m.flat_point)[0] - d0) for m in maps])
+        j = int(np.argmax(dist))
+        desc += (f"Each window's fitted point lies within {num(dist[j])} (coefficient units, on the drawing) "
+                 f"of the full sample's (farthest: {wl[j]}). ")
+    if subspace_angles is not None:
+        what, ang = subspace_angles
+        ang = np.asarray(ang, dtype=float)
+        if ang.size == w and np.isfinite(ang).any():
+            j = int(np.nanargmax(ang))
+            desc += (f"The page's measure, {what}, is at most {fmt(ang[j])} degrees ({wl[j]}); it "
+                     f"compares whole relation subspaces, so it need not equal the angle between drawn "
+                     f"lines. ")
+    desc += (f"The RMS distance of the points from the window's {set_name} ranges from {num(rms[i_lo])} "
              f"({wl[i_lo]}) to {num(rms[i_hi])} ({wl[i_hi]}). ")
-    ref_dir = reference.main_direction() if reference is not None else m0.main_direction()
-    dirs = [m.main_direction() for m in maps]
-    if ref_dir is not None and all(d is not None for d in dirs):
-        angles = np.array([geometry.line_angle_deg(ref_dir, d) for d in dirs])
-        j = int(np.argmax(angles))
-        against = "the full-sample flat" if reference is not None else f"the first window ({wl[0]})"
-        from relspan.words import angle_text
-        desc += (f"The direction of the fitted flat differs from {against} by at most "
-                 f"{angle_text(angles[j])} degrees ({wl[j]}). ")
     moves = []
     for j, v in enumerate(m0.names):
         p = np.array([m.points[j] for m in maps])
@@ -634,10 +729,17 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
              f"{num(moves[jm])} in coefficient units; "
              + "; ".join(f"{v} alone noisy up to {num(moves[j])}" for j, v in enumerate(m0.names) if j != jm)
              + ".")
-    alt = fit_alt(
-        f"{plural(w, 'window')}: elementary regressions around the fitted flat; RMS distance "
-        f"{num(rms[i_lo])} to {num(rms[i_hi])}.",
-        f"{plural(w, 'window')}: RMS distance {num(rms[i_lo])} to {num(rms[i_hi])}.")
+    if drawn is not None:
+        alt = fit_alt(
+            f"{plural(w, 'window')} in one frame: each window's {set_name} within {angle_text(drawn.max())} "
+            f"degrees of the full sample's while single points move up to {num(max(moves))}.",
+            f"{plural(w, 'window')} in one frame: lines within {angle_text(drawn.max())} degrees; points move "
+            f"up to {num(max(moves))}.")
+    else:
+        alt = fit_alt(
+            f"{plural(w, 'window')} in one frame: elementary regressions around each window's {set_name}; "
+            f"RMS distance {num(rms[i_lo])} to {num(rms[i_hi])}.",
+            f"{plural(w, 'window')}: RMS distance {num(rms[i_lo])} to {num(rms[i_hi])}.")
     return FigureResult(name, fig, alt, desc.strip(), table)
 
 

@@ -6,11 +6,11 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 import pandas as pd
+from matplotlib.ticker import MaxNLocator
 
 from relspan.report.figures.checks import (as_float_array, as_labels, as_times, check_mapping, fail, time_text,
                                            time_values)
-from relspan.report.figures.contract import FigureResult, fit_alt
-from relspan.report.figures.labels import spread_1d
+from relspan.report.figures.contract import FigureResult, fit_alt, settle
 from relspan.report.figures.style import MUTED, PALETTE, new_figure, series_style, style_context
 from relspan.words import num, plural
 
@@ -38,8 +38,10 @@ def _lanes(intervals: list[tuple[float, float]]) -> list[int]:
 
 def data_overview(times, series: Mapping[str, Sequence[float]],
                   windows: Mapping[str, Sequence[tuple]] | None = None, *,
-                  title: str | None = None, name: str = "data-overview") -> FigureResult:
-    """Standardised series over time, with the windows of each plan in a strip below.
+                  units: Mapping[str, str] | None = None, title: str | None = None,
+                  name: str = "data-overview") -> FigureResult:
+    """One small panel per series over time (each in its own units), with the windows of each plan
+    in a strip below.
 
     Parameters
     ----------
@@ -47,12 +49,15 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
         The time of each row (row numbers when the data have no time column).
     series : mapping of str to (T,) array_like
         Variable label -> values (after the spec's transforms). Missing values
-        (NaN) leave gaps. Each series is drawn standardised: minus its mean,
-        divided by its standard deviation (ddof = 1), so all share one axis.
+        (NaN) leave gaps. Each series gets its own panel and vertical axis, in
+        its own units; the table also gives the standardised values (minus the
+        mean, divided by the standard deviation, ddof = 1).
     windows : mapping of str to sequence of (start, end, label), optional
         Plan label -> its windows; ``start``/``end`` are in the units of
         ``times`` (inclusive). Each plan gets one row in the strip; windows
         that overlap go on separate lines of that row.
+    units : mapping of str to str, optional
+        Series label -> its unit, written after the label in the panel title.
     title : str, optional
         Drawn above the figure (pages usually give the caption instead).
     name : str
@@ -114,58 +119,49 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
         z[lab] = (v - m) / s if s > 0 else np.where(ok, 0.0, np.nan)
         stats[lab] = (m, s, int((~ok).sum()))
 
-    # ---- figure
+    # ---- figure: one small panel per series, each in its own units, sharing the time axis
+    units = dict(units or {})
     lane_of = [_lanes(list(zip(st, en))) for _, st, en, _ in plans]
     n_lanes = [max(l) + 1 for l in lane_of]
     strip_units = sum(n_lanes) + 1.4 * len(plans)
     strip_h = 0.0 if not plans else min(0.35 + 0.16 * strip_units, 3.2)
+    k = len(labels)
+    panel_h = 1.05 if k <= 4 else 0.85
     with style_context():
-        fig = new_figure(3.4 + strip_h + (0.3 if title else 0.0))
-        if plans:
-            gs = fig.add_gridspec(2, 1, height_ratios=[3.4, max(strip_h, 0.5)], hspace=0.04)
-            ax = fig.add_subplot(gs[0])
-            axw = fig.add_subplot(gs[1], sharex=ax)
-        else:
-            ax = fig.add_subplot(1, 1, 1)
-            axw = None
+        fig = new_figure(0.55 + panel_h * k + strip_h + (0.3 if title else 0.0))
+        ratios = [panel_h] * k + ([max(strip_h, 0.5)] if plans else [])
+        gs = fig.add_gridspec(len(ratios), 1, height_ratios=ratios, hspace=0.08)
+        axs = [fig.add_subplot(gs[0])]
+        axs += [fig.add_subplot(gs[i], sharex=axs[0]) for i in range(1, k)]
+        axw = fig.add_subplot(gs[k], sharex=axs[0]) if plans else None
         if title:
             fig.suptitle(title, x=0.01, ha="left", fontweight="bold", fontsize=11)
         step = max(1, t.size // 12)
-        styles = [series_style(i) for i in range(len(labels))]
-        for lab, st in zip(labels, styles):
-            ax.plot(t, z[lab], color=st.color, linestyle=st.linestyle, marker=st.marker,
-                    markevery=(st.slot % step, step), markersize=4.5, linewidth=1.4,
+        styles = [series_style(i) for i in range(k)]
+        for ax, lab, st in zip(axs, labels, styles):
+            ax.plot(t, values[lab], color=st.color, linestyle="-", marker=st.marker,
+                    markevery=(st.slot % step, step), markersize=4, linewidth=1.3,
                     markerfacecolor="white" if st.slot % 2 else st.color)
-        ax.axhline(0, color=MUTED, linewidth=0.8, zorder=1)
-        ax.set_ylabel("standardised value\n(standard deviations)")
-        ax.margins(x=0.01)
+            unit = units.get(lab, "")
+            ax.set_title(f"{lab} ({unit})" if unit else lab, fontsize=9.5, fontweight="bold", loc="left",
+                         pad=2, color=st.color)
+            ax.yaxis.set_major_locator(MaxNLocator(nbins=4, prune="upper"))  # no tick label at the top edge
+            ax.tick_params(axis="y", labelsize=8.5)
+            ax.margins(x=0.01, y=0.12)
         if is_dt:
-            ax.xaxis_date()
-        else:
-            ax.set_xlabel("row" if axw is None else "")
-        # direct labels at the end of each line
-        fig.draw_without_rendering()
-        last = []
-        for lab in labels:
-            ok = np.flatnonzero(np.isfinite(z[lab]))
-            last.append(float(z[lab][ok[-1]]))
-        lo, hi = ax.get_ylim()
-        height_px = ax.get_window_extent().height
-        gap = (hi - lo) * (15.0 * fig.dpi / 72.0) / max(height_px, 1.0)
-        ys = spread_1d(last, gap, lo + gap / 2, hi - gap / 2)
-        for lab, st, y in zip(labels, styles, ys):
-            ax.annotate(lab, xy=(1.0, y), xycoords=("axes fraction", "data"), xytext=(6, 0),
-                        textcoords="offset points", va="center", ha="left", color=st.color,
-                        fontsize=9.5, fontweight="bold", annotation_clip=False)
+            axs[0].xaxis_date()
+        for ax in axs[:-1] + ([axs[-1]] if axw is not None else []):
+            ax.tick_params(labelbottom=False)
+        if axw is None and not is_dt:
+            axs[-1].set_xlabel("row")
         if axw is not None:
+            settle(fig)
             _draw_window_strip(fig, axw, plans, lane_of, n_lanes)
-            for lab in ax.get_xticklabels():
-                lab.set_visible(False)
             if is_dt:  # the plan labels narrow the axes: few enough dates that the labels never overlap
                 import matplotlib.dates as mdates
 
                 axw.xaxis.set_major_locator(mdates.AutoDateLocator(minticks=3, maxticks=6))
-            if not is_dt:
+            else:
                 axw.set_xlabel("row")
 
     # ---- table
@@ -198,16 +194,18 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
     for lab in labels:
         m, s, miss = stats[lab]
         zz = z[lab][np.isfinite(z[lab])]
-        txt = (f"{lab}: mean {num(m)}, standard deviation {num(s)}, standardised values from "
-               f"{num(zz.min())} to {num(zz.max())}")
+        fin = values[lab][np.isfinite(values[lab])]
+        u = f" {units[lab]}" if units.get(lab) else ""
+        txt = (f"{lab}: from {num(fin.min())} to {num(fin.max())}{u}, mean {num(m)}, standard deviation "
+               f"{num(s)} (standardised values from {num(zz.min())} to {num(zz.max())})")
         if s == 0:
             txt = f"{lab}: constant at {num(m)} (drawn at 0)"
         if miss:
             txt += f", {plural(miss, 'missing value')}"
         parts.append(txt)
-    desc = (f"Line chart of {plural(len(labels), 'variable')} over {span}, each standardised "
-            f"(minus its mean, divided by its standard deviation) so they share one vertical axis "
-            f"in standard deviations. " + "; ".join(parts) + ".")
+    desc = (f"One small line chart per variable ({plural(len(labels), 'panel')}, stacked, sharing the "
+            f"time axis) over {span}, each in its own units on its own vertical axis. "
+            + "; ".join(parts) + ".")
     if plans:
         pdesc = []
         for plan, st, en, wl in plans:
@@ -221,7 +219,7 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
         desc += (" Below the lines, one strip per window plan shows each window as a bar over the "
                  "rows it covers (overlapping windows on separate lines): " + "; ".join(pdesc) + ".")
     alt_plans = ", ".join(f"{p}: {len(w)}" for p, _, _, w in plans)
-    head = f"{plural(len(labels), 'standardised series', 'standardised series')} over {span}"
+    head = f"{plural(len(labels), 'series', 'series')}, one panel each, over {span}"
     alt = fit_alt(f"{head}, with the windows of each plan ({alt_plans})." if plans else f"{head}.",
                   f"{head}, with {plural(len(plans), 'window plan')}." if plans else head,
                   f"{plural(len(labels), 'series', 'series')}, {plural(t.size, 'row')}.")
@@ -263,7 +261,7 @@ def _draw_window_strip(fig, axw, plans, lane_of, n_lanes) -> None:
     axw.grid(axis="y", visible=False)
     axw.spines["left"].set_visible(False)
     # window labels inside bars when there are few windows and the label fits
-    fig.draw_without_rendering()
+    settle(fig)
     renderer = fig.canvas.get_renderer()
     for rect, label, count in bars:
         if count > 8:

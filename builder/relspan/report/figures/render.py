@@ -15,7 +15,11 @@ from relspan.errors import OptionsError
 from relspan.report.figures.contract import FigureResult
 from relspan.report.figures.style import DPI, style_context
 
-__all__ = ["render_figure", "table_csv"]
+__all__ = ["render_figure", "table_csv", "SVG_METADATA"]
+
+#: SVG metadata: no date and no creator (matplotlib would write its version there, so every
+#: matplotlib release would change the bytes of every figure)
+SVG_METADATA = {"Date": None, "Creator": None}
 
 
 def render_figure(result: FigureResult, fmt: str = "svg") -> bytes:
@@ -40,7 +44,7 @@ def render_figure(result: FigureResult, fmt: str = "svg") -> bytes:
     buf = io.BytesIO()
     with style_context():
         if fmt == "svg":
-            result.figure.savefig(buf, format="svg", metadata={"Date": None})
+            result.figure.savefig(buf, format="svg", metadata=SVG_METADATA)
         else:
             result.figure.savefig(buf, format="png", dpi=DPI, metadata={"Software": None})
     return buf.getvalue()

@@ -21,7 +21,7 @@ import pandas as pd
 
 from relspan.report.figures.checks import (as_float_array, as_labels, as_times, check_mapping, fail,
                                            time_values)
-from relspan.report.figures.contract import FigureResult, fit_alt
+from relspan.report.figures.contract import FigureResult, fit_alt, settle
 from relspan.report.figures.labels import spread_1d
 from relspan.report.figures.style import (INK, MUTED, PALETTE, SEQUENTIAL, new_figure, style_context,
                                           styles_for, text_color_on)
@@ -354,7 +354,7 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
             ax.axvline(break_at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
         axa.set_ylabel("angle to full\nsample (°)")
         ax.margins(x=0.03)
-        fig.draw_without_rendering()
+        settle(fig)
         ends = []
         for nm in names:
             ok = np.flatnonzero(np.isfinite(vals[nm]))

@@ -42,6 +42,10 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
                               csv=(pub, base + "-assumptions.csv")))
             if q is not None and len(result.names) < 3:
                 body.append(NO_MAP)
+            elif q is not None and not ff.has_window_maps(result, plan, q):
+                body.append(md("This window is drawn with every other window of the plan in one frame, in "
+                               "[the plan's section]({}); a plan of more than {} windows has no map per "
+                               "window.\n", Raw("/" + section), str(ff.WINDOW_MAP_CAP)))
             elif q is not None:
                 body.append(pub.figure(ff.map_figure, (result, a, plan.flats[i].get(q), q,
                                                           f"{ds.id}-{plan.plan.id}-w{i + 1:02d}-map"),

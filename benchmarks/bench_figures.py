@@ -1,0 +1,151 @@
+"""Benchmark the figures: the demo's cold build side by side with another revision, the figure
+stage by family, and SVG bytes under two CPU kernels of OpenBLAS.
+
+Three modes (numbers are printed, never asserted; speed is not tested in unit tests):
+
+    # 1. cold demo build (--jobs 1 --no-cache) of this tree against REV, interleaved A B A B ...;
+    #    prints each run, the medians and the per-pair ratio this/REV
+    .venv/bin/python benchmarks/bench_figures.py --vs-rev 7d40cc3 --rounds 5
+
+    # 2. the figure stage alone: every figure job of the demo drawn in this process, by family
+    .venv/bin/python benchmarks/bench_figures.py --stage
+
+    # 3. the demo built under two OpenBLAS kernels (OPENBLAS_CORETYPE, set for the build only,
+    #    --no-cache, to temporary folders); prints how many SVGs differ (with --vs-rev: for REV too)
+    .venv/bin/python benchmarks/bench_figures.py --kernels Haswell SkylakeX [--vs-rev 7d40cc3]
+
+REV is exported with ``git archive`` to a temporary folder and imported from there
+(``PYTHONPATH``), with the same interpreter and libraries, so only the code differs. The machine
+may be shared: quote the median of the pairwise ratios, not single times.
+"""
+
+from __future__ import annotations
+
+import argparse
+import collections
+import os
+import statistics
+import subprocess
+import sys
+import tarfile
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+SPEC = ROOT / "specs" / "demo.yaml"
+
+
+def export_rev(rev: str, into: Path) -> Path:
+    """The package of revision ``rev`` unpacked under ``into``; returns the folder to import from."""
+    tar = into / "rev.tar"
+    with open(tar, "wb") as fh:
+        subprocess.run(["git", "-C", str(ROOT), "archive", rev, "builder"], stdout=fh, check=True)
+    with tarfile.open(tar) as tf:
+        tf.extractall(into, filter="data")
+    return into / "builder"
+
+
+def build_cmd(out: Path) -> list[str]:
+    return [sys.executable, "-m", "relspan", "build", str(SPEC), "--jobs", "1", "--no-cache", "-q",
+            "--out", str(out)]
+
+
+def run_build(out: Path, pythonpath: str | None, extra_env: dict | None = None) -> float:
+    env = dict(os.environ)
+    if pythonpath:
+        env["PYTHONPATH"] = pythonpath
+    env.update(extra_env or {})
+    t = time.perf_counter()
+    subprocess.run(build_cmd(out), env=env, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    return time.perf_counter() - t
+
+
+def side_by_side(rev: str, rounds: int) -> None:
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        other = str(export_rev(rev, tmp))
+        here = str(ROOT / "builder")
+        a, b = [], []
+        run_build(tmp / "warm", here)  # warm-up (imports, font cache)
+        for k in range(rounds):
+            a.append(run_build(tmp / f"a{k}", here))
+            b.append(run_build(tmp / f"b{k}", other))
+            print(f"round {k + 1}: this tree {a[-1]:.2f} s, {rev} {b[-1]:.2f} s, ratio {a[-1] / b[-1]:.3f}")
+        ratios = [x / y for x, y in zip(a, b)]
+        print(f"cold demo build --jobs 1: this tree median {statistics.median(a):.2f} s, {rev} median "
+              f"{statistics.median(b):.2f} s; ratio this/{rev}: median {statistics.median(ratios):.3f} "
+              f"(min {min(ratios):.3f}, max {max(ratios):.3f}) over {rounds} interleaved pairs")
+
+
+def stage() -> None:
+    import warnings
+
+    from relspan.report.site_content import site_draft
+    from relspan.run.figures import draw_figures, render_job
+    from relspan.run.pipeline import run_analysis
+    from relspan.spec import load_spec
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        run = run_analysis(load_spec(SPEC), jobs=1, use_cache=False, progress=False)
+    draft = site_draft(run)
+    jobs = draft.figure_jobs
+    t = time.perf_counter()
+    rendered = draw_figures(jobs, "svg")
+    total = time.perf_counter() - t
+    drawn = sum(r is not None for r in rendered)
+    print(f"figure stage: {len(jobs)} jobs, {drawn} figures, {total:.2f} s (shared content drawn once)")
+    per = collections.defaultdict(list)
+    for job in jobs:
+        t = time.perf_counter()
+        render_job((job.fn, job.args, "svg"))
+        per[job.fn.__name__].append(time.perf_counter() - t)
+    for name, ts in sorted(per.items(), key=lambda kv: -sum(kv[1])):
+        print(f"  {name:20s} {len(ts):3d} jobs  {sum(ts):6.2f} s  {1000 * statistics.median(ts):6.0f} ms median")
+
+
+def svg_files(folder: Path) -> dict[str, bytes]:
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*.svg"))}
+
+
+def kernels(names: list[str], rev: str | None) -> None:
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        trees = [("this tree", str(ROOT / "builder"))]
+        if rev:
+            trees.append((rev, str(export_rev(rev, tmp))))
+        for label, path in trees:
+            sites = []
+            for k in names:
+                out = tmp / f"{label.replace(' ', '_')}-{k}"
+                run_build(out, path, {"OPENBLAS_CORETYPE": k})
+                sites.append(svg_files(out))
+            a, b = sites[0], sites[1]
+            differ = sorted(p for p in a if a[p] != b.get(p))
+            version = sum(b"Matplotlib v" in v for v in a.values())
+            print(f"{label}: {len(a)} SVGs, {len(differ)} differ between {names[0]} and {names[1]}; "
+                  f"{version} name a matplotlib version")
+            for p in differ[:10]:
+                print(f"  differs: {p}")
+
+
+def main(argv=None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--vs-rev", help="git revision to compare with (e.g. the merge base)")
+    ap.add_argument("--rounds", type=int, default=5)
+    ap.add_argument("--stage", action="store_true", help="time the figure stage by family")
+    ap.add_argument("--kernels", nargs=2, metavar="CORETYPE", help="two OPENBLAS_CORETYPE values")
+    args = ap.parse_args(argv)
+    if args.stage:
+        stage()
+    elif args.kernels:
+        kernels(args.kernels, args.vs_rev)
+    elif args.vs_rev:
+        side_by_side(args.vs_rev, args.rounds)
+    else:
+        ap.error("choose --vs-rev REV, --stage or --kernels A B")
+
+
+if __name__ == "__main__":
+    main()
