@@ -256,18 +256,18 @@ def _stability_findings(result) -> list[Finding]:
                         and plan.stability[a].reference_dim == q), None)
             if key is None:
                 continue
-            if not window_supports(plan, key[0], q):
-                counts = plan.coranks.coranks.get(key[0], ())
+            if not window_supports(plan, key, q):
+                counts = plan.coranks.coranks.get(key, ())
                 short = sum(1 for c in counts if c is None or c < q)
                 tol = Tolerance.of(result.full)
                 out.append(Finding("cannot_be_judged", "stability",
                                    f"Whether the {'relation' if q == 1 else f'{q} relations'} stay"
                                    f"{'s' if q == 1 else ''} put across \u201c{title}\u201d cannot be judged under "
-                                   f"{_assumption(key[0]).name} at {tol.short}: {short} of the {len(counts)} windows "
+                                   f"{_assumption(key).name} at {tol.short}: {short} of the {len(counts)} windows "
                                    f"do not support {count(q, 'relation')}.",
                                    "A window's relation can only be compared with the full sample's when the window "
                                    "supports it.", {"plan": plan.plan.id, "corank": q, "windows_without": short},
-                                   f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key[0],), tolerance=tol))
+                                   f"plan-{plan.plan.id}", plan=plan.plan.id, assumptions=(key,), tolerance=tol))
                 continue
             stab = plan.stability[key]
             worst = stab.max_to_reference_deg if stab.max_to_reference_deg is not None else (
