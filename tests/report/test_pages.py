@@ -366,7 +366,8 @@ def test_reproduce_page_lists_inputs_with_checksums_and_nothing_that_changes_bet
     for r in run.datasets:
         assert hashlib.sha256(r.spec.source_path.read_bytes()).hexdigest() in text
     assert "relspan build demo.yaml" in text
-    for word in ("Data availability", "Computational requirements", "Instructions", "List of tables"):
+    assert "follows the structure of the replication README template published by the Social Science Data Editors" in text
+    for word in ("Where the data come from", "What a rerun needs", "How to rerun it", "Which program makes which output"):
         assert word in text
     assert str(out) not in page and str(ROOT) not in page and "/tmp/" not in page
     assert not re.search(r"\d+(\.\d+)? ?(s|seconds|ms)\b", text)
