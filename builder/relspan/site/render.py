@@ -151,7 +151,7 @@ def rewrite_links(html: str, page_path: str) -> str:
 #: elements whose text never gets a glossary link: headings, existing links, code, and
 #: anything not read as running text
 TERM_SKIP_TAGS = frozenset({"a", "h1", "h2", "h3", "h4", "h5", "h6", "code", "pre", "kbd", "samp",
-                            "script", "style", "svg", "button", "label", "title", "dt"})
+                            "script", "style", "svg", "button", "label", "title", "dt", "nav"})
 _VOID = frozenset({"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta",
                    "source", "track", "wbr"})
 
@@ -382,8 +382,8 @@ def _render_page(env: jinja2.Environment, content: SiteContent, page: Page,
         body = link_terms(body, content.terms, content.glossary)
     show_title = not body.lstrip().startswith("<h1")
     h2 = [h for h in rendered.headings if h.level == 2]
-    # the home page is read as panels, not sections: no jump strip there
-    toc = h2 if len(h2) >= _TOC_MIN_HEADINGS and page.path != "index.html" else []
+    # the home page is read as panels and the datasets overview repeats the menu's second row: no strip
+    toc = h2 if len(h2) >= _TOC_MIN_HEADINGS and page.section not in ("home", "datasets") else []
     ancestors = {path for _, path in page.breadcrumbs}
     # the trail names what the page belongs to; the home page is the site title's link
     trail = [(t, p) for t, p in page.breadcrumbs if p != "index.html"]

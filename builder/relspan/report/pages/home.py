@@ -108,7 +108,7 @@ def _panel(result, figure: str) -> str:
     parts.append(md("*Left open:* {}. [Evidence]({})\n", sm.open.short or sm.open.text,
                     Raw(f"{page}#{sm.open.evidence or 'identified'}")))
     parts.append(figure)
-    parts.append(md("[All results for {}]({}){}\n", ds.title, Raw(page),
+    parts.append(md("[All results]({}){}\n", Raw(page),
                     Raw(f" \u00b7 {CAUTION_LINK}") if weights else Raw("")))
     return Raw('<div class="answer" markdown="1">\n\n' + "\n".join(parts) + "\n\n</div>")
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 from relspan.report.pages.addresses import HOME, dataset_path, plan_anchor, window_path
 from relspan.site.content import Page
 from relspan.site.markdown import Raw, joined, link, md
+from relspan.words import plural
 
 __all__ = ["datasets_page", "DATASETS_PATH"]
 
@@ -18,7 +19,7 @@ def _variables(result) -> Raw:
 
 
 def datasets_page(run) -> Page:
-    body = [Raw(f"{len(run.datasets)} dataset(s). Each line says what the data pin down and leave open, in "
+    body = [Raw(f"{plural(len(run.datasets), 'dataset')}. Each says what the data pin down and leave open, in "
                 "short; the dataset's page gives the evidence.\n")]
     for r in run.datasets:
         ds, sm, p = r.spec, r.summary, r.prepared
@@ -38,8 +39,9 @@ def datasets_page(run) -> Page:
             n = len(plan.analyses)
             first = link(plan.analyses[0].label, "/" + window_path(ds.id, plan.plan.id, 0)) if n else Raw("")
             anchor = "assumptions" if plan.plan.kind == "full" else plan_anchor(plan.plan.id)
-            plans.append(md("- {}: {} window(s), from {}", link(plan.plan.title or plan.plan.id,
-                                                                f"{page}#{anchor}"), str(n), first))
+            plans.append(md("- {}: {}, the first {}", link(plan.plan.title or plan.plan.id, f"{page}#{anchor}"),
+                            plural(n, "window"), first) if n > 1 else
+                         md("- {}: one window, {}", link(plan.plan.title or plan.plan.id, f"{page}#{anchor}"), first))
         body.append(Raw("Window plans:\n\n" + "\n".join(plans) + "\n"))
     return Page(DATASETS_PATH, "Datasets", "\n".join(body), "datasets", breadcrumbs=(HOME,),
                 description="Every dataset of this report in a few lines.")

@@ -79,9 +79,11 @@ class Publisher:
             hit = drawn.get((folder, ident))
             if hit is None:
                 continue
-            job, (name, alt, _desc, _image, _csv, width, height) = hit
-            return blocks.figure(f"/{job.folder}/{name}.{self.fmt}", alt, caption, width=width, height=height,
-                                 css_class="thumb")
+            job, (name, alt, description, _image, _csv, width, height) = hit
+            long = md("{}\n\nThe numbers behind this figure: [{}.csv]({}).", description, name,
+                      Raw(f"/{job.folder}/{name}.csv"))
+            return blocks.figure(f"/{job.folder}/{name}.{self.fmt}", alt, caption, long_description_markdown=long,
+                                 width=width, height=height, css_class="thumb")
         return "\n\n"
 
     def _markdown(self, job: FigureJob, rendered) -> str:

@@ -40,7 +40,7 @@ def _counts(reading) -> dict:
 def _neighbour_line(which: str, label: str, path: str, here, there, angle) -> Raw:
     """How this window differs from one neighbour: relations per assumption, and the turn of the relation."""
     mine, theirs = _counts(here), _counts(there)
-    changed = [f"{assumption(a).name} {theirs[a]} \u2192 {mine[a]}" for a in mine
+    changed = [f"{assumption(a).name}: {mine[a]} here, {theirs[a]} there" for a in mine
                if a in theirs and theirs[a] != mine[a]]
     counts = (md("the number of relations differs ({})", "; ".join(changed)) if changed
               else Raw("the same number of relations under every noise assumption"))
