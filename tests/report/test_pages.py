@@ -464,7 +464,16 @@ def test_first_use_of_every_glossary_term_on_every_page_links_its_entry(site):
             pattern = re.compile(r"(?<![\w-])(" + "|".join(re.escape(w).replace(r"\ ", r"\s+")
                                                           for w in sorted(entry.words, key=len, reverse=True))
                                  + r")(?!\w)", re.IGNORECASE)
-            first = next(((text, href) for text, href in parser.pieces if pattern.search(text)), None)
+            # a use inside a longer term that contains it ("least squares" in "total least squares") belongs to
+            # the longer term
+            longer = [w for other in GLOSSARY if other is not entry for w in other.words
+                      if any(re.search(rf"(?<![\w-]){re.escape(x)}(?!\w)", w, re.IGNORECASE) for x in entry.words)]
+            inner = re.compile("|".join(re.escape(w).replace(r"\ ", r"\s+") for w in longer), re.IGNORECASE)
+
+            def uses(text):
+                return pattern.search(inner.sub(" ", text) if longer else text)
+
+            first = next(((text, href) for text, href in parser.pieces if uses(text)), None)
             if first is None:
                 continue
             checked += 1

@@ -134,7 +134,7 @@ def _relations_words(full, a: str, q) -> str:
     if a == "elementary":
         return f"{full.n} different answers, one per noisy variable"
     if q is None:
-        return "not settled at this tolerance"
+        return "undetermined at this tolerance"
     if q == 0:
         return "no relation at this tolerance"
     if a == "bounded" and full.bounded is not None:
@@ -159,7 +159,7 @@ def _identified_words(full, a: str, q) -> str:
     if a == "elementary":
         return "a point, but only because the assumption fixes which variable is noisy"
     if q is None:
-        return "not settled"
+        return "undetermined"
     if q == 0:
         return "nothing (no relation)"
     if q >= 2:
@@ -214,7 +214,7 @@ def _window_plain(plan, i: int, a, w, q) -> str:
     for key in ("equal", "shaped", "bounded", "diagonal"):
         if key in a.coranks:
             c = a.coranks[key]
-            words.append(f"{assumption(key).title.lower()}: " + ("not settled" if c is None else count(c, "relation")))
+            words.append(f"{assumption(key).title.lower()}: " + ("undetermined" if c is None else count(c, "relation")))
     span = f"{w.first_time} to {w.last_time}, " if w.first_time is not None else ""
     text = f"This window covers {span}{w.rows} rows. Relations found \u2014 " + "; ".join(words) + "."
     if q is not None and ("equal", q) in plan.stability:
