@@ -416,8 +416,10 @@ def test_failing_claims_are_named_on_the_home_page_with_links_to_their_windows(s
 def test_readers_checklist_anchors_exist_on_the_demo_home_page(site):
     out, _ = site
     checklist = (ROOT / "docs" / "readers-checklist.md").read_text(encoding="utf-8")
+    from relspan.report.pages import READER_ANCHORS
+
     anchors = re.findall(r"`index\.html#([\w-]+)`", checklist)
-    assert {"answers", "claims", "rebuild"} <= set(anchors)
+    assert set(anchors) == set(READER_ANCHORS)
     for reader in ("Policy analyst", "Research group", "Replication reviewer"):
         assert reader in checklist
     ids = set(re.findall(r'id="([^"]+)"', _read(out, "index.html")))
@@ -618,3 +620,15 @@ def test_side_by_side_csv_gives_no_coefficients_where_two_relations_hold(site):
     assert int(equal["corank"]) >= 2
     assert equal["coefficients"].startswith("not identified")
     assert all(v == "" for k, v in equal.items() if k.startswith("coef["))
+
+
+def test_csv_downloads_name_each_assumption_by_its_one_readers_name(site):
+    import csv as _csv
+
+    from relspan.assumptions import assumption
+
+    out, run = site
+    for r in run.datasets:
+        for name in ("assumptions.csv", "windows.csv"):
+            rows = list(_csv.DictReader((out / "data" / r.spec.id / name).open(encoding="utf-8")))
+            assert rows and all(row["noise_assumption"] == assumption(row["assumption"]).name for row in rows)

@@ -12,7 +12,7 @@ import pandas as pd
 
 from relspan import __version__
 from relspan.analysis.results import jsonable
-from relspan.assumptions import ASSUMPTION_IDS
+from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.report import pages as P
 from relspan.report.pages.reference import CAUTION_TITLE
 from relspan.report.text import glossary_terms
@@ -95,7 +95,8 @@ def _assumptions_csv(result) -> bytes:
         if a not in full.coranks:
             continue
         status, values = coefficient_status(full, a)
-        rows.append({"assumption": a, "corank": full.coranks[a], "normalise_on": full.names[full.ref],
+        rows.append({"assumption": a, "noise_assumption": assumption(a).name, "corank": full.coranks[a],
+                     "normalise_on": full.names[full.ref],
                      "coefficients": status, **values})
     return _csv(pd.DataFrame(rows))
 
@@ -113,7 +114,7 @@ def _windows_csv(result) -> bytes:
                     continue
                 row = {"plan": plan.plan.id, "window": an.label, "rows": w.rows,
                        "first_time": w.first_time, "last_time": w.last_time, "assumption": a,
-                       "corank": an.coranks[a]}
+                       "noise_assumption": assumption(a).name, "corank": an.coranks[a]}
                 for q in result.examined:
                     row[f"angle_to_full_deg[q={q}]"] = angles.get((an.label, a, q), np.nan)
                 for k, name in enumerate(an.names):

@@ -9,6 +9,7 @@ from relspan.report.text import CAUTION_LINK
 from relspan.site import blocks
 from relspan.site.content import Page
 from relspan.site.markdown import Raw, code, joined, link, md
+from relspan.words import plural
 
 __all__ = ["claims_page", "claims_table", "failing_window_links"]
 
@@ -40,8 +41,8 @@ def claims_page(run, pub: Publisher) -> Page:
                         "build checks again.\n"))
     else:
         n_fail = sum(not v.holds for v in run.verdicts)
-        body.append(Raw(f"{len(run.verdicts) - n_fail} of {len(run.verdicts)} claim(s) hold on this build"
-                        + (f"; **{n_fail} fail**, listed first." if n_fail else ".") + "\n"))
+        body.append(Raw(f"{len(run.verdicts) - n_fail} of {plural(len(run.verdicts), 'claim')} hold on this build"
+                        + (f"; **{n_fail} fail**." if n_fail else ".") + "\n"))
         body.append(claims_table(run.verdicts, pub, "data/tables/claims.csv"))
         for v in sorted(run.verdicts, key=lambda v: v.holds):
             c = v.claim

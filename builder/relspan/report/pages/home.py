@@ -19,7 +19,7 @@ from relspan.report.pages.claims import failing_window_links
 from relspan.report.text import CAUTION_LINK
 from relspan.site import blocks
 from relspan.site.content import Page
-from relspan.site.markdown import Raw, code, joined, link, md
+from relspan.site.markdown import Raw, joined, link, md
 from relspan.words import fmt
 
 __all__ = ["home_page", "READER_ANCHORS"]
