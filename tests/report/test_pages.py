@@ -430,7 +430,7 @@ class _TermUses(HTMLParser):
     """Running text of a page body in order, each piece with whether it sits inside a link (own reading of
     the rule: text in headings, code, navigation and definition terms is not running text)."""
 
-    SKIP = {"h1", "h2", "h3", "h4", "h5", "h6", "code", "pre", "nav", "dt", "script", "style", "title"}
+    SKIP = {"h1", "h2", "h3", "h4", "h5", "h6", "code", "pre", "nav", "dt", "summary", "script", "style", "title"}
 
     def __init__(self):
         super().__init__(convert_charrefs=True)

@@ -425,7 +425,7 @@ def test_home_page_is_at_most_one_and_a_half_screens_tall_at_1280_px(browser, fr
 
 
 _FIRST_USES_JS = """(terms) => {
-  const skip = 'h1,h2,h3,h4,h5,h6,code,pre,nav,dt,script,style';
+  const skip = 'h1,h2,h3,h4,h5,h6,code,pre,nav,dt,summary,script,style';
   const main = document.querySelector('main');
   const walker = document.createTreeWalker(main, NodeFilter.SHOW_TEXT);
   const nodes = [];

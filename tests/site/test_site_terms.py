@@ -36,6 +36,14 @@ class TestLinkTerms:
         assert '<a class="term" href="/g.html#term-regression">regression</a>' in out
         assert '<a class="term" href="/g.html#term-rms-distance">RMS distance</a>' in out
 
+    def test_no_link_inside_a_summary_or_navigation(self):
+        # a link inside <summary> nests one interactive element in another (axe-core: nested-interactive)
+        html = "<details><summary>The corank search</summary><p>Its corank.</p></details>"
+        out = link_terms(html, TERMS, "g.html")
+        assert out == ('<details><summary>The corank search</summary><p>Its '
+                       '<a class="term" href="/g.html#term-corank">corank</a>.</p></details>')
+        assert link_terms("<nav><p>corank</p></nav>", TERMS, "g.html") == "<nav><p>corank</p></nav>"
+
     def test_parts_of_words_and_entities_are_left_alone(self):
         html = "<p>subcorank &amp; corank&#39;s</p>"
         out = link_terms(html, TERMS, "g.html")

@@ -151,7 +151,7 @@ def rewrite_links(html: str, page_path: str) -> str:
 #: elements whose text never gets a glossary link: headings, existing links, code, and
 #: anything not read as running text
 TERM_SKIP_TAGS = frozenset({"a", "h1", "h2", "h3", "h4", "h5", "h6", "code", "pre", "kbd", "samp",
-                            "script", "style", "svg", "button", "label", "title", "dt", "nav"})
+                            "script", "style", "svg", "button", "label", "title", "dt", "nav", "summary"})
 _VOID = frozenset({"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta",
                    "source", "track", "wbr"})
 
