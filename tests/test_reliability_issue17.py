@@ -215,7 +215,8 @@ def test_serve_keeps_to_the_site_no_symlinks_out_no_listings_no_dotfiles(project
         assert _status(base + "/leak.txt") == 404
         assert _status(base + "/.relspan-site") == 404
         assert _status(base + "/empty/") == 404
-        assert _status(base + "/datasets/") == 404
+        assert _status(base + "/datasets/") == 200  # the datasets overview is its index.html, not a listing
+        assert _status(base + "/figures/") == 404
     finally:
         server.shutdown()
         server.server_close()

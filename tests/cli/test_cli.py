@@ -440,7 +440,7 @@ def test_claims_page_of_the_failing_build_shows_the_fails_verdict(failing_build)
     assert "holds" not in re.sub(r"<[^>]+>", " ", failing).split("What the data show")[0]
     for claim in DEMO_CLAIMS:
         assert re.search(r">\s*(?:<[^>]+>[^<]*</[^>]+>\s*)?holds\s*<", _section(page, f"claim-{claim}"))
-    assert "5 of 6 claim(s) hold" in page
+    assert "5 of 6 claims hold" in re.sub(r"<[^>]+>", "", page)  # words only: "claims" may be a glossary link
 
 
 @pytest.mark.slow

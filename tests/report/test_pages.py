@@ -6,6 +6,7 @@ reads the written site. Outside references are named beside each check.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import json
 import re
@@ -322,27 +323,238 @@ def test_methods_page_formulas_are_local_images_with_alt_text(site):
 
 # ---------------------------------------------------------------------------------- home and pages
 
-def test_home_first_screen_says_what_each_dataset_pins_down_and_leaves_open(site):
-    out, run = site
-    main = _main(_read(out, "index.html"))
-    first = _text(main[:main.index("<h2")])  # before the first section heading
-    for r in run.datasets:
-        sm = r.summary
-        assert r.spec.title in first
-        assert f"Pinned down: {sm.pinned.short}." in first, r.spec.id
-        assert f"Left open: {sm.open.short}." in first, r.spec.id
+def _panel(main: str, ds_id: str) -> str:
+    """One dataset's panel on the home page (from its heading to the next panel)."""
+    start = main.index(f'id="ds-{ds_id}"')
+    end = main.find('<div class="answer"', start)
+    return main[start:end if end > 0 else len(main)]
 
 
-def test_home_cards_carry_each_dataset_pinned_and_open_findings_with_evidence(site):
+def test_home_panel_says_each_datasets_answer_what_it_rests_on_and_what_is_left_open(site):
+    from relspan.assumptions import assumption
+
     out, run = site
     main = _main(_read(out, "index.html"))
     for r in run.datasets:
         sm = r.summary
-        section = main[main.index(f'id="ds-{r.spec.id}"'):]
-        pinned = section[section.index("card-pinned"):section.index("card-open")]
-        opened = section[section.index("card-open"):section.index("card-depends")]
-        assert sm.pinned.text in _text(pinned) and f"datasets/{r.spec.id}/index.html#" in pinned
-        assert sm.open.text in _text(opened) and f"datasets/{r.spec.id}/index.html#" in opened
+        panel = _text(_panel(main, r.spec.id))
+        assert sm.pinned.text in panel, r.spec.id
+        for a in sm.pinned.assumptions:
+            assert assumption(a).name in panel, (r.spec.id, a)
+        assert sm.pinned.tolerance.words in panel
+        assert (sm.open.short or sm.open.text) in panel
+        assert "sampling uncertainty" in panel  # the slot: an interval, or plainly "not computed"
+        assert f"datasets/{r.spec.id}/index.html#" in _panel(main, r.spec.id)
+
+
+def test_home_panel_shows_a_small_copy_of_a_figure_the_dataset_page_draws(site):
+    out, run = site
+    main = _main(_read(out, "index.html"))
+    for r in run.datasets:
+        srcs = re.findall(r'<img[^>]*src="([^"]+)"', _panel(main, r.spec.id))
+        assert len(srcs) == 1, r.spec.id
+        assert (out / _resolve("index.html", srcs[0])).is_file()
+        assert srcs[0].split("/")[-1] in _read(out, f"datasets/{r.spec.id}/index.html")
+
+
+def test_home_gives_the_fare_weights_before_and_after_2008_near_the_generators_truth(site):
+    # specs/data/truth.json: the generator's recorded fare formula in each era (fares = 100 + b_fuel (fuel - 100)
+    # + b_wages (wages - 100)); the panel quotes the equal-noise weights of each era's window
+    out, run = site
+    truth = json.loads((ROOT / "specs" / "data" / "truth.json").read_text())["datasets"]["shift"]
+    panel = _text(_panel(_main(_read(out, "index.html")), "shift"))
+    weights = re.findall(r"Ferry fares = ([\d.]+) × Fuel costs \+ ([\d.]+) × Crew wages", panel)
+    assert len(weights) == 2, panel
+    expected = [(0.60, 1.20), (0.15, 2.00)]  # the formula in truth.json's description
+    assert "0.60 (fuel - 100) + 1.20 (wages - 100) before 2008Q1" in truth["description"]
+    assert "0.15 (fuel - 100) + 2.00 (wages - 100) from 2008Q1" in truth["description"]
+    for (fuel, wages), (t_fuel, t_wages) in zip(weights, expected):
+        # recovery within 0.1 of the truth: 10% noise in every series, 72 quarters per era
+        assert abs(float(fuel) - t_fuel) < 0.1 and abs(float(wages) - t_wages) < 0.1, (fuel, wages)
+    assert "Old fare formula (1990-2007)" in panel and "New fare formula (2008-2025)" in panel
+
+
+def test_home_names_the_claims_and_links_the_claims_page(site):
+    out, run = site
+    main = _main(_read(out, "index.html"))
+    claims = main[main.index('id="claims"'):]
+    for v in run.verdicts:
+        assert v.claim.id in _text(claims)
+        assert f'claims.html#claim-{v.claim.id}"' in claims
+
+
+def test_home_carries_the_caution_once_and_links_it(site):
+    out, _ = site
+    page = _read(out, "index.html")
+    assert _text(page).lower().count("association, not causation") == 1
+    hrefs = re.findall(r'href="([^"]+)"', page)
+    assert any(_resolve("index.html", h) == "caution.html" for h in hrefs)
+
+
+def test_failing_claims_are_named_on_the_home_page_with_links_to_their_windows(site):
+    from relspan.analysis.claims import ClaimVerdict
+    from relspan.report.pages.home import home_page
+    from relspan.report.pages.publisher import Publisher
+
+    out, run = site
+    shift = next(r for r in run.datasets if r.spec.id == "shift")
+    rolling = next(p for p in shift.plans if p.plan.id == "rolling")
+    labels = tuple(a.label for a in rolling.analyses)
+    held = run.verdicts[0]
+    claim = dataclasses.replace(held.claim, id="made-up-failing", dataset="shift", plan="rolling")
+    few = ClaimVerdict(claim=claim, holds=False, observed="(a test verdict)", windows_failing=labels[1:3])
+    page = home_page(dataclasses.replace(run, verdicts=(few,) + tuple(run.verdicts)), Publisher())
+    assert "made-up-failing" in page.body_markdown and "fails" in page.body_markdown
+    for i in (1, 2):
+        assert f"/datasets/shift/rolling/window-{i + 1:02d}.html" in page.body_markdown
+    many = dataclasses.replace(few, windows_failing=labels)
+    page = home_page(dataclasses.replace(run, verdicts=(many,)), Publisher())
+    assert f"Fails in {len(labels)} of {len(labels)} windows" in page.body_markdown
+    assert "/datasets/shift/rolling/window-01.html" in page.body_markdown
+
+
+def test_readers_checklist_anchors_exist_on_the_demo_home_page(site):
+    out, _ = site
+    checklist = (ROOT / "docs" / "readers-checklist.md").read_text(encoding="utf-8")
+    from relspan.report.pages import READER_ANCHORS
+
+    anchors = re.findall(r"`index\.html#([\w-]+)`", checklist)
+    assert set(anchors) == set(READER_ANCHORS)
+    for reader in ("Policy analyst", "Research group", "Replication reviewer"):
+        assert reader in checklist
+    ids = set(re.findall(r'id="([^"]+)"', _read(out, "index.html")))
+    assert set(anchors) <= ids
+
+
+class _TermUses(HTMLParser):
+    """Running text of a page body in order, each piece with whether it sits inside a link (own reading of
+    the rule: text in headings, code, navigation and definition terms is not running text)."""
+
+    SKIP = {"h1", "h2", "h3", "h4", "h5", "h6", "code", "pre", "nav", "dt", "summary", "script", "style", "title"}
+
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.stack, self.pieces = [], []
+
+    def handle_starttag(self, tag, attrs):
+        if tag not in ("img", "br", "hr", "input", "meta", "link"):
+            self.stack.append((tag, dict(attrs).get("href", "")))
+
+    def handle_endtag(self, tag):
+        while self.stack:
+            if self.stack.pop()[0] == tag:
+                break
+
+    def handle_data(self, data):
+        tags = [t for t, _ in self.stack]
+        if not any(t in self.SKIP for t in tags):
+            href = next((h for t, h in reversed(self.stack) if t == "a"), None)
+            self.pieces.append((data, href))
+
+
+def test_first_use_of_every_glossary_term_on_every_page_links_its_entry(site):
+    from relspan.report.text import GLOSSARY
+
+    out, _ = site
+    checked = 0
+    for page in _pages(out):
+        if page == "glossary.html":
+            continue
+        parser = _TermUses()
+        parser.feed(_main(_read(out, page)))
+        for entry in GLOSSARY:
+            pattern = re.compile(r"(?<![\w-])(" + "|".join(re.escape(w).replace(r"\ ", r"\s+")
+                                                          for w in sorted(entry.words, key=len, reverse=True))
+                                 + r")(?!\w)", re.IGNORECASE)
+            # a use inside a longer term that contains it ("least squares" in "total least squares") belongs to
+            # the longer term
+            longer = [w for other in GLOSSARY if other is not entry for w in other.words
+                      if any(re.search(rf"(?<![\w-]){re.escape(x)}(?!\w)", w, re.IGNORECASE) for x in entry.words)]
+            inner = re.compile("|".join(re.escape(w).replace(r"\ ", r"\s+") for w in longer), re.IGNORECASE)
+
+            def uses(text):
+                return pattern.search(inner.sub(" ", text) if longer else text)
+
+            first = next(((text, href) for text, href in parser.pieces if uses(text)), None)
+            if first is None:
+                continue
+            checked += 1
+            # the first use is a link to the entry, or sits inside another link (then it cannot carry its own)
+            href = first[1]
+            assert href is not None, (page, entry.term, first[0][:80])
+            if "glossary.html" in href:
+                assert href.endswith(f"#term-{entry.anchor}"), (page, entry.term, href)
+    assert checked > 50
+
+
+def test_glossary_has_an_entry_for_every_term_the_issue_names(site):
+    from relspan.report.text import GLOSSARY
+
+    out, _ = site
+    words = {w for e in GLOSSARY for w in e.words}
+    for term in ("corank", "eigenvalue", "orthant", "simplex", "flat", "rms distance", "condition number",
+                 "undetermined", "equal noise", "independent noise", "bounded noise", "one variable alone noisy"):
+        assert term in words, term
+    page = _read(out, "glossary.html")
+    for e in GLOSSARY:
+        assert f'id="term-{e.anchor}"' in page
+
+
+def test_one_word_for_undetermined_on_every_page(site):
+    out, _ = site
+    for page in _pages(out):
+        assert "not settled" not in _text(_read(out, page)).lower(), page
+
+
+def test_caution_tab_opens_a_page_with_the_same_title(site):
+    out, _ = site
+    home = _read(out, "index.html")
+    tab = re.search(r'<a href="caution.html">([^<]+)</a>', home[home.index('class="site-nav"'):])
+    h1 = re.search(r"<h1>([^<]+)</h1>", _read(out, "caution.html"))
+    assert tab and h1 and tab.group(1) == h1.group(1)
+
+
+def test_datasets_tab_opens_an_overview_of_every_dataset(site):
+    out, run = site
+    home = _read(out, "index.html")
+    assert re.search(r'<a href="datasets/index.html">Datasets</a>', home)
+    overview = _main(_read(out, "datasets/index.html"))
+    for r in run.datasets:
+        assert f'href="{r.spec.id}/index.html"' in overview and r.summary.pinned.short in _text(overview)
+
+
+def test_window_pages_show_the_plans_timeline_and_compare_with_their_neighbours(site):
+    out, run = site
+    for r in run.datasets:
+        for plan in r.plans:
+            n = len(plan.analyses)
+            if n < 2:
+                continue
+            for i in (0, n - 1):
+                page = _read(out, f"datasets/{r.spec.id}/{plan.plan.id}/window-{i + 1:02d}.html")
+                strip = page[page.index('class="timeline"'):]
+                strip = strip[:strip.index("</nav>")]
+                assert strip.count("<li>") == n and 'aria-current="page"' in strip
+                main = _text(_main(page))
+                assert "How it differs from its neighbours" in main
+                assert ("Previous window" in main) == (i > 0) and ("Next window" in main) == (i + 1 < n)
+
+
+def test_download_everything_zip_holds_every_other_file_with_the_same_bytes(site):
+    import zipfile
+
+    out, _ = site
+    zpath = out / "demo-site.zip"
+    with zipfile.ZipFile(zpath) as zf:
+        names = zf.namelist()
+        assert names == sorted(names)
+        assert all(i.date_time == (1980, 1, 1, 0, 0, 0) for i in zf.infolist())
+        files = sorted(p.relative_to(out).as_posix() for p in out.rglob("*") if p.is_file()
+                       and p.name not in ("SHA256SUMS", "demo-site.zip", ".relspan-site"))
+        assert names == [f"demo-site/{f}" for f in files]
+        for f in files[::17]:
+            assert zf.read(f"demo-site/{f}") == (out / f).read_bytes(), f
+    assert "demo-site.zip" in (out / "SHA256SUMS").read_text()
 
 
 def test_window_pages_link_their_previous_and_next_window(site):
@@ -366,7 +578,8 @@ def test_reproduce_page_lists_inputs_with_checksums_and_nothing_that_changes_bet
     for r in run.datasets:
         assert hashlib.sha256(r.spec.source_path.read_bytes()).hexdigest() in text
     assert "relspan build demo.yaml" in text
-    for word in ("Data availability", "Computational requirements", "Instructions", "List of tables"):
+    assert "follows the structure of the replication README template published by the Social Science Data Editors" in text
+    for word in ("Where the data come from", "What a rerun needs", "How to rerun it", "Which program makes which output"):
         assert word in text
     assert str(out) not in page and str(ROOT) not in page and "/tmp/" not in page
     assert not re.search(r"\d+(\.\d+)? ?(s|seconds|ms)\b", text)
@@ -440,3 +653,13 @@ def test_dataset_page_shows_trends_effective_rows_and_influence(site):
     text = _text(_main(_read(out, "datasets/trio/index.html")))
     assert "Trends and autocorrelation" in text and "effective rows of the 144 tested" in text
     assert "Single rows and blocks of rows" in text and "robust covariance (MCD" in text
+def test_csv_downloads_name_each_assumption_by_its_one_readers_name(site):
+    import csv as _csv
+
+    from relspan.assumptions import assumption
+
+    out, run = site
+    for r in run.datasets:
+        for name in ("assumptions.csv", "windows.csv"):
+            rows = list(_csv.DictReader((out / "data" / r.spec.id / name).open(encoding="utf-8")))
+            assert rows and all(row["noise_assumption"] == assumption(row["assumption"]).name for row in rows)

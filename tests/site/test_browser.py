@@ -354,3 +354,178 @@ def test_screenshots_of_home_dataset_and_caution_pages(browser, base_url, pages,
             assert (ARTIFACTS / f"site-{name}.png").stat().st_size > 1000
     finally:
         context.close()
+
+
+# ------------------------------------------- the home page as readers meet it (a fresh demo build)
+
+#: one screen at 1280 px wide: the viewport height every check above uses
+SCREEN = {"width": 1280, "height": 900}
+
+#: two claims that fail on the demo data, added to a copy of specs/demo.yaml: the plane of the ferry-fare
+#: relation does turn by more than 5 degrees across ten-year windows (the 2008 change of formula), and the
+#: harbour series hold two relations, not three (specs/data/truth.json)
+_FAILING_CLAIMS = """  - id: fares-plane-steady
+    kind: subspace_stable
+    text: "The fare relation stays within 5 degrees of the full sample's in every ten-year window."
+    dataset: shift
+    plan: rolling
+    corank: 1
+    assumption: equal
+    below_deg: 5
+
+  - id: trio-three-relations
+    kind: corank
+    text: "Three relations hold among the four harbour series in every ten-year window."
+    dataset: trio
+    plan: rolling
+    assumption: equal
+    equals: 3
+
+"""
+
+
+@pytest.fixture(scope="module")
+def fresh_sites(tmp_path_factory):
+    """The demo built by this checkout (site_demo/ may be stale on a branch), and a copy with two failing
+    claims; one cache serves both, so the second build reuses the analysis."""
+    import shutil
+    import warnings
+
+    from relspan.api import build
+
+    root = tmp_path_factory.mktemp("fresh")
+    shutil.copytree(REPO / "specs" / "data", root / "data")
+    text = (REPO / "specs" / "demo.yaml").read_text(encoding="utf-8")
+    (root / "demo.yaml").write_text(text, encoding="utf-8")
+    (root / "failing.yaml").write_text(text.replace("\nsite:", "\n" + _FAILING_CLAIMS + "site:", 1),
+                                       encoding="utf-8")
+    out = {}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for name in ("demo", "failing"):
+            outcome = build(root / f"{name}.yaml", out=root / f"site-{name}", jobs=1, cache_dir=root / "cache")
+            out[name] = (root / f"site-{name}", outcome.run)
+    return out
+
+
+def test_home_page_is_at_most_one_and_a_half_screens_tall_at_1280_px(browser, fresh_sites):
+    site, _ = fresh_sites["demo"]
+    ARTIFACTS.mkdir(exist_ok=True)
+    context = browser.new_context(viewport=SCREEN)
+    try:
+        page = context.new_page()
+        page.goto((site / "index.html").as_uri(), wait_until="load")
+        height = page.evaluate("document.documentElement.scrollHeight")
+        page.screenshot(path=str(ARTIFACTS / "home-1280.png"), full_page=True)
+        page.set_viewport_size({"width": 360, "height": 740})
+        page.screenshot(path=str(ARTIFACTS / "home-360.png"), full_page=True)
+    finally:
+        context.close()
+    assert height <= 1.5 * SCREEN["height"], f"home page is {height} px tall at 1280 px"
+
+
+_FIRST_USES_JS = """(terms) => {
+  const skip = 'h1,h2,h3,h4,h5,h6,code,pre,nav,dt,summary,script,style';
+  const main = document.querySelector('main');
+  const walker = document.createTreeWalker(main, NodeFilter.SHOW_TEXT);
+  const nodes = [];
+  for (let n = walker.nextNode(); n; n = walker.nextNode()) {
+    if (!n.parentElement.closest(skip)) nodes.push(n);
+  }
+  const esc = s => s.replace(/[.*+?^${}()|[\\]\\\\]/g, '\\\\$&').replace(/ /g, '\\\\s+');
+  const bad = [];
+  let used = 0;
+  for (const t of terms) {
+    const words = [...t.words].sort((a, b) => b.length - a.length).map(esc).join('|');
+    const re = new RegExp('(^|[^\\\\w-])(' + words + ')(?!\\\\w)', 'i');
+    // a use inside a longer term that contains it ("least squares" in "total least squares") is the longer term's
+    const longer = terms.filter(o => o !== t).flatMap(o => o.words).filter(w => re.test(w) && !t.words.includes(w));
+    const inner = longer.length ? new RegExp(longer.map(esc).join('|'), 'gi') : null;
+    const first = nodes.find(n => re.test(inner ? n.textContent.replace(inner, ' ') : n.textContent));
+    if (!first) continue;
+    used += 1;
+    const a = first.parentElement.closest('a');
+    if (!a) { bad.push(t.anchor + ': "' + first.textContent.trim().slice(0, 60) + '"'); continue; }
+    const href = a.getAttribute('href');
+    if (href.includes('glossary.html') && !href.endsWith('#term-' + t.anchor)) bad.push(t.anchor + ' -> ' + href);
+  }
+  return {bad, used};
+}"""
+
+
+def test_first_use_of_every_glossary_term_on_a_page_links_its_entry(browser, fresh_sites):
+    from relspan.report.text import GLOSSARY
+
+    site, _ = fresh_sites["demo"]
+    terms = [{"anchor": e.anchor, "words": list(e.words)} for e in GLOSSARY]
+    paths = sorted(p.relative_to(site).as_posix() for p in site.rglob("*.html"))
+    context = browser.new_context(viewport=SCREEN)
+    found, used = {}, 0
+    try:
+        page = context.new_page()
+        for path in paths:
+            if path == "glossary.html":
+                continue
+            page.goto((site / path).as_uri(), wait_until="load")
+            result = page.evaluate(_FIRST_USES_JS, terms)
+            used += result["used"]
+            found[path] = result["bad"]
+    finally:
+        context.close()
+    _fail_if(found, "glossary terms whose first use on the page is not linked")
+    assert used > 100  # the check saw terms in use (corank, window, eigenvalue, ...)
+
+
+def test_failing_claims_are_named_on_the_home_page_with_links_to_their_windows(browser, fresh_sites):
+    site, run = fresh_sites["failing"]
+    failing = [v for v in run.verdicts if not v.holds]
+    assert {v.claim.id for v in failing} >= {"fares-plane-steady", "trio-three-relations"}
+    context = browser.new_context(viewport=SCREEN)
+    try:
+        page = context.new_page()
+        page.goto((site / "index.html").as_uri(), wait_until="load")
+        facts = page.evaluate("""() => {
+            const claims = document.getElementById('claims');
+            const items = [...claims.parentElement.querySelectorAll('li')].filter(li => li.querySelector('.badge-fails'));
+            return items.map(li => ({text: li.innerText,
+                                     windows: [...li.querySelectorAll('a')].map(a => a.getAttribute('href'))
+                                                .filter(h => /window-\\d+\\.html$/.test(h))}));
+        }""")
+        page.screenshot(path=str(ARTIFACTS / "home-failing-claims-1280.png"), full_page=True)
+    finally:
+        context.close()
+    assert len(facts) == len(failing)
+    for v in failing:
+        item = next(f for f in facts if v.claim.id in f["text"])
+        assert v.claim.text in item["text"]
+        assert item["windows"] and all(f"datasets/{v.claim.dataset}/{v.claim.plan}/" in h for h in item["windows"])
+        for href in item["windows"]:
+            assert (site / href).is_file(), href
+
+
+def test_printed_pages_show_no_raw_link_targets(browser, fresh_sites):
+    site, _ = fresh_sites["demo"]
+    context = browser.new_context(viewport=SCREEN)
+    spilled = {}
+    try:
+        page = context.new_page()
+        page.emulate_media(media="print")
+        for path in ("index.html", "claims.html", "datasets/shift/index.html", "datasets/shift/eras/window-01.html"):
+            page.goto((site / path).as_uri(), wait_until="load")
+            spilled[path] = page.evaluate("""() => {
+                const out = [];
+                for (const a of document.querySelectorAll('a[href]')) {
+                  for (const pseudo of ['::before', '::after']) {
+                    const c = getComputedStyle(a, pseudo).content;
+                    if (c && c !== 'none' && c !== 'normal') out.push(pseudo + ' ' + c + ' on ' + a.getAttribute('href'));
+                  }
+                }
+                const text = document.body.innerText;
+                for (const m of text.matchAll(/\\((?:\\.\\.\\/|#)?[\\w\\/.-]+\\.(?:html|csv|json)(?:#[\\w-]+)?\\)/g)) out.push(m[0]);
+                return out.slice(0, 5);
+            }""")
+            if path == "index.html":
+                page.screenshot(path=str(ARTIFACTS / "home-print.png"), full_page=True)
+    finally:
+        context.close()
+    _fail_if(spilled, "link targets printed after links")

@@ -81,7 +81,7 @@ class TestLinks:
         css = [e.attrs["href"] for e in win.elements if e.tag == "link"
                and e.attrs.get("rel") == "stylesheet"]
         assert css == ["../../../assets/site.css"]
-        hrefs = {e.attrs["href"] for e in win.elements if e.tag == "a"}
+        hrefs = {e.attrs["href"] for e in win.elements if e.tag in ("a", "link")}
         assert "../index.html#results-side-by-side" in hrefs
         assert {"w-001.html", "w-003.html", "../../../caution.html"} <= hrefs
         for page, html in _pages(site).items():
@@ -139,35 +139,37 @@ class TestLayout:
         row2 = win[win.index("nav-row-2"):]
         assert row2.index("Trio:") < row2.index("</ul>")  # the dataset's siblings, then done
 
-    def test_window_pages_link_prev_and_next(self, site):
+    def test_window_pages_name_prev_and_next_in_the_head_not_in_a_pager(self, site):
         pages = _pages(site)
         first = parse(pages["datasets/trio/windows/w-001.html"]).elements
-        rels = {e.attrs.get("rel"): e.attrs["href"] for e in first if e.tag == "a"
-                and e.attrs.get("rel")}
+        rels = {e.attrs.get("rel"): e.attrs["href"] for e in first if e.tag == "link"
+                and e.attrs.get("rel") in ("prev", "next")}
         assert rels == {"next": "w-002.html"}
         last = parse(pages["datasets/trio/windows/w-003.html"]).elements
-        assert {e.attrs.get("rel") for e in last if e.tag == "a" and e.attrs.get("rel")} == {
-            "prev"}
+        assert {e.attrs.get("rel") for e in last if e.tag == "link"
+                and e.attrs.get("rel") in ("prev", "next")} == {"prev"}
+        assert not any(e.attrs.get("rel") in ("prev", "next") for e in first if e.tag == "a")
 
-    def test_breadcrumbs_end_with_the_current_page(self, site):
+    def test_trail_names_what_the_page_belongs_to_without_the_home_page(self, site):
         doc = parse(_pages(site)["datasets/trio/windows/w-002.html"])
-        crumbs = [e for e in doc.elements if e.tag == "nav"
-                  and e.attrs.get("aria-label") == "Breadcrumb"]
-        text = element_text(crumbs[0])
-        assert text.startswith("Home Datasets Trio:") and text.endswith("Window 2: 1992\u20132001")
+        trail = [e for e in doc.elements if e.tag == "p" and e.attrs.get("class") == "trail"]
+        text = element_text(trail[0])
+        assert text.startswith("Part of Datasets") and "Trio:" in text and "Home" not in text
+        assert not [e for e in doc.elements if e.attrs.get("aria-label") == "Breadcrumb"]
 
     def test_every_page_carries_the_standing_cautions(self, site):
         for path, html in _pages(site).items():
             text = visible_text(html)
-            assert "association in the data, not causation" in text
+            assert "association, not causation" in text
             assert "qualified statistician" in text and "institution" in text
             assert "noise assumptions" in text
 
-    def test_long_pages_get_an_on_page_contents_list(self, site):
+    def test_long_pages_get_a_jump_strip_of_their_sections(self, site):
         trio = _pages(site)["datasets/trio/index.html"]
-        assert 'aria-label="On this page"' in trio
+        assert 'aria-label="Sections of this page"' in trio
         assert 'href="#ünïcødé-heading_1"' in trio
-        assert 'aria-label="On this page"' not in _pages(site)["glossary.html"]
+        assert 'aria-label="Sections of this page"' not in _pages(site)["glossary.html"]
+        assert "On this page" not in trio
 
     def test_a_body_with_its_own_h1_replaces_the_title_heading(self):
         content = build_sample_content()

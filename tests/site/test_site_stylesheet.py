@@ -75,9 +75,14 @@ def test_focus_ring_meets_non_text_contrast(scheme):
         assert contrast(colours["--focus"], colours[bg]) >= 3.0  # WCAG 1.4.11
 
 
+def test_print_media_appends_no_link_targets():
+    # printed links show their words only: no attr(href) anywhere in the stylesheet
+    assert "attr(href)" not in CSS
+
+
 def test_stylesheet_has_dark_print_focus_and_responsive_rules():
     for needle in ("prefers-color-scheme: dark", "@media print", ":focus-visible",
-                   "max-width: 100%", "overflow-x: auto", 'content: " (" attr(href) ")"'):
+                   "max-width: 100%", "overflow-x: auto", "a::after, a::before { content: none !important; }"):
         assert needle in CSS
 
 

@@ -12,10 +12,12 @@ import pandas as pd
 
 from relspan import __version__
 from relspan.analysis.results import jsonable
-from relspan.assumptions import ASSUMPTION_IDS
+from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.environment import constraints_text
 from relspan.precision import canonical_document, canonical_frame, precision_table
 from relspan.report import pages as P
+from relspan.report.pages.reference import CAUTION_TITLE
+from relspan.report.text import glossary_terms
 from relspan.site.content import NavItem, Page, SiteContent
 
 __all__ = ["site_draft", "SiteDraft", "results_document", "dataset_document", "RESULTS_SCHEMA_VERSION",
@@ -100,7 +102,8 @@ def _assumptions_csv(result) -> bytes:
         if a not in full.coranks:
             continue
         status, values = coefficient_status(full, a)
-        rows.append({"assumption": a, "corank": full.coranks[a], "normalise_on": full.names[full.ref],
+        rows.append({"assumption": a, "noise_assumption": assumption(a).name, "corank": full.coranks[a],
+                     "normalise_on": full.names[full.ref],
                      "coefficients": status, **values})
     return _csv(pd.DataFrame(rows))
 
@@ -118,7 +121,7 @@ def _windows_csv(result) -> bytes:
                     continue
                 row = {"plan": plan.plan.id, "window": an.label, "rows": w.rows,
                        "first_time": w.first_time, "last_time": w.last_time, "assumption": a,
-                       "corank": an.coranks[a]}
+                       "noise_assumption": assumption(a).name, "corank": an.coranks[a]}
                 for q in result.examined:
                     row[f"angle_to_full_deg[q={q}]"] = angles.get((an.label, a, q), np.nan)
                 for k, name in enumerate(an.names):
@@ -163,7 +166,8 @@ def site_draft(run) -> SiteDraft:
     """Lay out the site of a whole run: pages, downloads, navigation and figure jobs."""
     spec = run.spec
     pub = P.Publisher(fmt=spec.site.figures)
-    pages: list[Page] = [P.home_page(run)]
+    archive = f"{spec.path.stem}-site.zip"
+    pages: list[Page] = [P.home_page(run, pub, archive), P.datasets_page(run)]
     for result in run.datasets:
         pages.append(P.dataset_page(run, result, pub))
         pages.extend(P.window_pages(run, result, pub))
@@ -180,19 +184,20 @@ def site_draft(run) -> SiteDraft:
     pages += [P.reproduce_page(run, pub, spec_link), P.downloads_page(run, pub)]
     nav = (
         NavItem("Home", "index.html"),
-        NavItem("Datasets", P.dataset_path(run.datasets[0].spec.id) if run.datasets else "index.html",
+        NavItem("Datasets", P.DATASETS_PATH,
                 tuple(NavItem(r.spec.title, P.dataset_path(r.spec.id)) for r in run.datasets)),
         NavItem("Claims", "claims.html"),
-        NavItem("Caution", "caution.html"),
+        NavItem(CAUTION_TITLE, "caution.html"),
         NavItem("Methods", "methods.html"),
         NavItem("Glossary", "glossary.html"),
         NavItem("Reproduce", "reproduce.html"),
         NavItem("Downloads", "downloads.html"),
     )
-    footer = (f"Built with relspan {__version__} from the spec and data listed on [Reproduce](/reproduce.html); "
-              "every number can be downloaded from [Downloads](/downloads.html).")
+    footer = (f"relspan {__version__} made these pages from the spec and data listed under "
+              "[Reproduce](/reproduce.html); every number is under [Downloads](/downloads.html).")
     content = SiteContent(title=spec.report.title, language=spec.site.language, pages=tuple(pages),
-                          files=(), nav=nav, footer=footer)
+                          files=(), nav=nav, footer=footer, glossary="glossary.html", terms=glossary_terms(),
+                          archive=archive)
     return SiteDraft(content, tuple(pub.jobs), pub.fmt, pub)
 
 

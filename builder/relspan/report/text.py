@@ -9,11 +9,13 @@ into a page as is).
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 from relspan.assumptions import ASSUMPTIONS, assumption
 from relspan.site.markdown import Raw
 
-__all__ = ["USUAL_CAUTIONS", "CAUTION_LINK", "caution_body", "GLOSSARY", "METHODS", "REFERENCES",
-           "ASSUMPTION_PLAIN"]
+__all__ = ["USUAL_CAUTIONS", "CAUTION_LINK", "caution_body", "GLOSSARY", "GlossaryEntry", "glossary_terms",
+           "METHODS", "REFERENCES", "ASSUMPTION_PLAIN"]
 
 
 def _heading(assumption_id: str) -> str:
@@ -93,32 +95,119 @@ pages show each coefficient under every assumption side by side.
 """)
 
 
-GLOSSARY = (
-    ("Corank", "The number of separate linear relations that hold among the variables (after allowing "
-     "for measurement error). Corank 2 among 4 variables means two independent equations tie them "
-     "together."),
-    ("Relation", "A linear equation the variables satisfy up to measurement error, such as "
-     "*a*·*x* + *b*·*y* + *c*·*z* = constant."),
-    ("Relation subspace", "All the relations together: with two relations, every combination of them is "
-     "also a relation, and the set of all of them is a plane. This plane is what the data pin down."),
-    ("Elementary regression", "The ordinary least-squares fit that treats one chosen variable as the only "
-     "noisy one. With n variables there are n of them; how far they disagree shows how much the noise "
-     "assumption matters."),
-    ("Noise assumption", "What is assumed about the measurement errors: which variables carry them, how "
-     "large they are, whether they are independent. Each assumption can give a different answer."),
-    ("Tolerance (eps)", "The largest measurement error the analysis allows, as a share of each variable's "
-     "variance (relative) or in the data's units (absolute)."),
-    ("Normalised coefficient", "A coefficient of a relation written as an equation for one chosen "
-     "variable. Meaningful only when it is identified; see [how to read a single coefficient](/caution.html)."),
-    ("Reduced form", "Some variables (as many as there are relations) written through the others. It is "
-     "identified once the choice of variables is made."),
-    ("Principal angle", "How far apart two subspaces are, in degrees: 0 means the same, 90 means "
-     "perpendicular. Used to compare relation subspaces across windows."),
-    ("Window", "A stretch of the data (a time span or a run of rows) analysed on its own, so results can "
-     "be compared across time."),
-    ("Identified", "Pinned down by the data and the stated assumptions alone: a single value, or a set "
-     "whose bounds are known."),
-) + tuple((a.title, a.glossary) for a in ASSUMPTIONS)
+@dataclass(frozen=True, slots=True)
+class GlossaryEntry:
+    """One glossary entry: the words that count as a use of it, and its text (Markdown)."""
+
+    term: str
+    anchor: str
+    words: tuple[str, ...]
+    text: str
+
+
+def _entry(term: str, words: tuple[str, ...], text: str, anchor: str = "") -> GlossaryEntry:
+    return GlossaryEntry(term, anchor or "-".join(term.lower().replace("(", "").replace(")", "").split()),
+                         words, text)
+
+
+#: every technical term a page may use, with the forms that count as a use; the renderer links the
+#: first use on each page to the entry (relspan.site.render.link_terms)
+GLOSSARY: tuple[GlossaryEntry, ...] = tuple(sorted((
+    _entry("Corank", ("corank", "coranks"),
+           "The number of separate linear relations that hold among the variables (after allowing for "
+           "measurement error). Corank 2 among 4 variables means two independent equations tie them together."),
+    _entry("Relation", ("relation", "relations"),
+           "A linear equation the variables satisfy up to measurement error, such as "
+           "*a*·*x* + *b*·*y* + *c*·*z* = constant."),
+    _entry("Relation subspace", ("relation subspace", "relation subspaces", "subspace of relations",
+                                 "plane of relations"),
+           "All the relations together: with two relations, every combination of them is also a relation, "
+           "and the set of all of them is a plane. This plane is what the data pin down."),
+    _entry("Elementary regression", ("elementary regression", "elementary regressions",
+                                     "elementary-regression"),
+           "The ordinary least-squares fit that treats one chosen variable as the only noisy one. With n "
+           "variables there are n of them; how far they disagree shows how much the noise assumption matters."),
+    _entry("Noise assumption", ("noise assumption", "noise assumptions"),
+           "What is assumed about the measurement errors: which variables carry them, how large they are, "
+           "whether they are independent. Each assumption can give a different answer."),
+    _entry("Tolerance (eps)", ("tolerance", "tolerances", "eps"),
+           "The largest measurement error the analysis allows, as a share of each variable's variance "
+           "(relative) or in the data's units (absolute)."),
+    _entry("Normalised coefficient", ("normalised coefficient", "normalised coefficients", "single coefficient",
+                                      "single coefficients"),
+           "A coefficient of a relation written as an equation for one chosen variable. Meaningful only when "
+           "it is identified; see [how to read a single coefficient](/caution.html)."),
+    _entry("Reduced form", ("reduced form",),
+           "Some variables (as many as there are relations) written through the others. It is identified "
+           "once the choice of variables is made."),
+    _entry("Principal angle", ("principal angle", "principal angles"),
+           "How far apart two subspaces are, in degrees: 0 means the same, 90 means perpendicular. Used to "
+           "compare relation subspaces across windows (the largest of the angles is quoted)."),
+    _entry("Window", ("window", "windows"),
+           "A stretch of the data (a time span or a run of rows) analysed on its own, so results can be "
+           "compared across time. A window plan says how the data are cut into windows."),
+    _entry("Identified", ("identified", "identify", "identifies", "identification"),
+           "Pinned down by the data and the stated assumptions alone: a single value, or a set whose bounds "
+           "are known."),
+    _entry("Undetermined", ("undetermined",),
+           "Said of a number of relations that the computation could neither certify nor rule out at the "
+           "stated tolerance. The site then says what was certified and leaves the rest open."),
+    _entry("Eigenvalue", ("eigenvalue", "eigenvalues"),
+           "For a covariance matrix: the variance of the data along one of its independent directions. A "
+           "very small eigenvalue means the data hardly vary in that direction, that is, they nearly satisfy "
+           "a linear relation there."),
+    _entry("Orthant", ("orthant", "orthants"),
+           "A region of space where every coordinate keeps one fixed sign (the quadrants of a plane, the "
+           "octants of space). Under independent noise with one relation, the coefficients are bounded "
+           "exactly when all elementary regressions lie in one orthant (Frisch 1934; Klepper and Leamer 1984)."),
+    _entry("Simplex", ("simplex", "simplices"),
+           "The smallest convex shape through a set of points: a segment for two points, a triangle for "
+           "three. Under independent noise with one relation, the possible relations fill the simplex of "
+           "the elementary regressions when they lie in one orthant."),
+    _entry("Convex hull", ("convex hull",),
+           "All weighted averages (with non-negative weights summing to 1) of a set of points; for points in "
+           "general position it is their simplex."),
+    _entry("Flat", ("flat", "flats"),
+           "A line, plane or higher analogue that need not pass through the origin. With q relations, the "
+           "elementary regressions written for one variable lie near a flat of dimension q - 1 (a line for two "
+           "relations)."),
+    _entry("RMS distance", ("rms distance", "root-mean-square distance"),
+           "The root mean square of the distances of points from a fitted line or flat: the square root of "
+           "the average squared distance. It grows with the measurement error."),
+    _entry("Condition number", ("condition number", "condition numbers"),
+           "How much a computed answer can move when the data move slightly: near 1 is well posed, large "
+           "values mean small changes in the data can change the answer a lot."),
+    _entry("Spectral norm", ("spectral norm",),
+           "The size of a matrix as the largest factor by which it can stretch a vector; for a noise "
+           "covariance, the largest noise variance in any direction."),
+    _entry("Least squares", ("least squares", "least-squares", "ordinary least squares"),
+           "Fitting an equation by making the squared errors of one variable as small as possible; it assumes "
+           "that only that variable is measured with error."),
+    _entry("Total least squares", ("total least squares",),
+           "Fitting a relation by making the squared distances of all variables as small as possible; it "
+           "assumes equal noise in every variable on the analysed scale (Golub and Van Loan 1980)."),
+    _entry("Frisch scheme", ("frisch scheme",),
+           "The name in the literature (Frisch 1934) for the analysis under independent noise: every variable "
+           "has its own error of unknown size, independent of the others."),
+    _entry("Correlation scale", ("correlation scale",),
+           "Each variable divided by its own standard deviation in the window, so that every variable has "
+           "variance 1; a relative tolerance is a share of that variance."),
+    _entry("Claim", ("claim", "claims"),
+           "A statement the authors make about the data in the spec (for example, \u201ctwo relations hold "
+           "in every ten-year window\u201d) that every build checks again."),
+    _entry("Resampling", ("resampling", "bootstrap"),
+           "Repeating the analysis on many resamples of the rows (whole blocks of neighbouring rows for data "
+           "in time order) to see how much the answer would vary from sample to sample; the methods page "
+           "names the scheme used."),
+) + tuple(_entry(a.title, (a.name,), a.glossary, anchor=f"noise-{a.id}") for a in ASSUMPTIONS),
+    key=lambda e: e.term.lower()))
+
+
+def glossary_terms():
+    """The glossary as the renderer's :class:`~relspan.site.content.Term` records."""
+    from relspan.site.content import Term
+
+    return tuple(Term(e.anchor, e.words) for e in GLOSSARY)
 
 
 #: (key, title, assumption in one sentence, [(formula TeX, alt text in words)], limits, reference keys)

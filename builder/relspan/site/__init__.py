@@ -10,7 +10,7 @@ blocks (:mod:`.blocks`), rendering with relative links and ``SHA256SUMS``
 from __future__ import annotations
 
 from relspan.site.blocks import CARD_KINDS, VERDICTS, badge, callout, card, cards, details, figure
-from relspan.site.content import SECTIONS, NavItem, Page, SiteContent, SiteFile
+from relspan.site.content import SECTIONS, NavItem, Page, SiteContent, SiteFile, Term
 from relspan.site.formulas import FormulaImage, formula_image, formula_svg
 from relspan.site.links import PROBLEM_KINDS, Problem, check_files, check_site
 from relspan.site.markdown import (Heading, RenderedMarkdown, escape_cell, escape_text,
@@ -21,7 +21,7 @@ from relspan.site.serve import make_server, serve_folder
 from relspan.site.writer import MARKER, check_output, write_site
 
 __all__ = [
-    "SECTIONS", "Page", "SiteFile", "NavItem", "SiteContent",
+    "SECTIONS", "Page", "SiteFile", "NavItem", "SiteContent", "Term",
     "render_markdown", "RenderedMarkdown", "Heading", "escape_text", "escape_cell", "slugify",
     "CARD_KINDS", "VERDICTS", "card", "cards", "badge", "callout", "details", "figure",
     "formula_svg", "formula_image", "FormulaImage",

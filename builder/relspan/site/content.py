@@ -24,10 +24,10 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-__all__ = ["SECTIONS", "Page", "SiteFile", "NavItem", "SiteContent"]
+__all__ = ["SECTIONS", "Page", "SiteFile", "NavItem", "Term", "SiteContent"]
 
 #: Allowed values of :attr:`Page.section`.
-SECTIONS = ("home", "dataset", "window", "claims", "caution", "methods", "glossary",
+SECTIONS = ("home", "datasets", "dataset", "window", "claims", "caution", "methods", "glossary",
             "reproduce", "downloads")
 
 _SEGMENT = re.compile(r"^[^/\\\x00-\x1f\x7f]+$")
@@ -144,6 +144,33 @@ class NavItem:
             raise ValueError(f"NavItem.children of {self.path!r} must be a tuple of NavItem.")
 
 
+_ANCHOR = re.compile(r"^[a-z0-9][a-z0-9-]*$")
+
+
+@dataclass(frozen=True, slots=True)
+class Term:
+    """A glossary term: the renderer links its first use on every page to its entry.
+
+    Parameters
+    ----------
+    anchor : str
+        Fragment id of the entry on the glossary page (lower case, digits, hyphens).
+    words : tuple of str
+        The forms that count as a use, matched as whole words and case-insensitively
+        (``("corank", "coranks")``).
+    """
+
+    anchor: str
+    words: tuple[str, ...]
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.anchor, str) or not _ANCHOR.match(self.anchor):
+            raise ValueError(f"Term.anchor must be lower-case letters, digits and hyphens; got {self.anchor!r}.")
+        if (not isinstance(self.words, tuple) or not self.words
+                or not all(isinstance(w, str) and w.strip() for w in self.words)):
+            raise ValueError(f"Term.words of {self.anchor!r} must be a non-empty tuple of words.")
+
+
 @dataclass(frozen=True, slots=True)
 class SiteContent:
     """Everything the renderer needs to produce the site.
@@ -162,6 +189,15 @@ class SiteContent:
         Top-level navigation (datasets, claims, caution, ...).
     footer : str
         Markdown shown at the foot of every page (links site-root-absolute).
+    glossary : str
+        Site-relative path of the glossary page ("" for none).
+    terms : tuple of Term
+        Glossary terms; the first use of each in a page's running text (outside
+        headings, code and existing links) becomes a link to its entry on
+        ``glossary``. The glossary page itself is left as written.
+    archive : str
+        Site-relative path of a zip file holding every other file of the site
+        (the download-everything bundle), or "" for none.
     """
 
     title: str
@@ -170,6 +206,9 @@ class SiteContent:
     files: tuple[SiteFile, ...]
     nav: tuple[NavItem, ...]
     footer: str = ""
+    glossary: str = ""
+    terms: tuple[Term, ...] = ()
+    archive: str = ""
 
     def __post_init__(self) -> None:
         if not isinstance(self.title, str) or not self.title.strip():
@@ -183,3 +222,15 @@ class SiteContent:
                 raise ValueError(f"SiteContent.{name} must be a tuple of {kind.__name__}.")
         if not isinstance(self.footer, str):
             raise ValueError("SiteContent.footer must be a str.")
+        if not isinstance(self.terms, tuple) or not all(isinstance(t, Term) for t in self.terms):
+            raise ValueError("SiteContent.terms must be a tuple of Term.")
+        if self.terms and not self.glossary:
+            raise ValueError("SiteContent.terms need SiteContent.glossary, the page they link to.")
+        for name in ("glossary", "archive"):
+            value = getattr(self, name)
+            if not isinstance(value, str):
+                raise ValueError(f"SiteContent.{name} must be a str.")
+            if value:
+                _check_site_path(value, f"SiteContent.{name}")
+        if self.archive and not self.archive.endswith(".zip"):
+            raise ValueError(f"SiteContent.archive must end in '.zip'; got {self.archive!r}.")

@@ -15,9 +15,11 @@ from __future__ import annotations
 
 import datetime as _dt
 import hashlib
+import io
 import os
 import posixpath
 import re
+import zipfile
 from collections.abc import Mapping
 from html import escape as _html_escape
 from html.parser import HTMLParser
@@ -28,11 +30,11 @@ import jinja2
 import markupsafe
 
 from relspan.errors import OptionsError
-from relspan.site.content import NavItem, Page, SiteContent
+from relspan.site.content import NavItem, Page, SiteContent, Term
 from relspan.site.markdown import render_markdown
 
-__all__ = ["render_site", "relative_url", "rewrite_links", "sha256sums", "source_date",
-           "ASSET_DIR", "SUMS_NAME", "RESERVED_NAMES", "CSP"]
+__all__ = ["render_site", "relative_url", "rewrite_links", "link_terms", "zip_bytes", "sha256sums",
+           "source_date", "ASSET_DIR", "SUMS_NAME", "RESERVED_NAMES", "CSP", "TERM_SKIP_TAGS"]
 
 #: Folder of the site holding the stylesheet (and any other packaged asset).
 ASSET_DIR = "assets"
@@ -142,6 +144,108 @@ def rewrite_links(html: str, page_path: str) -> str:
         pos = start + length
     out.append(html[pos:])
     return "".join(out)
+
+
+# ------------------------------------------------------------- glossary terms
+
+#: elements whose text never gets a glossary link: headings, existing links, code, and
+#: anything not read as running text
+TERM_SKIP_TAGS = frozenset({"a", "h1", "h2", "h3", "h4", "h5", "h6", "code", "pre", "kbd", "samp",
+                            "script", "style", "svg", "button", "label", "title", "dt", "nav", "summary"})
+_VOID = frozenset({"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta",
+                   "source", "track", "wbr"})
+
+
+def _term_pattern(terms: tuple[Term, ...]) -> tuple[re.Pattern, dict[str, str]]:
+    owner: dict[str, str] = {}
+    for t in terms:
+        for w in t.words:
+            owner.setdefault(w.lower(), t.anchor)
+    words = sorted(owner, key=lambda w: (-len(w), w))  # longest first: "elementary regression" before "regression"
+    body = "|".join(re.escape(w).replace(r"\ ", r"\s+") for w in words)
+    return re.compile(rf"(?<![\w-])({body})(?!\w)", re.IGNORECASE), owner
+
+
+class _TextFinder(HTMLParser):
+    """Positions of the running-text segments of an HTML fragment (outside :data:`TERM_SKIP_TAGS`)."""
+
+    def __init__(self) -> None:
+        super().__init__(convert_charrefs=False)
+        self.stack: list[str] = []
+        self.segments: list[tuple[int, int, str]] = []  # (line, col, raw text)
+
+    def handle_starttag(self, tag, attrs):  # noqa: D102 (HTMLParser API)
+        if tag not in _VOID:
+            self.stack.append(tag)
+
+    def handle_endtag(self, tag):  # noqa: D102
+        if tag in self.stack:
+            while self.stack and self.stack.pop() != tag:
+                pass
+
+    def handle_data(self, data):  # noqa: D102
+        if data.strip() and not any(t in TERM_SKIP_TAGS for t in self.stack):
+            line, col = self.getpos()
+            self.segments.append((line, col, data))
+
+
+def link_terms(html: str, terms: tuple[Term, ...], glossary: str) -> str:
+    """Link the first use of each glossary term in ``html`` (a page body) to its entry.
+
+    A use is a whole-word, case-insensitive match of one of the term's words in running
+    text: text inside headings, links, code and the other :data:`TERM_SKIP_TAGS` does not
+    count. Each term is linked once per page, at its first use; nothing else changes.
+    """
+    if not terms:
+        return html
+    pattern, owner = _term_pattern(terms)
+    finder = _TextFinder()
+    finder.feed(html)
+    finder.close()
+    line_starts = [0] + [m.end() for m in re.finditer("\n", html)]
+    done: set[str] = set()
+    edits: list[tuple[int, int, str]] = []
+    for line, col, text in finder.segments:
+        start = line_starts[line - 1] + col
+        for m in pattern.finditer(text):
+            anchor = owner[" ".join(m.group(1).lower().split())]
+            if anchor in done:
+                continue
+            done.add(anchor)
+            a = (f'<a class="term" href="/{glossary}#term-{anchor}">{m.group(1)}</a>')
+            edits.append((start + m.start(), start + m.end(), a))
+        if len(done) == len({t.anchor for t in terms}):
+            break
+    out, pos = [], 0
+    for lo, hi, new in sorted(edits):
+        out += [html[pos:lo], new]
+        pos = hi
+    out.append(html[pos:])
+    return "".join(out)
+
+
+# ---------------------------------------------------------------- the bundle
+
+#: the timestamp of every member of the download-everything zip (the earliest a zip can hold)
+_ZIP_TIME = (1980, 1, 1, 0, 0, 0)
+
+
+def zip_bytes(files: Mapping[str, bytes], folder: str) -> bytes:
+    """The files as one zip, every member under ``folder/``: same files, same bytes.
+
+    Members are sorted by name, stored uncompressed (deflate output depends on the zlib
+    build; stored bytes do not), stamped 1980-01-01 00:00 with mode 0644 and a Unix
+    origin, and carry no comment or extra fields.
+    """
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w", compression=zipfile.ZIP_STORED, allowZip64=True) as zf:
+        for path in sorted(files):
+            info = zipfile.ZipInfo(f"{folder}/{path}", date_time=_ZIP_TIME)
+            info.compress_type = zipfile.ZIP_STORED
+            info.create_system = 3
+            info.external_attr = 0o100644 << 16
+            zf.writestr(info, files[path])
+    return buf.getvalue()
 
 
 # ------------------------------------------------------------------ checksums
@@ -274,10 +378,15 @@ def _render_page(env: jinja2.Environment, content: SiteContent, page: Page,
                  footer_html: str, caution_path: str | None, build_date: str | None) -> bytes:
     rendered = render_markdown(page.body_markdown)
     body = rendered.html
+    if content.terms and page.path != content.glossary:
+        body = link_terms(body, content.terms, content.glossary)
     show_title = not body.lstrip().startswith("<h1")
     h2 = [h for h in rendered.headings if h.level == 2]
-    toc = h2 if len(h2) >= _TOC_MIN_HEADINGS else []
+    # the home page is read as panels and the datasets overview repeats the menu's second row: no strip
+    toc = h2 if len(h2) >= _TOC_MIN_HEADINGS and page.section not in ("home", "datasets") else []
     ancestors = {path for _, path in page.breadcrumbs}
+    # the trail names what the page belongs to; the home page is the site title's link
+    trail = [(t, p) for t, p in page.breadcrumbs if p != "index.html"]
     description = page.description.strip() or f"{page.title}: {content.title}"
     html = env.get_template("base.html").render(
         language=content.language,
@@ -287,7 +396,8 @@ def _render_page(env: jinja2.Environment, content: SiteContent, page: Page,
         site_title=content.title,
         page=page,
         nav=_nav_rows(content.nav, page.path, ancestors) if content.nav else [],
-        breadcrumbs=page.breadcrumbs,
+        trail=trail,
+        archive=content.archive,
         show_title=show_title,
         toc=toc,
         body=body,
@@ -333,6 +443,11 @@ def render_site(content: SiteContent, *, build_date: str | None = None) -> dict[
         out[f.path] = f.data
     for page in content.pages:
         out[page.path] = _render_page(env, content, page, footer_md, caution, build_date)
+    if content.archive:
+        if content.archive in out:
+            raise ValueError(f"site path {content.archive!r} is used twice (archive and page or file).")
+        folder = re.sub(r"\.zip$", "", posixpath.basename(content.archive))
+        out[content.archive] = zip_bytes(out, folder)
     out = {path: out[path] for path in sorted(out)}
     out[SUMS_NAME] = sha256sums(out)
     return out

@@ -162,7 +162,7 @@ class AssumptionRow:
     assumption : str
         Assumption id.
     corank : int or None
-        Relations found (None: not settled); for ``elementary`` 1 by assumption.
+        Relations found (None: undetermined); for ``elementary`` 1 by assumption.
     corank_words : str
         "2", "undetermined", "1 (assumed)".
     relations : str

@@ -220,7 +220,7 @@ def _relations_words(full, a: str, q) -> str:
     if a == "elementary":
         return f"{full.n} different answers, one per noisy variable"
     if q is None:
-        return "not settled at this tolerance"
+        return "undetermined at this tolerance"
     if q == 0:
         return "no relation at this tolerance"
     if a == "bounded" and full.bounded is not None:
@@ -251,7 +251,7 @@ def _identified_words(full, a: str, q) -> str:
     if a == "elementary":
         return "a point, but only because the assumption fixes which variable is noisy"
     if q is None:
-        return "not settled"
+        return "undetermined"
     if q == 0:
         return "nothing (no relation)"
     if q >= 2:
@@ -312,7 +312,7 @@ def _window_plain(plan, i: int, a, w, q) -> str:
     for key in ("equal", "shaped", "bounded", "diagonal"):
         if key in a.coranks:
             c = a.coranks[key]
-            said = "not settled" if c is None else count(c, "relation")
+            said = "undetermined" if c is None else count(c, "relation")
             if key == "bounded" and c:
                 said += " admissible"
             if key == "diagonal" and c == 1:

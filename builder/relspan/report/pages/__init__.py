@@ -10,7 +10,7 @@ place that shows a single coefficient links the caution page.
 * :mod:`.addresses`: the URL scheme;
 * :mod:`.publisher`: files of the site and the figure jobs;
 * :mod:`.tables`: Markdown tables and their CSV downloads;
-* :mod:`.home`, :mod:`.dataset`, :mod:`.windows`, :mod:`.claims`,
+* :mod:`.home`, :mod:`.overview` (the datasets overview), :mod:`.dataset`, :mod:`.windows`, :mod:`.claims`,
   :mod:`.reference` (caution, methods, glossary), :mod:`.reproduce`
   (reproduce, downloads): one module per page family.
 
@@ -20,7 +20,8 @@ Numbers and counts are written by :mod:`relspan.words`.
 from relspan.report.pages.addresses import HOME, csv_path, dataset_path, window_path
 from relspan.report.pages.claims import claims_page
 from relspan.report.pages.dataset import dataset_page
-from relspan.report.pages.home import home_page
+from relspan.report.pages.home import READER_ANCHORS, home_page
+from relspan.report.pages.overview import DATASETS_PATH, datasets_page
 from relspan.report.pages.publisher import FigureJob, Publisher
 from relspan.report.pages.reference import caution_page, glossary_page, methods_page
 from relspan.report.pages.reproduce import downloads_page, reproduce_page
@@ -29,4 +30,4 @@ from relspan.report.pages.windows import window_pages
 
 __all__ = ["Publisher", "FigureJob", "home_page", "dataset_page", "window_pages", "claims_page",
            "caution_page", "methods_page", "glossary_page", "reproduce_page", "downloads_page", "HOME",
-           "dataset_path", "window_path", "csv_path", "plain_cell", "table_csv_bytes", "json_bytes"]
+           "dataset_path", "window_path", "csv_path", "plain_cell", "table_csv_bytes", "json_bytes", "datasets_page", "DATASETS_PATH", "READER_ANCHORS"]

@@ -308,7 +308,7 @@ def dataset_page(run, result, pub: Publisher) -> Page:
                                        for k, v in ASSUMPTION_PLAIN.items() if k in full.coranks)))
     body.append(Raw("## How many relations {#corank}\n"))
     body.append(md("**In plain words:** {}\n", sm.pinned.text))
-    counts = "; ".join(f"{assumption(a).title.lower()}: " + ("not settled" if full.coranks[a] is None
+    counts = "; ".join(f"{assumption(a).title.lower()}: " + ("undetermined" if full.coranks[a] is None
                                                              else str(full.coranks[a]))
                        for a in ASSUMPTION_IDS if a in full.coranks and a != "elementary")
     line = f"Relations in the full sample \u2014 {counts}."

@@ -39,6 +39,7 @@ class Publisher:
     fmt: str = "svg"
     files: dict = field(default_factory=dict)
     jobs: list = field(default_factory=list)
+    thumbs: list = field(default_factory=list)
 
     def add(self, path: str, data: bytes) -> str:
         self.files[path] = data
@@ -53,6 +54,37 @@ class Publisher:
         token = f"@@relspan-figure-{len(self.jobs):05d}@@"
         self.jobs.append(FigureJob(token, fn, tuple(args), folder, caption_markdown, ident, dataset_key))
         return Raw(f"\n\n{token}\n\n")
+
+    def thumbnail(self, result) -> Raw:
+        """A small copy of one figure the dataset's page already shows (no new drawing).
+
+        The first of these that was drawn: for each plan whose windows all support the same
+        relations, the angles between its windows (how far the relations move); else the
+        overview of the series. Resolved by :meth:`fill`.
+        """
+        folder = f"figures/{result.spec.id}"
+        q = result.examined[0] if result.examined else None
+        prefs = []
+        if q is not None:
+            for pid, *_ in result.summary.windowed:
+                prefs.append((f"{pid}/angles/{q}", "How far the relations move between "
+                              "windows (0\u00b0: they stay put)."))
+        prefs.append(("overview", "The series analysed, each standardised."))
+        token = f"@@relspan-thumb-{len(self.thumbs):05d}@@"
+        self.thumbs.append((token, folder, tuple(prefs), "/" + result.spec.id))
+        return Raw(f"\n\n{token}\n\n")
+
+    def _thumb_markdown(self, folder: str, prefs, drawn: dict) -> str:
+        for ident, caption in prefs:
+            hit = drawn.get((folder, ident))
+            if hit is None:
+                continue
+            job, (name, alt, description, _image, _csv, width, height) = hit
+            long = md("{}\n\nThe numbers behind this figure: [{}.csv]({}).", description, name,
+                      Raw(f"/{job.folder}/{name}.csv"))
+            return blocks.figure(f"/{job.folder}/{name}.{self.fmt}", alt, caption, long_description_markdown=long,
+                                 width=width, height=height, css_class="thumb")
+        return "\n\n"
 
     def _markdown(self, job: FigureJob, rendered) -> str:
         if rendered is None:
@@ -72,10 +104,13 @@ class Publisher:
         does not apply; the figure files are added to the site here.
         """
         snippets = {job.token: self._markdown(job, done) for job, done in zip(self.jobs, rendered)}
+        drawn = {(job.folder, job.ident): (job, done) for job, done in zip(self.jobs, rendered) if done is not None}
+        for token, folder, prefs, _ in self.thumbs:
+            snippets[token] = self._thumb_markdown(folder, prefs, drawn)
         out = []
         for page in pages:
             body = page.body_markdown
-            if "@@relspan-figure-" in body:
+            if "@@relspan-figure-" in body or "@@relspan-thumb-" in body:
                 for token, snippet in snippets.items():
                     if token in body:
                         body = body.replace(f"\n\n{token}\n\n", snippet or "\n\n")

@@ -11,11 +11,17 @@ from relspan.report.text import GLOSSARY, METHODS, REFERENCES, caution_body
 from relspan.site.content import Page
 from relspan.site.markdown import Raw
 
-__all__ = ["caution_page", "methods_page", "glossary_page"]
+__all__ = ["caution_page", "methods_page", "glossary_page", "CAUTION_TITLE"]
+
+
+#: the caution page's title, also its tab in the site navigation
+CAUTION_TITLE = "Caution"
 
 
 def caution_page() -> Page:
-    return Page("caution.html", "How to read a single coefficient", caution_body(), "caution",
+    body = Raw("How to read a single coefficient, and the cautions every result on this site carries.\n"
+               + str(caution_body()))
+    return Page("caution.html", CAUTION_TITLE, body, "caution",
                 breadcrumbs=(HOME,), description="Why a single normalised coefficient can mean nothing.")
 
 
@@ -53,6 +59,8 @@ def methods_page(pub: Publisher) -> Page:
 
 
 def glossary_page() -> Page:
-    items = "\n".join(f"- **{term}**: {text}" for term, text in GLOSSARY)
-    return Page("glossary.html", "Glossary", "The words used on this site, in plain language.\n\n" + items + "\n",
+    """Every technical term of the site, one paragraph each, with the id pages link to (``#term-<anchor>``)."""
+    items = "\n\n".join(f"**{e.term}**: {e.text}\n{{: #term-{e.anchor} .term-entry }}" for e in GLOSSARY)
+    return Page("glossary.html", "Glossary", "The words used on this site, in plain language. The first use of "
+                "each on a page links here.\n\n" + items + "\n",
                 "glossary", breadcrumbs=(HOME,), description="Plain-language glossary.")

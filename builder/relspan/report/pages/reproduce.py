@@ -47,7 +47,7 @@ def _replication_readme(run, pub: Publisher) -> str:
     """The README section, as the text of a fenced code block (shown literally, never rendered)."""
     spec = run.spec
     env = run.environment
-    lines = ["## Data availability and provenance", ""]
+    lines = ["## Where the data come from, and who may use them", ""]
     lines.append(f"- `{spec.path.name}`: the analysis spec, SHA-256 {_sha256(spec.text.encode('utf-8'))}.")
     for ds, r in zip(spec.datasets, run.datasets):
         period = f", {r.prepared.period[0]} to {r.prepared.period[1]}" if r.prepared.period else ""
@@ -56,7 +56,7 @@ def _replication_readme(run, pub: Publisher) -> str:
     if spec.report.licence:
         lines.append(f"- Licence of the data and report: {spec.report.licence}.")
     dists = env.get("distributions", {})
-    lines += ["", "## Computational requirements", "",
+    lines += ["", "## What a rerun needs", "",
               f"- Software: Python {env.get('python', '')} on {env.get('os', '')} {env.get('architecture', '')}, "
               f"relspan {env.get('relspan', '')}, "
               + ", ".join(f"{k} {v}" for k, v in sorted(dists.items()))
@@ -64,14 +64,14 @@ def _replication_readme(run, pub: Publisher) -> str:
               "- Hardware: a plain CPU machine; no GPU and no network access are needed.",
               f"- Randomness: the independent-noise search uses seed "
               f"{', '.join(str(s) for s in sorted({d.checks.seed for d in spec.datasets}))} (checks.seed).",
-              "", "## Instructions to replicators", "",
+              "", "## How to rerun it", "",
               f"1. Install relspan {env.get('relspan', '')} with the pinned versions: "
               f"`pip install -c constraints.txt relspan=={env.get('relspan', '')}`.",
               f"2. In the folder holding `{spec.path.name}`, run `relspan verify SITE` (SITE: the published "
               "site's folder); it re-runs the analysis and compares every number and verdict.",
               f"3. Or rebuild with `relspan build {spec.path.name}` and compare the `SHA256SUMS` file of the "
               "new site with the published one (same bytes in the pinned environment).", "",
-              "## List of tables, figures and programs", "",
+              "## Which program makes which output", "",
               "| Output | Program | File |", "|---|---|---|"]
     for what, program, path in _outputs(run, pub):
         lines.append(f"| {what} | {program} | {path} |")
@@ -153,9 +153,10 @@ def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
         table(("Quantities", "Significant digits", "What the precision rests on"), _precision_rows(),
               csv=(pub, "data/tables/precision.csv")),
         Raw("\n## For a replication package README {#readme}\n"),
-        Raw("A section ready to paste, in the structure commonly used for replication packages "
-            "(data availability, computational requirements, instructions, and a list mapping each table "
-            "and figure to the program and output file):\n"),
+        Raw("A section ready to paste into a replication package. It follows the structure of the "
+            "replication README template published by the Social Science Data Editors (data availability, "
+            "computational requirements, instructions to replicators, and a list mapping each table and "
+            "figure to its program and output file), with headings in relspan's own words:\n"),
         Raw("```markdown\n" + _replication_readme(run, pub) + "```\n"),
         blocks.callout(USUAL_CAUTIONS, title="Read with care"),
     ]
@@ -170,6 +171,8 @@ def downloads_page(run, pub: Publisher) -> Page:
                 "and the bytes are the same on every build of the same inputs. Every table on a page also has "
                 "its own CSV link underneath it.\n"),
             Raw("## The whole report {#all}\n"),
+            Raw(f"- [Every file of this site in one zip](/{run.spec.path.stem}-site.zip): pages, figures, "
+                "tables and the spec; it opens from a folder with no network"),
             Raw("- [All results (JSON)](/data/results.json)"),
             Raw("- [Schema of the results (JSON Schema)](/data/results.schema.json)"),
             Raw("- [Claim verdicts (CSV)](/data/claims.csv)"),

@@ -1,6 +1,9 @@
-"""One page per window: its plain opening, the assumptions side by side, its map and eigenvalues."""
+"""One page per window: where it sits (timeline strip), what it says, how it differs from its neighbours,
+then the assumptions side by side, its map and eigenvalues."""
 
 from __future__ import annotations
+
+import html
 
 from relspan.assumptions import assumption
 from relspan.report.pages.addresses import HOME, dataset_path, plan_anchor, window_csv_base, window_path
@@ -13,7 +16,49 @@ from relspan.site.content import Page
 from relspan.site.markdown import Raw, md
 from relspan.words import fmt
 
-__all__ = ["window_pages"]
+__all__ = ["window_pages", "timeline_strip"]
+
+
+def timeline_strip(plan_title: str, labels, paths, current: int) -> Raw:
+    """Every window of a plan as one cell in time order, the current one marked (not a link)."""
+    cells = []
+    for i, (label, path) in enumerate(zip(labels, paths)):
+        text = html.escape(label)
+        if i == current:
+            cells.append(f'<li><span class="here" aria-current="page">{text}</span></li>')
+        else:
+            cells.append(f'<li><a href="/{html.escape(path)}">{text}</a></li>')
+    return Raw(f'<nav class="timeline" aria-label="Windows of {html.escape(plan_title)}">\n'
+               f'<p class="timeline-label">{len(labels)} windows of \u201c{html.escape(plan_title)}\u201d, '
+               f'in time order; this one is marked.</p>\n<ol>{"".join(cells)}</ol>\n</nav>\n')
+
+
+def _counts(reading) -> dict:
+    return {r.assumption: r.corank_words for r in reading.rows if r.assumption != "elementary"}
+
+
+def _neighbour_line(which: str, label: str, path: str, here, there, angle) -> Raw:
+    """How this window differs from one neighbour: relations per assumption, and the turn of the relation."""
+    mine, theirs = _counts(here), _counts(there)
+    changed = [f"{assumption(a).name}: {mine[a]} here, {theirs[a]} there" for a in mine
+               if a in theirs and theirs[a] != mine[a]]
+    counts = (md("the number of relations differs ({})", "; ".join(changed)) if changed
+              else Raw("the same number of relations under every noise assumption"))
+    turn = (md("; under {} the relations are {} degrees apart (largest principal angle, no sampling interval "
+               "computed)", assumption("equal").name, fmt(angle, 2)) if angle is not None else Raw(""))
+    return md("- {} window, [{}](/{}): {}{}.", which, label, Raw(path), counts, turn)
+
+
+def _pair_angle(plan, q, labels, i, j):
+    """The largest principal angle between windows i and j under equal noise (as the analysis stored it)."""
+    if q is None:
+        return None
+    st = plan.stability.get(("equal", q))
+    pairwise = getattr(st, "pairwise_deg", None)
+    if pairwise is None or tuple(getattr(st, "labels", ())) != tuple(labels):
+        return None
+    value = float(pairwise[i][j])
+    return value if value == value else None
 
 
 def window_pages(run, result, pub: Publisher) -> list[Page]:
@@ -26,13 +71,31 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
         title = plan.plan.title or plan.plan.id
         readings = result.summary.windows[plan.plan.id]
         paths = [window_path(ds.id, plan.plan.id, i) for i in range(len(plan.analyses))]
+        labels = [a.label for a in plan.analyses]
         section = f"{dataset_path(ds.id)}#" + ("assumptions" if plan.plan.kind == "full"
                                                else plan_anchor(plan.plan.id))
         for i, (a, reading) in enumerate(zip(plan.analyses, readings)):
             base = window_csv_base(ds.id, plan.plan.id, i)
-            body = [Raw("## In plain words {#summary}\n"), md("{}\n", reading.plain)]
-            body.append(md("Part of \u201c{}\u201d, window {} of {}; [all windows of this plan]({}).\n",
-                           title, str(i + 1), str(len(paths)), Raw("/" + section)))
+            body = []
+            if len(paths) > 1:
+                body.append(timeline_strip(title, labels, paths, i))
+            body += [Raw("## What this window says {#summary}\n"), md("{}\n", reading.plain)]
+            if len(paths) > 1:
+                body.append(Raw("## How it differs from its neighbours {#neighbours}\n"))
+                lines = []
+                if i > 0:
+                    angle = (reading.angle_to_previous_deg if reading.angle_to_previous_deg is not None
+                             else _pair_angle(plan, q, labels, i, i - 1))
+                    lines.append(_neighbour_line("Previous", labels[i - 1], paths[i - 1], reading, readings[i - 1],
+                                                 angle))
+                if i + 1 < len(paths):
+                    nxt = readings[i + 1]
+                    angle = (nxt.angle_to_previous_deg if nxt.angle_to_previous_deg is not None
+                             else _pair_angle(plan, q, labels, i, i + 1))
+                    lines.append(_neighbour_line("Next", labels[i + 1], paths[i + 1], reading, nxt, angle))
+                body.append(Raw("\n".join(lines) + "\n"))
+                body.append(md("All windows of this plan side by side: [\u201c{}\u201d on the dataset page]({}).\n",
+                               title, Raw("/" + section)))
             for note in a.notes:
                 body.append(blocks.callout(note, title="Numerical note", kind="note"))
             body.append(Raw("## Noise assumptions {#assumptions}\n"))
@@ -60,8 +123,8 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
                 body.append(table(tuple(f"\u03bb{j + 1}" for j in range(len(ev))),
                                   [tuple(fmt(v) + (" \u2264 eps" if v <= a.eps else "") for v in ev)],
                                   csv=(pub, base + "-eigenvalues.csv")))
-            prev = (plan.analyses[i - 1].label, paths[i - 1]) if i > 0 else None
-            nxt = (plan.analyses[i + 1].label, paths[i + 1]) if i + 1 < len(paths) else None
+            prev = (labels[i - 1], paths[i - 1]) if i > 0 else None
+            nxt = (labels[i + 1], paths[i + 1]) if i + 1 < len(paths) else None
             pages.append(Page(paths[i], f"{ds.title}: {a.label}", "\n".join(body), "window",
                               breadcrumbs=(HOME, (ds.title, dataset_path(ds.id)), (title, section)),
                               prev=prev, next=nxt, description=f"{ds.title}, window {a.label} of {title}."))
