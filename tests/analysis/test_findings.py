@@ -96,7 +96,7 @@ class TestOverclaims:
         corank = [f for f in findings if f.topic == "corank" and f.kind in ("pinned_down", "no_relation")]
         assert corank, "the agreeing assumptions still give a corank finding"
         assert all("every noise assumption" not in f.headline for f in corank)
-        assert any("not settled" in f.headline for f in corank)
+        assert any("undetermined" in f.headline for f in corank)
 
     def test_whatever_the_noise_always_comes_with_within_the_tolerance(self, trio):
         for text in _all_texts(trio):
@@ -171,7 +171,7 @@ class TestOverclaims:
         plans = tuple(plan2 if p is plan else p for p in one.plans)
         findings, _ = _rebuild(one, plans=plans)
         assert not [f for f in findings if f.kind == "unstable" and f.topic == "corank"]
-        assert any("not settled in 1 of" in f.headline for f in findings)
+        assert any("undetermined in 1 of" in f.headline for f in findings)
 
 
 def test_a_count_chosen_in_the_spec_is_not_stated_as_found():

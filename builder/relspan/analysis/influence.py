@@ -363,11 +363,11 @@ def influence_report(stats, *, decide: Callable, full: Mapping[str, int | None],
     tol = f" at {tolerance.short}" if tolerance is not None else ""
 
     def words(c: Mapping) -> str:
-        return "; ".join(f"{_assumption(a).name} {('not settled' if q is None else q)}" for a, q in c.items())
+        return "; ".join(f"{_assumption(a).name} {('undetermined' if q is None else q)}" for a, q in c.items())
 
     def becomes(diff: Mapping) -> str:
         def q(v):
-            return "not settled" if v is None else str(v)
+            return "undetermined" if v is None else str(v)
         return "; ".join(f"{_assumption(a).name}: {q(full[a])} becomes {q(v)}" for a, v in diff.items())
 
     findings = []

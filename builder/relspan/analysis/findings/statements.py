@@ -50,7 +50,7 @@ def corank_words(a: str, q) -> str:
     """One assumption's full-sample count, with what the count means under it ("2 (admissible)")."""
     name = _assumption(a).name
     if q is None:
-        return f"{name}: not settled"
+        return f"{name}: undetermined"
     if q == 0:
         return f"{name}: 0"
     if no_evidence(a, q):
@@ -87,7 +87,7 @@ def _corank_findings(result) -> list[Finding]:
         q = values[0]
         names = ", ".join(_assumption(a).name for a in known)
         every = "under every noise assumption checked" if not undetermined else f"under {names}"
-        unsettled = (f"; {', '.join(_assumption(a).name for a in undetermined)}: not settled"
+        unsettled = (f"; {', '.join(_assumption(a).name for a in undetermined)}: undetermined"
                      if undetermined else "")
         if q == 0:
             out.append(Finding("no_relation", "corank",
@@ -360,7 +360,7 @@ def _stability_findings(result) -> list[Finding]:
             missing = sum(c is None for c in cs)
             if a != "elementary" and missing:
                 out.append(Finding("set_only", "corank",
-                                   f"Under {_assumption(a).name} the number of relations is not settled in "
+                                   f"Under {_assumption(a).name} the number of relations is undetermined in "
                                    f"{missing} of the {len(cs)} windows of \u201c{title}\u201d at {tol.short}; "
                                    "those windows are not counted as a change.",
                                    "Undetermined at eps: the search neither certified nor ruled out the corank.",
