@@ -44,13 +44,14 @@ def test_explicit_jobs_or_a_cluster_are_never_second_guessed(jobs, scheduler):
     assert not LazyExecutor(jobs, scheduler, auto=True).auto
 
 
-def test_a_first_build_reads_its_file_once_and_a_rebuild_only_hashes_it(tmp_path, monkeypatch):
-    """One pass over the data file: hashed as it is parsed; an unchanged rebuild hashes it alone."""
+def test_a_first_build_does_not_hash_its_file_before_the_pass_and_a_rebuild_only_hashes_it(tmp_path, monkeypatch):
+    """No separate hashing pass before the data pass on a cold run; an unchanged rebuild hashes
+    the file alone (no data pass)."""
     import numpy as np
 
     import relspan
     import relspan.data.sources as sources
-    from relspan.data.sources import csv as csv_source
+    from relspan.run import pipeline
 
     rng = np.random.default_rng(3)
     x = rng.normal(size=(400, 3))
@@ -62,23 +63,17 @@ def test_a_first_build_reads_its_file_once_and_a_rebuild_only_hashes_it(tmp_path
                     "    variables: [{column: a}, {column: b}, {column: c}]\n"
                     "windows:\n  - {id: full, kind: full}\n"
                     "checks: {assumptions: [elementary, equal]}\n", encoding="utf-8")
-    hashed, streamed = [], []
+    hashed, passes = [], []
     real_hash = sources.file_sha256
     monkeypatch.setattr(sources, "file_sha256", lambda p, **k: hashed.append(p) or real_hash(p, **k))
-    real_read = csv_source._HashingFile.readinto
-
-    def counting(self, buf):
-        n = real_read(self, buf)
-        streamed.append(n)
-        return n
-
-    monkeypatch.setattr(csv_source._HashingFile, "readinto", counting)
+    import relspan.data.prepare as prepare
+    real_prepare = prepare.prepare_dataset
+    monkeypatch.setattr(prepare, "prepare_dataset", lambda *a, **k: passes.append(1) or real_prepare(*a, **k))
     first = relspan.check(spec, jobs=1)
-    assert first.run.cache_misses == 1 and not hashed
-    assert sum(streamed) == data.stat().st_size        # every byte once, by the parser's reads
-    streamed.clear()
+    assert first.run.cache_misses == 1 and not hashed and len(passes) == 1
     again = relspan.check(spec, jobs=1)
-    assert again.run.cache_hits == 1 and len(hashed) == 1 and sum(streamed) == 0
-    data.write_text(data.read_text().replace("a,b,c", "a,b,c", 1) + "0.1,0.2,0.3\n")
+    assert again.run.cache_hits == 1 and len(hashed) == 1 and len(passes) == 1
+    data.write_text(data.read_text() + "0.1,0.2,0.3\n")
     changed = relspan.check(spec, jobs=1)
-    assert changed.run.cache_misses == 1
+    assert changed.run.cache_misses == 1 and len(passes) == 2
+    assert pipeline is not None

@@ -264,12 +264,13 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
     types = {names[p]: pa.float64() for p in table.positions[:nvar]}
     if table.time_column is not None:
         types[take[-1]] = pa.string()
-    hasher = _HashingFile(src)
+    hasher = _Hasher(src)
+    hasher.start()
     batches: _Prefetch | None = None
     try:
         try:
             reader = pacsv.open_csv(
-                pa.PythonFile(hasher, mode="r"),
+                src.resolved,
                 read_options=pacsv.ReadOptions(column_names=names, skip_rows=1,
                                                block_size=ARROW_BLOCK_BYTES, use_threads=True),
                 parse_options=pacsv.ParseOptions(delimiter=src.delimiter or ","),
@@ -309,9 +310,9 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
                 yield RawChunk(values, times, False, rows)
         sha = hasher.result()
     finally:
+        hasher.stop()
         if batches is not None:
             batches.stop()
-        hasher.close()
     table.sha256 = sha
     table.rows_read = row0
 
@@ -378,60 +379,44 @@ class _Prefetch(threading.Thread):
 _AHEAD = 3
 
 
-class _HashingFile(io.RawIOBase):
-    """The CSV file as pyarrow reads it, hashed (SHA-256) and checked as UTF-8 on the way.
+class _Hasher(threading.Thread):
+    """SHA-256 and UTF-8 check of a whole file, in a thread beside the CSV parser.
 
-    One pass over the file: the bytes pyarrow's reader asks for are the bytes
-    hashed and checked (ASCII is UTF-8; other bytes go through the strict
-    decoder). :meth:`result` reads whatever pyarrow left unread, then returns the
-    hex digest, or raises :class:`FastPathDeclined` when the bytes are not
-    UTF-8 (pandas then reads the file and names the bad byte).
+    ``hashlib`` and the file reads release the GIL on large buffers, so on a
+    machine with a spare core this costs little wall time.
     """
 
     def __init__(self, src: TableSource) -> None:
-        super().__init__()
-        self._fh = open(src.resolved, "rb")  # noqa: SIM115 (closed by close())
-        self._stream = CheckedStream(self._fh, src.path)
+        super().__init__(name="relspan-sha256", daemon=True)
+        self._src = src
+        self._halt = threading.Event()
+        self._sha: str | None = None
         self._failed = False
-        self._lock = threading.Lock()
 
-    def readable(self) -> bool:
-        return True
-
-    def _take(self, data: bytes, final: bool) -> None:
-        self._stream.sha.update(data)
-        if self._failed:
-            return
+    def run(self) -> None:
         try:
-            if not data.isascii() or self._stream.mid_character or final:
-                self._stream.check(data, final)
-        except Exception:  # noqa: BLE001 - a located error comes from the pandas re-read
+            with open(self._src.resolved, "rb") as fh:
+                stream = CheckedStream(fh, self._src.path)
+                while not self._halt.is_set():
+                    data = fh.read(1 << 20)
+                    if not data:
+                        stream.check(b"", True)
+                        break
+                    stream.sha.update(data)
+                    if not data.isascii() or stream.mid_character:
+                        stream.check(data, False)  # ASCII is UTF-8: only other bytes are decoded
+                self._sha = stream.sha.hexdigest()
+        except Exception:  # noqa: BLE001 - reported as a declined fast path, pandas re-reads
             self._failed = True
 
-    def readinto(self, buf) -> int:
-        with self._lock:
-            n = self._fh.readinto(buf)
-            if n:
-                self._take(bytes(memoryview(buf)[:n]), False)
-            return n or 0
-
     def result(self) -> str:
-        with self._lock:
-            while True:
-                data = self._fh.read(1 << 20)
-                if not data:
-                    break
-                self._take(data, False)
-            self._take(b"", True)
-        if self._failed:
-            raise FastPathDeclined("the file is not UTF-8 text")
-        return self._stream.sha.hexdigest()
+        self.join()
+        if self._failed or self._sha is None:
+            raise FastPathDeclined("the file is not UTF-8 text or could not be hashed")
+        return self._sha
 
-    def close(self) -> None:
-        try:
-            self._fh.close()
-        finally:
-            super().close()
+    def stop(self) -> None:
+        self._halt.set()
 
 
 # --------------------------------------------------------------------------- head (relspan new)
