@@ -198,13 +198,11 @@ class OuterSet:
     resamples: int
 
     def to_dict(self) -> dict:
-        def edge(v):
-            return v if np.isfinite(v) else ("-inf" if v < 0 else "inf")
-
-        return jsonable({"variable": self.variable, "lower": edge(self.lower), "upper": edge(self.upper),
-                         "low": edge(self.low), "high": edge(self.high), "level": self.level,
-                         "critical": self.critical, "unbounded_share": self.unbounded_share,
-                         "resamples": self.resamples, "method": "imbens-manski"})
+        # infinite ends are written as null (unbounded), as every interval bound in results.json
+        return jsonable({"variable": self.variable, "lower": self.lower, "upper": self.upper, "low": self.low,
+                         "high": self.high, "level": self.level, "critical": self.critical,
+                         "unbounded_share": self.unbounded_share, "resamples": self.resamples,
+                         "method": "imbens-manski"})
 
 
 @dataclass(frozen=True, slots=True, eq=False)

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 
 from relspan.analysis._common import jsonable
 from relspan.analysis.findings.records import DatasetSummary, Finding
+from relspan.analysis.inference import ResamplingOptions
 from relspan.analysis.stability import CorankSequence
 from relspan.analysis.window import WindowAnalysis
 from relspan.errors import RelspanWarning
@@ -92,6 +93,8 @@ class DatasetResult:
         Stability threshold (largest principal angle) in degrees.
     cache_key : str
         Content key of everything this result depends on ("" when not cached).
+    resampling : ResamplingOptions
+        How windows were resampled (``resamples`` 0: no intervals were computed).
     """
 
     spec: DatasetSpec
@@ -106,6 +109,7 @@ class DatasetResult:
     flat: dict
     threshold_deg: float
     cache_key: str = ""
+    resampling: ResamplingOptions = ResamplingOptions()
 
     @property
     def names(self) -> tuple[str, ...]:

@@ -311,7 +311,8 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     # the block statistics are not needed once the windows are assembled: do not keep them
     return DatasetResult(spec=ds, prepared=without_blocks(prepared), full=full, plans=plan_results,
                          examined=examined, examined_from=examined_from, findings=findings,
-                         summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold, cache_key=cache_key)
+                         summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold, cache_key=cache_key,
+                         resampling=resampling)
 
 
 def _dataset_key(spec: Spec, ds: DatasetSpec, plans: Sequence[WindowPlanSpec], sha: str) -> str:
