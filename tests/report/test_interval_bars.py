@@ -34,3 +34,15 @@ def test_frisch_figure_draws_the_outer_set_behind_each_range():
     assert "90% outer confidence set" in fig.description and "b unbounded to 1.1" in fig.description
     labels = [l.get_label() for l in fig.figure.axes[0].lines]
     assert "90% outer confidence set" in labels
+
+
+def test_corank_timeline_writes_each_windows_support_and_names_the_lowest():
+    from relspan.report.figures.corank import corank_timeline
+
+    fig = corank_timeline(["w1", "w2", "w3"], {"equal": [2, 2, 1], "diagonal": [3, 3, None]},
+                          support={"equal": [0.96, 0.7, 0.55], "diagonal": [None, None, None]})
+    assert list(fig.table["support"])[:3] == [0.96, 0.7, 0.55]
+    assert "lowest 55% (w3)" in fig.description
+    assert "no resampling support computed" in fig.description
+    texts = [t.get_text() for t in fig.figure.axes[0].texts]
+    assert "96%" in texts and "70%" in texts

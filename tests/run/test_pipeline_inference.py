@@ -58,3 +58,18 @@ def test_resampling_options_resolve_auto_scheme_and_seed(tmp_path):
     # no time column: rows have no order, so the iid bootstrap; seed from checks.seed; defaults 499 / 0.90
     assert (opts.scheme, opts.seed, opts.resamples, opts.level, opts.block_length) == ("iid", 0, 499, 0.90, None)
     assert np.isclose(opts.level, 0.9)
+
+
+def test_plans_with_very_many_windows_get_the_stated_cap():
+    from relspan.analysis.inference import (MANY_WINDOWS, MANY_WINDOWS_RESAMPLES, ResamplingOptions,
+                                            diagonal_scope)
+    from relspan.report.text import INFERENCE_RULES
+
+    opts = ResamplingOptions(resamples=499, diagonal_resamples=99)
+    assert diagonal_scope(opts, "periods", 2) == opts
+    assert diagonal_scope(opts, "rolling", 14).diagonal_resamples == 0
+    capped = diagonal_scope(opts, "periods", MANY_WINDOWS + 1)
+    assert (capped.resamples, capped.diagonal_resamples) == (MANY_WINDOWS_RESAMPLES, 99)
+    # the methods page states the same numbers
+    assert any(f"more than {MANY_WINDOWS} windows" in r and f"{MANY_WINDOWS_RESAMPLES} times" in r
+               for r in INFERENCE_RULES)

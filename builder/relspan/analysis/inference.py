@@ -64,7 +64,8 @@ __all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInfere
            "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
            "imbens_manski_outer", "diagonal_corank_of", "DEFAULT_DIAGONAL_RESAMPLES",
            "EQUAL_RULE", "FULL_SAMPLE_PLAN", "DIAGONAL_PLAN_KINDS",
-           "DIAGONAL_SCOPE_RULE", "diagonal_scope"]
+           "DIAGONAL_SCOPE_RULE", "diagonal_scope", "MANY_WINDOWS", "MANY_WINDOWS_RESAMPLES",
+           "MANY_WINDOWS_RULE"]
 
 #: resamples behind the diagonal-noise support (each needs a corank search of its own)
 DEFAULT_DIAGONAL_RESAMPLES = 99
@@ -149,11 +150,26 @@ DIAGONAL_SCOPE_RULE = ("The diagonal-noise corank support is computed for the fu
                        "intervals); their diagonal-noise coranks are shown without support and say so.")
 
 
-def diagonal_scope(options: ResamplingOptions, plan_kind: str) -> ResamplingOptions:
-    """The options for the windows of one plan: no diagonal-noise support outside :data:`DIAGONAL_PLAN_KINDS`."""
-    if plan_kind in DIAGONAL_PLAN_KINDS or options.diagonal_resamples == 0:
-        return options
-    return dataclasses.replace(options, diagonal_resamples=0)
+#: plans with more windows than this resample each window at most :data:`MANY_WINDOWS_RESAMPLES` times
+MANY_WINDOWS = 200
+#: resamples per window in plans with more than :data:`MANY_WINDOWS` windows (90% intervals stay supported)
+MANY_WINDOWS_RESAMPLES = 199
+
+#: the cap for plans with very many windows, in words (methods page)
+MANY_WINDOWS_RULE = (f"Plans with more than {MANY_WINDOWS} windows resample each window at most "
+                     f"{MANY_WINDOWS_RESAMPLES} times (cost grows with the windows; shares and 90% intervals "
+                     "are still supported by that many resamples); the full sample keeps the spec's number.")
+
+
+def diagonal_scope(options: ResamplingOptions, plan_kind: str, windows: int = 1) -> ResamplingOptions:
+    """The options for the windows of one plan (:data:`DIAGONAL_SCOPE_RULE`, :data:`MANY_WINDOWS_RULE`)."""
+    out = options
+    if plan_kind not in DIAGONAL_PLAN_KINDS and out.diagonal_resamples:
+        out = dataclasses.replace(out, diagonal_resamples=0)
+    if windows > MANY_WINDOWS and out.resamples > MANY_WINDOWS_RESAMPLES:
+        out = dataclasses.replace(out, resamples=MANY_WINDOWS_RESAMPLES,
+                                  diagonal_resamples=min(out.diagonal_resamples, MANY_WINDOWS_RESAMPLES))
+    return out
 
 
 @dataclass(frozen=True, slots=True)

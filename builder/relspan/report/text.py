@@ -256,6 +256,9 @@ INFERENCE_RULES = (
     "orthogonal Procrustes (Schoenemann 1966) and solved for the same variables as the estimate. The "
     "noise shares under independent noise describe the certificate found, over the resamples that "
     "certify the same corank.",
+    "Plans with more than 200 windows resample each window at most 199 times (cost grows with the "
+    "windows; shares and 90% intervals are still supported by that many resamples); the full sample keeps "
+    "the spec's number.",
     "Outer set under independent noise (one relation): each coefficient's identified range [lower, upper] "
     "is widened to [lower \u2212 c sd(lower), upper + c sd(upper)], the standard deviations over resamples "
     "and c solving \u03a6(c + (upper \u2212 lower)/max sd) \u2212 \u03a6(\u2212c) = level (Imbens & Manski "

@@ -277,7 +277,7 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     for plan in plans:
         pairs = window_moments(prepared, plan.id)
         spans.append((plan, [w for w, _ in pairs], len(items), len(items) + len(pairs)))
-        plan_resampling = diagonal_scope(resampling, plan.kind)
+        plan_resampling = diagonal_scope(resampling, plan.kind, len(pairs))
         items.extend((m, names, options, common_std, w.label, granules(plan.id, i), plan_resampling,
                       (ds.id, plan.id, i)) for i, (w, m) in enumerate(pairs))
     executor = executor or SerialExecutor()

@@ -223,7 +223,8 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
 
 def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence[int | None]], *,
                     max_corank: int | None = None, title: str | None = None,
-                    name: str = "corank-timeline") -> FigureResult:
+                    name: str = "corank-timeline",
+                    support: Mapping[str, Sequence[float | None]] | None = None) -> FigureResult:
     """The corank found in each window, one strip per noise assumption.
 
     Each cell is a window; its fill darkens with the corank (sequential
@@ -241,12 +242,17 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
         Top of the colour scale (default: the largest corank shown, at least 1).
     title, name : str
         Optional title; file stem.
+    support : mapping of str to (w,) sequence of float or None, optional
+        Per assumption (same keys as ``coranks``) and window, the share of
+        resamples giving the corank shown (None: not computed); written under
+        each number as a percentage.
 
     Returns
     -------
     FigureResult
         Table columns: ``assumption``, ``window``, ``corank`` (empty when
-        undetermined), ``status`` ("determined" / "undetermined").
+        undetermined), ``status`` ("determined" / "undetermined"); with
+        ``support`` also ``support`` (share of resamples, empty when not computed).
     """
     func = "corank_timeline"
     wl = as_labels(func, "window_labels", window_labels)
@@ -271,6 +277,15 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                            "Pass the corank as an int, or None when undetermined.", got=repr(v))
             row.append(int(v))
         grid.append(row)
+    sup: list[list[float | None]] | None = None
+    if support is not None:
+        sup = []
+        for nm, key in zip(names, coranks.keys()):
+            seq = list(support.get(key, [None] * w))
+            if len(seq) != w:
+                raise fail(func, f"support[{nm!r}]", f"must have {w} entries (one per window)",
+                           "Pass one share (or None) per window.", got=f"{len(seq)} entries")
+            sup.append([None if v is None or not np.isfinite(v) else float(v) for v in seq])
     known = [v for row in grid for v in row if v is not None]
     top = max_corank if max_corank is not None else max(known + [1])
     if top < 1:
@@ -301,7 +316,12 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                     fill = SEQUENTIAL(0.12 + 0.88 * min(v, top) / top)
                     ax.add_patch(Rectangle((c - 0.5, r - 0.4), 1, 0.8, facecolor=fill, edgecolor="white",
                                            linewidth=1.0))
-                    ax.text(c, r, str(v), ha="center", va="center", fontsize=fs, color=text_color_on(fill))
+                    share = sup[r][c] if sup is not None else None
+                    ax.text(c, r - (0.12 if share is not None else 0.0), str(v), ha="center", va="center",
+                            fontsize=fs, color=text_color_on(fill))
+                    if share is not None:
+                        ax.text(c, r + 0.2, f"{100 * share:.0f}%", ha="center", va="center",
+                                fontsize=max(5.0, fs * 0.62), color=text_color_on(fill))
         ax.set_yticks(range(a), names)
         step = max(1, int(np.ceil(w / 14)))
         ax.set_xticks(range(0, w, step), [wl[i] for i in range(0, w, step)])
@@ -322,6 +342,8 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
             for nm, row in zip(names, grid) for c, v in enumerate(row)]
     table = pd.DataFrame(rows, columns=["assumption", "window", "corank", "status"])
     table["corank"] = table["corank"].astype("Int64")
+    if sup is not None:
+        table["support"] = [sup[r][c] for r in range(a) for c in range(w)]
 
     parts, short = [], []
     for nm, row in zip(names, grid):
@@ -338,6 +360,15 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
             txt += "; changes " + "; ".join(f"from {p} to {q} between {x} and {y}" for x, y, p, q in changes[:3])
             if len(changes) > 3:
                 txt += f" and {len(changes) - 3} more times"
+        if sup is not None:
+            r_i = names.index(nm)
+            got = [(sup[r_i][c], wl[c]) for c in range(w) if sup[r_i][c] is not None and row[c] is not None]
+            if got:
+                low, where = min(got)
+                txt += (f"; the share of resamples giving the corank shown is written under it, lowest "
+                        f"{100 * low:.0f}% ({where})")
+            elif any(v is not None for v in row):
+                txt += "; no resampling support computed for these windows"
         parts.append(txt)
         if vals:
             mode = max(vals, key=lambda v: (sum(1 for x in row if x == v), -v))

@@ -158,15 +158,22 @@ def spectrum_figure(result, analysis, name: str):
 def timeline_figure(result, plan):
     if len(plan.analyses) < 1:
         return None
-    coranks = {}
+    coranks, support = {}, {}
     for a in ("equal", "shaped", "bounded", "diagonal"):
         seq = plan.coranks.coranks.get(a)
         if seq is not None:
             coranks[assumption(a).name] = list(seq)
+            shares = []
+            for w, q in zip(plan.analyses, seq):
+                s = None if w.inference is None or q is None else w.inference.coranks.get(a)
+                shares.append(None if s is None else s.support(q))
+            support[assumption(a).name] = shares
     if not coranks:
         return None
+    any_support = any(v is not None for seq in support.values() for v in seq)
     return corank_timeline(list(plan.labels), coranks, max_corank=len(result.names) - 1,
-                           name=f"{result.spec.id}-{plan.plan.id}-coranks")
+                           name=f"{result.spec.id}-{plan.plan.id}-coranks",
+                           support=support if any_support else None)
 
 
 def frisch_figure(result, analysis, name: str):
