@@ -280,8 +280,9 @@ def dataset_page(run, result, pub: Publisher) -> Page:
                    Raw(", ".join(str(q) for q in result.examined) or "none"), result.examined_from))
     body.append(pub.figure(ff.spectrum_figure, (result, full, f"{ds.id}-spectrum"), folder,
                            Raw("Eigenvalues of the full-sample covariance (how much the data vary in each "
-                               "independent direction) against the tolerance: every eigenvalue below the line is "
-                               "room for one more relation."), ident="spectrum", dataset_key=key))
+                               "independent direction) against the tolerance: under bounded noise every eigenvalue "
+                               "below the line is room for one more relation"
+                               + ("; bars are resampling intervals." if full.inference is not None else ".")), ident="spectrum", dataset_key=key))
     if full.diagonal is not None:
         body.append(blocks.details("Independent noise (Frisch scheme): the corank search",
                                    full.diagonal.corank.summary))
