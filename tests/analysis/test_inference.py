@@ -41,6 +41,9 @@ def test_issue_case_equal_noise_corank_is_two_by_the_eigenvalue_equality_test():
     w = _analyse(x)
     lam = np.linalg.eigvalsh(np.corrcoef(x.T))
     assert lam[0] > 0.05 and lam[1] > 0.05            # both above the tolerance: counting gave 0
+    from relspan.analysis.equal_test import equal_noise_corank
+    # the test alone (no tolerance) accepts two equal smallest eigenvalues and rejects three
+    assert equal_noise_corank(np.corrcoef(x.T), nobs=2000, scale="correlation").corank == 2
     assert w.coranks["equal"] == 2
     support = w.inference.coranks["equal"]
     assert support.estimate == 2 and support.support(2) >= 0.8

@@ -272,10 +272,19 @@ def test_every_format_gives_identical_results_json_numbers(written, tmp_path):
     run = relspan.check(spec, jobs=1, use_cache=False).run
     docs = [dataset_document(r) for r in run.datasets]
 
+    def drop_inference(x):
+        # each window's resampling stream is derived from the dataset id (analysis/resample.window_seed),
+        # so resampled numbers differ between these datasets by design; everything else must agree
+        if isinstance(x, dict):
+            return {k: drop_inference(v) for k, v in x.items() if k != "inference"}
+        if isinstance(x, list):
+            return [drop_inference(v) for v in x]
+        return x
+
     def numbers(doc):
         doc = {k: v for k, v in doc.items() if k not in ("id", "title", "source", "source_sha256",
                                                         "source_read_as")}
-        return json.dumps(doc, sort_keys=True).replace(doc_id_placeholder, "")
+        return json.dumps(drop_inference(doc), sort_keys=True).replace(doc_id_placeholder, "")
 
     doc_id_placeholder = "\0"
     ref = numbers(docs[0])

@@ -73,3 +73,19 @@ def test_plans_with_very_many_windows_get_the_stated_cap():
     # the methods page states the same numbers
     assert any(f"more than {MANY_WINDOWS} windows" in r and f"{MANY_WINDOWS_RESAMPLES} times" in r
                for r in INFERENCE_RULES)
+
+
+def test_window_task_granules_equal_the_prepared_datasets_own(tmp_path):
+    from relspan.data.prepare import prepare_dataset
+    from relspan.run.pipeline import _GranuleSpan
+
+    spec = _load(tmp_path)
+    ds = spec.datasets[0]
+    prepared = prepare_dataset(ds, spec.plans_for(ds))
+    w = prepared.plan("roll").windows[2]
+    lo, hi = prepared.granules.span(w.first_row - 1, w.last_row - 1)
+    mine = _GranuleSpan.of(prepared, lo, hi).stats()
+    theirs = prepared.window_granules("roll", 2)
+    for f in ("counts", "means", "comoments"):
+        assert np.array_equal(getattr(mine, f), getattr(theirs, f))
+    assert (mine.rows_per_granule, mine.ordered) == (theirs.rows_per_granule, theirs.ordered)

@@ -343,16 +343,11 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
         if fr is not None and coranks.get("diagonal"):
             cert = fr.corank.certificate(coranks["diagonal"])
             share = cert.noise_share if cert.status == "certified" else None
-        inference = window_inference(
-            granules, names=names, options=resampling, seed_key=seed_key, scale=tol.scale, eps=eps, ref=ref,
-            coranks=keep, assumptions=tuple(coranks),
-            estimates={"eigenvalues": np.linalg.eigvalsh(mat), "tstd": tstd,
-                       "basis": {q: eq.coranks[q - 1].basis for q in keep} if eq is not None else {},
-                       "elementary": None if er.singular else np.asarray(er.coefficients, dtype=float),
-                       "equal_q": coranks.get("equal"), "bounded_q": coranks.get("bounded"),
-                       "diagonal_q": coranks.get("diagonal"), "diagonal_share": share,
-                       "frisch_lower": lower, "frisch_upper": upper},
-            nobs=float(moments.count))
+        with warnings.catch_warnings():
+            # numerical notes about single resamples are not findings about the window: not raised
+            warnings.simplefilter("ignore")
+            inference = _inference(granules, resampling, seed_key, tol, eps, ref, keep, coranks, eq, er, tstd,
+                                   mat, share, lower, upper, names, moments)
 
     return WindowAnalysis(
         label=label, count=int(moments.count), names=names, cov=cov, common_std=common_std,
@@ -399,3 +394,18 @@ def reference_index(cov: np.ndarray, names: Sequence[str], normalise_on: str) ->
         warnings.simplefilter("ignore")
         er = elementary_regressions(cov, names=names)
     return choose_reference(er)
+
+
+def _inference(granules, resampling, seed_key, tol, eps, ref, keep, coranks, eq, er, tstd, mat, share, lower,
+               upper, names, moments) -> WindowInference:
+    """The window's resampling (:func:`relspan.analysis.inference.window_inference`) from its estimates."""
+    return window_inference(
+        granules, names=names, options=resampling, seed_key=seed_key, scale=tol.scale, eps=eps, ref=ref,
+        coranks=keep, assumptions=tuple(coranks),
+        estimates={"eigenvalues": np.linalg.eigvalsh(mat), "tstd": tstd,
+                   "basis": {q: eq.coranks[q - 1].basis for q in keep} if eq is not None else {},
+                   "elementary": None if er.singular else np.asarray(er.coefficients, dtype=float),
+                   "equal_q": coranks.get("equal"), "bounded_q": coranks.get("bounded"),
+                   "diagonal_q": coranks.get("diagonal"), "diagonal_share": share,
+                   "frisch_lower": lower, "frisch_upper": upper},
+        nobs=float(moments.count))

@@ -179,7 +179,8 @@ def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ..
     its own random stream (``(seed, dataset, plan, window index)``), so the numbers
     do not depend on where or in which order windows run.
     """
-    moments, names, options, common_std, label, granules, resampling, seed_key = item
+    moments, names, options, common_std, label, *rest = item
+    granules, resampling, seed_key = rest or (None, None, ())  # without granules: no resampling
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
         try:
