@@ -55,7 +55,7 @@ from scipy import optimize, stats
 from relspan.analysis._common import jsonable, orthonormal_rows, pivot_columns
 from relspan.analysis.corank_support import CorankSupport, bounded_support
 from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, sequential_corank_stack
-from relspan.analysis.intervals import (Interval, elementary_coefficient_stack, interval, procrustes_align,
+from relspan.analysis.intervals import (Interval, interval, procrustes_align,
                                         reduced_form_stack)
 from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, GranuleStats, resample_covariances,
                                        scale_stack, window_rng)
@@ -78,7 +78,8 @@ EQUAL_RULE = ("Equal noise: the corank is the number of smallest eigenvalues (on
               "that are equal: k of them count as equal when the test that the k smallest eigenvalues are "
               "equal (Lawley 1956; Anderson 1963) is not rejected at the 5% level for k = 2, ..., k in "
               "sequence, or when they lie within twice the tolerance of each other (equal noise plus a "
-              "deviation of norm at most the tolerance); at most one fewer than the variables. Corank 1 fits "
+              "deviation of norm at most the tolerance). When all eigenvalues count as equal the data show nothing "
+              "but equal noise and no relation is reported. Corank 1 fits "
               "equal noise whatever the data, so one relation is reported only when the noise variance it "
               "needs (the smallest eigenvalue) is within the tolerance; otherwise 0.")
 
@@ -338,7 +339,9 @@ def equal_noise_corank_stack(eigenvalues, *, eps: float, nobs, level: float = DE
     n = lam.shape[1]
     q_test = sequential_corank_stack(lam, nobs=nobs, level=level)
     q_tol = np.sum(lam - lam[:, :1] <= 2.0 * eps, axis=1)    # eigenvalues ascending: a prefix
-    q = np.minimum(np.maximum(q_test, q_tol), n - 1)
+    q = np.maximum(q_test, q_tol)
+    # all n eigenvalues equal: nothing but equal noise is seen, so no relation is shown
+    q = np.where(q >= n, 0, q)
     return np.where((q == 1) & ~(lam[:, 0] <= eps), 0, q)
 
 
@@ -378,6 +381,20 @@ def diagonal_corank_of(cov: np.ndarray, warm: Any, *, eps: float, seed: int) -> 
     return q, {c.q: c for c in cor.certificates}
 
 
+def _inv_stack(covs: np.ndarray) -> np.ndarray:
+    """Inverses of a ``(B, n, n)`` stack; NaN for a singular resample (an exact relation in it)."""
+    try:
+        return np.linalg.inv(covs)
+    except np.linalg.LinAlgError:
+        out = np.full_like(covs, np.nan)
+        for b, s in enumerate(covs):
+            try:
+                out[b] = np.linalg.inv(s)
+            except np.linalg.LinAlgError:
+                pass
+        return out
+
+
 def _one_orthant_stack(p: np.ndarray) -> np.ndarray:
     """Per matrix of a ``(B, n, n)`` stack: every ``P_ij P_jk P_ki > 0`` (the elementary regressions in one orthant)."""
     n = p.shape[1]
@@ -398,7 +415,7 @@ def _frisch_bounds_stack(covs: np.ndarray, ref: int) -> tuple[np.ndarray, np.nda
     (Frisch 1934; Klepper & Leamer 1984): coefficient ``k`` ranges over
     ``-P[j, k] / P[j, ref]``, j = 1..n. Otherwise it is unbounded (+-inf).
     """
-    p = np.linalg.inv(covs)
+    p = _inv_stack(covs)
     with np.errstate(divide="ignore", invalid="ignore"):
         coef = -p / p[:, :, ref][:, :, None]        # [b, j, k]
     lo, hi = coef.min(axis=1), coef.max(axis=1)
@@ -543,12 +560,20 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             est_data = orthonormal_rows(np.atleast_2d(basis) / tstd[None, :])
             tidx = [ref] if q == 1 else list(pivot_columns(est_data))
             # resampled relation bases on the analysis scale -> data units of each resample
-            rb = np.swapaxes(vec[:, :, :q], 1, 2) / std_b[:, None, :]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                rb = np.swapaxes(vec[:, :, :q], 1, 2) / std_b[:, None, :]
+            rb = np.where(np.isfinite(rb), rb, 0.0) if np.isfinite(rb).all() else np.where(
+                np.isfinite(rb).all(axis=(1, 2))[:, None, None], rb, np.nan)
             rb = np.linalg.qr(np.swapaxes(rb, 1, 2))[0]
             rb = np.swapaxes(rb, 1, 2)
-            aligned = procrustes_align(est_data, rb)
+            aligned = np.full_like(rb, np.nan)
+            fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
+            if fine.any():
+                aligned[fine] = procrustes_align(est_data, rb[fine])
             est_red = reduced_form_stack(est_data[None], tidx)[0]
-            draws = reduced_form_stack(aligned, tidx)
+            draws = np.full_like(aligned, np.nan)
+            if fine.any():
+                draws[fine] = reduced_form_stack(aligned[fine], tidx)
             out = []
             for i, t in enumerate(tidx):
                 for k in range(n):
@@ -571,7 +596,9 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     est_el = estimates.get("elementary")
     if est_el is not None:
         with np.errstate(all="ignore"):
-            draws = elementary_coefficient_stack(covs)
+            p = _inv_stack(covs)
+            d = np.diagonal(p, axis1=1, axis2=2)
+            draws = -p / d[:, :, None]
         for j in range(n):
             for k in range(n):
                 if j != k:
@@ -590,7 +617,10 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             got, undet, shares = [], 0, []
             warm = None
             for s in on_scale[:d_b]:
-                q, certs = fn(s, warm)
+                try:
+                    q, certs = fn(s, warm)
+                except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+                    q, certs = None, {}      # a resample the search cannot take: undetermined
                 warm = certs
                 if q is None:
                     undet += 1

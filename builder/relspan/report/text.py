@@ -238,7 +238,8 @@ INFERENCE_RULES = (
     "Starting from k = 2, the test that the k smallest eigenvalues are equal (Lawley 1956; Anderson 1963; "
     "chi-square with k(k+1)/2 \u2212 1 degrees of freedom, at the 5% level, rows taken as independent) is "
     "applied until it rejects; k eigenvalues also count as equal when they lie within twice the tolerance "
-    "of each other (equal noise plus a deviation of norm at most eps). At most n \u2212 1. Corank 1 fits "
+    "of each other (equal noise plus a deviation of norm at most eps). When all n count as equal, the data "
+    "show nothing but equal noise and no relation is reported. Corank 1 fits "
     "equal noise whatever the data, so one relation is reported only when the smallest eigenvalue is at "
     "most eps; otherwise no relation. The shares of resamples giving each corank are its support.",
     "Corank under bounded noise: corank q is admissible when the q-th smallest eigenvalue is at most eps "
