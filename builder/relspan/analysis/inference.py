@@ -77,8 +77,8 @@ FULL_SAMPLE_PLAN = "(full sample)"
 EQUAL_RULE = ("Equal noise: the corank is the number of smallest eigenvalues (on the scale the analysis uses) "
               "that are equal: k of them count as equal when the test that the k smallest eigenvalues are "
               "equal (Lawley 1956; Anderson 1963) is not rejected at the 5% level for k = 2, ..., k in "
-              "sequence, or when they lie within twice the tolerance of each other (equal noise plus a "
-              "deviation of norm at most the tolerance). When all eigenvalues count as equal the data show nothing "
+              "sequence, or when all k are at most the tolerance (a common noise variance at most eps plus a "
+              "deviation of norm at most eps/2). When all eigenvalues count as equal the data show nothing "
               "but equal noise and no relation is reported. Corank 1 fits "
               "equal noise whatever the data, so one relation is reported only when the noise variance it "
               "needs (the smallest eigenvalue) is within the tolerance; otherwise 0.")
@@ -320,9 +320,8 @@ def equal_noise_corank_rule(eigenvalues, *, eps: float, nobs: float, level: floa
     """The equal-noise corank of one covariance (see :data:`EQUAL_RULE`).
 
     ``eigenvalues`` on the analysis scale, ``eps`` the tolerance on that scale.
-    With noise ``s^2 I + E``, ``||E||_2 <= eps``, the q smallest eigenvalues
-    can be made equal iff ``lambda_q - lambda_1 <= 2 eps`` (Weyl); without a
-    tolerance the test decides.
+    The test decides; besides, q eigenvalues all at most ``eps`` fit noise
+    ``s^2 I + E`` with ``s^2 <= eps`` and ``||E||_2 <= eps / 2`` (Weyl).
 
     References
     ----------
@@ -338,7 +337,7 @@ def equal_noise_corank_stack(eigenvalues, *, eps: float, nobs, level: float = DE
     lam = np.sort(np.asarray(eigenvalues, dtype=float), axis=1)
     n = lam.shape[1]
     q_test = sequential_corank_stack(lam, nobs=nobs, level=level)
-    q_tol = np.sum(lam - lam[:, :1] <= 2.0 * eps, axis=1)    # eigenvalues ascending: a prefix
+    q_tol = np.sum(lam <= eps, axis=1)    # all within the tolerance (ascending: a prefix)
     q = np.maximum(q_test, q_tol)
     # all n eigenvalues equal: nothing but equal noise is seen, so no relation is shown
     q = np.where(q >= n, 0, q)

@@ -237,8 +237,8 @@ INFERENCE_RULES = (
     "Corank under equal noise: the number of smallest eigenvalues (on the analysed scale) that are equal. "
     "Starting from k = 2, the test that the k smallest eigenvalues are equal (Lawley 1956; Anderson 1963; "
     "chi-square with k(k+1)/2 \u2212 1 degrees of freedom, at the 5% level, rows taken as independent) is "
-    "applied until it rejects; k eigenvalues also count as equal when they lie within twice the tolerance "
-    "of each other (equal noise plus a deviation of norm at most eps). When all n count as equal, the data "
+    "applied until it rejects; k eigenvalues also count as equal when all k are at most eps (a common "
+    "noise variance at most eps plus a deviation of norm at most eps/2). When all n count as equal, the data "
     "show nothing but equal noise and no relation is reported. Corank 1 fits "
     "equal noise whatever the data, so one relation is reported only when the smallest eigenvalue is at "
     "most eps; otherwise no relation. The shares of resamples giving each corank are its support.",
