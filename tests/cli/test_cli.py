@@ -238,7 +238,7 @@ VALIDATION_CASES = [
     ("unknown key names the nearest key", _unknown_key,
      [r"^SPEC:111: unknown key checks\.max_angel_deg; did you mean 'max_angle_deg'\?",
       r"Valid keys in checks are: assumptions, coranks, frisch_starts, max_angle_deg, normalise_on, "
-      r"seed, tolerance\.", r"Fix: rename 'max_angel_deg' to 'max_angle_deg'\."]),
+      r"resampling, seed, tolerance\.", r"Fix: rename 'max_angel_deg' to 'max_angle_deg'\."]),
     ("wrong type names key, line and what was got", _wrong_type,
      [r"^SPEC:112: checks\.frisch_starts must be a whole number; got the text 'eight'\.",
       r"Fix: write a whole number >= 1"]),

@@ -270,6 +270,15 @@ def test_every_format_gives_identical_results_json_numbers(written, tmp_path):
                         "checks: {assumptions: [elementary, equal, bounded, diagonal]}\n", encoding="utf-8")
         docs.append(dataset_document(relspan.check(spec, jobs=1, use_cache=False).run.datasets[0]))
 
+    def drop_inference(x):
+        # each window's resampling stream is derived from the dataset id (analysis/resample.window_seed),
+        # so resampled numbers differ between these datasets by design; everything else must agree
+        if isinstance(x, dict):
+            return {k: drop_inference(v) for k, v in x.items() if k != "inference"}
+        if isinstance(x, list):
+            return [drop_inference(v) for v in x]
+        return x
+
     def numbers(doc):
         doc = {k: v for k, v in doc.items() if k not in ("id", "title", "source", "source_sha256",
                                                         "source_read_as")}

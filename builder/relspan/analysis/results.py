@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 from relspan.analysis._common import jsonable
 from relspan.analysis.findings.records import DatasetSummary, Finding
+from relspan.analysis.inference import ResamplingOptions
 from relspan.analysis.stability import CorankSequence
 from relspan.analysis.window import WindowAnalysis
 from relspan.errors import RelspanWarning
@@ -101,6 +102,8 @@ class DatasetResult:
     sampling_spread : mapping assumption -> SamplingSpread
         The bootstrap spread of the full sample's relation subspace (equal and
         bounded noise), shown beside the bounded-noise population bound.
+    resampling : ResamplingOptions
+        How windows were resampled (``resamples`` 0: no intervals were computed).
     """
 
     spec: DatasetSpec
@@ -119,6 +122,7 @@ class DatasetResult:
     influence: object = None
     breaks: dict = field(default_factory=dict)
     sampling_spread: dict = field(default_factory=dict)
+    resampling: ResamplingOptions = ResamplingOptions()
 
     @property
     def names(self) -> tuple[str, ...]:

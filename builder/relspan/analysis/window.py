@@ -33,6 +33,7 @@ from relspan.analysis.elementary import (ElementaryRegressions, choose_reference
                                          warn_ill_conditioned)
 from relspan.analysis.equal_noise import EqualNoise, equal_noise
 from relspan.analysis.frisch import FrischResult, frisch_analysis
+from relspan.analysis.inference import ResamplingOptions, WindowInference, equal_noise_corank_rule, window_inference
 from relspan.analysis.moments import Moments
 
 __all__ = ["WindowOptions", "WindowAnalysis", "analyse_window", "normalised_coefficients"]
@@ -117,6 +118,10 @@ class WindowAnalysis:
         +-inf where unbounded.
     notes : tuple of str
         Plain-words remarks (singular window, ill conditioning, ...).
+    inference : WindowInference or None
+        Intervals and corank supports from resampling the window
+        (:mod:`relspan.analysis.inference`); None when resampling is off
+        (``checks.resampling.resamples: 0``) or no granules were given.
     """
 
     label: str
@@ -139,6 +144,7 @@ class WindowAnalysis:
     frisch_lower: np.ndarray | None
     frisch_upper: np.ndarray | None
     notes: tuple[str, ...] = field(default=())
+    inference: WindowInference | None = None
 
     @property
     def n(self) -> int:
@@ -192,6 +198,7 @@ class WindowAnalysis:
                                 {"lower": self.frisch_lower, "upper": self.frisch_upper}),
             "notes": list(self.notes),
             "elementary": self.elementary.to_dict(),
+            "inference": None if self.inference is None else self.inference.to_dict(),
         }
         for key in ("equal", "shaped", "bounded", "diagonal"):
             obj = getattr(self, key)
@@ -261,7 +268,8 @@ def _corank_by_eigenvalues(eigenvalues: np.ndarray, limit: float) -> int:
 
 def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOptions,
                    common_std: np.ndarray, label: str = "",
-                   elementary: ElementaryRegressions | None = None) -> WindowAnalysis:
+                   elementary: ElementaryRegressions | None = None, granules=None,
+                   resampling: ResamplingOptions | None = None, seed_key: tuple = ()) -> WindowAnalysis:
     """Run every requested noise assumption on one window.
 
     Parameters
@@ -281,6 +289,12 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
         pipeline computes every window's at once,
         :func:`~relspan.analysis.elementary.elementary_regressions_stack`);
         its warning is given here as if computed here.
+    granules : GranuleStats, optional
+        The window's granules (:meth:`relspan.data.prepare.PreparedDataset.window_granules`);
+        with ``resampling`` enabled they give :attr:`WindowAnalysis.inference`.
+    resampling : ResamplingOptions, optional
+    seed_key : tuple
+        ``(dataset, plan, window index)`` naming the window's random stream.
 
     Returns
     -------
@@ -335,7 +349,8 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
     if "equal" in options.assumptions or "bounded" in options.assumptions:
         eq = equal_noise(mat, names=names)
     if "equal" in options.assumptions and eq is not None:
-        coranks["equal"] = _corank_by_eigenvalues(eq.eigenvalues, eps)
+        # the multiplicity of the smallest eigenvalue, by test (not a count below the tolerance)
+        coranks["equal"] = equal_noise_corank_rule(eq.eigenvalues, eps=eps, nobs=float(moments.count))
         bases["equal"] = {q: _common(to_data_units(eq.coranks[q - 1].basis), common_std) for q in keep}
         coefficients["equal"] = normalised_coefficients(to_data_units(eq.coranks[0].basis)[0], ref)
 
@@ -372,12 +387,24 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
         bases["diagonal"] = fb
         lower, upper = _frisch_bounds(fr, ref, tstd)
 
+    inference = None
+    if granules is not None and resampling is not None and resampling.enabled:
+        share = None
+        if fr is not None and coranks.get("diagonal"):
+            cert = fr.corank.certificate(coranks["diagonal"])
+            share = cert.noise_share if cert.status == "certified" else None
+        with warnings.catch_warnings():
+            # numerical notes about single resamples are not findings about the window: not raised
+            warnings.simplefilter("ignore")
+            inference = _inference(granules, resampling, seed_key, tol, eps, ref, keep, coranks, eq, er, tstd,
+                                   mat, share, lower, upper, names, moments)
+
     return WindowAnalysis(
         label=label, count=int(moments.count), names=names, cov=cov, common_std=common_std,
         eps=float(eps), scale=tol.scale, tolerance_note=tol.convention, ref=int(ref),
         elementary=er, equal=eq if "equal" in options.assumptions else None, shaped=shaped,
         bounded=bd, diagonal=fr, coranks=coranks, bases=bases, coefficients=coefficients,
-        frisch_lower=lower, frisch_upper=upper, notes=tuple(dict.fromkeys(notes)),
+        frisch_lower=lower, frisch_upper=upper, notes=tuple(dict.fromkeys(notes)), inference=inference,
     )
 
 
@@ -417,3 +444,18 @@ def reference_index(cov: np.ndarray, names: Sequence[str], normalise_on: str) ->
         warnings.simplefilter("ignore")
         er = elementary_regressions(cov, names=names)
     return choose_reference(er)
+
+
+def _inference(granules, resampling, seed_key, tol, eps, ref, keep, coranks, eq, er, tstd, mat, share, lower,
+               upper, names, moments) -> WindowInference:
+    """The window's resampling (:func:`relspan.analysis.inference.window_inference`) from its estimates."""
+    return window_inference(
+        granules, names=names, options=resampling, seed_key=seed_key, scale=tol.scale, eps=eps, ref=ref,
+        coranks=keep, assumptions=tuple(coranks),
+        estimates={"eigenvalues": np.linalg.eigvalsh(mat), "tstd": tstd,
+                   "basis": {q: eq.coranks[q - 1].basis for q in keep} if eq is not None else {},
+                   "elementary": None if er.singular else np.asarray(er.coefficients, dtype=float),
+                   "equal_q": coranks.get("equal"), "bounded_q": coranks.get("bounded"),
+                   "diagonal_q": coranks.get("diagonal"), "diagonal_share": share,
+                   "frisch_lower": lower, "frisch_upper": upper},
+        nobs=float(moments.count))

@@ -66,6 +66,7 @@ def dataset_document(result) -> dict:
         "rows_used": p.rows_used,
         "period": list(p.period) if p.period else None,
         "examined_coranks": list(result.examined),
+        "resampling": result.resampling.to_dict(),
         "examined_from": result.examined_from,
         "full_sample": result.full.to_dict(),
         "identified": {str(q): i.to_dict() for q, i in sorted(result.identified.items())},

@@ -15,7 +15,7 @@ from relspan.assumptions import ASSUMPTIONS, assumption
 from relspan.site.markdown import Raw
 
 __all__ = ["USUAL_CAUTIONS", "CAUTION_LINK", "caution_body", "GLOSSARY", "GlossaryEntry", "glossary_terms",
-           "METHODS", "REFERENCES", "ASSUMPTION_PLAIN"]
+           "METHODS", "REFERENCES", "INFERENCE_RULES", "ASSUMPTION_PLAIN"]
 
 
 def _heading(assumption_id: str) -> str:
@@ -232,7 +232,8 @@ METHODS = (
        "the relations span the eigenvectors of the q smallest eigenvalues; the noise variance is the "
        "mean of those q eigenvalues")],
      "Not invariant to the units: relspan analyses a stated scale (the correlation scale when the "
-     "tolerance is relative). Corank q is supported when the q smallest eigenvalues are at most eps.",
+     "tolerance is relative). The corank is the number of smallest eigenvalues that are equal, decided by "
+     "a test (see Sampling uncertainty), not by a count of eigenvalues below eps.",
      ("eckart1936", "golub1980", "tipping1999")),
     ("shaped", _heading("shaped"),
      "Noise variances are known up to one common factor: N = s\u00b2 W.",
@@ -322,6 +323,23 @@ METHODS = (
      "sequential search for several breaks in the spirit of Bai & Perron needs critical values for the "
      "sequence of tests that this resampling scheme does not give, so several breaks are not offered.",
      ("andrews1993", "baiperron1998", "politis1994")),
+    ("inference", "Sampling uncertainty: resampling, tests and intervals",
+     "The rows of a window are a sample; block resampling keeps the dependence of time-ordered rows.",
+     [(r"$X^2 = \nu' \, (k \ln \bar\lambda - \sum_{j \leq k} \ln \lambda_j)$",
+       "the statistic for k equal smallest eigenvalues: nu prime times k log of their mean minus the sum of "
+       "their logs"),
+      (r"$[\,\ell - c\,s_\ell,\ u + c\,s_u\,],\quad \Phi(c + (u - \ell)/\max(s_\ell, s_u)) - \Phi(-c) = \mathrm{level}$",
+       "the outer set: lower end minus c standard deviations, upper end plus c standard deviations, with c "
+       "from the normal distribution")],
+     "Bootstrap intervals are approximate: with few rows, strong dependence or heavy tails they can cover "
+     "less often than stated (the block bootstrap underestimates the spread of the smallest eigenvalue under "
+     "autocorrelation; measured in docs/inference.md). The equality test assumes Gaussian rows; heavy tails "
+     "make it reject too often (Waternaux 1976), and its chi-square reference is approximate on the "
+     "correlation scale. Minka's (2000) evidence is kept in the results as a second opinion. Granules of "
+     "several rows are resampled whole.",
+     ("efron1979", "efron1987", "kuensch1989", "politis1994", "politis2003", "politis2004", "patton2009",
+      "lawley1956", "anderson1963", "bartlett1954", "minka2000", "waternaux1976", "davison1997",
+      "schoenemann1966", "imbens2004", "chan1979")),
     ("moments", "Window statistics from mergeable blocks",
      "Windows are merged from block statistics, never recomputed from raw rows.",
      [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
@@ -363,7 +381,80 @@ METHODS = (
      ("rousseeuw1984", "rousseeuw1999")),
 )
 
+#: the resampling and test rules (methods page), one per line; defaults as in the spec's checks.resampling
+INFERENCE_RULES = (
+    "Resampling: each window is resampled from its stored granule statistics (a resample is a merge of "
+    "stored moments; no row is read again): by default 499 resamples per window (checks.resampling.resamples; "
+    "0 turns intervals off and the pages say so), intervals at the 90% level (checks.resampling.level), the "
+    "stationary bootstrap (Politis & Romano 1994) when the dataset has a time column and the bootstrap of "
+    "single rows (Efron 1979) otherwise, or moving blocks (Kuensch 1989) on request; the block length by the "
+    "rule of Politis & White (2004) with the correction of Patton, Politis & White (2009), the largest over "
+    "the variables. Each window has its own random stream from (seed, dataset, plan, window position), so "
+    "the numbers do not depend on how many processes run or on the cache.",
+    "Corank under equal noise: the number of smallest eigenvalues (on the analysed scale) that are equal. "
+    "Starting from k = 2, the test that the k smallest eigenvalues are equal (Lawley 1956; Anderson 1963; "
+    "chi-square with k(k+1)/2 \u2212 1 degrees of freedom, at the 5% level, rows taken as independent) is "
+    "applied until it rejects; k eigenvalues also count as equal when all k are at most eps (a common "
+    "noise variance at most eps plus a deviation of norm at most eps/2). When all n count as equal, the data "
+    "show nothing but equal noise and no relation is reported. Corank 1 fits "
+    "equal noise whatever the data, so one relation is reported only when the smallest eigenvalue is at "
+    "most eps; otherwise no relation. The shares of resamples giving each corank are its support.",
+    "Corank under bounded noise: corank q is admissible when the q-th smallest eigenvalue is at most eps "
+    "(Weyl); the support is the share of resamples in which each q is the largest admissible one. "
+    "Admissible means the data allow that many relations within the tolerance, not that they are shown.",
+    "Corank under independent noise: the largest corank with an existence certificate (undetermined when "
+    "a larger one is neither certified nor ruled out); its support comes from a search of one start on "
+    "each of the first 99 resamples (checks.resampling.diagonal_resamples), computed for the full sample "
+    "and for full-sample and named-period plans only: rolling and expanding windows get none, because each "
+    "resample needs a search of its own (about a hundred times the cost of the other intervals), and "
+    "their pages say so.",
+    "Intervals: eigenvalues by the basic bootstrap (Davison & Hinkley 1997), lower ends at least 0; "
+    "coefficients, noise variances and noise shares by percentiles (Efron 1979). Relation coefficients "
+    "under equal noise: each resample's relation subspace is rotated within itself to the estimate by "
+    "orthogonal Procrustes (Schoenemann 1966) and solved for the same variables as the estimate. The "
+    "noise shares under independent noise describe the certificate found, over the resamples that "
+    "certify the same corank.",
+    "Plans with more than 200 windows resample each window at most 199 times (cost grows with the "
+    "windows; shares and 90% intervals are still supported by that many resamples); the full sample keeps "
+    "the spec's number.",
+    "Outer set under independent noise (one relation): each coefficient's identified range [lower, upper] "
+    "is widened to [lower \u2212 c sd(lower), upper + c sd(upper)], the standard deviations over resamples "
+    "and c solving \u03a6(c + (upper \u2212 lower)/max sd) \u2212 \u03a6(\u2212c) = level (Imbens & Manski "
+    "2004): it covers the true coefficient at the stated level. A side stays unbounded when the range is "
+    "unbounded in more than half of 1 \u2212 level of the resamples.",
+)
+
 REFERENCES = {
+    "efron1979": "Efron, B. (1979). Bootstrap methods: another look at the jackknife. *Annals of Statistics*, "
+                 "7(1), 1–26.",
+    "efron1987": "Efron, B. (1987). Better bootstrap confidence intervals. *Journal of the American "
+                 "Statistical Association*, 82(397), 171–185.",
+    "kuensch1989": "Kuensch, H. R. (1989). The jackknife and the bootstrap for general stationary "
+                   "observations. *Annals of Statistics*, 17(3), 1217–1241.",
+    "politis1994": "Politis, D. N. & Romano, J. P. (1994). The stationary bootstrap. *Journal of the American "
+                   "Statistical Association*, 89(428), 1303–1313.",
+    "politis2003": "Politis, D. N. (2003). Adaptive bandwidth choice. *Journal of Nonparametric Statistics*, "
+                   "15(4–5), 517–533.",
+    "politis2004": "Politis, D. N. & White, H. (2004). Automatic block-length selection for the dependent "
+                   "bootstrap. *Econometric Reviews*, 23(1), 53–70.",
+    "patton2009": "Patton, A., Politis, D. N. & White, H. (2009). Correction to \u201cAutomatic block-length "
+                  "selection for the dependent bootstrap\u201d. *Econometric Reviews*, 28(4), 372–375.",
+    "lawley1956": "Lawley, D. N. (1956). Tests of significance for the latent roots of covariance and "
+                  "correlation matrices. *Biometrika*, 43(1/2), 128–136.",
+    "anderson1963": "Anderson, T. W. (1963). Asymptotic theory for principal component analysis. *Annals of "
+                    "Mathematical Statistics*, 34(1), 122–148.",
+    "bartlett1954": "Bartlett, M. S. (1954). A note on the multiplying factors for various chi-square "
+                    "approximations. *Journal of the Royal Statistical Society B*, 16(2), 296–298.",
+    "minka2000": "Minka, T. P. (2000). Automatic choice of dimensionality for PCA. *Advances in Neural "
+                 "Information Processing Systems*, 13, 598–604.",
+    "waternaux1976": "Waternaux, C. M. (1976). Asymptotic distribution of the sample roots for a nonnormal "
+                     "population. *Biometrika*, 63(3), 639–645.",
+    "davison1997": "Davison, A. C. & Hinkley, D. V. (1997). *Bootstrap Methods and their Application*. "
+                   "Cambridge: Cambridge University Press.",
+    "schoenemann1966": "Schoenemann, P. H. (1966). A generalized solution of the orthogonal Procrustes "
+                       "problem. *Psychometrika*, 31(1), 1–10.",
+    "imbens2004": "Imbens, G. W. & Manski, C. F. (2004). Confidence intervals for partially identified "
+                  "parameters. *Econometrica*, 72(6), 1845–1857.",
     "frisch1934": "Frisch, R. (1934). *Statistical Confluence Analysis by Means of Complete Regression "
                   "Systems*. Oslo: University Institute of Economics.",
     "reiersol1941": "Reiersøl, O. (1941). Confluence analysis by means of lag moments and other methods of "

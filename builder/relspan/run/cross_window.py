@@ -49,18 +49,18 @@ class ResamplingOptions:
 
 
 def _resampling_options(ds) -> ResamplingOptions:
-    """Resamples, interval level and seed for ``ds``: 499 and 0.90 unless the spec says otherwise.
+    """Resamples, interval level and seed for ``ds``, from the spec's ``checks.resampling``.
 
-    The single place this stage reads them (the spec's resampling keys, once
-    they exist, are read here).
+    Read through :func:`relspan.analysis.inference.resampling_options` (one
+    reading of the spec). Decisions about change and breaks always rest on
+    resampling: with ``resamples: 0`` (no intervals) this stage still draws the
+    default 499.
     """
-    checks = ds.checks
-    rs = getattr(checks, "resampling", None)
-    resamples = int(getattr(rs, "resamples", None) or resample.DEFAULT_RESAMPLES)
-    level = float(getattr(rs, "level", None) or resample.DEFAULT_LEVEL)
-    seed = getattr(rs, "seed", None)
-    return ResamplingOptions(resamples=resamples, level=level,
-                             seed=int(checks.seed if seed is None else seed))
+    from relspan.analysis.inference import resampling_options
+
+    r = resampling_options(ds)
+    return ResamplingOptions(resamples=int(r.resamples or resample.DEFAULT_RESAMPLES), level=float(r.level),
+                             seed=int(r.seed))
 
 
 def window_resamples(prepared, ds, plan_id: str | None, index: int, opts: ResamplingOptions

@@ -24,6 +24,7 @@ from relspan.assumptions import corank_preference
 from relspan.analysis.moments import Moments
 from relspan.analysis.results import AnalysisRun, DatasetResult, PlanResult
 from relspan.analysis.stability import coefficient_swing, corank_sequence
+from relspan.analysis.inference import FULL_SAMPLE_PLAN, diagonal_scope, resampling_options
 from relspan.analysis.window import WindowAnalysis, WindowOptions, analyse_window, reference_index
 from relspan.errors import OptionsError, RelspanWarning
 from relspan.spec.model import DatasetSpec, Spec, WindowPlanSpec
@@ -136,14 +137,73 @@ _SPEC_KEYS = {"eps": "checks.tolerance", "starts": "checks.frisch_starts", "seed
               "ref": "checks.normalise_on"}
 
 
+@dataclass(frozen=True, slots=True, eq=False)
+class _GranuleSpan:
+    """A window's granules as views into the dataset's granule table (no copy until the task runs).
+
+    Items of every window are listed before the executor runs them; holding
+    views keeps that list small, and each task pays for its own window only.
+    :meth:`stats` gives what :meth:`PreparedDataset.granules_between` gives.
+    """
+
+    prepared_like: object
+    lo: int
+    hi: int
+
+    @classmethod
+    def of(cls, prepared, lo: int, hi: int) -> "_GranuleSpan":
+        import types
+
+        t = prepared.granules.table
+        table = types.SimpleNamespace(counts=t.counts[lo:hi], means=t.means[lo:hi],
+                                      comoments=t.comoments[lo:hi], origin=t.origin)
+        like = _PreparedSlice(granules=_GranuleSlice(table=table,
+                                                     rows_per_granule=prepared.granules.rows_per_granule),
+                              scale=prepared.scale, shift=prepared.shift, time_column=prepared.time_column,
+                              dataset_id=prepared.dataset_id)
+        return cls(like, 0, hi - lo)
+
+    def stats(self):
+        from relspan.data.prepare import PreparedDataset
+
+        return PreparedDataset.granules_between(self.prepared_like, self.lo, self.hi)
+
+
+@dataclass(frozen=True, slots=True)
+class _GranuleSlice:
+    table: object
+    rows_per_granule: int
+
+
+@dataclass(frozen=True, slots=True)
+class _PreparedSlice:
+    granules: _GranuleSlice
+    scale: object
+    shift: object
+    time_column: object
+    dataset_id: str
+
+
 def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ...]]:
-    """One window (top-level so process pools and Dask can pickle it)."""
-    moments, names, options, common_std, label, *given = item
+    """One window (top-level so process pools and Dask can pickle it).
+
+    The window's resampling runs here, on the executor, from its own granules and
+    its own random stream (``(seed, dataset, plan, window index)``), so the numbers
+    do not depend on where or in which order windows run. Items are
+    ``(moments, names, options, common_std, label[, granules, resampling, seed_key][, elementary])``.
+    """
+    moments, names, options, common_std, label, *rest = item
+    if len(rest) >= 3:
+        (granules, resampling, seed_key), given = rest[:3], rest[3:]
+    else:  # without granules: no resampling
+        (granules, resampling, seed_key), given = (None, None, ()), rest
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
         try:
             result = analyse_window(moments, names=names, options=options, common_std=common_std,
-                                    label=label, elementary=given[0] if given else None)
+                                    label=label, elementary=given[0] if given else None,
+                                    granules=None if granules is None else granules.stats(),
+                                    resampling=resampling, seed_key=seed_key)
         except OptionsError as exc:
             if exc.key not in _SPEC_KEYS:
                 raise
@@ -246,13 +306,26 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     common_std = full_m.std()
     ref = reference_index(full_m.covariance(), names, ds.checks.normalise_on)
     options = _window_options(ds, ref)
+    resampling = resampling_options(ds)
+    use = resampling.enabled and prepared.granules is not None
 
-    items = [(full_m, names, options, common_std, "full sample")]
+    def granules(plan_id, i):
+        if not use:
+            return None
+        if plan_id is None:
+            return _GranuleSpan.of(prepared, 0, len(prepared.granules))
+        w = prepared.plan(plan_id).windows[i]
+        return _GranuleSpan.of(prepared, *prepared.granules.span(w.first_row - 1, w.last_row - 1))
+
+    items = [(full_m, names, options, common_std, "full sample", granules(None, 0), resampling,
+              (ds.id, FULL_SAMPLE_PLAN, 0))]
     spans = []
     for plan in plans:
         pairs = window_moments(prepared, plan.id)
         spans.append((plan, [w for w, _ in pairs], len(items), len(items) + len(pairs)))
-        items.extend((m, names, options, common_std, w.label) for w, m in pairs)
+        plan_resampling = diagonal_scope(resampling, plan.kind, len(pairs))
+        items.extend((m, names, options, common_std, w.label, granules(plan.id, i), plan_resampling,
+                      (ds.id, plan.id, i)) for i, (w, m) in enumerate(pairs))
     items = _with_elementary(items, names)
     executor = executor or SerialExecutor()
     results = map_in_chunks(executor, _analyse_task, items, progress=progress)
@@ -294,7 +367,7 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
                          examined=examined, examined_from=examined_from, findings=findings,
                          summary=summary, identified=identified, flat=_flats(full, examined), threshold_deg=threshold,
                          cache_key=cache_key, trends=trends, influence=influence, breaks=breaks,
-                         sampling_spread=spread)
+                         sampling_spread=spread, resampling=resampling)
 
 
 def _all_granules(prepared):

@@ -30,6 +30,7 @@ __all__ = [
     "WindowPlanSpec",
     "Tolerance",
     "ChecksSpec",
+    "ResamplingSpec",
     "ClaimSpec",
     "SiteSpec",
     "Spec",
@@ -105,6 +106,24 @@ class Tolerance:
 
 
 @dataclass(frozen=True, slots=True)
+class ResamplingSpec:
+    """``checks.resampling:`` - the bootstrap behind every interval and corank support.
+
+    ``resamples`` 0 turns resampling off. ``scheme`` is ``"auto"`` (stationary
+    blocks with a time column, iid without), ``"stationary"``, ``"moving"`` or
+    ``"iid"``. ``block_length`` is ``"auto"`` (Politis & White 2004 with the
+    2009 correction) or a number of rows. ``seed`` None means ``checks.seed``.
+    """
+
+    resamples: int = 499
+    level: float = 0.90
+    scheme: str = "auto"
+    block_length: float | str = "auto"
+    seed: int | None = None
+    diagonal_resamples: int = 99
+
+
+@dataclass(frozen=True, slots=True)
 class ChecksSpec:
     """``checks:`` - which analyses run and with which options.
 
@@ -121,6 +140,7 @@ class ChecksSpec:
     max_angle_deg: float = 10.0
     frisch_starts: int = 8
     seed: int = 0
+    resampling: ResamplingSpec = field(default_factory=ResamplingSpec)
 
 
 @dataclass(frozen=True, slots=True)

@@ -21,6 +21,7 @@ from typing import Any, Iterable
 from relspan.spec._yamlpos import LineDict, LineList
 from relspan.spec.model import (
     ChecksSpec,
+    ResamplingSpec,
     ClaimSpec,
     DatasetSpec,
     Period,
@@ -318,6 +319,7 @@ class _Builder:
             v, _, _ = pick(k)
             if v is not None:
                 kw[k] = conv(v)
+        kw["resampling"] = _resampling(top.get("resampling") or {}, override.get("resampling") or {})
         if columns is None:
             return ChecksSpec(**kw)
         # dataset-level consequences
@@ -682,3 +684,17 @@ def _rel_folder(folder: Path, base: Path) -> str:
 
 def _relations(q: int) -> str:
     return f"{q} relation{'s' if q != 1 else ''}"
+
+
+def _resampling(top: dict, override: dict) -> ResamplingSpec:
+    """``checks.resampling``: a dataset's keys over the top level's over the defaults (key by key)."""
+    kw: dict[str, Any] = {}
+    for k, conv in (("resamples", int), ("level", float), ("scheme", str), ("seed", int),
+                    ("diagonal_resamples", int)):
+        v = override[k] if k in override else top.get(k)
+        if v is not None:
+            kw[k] = conv(v)
+    b = override["block_length"] if "block_length" in override else top.get("block_length")
+    if b is not None:
+        kw["block_length"] = "auto" if b == "auto" else float(b)
+    return ResamplingSpec(**kw)

@@ -196,8 +196,67 @@ def _checks_schema() -> dict[str, Any]:
                 "the output so that a build can be repeated exactly.",
                 [0, 2026], default=0,
             ),
+            "resampling": _resampling_schema(),
         },
     }
+
+
+#: resampling schemes a spec may name (``auto``: stationary blocks with a time column, iid without)
+RESAMPLING_SCHEMES = ("auto", "stationary", "moving", "iid")
+
+
+def _resampling_schema() -> dict[str, Any]:
+    """``checks.resampling:`` (the bootstrap behind every interval and corank support)."""
+    return _p(
+        {"type": "object", "additionalProperties": False,
+         "properties": {
+             "resamples": _p(
+                 {"type": "integer", "minimum": 0, "maximum": 100000},
+                 "Resamples",
+                 "Bootstrap resamples per window behind every interval and every corank "
+                 "support. 0 turns resampling off: the site then says that intervals were not "
+                 "computed.", [499, 0], default=499),
+             "level": _p(
+                 {"type": "number", "exclusiveMinimum": 0.5, "exclusiveMaximum": 1},
+                 "Interval level",
+                 "Nominal coverage of every interval, e.g. 0.90 for 90% intervals.",
+                 [0.90, 0.95], default=0.90),
+             "scheme": _p(
+                 {"type": "string", "enum": list(RESAMPLING_SCHEMES)},
+                 "Resampling scheme",
+                 "How rows are drawn: `stationary` (blocks of random length, Politis & Romano "
+                 "1994), `moving` (blocks of fixed length, Kuensch 1989), `iid` (single rows, "
+                 "Efron 1979), or `auto`: `stationary` when the dataset has a time column, "
+                 "`iid` otherwise.", ["auto", "moving"], default="auto"),
+             "block_length": _p(
+                 {"anyOf": [{"const": "auto"}, {"type": "number", "minimum": 1}]},
+                 "Block length",
+                 "Mean block length (stationary) or block length (moving), in rows: `auto` for "
+                 "the rule of Politis & White (2004) with the correction of Patton, Politis & "
+                 "White (2009), or a number >= 1. Ignored by `iid`.", ["auto", 8],
+                 default="auto",
+                 **{"x-expected": "`auto` or a number of rows >= 1 such as 8"}),
+             "seed": _p(
+                 {"type": "integer", "minimum": 0, "maximum": 2**63 - 1},
+                 "Resampling seed",
+                 "Seed of the resampling streams (each window's stream is derived from it, the "
+                 "dataset, the plan and the window's position). Default: `checks.seed`.",
+                 [0, 20240501]),
+             "diagonal_resamples": _p(
+                 {"type": "integer", "minimum": 0, "maximum": 100000},
+                 "Diagonal-noise resamples",
+                 "Resamples behind the diagonal-noise (Frisch scheme) corank support and its "
+                 "noise variances: the first this many of `resamples`, because each needs a "
+                 "search of its own. 0 leaves the diagonal-noise support out.", [99, 0],
+                 default=99),
+         }},
+        "Resampling",
+        "The bootstrap behind every interval and corank support. A dataset's own "
+        "`checks.resampling` overrides the top-level one key by key.",
+        [{"resamples": 499, "level": 0.9, "scheme": "auto"}, {"resamples": 0}],
+        default={"resamples": 499, "level": 0.9, "scheme": "auto", "block_length": "auto",
+                 "diagonal_resamples": 99},
+    )
 
 
 def _build_schema() -> dict[str, Any]:

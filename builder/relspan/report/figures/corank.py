@@ -46,7 +46,7 @@ def _ordinal(k: int) -> str:
 
 def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
                     scale_label: str = "eigenvalue", title: str | None = None,
-                    name: str = "corank-evidence") -> FigureResult:
+                    name: str = "corank-evidence", intervals=None, level: float | None = None) -> FigureResult:
     """The eigenvalues of a window's covariance on a log scale, against the eps threshold(s).
 
     Eigenvalues are drawn smallest first, so position q is the eigenvalue that
@@ -70,12 +70,19 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
         Axis label for the eigenvalues (e.g. "eigenvalue of the correlation matrix").
     title, name : str
         Optional title; file stem.
+    intervals : ((n,), (n,)) array_like, optional
+        Bootstrap interval of each eigenvalue (low, high), smallest first; drawn
+        as a bar with end ticks beside the point. A low end at or below 0 is
+        drawn at the bottom edge.
+    level : float, optional
+        The intervals' level (required with ``intervals``).
 
     Returns
     -------
     FigureResult
         Table: ``kind`` "eigenvalue" (``position`` 1..n smallest first,
-        ``value``) and "threshold" (``label``, ``value``, ``admissible_up_to``).
+        ``value``, and ``low`` / ``high`` with intervals) and "threshold"
+        (``label``, ``value``, ``admissible_up_to``).
 
     References
     ----------
@@ -105,6 +112,12 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
         epss.append((lab, v))
     tick_labels = [str(i + 1) for i in range(n)] if labels is None else as_labels(func, "labels", labels, length=n)
 
+    iv_lo = iv_hi = None
+    if intervals is not None:
+        iv_lo = as_float_array(func, "intervals", intervals[0], ndim=1, shape=(n,), allow_nan=True)
+        iv_hi = as_float_array(func, "intervals", intervals[1], ndim=1, shape=(n,), allow_nan=True)
+        if level is None or not 0 < float(level) < 1:
+            raise fail(func, "level", "must be a level in (0, 1) when intervals are given", "Pass e.g. 0.9.")
     positive = lam[lam > 0]
     floor_ref = min(([float(positive.min())] if positive.size else []) + [min(v for _, v in epss)])
     floor = floor_ref / 30.0
@@ -117,7 +130,8 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
         if title:
             ax.set_title(title)
         ax.set_yscale("log")
-        top = max(float(lam.max()), max(v for _, v in epss)) * 4
+        top = max(float(lam.max()), max(v for _, v in epss),
+                  float(np.nanmax(iv_hi)) if iv_hi is not None and np.isfinite(iv_hi).any() else 0.0) * 4
         bottom = floor / 2
         ax.set_ylim(bottom, top)
         ax.set_xlim(0.4, n + 0.6)
@@ -134,6 +148,16 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
         shown = np.where(lam > 0, lam, floor)
         ax.vlines(x, bottom, shown, color="#9a9a9a", linewidth=1.0, zorder=2)
         pos = lam > 0
+        if iv_lo is not None:
+            ok = np.isfinite(iv_lo) & np.isfinite(iv_hi)
+            xb = x[ok] - 0.18
+            lows = np.where(iv_lo[ok] > 0, iv_lo[ok], bottom)
+            ax.vlines(xb, lows, iv_hi[ok], color=INK, linewidth=1.3, zorder=4,
+                      label=f"{float(level):.0%} interval (resampling)")
+            ax.plot(xb, iv_hi[ok], linestyle="none", marker="_", markersize=8, color=INK, zorder=4)
+            ax.plot(xb[iv_lo[ok] > 0], iv_lo[ok][iv_lo[ok] > 0], linestyle="none", marker="_", markersize=8,
+                    color=INK, zorder=4)
+            ax.legend(loc="upper left", fontsize=8.5)
         ax.plot(x[pos], lam[pos], linestyle="none", marker="o", markersize=7, color=PALETTE[0], zorder=4)
         if (~pos).any():
             ax.plot(x[~pos], np.full((~pos).sum(), floor), linestyle="none", marker="v", markersize=8,
@@ -166,6 +190,9 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
     table = pd.DataFrame(rows, columns=["kind", "position", "label", "value", "admissible_up_to"])
     table["position"] = table["position"].astype("Int64")
     table["admissible_up_to"] = table["admissible_up_to"].astype("Int64")
+    if iv_lo is not None:
+        table["low"] = list(iv_lo) + [np.nan] * len(epss)
+        table["high"] = list(iv_hi) + [np.nan] * len(epss)
 
     lam_txt = join_words([num(v) if v > 0 else "0" for v in lam])
     desc = (f"The {n} eigenvalues, smallest first, on a logarithmic scale: {lam_txt}. "
@@ -183,6 +210,10 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
             desc += (f"At {name_txt}, {plural(k, 'eigenvalue')} {'is' if k == 1 else 'are'} at or below it: "
                      f"corank up to {k} is admissible (shaded); corank {k + 1} would need the "
                      f"{_ordinal(k + 1)} eigenvalue, {num(lam[k])}, to be at most {num(v)}. ")
+    if iv_lo is not None:
+        desc += (f"Beside each eigenvalue a bar shows its {float(level):.0%} interval from resampling: "
+                 + join_words([f"{num(a)} to {num(b)}" for a, b in zip(iv_lo, iv_hi)
+                               if np.isfinite(a) and np.isfinite(b)]) + ". ")
     short = "; ".join(f"eps {num(v)}: corank up to {k}" for (_, v), k in zip(epss, ks))
     alt = fit_alt(f"Eigenvalues {lam_txt} (log scale); {short}.",
                   f"Eigenvalues from {num(lam[0])} to {num(lam[-1])}; {short}.",
@@ -192,7 +223,8 @@ def corank_evidence(eigenvalues, eps, labels: Sequence[str] | None = None, *,
 
 def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence[int | None]], *,
                     max_corank: int | None = None, title: str | None = None,
-                    name: str = "corank-timeline") -> FigureResult:
+                    name: str = "corank-timeline",
+                    support: Mapping[str, Sequence[float | None]] | None = None) -> FigureResult:
     """The corank found in each window, one strip per noise assumption.
 
     Each cell is a window; its fill darkens with the corank (sequential
@@ -210,12 +242,17 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
         Top of the colour scale (default: the largest corank shown, at least 1).
     title, name : str
         Optional title; file stem.
+    support : mapping of str to (w,) sequence of float or None, optional
+        Per assumption (same keys as ``coranks``) and window, the share of
+        resamples giving the corank shown (None: not computed); written under
+        each number as a percentage.
 
     Returns
     -------
     FigureResult
         Table columns: ``assumption``, ``window``, ``corank`` (empty when
-        undetermined), ``status`` ("determined" / "undetermined").
+        undetermined), ``status`` ("determined" / "undetermined"); with
+        ``support`` also ``support`` (share of resamples, empty when not computed).
     """
     func = "corank_timeline"
     wl = as_labels(func, "window_labels", window_labels)
@@ -240,6 +277,15 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                            "Pass the corank as an int, or None when undetermined.", got=repr(v))
             row.append(int(v))
         grid.append(row)
+    sup: list[list[float | None]] | None = None
+    if support is not None:
+        sup = []
+        for nm, key in zip(names, coranks.keys()):
+            seq = list(support.get(key, [None] * w))
+            if len(seq) != w:
+                raise fail(func, f"support[{nm!r}]", f"must have {w} entries (one per window)",
+                           "Pass one share (or None) per window.", got=f"{len(seq)} entries")
+            sup.append([None if v is None or not np.isfinite(v) else float(v) for v in seq])
     known = [v for row in grid for v in row if v is not None]
     top = max_corank if max_corank is not None else max(known + [1])
     if top < 1:
@@ -270,7 +316,12 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                     fill = SEQUENTIAL(0.12 + 0.88 * min(v, top) / top)
                     ax.add_patch(Rectangle((c - 0.5, r - 0.4), 1, 0.8, facecolor=fill, edgecolor="white",
                                            linewidth=1.0))
-                    ax.text(c, r, str(v), ha="center", va="center", fontsize=fs, color=text_color_on(fill))
+                    share = sup[r][c] if sup is not None else None
+                    ax.text(c, r - (0.12 if share is not None else 0.0), str(v), ha="center", va="center",
+                            fontsize=fs, color=text_color_on(fill))
+                    if share is not None:
+                        ax.text(c, r + 0.2, f"{100 * share:.0f}%", ha="center", va="center",
+                                fontsize=max(5.0, fs * 0.62), color=text_color_on(fill))
         ax.set_yticks(range(a), names)
         step = max(1, int(np.ceil(w / 14)))
         ax.set_xticks(range(0, w, step), [wl[i] for i in range(0, w, step)])
@@ -291,6 +342,8 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
             for nm, row in zip(names, grid) for c, v in enumerate(row)]
     table = pd.DataFrame(rows, columns=["assumption", "window", "corank", "status"])
     table["corank"] = table["corank"].astype("Int64")
+    if sup is not None:
+        table["support"] = [sup[r][c] for r in range(a) for c in range(w)]
 
     parts, short = [], []
     for nm, row in zip(names, grid):
@@ -307,6 +360,15 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
             txt += "; changes " + "; ".join(f"from {p} to {q} between {x} and {y}" for x, y, p, q in changes[:3])
             if len(changes) > 3:
                 txt += f" and {len(changes) - 3} more times"
+        if sup is not None:
+            r_i = names.index(nm)
+            got = [(sup[r_i][c], wl[c]) for c in range(w) if sup[r_i][c] is not None and row[c] is not None]
+            if got:
+                low, where = min(got)
+                txt += (f"; the share of resamples giving the corank shown is written under it, lowest "
+                        f"{100 * low:.0f}% ({where})")
+            elif any(v is not None for v in row):
+                txt += "; no resampling support computed for these windows"
         parts.append(txt)
         if vals:
             mode = max(vals, key=lambda v: (sum(1 for x in row if x == v), -v))

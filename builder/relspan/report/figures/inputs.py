@@ -247,22 +247,32 @@ def spectrum_figure(result, analysis, name: str):
     if eq is None:
         return None
     scale = "eigenvalue (correlation scale)" if analysis.scale == "correlation" else "eigenvalue"
+    inf = analysis.inference
+    ivs = None if inf is None else ([iv.low for iv in inf.eigenvalues], [iv.high for iv in inf.eigenvalues])
     return corank_evidence(eq.eigenvalues, {"tolerance": analysis.eps},
-                           scale_label=scale, name=name)
+                           scale_label=scale, name=name, intervals=ivs,
+                           level=None if inf is None else inf.level)
 
 
 def timeline_figure(result, plan):
     if len(plan.analyses) < 1:
         return None
-    coranks = {}
+    coranks, support = {}, {}
     for a in ("equal", "shaped", "bounded", "diagonal"):
         seq = plan.coranks.coranks.get(a)
         if seq is not None:
             coranks[assumption(a).name] = list(seq)
+            shares = []
+            for w, q in zip(plan.analyses, seq):
+                s = None if w.inference is None or q is None else w.inference.coranks.get(a)
+                shares.append(None if s is None else s.support(q))
+            support[assumption(a).name] = shares
     if not coranks:
         return None
+    any_support = any(v is not None for seq in support.values() for v in seq)
     return corank_timeline(list(plan.labels), coranks, max_corank=len(result.names) - 1,
-                           name=f"{result.spec.id}-{plan.plan.id}-coranks")
+                           name=f"{result.spec.id}-{plan.plan.id}-coranks",
+                           support=support if any_support else None)
 
 
 def frisch_figure(result, analysis, name: str):
@@ -277,8 +287,15 @@ def frisch_figure(result, analysis, name: str):
     fr = analysis.diagonal
     if fr is not None and fr.q1.status != "bounded":
         reason = fr.q1.reason
+    outer = None
+    inf = analysis.inference
+    if inf is not None and inf.outer:
+        by = {o.variable: o for o in inf.outer}
+        if all(result.names[k] in by for k in ks):
+            outer = ([by[result.names[k]].low for k in ks], [by[result.names[k]].high for k in ks])
     return frisch_intervals([result.labels[k] for k in ks], lower, upper,
                             point=None if point is None else point[ks], unbounded_reason=reason,
                             point_label="least squares (reference variable noisy)",
-                            normalised_on=result.labels[ref], name=name)
+                            normalised_on=result.labels[ref], name=name, outer=outer,
+                            outer_level=None if outer is None else inf.level)
 

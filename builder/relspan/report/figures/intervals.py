@@ -18,7 +18,8 @@ __all__ = ["frisch_intervals"]
 def frisch_intervals(names: Sequence[str], lower, upper, point=None,
                      unbounded_reason: str | None = None, *, point_label: str = "point estimate",
                      normalised_on: str | None = None, title: str | None = None,
-                     name: str = "frisch-intervals") -> FigureResult:
+                     name: str = "frisch-intervals", outer=None, outer_level: float | None = None
+                     ) -> FigureResult:
     """One horizontal interval per normalised coefficient (the Frisch scheme's bounds).
 
     Under the Frisch scheme (independent noise of unknown variances) with one
@@ -44,12 +45,18 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
         The variable whose coefficient is fixed at 1 (named in the axis label).
     title, name : str
         Optional title; file stem.
+    outer : ((k,), (k,)) array_like, optional
+        An outer confidence set per coefficient (low, high; infinite when open),
+        drawn as a thin bar with end ticks behind each range (Imbens & Manski 2004).
+    outer_level : float, optional
+        Its level, e.g. 0.9 (required with ``outer``).
 
     Returns
     -------
     FigureResult
         Table columns: ``coefficient``, ``lower``, ``upper`` (``-inf``/``inf`` when
-        unbounded), ``lower_unbounded``, ``upper_unbounded``, ``point``, ``status``.
+        unbounded), ``lower_unbounded``, ``upper_unbounded``, ``point``, ``status``;
+        with ``outer`` also ``outer_low``, ``outer_high``.
 
     References
     ----------
@@ -80,8 +87,15 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
     pt = None if point is None else as_float_array(func, "point", point, ndim=1, shape=(k,),
                                                    allow_nan=True)
     lo_unb, hi_unb = np.isneginf(lo), np.isposinf(hi)
+    o_lo = o_hi = None
+    if outer is not None:
+        o_lo = as_float_array(func, "outer", outer[0], ndim=1, shape=(k,), allow_inf=True)
+        o_hi = as_float_array(func, "outer", outer[1], ndim=1, shape=(k,), allow_inf=True)
+        if outer_level is None or not 0 < float(outer_level) < 1:
+            raise fail(func, "outer_level", "must be a level in (0, 1) when outer is given", "Pass e.g. 0.9.")
 
-    finite = [0.0] + [v for v in np.concatenate([lo, hi]) if np.isfinite(v)]
+    finite = [0.0] + [v for v in np.concatenate([lo, hi] + ([o_lo, o_hi] if o_lo is not None else []))
+                      if np.isfinite(v)]
     if pt is not None:
         finite += [v for v in pt if np.isfinite(v)]
     fmin, fmax = min(finite), max(finite)
@@ -119,6 +133,8 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
                 ax.plot([pt[i]], [y], marker="D", markersize=7, markerfacecolor="white",
                         markeredgecolor=PALETTE[0], markeredgewidth=1.6, zorder=5, linestyle="none",
                         label=point_label if i == 0 else None)
+        if pt is not None and o_lo is not None:
+            ax.plot([], [], color=INK, linewidth=1.2, label=f"{float(outer_level):.0%} outer confidence set")
         if pt is not None:
             ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.0), ncol=1, borderaxespad=0.2,
                       handletextpad=0.3)
@@ -144,6 +160,18 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
             ax.set_xlim(xmin, xmax)
         # 3) the intervals; unbounded sides run to the final axis edge as arrows
         width = xmax - xmin
+        if o_lo is not None:
+            for i, y in enumerate(ys):
+                a = xmin if not np.isfinite(o_lo[i]) else o_lo[i]
+                b = xmax if not np.isfinite(o_hi[i]) else o_hi[i]
+                ax.plot([a, b], [y, y], color=INK, linewidth=1.2, zorder=2,
+                        label=f"{float(outer_level):.0%} outer confidence set" if i == 0 else None)
+                for end, fin in ((a, np.isfinite(o_lo[i])), (b, np.isfinite(o_hi[i]))):
+                    if fin:
+                        ax.plot([end], [y], marker="|", markersize=11, color=INK, markeredgewidth=1.4, zorder=2)
+            if pt is None:
+                ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.0), ncol=1, borderaxespad=0.2,
+                          handletextpad=0.3)
         for i, y in enumerate(ys):
             a = xmin if lo_unb[i] else lo[i]
             b = xmax if hi_unb[i] else hi[i]
@@ -177,6 +205,8 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
     table = pd.DataFrame({"coefficient": labels, "lower": lo, "upper": hi,
                           "lower_unbounded": lo_unb, "upper_unbounded": hi_unb,
                           "point": pt if pt is not None else np.full(k, np.nan), "status": status})
+    if o_lo is not None:
+        table["outer_low"], table["outer_high"] = o_lo, o_hi
 
     def span_text(i: int, short: bool = False) -> str:
         if status[i] == "point":
@@ -211,6 +241,12 @@ def frisch_intervals(names: Sequence[str], lower, upper, point=None,
                  f"{'that coefficient' if len(zero_in) == 1 else 'those coefficients'} is not pinned down.")
     else:
         desc += "No range contains zero, so every sign is pinned down."
+    if o_lo is not None:
+        def end(v):
+            return num(v) if np.isfinite(v) else "unbounded"
+        desc += (f" A thin bar behind each range is its {float(outer_level):.0%} outer confidence set from "
+                 "resampling (Imbens & Manski 2004), which covers the true coefficient at that level: "
+                 + "; ".join(f"{labels[i]} {end(o_lo[i])} to {end(o_hi[i])}" for i in range(k)) + ".")
     short = "; ".join(f"{labels[i]} {span_text(i, short=True)}" for i in range(k))
     alt = fit_alt(f"Frisch bounds: {short}.",
                   f"Frisch bounds for {plural(k, 'coefficient')}; {n_unb} unbounded; "

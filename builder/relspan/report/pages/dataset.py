@@ -7,6 +7,7 @@ from relspan.report.pages.addresses import HOME, csv_path, dataset_path, plan_an
 from relspan.report.pages.claims import claims_table
 from relspan.report.pages.diagnostics import effective_rows_text, influence_section, trend_caution, trend_section
 from relspan.report.pages.publisher import Publisher
+from relspan.report.pages import uncertainty as U
 from relspan.report.pages.tables import table
 from relspan.report.text import ASSUMPTION_PLAIN, CAUTION_LINK, USUAL_CAUTIONS
 from relspan.site import blocks
@@ -66,9 +67,11 @@ def _data_summary(result, pub: Publisher) -> str:
 
 def _side_by_side(result, pub: Publisher) -> str:
     labels = result.labels
-    rows = [(assumption(r.assumption).title, r.corank_words, r.relations, coefficient_cell(r), r.identified)
+    full = result.full
+    rows = [(assumption(r.assumption).title, U.corank_cell(full, r), r.relations,
+             U.coefficient_cell_with_intervals(r, full, result.names, labels) or coefficient_cell(r), r.identified)
             for r in result.summary.rows]
-    header = ("Noise assumption", "Relations", "The relations found",
+    header = ("Noise assumption", "Relations (resampling support)", "The relations found",
               md("Coefficients, equation for {}", labels[result.full.ref]), "What is identified")
     return table(header, rows, csv=(pub, csv_path(result.spec.id, "assumptions-side-by-side")))
 
@@ -91,11 +94,20 @@ def _identified_section(result, pub: Publisher) -> str:
                           "identified is a **reduced form**: {} written through the other variables.\n",
                           Raw(cap(count(q, "relation"))), join_words(targets)))
         others = [k for k, nm in enumerate(names) if nm not in ident.targets]
-        rows = [tuple([lab[t]] + [fmt(-ident.reduced_form[i, k]) for k in others])
-                for i, t in enumerate(ident.targets)]
+        inf = result.full.inference
+        same_targets = inf is not None and inf.targets.get(q) == tuple(ident.targets)
+
+        def value(i, t, k):
+            v = fmt(-ident.reduced_form[i, k])
+            iv = inf.coefficient(q, t, names[k]) if same_targets else None
+            return v if iv is None else f"{v} ({U.interval_words(iv)})"
+
+        rows = [tuple([lab[t]] + [value(i, t, k) for k in others]) for i, t in enumerate(ident.targets)]
         out.append(Raw(f"Reduced form (deviations from the means, data units; condition number of this choice "
                        f"of variables {fmt(ident.reduced_condition)}, where values near 1 mean a well-posed "
-                       "choice):\n"))
+                       "choice"
+                       + (f"; in brackets the {result.full.inference.level:.0%} interval under equal noise"
+                          if result.full.inference is not None else "") + "):\n"))
         out.append(table(("Equation for",) + tuple(lab[names[k]] for k in others), rows,
                          csv=(pub, csv_path(result.spec.id, f"reduced-form-q{q}"))))
         basis_rows = [tuple([f"relation {i + 1}"] + [fmt(v) for v in ident.basis[i]]) for i in range(q)]
@@ -310,6 +322,7 @@ def dataset_page(run, result, pub: Publisher) -> Page:
     body.append(md("**In plain words:** {}\n", sm.pinned.text))
     counts = "; ".join(f"{assumption(a).title.lower()}: " + ("undetermined" if full.coranks[a] is None
                                                              else str(full.coranks[a]))
+                       + f" ({U.support_words(full, a)})"
                        for a in ASSUMPTION_IDS if a in full.coranks and a != "elementary")
     line = f"Relations in the full sample \u2014 {counts}."
     if full.equal is not None:
@@ -317,17 +330,20 @@ def dataset_page(run, result, pub: Publisher) -> Page:
         where = ("of the full-sample correlation matrix (each variable divided by its standard deviation)"
                  if full.scale == "correlation" else "of the full-sample covariance (the data's units)")
         line += (f" The smallest eigenvalues {where} are {', '.join(fmt(v) for v in ev[:min(3, len(ev))])} "
-                 f"against the tolerance {full.eps:g} on the same scale; each one at or below it is room for one "
-                 "relation under bounded noise.")
+                 f"against the tolerance {full.eps:g} on the same scale; under bounded noise each one at or below "
+                 "it is room for one relation, while under equal noise the count is how many of the smallest are "
+                 "equal (by a test; see Methods).")
+    line += " " + U.resampling_sentence(full)
     body.append(md("{}\n", line))
     body.append(md("Relations examined in the rest of this page: {} ({}).\n",
                    Raw(", ".join(str(q) for q in result.examined) or "none"), result.examined_from))
     body.append(pub.figure(ff.spectrum_figure, (result, full, f"{ds.id}-spectrum"), folder,
                            Raw(("Eigenvalues of the full-sample correlation matrix" if full.scale == "correlation"
                                 else "Eigenvalues of the full-sample covariance (the data's units)")
-                               + " (how much the data vary in each "
-                               "independent direction) against the tolerance: every eigenvalue below the line is "
-                               "room for one more relation."), ident="spectrum", dataset_key=key))
+                               + " (how much the data vary in each independent direction) against the tolerance: "
+                               "under bounded noise every eigenvalue below the line is room for one more relation"
+                               + ("; bars are resampling intervals." if full.inference is not None else ".")),
+                           ident="spectrum", dataset_key=key))
     if full.diagonal is not None:
         body.append(blocks.details("Independent noise (Frisch scheme): the corank search",
                                    getattr(sm, "diagonal_search", "") or full.diagonal.corank.summary))

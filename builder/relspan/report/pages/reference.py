@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from relspan.report.pages.addresses import HOME
 from relspan.report.pages.publisher import Publisher
-from relspan.report.text import GLOSSARY, METHODS, REFERENCES, caution_body
+from relspan.report.text import GLOSSARY, INFERENCE_RULES, METHODS, REFERENCES, caution_body
 from relspan.site.content import Page
 from relspan.site.markdown import Raw
 
@@ -43,9 +43,11 @@ def methods_page(pub: Publisher) -> Page:
         body.append(Raw("**References.**\n"))
         body.append(Raw("\n".join(f"- {REFERENCES[r]}" for r in refs) + "\n"))
     body.append(Raw("## How relspan decides\n"))
-    body.append(Raw("- Corank under equal or known-shape noise: the largest q whose q-th smallest eigenvalue is "
-                    "at most eps (on the analysed scale).\n- Corank under bounded noise: the same test (Weyl), "
-                    "with the Davis-Kahan angle bound on the subspace.\n- Corank under independent noise: the "
+    body.append(Raw("".join(f"- {rule}\n" for rule in INFERENCE_RULES)))
+    body.append(Raw("- Corank under known-shape noise: the largest q whose q-th smallest generalised eigenvalue "
+                    "is at most eps divided by the largest noise share (no resampling support yet).\n- Bounded "
+                    "noise also gives the Davis-Kahan angle bound on the subspace (a population bound; the "
+                    "intervals above carry the sampling spread).\n- Corank under independent noise: the "
                     "largest corank with an existence certificate; \u201cundetermined\u201d when a larger one is "
                     "neither certified nor ruled out.\n- Change across windows: an angle counts as a change only "
                     "when it exceeds what resampling produces when nothing changes, all comparisons of a plan "

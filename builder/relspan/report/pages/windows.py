@@ -9,6 +9,7 @@ from relspan.assumptions import assumption
 from relspan.report.pages.addresses import HOME, dataset_path, plan_anchor, window_csv_base, window_path
 from relspan.report.pages.dataset import NO_MAP, coefficient_cell
 from relspan.report.pages.publisher import Publisher
+from relspan.report.pages import uncertainty as U
 from relspan.report.pages.tables import table
 from relspan.report.text import CAUTION_LINK
 from relspan.site import blocks
@@ -99,10 +100,13 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
             for note in a.notes:
                 body.append(blocks.callout(note, title="Numerical note", kind="note"))
             body.append(Raw("## Noise assumptions {#assumptions}\n"))
-            rows = [(assumption(r.assumption).title, r.corank_words, coefficient_cell(r)) for r in reading.rows]
+            rows = [(assumption(r.assumption).title, U.corank_cell(a, r),
+                     U.coefficient_cell_with_intervals(r, a, result.names, result.labels) or coefficient_cell(r))
+                    for r in reading.rows]
             body.append(md("Coefficients in the equation for {} ({}):\n", result.labels[a.ref], CAUTION_LINK))
-            body.append(table(("Noise assumption", "Relations", "Coefficients"), rows,
+            body.append(table(("Noise assumption", "Relations (resampling support)", "Coefficients"), rows,
                               csv=(pub, base + "-assumptions.csv")))
+            body.append(md("{}\n", U.resampling_sentence(a)))
             if q is not None and len(result.names) < 3:
                 body.append(NO_MAP)
             elif q is not None and not ff.has_window_maps(result, plan, q):
@@ -119,9 +123,14 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
                 ev = a.equal.eigenvalues
                 scale = "correlation scale" if a.scale == "correlation" else "data units"
                 body.append(Raw(f"Eigenvalues of this window ({scale}, smallest first) against the tolerance "
-                                f"eps = {a.eps:g}; each one at or below eps is room for one relation:\n"))
-                body.append(table(tuple(f"\u03bb{j + 1}" for j in range(len(ev))),
-                                  [tuple(fmt(v) + (" \u2264 eps" if v <= a.eps else "") for v in ev)],
+                                f"eps = {a.eps:g}; under bounded noise each one at or below eps is room for one "
+                                "relation:\n"))
+                erows = [tuple(fmt(v) + (" \u2264 eps" if v <= a.eps else "") for v in ev)]
+                if a.inference is not None:
+                    erows.append(tuple(U.interval_words(iv) for iv in a.inference.eigenvalues))
+                body.append(table(("",) + tuple(f"\u03bb{j + 1}" for j in range(len(ev))),
+                                  [(("estimate",) + erows[0])]
+                                  + ([(f"{a.inference.level:.0%} interval",) + erows[1]] if len(erows) > 1 else []),
                                   csv=(pub, base + "-eigenvalues.csv")))
             prev = (labels[i - 1], paths[i - 1]) if i > 0 else None
             nxt = (labels[i + 1], paths[i + 1]) if i + 1 < len(paths) else None

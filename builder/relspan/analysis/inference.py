@@ -1,0 +1,671 @@
+"""Sampling uncertainty of one window: intervals and corank supports from one set of resamples.
+
+:func:`window_inference` resamples a window's granules once
+(:mod:`relspan.analysis.resample`: stationary or moving block bootstrap for
+time-ordered rows, iid otherwise), eigendecomposes every resampled covariance
+in one batched call, and reads off:
+
+- intervals for the eigenvalues on the scale the analysis uses (basic
+  bootstrap, bounded below by 0);
+- intervals for the identified relation coefficients under equal noise: the
+  reduced form of each kept corank's relation subspace (for one relation, the
+  equation for the reference variable), each resampled basis aligned to the
+  estimate by orthogonal Procrustes first (percentile);
+- intervals for the elementary-regression coefficients (percentile);
+- intervals for the equal-noise variance ``sigma^2`` (the mean of the q
+  smallest eigenvalues) and for the diagonal-noise certificate's noise shares;
+- the corank under each assumption as a set with resampling support (equal
+  noise: the sequential test of equal smallest eigenvalues; bounded noise:
+  admissible within the tolerance; diagonal noise: the corank search on the
+  first ``diagonal_resamples`` resamples);
+- an outer confidence set for each coefficient of the diagonal-noise
+  (Frisch) single-relation set, in the spirit of Imbens & Manski (2004).
+
+The equal-noise corank rule (:func:`equal_noise_corank_rule`) is the one the
+window analysis itself uses on the data, so the corank shown and its support
+come from one rule.
+
+References
+----------
+.. [1] B. Efron, "Bootstrap methods: another look at the jackknife", Annals of
+       Statistics 7(1), 1-26, 1979.
+.. [2] D. N. Politis and J. P. Romano, "The stationary bootstrap", Journal of
+       the American Statistical Association 89(428), 1303-1313, 1994.
+.. [3] D. N. Lawley, "Tests of significance for the latent roots of covariance
+       and correlation matrices", Biometrika 43(1/2), 128-136, 1956.
+.. [4] T. W. Anderson, "Asymptotic theory for principal component analysis",
+       Annals of Mathematical Statistics 34(1), 122-148, 1963.
+.. [5] P. H. Schoenemann, "A generalized solution of the orthogonal Procrustes
+       problem", Psychometrika 31(1), 1-10, 1966.
+.. [6] G. W. Imbens and C. F. Manski, "Confidence intervals for partially
+       identified parameters", Econometrica 72(6), 1845-1857, 2004.
+.. [7] A. C. Davison and D. V. Hinkley, Bootstrap Methods and their
+       Application, Cambridge University Press, 1997.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+from typing import Any, Callable, Mapping, Sequence
+
+import numpy as np
+from scipy import optimize, stats
+
+from relspan.analysis._common import jsonable, orthonormal_rows, pivot_columns
+from relspan.analysis.corank_support import CorankSupport, bounded_support
+from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, sequential_corank_stack
+from relspan.analysis.intervals import (Interval, interval, procrustes_align,
+                                        reduced_form_stack)
+from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, GranuleStats, resample_covariances,
+                                       scale_stack, window_rng)
+
+__all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInference", "window_inference",
+           "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
+           "imbens_manski_outer", "diagonal_corank_of", "DEFAULT_DIAGONAL_RESAMPLES",
+           "EQUAL_RULE", "FULL_SAMPLE_PLAN", "DIAGONAL_PLAN_KINDS",
+           "DIAGONAL_SCOPE_RULE", "diagonal_scope", "MANY_WINDOWS", "MANY_WINDOWS_RESAMPLES",
+           "MANY_WINDOWS_RULE"]
+
+#: resamples behind the diagonal-noise support (each needs a corank search of its own)
+DEFAULT_DIAGONAL_RESAMPLES = 99
+
+#: the plan name the full sample's random stream is derived from
+FULL_SAMPLE_PLAN = "(full sample)"
+
+#: the equal-noise corank rule, in words (methods page, results.json)
+EQUAL_RULE = ("Equal noise: the corank is the number of smallest eigenvalues (on the scale the analysis uses) "
+              "that are equal: k of them count as equal when the test that the k smallest eigenvalues are "
+              "equal (Lawley 1956; Anderson 1963) is not rejected at the 5% level for k = 2, ..., k in "
+              "sequence, or when all k are at most the tolerance (a common noise variance at most eps plus a "
+              "deviation of norm at most eps/2). When all eigenvalues count as equal the data show nothing "
+              "but equal noise and no relation is reported. Corank 1 fits "
+              "equal noise whatever the data, so one relation is reported only when the noise variance it "
+              "needs (the smallest eigenvalue) is within the tolerance; otherwise 0.")
+
+
+@dataclass(frozen=True, slots=True)
+class ResamplingOptions:
+    """How a dataset's windows are resampled (from the spec's ``checks.resampling``).
+
+    Attributes
+    ----------
+    resamples : int
+        Resamples per window (0: no inference).
+    level : float
+        Nominal coverage of every interval.
+    scheme : str
+        ``"stationary"``, ``"moving"`` or ``"iid"`` (``auto`` already resolved).
+    block_length : float or None
+        In rows; None for the automatic rule (Politis & White 2004, 2009 correction).
+    seed : int
+        Seed of the window streams (:func:`relspan.analysis.resample.window_rng`).
+    diagonal_resamples : int
+        The first this many resamples get the diagonal-noise corank search.
+    test_level : float
+        Level of each test in the equal-noise sequence.
+    """
+
+    resamples: int = DEFAULT_RESAMPLES
+    level: float = DEFAULT_LEVEL
+    scheme: str = "stationary"
+    block_length: float | None = None
+    seed: int = 0
+    diagonal_resamples: int = DEFAULT_DIAGONAL_RESAMPLES
+    test_level: float = DEFAULT_TEST_LEVEL
+
+    @property
+    def enabled(self) -> bool:
+        return self.resamples > 0
+
+    def to_dict(self) -> dict:
+        return jsonable({"resamples": self.resamples, "level": self.level, "scheme": self.scheme,
+                         "block_length_rows": self.block_length, "seed": self.seed,
+                         "diagonal_resamples": self.diagonal_resamples, "test_level": self.test_level})
+
+
+def resampling_options(ds) -> ResamplingOptions:
+    """The resampling options of one dataset spec (:class:`relspan.spec.model.DatasetSpec`).
+
+    ``scheme: auto`` becomes ``stationary`` when the dataset has a time
+    column and ``iid`` otherwise; a missing seed is ``checks.seed``.
+    """
+    r = ds.checks.resampling
+    scheme = r.scheme
+    if scheme == "auto":
+        scheme = "stationary" if ds.time is not None else "iid"
+    seed = ds.checks.seed if r.seed is None else r.seed
+    block = None if r.block_length == "auto" else float(r.block_length)
+    return ResamplingOptions(resamples=int(r.resamples), level=float(r.level), scheme=scheme,
+                             block_length=block, seed=int(seed),
+                             diagonal_resamples=int(min(r.diagonal_resamples, r.resamples)))
+
+
+#: plan kinds whose windows get the diagonal-noise support (besides the full sample)
+DIAGONAL_PLAN_KINDS = ("full", "periods")
+
+#: the cost rule, in words (methods page)
+DIAGONAL_SCOPE_RULE = ("The diagonal-noise corank support is computed for the full sample and for the windows of "
+                       "full-sample and named-period plans; rolling and expanding windows get none, because each "
+                       "resample needs a corank search of its own (about 100 times the cost of the other "
+                       "intervals); their diagonal-noise coranks are shown without support and say so.")
+
+
+#: plans with more windows than this resample each window at most :data:`MANY_WINDOWS_RESAMPLES` times
+MANY_WINDOWS = 200
+#: resamples per window in plans with more than :data:`MANY_WINDOWS` windows (90% intervals stay supported)
+MANY_WINDOWS_RESAMPLES = 199
+
+#: the cap for plans with very many windows, in words (methods page)
+MANY_WINDOWS_RULE = (f"Plans with more than {MANY_WINDOWS} windows resample each window at most "
+                     f"{MANY_WINDOWS_RESAMPLES} times (cost grows with the windows; shares and 90% intervals "
+                     "are still supported by that many resamples); the full sample keeps the spec's number.")
+
+
+def diagonal_scope(options: ResamplingOptions, plan_kind: str, windows: int = 1) -> ResamplingOptions:
+    """The options for the windows of one plan (:data:`DIAGONAL_SCOPE_RULE`, :data:`MANY_WINDOWS_RULE`)."""
+    out = options
+    if plan_kind not in DIAGONAL_PLAN_KINDS and out.diagonal_resamples:
+        out = dataclasses.replace(out, diagonal_resamples=0)
+    if windows > MANY_WINDOWS and out.resamples > MANY_WINDOWS_RESAMPLES:
+        out = dataclasses.replace(out, resamples=MANY_WINDOWS_RESAMPLES,
+                                  diagonal_resamples=min(out.diagonal_resamples, MANY_WINDOWS_RESAMPLES))
+    return out
+
+
+@dataclass(frozen=True, slots=True)
+class CoefficientInterval:
+    """One coefficient with its interval: ``c`` in ``x_equation = ... + c x_variable`` (data units)."""
+
+    equation: str
+    variable: str
+    interval: Interval
+
+    def to_dict(self) -> dict:
+        return jsonable({"equation": self.equation, "variable": self.variable, **self.interval.to_dict()})
+
+
+@dataclass(frozen=True, slots=True)
+class OuterSet:
+    """An outer confidence set for one coefficient of the diagonal-noise single-relation set.
+
+    Attributes
+    ----------
+    variable : str
+    lower, upper : float
+        The identified set on the data (data units; -inf / inf when unbounded).
+    low, high : float
+        The confidence set (-inf / inf when a side cannot be bounded).
+    level : float
+    critical : float
+        Imbens-Manski ``c`` (NaN when a side is unbounded).
+    unbounded_share : float
+        Share of resamples in which the set is unbounded (no one orthant).
+    resamples : int
+    """
+
+    variable: str
+    lower: float
+    upper: float
+    low: float
+    high: float
+    level: float
+    critical: float
+    unbounded_share: float
+    resamples: int
+
+    def to_dict(self) -> dict:
+        # infinite ends are written as null (unbounded), as every interval bound in results.json
+        return jsonable({"variable": self.variable, "lower": self.lower, "upper": self.upper, "low": self.low,
+                         "high": self.high, "level": self.level, "critical": self.critical,
+                         "unbounded_share": self.unbounded_share, "resamples": self.resamples,
+                         "method": "imbens-manski"})
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class WindowInference:
+    """Intervals and corank supports of one window (see the module notes for each rule).
+
+    Attributes
+    ----------
+    resamples, level : int, float
+    scheme : str
+    block_length_rows : float
+        Mean (stationary) or fixed (moving) block length in rows; 1 for iid.
+    block_rule : str
+    rows_per_granule, granules : int
+    seed : tuple
+        ``(seed, dataset, plan, window index)`` the stream came from.
+    note : str
+        What the granule size approximates ("" for single rows).
+    scale : str
+        Scale of the eigenvalues and equal-noise variances: ``"correlation"`` or ``"as given"``.
+    eigenvalues : tuple of Interval
+        Ascending.
+    coranks : mapping str -> CorankSupport
+        ``equal``, ``bounded`` and ``diagonal`` (when computed).
+    coefficients : mapping int -> tuple of CoefficientInterval
+        Equal noise, per kept corank q: the reduced-form coefficients (data units).
+    targets : mapping int -> tuple of str
+        The variables each corank's reduced form is solved for.
+    elementary : tuple of CoefficientInterval
+        Every elementary-regression coefficient (equation = the regressand).
+    noise : mapping int -> Interval
+        Equal noise: sigma^2 (mean of the q smallest eigenvalues), per kept q, on ``scale``.
+    diagonal_noise : tuple of Interval
+        Diagonal noise: each variable's noise share of its variance in the certificate
+        of the window's corank (empty when none was certified); over the diagonal resamples
+        whose search certified that corank.
+    outer : tuple of OuterSet
+        Diagonal noise, one relation: per coefficient of the reference equation.
+    rules : mapping str -> str
+        Every rule, in words.
+    """
+
+    resamples: int
+    level: float
+    scheme: str
+    block_length_rows: float
+    block_rule: str
+    rows_per_granule: int
+    granules: int
+    seed: tuple
+    note: str
+    scale: str
+    eigenvalues: tuple[Interval, ...]
+    coranks: Mapping[str, CorankSupport]
+    coefficients: Mapping[int, tuple[CoefficientInterval, ...]]
+    targets: Mapping[int, tuple[str, ...]]
+    elementary: tuple[CoefficientInterval, ...]
+    noise: Mapping[int, Interval]
+    diagonal_noise: tuple[Interval, ...]
+    outer: tuple[OuterSet, ...]
+    rules: Mapping[str, str]
+
+    def coefficient(self, q: int, equation: str, variable: str) -> Interval | None:
+        for c in self.coefficients.get(q, ()):
+            if c.equation == equation and c.variable == variable:
+                return c.interval
+        return None
+
+    def elementary_coefficient(self, equation: str, variable: str) -> Interval | None:
+        for c in self.elementary:
+            if c.equation == equation and c.variable == variable:
+                return c.interval
+        return None
+
+    def to_dict(self) -> dict:
+        return jsonable({
+            "resamples": self.resamples, "level": self.level, "scheme": self.scheme,
+            "block_length_rows": self.block_length_rows, "block_rule": self.block_rule,
+            "rows_per_granule": self.rows_per_granule, "granules": self.granules,
+            "seed": list(self.seed), "note": self.note, "scale": self.scale,
+            "eigenvalues": [iv.to_dict() for iv in self.eigenvalues],
+            "coranks": {a: s.to_dict() for a, s in self.coranks.items()},
+            "coefficients": {str(q): {"targets": list(self.targets.get(q, ())),
+                                      "intervals": [c.to_dict() for c in cs]}
+                             for q, cs in sorted(self.coefficients.items())},
+            "elementary": [c.to_dict() for c in self.elementary],
+            "noise_variance": {str(q): iv.to_dict() for q, iv in sorted(self.noise.items())},
+            "diagonal_noise_share": [iv.to_dict() for iv in self.diagonal_noise],
+            "diagonal_outer_set": [o.to_dict() for o in self.outer],
+            "rules": dict(self.rules),
+        })
+
+
+# --------------------------------------------------------------------------- equal-noise corank
+
+
+def equal_noise_corank_rule(eigenvalues, *, eps: float, nobs: float, level: float = DEFAULT_TEST_LEVEL) -> int:
+    """The equal-noise corank of one covariance (see :data:`EQUAL_RULE`).
+
+    ``eigenvalues`` on the analysis scale, ``eps`` the tolerance on that scale.
+    The test decides; besides, q eigenvalues all at most ``eps`` fit noise
+    ``s^2 I + E`` with ``s^2 <= eps`` and ``||E||_2 <= eps / 2`` (Weyl).
+
+    References
+    ----------
+    .. [1] D. N. Lawley, Biometrika 43(1/2), 128-136, 1956.
+    .. [2] T. W. Anderson, Ann. Math. Statist. 34(1), 122-148, 1963.
+    """
+    return int(equal_noise_corank_stack(np.asarray(eigenvalues, dtype=float)[None, :], eps=eps,
+                                        nobs=nobs, level=level)[0])
+
+
+def equal_noise_corank_stack(eigenvalues, *, eps: float, nobs, level: float = DEFAULT_TEST_LEVEL) -> np.ndarray:
+    """:func:`equal_noise_corank_rule` for a ``(B, n)`` stack."""
+    lam = np.sort(np.asarray(eigenvalues, dtype=float), axis=1)
+    n = lam.shape[1]
+    q_test = sequential_corank_stack(lam, nobs=nobs, level=level)
+    q_tol = np.sum(lam <= eps, axis=1)    # all within the tolerance (ascending: a prefix)
+    q = np.maximum(q_test, q_tol)
+    # all n eigenvalues equal: nothing but equal noise is seen, so no relation is shown
+    q = np.where(q >= n, 0, q)
+    return np.where((q == 1) & ~(lam[:, 0] <= eps), 0, q)
+
+
+def _support(assumption: str, estimate: int | None, values: np.ndarray, n: int, rule: str,
+             undetermined: int = 0, total: int | None = None) -> CorankSupport:
+    total = int(values.size + undetermined) if total is None else total
+    counts = np.bincount(np.asarray(values, dtype=int), minlength=n + 1)[: n + 1]
+    return CorankSupport(assumption=assumption, estimate=estimate, coranks=tuple(range(n + 1)),
+                         chosen_share=tuple(float(c) / max(total, 1) for c in counts), admissible_share=None,
+                         undetermined_share=undetermined / max(total, 1), resamples=total, rule=rule)
+
+
+# --------------------------------------------------------------------------- diagonal noise
+
+
+def diagonal_corank_of(cov: np.ndarray, warm: Any, *, eps: float, seed: int) -> tuple[int | None, Any]:
+    """The diagonal-noise corank of one resampled covariance, and its certificates (the one place).
+
+    Uses the corank search of the diagonal-noise analysis
+    (:func:`relspan.analysis.frisch.frisch_max_corank`, one start): the
+    largest certified corank, or None when a larger one is neither certified
+    nor ruled out (the window analysis's rule). ``warm`` is accepted for a
+    warm-started search and not used yet. Returns ``(q, certificates by q)``.
+
+    References
+    ----------
+    .. [1] J. M. F. ten Berge and H. A. L. Kiers, Psychometrika 56(2), 1991.
+    """
+    from relspan.analysis.frisch import frisch_max_corank
+
+    cor = frisch_max_corank(cov, eps=eps, starts=1, seed=seed)
+    top = cor.max_certified
+    q: int | None = int(top)
+    for cert in cor.certificates:
+        if cert.q > top and cert.status == "undetermined":
+            q = None
+    return q, {c.q: c for c in cor.certificates}
+
+
+def _inv_stack(covs: np.ndarray) -> np.ndarray:
+    """Inverses of a ``(B, n, n)`` stack; NaN for a singular resample (an exact relation in it)."""
+    try:
+        return np.linalg.inv(covs)
+    except np.linalg.LinAlgError:
+        out = np.full_like(covs, np.nan)
+        for b, s in enumerate(covs):
+            try:
+                out[b] = np.linalg.inv(s)
+            except np.linalg.LinAlgError:
+                pass
+        return out
+
+
+def _one_orthant_stack(p: np.ndarray) -> np.ndarray:
+    """Per matrix of a ``(B, n, n)`` stack: every ``P_ij P_jk P_ki > 0`` (the elementary regressions in one orthant)."""
+    n = p.shape[1]
+    ok = np.ones(p.shape[0], dtype=bool)
+    for i in range(n):
+        for j in range(i + 1, n):
+            for k in range(j + 1, n):
+                ok &= p[:, i, j] * p[:, j, k] * p[:, k, i] > 0
+    if n == 2:
+        ok &= p[:, 0, 1] != 0
+    return ok
+
+
+def _frisch_bounds_stack(covs: np.ndarray, ref: int) -> tuple[np.ndarray, np.ndarray]:
+    """Diagonal-noise single-relation bounds of the reference equation, per resample (data units).
+
+    With one orthant the set is the convex hull of the elementary regressions
+    (Frisch 1934; Klepper & Leamer 1984): coefficient ``k`` ranges over
+    ``-P[j, k] / P[j, ref]``, j = 1..n. Otherwise it is unbounded (+-inf).
+    """
+    p = _inv_stack(covs)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        coef = -p / p[:, :, ref][:, :, None]        # [b, j, k]
+    lo, hi = coef.min(axis=1), coef.max(axis=1)
+    ok = _one_orthant_stack(p)
+    lo = np.where(ok[:, None], lo, -np.inf)
+    hi = np.where(ok[:, None], hi, np.inf)
+    lo[:, ref] = hi[:, ref] = 0.0
+    return lo, hi
+
+
+def imbens_manski_outer(lower: float, upper: float, lower_draws, upper_draws, *, level: float
+                        ) -> tuple[float, float, float]:
+    """An Imbens-Manski (2004) confidence set for a point in ``[lower, upper]`` from bootstrap draws.
+
+    ``low = lower - c sd(lower_b)``, ``high = upper + c sd(upper_b)``, with
+    ``c`` solving ``Phi(c + (upper - lower) / max(sd)) - Phi(-c) = level``
+    (``c`` is the two-sided normal quantile for a point, the one-sided one for a
+    wide set). A side whose draws are infinite in more than ``(1 - level) / 2``
+    of resamples is left open (infinite). Returns ``(low, high, c)``.
+
+    References
+    ----------
+    .. [1] G. W. Imbens and C. F. Manski, Econometrica 72(6), 1845-1857, 2004.
+    """
+    lo_d = np.asarray(lower_draws, dtype=float)
+    hi_d = np.asarray(upper_draws, dtype=float)
+    alpha = (1.0 - level) / 2.0
+    if not (np.isfinite(lower) and np.isfinite(upper)):
+        return (lower if np.isfinite(lower) else -np.inf, upper if np.isfinite(upper) else np.inf, np.nan)
+    open_lo = np.mean(~np.isfinite(lo_d)) > alpha
+    open_hi = np.mean(~np.isfinite(hi_d)) > alpha
+    s_lo = float(np.std(lo_d[np.isfinite(lo_d)], ddof=1)) if np.isfinite(lo_d).sum() > 1 else np.nan
+    s_hi = float(np.std(hi_d[np.isfinite(hi_d)], ddof=1)) if np.isfinite(hi_d).sum() > 1 else np.nan
+    if not (np.isfinite(s_lo) and np.isfinite(s_hi)):
+        return -np.inf, np.inf, np.nan
+    smax = max(s_lo, s_hi)
+    width = (upper - lower) / smax if smax > 0 else np.inf
+    if not np.isfinite(width):
+        c = float(stats.norm.ppf(level))
+    else:
+        c = float(optimize.brentq(lambda z: stats.norm.cdf(z + width) - stats.norm.cdf(-z) - level,
+                                  0.0, 10.0))
+    low = -np.inf if open_lo else lower - c * s_lo
+    high = np.inf if open_hi else upper + c * s_hi
+    return float(low), float(high), c
+
+
+# --------------------------------------------------------------------------- the window
+
+
+def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: ResamplingOptions,
+                     seed_key: tuple, scale: str, eps: float, ref: int, coranks: Sequence[int],
+                     estimates: Mapping[str, Any], assumptions: Sequence[str], nobs: float,
+                     diagonal: Callable | None = None) -> WindowInference:
+    """Resample one window and compute every interval and corank support.
+
+    Parameters
+    ----------
+    stats_ : GranuleStats
+        The window's granules (analysed coordinates).
+    names : sequence of str
+    options : ResamplingOptions
+    seed_key : tuple
+        ``(dataset, plan, window index)``: with ``options.seed`` it names the stream.
+    scale : str
+        ``"correlation"`` (each resample on its own correlation scale) or ``"as given"``.
+    eps : float
+        Tolerance on that scale.
+    ref : int
+        The reference variable.
+    coranks : sequence of int
+        Coranks whose equal-noise coefficients and noise variances get intervals.
+    estimates : mapping
+        On the data: ``eigenvalues`` (analysis scale, ascending), ``basis`` (q -> (q, n)
+        rows on the analysis scale), ``tstd`` (the analysis scale's divisors),
+        ``elementary`` ((n, n) coefficients or None), ``equal_q``, ``bounded_q``,
+        ``diagonal_q`` (None: undetermined), ``frisch_lower`` / ``frisch_upper`` (data units).
+    assumptions : sequence of str
+        The assumptions the window computes.
+    nobs : float
+        Rows of the window.
+    diagonal : callable, optional
+        ``diagonal(cov, warm) -> (q, certificates)``; default :func:`diagonal_corank_of`.
+
+    Returns
+    -------
+    WindowInference
+    """
+    names = tuple(names)
+    n = len(names)
+    level = options.level
+    block = None
+    if options.scheme != "iid" and options.block_length is not None:
+        block = max(options.block_length / max(stats_.rows_per_granule, 1), 1.0)
+    rng = window_rng(options.seed, *seed_key)
+    res = resample_covariances(stats_, resamples=options.resamples, rng=rng, scheme=options.scheme,
+                               block_length=block, seed=(options.seed, *seed_key))
+    covs = res.covariances
+    on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
+    lam, vec = np.linalg.eigh(on_scale)
+    rows_b = res.rows
+    if scale == "correlation":
+        std_b = np.sqrt(np.diagonal(covs, axis1=1, axis2=2))
+    else:
+        std_b = np.ones((covs.shape[0], n))
+    rules: dict[str, str] = {}
+
+    est_lam = np.sort(np.asarray(estimates["eigenvalues"], dtype=float))
+    eig = []
+    for j in range(n):
+        iv = interval(float(est_lam[j]), lam[:, j], level=level, method="basic")
+        eig.append(Interval(iv.estimate, max(iv.low, 0.0), iv.high, iv.level, iv.method, iv.resamples))
+    rules["eigenvalues"] = (f"Basic bootstrap intervals (Davison & Hinkley 1997) of the eigenvalues on the "
+                            f"{scale} scale, from {res.resamples} resamples; lower ends below 0 set to 0.")
+
+    supports: dict[str, CorankSupport] = {}
+    if "equal" in assumptions:
+        qs = equal_noise_corank_stack(lam, eps=eps, nobs=rows_b, level=options.test_level)
+        supports["equal"] = _support("equal", estimates.get("equal_q"), qs, n,
+                                     EQUAL_RULE + f" Applied to each of {res.resamples} resamples.")
+    if "bounded" in assumptions:
+        b = bounded_support(est_lam, lam, eps=eps)
+        share = list(b.chosen_share)
+        share[n - 1] += share[n]          # the window reports at most n - 1 relations
+        share[n] = 0.0
+        supports["bounded"] = CorankSupport(
+            assumption="bounded", estimate=estimates.get("bounded_q"), coranks=b.coranks,
+            chosen_share=tuple(share), admissible_share=b.admissible_share, undetermined_share=0.0,
+            resamples=b.resamples, rule=b.rule)
+
+    # equal noise: reduced-form coefficients (data units) and sigma^2 per kept corank
+    coefficients: dict[int, tuple[CoefficientInterval, ...]] = {}
+    targets: dict[int, tuple[str, ...]] = {}
+    noise: dict[int, Interval] = {}
+    bases = estimates.get("basis") or {}
+    tstd = np.asarray(estimates.get("tstd", np.ones(n)), dtype=float)
+    if "equal" in assumptions:
+        for q in coranks:
+            basis = bases.get(q)
+            if basis is None:
+                continue
+            est_data = orthonormal_rows(np.atleast_2d(basis) / tstd[None, :])
+            tidx = [ref] if q == 1 else list(pivot_columns(est_data))
+            # resampled relation bases on the analysis scale -> data units of each resample
+            with np.errstate(divide="ignore", invalid="ignore"):
+                rb = np.swapaxes(vec[:, :, :q], 1, 2) / std_b[:, None, :]
+            rb = np.where(np.isfinite(rb), rb, 0.0) if np.isfinite(rb).all() else np.where(
+                np.isfinite(rb).all(axis=(1, 2))[:, None, None], rb, np.nan)
+            rb = np.linalg.qr(np.swapaxes(rb, 1, 2))[0]
+            rb = np.swapaxes(rb, 1, 2)
+            aligned = np.full_like(rb, np.nan)
+            fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
+            if fine.any():
+                aligned[fine] = procrustes_align(est_data, rb[fine])
+            est_red = reduced_form_stack(est_data[None], tidx)[0]
+            draws = np.full_like(aligned, np.nan)
+            if fine.any():
+                draws[fine] = reduced_form_stack(aligned[fine], tidx)
+            out = []
+            for i, t in enumerate(tidx):
+                for k in range(n):
+                    if k in tidx:
+                        continue
+                    iv = interval(float(-est_red[i, k]), -draws[:, i, k], level=level, method="percentile")
+                    out.append(CoefficientInterval(names[t], names[k], iv))
+            coefficients[q] = tuple(out)
+            targets[q] = tuple(names[t] for t in tidx)
+            noise[q] = interval(float(np.mean(est_lam[:q])), lam[:, :q].mean(axis=1), level=level,
+                                method="percentile")
+        rules["coefficients"] = (
+            "Equal noise: each resample's relation subspace is rotated within itself to the estimate by "
+            "orthogonal Procrustes (Schoenemann 1966), solved for the same variables as the estimate, "
+            "and read in data units; percentile intervals (Efron 1979).")
+        rules["noise_variance"] = (f"Equal noise: sigma^2 is the mean of the q smallest eigenvalues on the {scale} "
+                                   "scale (Tipping & Bishop 1999); percentile intervals.")
+
+    elementary: list[CoefficientInterval] = []
+    est_el = estimates.get("elementary")
+    if est_el is not None:
+        with np.errstate(all="ignore"):
+            p = _inv_stack(covs)
+            d = np.diagonal(p, axis1=1, axis2=2)
+            draws = -p / d[:, :, None]
+        for j in range(n):
+            for k in range(n):
+                if j != k:
+                    iv = interval(float(est_el[j, k]), draws[:, j, k], level=level, method="percentile")
+                    elementary.append(CoefficientInterval(names[j], names[k], iv))
+        rules["elementary"] = ("Elementary regressions: -P[j,k]/P[j,j] of each resample's inverse covariance "
+                               "(data units); percentile intervals.")
+
+    diag_noise: list[Interval] = []
+    outer: list[OuterSet] = []
+    if "diagonal" in assumptions:
+        d_b = min(options.diagonal_resamples, res.resamples)
+        q_hat = estimates.get("diagonal_q")
+        if d_b > 0:
+            fn = diagonal or (lambda s, w: diagonal_corank_of(s, w, eps=eps, seed=options.seed))
+            got, undet, shares = [], 0, []
+            warm = None
+            for s in on_scale[:d_b]:
+                try:
+                    q, certs = fn(s, warm)
+                except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+                    q, certs = None, {}      # a resample the search cannot take: undetermined
+                warm = certs
+                if q is None:
+                    undet += 1
+                else:
+                    got.append(q)
+                cert = certs.get(q_hat) if q_hat else None
+                if cert is not None and cert.status == "certified" and cert.noise_share is not None:
+                    shares.append(cert.noise_share)
+            supports["diagonal"] = _support(
+                "diagonal", q_hat, np.asarray(got, dtype=int), n,
+                f"Diagonal noise (Frisch scheme): the largest corank with an existence certificate at the "
+                f"tolerance (undetermined when a larger one is neither certified nor ruled out), searched "
+                f"from one start on each of the first {d_b} of the {res.resamples} resamples.",
+                undetermined=undet, total=d_b)
+            est_share = estimates.get("diagonal_share")
+            if est_share is not None and len(shares) >= 2:
+                arr = np.asarray(shares, dtype=float)
+                diag_noise = [interval(float(est_share[j]), arr[:, j], level=level, method="percentile")
+                              for j in range(n)]
+                rules["diagonal_noise"] = (
+                    "Diagonal noise: each variable's noise share of its variance in the certificate of the "
+                    "window's corank, over the diagonal-noise resamples that certified that corank; "
+                    "percentile intervals (a set of solutions exists: these describe the certificate found).")
+        lower, upper = estimates.get("frisch_lower"), estimates.get("frisch_upper")
+        if lower is not None and upper is not None:
+            with np.errstate(all="ignore"):
+                lo_b, hi_b = _frisch_bounds_stack(covs, ref)
+            for k in range(n):
+                if k == ref:
+                    continue
+                low, high, c = imbens_manski_outer(float(lower[k]), float(upper[k]), lo_b[:, k], hi_b[:, k],
+                                                   level=level)
+                unb = float(np.mean(~(np.isfinite(lo_b[:, k]) & np.isfinite(hi_b[:, k]))))
+                outer.append(OuterSet(names[k], float(lower[k]), float(upper[k]), low, high, level, c, unb,
+                                      res.resamples))
+            rules["outer_set"] = (
+                f"Diagonal noise, one relation: each coefficient's identified set [lower, upper] (the hull of "
+                f"the elementary regressions when they lie in one orthant) is widened to "
+                f"[lower - c sd(lower), upper + c sd(upper)], the standard deviations over resamples, c solving "
+                f"Phi(c + (upper - lower)/max sd) - Phi(-c) = {level:g} (Imbens & Manski 2004); a side stays "
+                f"open when the set is unbounded in more than {100 * (1 - level) / 2:g}% of resamples.")
+
+    return WindowInference(
+        resamples=res.resamples, level=level, scheme=res.scheme,
+        block_length_rows=float(res.block_length * res.rows_per_granule), block_rule=res.block_rule,
+        rows_per_granule=res.rows_per_granule, granules=res.granules, seed=(options.seed, *seed_key),
+        note=res.note, scale=scale, eigenvalues=tuple(eig), coranks=supports, coefficients=coefficients,
+        targets=targets, elementary=tuple(elementary), noise=noise, diagonal_noise=tuple(diag_noise),
+        outer=tuple(outer), rules=rules)

@@ -1,0 +1,138 @@
+"""Inference wired into the window analysis: coranks decided by tests, intervals, supports, outer sets.
+
+All data are invented and seeded here; outside references are named beside each check.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from relspan.analysis.inference import (ResamplingOptions, equal_noise_corank_rule, imbens_manski_outer,
+                                        window_inference)
+from relspan.analysis.moments import Moments
+from relspan.analysis.resample import GranuleStats
+from relspan.analysis.window import WindowOptions, analyse_window
+
+NAMES = ("x1", "x2", "x3", "x4", "x5")
+
+
+def _issue_case(seed: int = 11, rows: int = 2000):
+    """Five variables, two exact relations, noise sigma^2 I about 7% of each variance."""
+    rng = np.random.default_rng(seed)
+    load = rng.normal(size=(5, 3))
+    load /= np.linalg.norm(load, axis=1, keepdims=True)     # every signal variance 1
+    clean = rng.normal(size=(rows, 3)) @ load.T               # rank 3: two exact relations
+    return clean + np.sqrt(0.075) * rng.normal(size=(rows, 5)), load
+
+
+def _analyse(x, *, resamples=199, assumptions=("elementary", "equal", "bounded"), diagonal=0):
+    opts = WindowOptions(assumptions=assumptions, absolute=None, relative=0.05, ref=0, coranks=(1, 2, 3, 4))
+    stats = GranuleStats.from_rows(x, ordered=False)
+    c, mean, cm = stats.window_moments()
+    m = Moments(count=int(c), mean=mean, comoment=cm)
+    res = ResamplingOptions(resamples=resamples, level=0.90, scheme="iid", seed=3, diagonal_resamples=diagonal)
+    return analyse_window(m, names=NAMES[: x.shape[1]], options=opts, common_std=x.std(axis=0, ddof=1),
+                          label="test", granules=stats, resampling=res, seed_key=("d", "p", 0))
+
+
+def test_issue_case_equal_noise_corank_is_two_by_the_eigenvalue_equality_test():
+    x, _ = _issue_case()
+    w = _analyse(x)
+    lam = np.linalg.eigvalsh(np.corrcoef(x.T))
+    assert lam[0] > 0.05 and lam[1] > 0.05            # both above the tolerance: counting gave 0
+    from relspan.analysis.equal_test import equal_noise_corank
+    # the test alone (no tolerance) accepts two equal smallest eigenvalues and rejects three
+    assert equal_noise_corank(np.corrcoef(x.T), nobs=2000, scale="correlation").corank == 2
+    assert w.coranks["equal"] == 2
+    support = w.inference.coranks["equal"]
+    # the most supported corank is 2 (bootstrap eigenvalues scatter more than the test expects, so some
+    # resamples reject equality: the support says so rather than hiding it)
+    assert support.estimate == 2 and support.support(2) == max(support.chosen_share) and support.support(2) > 0.5
+    assert "2: in" in support.as_text()
+
+
+def test_equal_rule_one_relation_needs_its_noise_within_the_tolerance():
+    # a distinct smallest eigenvalue above the tolerance: corank 1 fits any data, so 0 is reported
+    assert equal_noise_corank_rule([0.2, 0.9, 1.9], eps=0.05, nobs=500) == 0
+    assert equal_noise_corank_rule([0.01, 0.9, 2.09], eps=0.05, nobs=500) == 1
+
+
+def test_equal_noise_coefficient_intervals_cover_the_true_reduced_form():
+    x, load = _issue_case(seed=5)
+    w = _analyse(x)
+    inf = w.inference
+    targets = [NAMES.index(t) for t in inf.targets[2]]
+    # true relations: the null space of load^T (rows a with a @ load = 0), reduced on the same targets
+    _, _, vt = np.linalg.svd(load.T)
+    a = vt[3:]
+    red = np.linalg.solve(a[:, targets], a)
+    for c in inf.coefficients[2]:
+        i = [NAMES[t] for t in targets].index(c.equation)
+        truth = -red[i, NAMES.index(c.variable)]
+        assert c.interval.low - 0.05 <= truth <= c.interval.high + 0.05, (c, truth)
+
+
+def test_elementary_intervals_match_a_statsmodels_ols_interval_in_width():
+    sm = pytest.importorskip("statsmodels.api")  # reference library: OLS standard errors
+    rng = np.random.default_rng(2)
+    x = rng.normal(size=(800, 3))
+    x[:, 0] = 0.7 * x[:, 1] - 0.4 * x[:, 2] + 0.5 * rng.normal(size=800)
+    w = _analyse(x, resamples=499)
+    iv = w.inference.elementary_coefficient("x1", "x2")
+    fit = sm.OLS(x[:, 0], sm.add_constant(x[:, 1:])).fit()
+    lo, hi = fit.conf_int(alpha=0.10)[1]
+    assert iv.estimate == pytest.approx(fit.params[1], rel=1e-9)
+    assert (iv.high - iv.low) == pytest.approx(hi - lo, rel=0.25)   # bootstrap vs normal theory
+
+
+def test_eigenvalue_intervals_bracket_the_estimates_on_the_correlation_scale():
+    x, _ = _issue_case()
+    w = _analyse(x)
+    lam = np.linalg.eigvalsh(np.corrcoef(x.T))
+    for iv, l in zip(w.inference.eigenvalues, lam):
+        assert iv.low <= l <= iv.high and iv.level == 0.90 and iv.resamples == 199
+
+
+def test_same_seed_same_numbers_other_window_index_other_numbers():
+    x, _ = _issue_case(rows=300)
+    a = _analyse(x).inference
+    b = _analyse(x).inference
+    assert a.eigenvalues == b.eigenvalues
+    stats = GranuleStats.from_rows(x, ordered=False)
+    kw = dict(names=NAMES, scale="correlation", eps=0.05, ref=0, coranks=(), assumptions=("equal",), nobs=300,
+              estimates={"eigenvalues": np.linalg.eigvalsh(np.corrcoef(x.T))})
+    opts = ResamplingOptions(resamples=49, scheme="iid", seed=3)
+    one = window_inference(stats, options=opts, seed_key=("d", "p", 0), **kw)
+    two = window_inference(stats, options=opts, seed_key=("d", "p", 1), **kw)
+    assert one.eigenvalues != two.eigenvalues
+
+
+def test_diagonal_support_and_outer_set_for_one_relation_in_one_orthant():
+    rng = np.random.default_rng(4)
+    f = rng.normal(size=(600, 1))
+    x = f @ np.array([[1.0, 0.8, 0.6]]) + 0.4 * rng.normal(size=(600, 3))
+    w = _analyse(x, assumptions=("elementary", "equal", "bounded", "diagonal"), diagonal=19)
+    inf = w.inference
+    assert inf.coranks["diagonal"].resamples == 19
+    assert abs(sum(inf.coranks["diagonal"].chosen_share) + inf.coranks["diagonal"].undetermined_share - 1) < 1e-12
+    for o in inf.outer:
+        k = NAMES.index(o.variable)
+        assert o.lower == pytest.approx(w.frisch_lower[k]) and o.upper == pytest.approx(w.frisch_upper[k])
+        assert o.low <= o.lower <= o.upper <= o.high
+
+
+def test_imbens_manski_critical_value_between_one_and_two_sided_normal_quantiles():
+    # Imbens & Manski (2004): c = z_{0.95} = 1.645 for a point, -> z_{0.90} = 1.2816 for a wide set
+    # (normal quantiles, handbook values)
+    d = np.random.default_rng(0).normal(size=(2, 4000))
+    _, _, c_point = imbens_manski_outer(0.0, 0.0, d[0], d[1], level=0.90)
+    _, _, c_wide = imbens_manski_outer(0.0, 100.0, d[0], 100 + d[1], level=0.90)
+    assert c_point == pytest.approx(1.6449, abs=1e-3)
+    assert c_wide == pytest.approx(1.2816, abs=1e-3)
+
+
+def test_resampling_off_leaves_no_inference():
+    x, _ = _issue_case(rows=200)
+    w = _analyse(x, resamples=0)
+    assert w.inference is None
