@@ -197,9 +197,11 @@ def _independent_rows(text: str, columns: list[str]) -> tuple[list[int], np.ndar
     header = next(reader)
     at = [header.index(c) for c in columns]
     rows, values = [], []
-    for i, row in enumerate(reader, start=1):
+    i = 0
+    for row in reader:
         if not row:
-            continue
+            continue  # a blank line is no data row: relspan numbers data rows, blank lines not counted
+        i += 1
         cells = []
         for j in at:
             cell = row[j] if j < len(row) else ""

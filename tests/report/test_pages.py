@@ -648,13 +648,17 @@ def test_results_json_labels_each_method_with_its_scale_and_gives_noise_variance
     for key in ("equal", "bounded", "diagonal"):
         assert doc[key]["scale"] == "correlation", key  # computed on the correlation matrix, not "as given"
     var = np.array(doc["variances_data_units"])
-    np.testing.assert_allclose(var, np.diag(run.dataset("trio").full.cov), rtol=1e-9)
+    # published numbers are rounded once (relspan.precision): the numbers of one array share one last
+    # digit, set by its largest magnitude, so they agree within a few units of that digit
+    def close(a, b, digits):
+        a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+        np.testing.assert_allclose(a, b, rtol=0, atol=10.0 ** -(digits - 1) * np.abs(b).max())
+
+    close(var, np.diag(run.dataset("trio").full.cov), 9)
     entry = doc["equal"]["coranks"][1]
-    np.testing.assert_allclose(entry["noise_variances_data_units"], np.array(entry["noise_variances"]) * var,
-                               rtol=1e-12)
+    close(entry["noise_variances_data_units"], np.array(entry["noise_variances"]) * var, 8)
     cert = doc["diagonal"]["corank"]["certificates"][0]
-    np.testing.assert_allclose(cert["noise_variances_data_units"], np.array(cert["noise_variances"]) * var,
-                               rtol=1e-12)
+    close(cert["noise_variances_data_units"], np.array(cert["noise_variances"]) * var, 3)
 
 
 def test_dataset_page_shows_trends_effective_rows_and_influence(site):

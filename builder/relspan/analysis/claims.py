@@ -229,7 +229,7 @@ def _bounded(claim: ClaimSpec, plan, names) -> ClaimVerdict:
     finite = [iv for iv in intervals if iv is not None and np.isfinite(iv[0]) and np.isfinite(iv[1])]
     span = (f"intervals from [{_fmt(min(iv[0] for iv in finite))}, {_fmt(min(iv[1] for iv in finite))}] "
             f"to [{_fmt(max(iv[0] for iv in finite))}, {_fmt(max(iv[1] for iv in finite))}]") if finite else "no finite interval"
-    observed = (f"Under independent noise of unknown size (Frisch scheme), the coefficient of "
+    observed = (f"Under independent noise, the coefficient of "
                 f"{claim.variable} in the equation for {claim.normalise_on} is bounded in "
                 f"{len(intervals) - len(failing)} of {len(intervals)} window(s); {span}.")
     return ClaimVerdict(claim, not failing, observed,

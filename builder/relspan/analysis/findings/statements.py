@@ -114,7 +114,7 @@ def _corank_findings(result) -> list[Finding]:
                            tolerance=tol))
     if undetermined:
         out.append(Finding("set_only", "corank",
-                           f"Under independent noise of unknown size the number of relations is not "
+                           f"Under independent noise the number of relations is not "
                            f"settled at {tol.short}.",
                            "The diagonal-noise search neither certified nor ruled out every corank "
                            "(\u201cundetermined at eps\u201d).", {"undetermined": undetermined}, "corank",
@@ -168,7 +168,7 @@ def _subspace_findings(result) -> list[Finding]:
                 extra = (f" Solutions that fit within the tolerance (approximately, not exactly) differ by up "
                          f"to {spread:.2g} degrees." if spread is not None and np.isfinite(spread) else "")
                 out.append(Finding("set_only", "subspace",
-                                   f"Under independent noise of unknown size, at {tol.short}, the {what} is a "
+                                   f"Under independent noise, at {tol.short}, the {what} is a "
                                    f"family, not a single answer.{extra}",
                                    f"Frisch scheme: point identification needs q(q+1) >= 2n; here "
                                    f"{q * (q + 1)} < {2 * n}.", {"corank": q, "spread_deg": spread},
@@ -224,7 +224,7 @@ def _coefficient_findings(result) -> list[Finding]:
             items = ", ".join(f"{labels[k]} between {fmt_range(lo[k], hi[k], sep=' and ', minus='-')}"
                               for k in bounded)
             out.append(Finding("set_only", "coefficient",
-                               f"Under independent noise of unknown size, at {Tolerance.of(full).short}, each "
+                               f"Under independent noise, at {Tolerance.of(full).short}, each "
                                f"coefficient of the equation for {labels[ref]} is bounded: {items}.",
                                "Frisch scheme, corank 1: all elementary regressions lie in one orthant, so the "
                                "solutions form their convex hull (Klepper & Leamer 1984).",
@@ -234,7 +234,7 @@ def _coefficient_findings(result) -> list[Finding]:
                                tolerance=Tolerance.of(full)))
         else:
             out.append(Finding("not_identified", "coefficient",
-                               f"Under independent noise of unknown size the coefficients of the equation for "
+                               f"Under independent noise the coefficients of the equation for "
                                f"{labels[ref]} are not bounded.",
                                "Frisch scheme, corank 1: the elementary regressions do not lie in one "
                                "orthant, so the set of solutions is unbounded.",

@@ -88,9 +88,14 @@ def _software_rows(env: dict) -> list[tuple[str, str]]:
 
 
 def _precision_rows() -> list[tuple[str, str, str]]:
-    from relspan.precision import CLOSED_FORM, ITERATIVE
+    from relspan.precision import CLOSED_FORM, ITERATIVE, UNPUBLISHED
 
-    return [(p.name.replace("_", " "), str(p.digits), p.basis) for p in (CLOSED_FORM, ITERATIVE)]
+    rows = [(p.name.replace("_", " "), str(p.digits), p.basis) for p in (CLOSED_FORM, ITERATIVE)]
+    rows.append(("not published: " + ", ".join(f"{a}.{b}" for a, b in sorted(UNPUBLISHED)), "none",
+                 "one arbitrary member of a set of equally valid diagonal-noise answers (its digits depend on "
+                 "the maths library's CPU kernel; no statement rests on which member was chosen), and the "
+                 "solver's step counts"))
+    return rows
 
 
 def reproduce_page(run, pub: Publisher, spec_download: str) -> Page:
