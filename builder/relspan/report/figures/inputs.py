@@ -151,7 +151,8 @@ def gallery_figure(result, plan, q: int):
     if not maps or any(m is None for m in maps) or len(maps) < 2:
         return None
     reference = set_map_data(result, result.full, result.flat.get(q), q)
-    stab = plan.stability.get((GALLERY_ASSUMPTION, q))
+    stab = plan.stability.get(GALLERY_ASSUMPTION)
+    stab = stab if stab is not None and stab.reference_dim == q else None
     angles = None
     if stab is not None and stab.to_reference_deg is not None:
         angles = (f"the largest principal angle between a window's relation subspace and the full "

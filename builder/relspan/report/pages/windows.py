@@ -54,7 +54,9 @@ def _pair_angle(plan, q, labels, i, j):
     """The largest principal angle between windows i and j under equal noise (as the analysis stored it)."""
     if q is None:
         return None
-    st = plan.stability.get(("equal", q))
+    st = plan.stability.get("equal")
+    if st is None or q not in tuple(getattr(st, "dims", ()) or ()):
+        return None
     pairwise = getattr(st, "pairwise_deg", None)
     if pairwise is None or tuple(getattr(st, "labels", ())) != tuple(labels):
         return None
