@@ -256,7 +256,9 @@ def _stability_findings(result) -> list[Finding]:
                         and plan.stability[a].reference_dim == q), None)
             if key is None:
                 continue
-            if not window_supports(plan, key, q):
+            # a change found among the windows that can be compared is evidence of change; only a
+            # "no change" needs every window to support the relation
+            if not window_supports(plan, key, q) and plan.stability[key].stable is not False:
                 counts = plan.coranks.coranks.get(key, ())
                 short = sum(1 for c in counts if c is None or c < q)
                 tol = Tolerance.of(result.full)

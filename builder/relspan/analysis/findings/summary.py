@@ -291,7 +291,7 @@ def _plan_sentences(plan, examined) -> tuple[str, ...]:
     n = len(plan.analyses)
     for q in examined:
         stab = _equal_stability(plan, q)
-        if stab is not None and n >= 2 and not window_supports(plan, "equal", q):
+        if stab is not None and n >= 2 and not window_supports(plan, "equal", q) and stab.stable is not False:
             out.append(f"under equal noise not every window supports {count(q, 'relation')}, so whether "
                        f"{'it stays' if q == 1 else 'they stay'} put cannot be judged.")
         elif stab is not None and n >= 2:
@@ -373,7 +373,7 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
             continue
         st = _equal_stability(plan, q)
         if (st is not None and st.max_to_reference_deg is not None and st.stable is not None
-                and window_supports(plan, "equal", q)):
+                and (window_supports(plan, "equal", q) or st.stable is False)):
             stab.append((plan, st))
     single = False
     every_windowed = _windowed_relations(plans)
