@@ -24,7 +24,8 @@ import re
 from importlib import metadata
 
 __all__ = ["portable_environment", "machine_environment", "runtime_distributions", "constraints_text",
-           "machine_json_bytes", "MACHINE_FILE", "cpu_model", "blas_libraries"]
+           "machine_json_bytes", "MACHINE_FILE", "cpu_model", "blas_libraries",
+           "linked_maths_libraries"]
 
 #: the site file holding the machine-specific record (not in SHA256SUMS, not byte-compared)
 MACHINE_FILE = "build-machine.json"
@@ -94,6 +95,28 @@ def blas_libraries(*, with_kernel: bool) -> list[dict]:
     return [unique[k] for k in sorted(unique)]
 
 
+def linked_maths_libraries() -> list[dict]:
+    """The BLAS/LAPACK library NumPy and SciPy were built against (name and version, from their build info).
+
+    Read from ``numpy.show_config`` and ``scipy.show_config`` rather than from the
+    libraries loaded in this process, which depend on what else the process has
+    imported (a test run or a notebook may have loaded other copies).
+    """
+    import numpy
+    import scipy
+
+    rows = []
+    for package in (numpy, scipy):
+        try:
+            deps = package.show_config(mode="dicts").get("Build Dependencies", {})
+        except Exception:  # pragma: no cover - an unusual build without build information
+            deps = {}
+        blas = deps.get("blas") or {}
+        rows.append({"used_by": package.__name__, "library": str(blas.get("name", "unknown")),
+                     "version": str(blas.get("version", "unknown"))})
+    return rows
+
+
 def portable_environment() -> dict:
     """What a rebuild must match to give the same bytes (same on every machine of the pinned set)."""
     from relspan import __version__
@@ -105,7 +128,7 @@ def portable_environment() -> dict:
         "architecture": platform.machine(),
         "relspan": __version__,
         "distributions": runtime_distributions(),
-        "blas": blas_libraries(with_kernel=False),
+        "blas": linked_maths_libraries(),
     }
 
 

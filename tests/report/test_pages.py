@@ -73,9 +73,10 @@ class _Figures(HTMLParser):
     def handle_starttag(self, tag, attrs):
         a = dict(attrs)
         if tag == "figure" and "fig" in (a.get("class") or "").split():
-            self._fig = {"alt": None, "long": False, "links": [], "src": None}
+            self._fig = {"alt": None, "long": False, "links": [], "src": None, "thumb": False}
         elif self._fig is not None and tag == "img":
             self._fig["alt"], self._fig["src"] = a.get("alt"), a.get("src")
+            self._fig["thumb"] = "thumb" in (a.get("class") or "").split()
         elif self._fig is not None and tag == "a" and a.get("href"):
             self._fig["links"].append(a["href"])
         elif self._fig is not None and tag == "summary":
@@ -202,18 +203,27 @@ def test_trio_page_explains_why_independent_noise_finds_one_more_relation(site):
 def test_every_figure_has_alt_text_a_long_description_and_a_data_csv_that_exists(site):
     out, _ = site
     seen = 0
+    described = {}  # figure src -> pages showing it in full (long description and numbers)
+    thumbs = []
     for page in _pages(out):
         parser = _Figures()
         parser.feed(_read(out, page))
         for fig in parser.figures:
             seen += 1
             assert fig["alt"] and len(fig["alt"]) > 20, (page, fig["src"])
+            if fig["thumb"]:  # a small copy on the home page links to the page showing it in full
+                thumbs.append((page, fig))
+                continue
+            described.setdefault(_resolve(page, fig["src"]), set()).add(page)
             assert fig["long"], (page, fig["src"])
             csvs = [h for h in fig["links"] if h.split("#")[0].endswith(".csv")]
             assert csvs, (page, fig["src"])
             for href in csvs:
                 assert (out / _resolve(page, href)).is_file(), (page, href)
             assert (out / _resolve(page, fig["src"])).is_file(), (page, fig["src"])
+    for page, fig in thumbs:
+        targets = {_resolve(page, h) for h in fig["links"]}
+        assert targets & described.get(_resolve(page, fig["src"]), set()), (page, fig["src"], fig["links"])
     assert seen > 20
 
 

@@ -343,6 +343,8 @@ def _run_chunk_one_blas_thread(fn: Callable[[Any], Any], chunk: Sequence[Any]) -
     ``OMP_NUM_THREADS=1`` (and the OpenBLAS/MKL variables) for the workers it
     spawns; a process pool, or a cluster started some other way, may not, so
     the limit is also applied here (with threadpoolctl, when installed).
+    The serial executor uses it too, so that every executor sums in the same
+    order and gives the same bits.
     """
     try:
         from threadpoolctl import threadpool_limits  # noqa: PLC0415 (optional)
@@ -403,7 +405,9 @@ def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[
         elif progress is not None:
             progress.update(len(chunks[index[f]]))
 
-    runner = _run_chunk if isinstance(executor, SerialExecutor) else _run_chunk_one_blas_thread
+    # one BLAS thread in every executor, the serial one included: a BLAS splitting a product over
+    # threads may sum in another order, and results must be identical bit for bit across --jobs
+    runner = _run_chunk_one_blas_thread
     for i, chunk in enumerate(chunks):
         f = executor.submit(runner, fn, chunk)
         futures.append(f)

@@ -98,8 +98,14 @@ def _panel(result, figure: str) -> str:
              md("{} [Evidence]({})\n", sm.pinned.text, Raw(f"{page}#{sm.pinned.evidence or 'corank'}"))]
     rests = _rests_on(sm.pinned)
     interval = _interval_words(sm.pinned)
-    uncertainty = (md("sampling uncertainty: {}", interval) if interval
-                   else Raw("sampling uncertainty not computed in this build (no resampling interval)"))
+    inf = result.full.inference
+    if interval:
+        uncertainty = md("sampling uncertainty: {}", interval)
+    elif inf is not None:
+        uncertainty = md("sampling uncertainty: {} bootstrap, {} resamples ([supports]({}))",
+                         f"{inf.level:.0%}", str(inf.resamples), Raw(f"{page}#corank"))
+    else:
+        uncertainty = Raw("sampling uncertainty not computed in this build (resampling is off)")
     parts.append(md("*Rests on:* {}{}.\n", Raw(rests + "; " if rests else ""), uncertainty) if rests
                  else md("*Rests on:* {}.\n", uncertainty))
     weights = _weights(result)
@@ -136,17 +142,16 @@ def _claims_block(run) -> str:
         return Raw("The spec states no claims to re-check.\n")
     failing = [v for v in verdicts if not v.holds]
     held = len(verdicts) - len(failing)
-    out = [md("{} of {} hold on this build{}. [All claims](/claims.html)\n", str(held), str(len(verdicts)),
-              Raw(f"; **{len(failing)} fail**" if failing else ""))]
+    held_links = [link(v.claim.id, f"/claims.html#claim-{v.claim.id}") for v in verdicts if v.holds]
+    out = [md("{} of {} hold on this build{}{}. [All claims](/claims.html)\n", str(held), str(len(verdicts)),
+              Raw(f"; **{len(failing)} fail**" if failing else ""),
+              md(": {} {}", blocks.badge("holds"), joined(held_links, ", ")) if held_links else Raw(""))]
     items = []
     for v in failing:
         items.append(md("- {} {}: {}{}", blocks.badge(v.word), link(v.claim.id, f"/claims.html#claim-{v.claim.id}"),
                         v.claim.text or v.claim.kind, _where(run, v)))
     if items:
         out.append(Raw("\n".join(items) + "\n"))
-    held_links = [link(v.claim.id, f"/claims.html#claim-{v.claim.id}") for v in verdicts if v.holds]
-    if held_links:
-        out.append(md("{} {}\n", blocks.badge("holds"), joined(held_links, ", ")))
     return joined(out, "\n")
 
 

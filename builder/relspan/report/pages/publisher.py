@@ -6,6 +6,7 @@ import dataclasses
 from dataclasses import dataclass, field
 from typing import Sequence
 
+from relspan.report.pages.addresses import dataset_path
 from relspan.site import blocks
 from relspan.site.content import SiteFile
 from relspan.site.markdown import Raw, md
@@ -71,19 +72,19 @@ class Publisher:
                               "windows (0\u00b0: they stay put)."))
         prefs.append(("overview", "The series analysed, each standardised."))
         token = f"@@relspan-thumb-{len(self.thumbs):05d}@@"
-        self.thumbs.append((token, folder, tuple(prefs), "/" + result.spec.id))
+        self.thumbs.append((token, folder, tuple(prefs), "/" + dataset_path(result.spec.id)))
         return Raw(f"\n\n{token}\n\n")
 
-    def _thumb_markdown(self, folder: str, prefs, drawn: dict) -> str:
+    def _thumb_markdown(self, folder: str, prefs, drawn: dict, page: str) -> str:
         for ident, caption in prefs:
             hit = drawn.get((folder, ident))
             if hit is None:
                 continue
-            job, (name, alt, description, _image, _csv, width, height) = hit
-            long = md("{}\n\nThe numbers behind this figure: [{}.csv]({}).", description, name,
-                      Raw(f"/{job.folder}/{name}.csv"))
-            return blocks.figure(f"/{job.folder}/{name}.{self.fmt}", alt, caption, long_description_markdown=long,
-                                 width=width, height=height, css_class="thumb")
+            job, (name, alt, _description, _image, _csv, width, height) = hit
+            # the long description and the numbers stay beside the full-size figure on the dataset page
+            cap = md("{} [Full size]({}).", caption, Raw(page + ("#data" if ident == "overview" else "#stability")))
+            return blocks.figure(f"/{job.folder}/{name}.{self.fmt}", alt, cap, width=width, height=height,
+                                 css_class="thumb")
         return "\n\n"
 
     def _markdown(self, job: FigureJob, rendered) -> str:
@@ -105,8 +106,8 @@ class Publisher:
         """
         snippets = {job.token: self._markdown(job, done) for job, done in zip(self.jobs, rendered)}
         drawn = {(job.folder, job.ident): (job, done) for job, done in zip(self.jobs, rendered) if done is not None}
-        for token, folder, prefs, _ in self.thumbs:
-            snippets[token] = self._thumb_markdown(folder, prefs, drawn)
+        for token, folder, prefs, page in self.thumbs:
+            snippets[token] = self._thumb_markdown(folder, prefs, drawn, page)
         out = []
         for page in pages:
             body = page.body_markdown

@@ -82,7 +82,8 @@ def _software_rows(env: dict) -> list[tuple[str, str]]:
     rows = [("Python", f"{env.get('python', '')} ({env.get('implementation', '')})"),
             ("Operating system, processor architecture", f"{env.get('os', '')}, {env.get('architecture', '')}"),
             ("relspan", env.get("relspan", ""))]
-    rows += [(f"maths library: {b.get('library', '')}", b.get("version", "")) for b in env.get("blas", [])]
+    rows += [(f"maths library of {b['used_by']}: {b.get('library', '')}" if b.get("used_by")
+          else f"maths library: {b.get('library', '')}", b.get("version", "")) for b in env.get("blas", [])]
     rows += sorted(env.get("distributions", {}).items())
     return rows
 
