@@ -115,7 +115,7 @@ def test_sdist_carries_what_its_tests_need_and_runs_part_of_them_unpacked(tmp_pa
     env = {"PYTHONPATH": str(tree / "builder"), "PATH": "/usr/bin:/bin"}
     which = _run([sys.executable, "-c", "import relspan; print(relspan.__file__)"], cwd=tree, env=env)
     assert which.stdout.strip() == str(tree / "builder" / "relspan" / "__init__.py")
-    tests = _run([sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "-x",
+    tests = _run([sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "-x", "-n", "0",
                   "tests/spec/test_spec_docs.py", "tests/test_demo_data.py", "tests/data/test_formats.py",
                   "tests/test_packaging.py", "-m", "not slow"], cwd=tree, env=env)
     assert tests.returncode == 0, tests.stdout[-3000:]

@@ -144,6 +144,10 @@ def projects(draw):
               "frisch_starts": 2}
     if draw(st.booleans()):
         checks["normalise_on"] = draw(st.sampled_from(picked))
+    # resampling off or small: both paths run on odd tables, at a cost the suite can afford
+    # (the default of 499 resamples per window is checked in tests/analysis/test_inference.py)
+    checks["resampling"] = {"resamples": draw(st.sampled_from([0, 19])),
+                            "scheme": draw(st.sampled_from(["auto", "iid", "moving"]))}
     spec = {"relspan": 1, "report": {"title": "Fuzz"}, "datasets": [dataset], "windows": windows,
             "checks": checks, "site": {"out": "_site"}}
     if draw(st.booleans()):
