@@ -148,3 +148,18 @@ def test_the_stable_demo_datasets_show_no_break(demo_breaks, dataset):
     for a, br in demo_breaks[dataset].items():
         if a in ("equal", "bounded"):
             assert br.status == "no break", (dataset, a, br.to_dict())
+
+
+def test_long_run_ratio_of_an_ar1_series_is_one_plus_rho_over_one_minus_rho():
+    from scipy.signal import lfilter
+
+    from relspan.analysis.breaks import long_run_ratio
+
+    # handbook formula: an AR(1) series with coefficient rho has long-run variance sigma^2 / (1 - rho)^2
+    # and variance sigma^2 / (1 - rho^2), ratio (1 + rho) / (1 - rho) = 3 for rho = 0.5
+    rng = np.random.default_rng(6)
+    e = rng.normal(size=(20000, 2))
+    x = lfilter([1.0], [1.0, -0.5], e, axis=0)
+    assert long_run_ratio(x) == pytest.approx(3.0, rel=0.15)
+    assert long_run_ratio(e) == pytest.approx(1.0, abs=0.1)      # independent: about 1 (never below)
+    assert long_run_ratio(np.c_[x[:, 0], 2.0 * x[:, 0]]) == pytest.approx(3.0, rel=0.15)  # collinear series

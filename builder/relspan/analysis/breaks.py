@@ -357,7 +357,7 @@ def long_run_ratio(scores) -> float:
     big_m = min(2 * max(m_hat, 1), m_max, lags)
     lam = _flat_top(np.arange(1, big_m + 1) / big_m)
     omega = gam[0] + np.einsum("j,jab->ab", lam, gam[1:big_m + 1] + np.swapaxes(gam[1:big_m + 1], 1, 2))
-    ratio = float(np.trace(np.linalg.solve(gam[0], omega))) / p
+    ratio = float(np.trace(np.linalg.pinv(gam[0]) @ omega)) / max(int(np.linalg.matrix_rank(gam[0])), 1)
     return max(1.0, ratio) if np.isfinite(ratio) else 1.0
 
 
