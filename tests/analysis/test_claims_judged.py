@@ -81,7 +81,9 @@ def test_no_break_claim_fails_when_the_scan_finds_a_break_and_holds_otherwise(tm
     v = broken.verdicts[0]
     assert v.word == "fails" and v.claim.assumption == "equal"   # the documented default
     assert "A break of the 1-dimensional relation subspace" in v.observed
-    calm = analyse(write_case(tmp_path / "c", break_rows(8, t=300, angle=0.0, noise=0.08),
+    # a stable sample; at the 5% level about 1 in 20 stable samples raises an alarm (measured in
+    # docs/inference.md), and seeds 8 and 9 are such samples for the fit scan (p = 0.03 and 0.02)
+    calm = analyse(write_case(tmp_path / "c", break_rows(10, t=300, angle=0.0, noise=0.08),
                               plans=HALVES_PLAN, tolerance=0.1, claims=claim))
     assert calm.verdicts[0].word == "holds"
 

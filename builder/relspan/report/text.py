@@ -312,17 +312,37 @@ METHODS = (
      ("bjorck1973", "daviskahan1970", "westfall1993")),
     ("breaks", "A break at an unknown date",
      "The relation subspace may change once, at a date the data must reveal.",
-     [(r"$\sup_{t}\ \sqrt{T_b T_a / T}\ \sin\theta_t$",
-       "the supremum over candidate dates t of the square root of T before times T after over T, times "
-       "the sine of the largest angle between the subspaces before and after")],
-     "Candidate dates leave out the first and last 15% of the rows. The critical value is the 95% "
-     "quantile of the same statistic over block-bootstrap resamples of the whole sample, which carry no "
-     "break; the date's interval comes from resampling the two segments separately. The scan follows the "
-     "eigenvector subspace (equal and bounded noise) at the full sample's corank, or, where the full "
-     "sample shows no relation, at the corank most windows show. Only one break is looked for: a "
-     "sequential search for several breaks in the spirit of Bai & Perron needs critical values for the "
-     "sequence of tests that this resampling scheme does not give, so several breaks are not offered.",
-     ("andrews1993", "baiperron1998", "politis1994")),
+     [(r"$\sup_{t}\ T \, \ln(S_0(t) / S_1(t))$",
+       "the supremum over candidate dates t of T times the log of S0 over S1, where S1 is the misfit (sum of "
+       "the q smallest eigenvalues of the co-moment matrix) of separate relation subspaces before and after "
+       "t, and S0 that of one subspace common to both sides")],
+     "All on one scale: each variable divided by its standard deviation over the whole sample (or the "
+     "data's units under an absolute tolerance); each side keeps its own mean. The misfit is the total "
+     "least squares residual sum of squares, so the statistic is the likelihood-ratio form of the equal-"
+     "noise model, the counterpart of Andrews' sup-LR test: a relation that fits well on each side but not "
+     "across makes it large. Candidate dates leave out the first and last 15% of the rows. The critical "
+     "value is the 95% quantile of the same statistic over bootstrap resamples of the sample turned so that "
+     "no change holds: at the most likely date each side is rotated about its own mean by the direct "
+     "rotation (Davis & Kahan) that carries its relation subspace onto the common one, and moved to the "
+     "overall mean, so every row keeps the size of its misfit; rows are drawn from it with replacement. For "
+     "time-ordered rows the observed statistic is first divided by the long-run variance ratio of the fit's "
+     "scores (misfit times the coordinates along the relations' complement; flat-top lag window with "
+     "Politis' bandwidth, at least 1), as Andrews' statistics use a long-run covariance: serial dependence "
+     "inflates the statistic by that factor and the resamples carry none. The date's interval comes from "
+     "resampling the two segments separately, in stationary blocks for time-ordered rows; the angle "
+     "reported is the largest "
+     "principal angle between the two sides' subspaces. The scan follows the eigenvector subspace (equal "
+     "and bounded noise) at the full sample's corank, or, where the full sample shows no relation, at the "
+     "corank most windows show. Measured on simulated data of 300 rows (3 series, one relation, nominal "
+     "level 5%): false alarms in 10 of 200 stable samples with independent rows, and in 22 of 200 with "
+     "autocorrelated rows (AR(1), coefficient 0.5; 7 of 100 with 800 rows), so with strongly "
+     "autocorrelated rows the scan raises more false alarms than its level says; a 20-degree break was "
+     "found in all 400 samples that had one. Only one "
+     "break is looked for: a sequential search for several breaks in the spirit of Bai & Perron needs "
+     "critical values for the sequence of tests that this resampling scheme does not give, so several "
+     "breaks are not offered.",
+     ("andrews1993", "baiperron1998", "politis1994", "politis2003", "politis2004", "daviskahan1970",
+      "eckart1936")),
     ("inference", "Sampling uncertainty: resampling, tests and intervals",
      "The rows of a window are a sample; block resampling keeps the dependence of time-ordered rows.",
      [(r"$X^2 = \nu' \, (k \ln \bar\lambda - \sum_{j \leq k} \ln \lambda_j)$",

@@ -205,6 +205,11 @@ def _break_section(result) -> str:
     def same(scan) -> tuple:  # equal and bounded noise share one scan (one object before caching, two after)
         return (scan.q, scan.statistic, scan.critical_value, scan.split_row, scan.angle_deg)
 
+    def p_words(sc) -> str:
+        if sc.p_value <= 1.0 / (1 + sc.resamples) + 1e-12:
+            return f"p = {fmt(sc.p_value)}: none of the {sc.resamples} resamples reached it"
+        return f"p = {fmt(sc.p_value)}"
+
     seen: dict[tuple, list[str]] = {}
     for a, br in breaks.items():
         if br.scan is not None:
@@ -220,22 +225,36 @@ def _break_section(result) -> str:
         shown.add(same(br.scan))
         names = join_words([assumption(x).name for x in seen[same(br.scan)]])
         sc = br.scan
-        rel = "relation" if sc.q == 1 else f"subspace of {count(sc.q, 'relation')}"
+        rel = "relations" if sc.q == 1 else f"subspaces of {count(sc.q, 'relation')}"
+        level = f"{1 - sc.level:.0%}"
         if sc.found:
-            out.append(md("- Under {} (at {}: {}): **a break**: the {} before and after differ by "
-                          "{}\u00b0; most likely from {} on, with a {} interval from {} to {} (resampling "
-                          "each segment). Scan statistic {} against a critical value of {} (p = {}).\n",
-                          names, count(sc.q, "relation"), br.q_from, rel, fmt(sc.angle_deg), br.date,
-                          f"{sc.level:.0%}", br.date_low, br.date_high, fmt(sc.statistic),
-                          fmt(sc.critical_value), fmt(sc.p_value)))
+            extra = ""
+            if result.full.coranks.get(a) == 0:
+                extra += (" A relation that changes at one date is consistent with the full sample, which "
+                          "mixes both periods, showing none.")
+            if not moving:
+                extra += (" The window comparisons above show no change at their level; the scan pools "
+                          "every row on each side of one date, so it can find a change that windows, each "
+                          "shorter, do not.")
+            out.append(md("- Under {} (at {}: {}): **a break** at the {} level: one relation subspace for "
+                          "both sides fits worse than separate ones by more than sampling explains (fit "
+                          "statistic {} against a critical value of {} from resampling with no change; {}). "
+                          "Most likely from {} on, with a {} interval from {} to {} (resampling each "
+                          "segment). The estimated {} before and after differ by {}\u00b0 on the common "
+                          "scale.{}\n",
+                          names, count(sc.q, "relation"), br.q_from, level, fmt(sc.statistic),
+                          fmt(sc.critical_value), p_words(sc), br.date, f"{sc.level:.0%}", br.date_low,
+                          br.date_high, rel, fmt(sc.angle_deg), extra))
         else:
-            extra = ("" if not moving else " The window comparisons above do show change; the scan, which "
+            extra = (" This does not show that nothing changes: a small or gradual change can escape the scan."
+                     if not moving else " The window comparisons above do show change; the scan, which "
                      "tests the whole sample for one sharp break, does not confirm a single break at this "
                      "level. Both can hold: a gradual drift, several breaks, or a break too small for the scan.")
-            out.append(md("- Under {} (at {}: {}): **no break found** at the {} level: scan statistic {} "
-                          "against a critical value of {} (p = {}).{}\n", names, count(sc.q, "relation"),
-                          br.q_from, f"{1 - sc.level:.0%}", fmt(sc.statistic), fmt(sc.critical_value),
-                          fmt(sc.p_value), extra))
+            out.append(md("- Under {} (at {}: {}): **no break found** at the {} level: one relation subspace "
+                          "fits both sides of every candidate date within what sampling explains (fit "
+                          "statistic {} against a critical value of {}; {}).{}\n",
+                          names, count(sc.q, "relation"), br.q_from, level, fmt(sc.statistic),
+                          fmt(sc.critical_value), p_words(sc), extra))
     rule = next((b.scan.rule for b in breaks.values() if b.scan is not None), None)
     if rule:
         out.append(md("**Rule.** {} Only one break is looked for: a search for several breaks needs critical "
