@@ -578,6 +578,7 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     bases = estimates.get("basis") or {}
     tstd = np.asarray(estimates.get("tstd", np.ones(n)), dtype=float)
     if "equal" in assumptions:
+        noise_of: list[tuple[int, float, np.ndarray]] = []
         for q in coranks:
             basis = bases.get(q)
             if basis is None:
@@ -595,10 +596,12 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
             if fine.any():
                 aligned[fine] = procrustes_align(est_data, rb[fine])
-            est_red = reduced_form_stack(est_data[None], tidx)[0]
+            # the estimate and its draws in one batched call (each matrix is solved on its own)
+            both = reduced_form_stack(np.concatenate([est_data[None], aligned[fine]]), tidx)
+            est_red = both[0]
             draws = np.full_like(aligned, np.nan)
             if fine.any():
-                draws[fine] = reduced_form_stack(aligned[fine], tidx)
+                draws[fine] = both[1:]
             cells = [(i, t, k) for i, t in enumerate(tidx) for k in range(n) if k not in tidx]
             ivs = _intervals([-est_red[i, k] for i, _, k in cells],
                              np.stack([-draws[:, i, k] for i, _, k in cells], axis=1) if cells else
@@ -606,8 +609,11 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             coefficients[q] = tuple(CoefficientInterval(names[t], names[k], iv)
                                     for (_, t, k), iv in zip(cells, ivs))
             targets[q] = tuple(names[t] for t in tidx)
-            noise[q] = interval(float(np.mean(est_lam[:q])), lam[:, :q].mean(axis=1), level=level,
-                                method="percentile")
+            noise_of.append((q, float(np.mean(est_lam[:q])), lam[:, :q].mean(axis=1)))
+        if noise_of:
+            ivs = _intervals([e for _, e, _ in noise_of], np.stack([d for _, _, d in noise_of], axis=1),
+                             level=level, method="percentile")
+            noise.update((q, iv) for (q, _, _), iv in zip(noise_of, ivs))
         rules["coefficients"] = (
             "Equal noise: each resample's relation subspace is rotated within itself to the estimate by "
             "orthogonal Procrustes (Schoenemann 1966), solved for the same variables as the estimate, "
