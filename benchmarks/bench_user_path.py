@@ -3,6 +3,8 @@
     python benchmarks/bench_user_path.py elementary [--rows 100000]   # all elementary regressions
     python benchmarks/bench_user_path.py stages --windows 1000 --n 6 [--assumptions elementary,equal,bounded]
     python benchmarks/bench_user_path.py check SPEC                   # one `relspan check`, for whole-process timing
+    python benchmarks/bench_user_path.py check-stages SPEC            # `relspan check` (in process, serial) by stage
+    python benchmarks/bench_user_path.py spec FOLDER --windows 1000 --n 6 [--resamples 499]  # write the generated spec
 
 ``elementary``: every elementary regression (each variable on the others, with intercept) of
 every rolling window (width 250, step 50 rows), n = 6, on invented rows (seeded):
@@ -16,6 +18,15 @@ every step-1 window). Timed interleaved, best of 3.
 stages of ``relspan check`` timed in this process: the data pass (``prepare_dataset``), the
 batched elementary regressions, the per-window tasks (serial), the cross-window summaries and
 findings (``analyse_prepared`` minus the above); peak RSS of the process at the end.
+
+``check-stages``: one ``relspan.check(SPEC, jobs=1)`` (no cache) with the stages of the
+user's path timed where they are called (wall and CPU seconds of this process): the
+data pass, the batched elementary regressions, the window tasks (each window's analysis
+and its resampling), the cross-window stability (``run/cross_window.plan_stability``),
+the break scan, the full sample's spread, trends and influence, the findings, the claims.
+``spec`` writes the generated CSV and spec of ``stages`` into FOLDER (``--resamples``
+sets ``checks.resampling.resamples``; 0 turns the window tasks' resampling off), for
+``check``, ``check-stages`` and whole-process timers.
 """
 
 from __future__ import annotations
@@ -176,7 +187,7 @@ def elementary(t: int) -> None:
               f"{best['relspan'] / w * 1e6:.1f} us per window")
 
 
-def _spec(folder: Path, windows: int, n: int, assumptions: list[str]) -> Path:
+def _spec(folder: Path, windows: int, n: int, assumptions: list[str], resamples: int | None = None) -> Path:
     step = 10
     width = 100
     t = width + step * (windows - 1)
@@ -188,7 +199,8 @@ def _spec(folder: Path, windows: int, n: int, assumptions: list[str]) -> Path:
         "relspan: 1\nreport: {title: bench}\ndatasets:\n  - id: d\n    title: d\n    source: d.csv\n"
         f"    variables: [{vars_}]\nwindows:\n  - {{id: full, kind: full}}\n"
         f"  - {{id: r, kind: rolling, width: {width}, step: {step}}}\n"
-        f"checks: {{assumptions: [{', '.join(assumptions)}]}}\n", encoding="utf-8")
+        f"checks: {{assumptions: [{', '.join(assumptions)}]"
+        + ("" if resamples is None else f", resampling: {{resamples: {resamples}}}") + "}\n", encoding="utf-8")
     return folder / "s.yaml"
 
 
@@ -232,18 +244,80 @@ def stages(windows: int, n: int, assumptions: list[str], summaries: bool) -> Non
               + f"; peak RSS {rss:.0f} MiB")
 
 
+#: (module, attribute, stage) of every timed call in ``check-stages``; nested stages are
+#: subtracted from the one that calls them (window tasks and elementary from the analysis)
+_STAGES = (
+    ("relspan.data.prepare", "prepare_dataset", "data pass (reading)"),
+    ("relspan.run.pipeline", "_with_elementary", "elementary regressions (batched)"),
+    ("relspan.run.executors", "map_in_chunks", "window tasks (analysis + resampling)"),
+    ("relspan.run.cross_window", "plan_stability", "cross-window stability"),
+    ("relspan.run.cross_window", "dataset_breaks", "break scan"),
+    ("relspan.run.cross_window", "full_sample_spread", "full-sample spread"),
+    ("relspan.run.pipeline", "_trends", "trends"),
+    ("relspan.run.pipeline", "_influence", "influence"),
+    ("relspan.analysis.findings", "dataset_findings", "findings"),
+    ("relspan.analysis.findings", "dataset_summary", "findings"),
+    ("relspan.run.pipeline", "_check_findings", "findings"),
+    ("relspan.analysis.claims", "evaluate_claims", "claims"),
+)
+
+
+def check_stages(spec_path: str) -> None:
+    """One serial ``relspan.check`` with each stage of :data:`_STAGES` timed where it is called."""
+    import importlib
+
+    import relspan
+
+    spent: dict[str, list[float]] = {}
+
+    def timed(fn, stage):
+        def wrapper(*a, **k):
+            w, c = time.perf_counter(), time.process_time()
+            try:
+                return fn(*a, **k)
+            finally:
+                acc = spent.setdefault(stage, [0.0, 0.0])
+                acc[0] += time.perf_counter() - w
+                acc[1] += time.process_time() - c
+        return wrapper
+
+    for mod, attr, stage in _STAGES:
+        m = importlib.import_module(mod)
+        setattr(m, attr, timed(getattr(m, attr), stage))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        w, c = time.perf_counter(), time.process_time()
+        relspan.check(spec_path, jobs=1, use_cache=False)
+        total = (time.perf_counter() - w, time.process_time() - c)
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"relspan.check({spec_path!r}, jobs=1), in process: {total[0]:.2f} s wall, {total[1]:.2f} s CPU; "
+          f"peak RSS {rss:.0f} MiB")
+    listed = 0.0
+    for stage, (sw, sc) in spent.items():
+        listed += sc
+        print(f"  {stage:40s} {sw:8.2f} s wall {sc:8.2f} s CPU ({sc / total[1]:5.1%} of CPU)")
+    print(f"  {'the rest (spec, imports, glue)':40s} {'':8s}   {'':4s} {total[1] - listed:8.2f} s CPU")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", choices=["elementary", "stages", "check"])
+    ap.add_argument("what", choices=["elementary", "stages", "check", "check-stages", "spec"])
     ap.add_argument("spec", nargs="?")
     ap.add_argument("--rows", type=int, default=100_000)
     ap.add_argument("--windows", type=int, default=1000)
     ap.add_argument("--n", type=int, default=6)
     ap.add_argument("--assumptions", default="elementary,equal,bounded")
     ap.add_argument("--no-summaries", action="store_true")
+    ap.add_argument("--resamples", type=int, default=None)
     args = ap.parse_args()
     if args.what == "elementary":
         elementary(args.rows)
+    elif args.what == "spec":
+        folder = Path(args.spec)
+        folder.mkdir(parents=True, exist_ok=True)
+        print(_spec(folder, args.windows, args.n, args.assumptions.split(","), args.resamples))
+    elif args.what == "check-stages":
+        check_stages(args.spec)
     elif args.what == "stages":
         stages(args.windows, args.n, args.assumptions.split(","), not args.no_summaries)
     else:

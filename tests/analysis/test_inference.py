@@ -136,3 +136,18 @@ def test_resampling_off_leaves_no_inference():
     x, _ = _issue_case(rows=200)
     w = _analyse(x, resamples=0)
     assert w.inference is None
+
+
+def test_batched_intervals_equal_the_one_column_intervals_bit_for_bit():
+    from relspan.analysis.inference import _intervals
+    from relspan.analysis.intervals import interval
+
+    rng = np.random.default_rng(11)  # invented draws
+    d = rng.standard_normal((199, 7)) * np.logspace(-6, 6, 7)
+    d[5, 2] = np.nan           # a column with a failed resample goes through the one-column path
+    d[:, 4] = np.inf
+    est = rng.standard_normal(7)
+    for method in ("percentile", "basic"):
+        got = _intervals(est, d, level=0.9, method=method)
+        want = [interval(float(est[j]), d[:, j], level=0.9, method=method) for j in range(7)]
+        assert [repr(g) for g in got] == [repr(w) for w in want]

@@ -380,6 +380,34 @@ def diagonal_corank_of(cov: np.ndarray, warm: Any, *, eps: float, seed: int) -> 
     return q, {c.q: c for c in cor.certificates}
 
 
+def _intervals(estimates, draws, *, level: float, method: str) -> list[Interval]:
+    """:func:`relspan.analysis.intervals.interval` of each column of a ``(B, m)`` stack, batched.
+
+    Columns whose draws are all finite share one ``numpy.quantile`` along the
+    resamples (the same order statistics and interpolation as one column at
+    a time, so the same bits); the others go through :func:`interval` alone.
+    """
+    est = [float(e) for e in estimates]
+    d = np.asarray(draws, dtype=float).reshape(-1, len(est))
+    out: list[Interval | None] = [None] * len(est)
+    full = np.isfinite(d).all(axis=0) if d.shape[0] >= 2 else np.zeros(len(est), dtype=bool)
+    cols = np.flatnonzero(full)
+    if cols.size and method in ("percentile", "basic"):
+        lvl = float(level)
+        if not 0.0 < lvl < 1.0:
+            return [interval(e, d[:, j], level=level, method=method) for j, e in enumerate(est)]
+        a = (1.0 - lvl) / 2.0
+        qs = np.quantile(d[:, cols], [a, 1.0 - a], axis=0)
+        b = int(d.shape[0])
+        for c, j in enumerate(cols.tolist()):
+            lo, hi = float(qs[0, c]), float(qs[1, c])
+            t = est[j]
+            out[j] = (Interval(t, lo, hi, lvl, "percentile", b) if method == "percentile" else
+                      Interval(t, 2 * t - hi, 2 * t - lo, lvl, "basic", b))
+    return [iv if iv is not None else interval(est[j], d[:, j], level=level, method=method)
+            for j, iv in enumerate(out)]
+
+
 def _inv_stack(covs: np.ndarray) -> np.ndarray:
     """Inverses of a ``(B, n, n)`` stack; NaN for a singular resample (an exact relation in it)."""
     try:
@@ -523,10 +551,8 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     rules: dict[str, str] = {}
 
     est_lam = np.sort(np.asarray(estimates["eigenvalues"], dtype=float))
-    eig = []
-    for j in range(n):
-        iv = interval(float(est_lam[j]), lam[:, j], level=level, method="basic")
-        eig.append(Interval(iv.estimate, max(iv.low, 0.0), iv.high, iv.level, iv.method, iv.resamples))
+    eig = [Interval(iv.estimate, max(iv.low, 0.0), iv.high, iv.level, iv.method, iv.resamples)
+           for iv in _intervals(est_lam[:n], lam[:, :n], level=level, method="basic")]
     rules["eigenvalues"] = (f"Basic bootstrap intervals (Davison & Hinkley 1997) of the eigenvalues on the "
                             f"{scale} scale, from {res.resamples} resamples; lower ends below 0 set to 0.")
 
@@ -552,6 +578,7 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     bases = estimates.get("basis") or {}
     tstd = np.asarray(estimates.get("tstd", np.ones(n)), dtype=float)
     if "equal" in assumptions:
+        noise_of: list[tuple[int, float, np.ndarray]] = []
         for q in coranks:
             basis = bases.get(q)
             if basis is None:
@@ -569,21 +596,24 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
             if fine.any():
                 aligned[fine] = procrustes_align(est_data, rb[fine])
-            est_red = reduced_form_stack(est_data[None], tidx)[0]
+            # the estimate and its draws in one batched call (each matrix is solved on its own)
+            both = reduced_form_stack(np.concatenate([est_data[None], aligned[fine]]), tidx)
+            est_red = both[0]
             draws = np.full_like(aligned, np.nan)
             if fine.any():
-                draws[fine] = reduced_form_stack(aligned[fine], tidx)
-            out = []
-            for i, t in enumerate(tidx):
-                for k in range(n):
-                    if k in tidx:
-                        continue
-                    iv = interval(float(-est_red[i, k]), -draws[:, i, k], level=level, method="percentile")
-                    out.append(CoefficientInterval(names[t], names[k], iv))
-            coefficients[q] = tuple(out)
+                draws[fine] = both[1:]
+            cells = [(i, t, k) for i, t in enumerate(tidx) for k in range(n) if k not in tidx]
+            ivs = _intervals([-est_red[i, k] for i, _, k in cells],
+                             np.stack([-draws[:, i, k] for i, _, k in cells], axis=1) if cells else
+                             np.zeros((draws.shape[0], 0)), level=level, method="percentile")
+            coefficients[q] = tuple(CoefficientInterval(names[t], names[k], iv)
+                                    for (_, t, k), iv in zip(cells, ivs))
             targets[q] = tuple(names[t] for t in tidx)
-            noise[q] = interval(float(np.mean(est_lam[:q])), lam[:, :q].mean(axis=1), level=level,
-                                method="percentile")
+            noise_of.append((q, float(np.mean(est_lam[:q])), lam[:, :q].mean(axis=1)))
+        if noise_of:
+            ivs = _intervals([e for _, e, _ in noise_of], np.stack([d for _, _, d in noise_of], axis=1),
+                             level=level, method="percentile")
+            noise.update((q, iv) for (q, _, _), iv in zip(noise_of, ivs))
         rules["coefficients"] = (
             "Equal noise: each resample's relation subspace is rotated within itself to the estimate by "
             "orthogonal Procrustes (Schoenemann 1966), solved for the same variables as the estimate, "
@@ -598,11 +628,10 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             p = _inv_stack(covs)
             d = np.diagonal(p, axis1=1, axis2=2)
             draws = -p / d[:, :, None]
-        for j in range(n):
-            for k in range(n):
-                if j != k:
-                    iv = interval(float(est_el[j, k]), draws[:, j, k], level=level, method="percentile")
-                    elementary.append(CoefficientInterval(names[j], names[k], iv))
+        cells = [(j, k) for j in range(n) for k in range(n) if j != k]
+        ivs = _intervals([est_el[j, k] for j, k in cells], np.stack([draws[:, j, k] for j, k in cells], axis=1),
+                         level=level, method="percentile")
+        elementary.extend(CoefficientInterval(names[j], names[k], iv) for (j, k), iv in zip(cells, ivs))
         rules["elementary"] = ("Elementary regressions: -P[j,k]/P[j,j] of each resample's inverse covariance "
                                "(data units); percentile intervals.")
 

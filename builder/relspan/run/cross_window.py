@@ -109,23 +109,87 @@ def resampled_bases(cr: resample.CovarianceResamples, analysis, assumption: str,
     window's analysis scale; shaped: of the whitened generalised problem;
     elementary: row ``ref`` of the inverse covariance.
     """
-    covs = cr.covariances
-    if assumption == "elementary":
-        try:
-            inv = np.linalg.inv(covs)
-        except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
-            inv = np.linalg.pinv(covs, hermitian=True)
-        rows = inv[:, analysis.ref, :][:, None, :]
+    return _Draws(cr, analysis, shape).bases(assumption, q)
+
+
+class _Draws:
+    """What one window's resamples give each assumption, each batched decomposition computed once.
+
+    equal and bounded noise read the same eigenvectors (the q smallest of each
+    resample on the window's analysis scale), so one batched ``eigh`` serves
+    both; the arithmetic of each quantity is that of computing it alone, so
+    the bits do not depend on which assumptions ask.
+    """
+
+    __slots__ = ("cr", "analysis", "shape", "_memo")
+
+    def __init__(self, cr: resample.CovarianceResamples, analysis, shape=None) -> None:
+        self.cr, self.analysis, self.shape = cr, analysis, shape
+        self._memo: dict = {}
+
+    def _get(self, key, make):
+        if key not in self._memo:
+            self._memo[key] = make()
+        return self._memo[key]
+
+    def _analysed(self):
+        return self._get("analysed", lambda: _analysed(self.cr.covariances, self.analysis.scale))
+
+    def _weights(self):
+        return self._get("weights", lambda: _shape_weights(self.shape, self._analysed()[1]))
+
+    def _shaped(self):
+        def make():
+            mat, _ = self._analysed()
+            sw = np.sqrt(self._weights())
+            return mat / (sw[:, :, None] * sw[:, None, :]), sw
+        return self._get("shaped", make)
+
+    def _vectors(self, assumption: str) -> np.ndarray:
+        if assumption == "shaped":
+            return self._get("vec shaped", lambda: np.linalg.eigh(self._shaped()[0])[1])
+        return self._get("vec", lambda: np.linalg.eigh(self._analysed()[0])[1])
+
+    def bases(self, assumption: str, q: int) -> np.ndarray:
+        """:func:`resampled_bases` of ``assumption`` at corank ``q``."""
+        analysis = self.analysis
+        if assumption == "elementary":
+            covs = self.cr.covariances
+            try:
+                inv = np.linalg.inv(covs)
+            except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
+                inv = np.linalg.pinv(covs, hermitian=True)
+            rows = inv[:, analysis.ref, :][:, None, :]
+            return _common_rows(rows, analysis.common_std)
+        _, tstd = self._analysed()
+        if assumption == "shaped":
+            vec = self._vectors("shaped")[:, :, :q] / self._shaped()[1][:, :, None]
+        else:
+            vec = self._vectors(assumption)[:, :, :q]
+        rows = np.swapaxes(vec, 1, 2) / tstd[:, None, :]
         return _common_rows(rows, analysis.common_std)
-    mat, tstd = _analysed(covs, analysis.scale)
-    if assumption == "shaped":
-        w = _shape_weights(shape, tstd)
-        sw = np.sqrt(w)
-        vec = np.linalg.eigh(mat / (sw[:, :, None] * sw[:, None, :]))[1][:, :, :q] / sw[:, :, None]
-    else:
-        vec = np.linalg.eigh(mat)[1][:, :, :q]
-    rows = np.swapaxes(vec, 1, 2) / tstd[:, None, :]
-    return _common_rows(rows, analysis.common_std)
+
+    def plausible(self, assumption: str, share: float = 1.0 - TEST_LEVEL) -> frozenset[int] | None:
+        """:func:`plausible_coranks` of ``assumption``."""
+        if assumption not in ("equal", "bounded", "shaped"):
+            return None
+        analysis = self.analysis
+        eps = analysis.eps
+        if assumption == "shaped":
+            lam = self._get("lam shaped", lambda: np.linalg.eigvalsh(self._shaped()[0]))
+            limit = eps / self._weights().max(axis=1)
+        else:
+            lam = self._get("lam", lambda: np.linalg.eigvalsh(self._analysed()[0]))
+            limit = np.full(lam.shape[0], eps)
+        n = lam.shape[1]
+        # the window's rule (relspan.analysis.window._corank_by_eigenvalues) on every resample at once
+        qs = np.minimum(np.count_nonzero(lam <= limit[:, None], axis=1), n - 1)
+        counts = np.bincount(qs, minlength=n)
+        out = {int(q) for q in np.flatnonzero(counts >= share * qs.shape[0])}
+        own = analysis.coranks.get(assumption)
+        if own is not None:
+            out.add(int(own))
+        return frozenset(out)
 
 
 def plausible_coranks(cr: resample.CovarianceResamples, analysis, assumption: str, shape=None,
@@ -136,26 +200,7 @@ def plausible_coranks(cr: resample.CovarianceResamples, analysis, assumption: st
     at most the tolerance (equal, bounded) or the tolerance over the largest
     shape weight (shaped). None for assumptions without such a rule.
     """
-    from relspan.analysis.window import _corank_by_eigenvalues
-
-    if assumption not in ("equal", "bounded", "shaped"):
-        return None
-    mat, tstd = _analysed(cr.covariances, analysis.scale)
-    eps = analysis.eps
-    if assumption == "shaped":
-        w = _shape_weights(shape, tstd)
-        sw = np.sqrt(w)
-        lam = np.linalg.eigvalsh(mat / (sw[:, :, None] * sw[:, None, :]))
-        qs = [_corank_by_eigenvalues(lam[b], eps / float(w[b].max())) for b in range(lam.shape[0])]
-    else:
-        lam = np.linalg.eigvalsh(mat)
-        qs = [_corank_by_eigenvalues(lam[b], eps) for b in range(lam.shape[0])]
-    counts = np.bincount(np.asarray(qs, dtype=int), minlength=mat.shape[1])
-    out = {int(q) for q in np.flatnonzero(counts >= share * len(qs))}
-    own = analysis.coranks.get(assumption)
-    if own is not None:
-        out.add(int(own))
-    return frozenset(out)
+    return _Draws(cr, analysis, shape).plausible(assumption, share)
 
 
 def _own_basis(analysis, assumption: str):
@@ -163,6 +208,11 @@ def _own_basis(analysis, assumption: str):
     if q is None or q < 1:
         return None
     return analysis.bases.get(assumption, {}).get(q)
+
+
+#: bytes of resampled bases kept for the assumptions compared later (a window's resamples are drawn
+#: once for all of them); beyond it a window is drawn again when asked (the same stream, the same bits)
+KEEP_BYTES = 256 * 2**20
 
 
 def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
@@ -174,6 +224,11 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     with a single relation basis, see :data:`STABILITY_ASSUMPTIONS`) and
     ``plausible[assumption]``: per window, the set of coranks with resampling
     support (None where the assumption has no per-resample rule).
+
+    Each window's resamples are drawn and decomposed once for every
+    assumption: the bases the assumptions compared later will ask for are kept
+    (up to :data:`KEEP_BYTES`), and the plausible coranks of every assumption
+    are read at the same time.
     """
     opts = opts or _resampling_options(ds)
     shape = ds.noise_shape
@@ -181,36 +236,50 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     wanted = [a for a in STABILITY_ASSUMPTIONS if a in full.coranks and a in full.bases]
     if len(analyses) < 1 or not wanted:
         return {}, {}
-    held: dict[int, resample.CovarianceResamples] = {}
-    plaus: dict[str, dict[int, frozenset | None]] = {a: {} for a in wanted}
+    ruled = [a for a in wanted if a in ("equal", "bounded", "shaped")]
+    plaus: dict[str, dict[int, frozenset | None]] = {a: {} for a in ruled}
+    own = {a: [_own_basis(w, a) for w in analyses] for a in wanted}
+    later: list[str] = list(wanted)       # assumptions whose comparison has not finished
+    kept: dict[tuple[str, int], np.ndarray] = {}
+    kept_bytes = 0
+    held: dict[int, _Draws] = {}
 
-    def resamples_of(i: int) -> resample.CovarianceResamples:
+    def draws_of(i: int) -> _Draws:
+        """Window i's resamples (the last window asked for is held: windows come in order)."""
         if i not in held:
-            held.clear()  # windows are asked for in order; keep one at a time
-            held[i] = window_resamples(prepared, ds, plan_id, i, opts)
+            held.clear()
+            held[i] = _Draws(window_resamples(prepared, ds, plan_id, i, opts), analyses[i], shape)
         return held[i]
+
+    def resampled(a: str, i: int) -> np.ndarray:
+        nonlocal kept_bytes
+        got = kept.get((a, i))
+        if got is not None:
+            return got
+        d = draws_of(i)
+        for b in ruled:
+            if i not in plaus[b]:
+                plaus[b][i] = d.plausible(b)
+        for b in later:
+            if b != a and own[b][i] is not None and (b, i) not in kept and kept_bytes < KEEP_BYTES:
+                kept[(b, i)] = d.bases(b, int(own[b][i].shape[0]))
+                kept_bytes += kept[(b, i)].nbytes
+        return d.bases(a, int(own[a][i].shape[0]))
 
     out: dict[str, SubspaceStability] = {}
     for a in wanted:
-        bases = [_own_basis(w, a) for w in analyses]
-
-        def draws(i: int, a=a):
-            cr = resamples_of(i)
-            w = analyses[i]
-            if a not in ("elementary",):
-                plaus[a][i] = plausible_coranks(cr, w, a, shape)
-            return resampled_bases(cr, w, a, int(bases[i].shape[0]), shape)
-
-        out[a] = compare_windows(bases, labels=labels, resampled=draws, reference=_own_basis(full, a),
-                                 coranks=[w.coranks.get(a) for w in analyses], assumption=a,
-                                 level=opts.test_level)
-        # windows not compared (no basis) still get their plausible coranks
-        if a in ("equal", "bounded", "shaped"):
-            for i, w in enumerate(analyses):
-                if i not in plaus[a]:
-                    plaus[a][i] = plausible_coranks(resamples_of(i), w, a, shape)
-    plausible = {a: tuple(plaus[a].get(i) for i in range(len(analyses)))
-                 for a in wanted if a in ("equal", "bounded", "shaped")}
+        out[a] = compare_windows(own[a], labels=labels, resampled=lambda i, a=a: resampled(a, i),
+                                 reference=_own_basis(full, a), coranks=[w.coranks.get(a) for w in analyses],
+                                 assumption=a, level=opts.test_level)
+        later.remove(a)
+        for key in [k for k in kept if k[0] == a]:
+            kept_bytes -= kept.pop(key).nbytes
+    # windows not compared (no basis under any assumption) still get their plausible coranks
+    for a in ruled:
+        for i in range(len(analyses)):
+            if i not in plaus[a]:
+                plaus[a][i] = draws_of(i).plausible(a)
+    plausible = {a: tuple(plaus[a].get(i) for i in range(len(analyses))) for a in ruled}
     return out, plausible
 
 

@@ -334,6 +334,24 @@ def _run_chunk(fn: Callable[[Any], Any], chunk: Sequence[Any]) -> list:
     return [fn(item) for item in chunk]
 
 
+def one_blas_thread():
+    """A context in which BLAS/OpenMP run one thread (threadpoolctl; a no-op without it).
+
+    The cross-window stage of :func:`relspan.run.pipeline.analyse_prepared`
+    runs in the main process under it, as window tasks run in their workers:
+    its products are small (a few hundred resamples of an n x n covariance),
+    so threads only add waiting, and results do not depend on the cores of
+    the machine.
+    """
+    try:
+        from threadpoolctl import threadpool_limits  # noqa: PLC0415 (optional)
+    except ImportError:
+        import contextlib
+
+        return contextlib.nullcontext()
+    return threadpool_limits(limits=1)
+
+
 def _run_chunk_one_blas_thread(fn: Callable[[Any], Any], chunk: Sequence[Any]) -> list:
     """:func:`_run_chunk` with BLAS/OpenMP limited to one thread in the worker.
 
@@ -342,15 +360,11 @@ def _run_chunk_one_blas_thread(fn: Callable[[Any], Any], chunk: Sequence[Any]) -
     cores (workers x cores threads) and slow every task. Dask's nanny sets
     ``OMP_NUM_THREADS=1`` (and the OpenBLAS/MKL variables) for the workers it
     spawns; a process pool, or a cluster started some other way, may not, so
-    the limit is also applied here (with threadpoolctl, when installed).
-    The serial executor uses it too, so that every executor sums in the same
-    order and gives the same bits.
+    the limit is also applied here (with threadpoolctl, when installed,
+    :func:`one_blas_thread`). The serial executor uses it too, so that every
+    executor sums in the same order and gives the same bits.
     """
-    try:
-        from threadpoolctl import threadpool_limits  # noqa: PLC0415 (optional)
-    except ImportError:
-        return _run_chunk(fn, chunk)
-    with threadpool_limits(limits=1):
+    with one_blas_thread():
         return _run_chunk(fn, chunk)
 
 

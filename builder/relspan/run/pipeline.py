@@ -296,8 +296,6 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     Warnings raised in a window stay typed (:class:`~relspan.errors.RelspanWarning`);
     they are appended to ``warn_sink`` with the dataset and plan recorded.
     """
-    from relspan.analysis.findings import dataset_findings, dataset_summary
-    from relspan.analysis.identified import identified_quantities
     from relspan.data.prepare import window_moments
     from relspan.run.executors import SerialExecutor, map_in_chunks
 
@@ -334,6 +332,21 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
         plan_id = next((p.id for p, _, a, b in spans if a <= i < b), None)
         sink.extend(w.located(dataset=ds.id, plan=plan_id) for w in raised)
     analyses = [r for r, _ in results]
+    # the cross-window stage runs here, with one BLAS thread as the window tasks (small products)
+    from relspan.run.executors import one_blas_thread
+
+    with one_blas_thread():
+        return _cross_window(ds, prepared, plans, analyses, spans, options, common_std, resampling, sink,
+                             cache_key)
+
+
+def _cross_window(ds: DatasetSpec, prepared, plans, analyses, spans, options, common_std, resampling,
+                  sink: list, cache_key: str) -> DatasetResult:
+    """Everything after the window tasks: stability, breaks, spread, trends, influence, findings."""
+    from relspan.analysis.findings import dataset_findings, dataset_summary
+    from relspan.analysis.identified import identified_quantities
+
+    names = tuple(prepared.variables)
     full = analyses[0]
     examined, examined_from = _choose_examined(ds, full)
     threshold = float(ds.checks.max_angle_deg)

@@ -1,0 +1,73 @@
+"""The cross-window stage draws each window's resamples once, whichever assumptions read them.
+
+Invented data (tests/run/test_pipeline_scale.py's seeded writer).
+"""
+
+from __future__ import annotations
+
+import collections
+
+import numpy as np
+
+from relspan.run import cross_window
+from relspan.run.pipeline import run_analysis
+from relspan.spec.load import load_spec
+
+from .test_pipeline_scale import _results, _same, _spec, _write_data
+
+RESAMPLING = "  resampling: {resamples: 39, seed: 3}\n"
+
+
+def _load(folder):
+    _write_data(folder)
+    path = _spec(folder, assumptions="[elementary, equal, bounded]")
+    path.write_text(path.read_text() + RESAMPLING)
+    return load_spec(path)
+
+
+def test_each_window_is_resampled_once_for_every_assumption(tmp_path, monkeypatch):
+    spec = _load(tmp_path)
+    asked = collections.Counter()
+    real = cross_window.window_resamples
+
+    def counting(prepared, ds, plan_id, index, opts):
+        asked[(ds.id, plan_id, index)] += 1
+        return real(prepared, ds, plan_id, index, opts)
+
+    monkeypatch.setattr(cross_window, "window_resamples", counting)
+    run = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    stability = run.dataset("alpha").plan("roll").stability
+    assert {"elementary", "equal", "bounded"} <= set(stability)     # three assumptions compared
+    drawn = {k: v for k, v in asked.items() if k[1] == "roll"}
+    assert drawn and set(drawn.values()) == {1}
+
+
+def test_stability_is_the_same_whether_later_draws_are_kept_or_drawn_again(tmp_path, monkeypatch):
+    spec = _load(tmp_path)
+    kept = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    monkeypatch.setattr(cross_window, "KEEP_BYTES", 0)      # nothing kept: drawn again when asked
+    again = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    assert _same(_results(kept), _results(again))
+    plan = kept.dataset("alpha").plan("roll")
+    assert plan.stability["equal"].compared > 0
+    assert np.isfinite(plan.stability["equal"].family_critical)
+
+
+def test_plausible_coranks_apply_the_window_rule_to_every_resample():
+    import types
+
+    from relspan.analysis.resample import GranuleStats, resample_covariances
+    from relspan.analysis.window import _corank_by_eigenvalues
+
+    rng = np.random.default_rng(4)   # invented rows: two near-relations among four variables
+    f = rng.standard_normal((300, 2))
+    x = np.hstack([f, f @ [[1.0, 0.5], [-0.3, 1.0]]]) + 0.15 * rng.standard_normal((300, 4))
+    cr = resample_covariances(GranuleStats.from_rows(x, ordered=False), resamples=49, rng=rng)
+    for eps in (0.01, 0.03, 0.1):
+        w = types.SimpleNamespace(scale="correlation", eps=eps, coranks={"equal": None})
+        d = np.sqrt(np.diagonal(cr.covariances, axis1=1, axis2=2))
+        cor = cr.covariances / (d[:, :, None] * d[:, None, :])
+        lam = np.linalg.eigvalsh(cor)
+        qs = np.array([_corank_by_eigenvalues(v, eps) for v in lam])
+        want = frozenset(int(q) for q in np.flatnonzero(np.bincount(qs, minlength=4) >= 0.05 * 49))
+        assert cross_window.plausible_coranks(cr, w, "equal") == want
