@@ -71,3 +71,28 @@ def test_plausible_coranks_apply_the_window_rule_to_every_resample():
         qs = np.array([_corank_by_eigenvalues(v, eps) for v in lam])
         want = frozenset(int(q) for q in np.flatnonzero(np.bincount(qs, minlength=4) >= 0.05 * 49))
         assert cross_window.plausible_coranks(cr, w, "equal") == want
+
+
+def test_the_stability_stage_draws_what_the_window_tasks_draw(tmp_path, monkeypatch):
+    """Same scheme, block length and per-plan cap as the window tasks (analysis/inference.py), so both
+    stages read one stream of resamples and the methods page's cap is true of both."""
+    from relspan.analysis.inference import MANY_WINDOWS, MANY_WINDOWS_RESAMPLES
+
+    path = _spec(tmp_path, assumptions="[equal]")
+    _write_data(tmp_path)
+    path.write_text(path.read_text() + "  resampling: {resamples: 499, scheme: moving, block_length: 7, seed: 3}\n")
+    ds = load_spec(path).datasets[0]
+    opts = cross_window._resampling_options(ds)
+    assert (opts.scheme, opts.block_length) == ("moving", 7)
+    assert cross_window._for_plan(opts, MANY_WINDOWS).resamples == 499
+    assert cross_window._for_plan(opts, MANY_WINDOWS + 1).resamples == MANY_WINDOWS_RESAMPLES
+    seen = []
+    real = cross_window.resample.resample_covariances
+
+    def spy(stats, **kw):
+        seen.append((kw["scheme"], kw["block_length"], stats.rows_per_granule))
+        return real(stats, **kw)
+
+    monkeypatch.setattr(cross_window.resample, "resample_covariances", spy)
+    run_analysis(load_spec(path), jobs=1, use_cache=False, progress=False)
+    assert seen and all(s == "moving" and b == max(7 / g, 1.0) for s, b, g in seen)

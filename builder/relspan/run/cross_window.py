@@ -12,6 +12,8 @@ everything here that needs a window's sampling spread goes through it.
 
 from __future__ import annotations
 
+import dataclasses
+
 from dataclasses import dataclass
 from typing import Mapping, Sequence
 
@@ -46,6 +48,9 @@ class ResamplingOptions:
     level: float
     seed: int
     test_level: float = TEST_LEVEL
+    #: the spec's scheme (``auto`` already resolved) and block length in rows (None: automatic)
+    scheme: str | None = None
+    block_length: float | None = None
 
 
 def _resampling_options(ds) -> ResamplingOptions:
@@ -60,7 +65,17 @@ def _resampling_options(ds) -> ResamplingOptions:
 
     r = resampling_options(ds)
     return ResamplingOptions(resamples=int(r.resamples or resample.DEFAULT_RESAMPLES), level=float(r.level),
-                             seed=int(r.seed))
+                             seed=int(r.seed), scheme=r.scheme, block_length=r.block_length)
+
+
+def _for_plan(opts: ResamplingOptions, windows: int) -> ResamplingOptions:
+    """The options for a plan of ``windows`` windows: the window tasks' cap for very many windows
+    (:data:`relspan.analysis.inference.MANY_WINDOWS_RULE`), so that both stages draw the same resamples."""
+    from relspan.analysis.inference import MANY_WINDOWS, MANY_WINDOWS_RESAMPLES
+
+    if windows > MANY_WINDOWS and opts.resamples > MANY_WINDOWS_RESAMPLES:
+        return dataclasses.replace(opts, resamples=MANY_WINDOWS_RESAMPLES)
+    return opts
 
 
 def window_resamples(prepared, ds, plan_id: str | None, index: int, opts: ResamplingOptions
@@ -77,8 +92,11 @@ def window_resamples(prepared, ds, plan_id: str | None, index: int, opts: Resamp
     else:
         stats = prepared.window_granules(plan_id, index)
     rng = resample.window_rng(opts.seed, ds.id, plan_id, index)
-    return resample.resample_covariances(stats, resamples=opts.resamples, rng=rng,
-                                         seed=(opts.seed, ds.id, plan_id, int(index)))
+    block = None  # in granules, as the window task converts it (analysis/inference.window_inference)
+    if opts.scheme != "iid" and opts.block_length is not None:
+        block = max(opts.block_length / max(stats.rows_per_granule, 1), 1.0)
+    return resample.resample_covariances(stats, resamples=opts.resamples, rng=rng, scheme=opts.scheme,
+                                         block_length=block, seed=(opts.seed, ds.id, plan_id, int(index)))
 
 
 def _analysed(covs: np.ndarray, scale: str) -> tuple[np.ndarray, np.ndarray]:
@@ -230,7 +248,7 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     (up to :data:`KEEP_BYTES`), and the plausible coranks of every assumption
     are read at the same time.
     """
-    opts = opts or _resampling_options(ds)
+    opts = _for_plan(opts or _resampling_options(ds), len(analyses))
     shape = ds.noise_shape
     labels = [a.label for a in analyses]
     wanted = [a for a in STABILITY_ASSUMPTIONS if a in full.coranks and a in full.bases]
