@@ -8,13 +8,14 @@ import itertools
 import pytest
 from matplotlib.text import Text
 
-from relspan.report.figures.style import FIG_WIDTH_IN, style_context
+from relspan.report.figures.style import FIG_WIDTH_IN, SHOWN_PX_PER_IN, style_context
 
 import figure_inputs as fi  # noqa: E402
 
-#: width in CSS px at which the site shows a figure on desktop (the content column; style.DPI makes the
-#: PNG this wide): a figure's points are drawn at COLUMN_PX / (72 * FIG_WIDTH_IN) px each
-COLUMN_PX = 760
+#: width in CSS px at which the site shows a figure (its <img> width, 614 px; on narrow screens it keeps
+#: that width in a frame that scrolls sideways): a figure's points are drawn at COLUMN_PX / (72 * FIG_WIDTH_IN)
+#: px each (the PNG is wider, style.DPI, for print and download)
+COLUMN_PX = FIG_WIDTH_IN * SHOWN_PX_PER_IN
 MIN_TEXT_PX = 11.0
 
 #: figures whose labels are placed by relspan's own code and checked for overlaps. Known and left
