@@ -549,7 +549,7 @@ _FIGURE_IMAGES_JS = """() => [...document.querySelectorAll('main figure.fig img'
 #: one figure's SVG drawn inline at ``width`` CSS px: each text (matplotlib writes one group
 #: ``text_N`` per text, its glyphs as paths in a <g transform> whose scale is the font size divided by
 #: ``font_scale``) as its label, smallest font size in CSS px and its glyph runs' boxes as quadrilaterals
-#: in page px (rotated labels keep their own orientation)
+#: in page px (rotated labels keep their own orientation); and the figure's own box in page px
 _FIGURE_TEXTS_JS = """([svgText, width, fontScale]) => {
   const host = document.createElement('div');
   host.style.cssText = 'position:absolute;left:0;top:0;width:' + width + 'px';
@@ -571,8 +571,9 @@ _FIGURE_TEXTS_JS = """([svgText, width, fontScale]) => {
     }
     if (runs.length) texts.push({label: note ? note.textContent.trim() : g.id, px: Math.min(...sizes), quads});
   }
+  const box = svg.getBoundingClientRect();
   host.remove();
-  return texts;
+  return {texts, box: [box.left, box.top, box.right, box.bottom]};
 }"""
 
 
@@ -623,9 +624,10 @@ def _figure_texts(browser, site: Path, viewport: dict) -> tuple[dict, dict, list
                                     for h in img["links"] if h.startswith(site.as_uri())]
                     continue
                 full.add(name)
-                found = page.evaluate(_FIGURE_TEXTS_JS, [file.read_text(encoding="utf-8"), img["width"],
+                drawn = page.evaluate(_FIGURE_TEXTS_JS, [file.read_text(encoding="utf-8"), img["width"],
                                                          TextToPath.FONT_SCALE])
-                texts.setdefault(name, found)
+                found = drawn["texts"]
+                texts.setdefault(name, [dict(t, figure=drawn["box"]) for t in found])
                 low = min(((t["px"], t["label"]) for t in found), default=(float("inf"), ""))
                 smallest[name] = min(smallest.get(name, low), low)
     finally:
@@ -662,3 +664,18 @@ def test_no_two_texts_of_a_figure_overlap(browser, fresh_sites):
                     found.setdefault(name, []).append(f"{a['label']!r} / {b['label']!r} ({depth:.1f} px)")
     assert sum(len(v) for v in texts.values()) > 500  # the check saw the figures' texts
     _fail_if(found, "figure texts whose boxes overlap")
+
+
+def test_no_figure_text_is_cut_off_at_the_figure_edge(browser, fresh_sites):
+    site, _ = fresh_sites["demo"]
+    _, texts, _ = _figure_texts(browser, site, SCREEN)
+    cut = {}
+    for name, items in texts.items():
+        for t in items:
+            x0, y0, x1, y1 = t["figure"]
+            xs = [x for q in t["quads"] for x, _ in q]
+            ys = [y for q in t["quads"] for _, y in q]
+            if min(xs) < x0 - OVERLAP_PX or max(xs) > x1 + OVERLAP_PX or min(ys) < y0 - OVERLAP_PX \
+                    or max(ys) > y1 + OVERLAP_PX:
+                cut.setdefault(name, []).append(repr(t["label"]))
+    _fail_if(cut, "figure texts (partly) outside the figure, where no reader sees them")

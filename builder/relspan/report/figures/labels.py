@@ -108,13 +108,14 @@ def place_point_labels(fig: Figure, ax, xy: np.ndarray, texts: Sequence[str], *,
     return artists
 
 
-def widest_text_px(fig: Figure, ax, texts: Sequence[str], fontsize: float) -> float:
-    """Width in display pixels of the widest of ``texts`` at ``fontsize`` (0 for none): to decide whether
-    numbers written in cells fit them at a readable size. The figure layout must be final."""
+def widest_text_px(fig: Figure, ax, texts: Sequence[str], fontsize: float, **props) -> float:
+    """Width in display pixels of the widest of ``texts`` at ``fontsize`` (0 for none; ``props`` such
+    as ``fontweight`` as for ``Axes.text``): whether numbers fit their cells at a readable size, how
+    much room labels placed after the layout need. Text widths do not depend on the layout."""
     renderer = fig.canvas.get_renderer()
     widest = 0.0
     for text in dict.fromkeys(texts):
-        probe = ax.text(0, 0, text, fontsize=fontsize, transform=ax.transAxes)
+        probe = ax.text(0, 0, text, fontsize=fontsize, transform=ax.transAxes, **props)
         widest = max(widest, probe.get_window_extent(renderer).width)
         probe.remove()
     return widest

@@ -29,7 +29,7 @@ from matplotlib.ticker import MaxNLocator
 
 from relspan.report.figures import geometry
 from relspan.report.figures.checks import as_float_array, as_labels, fail
-from relspan.report.figures.contract import FigureResult, fit_alt, settle
+from relspan.report.figures.contract import keep_inside, FigureResult, fit_alt, settle
 from relspan.report.figures.labels import place_point_labels
 from relspan.report.figures.style import (FAINT, INK, MIN_TEXT_PT, MUTED, PALETTE, SEQUENTIAL, new_figure,
                                           series_style, style_context)
@@ -263,6 +263,7 @@ def _set_limits(fig, ax, lims: tuple[float, float, float, float]) -> bool:
         c, wd = 0.5 * (x0 + x1), (y1 - y0) * rb
         ax.set_xlim(c - wd / 2, c + wd / 2)
     ax.set_aspect("equal", adjustable="box")
+    keep_inside(fig)  # the new limits bring new tick labels: keep them on the figure before labels are placed
     return True
 
 

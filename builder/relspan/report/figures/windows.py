@@ -360,6 +360,16 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
             ax.axvline(break_at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
         axa.set_ylabel("angle to full\nsample (°)")
         ax.margins(x=0.03)
+        if len(coefficient_label) > 30:  # a long label becomes the panel's title, wrapped, in the layout
+            import textwrap
+
+            ax.set_title("\n".join(textwrap.wrap(coefficient_label, 60)), fontsize=10, fontweight="normal")
+        # room on the right for the series names written at the line ends (placed after the layout,
+        # so the layout is told to leave their width free)
+        named = [nm for nm in names if np.isfinite(vals[nm]).any()]
+        if named:
+            room = (widest_text_px(fig, ax, named, 9.5, fontweight="bold") + 10.0 * fig.dpi / 72.0) / (fig.get_figwidth() * fig.dpi)
+            fig.get_layout_engine().set(rect=(0.0, 0.0, 1.0 - min(room, 0.4), 1.0))
         settle(fig)
         ends = []
         for nm in names:
@@ -377,8 +387,6 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
                         textcoords="offset points", ha="left", va="center", fontsize=9.5,
                         color=st.color, fontweight="bold", annotation_clip=False)
             k += 1
-        if len(coefficient_label) > 30:
-            ax.set_title(coefficient_label, fontsize=10, fontweight="normal")
 
     rows = []
     tv = time_values(x, is_dt) if times is not None else [None] * w
