@@ -342,6 +342,8 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
             ax.set_xlabel(_SHARE_KEYS[0 if share_fmt == "{:.0f}%" else 1 if share_fmt else 2])
         elif sup is not None:
             ax.set_xlabel(_SHARE_KEYS[2])
+        if fs is None and fig.legends:  # no question marks are written: the key names the hatching alone
+            fig.legends[0].get_texts()[0].set_text("hatched: corank undetermined in that window")
         for r, row in enumerate(grid):
             for c, v in enumerate(row):
                 if v is None:
@@ -392,7 +394,8 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
             if got:
                 low, where = min(got)
                 txt += (f"; the share of resamples giving the corank shown is "
-                        f"{'written under it' if share_fmt else 'in the table'}, lowest {100 * low:.0f}% ({where})")
+                        f"{'written under it' if share_fmt else 'in the table'}, lowest {100 * low:.0f}% "
+                        f"({where})")
             elif any(v is not None for v in row):
                 txt += "; no resampling support computed for these windows"
         parts.append(txt)
@@ -402,10 +405,11 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                          + (f", {len(und)} undetermined" if und else ""))
         else:
             short.append(f"{nm} undetermined")
+    gives = "gives" if fs is not None else "shows by its shade"
+    marked = " with a question mark" if fs is not None else ""
     desc = (f"A grid with one strip per noise assumption and one cell per window ({plural(w, 'window')}); "
-            f"each cell {'gives' if fs is not None else 'shows by its shade'} the corank (number of relations) "
-            f"found in that window, darker for larger coranks; hatched cells{' with a question mark' if fs is not None else ''} are "
-            f"undetermined. " + ". ".join(parts) + ".")
+            f"each cell {gives} the corank (number of relations) found in that window, darker for larger "
+            f"coranks; hatched cells{marked} are undetermined. " + ". ".join(parts) + ".")
     alt = fit_alt(f"Corank per window: {'; '.join(short)}.",
                   f"Corank in {plural(w, 'window')} under {plural(a, 'assumption')}.")
     return FigureResult(name, fig, alt, desc.strip(), table)

@@ -368,7 +368,8 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
         # so the layout is told to leave their width free)
         named = [nm for nm in names if np.isfinite(vals[nm]).any()]
         if named:
-            room = (widest_text_px(fig, ax, named, 9.5, fontweight="bold") + 10.0 * fig.dpi / 72.0) / (fig.get_figwidth() * fig.dpi)
+            room_px = widest_text_px(fig, ax, named, 9.5, fontweight="bold") + 10.0 * fig.dpi / 72.0
+            room = room_px / (fig.get_figwidth() * fig.dpi)
             fig.get_layout_engine().set(rect=(0.0, 0.0, 1.0 - min(room, 0.4), 1.0))
         settle(fig)
         ends = []
