@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import shutil
 import warnings
 from pathlib import Path
 
@@ -69,3 +70,69 @@ def test_plans_beyond_the_cap_have_no_window_maps_and_their_pages_point_to_the_s
                             if p.path == window_path(result.spec.id, plan.plan.id, 0))
                 assert "in one frame" in page.body_markdown
     assert seen_big
+
+
+# ------------------------------------------------ both formats: SVG and PNG from one drawing (issue 14)
+
+def test_a_second_format_is_saved_from_the_same_drawing_and_leaves_the_first_unchanged():
+    CALLS.clear()
+    one = rf.draw_figures([_job(0, 0.5, "alone")], "svg")[0]
+    both = rf.draw_figures([_job(0, 0.5, "alone")], "svg", also=("png", "svg"))[0]
+    assert CALLS == ["alone", "alone"]  # one drawing per call, however many formats
+    assert one[7] == () and one[:7] == both[:7]  # the shown SVG is the same bytes either way
+    assert [fmt for fmt, _ in both[7]] == ["png"]  # the shown format is not written twice
+    assert both[7][0][1].startswith(b"\x89PNG\r\n\x1a\n")
+    assert rf.draw_figures([_job(0, 0.5, "alone")], "svg", also=("png",))[0][7] == both[7]  # same bytes again
+
+
+class _Cache(dict):
+    def put(self, key, value):
+        self[key] = value
+
+
+def test_the_cache_keeps_figures_with_and_without_the_second_format_apart():
+    cache = _Cache()
+    job = FigureJob("@@0@@", _counted_figure, (0.5, "kept"), "figures", "", "job0", "dataset-key")
+    rf.draw_figures([job], "svg", cache=cache)
+    rf.draw_figures([job], "svg", also=("png",), cache=cache)
+    assert len(cache) == 2
+    CALLS.clear()
+    assert rf.draw_figures([job], "svg", also=("png",), cache=cache)[0][7][0][0] == "png"
+    assert CALLS == []  # the second build found both formats in the cache
+
+
+def _filled(also: tuple) -> tuple:
+    from relspan.report.pages.publisher import Publisher
+    from relspan.site.content import Page
+
+    pub = Publisher(fmt="svg", also=also)
+    token = pub.figure(_counted_figure, (0.5, "linked"), "figures/demo", "A caption.", ident="linked")
+    page = Page(path="p.html", title="P", body_markdown=f"Text.{token}More.", section="dataset")
+    rendered = rf.draw_figures(pub.jobs, "svg", also=also)
+    return pub, pub.fill([page], rendered)[0].body_markdown
+
+
+def test_each_figure_links_its_image_files_and_numbers_under_its_caption():
+    pub, body = _filled(("png",))
+    assert sorted(pub.files) == ["figures/demo/linked.csv", "figures/demo/linked.png", "figures/demo/linked.svg"]
+    assert ("Download: [PNG](/figures/demo/linked.png) \u00b7 [SVG](/figures/demo/linked.svg) \u00b7 "
+            "[the numbers (CSV)](/figures/demo/linked.csv)") in body
+    assert '<a class="fig-open" href="/figures/demo/linked.svg"><img src="/figures/demo/linked.svg"' in body
+    pub, body = _filled(())
+    assert "figures/demo/linked.png" not in pub.files and "[PNG]" not in body
+    assert "Download: [SVG](/figures/demo/linked.svg) \u00b7 [the numbers (CSV)]" in body
+
+
+def test_site_figure_files_defaults_to_one_and_both_adds_the_other_format(tmp_path):
+    from relspan.errors import SpecError
+    from relspan.spec import load_spec
+
+    text = (ROOT / "specs" / "demo.yaml").read_text(encoding="utf-8")
+    shutil.copytree(ROOT / "specs" / "data", tmp_path / "data")
+    (tmp_path / "a.yaml").write_text(text, encoding="utf-8")
+    assert load_spec(tmp_path / "a.yaml").site.figure_files == "one"
+    (tmp_path / "b.yaml").write_text(text.replace("\nsite:\n", "\nsite:\n  figure_files: both\n", 1), encoding="utf-8")
+    assert load_spec(tmp_path / "b.yaml").site.figure_files == "both"
+    (tmp_path / "c.yaml").write_text(text.replace("\nsite:\n", "\nsite:\n  figure_files: all\n", 1), encoding="utf-8")
+    with pytest.raises(SpecError, match=r"site\.figure_files"):
+        load_spec(tmp_path / "c.yaml")

@@ -19,6 +19,7 @@ from relspan.report import pages as P
 from relspan.report.pages.reference import CAUTION_TITLE
 from relspan.report.text import glossary_terms
 from relspan.site.content import NavItem, Page, SiteContent
+from relspan.spec.schema import FIGURE_FORMATS
 
 __all__ = ["site_draft", "SiteDraft", "results_document", "dataset_document", "RESULTS_SCHEMA_VERSION",
            "RESULTS_SCHEMA_PATH"]
@@ -156,6 +157,8 @@ class SiteDraft:
     figure_jobs: tuple
     figure_format: str
     _publisher: P.Publisher
+    #: further formats written beside each figure for download (``site.figure_files: both``)
+    figure_also: tuple = ()
 
     def finish(self, rendered) -> SiteContent:
         """The content with every figure in place (``rendered[i]`` for ``figure_jobs[i]``)."""
@@ -166,7 +169,8 @@ class SiteDraft:
 def site_draft(run) -> SiteDraft:
     """Lay out the site of a whole run: pages, downloads, navigation and figure jobs."""
     spec = run.spec
-    pub = P.Publisher(fmt=spec.site.figures)
+    also = tuple(f for f in FIGURE_FORMATS if f != spec.site.figures) if spec.site.figure_files == "both" else ()
+    pub = P.Publisher(fmt=spec.site.figures, also=also)
     archive = f"{spec.path.stem}-site.zip"
     pages: list[Page] = [P.home_page(run, pub, archive), P.datasets_page(run)]
     for result in run.datasets:
@@ -199,6 +203,6 @@ def site_draft(run) -> SiteDraft:
     content = SiteContent(title=spec.report.title, language=spec.site.language, pages=tuple(pages),
                           files=(), nav=nav, footer=footer, glossary="glossary.html", terms=glossary_terms(),
                           archive=archive)
-    return SiteDraft(content, tuple(pub.jobs), pub.fmt, pub)
+    return SiteDraft(content, tuple(pub.jobs), pub.fmt, pub, pub.also)
 
 

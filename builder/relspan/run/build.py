@@ -361,8 +361,8 @@ def _content_with_figures(run, executor, cache, progress: bool | None):
         executor.expect(FIGURE_S * len(draft.figure_jobs), "figures")
     # the total is set once the uncached figures are known
     with Progress("figures", 0, enabled=progress) as bar:
-        rendered = draw_figures(draft.figure_jobs, draft.figure_format, executor=executor, cache=cache,
-                                progress=bar)
+        rendered = draw_figures(draft.figure_jobs, draft.figure_format, also=draft.figure_also,
+                                executor=executor, cache=cache, progress=bar)
     return draft.finish(rendered)
 
 

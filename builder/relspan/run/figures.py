@@ -19,22 +19,32 @@ __all__ = ["render_job", "draw_figures"]
 def render_job(item: tuple) -> tuple | None:
     """Draw and render one figure job; top-level so process pools and Dask can run it.
 
-    Returns ``(name, alt, description, image_bytes, csv_bytes, width_px, height_px)`` or None
-    when the figure does not apply to these results.
+    ``item`` is ``(fn, args, fmt)`` or ``(fn, args, fmt, also)``: ``also`` names further formats written
+    from the same drawing (the figure is built and laid out once; each format costs one save).
+    Returns ``(name, alt, description, image_bytes, csv_bytes, width_px, height_px, extra)`` with
+    ``extra`` a tuple of ``(format, bytes)`` for ``also``, or None when the figure does not apply to
+    these results. ``width_px`` and ``height_px`` are the size the site shows the figure at
+    (``style.SHOWN_PX_PER_IN``).
     """
     from relspan.report.figures.render import render_figure, table_csv
+    from relspan.report.figures.style import SHOWN_PX_PER_IN
 
-    fn, args, fmt_ = item
+    fn, args, fmt_, *rest = item
+    also = tuple(rest[0]) if rest else ()
     fig = fn(*args)
     if fig is None:
         return None
-    size = fig.figure.get_size_inches() * 96
+    size = fig.figure.get_size_inches() * SHOWN_PX_PER_IN
     return (fig.name, fig.alt, fig.description, render_figure(fig, fmt_), table_csv(fig),
-            int(round(size[0])), int(round(size[1])))
+            int(round(size[0])), int(round(size[1])), tuple((f, render_figure(fig, f)) for f in also))
 
 
-def draw_figures(jobs: Sequence, fmt: str, *, executor=None, cache=None, progress=None) -> list:
+def draw_figures(jobs: Sequence, fmt: str, *, also: Sequence[str] = (), executor=None, cache=None,
+                 progress=None) -> list:
     """Draw every job not found in ``cache``; returns one rendered tuple (or None) per job.
+
+    ``fmt`` is the format the pages show; ``also`` the further formats written beside it for
+    download (``site.figure_files: both``), from the same drawing.
 
     A job belongs to a dataset (``job.dataset_key``, the content key of its
     analysis); its figure is cached under that key, its identity and the
@@ -44,7 +54,9 @@ def draw_figures(jobs: Sequence, fmt: str, *, executor=None, cache=None, progres
     """
     from relspan.run.pipeline import code_version
 
-    keys = [task_key(task="figure", dataset=job.dataset_key, ident=job.ident, fmt=fmt, version=code_version())
+    also = tuple(f for f in also if f != fmt)
+    keys = [task_key(task="figure", dataset=job.dataset_key, ident=job.ident, fmt=fmt, also=also,
+                     version=code_version())
             if cache is not None and job.dataset_key else None for job in jobs]
     missing = object()
     done: dict[int, object] = {}
@@ -69,7 +81,7 @@ def draw_figures(jobs: Sequence, fmt: str, *, executor=None, cache=None, progres
         if progress is not None and hasattr(progress, "total"):
             progress.total = len(draw)
         drawn = map_in_chunks(ex or SerialExecutor(), render_job,
-                              [(jobs[i].fn, jobs[i].args, fmt) for i in draw], progress=progress)
+                              [(jobs[i].fn, jobs[i].args, fmt, also) for i in draw], progress=progress)
         for i, rendered in zip(draw, drawn):
             done[i] = rendered
     for i, j in same_as.items():

@@ -114,7 +114,7 @@ def details(summary: str, body_markdown: str) -> str:
 
 def figure(src: str, alt: str, caption_markdown: str = "", *,
            long_description_markdown: str = "", width: int | None = None,
-           height: int | None = None, css_class: str = "") -> str:
+           height: int | None = None, css_class: str = "", link_image: bool = False) -> str:
     """A figure with caption and an optional long description in ``<details>``.
 
     Parameters
@@ -132,6 +132,9 @@ def figure(src: str, alt: str, caption_markdown: str = "", *,
         Intrinsic size in CSS pixels (avoids layout shift).
     css_class : str
         Extra class for the ``<img>``.
+    link_image : bool
+        Wrap the image in a link to its own file, so a reader can open it alone at full size
+        (and a keyboard reaches the frame it scrolls in on narrow screens, site.css).
     """
     if not src.startswith("/") or src.startswith("//"):
         raise ValueError(f"figure src must be site-root-absolute like '/figures/a.svg'; "
@@ -142,8 +145,10 @@ def figure(src: str, alt: str, caption_markdown: str = "", *,
     if height is not None:
         size += f' height="{int(height)}"'
     cls = f' class="{_attr(css_class)}"' if css_class else ""
-    parts = [f'<figure class="fig" markdown="1">',
-             f'<img src="{_attr(src)}" alt="{_attr(alt)}"{size}{cls}>']
+    image = f'<img src="{_attr(src)}" alt="{_attr(alt)}"{size}{cls}>'
+    if link_image:
+        image = f'<a class="fig-open" href="{_attr(src)}">{image}</a>'
+    parts = [f'<figure class="fig" markdown="1">', image]
     if caption_markdown.strip():
         parts.append(f'<figcaption markdown="1">\n\n{inline(caption_markdown).strip()}\n\n</figcaption>')
     if long_description_markdown.strip():

@@ -268,6 +268,8 @@ class SiteSpec:
     figures: str = "svg"
     notes: str = ""
     language: str = "en"
+    #: "one": each figure in the format the pages show; "both": SVG and PNG, both linked for download
+    figure_files: str = "one"
 
 
 @dataclass(frozen=True, slots=True)

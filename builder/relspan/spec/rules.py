@@ -187,7 +187,8 @@ class _Builder:
                 line=line, key="site.out",
                 fix="write the site to a folder of its own, e.g. `out: relspan-site`.")
         return SiteSpec(out=out, out_path=out_path, figures=s.get("figures", "svg"),
-                        notes=s.get("notes", ""), language=s.get("language", "en"))
+                        notes=s.get("notes", ""), language=s.get("language", "en"),
+                        figure_files=s.get("figure_files", "one"))
 
     # -- windows -------------------------------------------------------------------------
 

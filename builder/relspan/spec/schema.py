@@ -46,6 +46,7 @@ __all__ = [
     "TIME_FORMATS",
     "MISSING_POLICIES",
     "FIGURE_FORMATS",
+    "FIGURE_FILE_CHOICES",
     "SIGNS",
 ]
 
@@ -68,6 +69,8 @@ WINDOW_KINDS = ("full", "rolling", "expanding", "periods")
 TIME_FORMATS = ("auto", "year", "quarter", "month")
 MISSING_POLICIES = ("drop", "fail")
 FIGURE_FORMATS = ("svg", "png")
+#: ``site.figure_files``: the shown format only, or SVG and PNG
+FIGURE_FILE_CHOICES = ("one", "both")
 SIGNS = ("positive", "negative")
 
 _DRAFT = "https://json-schema.org/draft/2020-12/schema"
@@ -555,6 +558,13 @@ def _build_schema() -> dict[str, Any]:
                          ["relspan-site"], default="relspan-site", minLength=1),
             "figures": _p({"type": "string", "enum": list(FIGURE_FORMATS)}, "Figure format",
                           "Image format of the figures.", ["svg"], default="svg"),
+            "figure_files": _p({"type": "string", "enum": list(FIGURE_FILE_CHOICES)}, "Figure files",
+                               "Which image files each figure is offered as, linked under it beside its "
+                               "numbers (CSV): `one`, only the format of `figures`; `both`, SVG and PNG "
+                               "(the PNG 760 px wide, for slides and documents). The second format is "
+                               "saved from the same drawing, so it adds the time of one more save per "
+                               "figure (on the demo the figure stage took about 1.4 times as long, "
+                               "and the site grew by 2.8 MB); hence off by default.", ["both"], default="one"),
             "notes": _text("Notes", "A note for readers shown on the home page.",
                            ["Figures for 2024 are provisional."], default=""),
             "language": _p({"type": "string", "pattern": "^[a-z]{2,3}(-[A-Za-z0-9]{1,8})*$"},

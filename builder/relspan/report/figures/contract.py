@@ -17,7 +17,7 @@ from relspan.errors import OptionsError
 from relspan.report.figures.snap import round_sig, snap_figure
 from relspan.report.figures.style import style_context
 
-__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout"]
+__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout", "keep_inside"]
 
 #: longest alt text we accept (characters)
 ALT_MAX = 150
@@ -134,3 +134,43 @@ def fit_alt(*candidates: str) -> str:
     last = candidates[-1]
     cut = last[: ALT_MAX - 1].rsplit(" ", 1)[0]
     return cut + "…"
+
+
+def keep_inside(fig: Figure, *, passes: int = 3, margin_px: float = 2.0) -> None:
+    """Pull every axes in so that no text sticks out of the figure, where no reader would see it.
+
+    Limits, ticks and labels set after the layout pass (equal-aspect maps, labels placed beside
+    points) can push a tick label or an axis label past the figure's edge. Each pass measures the
+    texts that overflow and maps the axes boxes from the overflowing extent back onto the figure
+    (text sizes never change); a fixed count of passes keeps the result independent of timing.
+    """
+    from matplotlib.text import Text
+
+    renderer = fig.canvas.get_renderer()
+    w, h = fig.bbox.width, fig.bbox.height
+    for _ in range(passes):
+        boxes = []
+        for ax in fig.axes:
+            if not ax.get_visible():
+                continue
+            boxes.append(ax.get_tightbbox(renderer))
+            boxes.extend(t.get_window_extent(renderer) for t in ax.texts
+                         if t.get_visible() and t.get_text().strip())
+        boxes.extend(t.get_window_extent(renderer) for t in fig.findobj(Text, include_self=False)
+                     if t.figure is fig and t.axes is None and t.get_visible() and t.get_text().strip())
+        boxes = [b for b in boxes if b is not None and b.width > 0 and b.height > 0]
+        if not boxes:
+            return
+        x0 = min(b.x0 for b in boxes) - margin_px
+        y0 = min(b.y0 for b in boxes) - margin_px
+        x1 = max(b.x1 for b in boxes) + margin_px
+        y1 = max(b.y1 for b in boxes) + margin_px
+        lo_x, hi_x, lo_y, hi_y = min(x0, 0.0), max(x1, w), min(y0, 0.0), max(y1, h)
+        if lo_x >= 0 and hi_x <= w and lo_y >= 0 and hi_y <= h:
+            return
+        sx, sy = w / (hi_x - lo_x), h / (hi_y - lo_y)
+        for ax in fig.axes:
+            b = ax.get_position(original=True)
+            ax.set_position([(b.x0 * w - lo_x) * sx / w, (b.y0 * h - lo_y) * sy / h,
+                             b.width * sx, b.height * sy], which="both")
+            ax.apply_aspect()

@@ -27,12 +27,19 @@ from matplotlib.patches import Rectangle
 
 from relspan.report.figures.checks import as_float_array, as_labels, check_mapping, fail
 from relspan.report.figures.contract import FigureResult, fit_alt, settle
-from relspan.report.figures.labels import spread_1d
-from relspan.report.figures.style import (INK, MUTED, PALETTE, SEQUENTIAL, new_figure, style_context,
-                                          text_color_on)
+from relspan.report.figures.labels import spread_1d, widest_text_px
+from relspan.report.figures.style import (INK, MIN_TEXT_PT, MUTED, PALETTE, SEQUENTIAL, new_figure,
+                                          style_context, text_color_on)
 from relspan.words import join_words, num, num_fig, plural
 
 __all__ = ["corank_evidence", "corank_timeline"]
+
+#: the key under a corank grid with resampling shares: the shares written with "%", written as bare
+#: percentages (narrow cells), or not written (cells too narrow for readable text); the longest first,
+#: each on one line (the layout is made for the first)
+_SHARE_KEYS = ("Small number: the share of resamples giving that count.",
+               "Small number: the % of resamples giving that count.",
+               "The share of resamples giving each count: in the table.")
 
 _EPS_STYLES = ((PALETTE[1], (0, (5, 2))), (PALETTE[3], (0, (1.5, 1.5))), (PALETTE[2], (0, (8, 2, 2, 2))),
                (PALETTE[4], "-"))
@@ -293,9 +300,8 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
     a = len(names)
 
     with style_context():
-        cell_in = min(0.5, 4.9 / w)
         fig = new_figure(0.95 + 0.42 * a + (0.45 if max(len(s) for s in wl) > 4 and w > 6 else 0.0)
-                         + (0.3 if title else 0.0))
+                         + (0.3 if title else 0.0) + (0.25 if sup is not None else 0.0))
         ax = fig.add_subplot(1, 1, 1)
         if title:
             ax.set_title(title)
@@ -304,24 +310,6 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
         ax.grid(False)
         for sp in ax.spines.values():
             sp.set_visible(False)
-        fs = max(6.0, min(10.0, cell_in * 72 * 0.55))
-        for r, row in enumerate(grid):
-            for c, v in enumerate(row):
-                if v is None:
-                    ax.add_patch(Rectangle((c - 0.5, r - 0.4), 1, 0.8, facecolor="white", edgecolor=MUTED,
-                                           hatch="xxx", linewidth=0.8))
-                    ax.text(c, r, "?", ha="center", va="center", fontsize=fs, color=INK, fontweight="bold",
-                            bbox=dict(boxstyle="circle,pad=0.12", facecolor="white", edgecolor="none"))
-                else:
-                    fill = SEQUENTIAL(0.12 + 0.88 * min(v, top) / top)
-                    ax.add_patch(Rectangle((c - 0.5, r - 0.4), 1, 0.8, facecolor=fill, edgecolor="white",
-                                           linewidth=1.0))
-                    share = sup[r][c] if sup is not None else None
-                    ax.text(c, r - (0.12 if share is not None else 0.0), str(v), ha="center", va="center",
-                            fontsize=fs, color=text_color_on(fill))
-                    if share is not None:
-                        ax.text(c, r + 0.2, f"{100 * share:.0f}%", ha="center", va="center",
-                                fontsize=max(5.0, fs * 0.62), color=text_color_on(fill))
         ax.set_yticks(range(a), names)
         step = max(1, int(np.ceil(w / 14)))
         ax.set_xticks(range(0, w, step), [wl[i] for i in range(0, w, step)])
@@ -331,11 +319,51 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                 t.set_ha("right")
                 t.set_rotation_mode("anchor")
         ax.tick_params(length=0)
+        if sup is not None:  # the key to the shares; its final wording is chosen once the cells are measured
+            ax.set_xlabel(_SHARE_KEYS[0], fontsize=MIN_TEXT_PT, color=MUTED, loc="left")
         if any(v is None for row in grid for v in row):
             from matplotlib.patches import Patch
             fig.legend(handles=[Patch(facecolor="white", edgecolor=MUTED, hatch="xxx", linewidth=0.8)],
                        labels=["? corank undetermined in that window"], loc="outside upper right",
                        fontsize=8.5, handlelength=1.6, handleheight=1.1)
+        settle(fig)
+        # numbers are written in the cells only at a readable size (MIN_TEXT_PT or more) and only where
+        # they fit a cell's width; else the cell's fill and the figure's table carry them
+        cell_px = abs(float(np.diff(ax.transData.transform([[0, 0], [1, 0]])[:, 0])[0])) - 3.0
+        digits = [str(v) for row in grid for v in row if v is not None] + ["?"]
+        fs = next((f for f in (10.0, 9.0, MIN_TEXT_PT) if widest_text_px(fig, ax, digits, f) <= cell_px), None)
+        share_fmt = None
+        if sup is not None and fs is not None:
+            shares = [100 * v for row in sup for v in row if v is not None]
+            for f in ("{:.0f}%", "{:.0f}"):
+                if widest_text_px(fig, ax, [f.format(v) for v in shares], MIN_TEXT_PT) <= cell_px:
+                    share_fmt = f
+                    break
+            ax.set_xlabel(_SHARE_KEYS[0 if share_fmt == "{:.0f}%" else 1 if share_fmt else 2])
+        elif sup is not None:
+            ax.set_xlabel(_SHARE_KEYS[2])
+        if fs is None and fig.legends:  # no question marks are written: the key names the hatching alone
+            fig.legends[0].get_texts()[0].set_text("hatched: corank undetermined in that window")
+        for r, row in enumerate(grid):
+            for c, v in enumerate(row):
+                if v is None:
+                    ax.add_patch(Rectangle((c - 0.5, r - 0.4), 1, 0.8, facecolor="white", edgecolor=MUTED,
+                                           hatch="xxx", linewidth=0.8))
+                    if fs is not None:
+                        ax.text(c, r, "?", ha="center", va="center", fontsize=fs, color=INK, fontweight="bold",
+                                bbox=dict(boxstyle="circle,pad=0.12", facecolor="white", edgecolor="none"))
+                else:
+                    fill = SEQUENTIAL(0.12 + 0.88 * min(v, top) / top)
+                    ax.add_patch(Rectangle((c - 0.5, r - 0.4), 1, 0.8, facecolor=fill, edgecolor="white",
+                                           linewidth=1.0))
+                    if fs is None:
+                        continue
+                    share = sup[r][c] if sup is not None and share_fmt is not None else None
+                    ax.text(c, r - (0.15 if share is not None else 0.0), str(v), ha="center", va="center",
+                            fontsize=fs, color=text_color_on(fill))
+                    if share is not None:
+                        ax.text(c, r + 0.2, share_fmt.format(100 * share), ha="center", va="center",
+                                fontsize=MIN_TEXT_PT, color=text_color_on(fill))
 
     rows = [{"assumption": nm, "window": wl[c], "corank": v,
              "status": "undetermined" if v is None else "determined"}
@@ -365,8 +393,9 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
             got = [(sup[r_i][c], wl[c]) for c in range(w) if sup[r_i][c] is not None and row[c] is not None]
             if got:
                 low, where = min(got)
-                txt += (f"; the share of resamples giving the corank shown is written under it, lowest "
-                        f"{100 * low:.0f}% ({where})")
+                txt += (f"; the share of resamples giving the corank shown is "
+                        f"{'written under it' if share_fmt else 'in the table'}, lowest {100 * low:.0f}% "
+                        f"({where})")
             elif any(v is not None for v in row):
                 txt += "; no resampling support computed for these windows"
         parts.append(txt)
@@ -376,9 +405,11 @@ def corank_timeline(window_labels: Sequence[str], coranks: Mapping[str, Sequence
                          + (f", {len(und)} undetermined" if und else ""))
         else:
             short.append(f"{nm} undetermined")
+    gives = "gives" if fs is not None else "shows by its shade"
+    marked = " with a question mark" if fs is not None else ""
     desc = (f"A grid with one strip per noise assumption and one cell per window ({plural(w, 'window')}); "
-            f"each cell gives the corank (number of relations) found in that window, darker for larger "
-            f"coranks; hatched cells with a question mark are undetermined. " + ". ".join(parts) + ".")
+            f"each cell {gives} the corank (number of relations) found in that window, darker for larger "
+            f"coranks; hatched cells{marked} are undetermined. " + ". ".join(parts) + ".")
     alt = fit_alt(f"Corank per window: {'; '.join(short)}.",
                   f"Corank in {plural(w, 'window')} under {plural(a, 'assumption')}.")
     return FigureResult(name, fig, alt, desc.strip(), table)

@@ -9,7 +9,7 @@ from matplotlib.figure import Figure
 
 from relspan.report.figures.style import INK, MUTED
 
-__all__ = ["spread_1d", "place_point_labels"]
+__all__ = ["spread_1d", "place_point_labels", "widest_text_px"]
 
 
 def spread_1d(values: Sequence[float], min_gap: float, lo: float, hi: float) -> np.ndarray:
@@ -106,3 +106,16 @@ def place_point_labels(fig: Figure, ax, xy: np.ndarray, texts: Sequence[str], *,
         t.set_in_layout(False)
         artists.append(t)
     return artists
+
+
+def widest_text_px(fig: Figure, ax, texts: Sequence[str], fontsize: float, **props) -> float:
+    """Width in display pixels of the widest of ``texts`` at ``fontsize`` (0 for none; ``props`` such
+    as ``fontweight`` as for ``Axes.text``): whether numbers fit their cells at a readable size, how
+    much room labels placed after the layout need. Text widths do not depend on the layout."""
+    renderer = fig.canvas.get_renderer()
+    widest = 0.0
+    for text in dict.fromkeys(texts):
+        probe = ax.text(0, 0, text, fontsize=fontsize, transform=ax.transAxes, **props)
+        widest = max(widest, probe.get_window_extent(renderer).width)
+        probe.remove()
+    return widest

@@ -29,10 +29,10 @@ from matplotlib.ticker import MaxNLocator
 
 from relspan.report.figures import geometry
 from relspan.report.figures.checks import as_float_array, as_labels, fail
-from relspan.report.figures.contract import FigureResult, fit_alt, settle
+from relspan.report.figures.contract import keep_inside, FigureResult, fit_alt, settle
 from relspan.report.figures.labels import place_point_labels
-from relspan.report.figures.style import (FAINT, INK, MUTED, PALETTE, SEQUENTIAL, new_figure, series_style,
-                                          style_context)
+from relspan.report.figures.style import (FAINT, INK, MIN_TEXT_PT, MUTED, PALETTE, SEQUENTIAL, new_figure,
+                                          series_style, style_context)
 from relspan.words import angle_text, fmt, num, num_fig, num_range, plural
 
 __all__ = ["ElementaryMapData", "elementary_map", "window_gallery", "drawn_angles_deg"]
@@ -263,6 +263,7 @@ def _set_limits(fig, ax, lims: tuple[float, float, float, float]) -> bool:
         c, wd = 0.5 * (x0 + x1), (y1 - y0) * rb
         ax.set_xlim(c - wd / 2, c + wd / 2)
     ax.set_aspect("equal", adjustable="box")
+    keep_inside(fig)  # the new limits bring new tick labels: keep them on the figure before labels are placed
     return True
 
 
@@ -641,8 +642,8 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
             _draw_points(ax, m, frame, size=6 if ncols <= 3 else 5)
             ax.set_title(wl[shown[k]], fontsize=9, fontweight="normal", loc="left", pad=3)
             ax.annotate(f"RMS {num_fig(m.rms)}", xy=(1, 0), xycoords="axes fraction", xytext=(-3, 3),
-                        textcoords="offset points", ha="right", va="bottom", fontsize=8, color=MUTED)
-            ax.tick_params(labelsize=8, labelbottom=k + ncols >= ws, labelleft=k % ncols == 0)
+                        textcoords="offset points", ha="right", va="bottom", fontsize=MIN_TEXT_PT, color=MUTED)
+            ax.tick_params(labelsize=MIN_TEXT_PT, labelbottom=k + ncols >= ws, labelleft=k % ncols == 0)
         if frame.axes is None:
             xl, yl = _axis_labels(m0, frame)
         elif m0.q == 1:

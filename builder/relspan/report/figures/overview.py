@@ -123,7 +123,7 @@ def data_overview(times, series: Mapping[str, Sequence[float]],
     units = dict(units or {})
     lane_of = [_lanes(list(zip(st, en))) for _, st, en, _ in plans]
     n_lanes = [max(l) + 1 for l in lane_of]
-    strip_units = sum(n_lanes) + 1.4 * len(plans)
+    strip_units = sum(n_lanes) + 1.5 * len(plans)
     strip_h = 0.0 if not plans else min(0.35 + 0.16 * strip_units, 3.2)
     k = len(labels)
     panel_h = 1.05 if k <= 4 else 0.85
@@ -239,10 +239,10 @@ def _draw_window_strip(fig, axw, plans, lane_of, n_lanes) -> None:
     for (plan, st, en, wl), lanes, nl in zip(plans, lane_of, n_lanes):
         top = y_top
         # the plan's name on a line of its own above its bars, so long names never narrow the axes
-        name_txt = axw.text(0.0, top - 0.45, plan, transform=label_at, va="center", ha="left",
+        name_txt = axw.text(0.0, top - 0.4, plan, transform=label_at, va="center", ha="left",
                             fontsize=8.5, color=MUTED)
         name_txt.set_in_layout(False)
-        top -= 0.8
+        top -= 0.9  # the name's line and a gap: the window labels inside the bars below never touch it
         for i in range(len(wl)):
             y = top - 0.3 - lanes[i]
             width = max(en[i] - st[i], 0.0)

@@ -25,13 +25,22 @@ from matplotlib.figure import Figure
 
 from relspan.assumptions import ASSUMPTIONS
 
-__all__ = ["PALETTE", "INK", "MUTED", "FAINT", "SEQUENTIAL", "FIG_WIDTH_IN", "DPI", "style_context", "new_figure",
+__all__ = ["PALETTE", "INK", "MUTED", "FAINT", "SEQUENTIAL", "FIG_WIDTH_IN", "DPI", "SHOWN_PX_PER_IN",
+           "MIN_TEXT_PT", "style_context", "new_figure",
            "SeriesStyle", "series_style", "styles_for", "text_color_on"]
 
 #: figure width in inches; with DPI this makes a 760 px wide PNG (the content column)
 FIG_WIDTH_IN = 6.4
 #: dots per inch for PNG output: 6.4 in x 118.75 = 760 px
 DPI = 118.75
+#: CSS px per inch at which the site shows a figure (its <img> width and height; CSS's 96 px to the
+#: inch): 6.4 in are 614 px, and a figure is never shown smaller than that except as a home-page
+#: thumbnail (narrow screens keep this width inside a frame that scrolls sideways, site.css)
+SHOWN_PX_PER_IN = 96
+#: the smallest text a figure may carry, in points: 8.5 pt at SHOWN_PX_PER_IN is 8.5 x 96 / 72 = 11.3 CSS px,
+#: above the 11 px floor of issue 14 (tests/site/test_browser.py measures it in the browser at 1280 and
+#: 360 px; tests/report/test_figure_fit.py in matplotlib)
+MIN_TEXT_PT = 8.5
 #: categorical inks, darkest first (L* 18.8, 28.0, 38.3, 49.7, 58.5; measured in the tests)
 PALETTE = ("#1b2a5e", "#7a1f3d", "#00665b", "#c2560a", "#5d8fd0")
 #: text and axis ink

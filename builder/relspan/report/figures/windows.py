@@ -22,9 +22,9 @@ import pandas as pd
 from relspan.report.figures.checks import (as_float_array, as_labels, as_times, check_mapping, fail,
                                            time_values)
 from relspan.report.figures.contract import FigureResult, fit_alt, settle
-from relspan.report.figures.labels import spread_1d
-from relspan.report.figures.style import (INK, MUTED, PALETTE, SEQUENTIAL, new_figure, style_context,
-                                          styles_for, text_color_on)
+from relspan.report.figures.labels import spread_1d, widest_text_px
+from relspan.report.figures.style import (INK, MIN_TEXT_PT, MUTED, PALETTE, SEQUENTIAL, new_figure,
+                                          style_context, styles_for, text_color_on)
 from relspan.words import angle_text, join_words, num, num_fig, num_range, plural
 
 __all__ = ["subspace_stability", "coefficient_swing"]
@@ -69,7 +69,7 @@ def _break_marker(ax, at, label: str | None) -> None:
         return
     ax.axvline(at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
     ax.annotate(label or "break", xy=(at, 1), xycoords=("data", "axes fraction"), xytext=(3, -3),
-                textcoords="offset points", rotation=90, ha="left", va="top", fontsize=8, color=INK)
+                textcoords="offset points", rotation=90, ha="left", va="top", fontsize=MIN_TEXT_PT, color=INK)
 
 
 def _angle_panel(ax, x, angles, threshold, is_dt) -> None:
@@ -94,7 +94,8 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
     Left: a heatmap of the angle between every pair of windows (a sequential
     colormap whose lightness falls with the angle, scaled from 0 to the larger
     of the threshold and the largest angle; values written in the cells when
-    there are at most 12 windows; cells above the threshold outlined). Right:
+    every one fits its cell at the smallest readable size, ``style.MIN_TEXT_PT``;
+    cells above the threshold outlined). Right:
     the angle of each window's subspace to the full-sample subspace over time,
     with the threshold as a labelled line (windows above it drawn as
     triangles).
@@ -180,12 +181,6 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
                 if a[i, j] > thr:
                     axh.add_patch(Rectangle((j - 0.5, i - 0.5), 1, 1, fill=False, edgecolor=PALETTE[3],
                                             linewidth=1.6))
-        if w <= 12:
-            fs = 8.5 if w <= 6 else 6.5
-            for i in range(w):
-                for j in range(w):
-                    col = text_color_on(SEQUENTIAL(a[i, j] / vmax))
-                    axh.text(j, i, angle_text(a[i, j]), ha="center", va="center", fontsize=fs, color=col)
         cb = fig.colorbar(im, ax=axh, orientation="horizontal", location="bottom", shrink=0.9,
                           aspect=25, pad=0.02)
         cb.set_label("degrees", fontsize=9)
@@ -198,6 +193,17 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
         _break_marker(axl, break_at, break_label)
         axl.set_title("angle to the full sample", fontsize=10, fontweight="normal")
         axl.set_ylabel("degrees")
+        # the angles are written in the cells only at a readable size (MIN_TEXT_PT) and only if every one fits
+        # its cell's width; else the shade, the colour bar and the figure's table carry them
+        settle(fig)
+        cell_px = abs(float(np.diff(axh.transData.transform([[0, 0], [1, 0]])[:, 0])[0])) - 3.0
+        cell_text = [[angle_text(a[i, j]) for j in range(w)] for i in range(w)]
+        written = widest_text_px(fig, axh, [t for row in cell_text for t in row], MIN_TEXT_PT) <= cell_px
+        if written:
+            for i in range(w):
+                for j in range(w):
+                    col = text_color_on(SEQUENTIAL(a[i, j] / vmax))
+                    axh.text(j, i, cell_text[i][j], ha="center", va="center", fontsize=MIN_TEXT_PT, color=col)
 
     iu = np.triu_indices(w, 1)
     rows = []
@@ -218,7 +224,7 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
             f"(threshold {num(thr)})")
     desc = (f"Left: heatmap of the angle between the relation subspaces of every pair of the "
             f"{plural(w, 'window')} (darker = larger, 0 to {angle_text(vmax)} degrees"
-            + ("; values written in the cells" if w <= 12 else "")
+            + ("; values written in the cells" if written else "")
             + "). Right: the angle between each window's subspace and the full-sample subspace. ")
     if w >= 2:
         k = int(np.argmax(a[iu]))
@@ -339,7 +345,7 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
         for xm in sorted(locations):
             ax.axvline(xm, color=MUTED, linewidth=0.8, linestyle=(0, (1, 2)), zorder=1)
             ax.annotate("sign flip", xy=(xm, 1), xycoords=("data", "axes fraction"), xytext=(-2, -3),
-                        textcoords="offset points", rotation=90, ha="right", va="top", fontsize=8,
+                        textcoords="offset points", rotation=90, ha="right", va="top", fontsize=MIN_TEXT_PT,
                         color=INK)
         finite = np.concatenate([v[np.isfinite(v)] for v in vals.values()] + [np.zeros(1)])
         lo, hi = float(finite.min()), float(finite.max())
@@ -354,6 +360,17 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
             ax.axvline(break_at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
         axa.set_ylabel("angle to full\nsample (°)")
         ax.margins(x=0.03)
+        if len(coefficient_label) > 30:  # a long label becomes the panel's title, wrapped, in the layout
+            import textwrap
+
+            ax.set_title("\n".join(textwrap.wrap(coefficient_label, 60)), fontsize=10, fontweight="normal")
+        # room on the right for the series names written at the line ends (placed after the layout,
+        # so the layout is told to leave their width free)
+        named = [nm for nm in names if np.isfinite(vals[nm]).any()]
+        if named:
+            room_px = widest_text_px(fig, ax, named, 9.5, fontweight="bold") + 10.0 * fig.dpi / 72.0
+            room = room_px / (fig.get_figwidth() * fig.dpi)
+            fig.get_layout_engine().set(rect=(0.0, 0.0, 1.0 - min(room, 0.4), 1.0))
         settle(fig)
         ends = []
         for nm in names:
@@ -371,8 +388,6 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
                         textcoords="offset points", ha="left", va="center", fontsize=9.5,
                         color=st.color, fontweight="bold", annotation_clip=False)
             k += 1
-        if len(coefficient_label) > 30:
-            ax.set_title(coefficient_label, fontsize=10, fontweight="normal")
 
     rows = []
     tv = time_values(x, is_dt) if times is not None else [None] * w

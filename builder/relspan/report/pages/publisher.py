@@ -9,9 +9,12 @@ from typing import Sequence
 from relspan.report.pages.addresses import dataset_path
 from relspan.site import blocks
 from relspan.site.content import SiteFile
-from relspan.site.markdown import Raw, md
+from relspan.site.markdown import Raw, joined, md
 
 __all__ = ["FigureJob", "Publisher"]
+
+#: how a figure file's format is named in its download link
+_FORMAT_NAMES = {"svg": "SVG", "png": "PNG"}
 
 
 @dataclass(frozen=True, slots=True)
@@ -38,6 +41,8 @@ class Publisher:
     """
 
     fmt: str = "svg"
+    #: further formats the driver writes beside each figure (``site.figure_files: both``)
+    also: tuple = ()
     files: dict = field(default_factory=dict)
     jobs: list = field(default_factory=list)
     thumbs: list = field(default_factory=list)
@@ -80,7 +85,7 @@ class Publisher:
             hit = drawn.get((folder, ident))
             if hit is None:
                 continue
-            job, (name, alt, _description, _image, _csv, width, height) = hit
+            job, (name, alt, _description, _image, _csv, width, height, *_more) = hit
             # the long description and the numbers stay beside the full-size figure on the dataset page
             cap = md("{} [Full size]({}).", caption, Raw(page + ("#data" if ident == "overview" else "#stability")))
             return blocks.figure(f"/{job.folder}/{name}.{self.fmt}", alt, cap, width=width, height=height,
@@ -90,12 +95,20 @@ class Publisher:
     def _markdown(self, job: FigureJob, rendered) -> str:
         if rendered is None:
             return ""
-        name, alt, description, image, csv_bytes, width, height = rendered
+        name, alt, description, image, csv_bytes, width, height, *more = rendered
         img = self.add(f"{job.folder}/{name}.{self.fmt}", image)
         csv = self.add(f"{job.folder}/{name}.csv", csv_bytes)
+        files = {self.fmt: img}
+        for fmt, data in (more[0] if more else ()):
+            files[fmt] = self.add(f"{job.folder}/{name}.{fmt}", data)
         long = md("{}\n\nThe numbers behind this figure: [{}.csv]({}).", description, name, Raw(csv))
-        return blocks.figure(img, alt, job.caption_markdown, long_description_markdown=long,
-                             width=width, height=height)
+        links = [md("[{}]({})", _FORMAT_NAMES[f], Raw(files[f])) for f in sorted(files)]
+        links.append(md("[the numbers (CSV)]({})", Raw(csv)))
+        downloads = md("Download: {}", joined(links, " \u00b7 "))
+        caption = (joined([job.caption_markdown, Raw("\n\n"), downloads]) if str(job.caption_markdown).strip()
+                   else downloads)
+        return blocks.figure(img, alt, caption, long_description_markdown=long,
+                             width=width, height=height, link_image=True)
 
     def fill(self, pages: list, rendered: Sequence) -> list:
         """``pages`` with each figure token replaced by its finished Markdown.

@@ -33,7 +33,8 @@ def _outputs(run, pub: Publisher) -> list[tuple[str, str, str]]:
         if any(p.startswith(f"data/{ds.id}/tables/") and p.count("/") == 4 for p in pub.files):
             rows.append((f"{title}: tables of each window page", build, f"data/{ds.id}/tables/<plan>/window-NN-*.csv"))
         rows.append((f"{title}: every figure (image and its data)", build,
-                     f"figures/{ds.id}/*.{pub.fmt} and figures/{ds.id}/*.csv"))
+                     ", ".join(f"figures/{ds.id}/*.{f}" for f in (pub.fmt,) + pub.also)
+                     + f" and figures/{ds.id}/*.csv"))
         rows.append((f"{title}: all results", build, f"data/{ds.id}/results.json"))
         rows.append((f"{title}: full sample and windows, full precision", build,
                      f"data/{ds.id}/assumptions.csv, data/{ds.id}/windows.csv"))
