@@ -208,13 +208,16 @@ def _blas_info() -> list[dict]:
             pass
         return [{"internal_api": str(cfg.get("name", "unknown")), "version": str(cfg.get("version", "")),
                  "architecture": os.environ.get("OPENBLAS_CORETYPE", "unknown (threadpoolctl absent)")}]
-    libs = []
-    for info in threadpool_info():
-        if info.get("user_api") != "blas":
-            continue
-        libs.append({"internal_api": str(info.get("internal_api")), "version": str(info.get("version")),
-                     "architecture": str(info.get("architecture"))})
-    return sorted(libs, key=lambda d: json.dumps(d, sort_keys=True))
+    blas = [info for info in threadpool_info() if info.get("user_api") == "blas"]
+    # NumPy's and SciPy's own copies (wheels ship them in numpy.libs / scipy.libs / scipy_openblas*):
+    # other packages a process happens to have imported (a solver, a test run) may load further
+    # copies, which must not change the key. A system-wide BLAS (no such path) is kept as loaded.
+    own = [info for info in blas if any(part in str(info.get("filepath", "")).replace("\\", "/")
+                                        for part in ("/numpy", "/scipy"))]
+    libs = [{"internal_api": str(info.get("internal_api")), "version": str(info.get("version")),
+             "architecture": str(info.get("architecture"))} for info in (own or blas)]
+    unique = {json.dumps(d, sort_keys=True): d for d in libs}
+    return [unique[k] for k in sorted(unique)]
 
 
 def cache_environment() -> dict:
