@@ -26,6 +26,8 @@ import numpy as np
 from relspan.assumptions import assumption as _assumption
 
 from relspan.analysis.findings.records import Finding, Tolerance
+from relspan.analysis.findings.support import (count_support, hedge, share_words, support_record, support_words,
+                                               SETTLED_RULE)
 from relspan.words import cap, count, fmt, fmt_range, times as _times
 
 __all__ = ["dataset_findings", "corank_words", "no_evidence", "window_supports", "DIAGONAL_ALWAYS"]
@@ -46,18 +48,30 @@ def no_evidence(a: str, q) -> bool:
     return a == "diagonal" and q == DIAGONAL_ALWAYS
 
 
-def corank_words(a: str, q) -> str:
-    """One assumption's full-sample count, with what the count means under it ("2 (admissible)")."""
+def corank_words(a: str, q, analysis=None) -> str:
+    """One assumption's full-sample count, with what the count means under it ("2, admissible, ...").
+
+    With ``analysis`` (the window analysis the count comes from) the count's resampling support
+    follows in brackets (:func:`~relspan.analysis.findings.support.support_words`; nothing when
+    resampling is off).
+    """
     name = _assumption(a).name
     if q is None:
         return f"{name}: undetermined"
+    words = support_words(count_support(analysis, a, q), lead="chosen") if analysis is not None else ""
     if q == 0:
-        return f"{name}: 0"
-    if no_evidence(a, q):
-        return f"{name}: {q}, always reachable under this assumption and so no evidence"
-    if a == "bounded":
-        return f"{name}: {q}, admissible, not shown to hold"
-    return f"{name}: {q}"
+        text = f"{name}: 0"
+    elif no_evidence(a, q) and words:
+        return f"{name}: {q}, {words}, always reachable and so no evidence"
+    elif no_evidence(a, q):
+        text = f"{name}: {q}, always reachable under this assumption and so no evidence"
+    elif a == "bounded" and words.startswith("admissible "):
+        return f"{name}: {q}, {words}, not shown to hold"
+    elif a == "bounded":
+        text = f"{name}: {q}, admissible, not shown to hold"
+    else:
+        text = f"{name}: {q}"
+    return f"{text}, {words}" if words else text
 
 
 def window_supports(plan, assumption_id: str, q: int) -> bool:
@@ -81,19 +95,34 @@ def _corank_findings(result) -> list[Finding]:
     tol = Tolerance.of(full)
     rests = tuple(known)
     undetermined = [a for a, q in cor.items() if q is None]
-    by = "; ".join(corank_words(a, q) for a, q in cor.items())
-    detail = f"Full-sample corank by assumption at {tol.short}: {by}."
+    supports = {a: count_support(full, a, q) for a, q in known.items()}
+    record = [support_record(cs) for cs in supports.values()]
+    by = "; ".join(corank_words(a, q, full) for a, q in cor.items())
+    detail = (f"Full-sample corank by assumption at {tol.short}: "
+              f"{'; '.join(corank_words(a, q) for a, q in cor.items())}. {SETTLED_RULE}")
     if len(values) == 1:
         q = values[0]
         names = ", ".join(_assumption(a).name for a in known)
         every = "under every noise assumption checked" if not undetermined else f"under {names}"
         unsettled = (f"; {', '.join(_assumption(a).name for a in undetermined)}: undetermined"
                      if undetermined else "")
-        if q == 0:
+        weak = [a for a, cs in supports.items() if cs.weak]
+        said = [f"{_assumption(a).name}: {share_words(cs)}" for a, cs in supports.items() if share_words(cs)]
+        backing = f" (resampling support: {'; '.join(said)})" if said else ""
+        numbers = {"corank": q, "by_assumption": cor, "support": record}
+        if weak:
+            modal = all(supports[a].modal for a in weak)
+            what = "no linear relation" if q == 0 else count(q, "linear relation")
+            out.append(Finding("set_only", "corank",
+                               f"The data give {what} among the {n} variables {every}, at {tol.short}{unsettled}, "
+                               f"a count {'likely but ' if modal else ''}not settled by resampling under "
+                               f"{', '.join(_assumption(a).name for a in weak)}{backing}.", detail, numbers,
+                               "corank", assumptions=rests, tolerance=tol))
+        elif q == 0:
             out.append(Finding("no_relation", "corank",
                                f"No linear relation among the {n} variables is supported {every}, at "
-                               f"{tol.short}: every direction of the data varies more than that noise"
-                               f"{unsettled}.", detail, {"corank": 0, "by_assumption": cor}, "corank",
+                               f"{tol.short}{backing}: every direction of the data varies more than that noise"
+                               f"{unsettled}.", detail, numbers, "corank",
                                assumptions=rests, tolerance=tol))
         else:
             caveats = []
@@ -105,13 +134,13 @@ def _corank_findings(result) -> list[Finding]:
             more = f" ({'; '.join(caveats)})" if caveats else ""
             out.append(Finding("pinned_down", "corank",
                                f"{cap(count(q, 'linear relation'))} among the {n} variables {every}, at "
-                               f"{tol.short}{unsettled}{more}.", detail,
-                               {"corank": q, "by_assumption": cor}, "corank", assumptions=rests, tolerance=tol))
+                               f"{tol.short}{unsettled}{backing}{more}.", detail,
+                               numbers, "corank", assumptions=rests, tolerance=tol))
     else:
         out.append(Finding("depends", "corank",
                            f"How many relations hold depends on the noise assumption ({tol.short}): "
-                           f"{by}.", detail, {"by_assumption": cor}, "corank", assumptions=tuple(cor),
-                           tolerance=tol))
+                           f"{by}.", detail, {"by_assumption": cor, "support": record}, "corank",
+                           assumptions=tuple(cor), tolerance=tol))
     if undetermined:
         out.append(Finding("set_only", "corank",
                            f"Under independent noise the number of relations is not "
