@@ -26,8 +26,8 @@ import numpy as np
 from relspan.assumptions import assumption as _assumption
 
 from relspan.analysis.findings.records import Finding, Tolerance
-from relspan.analysis.findings.support import (count_support, hedge, share_words, support_record, support_words,
-                                               SETTLED_RULE)
+from relspan.analysis.findings.support import (count_support, share_words, support_record, support_words,
+                                               windows_support, SETTLED_RULE)
 from relspan.words import cap, count, fmt, fmt_range, times as _times
 
 __all__ = ["dataset_findings", "corank_words", "no_evidence", "window_supports", "DIAGONAL_ALWAYS"]
@@ -109,6 +109,7 @@ def _corank_findings(result) -> list[Finding]:
         weak = [a for a, cs in supports.items() if cs.weak]
         said = [f"{_assumption(a).name}: {share_words(cs)}" for a, cs in supports.items() if share_words(cs)]
         backing = f" (resampling support: {'; '.join(said)})" if said else ""
+        support_part = [f"resampling support: {'; '.join(said)}"] if said else []
         numbers = {"corank": q, "by_assumption": cor, "support": record}
         if weak:
             modal = all(supports[a].modal for a in weak)
@@ -131,10 +132,10 @@ def _corank_findings(result) -> list[Finding]:
             if any(no_evidence(a, q) for a in known):
                 caveats.append("under independent noise one relation is always reachable, so that agreement "
                                "is no evidence")
-            more = f" ({'; '.join(caveats)})" if caveats else ""
+            more = f" ({'; '.join(support_part + caveats)})" if support_part + caveats else ""
             out.append(Finding("pinned_down", "corank",
                                f"{cap(count(q, 'linear relation'))} among the {n} variables {every}, at "
-                               f"{tol.short}{unsettled}{backing}{more}.", detail,
+                               f"{tol.short}{unsettled}{more}.", detail,
                                numbers, "corank", assumptions=rests, tolerance=tol))
     else:
         out.append(Finding("depends", "corank",
@@ -376,7 +377,14 @@ def _stability_findings(result) -> list[Finding]:
         changes = seq.changes or {}
         moving = [a for a in seq.assumptions if a != "elementary" and changes.get(a) and settled.get(a)]
         if moving:
-            spans = "; ".join(f"{_assumption(a).name}: from {min(settled[a])} to {max(settled[a])}"
+            def _own(a):
+                own = windows_support(plan.analyses, a)
+                least = "at least " if own.share is not None and round(100 * own.share) < 100 else ""
+                return (f", each window's count chosen in {least}{100 * own.share:.0f}% of its "
+                        f"{own.resamples} resamples" if own.share is not None else
+                        (f", {own.why}" if own.why else ""))
+
+            spans = "; ".join(f"{_assumption(a).name}: from {min(settled[a])} to {max(settled[a])}{_own(a)}"
                               for a in moving)
             out.append(Finding("unstable", "corank",
                                f"The number of relations changes across the windows of \u201c{title}\u201d "

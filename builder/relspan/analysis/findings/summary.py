@@ -171,14 +171,16 @@ def frisch_search_words(full) -> str:
     ruled = [c.q for c in certs if c.status == "ruled out"]
     und = [c.q for c in certs if c.status == "undetermined"]
     led = corank.ledermann
+    words = support_words(count_support(full, "diagonal", best))
+    backing = f" ({words})" if words else ""
     if best:
         parts = [f"Under independent noise of unknown variances (Frisch scheme), up to {count(best, 'linear relation')} "
-                 f"{'fit' if best > 1 else 'fits'} these {n} variables within {tol.short}: approximately, not "
+                 f"{'fit' if best > 1 else 'fits'} these {n} variables within {tol.short}{backing}: approximately, not "
                  f"exactly (after removing the certified noise variances, {best} eigenvalue{'s' if best > 1 else ''} "
                  f"of the remainder {'lie' if best > 1 else 'lies'} within the tolerance of zero)."]
     else:
         parts = [f"Under independent noise of unknown variances (Frisch scheme), no linear relation could be "
-                 f"shown to fit these {n} variables within {tol.short}."]
+                 f"shown to fit these {n} variables within {tol.short}{backing}."]
     if ruled:
         parts.append(f"{min(ruled)} or more relations are ruled out.")
     if und:
@@ -282,8 +284,10 @@ def assumption_rows(analysis, labels, *, describe: bool = True) -> tuple[Assumpt
         q = 1 if a == "elementary" else corank
         words = ({"relations": _relations_words(analysis, a, q), "identified": _identified_words(analysis, a, q)}
                  if describe else {})
+        backing = (share_words(count_support(analysis, a, corank), lead="chosen")
+                   if a != "elementary" and corank is not None else "")
         rows.append(AssumptionRow(assumption=a, corank=corank, corank_words=_corank_words(a, corank),
-                                  **words, **_coefficients(analysis, a, q, labels)))
+                                  **words, **_coefficients(analysis, a, q, labels), support=backing))
     return tuple(rows)
 
 

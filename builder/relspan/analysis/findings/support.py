@@ -14,13 +14,14 @@ slot). The support recorded on a statement (``numbers["support"]``, from
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 from relspan.words import count
 
 __all__ = ["SETTLED_SHARE", "SETTLED_RULE", "CountSupport", "count_support", "windows_support",
            "support_words", "share_words", "hedge", "count_with_support", "support_record", "settled_words", "RESAMPLING_OFF", "NOT_COMPUTED", "APPLIED",
-           "SUPPORT_MARKERS", "UNSETTLED_MARKER"]
+           "SUPPORT_PATTERN", "UNSETTLED_MARKER"]
 
 #: a count is stated plainly only when the rule chooses it in at least this share of resamples
 SETTLED_SHARE = 0.8
@@ -38,8 +39,9 @@ APPLIED = ("settled", "weak")
 RESAMPLING_OFF = "off"
 NOT_COMPUTED = "not computed"
 
-#: words at least one of which a sentence with a recorded support contains (:mod:`.consistency`)
-SUPPORT_MARKERS = ("resamples", "not computed")
+#: what a sentence with a recorded support contains (:mod:`.consistency`): a share "of N resamples",
+#: or why there is none, or that the count is not settled
+SUPPORT_PATTERN = re.compile(r"\d+% of (its )?\d+ resamples|not computed|not settled")
 #: words a sentence whose count is weakly supported contains
 UNSETTLED_MARKER = "not settled"
 
@@ -127,12 +129,14 @@ def count_support(analysis, assumption: str, q=None) -> CountSupport:
                         int(s.resamples), tuple(other), modal=all(x <= share for _, x in other))
 
 
-def windows_support(analyses, assumption: str, q: int) -> CountSupport:
+def windows_support(analyses, assumption: str, q: int | None = None) -> CountSupport:
     """The support of the same count ``q`` in every window of a plan: the smallest share over the windows.
 
+    With ``q`` None, each window's own count (windows whose count is undetermined are left out).
     Settled only when every window's share is at least :data:`SETTLED_SHARE`.
     """
-    each = [count_support(a, assumption, q) for a in analyses]
+    each = [count_support(a, assumption, q) for a in analyses
+            if q is not None or a.coranks.get(assumption) is not None]
     if not each or all(c.status == RESAMPLING_OFF for c in each):
         return CountSupport(assumption, q, RESAMPLING_OFF, windows=len(each))
     have = [c for c in each if c.status in APPLIED]
@@ -164,7 +168,7 @@ def share_words(cs: CountSupport, *, lead: str = "the count chosen") -> str:
     if cs.status == NOT_COMPUTED:
         return cs.why
     every = " in each window" if cs.windows > 1 else ""
-    least = "at least " if cs.windows > 1 else ""
+    least = "at least " if cs.windows > 1 and cs.share is not None and round(100 * cs.share) < 100 else ""
     of = f"of {cs.resamples} resamples{every}"
     tail = f", {_others(cs)}" if cs.weak and cs.other and cs.windows == 1 else ""
     if cs.assumption == "bounded":
