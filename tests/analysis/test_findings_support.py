@@ -45,13 +45,13 @@ class TestWords:
         w = _window({"equal": 2}, {"equal": _support("equal", {2: 0.62, 3: 0.31, 1: 0.07})})
         cs = count_support(w, "equal")
         assert cs.weak and cs.modal
-        assert support_words(cs) == ("likely but not settled by resampling (chosen in 62% of 499 resamples, "
+        assert support_words(cs) == ("likely but not confirmed by resampling (chosen in 62% of 499 resamples, "
                                      "3 in 31%)")
 
     def test_a_count_other_resamples_choose_more_often_is_not_called_likely(self):
         w = _window({"equal": 2}, {"equal": _support("equal", {2: 0.45, 3: 0.55})})
         words = support_words(count_support(w, "equal"))
-        assert words.startswith("not settled by resampling") and "likely" not in words
+        assert words.startswith("not confirmed by resampling") and "likely" not in words
 
     def test_the_settled_share_is_the_stated_boundary(self):
         at = _window({"equal": 1}, {"equal": _support("equal", {1: SETTLED_SHARE, 0: 1 - SETTLED_SHARE})})
@@ -128,12 +128,12 @@ class TestSentences:
     def test_weak_support_gives_the_weaker_sentence(self, one):
         findings, summary = _rebuild(one, _weakened(one))
         pinned = summary.pinned
-        assert "likely but not settled by resampling" in pinned.text
+        assert "likely but not confirmed by resampling" in pinned.text
         assert "60% of" in pinned.text and "2 in 40%" in pinned.text
         assert "one relation ties" not in pinned.text          # never the plain claim
-        assert "not settled" in pinned.short and not pinned.settled
+        assert "not confirmed" in pinned.short and not pinned.settled
         corank = next(f for f in findings if f.topic == "corank")
-        assert corank.kind != "pinned_down" and "not settled by resampling" in corank.headline
+        assert corank.kind != "pinned_down" and "not confirmed by resampling" in corank.headline
         assert check_consistency(findings, summary, coranks=one.full.coranks) == ()
 
     def test_resampling_off_states_the_count_without_support_words(self, one):

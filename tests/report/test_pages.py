@@ -195,7 +195,9 @@ def test_trio_page_explains_why_independent_noise_finds_one_more_relation(site):
     page = _text(_main(_read(out, "datasets/trio/index.html")))
     # the kelp harvest is generated independently of the harbour cycle (specs/generate_demo.py)
     assert "Kelp harvest" in page and "pure measurement error" in page
-    assert "Equal noise finds two relations, independent noise three relations" in page
+    # each count with its resampling support (issue 11: never a bare count)
+    assert re.search(r"Equal noise finds two relations \(the count chosen in \d+% of 499 resamples\), "
+                     r"independent noise three relations \(the count chosen in \d+% of 99 resamples\)", page)
 
 
 # ------------------------------------------------------------------------------------ the figures
@@ -741,5 +743,5 @@ def test_a_weak_full_sample_count_is_labelled_not_settled_not_pinned_down(site):
     share = shift.full.inference.coranks["equal"].support(shift.full.coranks["equal"])
     assert share < 0.8
     page = _text(_main(_read(out, "datasets/shift/index.html")))
-    assert "Under equal noise the full sample gives no relations, likely but not settled by resampling" in page
+    assert "Under equal noise the full sample gives no relations, likely but not confirmed by resampling" in page
     assert "Under equal noise the data give no single relation over the whole period" in page

@@ -83,7 +83,7 @@ def _support_words(plan, assumption: str) -> str:
     """Each window's count with its resampling support, in a few words ("" when resampling is off).
 
     The smallest share of resamples giving a window's own count, and how many windows fall below
-    :data:`~relspan.analysis.findings.support.SETTLED_SHARE` (their count is not settled by resampling).
+    :data:`~relspan.analysis.findings.support.SETTLED_SHARE` (their count is not confirmed by resampling).
     """
     from relspan.analysis.findings.support import SETTLED_SHARE, count_support, windows_support
 
@@ -95,8 +95,8 @@ def _support_words(plan, assumption: str) -> str:
     least = "at least " if round(100 * own.share) < 100 else ""
     text = f"; each window's count chosen in {least}{100 * own.share:.0f}% of its {own.resamples} resamples"
     if weak:
-        text += (f" ({weak} window(s) below {100 * SETTLED_SHARE:.0f}%: there the count is not settled by "
-                 "resampling)")
+        text += (f" ({weak} window(s) below {100 * SETTLED_SHARE:.0f}%: there the count is not confirmed "
+                 "by resampling)")
     return text
 
 

@@ -34,7 +34,7 @@ The rules (ids as reported):
   499 resamples", or why it was "not computed"): never a bare count.
 * ``count-unsettled``: a statement whose recorded support is weak (below
   :data:`~relspan.analysis.findings.support.SETTLED_SHARE`) says the count is
-  "not settled" by resampling; and a finding that calls it "pinned down" is a
+  "not confirmed" by resampling; and a finding that calls it "pinned down" is a
   conflict.
 """
 
@@ -214,8 +214,8 @@ def _support_conflicts(findings, summary) -> list[Conflict]:
         if any(r.get("status") == "weak" for r in records):
             if UNSETTLED_MARKER not in low:
                 out.append(Conflict("count-unsettled", text, "", "a count chosen in fewer resamples than the "
-                                    "settled share, stated without \u201cnot settled\u201d"))
+                                    "settled share, stated without \u201cnot confirmed\u201d"))
             if finding is not None and finding.kind == "pinned_down":
-                out.append(Conflict("count-unsettled", text, "", "a count not settled by resampling called "
+                out.append(Conflict("count-unsettled", text, "", "a count not confirmed by resampling called "
                                     "pinned down"))
     return out

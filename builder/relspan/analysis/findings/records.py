@@ -155,7 +155,7 @@ class Statement:
 
     @property
     def settled(self) -> bool:
-        """False when a count it states is not settled by resampling (``numbers["support"]``)."""
+        """False when a count it states is not confirmed by resampling (``numbers["support"]``)."""
         return not any(r.get("status") == "weak" for r in (self.numbers or {}).get("support", ()))
 
 

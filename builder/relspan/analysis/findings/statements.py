@@ -116,7 +116,7 @@ def _corank_findings(result) -> list[Finding]:
             what = "no linear relation" if q == 0 else count(q, "linear relation")
             out.append(Finding("set_only", "corank",
                                f"The data give {what} among the {n} variables {every}, at {tol.short}{unsettled}, "
-                               f"a count {'likely but ' if modal else ''}not settled by resampling under "
+                               f"a count {'likely but ' if modal else ''}not confirmed by resampling under "
                                f"{', '.join(_assumption(a).name for a in weak)}{backing}.", detail, numbers,
                                "corank", assumptions=rests, tolerance=tol))
         elif q == 0:

@@ -4,8 +4,8 @@ Every sentence that states a corank says how often resampling gives the same
 count (:class:`relspan.analysis.corank_support.CorankSupport`), in a few
 words: "the count chosen in 100% of 499 resamples". Where the support is
 weak (below :data:`SETTLED_SHARE`) the sentence says less: the count is
-stated as the data's answer, "likely but not settled by resampling" (or "not
-settled" when another count is chosen more often). Where no support exists,
+stated as the data's answer, "likely but not confirmed by resampling" (or "not
+confirmed" when another count is chosen more often). Where no support exists,
 the words say why (not computed for that assumption or window), and when
 resampling is off nothing is added (pages have their own "not computed"
 slot). The support recorded on a statement (``numbers["support"]``, from
@@ -30,7 +30,7 @@ SETTLED_SHARE = 0.8
 SETTLED_RULE = (f"A count of relations is stated plainly only when the same rule, applied to each resample, gives "
                 f"that count in at least {100 * SETTLED_SHARE:.0f}% of resamples; below that one resample in five "
                 "or more gives another count, so the count is said to be likely (or, when another count is "
-                "chosen more often, only the data's answer) but not settled by resampling. The share is itself "
+                "chosen more often, only the data's answer) but not confirmed by resampling. The share is itself "
                 "estimated: with 499 resamples its standard error is at most 2.2 percentage points "
                 "(sqrt(0.25/499)), so only counts within a few points of the boundary could read either way.")
 
@@ -40,10 +40,10 @@ RESAMPLING_OFF = "off"
 NOT_COMPUTED = "not computed"
 
 #: what a sentence with a recorded support contains (:mod:`.consistency`): a share "of N resamples",
-#: or why there is none, or that the count is not settled
-SUPPORT_PATTERN = re.compile(r"\d+% of (its )?\d+ resamples|not computed|not settled")
+#: or why there is none, or that the count is not confirmed by resampling
+SUPPORT_PATTERN = re.compile(r"\d+% of (its )?\d+ resamples|not computed|not confirmed")
 #: words a sentence whose count is weakly supported contains
-UNSETTLED_MARKER = "not settled"
+UNSETTLED_MARKER = "not confirmed"
 
 _WHY_NONE = {
     "shaped": "support not computed under this assumption",
@@ -153,7 +153,7 @@ def _others(cs: CountSupport, limit: int = 1) -> str:
 
 
 def hedge(cs: CountSupport) -> str:
-    """What a weak count is ("likely but not settled by resampling"; "" when settled or without support)."""
+    """What a weak count is ("likely but not confirmed by resampling"; "" when settled or without support)."""
     if not cs.weak:
         return ""
     return f"{'likely but ' if cs.modal else ''}{UNSETTLED_MARKER} by resampling"
@@ -183,7 +183,7 @@ def share_words(cs: CountSupport, *, lead: str = "the count chosen") -> str:
 def support_words(cs: CountSupport, *, lead: str = "the count chosen") -> str:
     """The support in a few words, for brackets after a count ("" when resampling is off).
 
-    ``"the count chosen in 100% of 499 resamples"``; weak: ``"likely but not settled by resampling
+    ``"the count chosen in 100% of 499 resamples"``; weak: ``"likely but not confirmed by resampling
     (chosen in 62% of 499 resamples, 3 in 31%)"``.
     """
     words = share_words(cs, lead=lead)

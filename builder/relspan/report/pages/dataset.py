@@ -271,7 +271,7 @@ def _numerical_notes(result) -> str:
 
 
 def _summary_list(sm) -> list:
-    label = "Pinned down" if sm.pinned.settled else "Not settled by resampling"   # weak support says less
+    label = "Pinned down" if sm.pinned.settled else "Not confirmed by resampling"   # weak support says less
     out = [md("- **{}.** {} ([evidence](#{}))", label, sm.pinned.text, Raw(sm.pinned.evidence)),
            md("- **Left open.** {} ([evidence](#{}))", sm.open.text, Raw(sm.open.evidence))]
     if sm.depends is not None:

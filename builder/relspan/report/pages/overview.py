@@ -31,7 +31,7 @@ def datasets_page(run) -> Page:
         facts.append(md("variables: {}", _variables(r)))
         body.append(md("{}.\n", joined(facts, "; ")))
         body.append(md("- *{}:* {}. [Evidence]({})",
-                       "Pinned down" if sm.pinned.settled else "Not settled by resampling",
+                       "Pinned down" if sm.pinned.settled else "Not confirmed by resampling",
                        sm.pinned.short or sm.pinned.text,
                        Raw(f"{page}#{sm.pinned.evidence or 'corank'}")))
         body.append(md("- *Left open:* {}. [Evidence]({})\n", sm.open.short or sm.open.text,
