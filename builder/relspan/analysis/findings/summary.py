@@ -368,6 +368,11 @@ def _short_count(backing, said: str) -> str:
     return f"{said} ({words})" if words else said
 
 
+def _add_note(short: str, note: str) -> str:
+    """``short`` with ``note`` in its closing brackets ("... (chosen in 100% of 499 resamples; note)")."""
+    return f"{short[:-1]}; {note})" if short.endswith(")") else f"{short} ({note})"
+
+
 def _depends_support(full) -> list:
     return [support_record(count_support(full, a, full.coranks.get(a))) for a in ("equal", "diagonal")]
 
@@ -470,7 +475,7 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
                         if full.coranks.get(source) == q else
                         f"{count(q, 'relation')} examined as the spec asks (not found by any assumption)")
         if others:
-            pinned_short += " (other assumptions differ)"
+            pinned_short = _add_note(pinned_short, "other assumptions differ")
         if stab:
             pinned_short += (", steady across time windows" if len(steady) == len(stab)
                              else ", but moving across time windows")
@@ -556,14 +561,15 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
                           + (f" ({words})" if words else "") + ": each combination of them varies more than "
                           "that noise" + (f"; {others}" if others else "") + ".")
             open_ = "Nothing further can be identified without a relation."
-            pinned_short = _short_count(backing, f"no relation among the {series} under equal noise") + (
-                " (other assumptions differ)" if others else "")
+            pinned_short = _short_count(backing, f"no relation among the {series} under equal noise")
+            if others:
+                pinned_short = _add_note(pinned_short, "other assumptions differ")
             open_short = "nothing further without a relation"
     driven = [f for f in findings if f.kind == "influence"]
     if driven:
         pinned += (" This count rests on a single row or block of rows: leaving it out changes it (see the "
                    "influence check).")
-        pinned_short += " (resting on a single row or block)"
+        pinned_short = _add_note(pinned_short, "resting on a single row or block")
     depends_rests: tuple = ()
     depends = why_assumptions_differ(full, labels)
     if depends:

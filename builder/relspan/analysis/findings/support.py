@@ -19,9 +19,9 @@ from dataclasses import dataclass
 
 from relspan.words import count
 
-__all__ = ["SETTLED_SHARE", "SETTLED_RULE", "CountSupport", "count_support", "windows_support",
-           "support_words", "share_words", "hedge", "count_with_support", "support_record", "settled_words", "RESAMPLING_OFF", "NOT_COMPUTED", "APPLIED",
-           "SUPPORT_PATTERN", "UNSETTLED_MARKER"]
+__all__ = ["SETTLED_SHARE", "SETTLED_RULE", "CountSupport", "count_support", "windows_support", "support_words",
+           "share_words", "hedge", "count_with_support", "settled_words", "support_record", "RESAMPLING_OFF",
+           "NOT_COMPUTED", "APPLIED", "SUPPORT_PATTERN", "UNSETTLED_MARKER"]
 
 #: a count is stated plainly only when the rule chooses it in at least this share of resamples
 SETTLED_SHARE = 0.8

@@ -101,7 +101,8 @@ def _panel(result, figure: str) -> str:
     inf = result.full.inference
     if interval:
         uncertainty = md("sampling uncertainty: {}", interval)
-    elif inf is not None and (sm.pinned.numbers or {}).get("support"):   # the sentence gives its resamples
+    elif inf is not None and any(r.get("resamples") for r in (sm.pinned.numbers or {}).get("support", ())):
+        # the sentence gives its resamples
         uncertainty = md("sampling uncertainty: {} bootstrap ([supports]({}))", f"{inf.level:.0%}",
                          Raw(f"{page}#corank"))
     elif inf is not None:
