@@ -50,8 +50,8 @@ __all__ = ["Conflict", "check_consistency", "RULES"]
 RULES = ("grounds", "every-assumption", "whatever-noise", "steady-vs-changes", "sign-unidentified",
          "pinned-vs-cannot", "count-unqualified", "count-without-support", "count-unsettled")
 
-#: corank findings of these kinds state a count (or counts) of relations
-_COUNT_KINDS = ("pinned_down", "no_relation", "depends", "unstable")
+#: corank findings of these kinds state counts as a list ("equal noise: 2; ..."); others when they name one
+_COUNT_KINDS = ("depends", "unstable")
 
 _TOPICS_WITH_GROUNDS = ("corank", "subspace", "stability")
 _STEADY = re.compile(r"\b(steady|stays? within|stable)\b", re.I)

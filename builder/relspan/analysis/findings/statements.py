@@ -393,7 +393,9 @@ def _stability_findings(result) -> list[Finding]:
                                "not counted as a change; where resampling support is known (equal, known-shape "
                                "and bounded noise) two windows differ only when no count has at least 5% "
                                "support in both.",
-                               {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
+                               {"plan": plan.plan.id, "assumptions": moving,
+                                "support": [support_record(windows_support(plan.analyses, a)) for a in moving]},
+                               f"plan-{plan.plan.id}",
                                plan=plan.plan.id, assumptions=tuple(moving), tolerance=tol))
         for a, cs in seq.coranks.items():
             missing = sum(c is None for c in cs)
