@@ -229,12 +229,17 @@ def test_dataset_pages_show_the_full_sample_corank_of_every_assumption(site_a, f
         page = parse(site / "datasets" / result.spec.id / "index.html")
         col, by_name = _side_by_side(page, names)
         for assumption, q in result.full.coranks.items():
-            # the cell is "<count>; <resampling support>": the count comes first
-            shown = by_name[ASSUMPTION_PLAIN[assumption][0]][col].split(";")[0].strip()
+            # the cell is "<count> (<resampling support>)": the count is the first token
+            cell = by_name[ASSUMPTION_PLAIN[assumption][0]][col]
+            shown = cell.split()[0]
             if assumption == "elementary":
-                assert shown.startswith("1"), (result.spec.id, shown)  # one relation per regression
+                assert shown == "1", (result.spec.id, cell)  # one relation per regression
             else:
-                assert shown == ("undetermined" if q is None else str(q)), (result.spec.id, assumption)
+                assert shown == ("undetermined" if q is None else str(q)), (result.spec.id, assumption, cell)
+                # its support in brackets right after it, never a bare count
+                assert cell[len(shown):].lstrip().startswith("("), (result.spec.id, assumption, cell)
+                if result.full.inference is not None and assumption in result.full.inference.coranks:
+                    assert "resamples" in cell, (result.spec.id, assumption, cell)
 
 
 def test_pages_show_the_largest_window_angle_of_every_stable_plan(site_a, fresh_run):

@@ -195,7 +195,9 @@ def test_trio_page_explains_why_independent_noise_finds_one_more_relation(site):
     page = _text(_main(_read(out, "datasets/trio/index.html")))
     # the kelp harvest is generated independently of the harbour cycle (specs/generate_demo.py)
     assert "Kelp harvest" in page and "pure measurement error" in page
-    assert "Equal noise finds two relations, independent noise three relations" in page
+    # each count with its resampling support (issue 11: never a bare count)
+    assert re.search(r"Equal noise finds two relations \(the count chosen in \d+% of 499 resamples\), "
+                     r"independent noise three relations \(the count chosen in \d+% of 99 resamples\)", page)
 
 
 # ------------------------------------------------------------------------------------ the figures
@@ -687,3 +689,60 @@ def test_csv_downloads_name_each_assumption_by_its_one_readers_name(site):
         for name in ("assumptions.csv", "windows.csv"):
             rows = list(_csv.DictReader((out / "data" / r.spec.id / name).open(encoding="utf-8")))
             assert rows and all(row["noise_assumption"] == assumption(row["assumption"]).name for row in rows)
+
+
+# ------------------------------------------------------------------- counts said with their support
+
+#: a sentence that states a count of relations found (not a premise such as "if 2 relations hold",
+#: "with two relations, any mix ...", nor the eigenvalue explanation "room for one relation")
+_STATES_COUNT = re.compile(
+    r"\b(no|one|two|three|four|five|six|\d+) (linear )?relations?\b(?= \(| ties?\b| among\b| hold| fits?\b"
+    r"| admissible)|\b(equal|bounded|independent) noise: \d|\bfinds (no|one|two|three|four|five|six|\d+) "
+    r"relations?", re.I)
+
+
+#: a count's support in words: a share "of N resamples", why none was computed, or that resampling does
+#: not confirm it (the wording of relspan.analysis.findings.support, spelt out here on purpose)
+_SUPPORT = re.compile(r"\d+% of (its )?\d+ resamples|not computed|not confirmed")
+
+
+def _sentences(fragment: str) -> list[str]:
+    return re.split(r"(?<=[.!?])\s+(?=[A-Z\u201c])", _text(fragment))
+
+
+def test_every_sentence_that_states_a_count_of_relations_states_its_resampling_support(site):
+    # issue 11: "a corank is shown as a set with support, never a bare count"
+    out, run = site
+    claim_texts = [c.text for c in run.spec.claims if c.text]     # the authors' own words, re-checked
+    pages = (["index.html", "datasets/index.html"]
+             + [str(p.relative_to(out)) for p in sorted(out.glob("datasets/*/index.html"))]
+             + [str(p.relative_to(out)) for p in sorted(out.glob("datasets/*/*/window-*.html"))])
+    bare = []
+    for rel in pages:
+        main = _main(_read(out, rel))
+        for text in claim_texts:
+            main = main.replace(text, "")
+        for sentence in _sentences(main):
+            if _STATES_COUNT.search(sentence) and not sentence.startswith("If ") and not _SUPPORT.search(sentence):
+                bare.append((rel, sentence[:200]))
+    assert not bare, bare[:5]
+    assert len(pages) > 20
+
+
+def test_corank_claims_say_the_support_of_each_windows_count(site):
+    _, run = site
+    corank = [v for v in run.verdicts if v.claim.kind == "corank"]
+    assert corank
+    for v in corank:
+        assert _SUPPORT.search(v.observed), v.observed
+
+
+def test_a_weak_full_sample_count_says_likely_but_not_confirmed_by_resampling(site):
+    # the demo's fares: the full-sample equal-noise count 0 is chosen in about half the resamples
+    out, run = site
+    shift = next(r for r in run.datasets if r.spec.id == "shift")
+    share = shift.full.inference.coranks["equal"].support(shift.full.coranks["equal"])
+    assert share < 0.8
+    page = _text(_main(_read(out, "datasets/shift/index.html")))
+    assert "Under equal noise the full sample gives no relations, likely but not confirmed by resampling" in page
+    assert "Under equal noise the data give no single relation over the whole period" in page

@@ -79,6 +79,27 @@ def _unjudged(claim: ClaimSpec, observed: str, why: str, numbers: dict | None = 
     return ClaimVerdict(claim, False, observed, numbers or {}, (), judged=False, why=why)
 
 
+def _support_words(plan, assumption: str) -> str:
+    """Each window's count with its resampling support, in a few words ("" when resampling is off).
+
+    The smallest share of resamples giving a window's own count, and how many windows fall below
+    :data:`~relspan.analysis.findings.support.SETTLED_SHARE` (their count is not confirmed by resampling).
+    """
+    from relspan.analysis.findings.support import SETTLED_SHARE, count_support, windows_support
+
+    own = windows_support(plan.analyses, assumption)
+    if own.share is None:
+        return f"; resampling support: {own.why}" if own.why else ""
+    weak = sum(1 for a in plan.analyses if a.coranks.get(assumption) is not None
+               and count_support(a, assumption).weak)
+    least = "at least " if round(100 * own.share) < 100 else ""
+    text = f"; each window's count chosen in {least}{100 * own.share:.0f}% of its {own.resamples} resamples"
+    if weak:
+        text += (f" ({weak} window(s) below {100 * SETTLED_SHARE:.0f}%: there the count is not confirmed "
+                 "by resampling)")
+    return text
+
+
 def _corank(claim: ClaimSpec, plan) -> ClaimVerdict:
     assumption = claim.assumption  # the spec requires it for corank claims
     seq = [a.coranks.get(assumption) for a in plan.analyses]
@@ -105,6 +126,7 @@ def _corank(claim: ClaimSpec, plan) -> ClaimVerdict:
                 f"{len(seq)} window(s); {len(seq) - len(failing)} of {len(seq)} agree")
     if undetermined:
         observed += f"; undetermined at the tolerance in {undetermined}"
+    observed += _support_words(plan, assumption)
     numbers = {"assumption": assumption, "coranks": dict(zip(labels, seq))}
     determined_failing = tuple(lab for lab, q in zip(labels, seq) if q is not None and not ok(q))
     if undetermined and not determined_failing:

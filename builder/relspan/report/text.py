@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from relspan.analysis.findings.support import SETTLED_RULE
 from relspan.assumptions import ASSUMPTIONS, assumption
 from relspan.site.markdown import Raw
 
@@ -428,6 +429,9 @@ INFERENCE_RULES = (
     "and for full-sample and named-period plans only: rolling and expanding windows get none, because each "
     "resample needs a search of its own (about a hundred times the cost of the other intervals), and "
     "their pages say so.",
+    "Counts in sentences: " + SETTLED_RULE + " Bounded noise gives the share of resamples in which the "
+    "count is admissible (when the support is split, or for no relation, the share in which it is the "
+    "largest admissible count); where no support was computed the sentence says so.",
     "Intervals: eigenvalues by the basic bootstrap (Davison & Hinkley 1997), lower ends at least 0; "
     "coefficients, noise variances and noise shares by percentiles (Efron 1979). Relation coefficients "
     "under equal noise: each resample's relation subspace is rotated within itself to the estimate by "

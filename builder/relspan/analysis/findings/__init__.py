@@ -7,7 +7,10 @@
 * :mod:`.summary`: :func:`dataset_summary`, the plain summary and the
   statements of each page section, built from the results and the findings;
 * :mod:`.consistency`: :func:`check_consistency`, the rules no two findings of
-  one dataset may break (run by the driver on every analysis).
+  one dataset may break (run by the driver on every analysis);
+* :mod:`.support`: a count of relations in words with its resampling support
+  (:data:`~.support.SETTLED_SHARE`: below it a count is "likely but not
+  confirmed by resampling").
 
 Both are built once, by the driver (:func:`relspan.run.pipeline.analyse_prepared`),
 and stored on :class:`~relspan.analysis.results.DatasetResult`. Every sentence

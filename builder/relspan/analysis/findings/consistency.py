@@ -27,6 +27,15 @@ The rules (ids as reported):
   finding says cannot be judged under the same assumption.
 * ``count-unqualified``: when the assumptions give different counts, every
   summary sentence that states a count says which assumption it rests on.
+* ``count-without-support``: once resampling ran for a dataset (a statement
+  records a support, :func:`~relspan.analysis.findings.support.support_record`),
+  every corank finding and every summary sentence that states a count of
+  relations records the support of its count(s) and says it in words ("... of
+  499 resamples", or why it was "not computed"): never a bare count.
+* ``count-unsettled``: a statement whose recorded support is weak (below
+  :data:`~relspan.analysis.findings.support.SETTLED_SHARE`) says the count is
+  "not confirmed" by resampling; and a finding that calls it "pinned down" is a
+  conflict.
 """
 
 from __future__ import annotations
@@ -39,7 +48,10 @@ from relspan.assumptions import assumption as _assumption
 __all__ = ["Conflict", "check_consistency", "RULES"]
 
 RULES = ("grounds", "every-assumption", "whatever-noise", "steady-vs-changes", "sign-unidentified",
-         "pinned-vs-cannot", "count-unqualified")
+         "pinned-vs-cannot", "count-unqualified", "count-without-support", "count-unsettled")
+
+#: corank findings of these kinds state counts as a list ("equal noise: 2; ..."); others when they name one
+_COUNT_KINDS = ("depends", "unstable")
 
 _TOPICS_WITH_GROUNDS = ("corank", "subspace", "stability")
 _STEADY = re.compile(r"\b(steady|stays? within|stable)\b", re.I)
@@ -163,4 +175,47 @@ def check_consistency(findings, summary=None, *, coranks=None) -> tuple[Conflict
                 if _COUNT.search(text) and not any(nm in text.lower() for nm in names):
                     out.append(Conflict("count-unqualified", text, "", "a count stated without the assumption it "
                                         "rests on, while the assumptions give different counts"))
+    out += _support_conflicts(findings, summary)
     return tuple(dict.fromkeys(out))
+
+
+def _records(numbers) -> list:
+    return list((numbers or {}).get("support") or ())
+
+
+def _support_conflicts(findings, summary) -> list[Conflict]:
+    """``count-without-support`` and ``count-unsettled`` (see the module notes)."""
+    from relspan.analysis.findings.support import APPLIED, NOT_COMPUTED, SUPPORT_PATTERN, UNSETTLED_MARKER
+
+    stating = []    # (text, numbers, is a count statement)
+    for f in findings:
+        if f.topic == "corank":
+            stating.append((f.headline, f.numbers, f.kind in _COUNT_KINDS or bool(_COUNT.search(f.headline)), f))
+    if summary is not None:
+        for key in ("pinned", "depends"):
+            st = getattr(summary, key)
+            if st is None:
+                continue
+            for text in (st.text, st.short):
+                if text and "as the spec asks" not in text:
+                    stating.append((text, st.numbers, bool(_COUNT.search(text)), None))
+        if summary.open is not None and _records(summary.open.numbers):
+            stating.append((summary.open.text, summary.open.numbers, True, None))
+    resampled = any(r.get("status") in APPLIED + (NOT_COMPUTED,) for _, numbers, _, _ in stating
+                    for r in _records(numbers))
+    out = []
+    for text, numbers, states, finding in stating:
+        records = _records(numbers)
+        low = text.lower()
+        said = bool(SUPPORT_PATTERN.search(low))
+        if resampled and states and (not records or (not said and any(r.get("status") != "off" for r in records))):
+            out.append(Conflict("count-without-support", text, "", "a count of relations stated without its "
+                                "resampling support (a bare count)"))
+        if any(r.get("status") == "weak" for r in records):
+            if UNSETTLED_MARKER not in low:
+                out.append(Conflict("count-unsettled", text, "", "a count chosen in fewer resamples than the "
+                                    "settled share, stated without \u201cnot confirmed\u201d"))
+            if finding is not None and finding.kind == "pinned_down":
+                out.append(Conflict("count-unsettled", text, "", "a count not confirmed by resampling called "
+                                    "pinned down"))
+    return out

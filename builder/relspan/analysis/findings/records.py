@@ -142,7 +142,8 @@ class Statement:
         Noise assumptions it rests on.
     tolerance : Tolerance or None
     numbers : dict
-        The numbers it quotes.
+        The numbers it quotes; ``"support"``: the resampling support of each count it states
+        (:func:`~relspan.analysis.findings.support.support_record`).
     """
 
     text: str
@@ -151,6 +152,11 @@ class Statement:
     assumptions: tuple[str, ...] = ()
     tolerance: Tolerance | None = None
     numbers: dict = field(default_factory=dict)
+
+    @property
+    def settled(self) -> bool:
+        """False when a count it states is not confirmed by resampling (``numbers["support"]``)."""
+        return not any(r.get("status") == "weak" for r in (self.numbers or {}).get("support", ()))
 
 
 @dataclass(frozen=True, slots=True)
@@ -175,6 +181,9 @@ class AssumptionRow:
         Ranges of those coefficients, when it gives a set (independent noise, one relation).
     coefficients_note : str
         Said instead of coefficients when there are none (e.g. several relations).
+    support : str
+        The count's resampling support in a few words ("chosen in 96% of 499 resamples"; why there
+        is none; "" when resampling is off or the assumption presupposes its count).
     """
 
     assumption: str
@@ -185,6 +194,7 @@ class AssumptionRow:
     points: tuple = ()
     intervals: tuple = ()
     coefficients_note: str = ""
+    support: str = ""
 
 
 @dataclass(frozen=True, slots=True)

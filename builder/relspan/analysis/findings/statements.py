@@ -26,6 +26,8 @@ import numpy as np
 from relspan.assumptions import assumption as _assumption
 
 from relspan.analysis.findings.records import Finding, Tolerance
+from relspan.analysis.findings.support import (count_support, share_words, support_record, support_words,
+                                               windows_support, SETTLED_RULE)
 from relspan.words import cap, count, fmt, fmt_range, times as _times
 
 __all__ = ["dataset_findings", "corank_words", "no_evidence", "window_supports", "DIAGONAL_ALWAYS"]
@@ -46,18 +48,30 @@ def no_evidence(a: str, q) -> bool:
     return a == "diagonal" and q == DIAGONAL_ALWAYS
 
 
-def corank_words(a: str, q) -> str:
-    """One assumption's full-sample count, with what the count means under it ("2 (admissible)")."""
+def corank_words(a: str, q, analysis=None) -> str:
+    """One assumption's full-sample count, with what the count means under it ("2, admissible, ...").
+
+    With ``analysis`` (the window analysis the count comes from) the count's resampling support
+    follows in brackets (:func:`~relspan.analysis.findings.support.support_words`; nothing when
+    resampling is off).
+    """
     name = _assumption(a).name
     if q is None:
         return f"{name}: undetermined"
+    words = support_words(count_support(analysis, a, q), lead="chosen") if analysis is not None else ""
     if q == 0:
-        return f"{name}: 0"
-    if no_evidence(a, q):
-        return f"{name}: {q}, always reachable under this assumption and so no evidence"
-    if a == "bounded":
-        return f"{name}: {q}, admissible, not shown to hold"
-    return f"{name}: {q}"
+        text = f"{name}: 0"
+    elif no_evidence(a, q) and words:
+        return f"{name}: {q}, {words}, always reachable and so no evidence"
+    elif no_evidence(a, q):
+        text = f"{name}: {q}, always reachable under this assumption and so no evidence"
+    elif a == "bounded" and words.startswith("admissible "):
+        return f"{name}: {q}, {words}, not shown to hold"
+    elif a == "bounded":
+        text = f"{name}: {q}, admissible, not shown to hold"
+    else:
+        text = f"{name}: {q}"
+    return f"{text}, {words}" if words else text
 
 
 def window_supports(plan, assumption_id: str, q: int) -> bool:
@@ -81,19 +95,35 @@ def _corank_findings(result) -> list[Finding]:
     tol = Tolerance.of(full)
     rests = tuple(known)
     undetermined = [a for a, q in cor.items() if q is None]
-    by = "; ".join(corank_words(a, q) for a, q in cor.items())
-    detail = f"Full-sample corank by assumption at {tol.short}: {by}."
+    supports = {a: count_support(full, a, q) for a, q in known.items()}
+    record = [support_record(cs) for cs in supports.values()]
+    by = "; ".join(corank_words(a, q, full) for a, q in cor.items())
+    detail = (f"Full-sample corank by assumption at {tol.short}: "
+              f"{'; '.join(corank_words(a, q) for a, q in cor.items())}. {SETTLED_RULE}")
     if len(values) == 1:
         q = values[0]
         names = ", ".join(_assumption(a).name for a in known)
         every = "under every noise assumption checked" if not undetermined else f"under {names}"
         unsettled = (f"; {', '.join(_assumption(a).name for a in undetermined)}: undetermined"
                      if undetermined else "")
-        if q == 0:
+        weak = [a for a, cs in supports.items() if cs.weak]
+        said = [f"{_assumption(a).name}: {share_words(cs)}" for a, cs in supports.items() if share_words(cs)]
+        backing = f" (resampling support: {'; '.join(said)})" if said else ""
+        support_part = [f"resampling support: {'; '.join(said)}"] if said else []
+        numbers = {"corank": q, "by_assumption": cor, "support": record}
+        if weak:
+            modal = all(supports[a].modal for a in weak)
+            what = "no linear relation" if q == 0 else count(q, "linear relation")
+            out.append(Finding("set_only", "corank",
+                               f"The data give {what} among the {n} variables {every}, at {tol.short}{unsettled}, "
+                               f"a count {'likely but ' if modal else ''}not confirmed by resampling under "
+                               f"{', '.join(_assumption(a).name for a in weak)}{backing}.", detail, numbers,
+                               "corank", assumptions=rests, tolerance=tol))
+        elif q == 0:
             out.append(Finding("no_relation", "corank",
                                f"No linear relation among the {n} variables is supported {every}, at "
-                               f"{tol.short}: every direction of the data varies more than that noise"
-                               f"{unsettled}.", detail, {"corank": 0, "by_assumption": cor}, "corank",
+                               f"{tol.short}{backing}: every direction of the data varies more than that noise"
+                               f"{unsettled}.", detail, numbers, "corank",
                                assumptions=rests, tolerance=tol))
         else:
             caveats = []
@@ -102,16 +132,16 @@ def _corank_findings(result) -> list[Finding]:
             if any(no_evidence(a, q) for a in known):
                 caveats.append("under independent noise one relation is always reachable, so that agreement "
                                "is no evidence")
-            more = f" ({'; '.join(caveats)})" if caveats else ""
+            more = f" ({'; '.join(support_part + caveats)})" if support_part + caveats else ""
             out.append(Finding("pinned_down", "corank",
                                f"{cap(count(q, 'linear relation'))} among the {n} variables {every}, at "
                                f"{tol.short}{unsettled}{more}.", detail,
-                               {"corank": q, "by_assumption": cor}, "corank", assumptions=rests, tolerance=tol))
+                               numbers, "corank", assumptions=rests, tolerance=tol))
     else:
         out.append(Finding("depends", "corank",
                            f"How many relations hold depends on the noise assumption ({tol.short}): "
-                           f"{by}.", detail, {"by_assumption": cor}, "corank", assumptions=tuple(cor),
-                           tolerance=tol))
+                           f"{by}.", detail, {"by_assumption": cor, "support": record}, "corank",
+                           assumptions=tuple(cor), tolerance=tol))
     if undetermined:
         out.append(Finding("set_only", "corank",
                            f"Under independent noise the number of relations is not "
@@ -347,7 +377,14 @@ def _stability_findings(result) -> list[Finding]:
         changes = seq.changes or {}
         moving = [a for a in seq.assumptions if a != "elementary" and changes.get(a) and settled.get(a)]
         if moving:
-            spans = "; ".join(f"{_assumption(a).name}: from {min(settled[a])} to {max(settled[a])}"
+            def _own(a):
+                own = windows_support(plan.analyses, a)
+                least = "at least " if own.share is not None and round(100 * own.share) < 100 else ""
+                return (f", each window's count chosen in {least}{100 * own.share:.0f}% of its "
+                        f"{own.resamples} resamples" if own.share is not None else
+                        (f", {own.why}" if own.why else ""))
+
+            spans = "; ".join(f"{_assumption(a).name}: from {min(settled[a])} to {max(settled[a])}{_own(a)}"
                               for a in moving)
             out.append(Finding("unstable", "corank",
                                f"The number of relations changes across the windows of \u201c{title}\u201d "
@@ -356,7 +393,9 @@ def _stability_findings(result) -> list[Finding]:
                                "not counted as a change; where resampling support is known (equal, known-shape "
                                "and bounded noise) two windows differ only when no count has at least 5% "
                                "support in both.",
-                               {"plan": plan.plan.id, "assumptions": moving}, f"plan-{plan.plan.id}",
+                               {"plan": plan.plan.id, "assumptions": moving,
+                                "support": [support_record(windows_support(plan.analyses, a)) for a in moving]},
+                               f"plan-{plan.plan.id}",
                                plan=plan.plan.id, assumptions=tuple(moving), tolerance=tol))
         for a, cs in seq.coranks.items():
             missing = sum(c is None for c in cs)

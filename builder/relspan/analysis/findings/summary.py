@@ -13,6 +13,8 @@ import numpy as np
 from relspan.analysis.findings.records import (AssumptionRow, DatasetSummary, Statement, Tolerance,
                                                WindowReading)
 from relspan.analysis.findings.statements import window_supports
+from relspan.analysis.findings.support import (count_support, count_with_support, hedge, share_words,
+                                               support_record, support_words, windows_support)
 from relspan.analysis.stability import principal_angles
 from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.words import cap, count, fmt, fmt_range, join_words
@@ -97,7 +99,7 @@ def _other_counts(full, q) -> str:
     differ = [(a, c) for a, c in full.coranks.items() if a != "elementary" and c != q]
     if not differ:
         return ""
-    return "other assumptions differ (" + "; ".join(corank_words(a, c) for a, c in differ) + ")"
+    return "other assumptions differ (" + "; ".join(corank_words(a, c, full) for a, c in differ) + ")"
 
 
 # ------------------------------------------------------------------- why assumptions differ
@@ -112,6 +114,8 @@ def why_assumptions_differ(full, labels) -> str:
                else f"noise of size at most {full.eps:g} in the data's units")
     cert = next((c for c in corank.certificates if c.q == dg and c.status == "certified"), None)
     rel = lambda k: count(k, "relation")  # noqa: E731
+    eq_said = count_with_support(count_support(full, "equal", eq))
+    dg_said = count_with_support(count_support(full, "diagonal", dg))
     if dg > eq:
         shares = np.asarray(cert.noise_share, dtype=float) if cert is not None and cert.noise_share else None
         if shares is not None and np.any(shares >= PURE_NOISE_SHARE):
@@ -119,7 +123,7 @@ def why_assumptions_differ(full, labels) -> str:
             var = np.diag(np.asarray(full.cov, dtype=float))
             who = join_words([f"{labels[k]} ({100 * shares[k]:.0f}% of its variance, a noise standard deviation of "
                               f"about {fmt(np.sqrt(shares[k] * var[k]), 2)} in its own units)" for k in pure])
-            text = (f"Equal noise finds {rel(eq)}, independent noise {rel(dg)}. This is not a contradiction: "
+            text = (f"Equal noise finds {eq_said}, independent noise {dg_said}. This is not a contradiction: "
                     f"when each series may have its own error of any size, {who} can be declared almost "
                     f"pure measurement error, because {'it is' if len(pure) == 1 else 'they are'} nearly "
                     "unrelated to the other series. A series that is all noise counts as one more relation "
@@ -131,7 +135,7 @@ def why_assumptions_differ(full, labels) -> str:
             extra = (f" (here up to {100 * shares[most]:.0f}% of the variance of {labels[most]}, a noise standard "
                      f"deviation of about {fmt(np.sqrt(shares[most] * var[most]), 2)} in its own units)"
                      if most is not None else "")
-            text = (f"Equal noise finds {rel(eq)}, independent noise {rel(dg)}. Independent noise of unknown "
+            text = (f"Equal noise finds {eq_said}, independent noise {dg_said}. Independent noise of unknown "
                     f"size is the looser assumption: it lets each series carry its own error{extra}, while "
                     f"the equal-noise check allows {allowed}. Extra relations "
                     "found this way are weak evidence.")
@@ -146,7 +150,7 @@ def why_assumptions_differ(full, labels) -> str:
             text += (" Under independent noise one relation can always be fitted (take each series' error "
                      "variance equal to the smallest eigenvalue), so this count is no evidence of a relation.")
         return text
-    return (f"Equal noise finds {rel(eq)}, independent noise only {rel(dg)}: the independent-noise check "
+    return (f"Equal noise finds {eq_said}, independent noise only {dg_said}: the independent-noise check "
             "could not fit the larger number with non-negative error variances within the tolerance.")
 
 
@@ -167,14 +171,16 @@ def frisch_search_words(full) -> str:
     ruled = [c.q for c in certs if c.status == "ruled out"]
     und = [c.q for c in certs if c.status == "undetermined"]
     led = corank.ledermann
+    words = support_words(count_support(full, "diagonal", best))
+    backing = f" ({words})" if words else ""
     if best:
         parts = [f"Under independent noise of unknown variances (Frisch scheme), up to {count(best, 'linear relation')} "
-                 f"{'fit' if best > 1 else 'fits'} these {n} variables within {tol.short}: approximately, not "
+                 f"{'fit' if best > 1 else 'fits'} these {n} variables within {tol.short}{backing}: approximately, not "
                  f"exactly (after removing the certified noise variances, {best} eigenvalue{'s' if best > 1 else ''} "
                  f"of the remainder {'lie' if best > 1 else 'lies'} within the tolerance of zero)."]
     else:
         parts = [f"Under independent noise of unknown variances (Frisch scheme), no linear relation could be "
-                 f"shown to fit these {n} variables within {tol.short}."]
+                 f"shown to fit these {n} variables within {tol.short}{backing}."]
     if ruled:
         parts.append(f"{min(ruled)} or more relations are ruled out.")
     if und:
@@ -278,8 +284,10 @@ def assumption_rows(analysis, labels, *, describe: bool = True) -> tuple[Assumpt
         q = 1 if a == "elementary" else corank
         words = ({"relations": _relations_words(analysis, a, q), "identified": _identified_words(analysis, a, q)}
                  if describe else {})
+        backing = (share_words(count_support(analysis, a, corank), lead="chosen")
+                   if a != "elementary" and corank is not None else "")
         rows.append(AssumptionRow(assumption=a, corank=corank, corank_words=_corank_words(a, corank),
-                                  **words, **_coefficients(analysis, a, q, labels)))
+                                  **words, **_coefficients(analysis, a, q, labels), support=backing))
     return tuple(rows)
 
 
@@ -313,10 +321,21 @@ def _window_plain(plan, i: int, a, w, q) -> str:
         if key in a.coranks:
             c = a.coranks[key]
             said = "undetermined" if c is None else count(c, "relation")
+            notes = []
+            if key == "diagonal" and c == 1:
+                notes.append("always reachable under this assumption, so no evidence")
+            cs = count_support(a, key, c)
+            backing = support_words(cs) if c is not None else ""
             if key == "bounded" and c:
                 said += " admissible"
-            if key == "diagonal" and c == 1:
-                said += " (always reachable under this assumption, so no evidence)"
+                if backing.startswith("admissible "):
+                    backing = backing[len("admissible "):]
+            if backing and cs.weak:
+                said += f", {backing}"
+            elif backing:
+                notes.append(backing)
+            if notes:
+                said += f" ({'; '.join(notes)})"
             words.append(f"{assumption(key).title.lower()}: {said}")
     span = f"{w.first_time} to {w.last_time}, " if w.first_time is not None else ""
     text = (f"This window covers {span}{w.rows} rows. Relations found at {Tolerance.of(a).short} \u2014 "
@@ -340,6 +359,23 @@ def _window_readings(plan, examined, labels) -> tuple[WindowReading, ...]:
 
 
 # ------------------------------------------------------------------------------ the summary
+
+def _short_count(backing, said: str) -> str:
+    """A count in a few words with its support: "... (chosen in 100% of 499 resamples)"; weak: "likely ..."."""
+    if backing.weak:
+        return f"{'likely ' if backing.modal else ''}{said} ({hedge(backing).replace('likely but ', '')})"
+    words = share_words(backing, lead="chosen")
+    return f"{said} ({words})" if words else said
+
+
+def _add_note(short: str, note: str) -> str:
+    """``short`` with ``note`` in its closing brackets ("... (chosen in 100% of 499 resamples; note)")."""
+    return f"{short[:-1]}; {note})" if short.endswith(")") else f"{short} ({note})"
+
+
+def _depends_support(full) -> list:
+    return [support_record(count_support(full, a, full.coranks.get(a))) for a in ("equal", "diagonal")]
+
 
 def dataset_summary(*, full, plans, examined, identified, labels, findings, period=None,
                     spread=None) -> DatasetSummary:
@@ -383,17 +419,25 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
     covers = [("pinned_down", "corank")]
     ev = {"pinned": "corank", "open": "identified", "depends": "assumptions"}
     rests = {"pinned": ("equal",), "open": ()}
+    open_numbers: dict = {}
     others = _other_counts(full, q)
     if q is not None and q >= 1:
         what = "relation" if q == 1 else "relations"
         source = examined_from_assumption(full, q)
-        if full.coranks.get(source) == q:
-            pinned = (f"Under {assumption(source).name}, at {tol.short}, {count(q, 'relation')} "
+        backing = count_support(full, source, q)
+        support = [support_record(backing)]
+        if full.coranks.get(source) == q and backing.weak:
+            pinned = (f"Under {assumption(source).name}, at {tol.short}, the data point to {count(q, 'relation')} "
+                      f"tying the {series} together, a count {hedge(backing)} ({share_words(backing)})")
+        elif full.coranks.get(source) == q:
+            pinned = (f"Under {assumption(source).name}, at {tol.short}, {count_with_support(backing)} "
                       f"tie{'s' if q == 1 else ''} the {series} together")
         else:  # the spec chose the corank to examine (checks.coranks); no assumption finds it
             from relspan.analysis.findings.statements import corank_words
 
-            found = "; ".join(corank_words(a, c) for a, c in full.coranks.items() if a != "elementary")
+            found = "; ".join(corank_words(a, c, full) for a, c in full.coranks.items() if a != "elementary")
+            support = [support_record(count_support(full, a, c)) for a, c in full.coranks.items()
+                       if a != "elementary" and c is not None]
             pinned = (f"The spec asks for {count(q, 'relation')} to be examined (checks.coranks), but no noise "
                       f"assumption finds that many in the full sample at {tol.short} ({found}); what follows "
                       f"describes {count(q, 'relation')} only as the spec's choice")
@@ -426,11 +470,12 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         pinned += (": " + "; ".join(bits) if bits else "") + "."
         covers += [("pinned_down", "subspace")] if entry is not None else []
         covers += [("stable", "stability")] if stab and len(steady) == len(stab) else []
-        pinned_short = (f"{count(q, 'relation')} among the {series} under {assumption(source).name}"
+        pinned_short = (_short_count(backing, f"{count(q, 'relation')} among the {series} under "
+                                              f"{assumption(source).name}")
                         if full.coranks.get(source) == q else
                         f"{count(q, 'relation')} examined as the spec asks (not found by any assumption)")
         if others:
-            pinned_short += " (other assumptions differ)"
+            pinned_short = _add_note(pinned_short, "other assumptions differ")
         if stab:
             pinned_short += (", steady across time windows" if len(steady) == len(stab)
                              else ", but moving across time windows")
@@ -472,10 +517,24 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         if windowed:
             plan, qq, change = windowed[0]
             titles = join_words([f"\u201c{p.plan.title or p.plan.id}\u201d" for p, _, _ in windowed])
-            pinned = (f"Under equal noise, at {tol.short}, {count(qq, 'relation')} "
-                      f"tie{'s' if qq == 1 else ''} the {series} together within each window of {titles}"
-                      + (f"; over all rows together, {others}" if others else "") + ".")
-            open_ = f"Under equal noise no single relation fits{span}"
+            backing = windows_support([a for p, _, _ in windowed for a in p.analyses], "equal", qq)
+            support = [support_record(backing)]
+            if backing.weak:
+                pinned = (f"Under equal noise, at {tol.short}, the data point to {count(qq, 'relation')} tying "
+                          f"the {series} together within each window of {titles}, a count {hedge(backing)} "
+                          f"({share_words(backing)})")
+            else:
+                pinned = (f"Under equal noise, at {tol.short}, {count_with_support(backing, lead='chosen')} "
+                          f"tie{'s' if qq == 1 else ''} the {series} together within each window of {titles}")
+            pinned += (f"; over all rows, {others}" if others else "") + "."
+            none = count_support(full, "equal", 0)
+            if none.weak:
+                open_ = (f"Under equal noise the data give no single relation{span}, a count {hedge(none)} "
+                         f"({share_words(none)})")
+            else:
+                open_ = f"Under equal noise no single relation fits{span}" + (
+                    f" ({share_words(none)})" if share_words(none) else "")
+            open_numbers = {"support": [support_record(none)]}
             rests["open"] = ("equal",)
             if change is not None:
                 open_ += (f": the relation differs between the windows of \u201c{plan.plan.title or plan.plan.id}"
@@ -485,22 +544,32 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
                 open_ += "."
             ev["pinned"] = f"plan-{plan.plan.id}"
             ev["open"] = f"plan-{plan.plan.id}"
-            pinned_short = f"{count(qq, 'relation')} within each time window under equal noise"
+            pinned_short = _short_count(backing, f"{count(qq, 'relation')} within each time window under "
+                                                 "equal noise")
             open_short = "a single relation for the whole period" + (
                 f": it differs between windows by up to {change:.2g} degrees" if change is not None else "")
         else:
-            pinned = (f"Under equal noise no linear relation ties the {series} together at {tol.short}: each "
-                      "combination of them varies more than that noise"
-                      + (f"; {others}" if others else "") + ".")
+            backing = count_support(full, "equal", 0)
+            support = [support_record(backing)]
+            if backing.weak:
+                pinned = (f"Under equal noise, at {tol.short}, the data show no linear relation tying the "
+                          f"{series} together, a finding {hedge(backing)} ({share_words(backing)})"
+                          + (f"; {others}" if others else "") + ".")
+            else:
+                words = share_words(backing)
+                pinned = (f"Under equal noise no linear relation ties the {series} together at {tol.short}"
+                          + (f" ({words})" if words else "") + ": each combination of them varies more than "
+                          "that noise" + (f"; {others}" if others else "") + ".")
             open_ = "Nothing further can be identified without a relation."
-            pinned_short = f"no relation among the {series} under equal noise" + (
-                " (other assumptions differ)" if others else "")
+            pinned_short = _short_count(backing, f"no relation among the {series} under equal noise")
+            if others:
+                pinned_short = _add_note(pinned_short, "other assumptions differ")
             open_short = "nothing further without a relation"
     driven = [f for f in findings if f.kind == "influence"]
     if driven:
         pinned += (" This count rests on a single row or block of rows: leaving it out changes it (see the "
                    "influence check).")
-        pinned_short += " (resting on a single row or block)"
+        pinned_short = _add_note(pinned_short, "resting on a single row or block")
     depends_rests: tuple = ()
     depends = why_assumptions_differ(full, labels)
     if depends:
@@ -542,9 +611,11 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
         if (f.kind, f.topic) not in covers:
             cards[f.card].append(f)
     return DatasetSummary(
-        pinned=Statement(pinned, cap(pinned_short), ev["pinned"], rests["pinned"], tol),
-        open=Statement(open_, cap(open_short), ev["open"], rests["open"], tol),
-        depends=Statement(depends, "", ev["depends"], depends_rests, tol) if depends else None,
+        pinned=Statement(pinned, cap(pinned_short), ev["pinned"], rests["pinned"], tol, {"support": support}),
+        open=Statement(open_, cap(open_short), ev["open"], rests["open"], tol, open_numbers),
+        depends=Statement(depends, "", ev["depends"], depends_rests, tol,
+                          {"support": _depends_support(full)} if depends and depends_rests == ("equal", "diagonal")
+                          else {}) if depends else None,
         unstable=Statement(unstable, "", unstable_ev, ("equal",), tol) if unstable else None,
         single_coefficient=single,
         cards={k: tuple(v) for k, v in cards.items()},

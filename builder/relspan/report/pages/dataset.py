@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from relspan.analysis.findings.support import count_support, count_with_support
 from relspan.assumptions import ASSUMPTION_IDS, assumption
 from relspan.report.pages.addresses import HOME, csv_path, dataset_path, plan_anchor, window_path
 from relspan.report.pages.claims import claims_table
@@ -124,8 +125,9 @@ def _identified_section(result, pub: Publisher) -> str:
                     csv=(pub, csv_path(result.spec.id, f"identified-q{q}")))))
     if not out:
         if result.summary.windowed:
-            out.append(Raw("The full sample supports no relation, so nothing is identified for the whole period. "
-                           "The windows below do support one: see how it differs between them.\n"))
+            none = count_with_support(count_support(result.full, "equal", 0))
+            out.append(md("Under equal noise the full sample gives {}, so nothing is identified for the whole "
+                          "period. The windows below do support one: see how it differs between them.\n", none))
         else:
             out.append(Raw("No relation was found, so nothing is identified beyond the absence of a relation.\n"))
     return Raw("\n".join(out))
@@ -288,7 +290,8 @@ def _numerical_notes(result) -> str:
 
 
 def _summary_list(sm) -> list:
-    out = [md("- **Pinned down.** {} ([evidence](#{}))", sm.pinned.text, Raw(sm.pinned.evidence)),
+    label = "Pinned down" if sm.pinned.settled else "Not confirmed by resampling"   # weak support says less
+    out = [md("- **{}.** {} ([evidence](#{}))", label, sm.pinned.text, Raw(sm.pinned.evidence)),
            md("- **Left open.** {} ([evidence](#{}))", sm.open.text, Raw(sm.open.evidence))]
     if sm.depends is not None:
         out.append(md("- **Depends on the noise assumption.** {} ([evidence](#{}))", sm.depends.text,

@@ -101,6 +101,10 @@ def _panel(result, figure: str) -> str:
     inf = result.full.inference
     if interval:
         uncertainty = md("sampling uncertainty: {}", interval)
+    elif inf is not None and any(r.get("resamples") for r in (sm.pinned.numbers or {}).get("support", ())):
+        # the sentence gives its resamples
+        uncertainty = md("sampling uncertainty: {} bootstrap ([supports]({}))", f"{inf.level:.0%}",
+                         Raw(f"{page}#corank"))
     elif inf is not None:
         uncertainty = md("sampling uncertainty: {} bootstrap, {} resamples ([supports]({}))",
                          f"{inf.level:.0%}", str(inf.resamples), Raw(f"{page}#corank"))

@@ -30,7 +30,9 @@ def datasets_page(run) -> Page:
             facts.append(md("{} to {}", str(p.period[0]), str(p.period[1])))
         facts.append(md("variables: {}", _variables(r)))
         body.append(md("{}.\n", joined(facts, "; ")))
-        body.append(md("- *Pinned down:* {}. [Evidence]({})", sm.pinned.short or sm.pinned.text,
+        body.append(md("- *{}:* {}. [Evidence]({})",
+                       "Pinned down" if sm.pinned.settled else "Not confirmed by resampling",
+                       sm.pinned.short or sm.pinned.text,
                        Raw(f"{page}#{sm.pinned.evidence or 'corank'}")))
         body.append(md("- *Left open:* {}. [Evidence]({})\n", sm.open.short or sm.open.text,
                        Raw(f"{page}#{sm.open.evidence or 'identified'}")))

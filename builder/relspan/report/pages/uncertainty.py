@@ -25,20 +25,47 @@ _NO_SUPPORT = {
 }
 
 
+def _pct(x: float) -> str:
+    return f"{100 * x:.0f}%"
+
+
 def support_words(analysis, assumption: str) -> str:
-    """``"2: in 96% of resamples; 3: 4%"``, or why there is no support."""
+    """The resampling support of the window's count, for brackets after it, or why there is none.
+
+    ``"chosen in 96% of 499 resamples; 3: 4%"`` (the other counts the resamples give, most frequent
+    first); bounded noise: ``"admissible in 100% of 499 resamples; the largest admissible in 96%; 3: 4%"``;
+    an undetermined count: every count's share.
+    """
     inf = analysis.inference
     if inf is None:
         return NOT_COMPUTED
     s = inf.coranks.get(assumption)
     if s is None:
         return _NO_SUPPORT.get(assumption, "resampling support is not computed for this assumption")
-    return f"{s.as_text()} (of {s.resamples})"
+    q = analysis.coranks.get(assumption)
+    if q is None:
+        return f"{s.as_text()}; {s.resamples} resamples"
+    others = sorted(((k, x) for k, x in zip(s.coranks, s.chosen_share) if k != q and x >= 0.005),
+                    key=lambda t: (-t[1], t[0]))
+    rest = "".join(f"; {k}: {_pct(x)}" for k, x in others)
+    if s.undetermined_share >= 0.005:
+        rest += f"; undetermined: {_pct(s.undetermined_share)}"
+    of = f"of {s.resamples} resamples"
+    if assumption == "bounded" and s.admissible_share is not None and 1 <= q < len(s.admissible_share):
+        return (f"admissible in {_pct(s.admissible_share[q])} {of}; the largest admissible in "
+                f"{_pct(s.support(q))}{rest}")
+    if assumption == "bounded":
+        return f"the largest admissible count in {_pct(s.support(q))} {of}{rest}"
+    return f"chosen in {_pct(s.support(q))} {of}{rest}"
 
 
 def corank_cell(analysis, row) -> Raw:
-    """A table cell for an :class:`~relspan.analysis.findings.AssumptionRow`'s corank: the count and its set."""
-    return md("{}; {}", row.corank_words, support_words(analysis, row.assumption))
+    """A table cell for an :class:`~relspan.analysis.findings.AssumptionRow`'s corank: the count and its
+    support in brackets (``"2 (chosen in 96% of 499 resamples; 3: 4%)"``)."""
+    words = support_words(analysis, row.assumption)
+    if row.corank_words.endswith(")"):          # "1 (assumed)": one pair of brackets
+        return md("{}; {})", row.corank_words[:-1], words)
+    return md("{} ({})", row.corank_words, words)
 
 
 def interval_words(iv) -> str:

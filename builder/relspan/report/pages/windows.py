@@ -38,10 +38,18 @@ def _counts(reading) -> dict:
     return {r.assumption: r.corank_words for r in reading.rows if r.assumption != "elementary"}
 
 
+def _with_support(reading) -> dict:
+    """Each assumption's count with its resampling support in brackets, when there is one."""
+    return {r.assumption: (f"{r.corank_words} ({r.support})" if r.support else r.corank_words)
+            for r in reading.rows if r.assumption != "elementary"}
+
+
 def _neighbour_line(which: str, label: str, path: str, here, there, angle) -> Raw:
-    """How this window differs from one neighbour: relations per assumption, and the turn of the relation."""
+    """How this window differs from one neighbour: relations per assumption (with their resampling
+    support), and the turn of the relation."""
     mine, theirs = _counts(here), _counts(there)
-    changed = [f"{assumption(a).name}: {mine[a]} here, {theirs[a]} there" for a in mine
+    said_here, said_there = _with_support(here), _with_support(there)
+    changed = [f"{assumption(a).name}: {said_here[a]} here, {said_there[a]} there" for a in mine
                if a in theirs and theirs[a] != mine[a]]
     counts = (md("the number of relations differs ({})", "; ".join(changed)) if changed
               else Raw("the same number of relations under every noise assumption"))
