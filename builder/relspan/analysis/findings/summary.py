@@ -459,14 +459,18 @@ def dataset_summary(*, full, plans, examined, identified, labels, findings, peri
                            if sp is not None and sp.q == q else ""))
             rests["pinned"] += ("bounded",)
         steady = [st for _, st in stab if st.stable]
-        if stab and len(steady) == len(stab):
-            worst = max(st.max_to_reference_deg for st in steady)
-            bits.append(f"under equal noise {'it moves' if q == 1 else 'they move'} at most {worst:.2g} degrees "
-                        "between windows of time, within what resampling produces when nothing changes")
-        elif stab:
-            worst = max(st.max_to_reference_deg for _, st in stab)
-            bits.append(f"but under equal noise {'it moves' if q == 1 else 'they move'} by up to {worst:.2g} "
-                        "degrees between windows of time, more than resampling produces when nothing changes")
+        to_full = [st.max_to_reference_deg for st in steady if st.max_to_reference_deg is not None]
+        if stab and len(steady) == len(stab) and to_full:
+            # the angle to the full sample's subspace (windows differ from each other by more; the
+            # dataset page gives both)
+            bits.append(f"under equal noise {'it stays' if q == 1 else 'they stay'} within {max(to_full):.2g} "
+                        "degrees of the full sample's in every window of time, within what resampling "
+                        "produces when nothing changes")
+        elif stab and len(steady) < len(stab):
+            apart = [d for _, st in stab for d in (st.max_pairwise_deg, st.max_to_reference_deg) if d is not None]
+            bits.append("but under equal noise the windows of time differ "
+                        + (f"by up to {max(apart):.2g} degrees, " if apart else "")
+                        + "more than resampling produces when nothing changes")
         pinned += (": " + "; ".join(bits) if bits else "") + "."
         covers += [("pinned_down", "subspace")] if entry is not None else []
         covers += [("stable", "stability")] if stab and len(steady) == len(stab) else []

@@ -82,12 +82,12 @@ def _weights(result) -> list:
                 lines.append(md("- {}: {}", link(a.label, "/" + window_path(ds.id, plan.plan.id, i)),
                                 _equation(ref_label, row.points)))
         if lines:
-            return [md("Weights in each period under {} ({}):", assumption("equal").name, _units_words(result)),
+            return [md("Weights per period, {} ({}):", assumption("equal").name, _units_words(result)),
                     Raw("\n".join(lines))]
     row = next((r for r in result.summary.rows if r.assumption == "equal" and r.points), None)
     if row is None:
         return []
-    return [md("Weights under {}, full sample ({}):", assumption("equal").name, _units_words(result)),
+    return [md("Weights, full sample, {} ({}):", assumption("equal").name, _units_words(result)),
             md("- {}", _equation(ref_label, row.points))]
 
 
