@@ -60,7 +60,9 @@ def digests(site: Path) -> dict[str, str]:
 
 
 def differing(a: dict[str, str], b: dict[str, str]) -> list[str]:
-    return sorted(k for k in set(a) | set(b) if a.get(k) != b.get(k))
+    """Files whose bytes differ, the machine record left out: it records the process that built the site
+    (the maths libraries loaded, every installed package) and is never byte-compared (outside SHA256SUMS)."""
+    return sorted(k for k in set(a) | set(b) if a.get(k) != b.get(k) and k != "build-machine.json")
 
 
 def cache_entries(cache: Path) -> set[str]:

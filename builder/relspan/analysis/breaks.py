@@ -474,9 +474,9 @@ def subspace_break_scan(stats: GranuleStats, *, q: int, rng: np.random.Generator
              if isinstance(scale, str) and scale == "correlation" else
              "the data's own units" if isinstance(scale, str) else "the analysis's common scale")
     dep = ("" if scheme == "iid" else
-           f" For time-ordered rows the statistic is divided by {ratio:.3g}, the factor by which serial "
-           "dependence of the fit's scores inflates their partial sums (flat-top long-run variance, at "
-           "least 1).")
+           " For time-ordered rows the statistic is divided by the factor by which serial dependence of the "
+           "fit's scores inflates their partial sums (flat-top long-run variance, at least 1): "
+           + (f"{ratio:.3g} here." if ratio > 1.0 else "here 1, so the statistic is used as it is."))
     rule = (f"Scan over {splits.size} dates between the first and last {trim:.0%} of rows for a change of the "
             f"{q}-dimensional relation subspace, on one scale ({where}): at each date, T log(S0/S1), "
             "where S0 is the misfit (sum of the smallest eigenvalues) of one common subspace and S1 that "
