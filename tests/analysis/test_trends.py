@@ -50,3 +50,17 @@ def test_effective_rows_follow_the_ar1_rule():
     r = (d[1:] * d[:-1]).sum(axis=0) / (d * d).sum(axis=0)
     assert eff == pytest.approx(min(5 * (1 - r[0] * r[1]) / (1 + r[0] * r[1]), 5))  # never above T
     assert per[0] == pytest.approx(min(5 * (1 - r[0]) / (1 + r[0]), 5))
+
+
+def test_a_series_of_few_steps_cannot_be_judged_and_raises_no_statsmodels_warning():
+    import warnings
+
+    # 0, 0, 0, 1 repeated: statsmodels' ADF regression is rank-deficient (SingularMatrixWarning) and
+    # reports p = 0.0, which would read as "stationary"
+    steps = np.tile([0.0, 0.0, 0.0, 1.0], 15)
+    noise = np.random.default_rng(0).normal(size=60)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        report = series_diagnostics(np.column_stack([steps, noise]), names=["steps", "noise"])
+    assert report.series[0].verdict == "cannot be judged"
+    assert report.series[1].verdict == "stationary"

@@ -178,7 +178,7 @@ def series_diagnostics(x, *, names: Sequence[str], alpha: float = 0.05) -> Trend
            159-178, 1992.
     .. [3] C. W. J. Granger and P. Newbold, Journal of Econometrics 2(2), 111-120, 1974.
     """
-    from statsmodels.tools.sm_exceptions import InterpolationWarning
+    from statsmodels.tools.sm_exceptions import InterpolationWarning, SingularMatrixWarning
     from statsmodels.tsa.stattools import adfuller, kpss
 
     a = np.asarray(x, dtype=float)
@@ -199,13 +199,19 @@ def series_diagnostics(x, *, names: Sequence[str], alpha: float = 0.05) -> Trend
             out.append(SeriesDiagnostic(name, np.nan, np.nan, np.nan, np.nan, "cannot be judged",
                                         float(r1[j]), float(per[j])))
             continue
-        with warnings.catch_warnings():  # tuple-return notices of statsmodels >= 0.15; table-edge p-values
+        with warnings.catch_warnings(record=True) as caught:
+            # tuple-return notices of statsmodels >= 0.15 and table-edge p-values are expected; a
+            # rank-deficient ADF design (a series with few distinct steps) is recorded and judged below
             warnings.simplefilter("ignore", InterpolationWarning)
             warnings.simplefilter("ignore", FutureWarning)
+            warnings.simplefilter("always", SingularMatrixWarning)
             adf = adfuller(col, regression="c", autolag="AIC")
             kp = kpss(col, regression="c", nlags="auto")
+        singular = any(issubclass(w.category, SingularMatrixWarning) for w in caught)
         adf_rej, kpss_rej = adf[1] < alpha, kp[1] < alpha
-        verdict = ("stationary" if adf_rej and not kpss_rej else
+        # a rank-deficient test regression gives no valid p-value: the series cannot be judged
+        verdict = ("cannot be judged" if singular or not np.isfinite(adf[1]) else
+                   "stationary" if adf_rej and not kpss_rej else
                    "trending" if kpss_rej and not adf_rej else "cannot be judged")
         out.append(SeriesDiagnostic(name, float(adf[0]), float(adf[1]), float(kp[0]), float(kp[1]), verdict,
                                     float(r1[j]), float(per[j])))
