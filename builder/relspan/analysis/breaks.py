@@ -87,7 +87,7 @@ import numpy as np
 
 from relspan.analysis._common import jsonable
 from relspan.analysis.intervals import direct_rotation, largest_angle_stack
-from relspan.analysis.resample import (GranuleStats, draw_granules, merge_weighted,
+from relspan.analysis.resample import (GranuleStats, _flat_top, draw_granules, merge_weighted,
                                        politis_white_block_length, scale_stack)
 from relspan.errors import OptionsError
 
@@ -311,11 +311,6 @@ def _scores(c, m, cm, basis) -> np.ndarray:
     d = m - (c @ m) / c.sum()
     mom = cm + c[:, None, None] * d[:, :, None] * d[:, None, :]
     return (basis.T[None] @ mom @ comp[None]).reshape(k, q * (n - q))
-
-
-def _flat_top(t: np.ndarray) -> np.ndarray:
-    a = np.abs(t)
-    return np.where(a <= 0.5, 1.0, np.where(a <= 1.0, 2.0 * (1.0 - a), 0.0))
 
 
 def long_run_ratio(scores) -> float:
