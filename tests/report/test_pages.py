@@ -608,6 +608,19 @@ def test_reproduce_page_lists_inputs_with_checksums_and_nothing_that_changes_bet
     assert not re.search(r"\b20\d\d-\d\d-\d\d\b", text)
 
 
+def test_reproduce_page_patterns_cover_every_figure_file_the_site_holds(site):
+    # the per-window maps live in figures/<id>/<plan>/: a pattern of the top folder alone missed them
+    import fnmatch
+
+    out, _ = site
+    text = _text(_main(_read(out, "reproduce.html")))
+    patterns = set(re.findall(r"figures/[\w<>./*-]+\*\.\w+", text))
+    for f in sorted(p.relative_to(out).as_posix() for p in (out / "figures").rglob("*") if p.is_file()):
+        parts = f.split("/")
+        assert any(fnmatch.fnmatchcase(f, pat.replace("<plan>", parts[2] if len(parts) == 4 else "\0"))
+                   and pat.count("/") == f.count("/") for pat in patterns), f
+
+
 def test_downloads_page_links_every_dataset_table_csv(site):
     out, run = site
     page = _main(_read(out, "downloads.html"))

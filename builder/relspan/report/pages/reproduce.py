@@ -35,6 +35,11 @@ def _outputs(run, pub: Publisher) -> list[tuple[str, str, str]]:
         rows.append((f"{title}: every figure (image and its data)", build,
                      ", ".join(f"figures/{ds.id}/*.{f}" for f in (pub.fmt,) + pub.also)
                      + f" and figures/{ds.id}/*.csv"))
+        # figures are still jobs when this page is laid out: their folders say where they will be
+        if any(job.folder.startswith(f"figures/{ds.id}/") for job in pub.jobs):
+            rows.append((f"{title}: figures of each window page (image and its data)", build,
+                         ", ".join(f"figures/{ds.id}/<plan>/*.{f}" for f in (pub.fmt,) + pub.also)
+                         + f" and figures/{ds.id}/<plan>/*.csv"))
         rows.append((f"{title}: all results", build, f"data/{ds.id}/results.json"))
         rows.append((f"{title}: full sample and windows, full precision", build,
                      f"data/{ds.id}/assumptions.csv, data/{ds.id}/windows.csv"))
