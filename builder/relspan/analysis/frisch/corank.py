@@ -37,11 +37,11 @@ from relspan.analysis._common import check_whole
 from relspan.analysis._export import fields_dict, frame
 from relspan.analysis.frisch._base import check_eps, correlation, frisch_cov
 from relspan.analysis.frisch.minrank import _certify, _relations_back, _Searcher
-from relspan.analysis.frisch.mintrace import _MT_GAP, MinimumTrace, _barrier_trace
+from relspan.analysis.frisch.mintrace import _MT_GAP, MinimumTrace, _barrier_batch, _barrier_trace
 from relspan.errors import OptionsError
 
 __all__ = ["CorankCertificate", "FrischCorank", "FrischCorankStack", "ledermann_corank", "frisch_max_corank",
-           "corank_verdict", "frisch_corank_stack"]
+           "frisch_max_corank_many", "corank_verdict", "frisch_corank_stack"]
 
 
 def ledermann_corank(n: int) -> int:
@@ -333,15 +333,23 @@ def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: floa
     .. [6] C. Spearman, American Journal of Psychology 15(2), 1904 (triad).
     """
     s, nm = frisch_cov(cov, names)
-    n = s.shape[0]
     eps, eps_imp = _check_eps_pair(eps, eps_impossible)
     starts = check_whole(starts, key="starts", minimum=1)
     seed = check_whole(seed, key="seed", minimum=0)
     warm_d = _warm_shares(warm, s)
     r, sd = correlation(s)
     search = _Searcher(r, eps)
+    return _max_corank(s, nm, r, sd, search, _barrier_trace(search.rb, np.ones(s.shape[0]), gap_tol=_MT_GAP),
+                       eps=eps, eps_imp=eps_imp, starts=starts, seed=seed, max_iter=max_iter, warm_d=warm_d)
+
+
+def _max_corank(s: np.ndarray, nm: tuple[str, ...], r: np.ndarray, sd: np.ndarray, search: _Searcher,
+                mt_solution: tuple[np.ndarray, float, int], *, eps: float, eps_imp: float, starts: int,
+                seed: int, max_iter: int, warm_d: dict[int, np.ndarray]) -> FrischCorank:
+    """:func:`frisch_max_corank` after its checks, given the minimum-trace solve of ``search.rb``."""
+    n = s.shape[0]
     rng = np.random.default_rng(seed)
-    d_mt, gap, steps = _barrier_trace(search.rb, np.ones(n), gap_tol=_MT_GAP)
+    d_mt, gap, steps = mt_solution
     # Minimum trace on the correlation scale: max sum_j d_j / s_jj on the covariance scale.
     mt = MinimumTrace(d_mt * sd ** 2, 1.0 / sd ** 2, float(np.sum(d_mt)), gap,
                       float(np.linalg.eigvalsh(s - np.diag(d_mt * sd ** 2))[0]), steps)
@@ -452,6 +460,83 @@ def _check_eps_pair(eps: Any, eps_impossible: Any) -> tuple[float, float]:
                            key="eps_impossible",
                            fix="pass the pair from NoiseTolerance.diagonal_eps(), or leave it out.")
     return eps, eps_imp
+
+
+def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | None = None, starts: int = 8,
+                           seed: int = 0, max_iter: int = 25) -> tuple[FrischCorank | None, ...]:
+    """:func:`frisch_max_corank` of every covariance of a stack, the minimum-trace solves stacked.
+
+    The same results, bit for bit, as one :func:`frisch_max_corank` call per
+    covariance (without ``warm``): the minimum-trace problems of all
+    covariances (the first and costliest solve of each analysis) run as one
+    batched barrier solve, in which each problem takes exactly the iterates
+    it takes alone (:func:`relspan.analysis.frisch.mintrace._barrier_batch`);
+    the search for each corank then runs per covariance as before.
+
+    Parameters
+    ----------
+    covs : (B, n, n) array_like
+        Covariances (e.g. resamples of one window).
+    eps, eps_impossible, starts, seed, max_iter
+        As for :func:`frisch_max_corank`, shared by all covariances.
+
+    Returns
+    -------
+    tuple of (FrischCorank or None)
+        One per covariance; None for one the analysis cannot take (a
+        constant variable, a matrix that is not positive semidefinite, or a
+        numerical failure), where :func:`frisch_max_corank` raises.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(0)
+    >>> x = rng.standard_normal((200, 2)) @ rng.standard_normal((2, 4)) + 0.3 * rng.standard_normal((200, 4))
+    >>> covs = np.stack([np.cov(x[rng.integers(0, 200, 200)].T) for _ in range(5)])
+    >>> many = frisch_max_corank_many(covs, eps=0.01, starts=1)
+    >>> [c.max_certified for c in many] == [frisch_max_corank(c, eps=0.01, starts=1).max_certified for c in covs]
+    True
+    """
+    c = np.asarray(covs, dtype=float)
+    if c.ndim != 3 or c.shape[1] != c.shape[2]:
+        raise OptionsError(f"covs must be a (B, n, n) stack of covariances; got shape {c.shape}.", key="covs",
+                           fix="stack the covariances with numpy.stack.")
+    eps, eps_imp = _check_eps_pair(eps, eps_impossible)
+    starts = check_whole(starts, key="starts", minimum=1)
+    seed = check_whole(seed, key="seed", minimum=0)
+    prepared: list[tuple | None] = []
+    for cov in c:
+        try:
+            s, nm = frisch_cov(cov, None)
+            r, sd = correlation(s)
+            prepared.append((s, nm, r, sd, _Searcher(r, eps)))
+        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+            prepared.append(None)
+    ok = [i for i, p in enumerate(prepared) if p is not None]
+    solved: dict[int, tuple[np.ndarray, float, int]] = {}
+    if ok:
+        rb = np.stack([prepared[i][4].rb for i in ok])
+        try:
+            d, gap, steps = _barrier_batch(rb, np.ones(c.shape[1]), gap_tol=_MT_GAP)
+            solved = {i: (d[k], float(gap[k]), int(steps[k])) for k, i in enumerate(ok)}
+        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+            for i in ok:     # one problem failed the stacked solve: each alone, as the loop would
+                try:
+                    solved[i] = _barrier_trace(prepared[i][4].rb, np.ones(c.shape[1]), gap_tol=_MT_GAP)
+                except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+                    pass
+    out: list[FrischCorank | None] = []
+    for i, p in enumerate(prepared):
+        if p is None or i not in solved:
+            out.append(None)
+            continue
+        s, nm, r, sd, search = p
+        try:
+            out.append(_max_corank(s, nm, r, sd, search, solved[i], eps=eps, eps_imp=eps_imp, starts=starts,
+                                   seed=seed, max_iter=max_iter, warm_d={}))
+        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+            out.append(None)
+    return tuple(out)
 
 
 def corank_verdict(cor: FrischCorank) -> int | None:
