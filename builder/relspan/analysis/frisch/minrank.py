@@ -73,8 +73,8 @@ class _Searcher:
         """
         return cls(r + eps * np.eye(r.shape[0]), 2.0 * eps, certify=(r, eps))
 
-    def solve(self, w: np.ndarray, gap: float | None = None) -> np.ndarray:
-        """Weighted trace problems, one per row of ``w``."""
+    def solve(self, w: np.ndarray, gap: float | np.ndarray | None = None) -> np.ndarray:
+        """Weighted trace problems, one per row of ``w`` (``gap``: one target, or one per row)."""
         d, _, _ = _barrier_batch(self.rb, w, gap_tol=self.gap if gap is None else gap)
         return d
 
@@ -203,11 +203,9 @@ class _Searcher:
                 break
             w = np.sum(vec[keep][:, :, :q] ** 2, axis=2)
             rows = idx[keep]
-            for level in (False, True):
-                sel = fine[rows] == level
-                if not sel.any():
-                    continue
-                d[rows[sel]] = self.solve(w[sel], self.gap if level else self.gap_coarse)
+            # coarse and fine runs in one stacked solve, each at its own precision (each
+            # problem of a stack takes the iterates it takes alone)
+            d[rows] = self.solve(w, np.where(fine[rows], self.gap, self.gap_coarse))
             solves += int(keep.sum())
         return d, solves
 

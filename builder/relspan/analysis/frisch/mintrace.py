@@ -71,6 +71,26 @@ class MinimumTrace:
         return fields_dict(self)
 
 
+def _positive_definite(m: np.ndarray) -> np.ndarray:
+    """Per matrix of a (B, n, n) stack: does its Cholesky factorisation exist (positive definite)?
+
+    One batched factorisation; only when one of them fails, each alone.
+    """
+    try:
+        np.linalg.cholesky(m)
+        return np.ones(m.shape[0], dtype=bool)
+    except np.linalg.LinAlgError:
+        pass
+    ok = np.zeros(m.shape[0], dtype=bool)
+    for b in range(m.shape[0]):
+        try:
+            np.linalg.cholesky(m[b])
+            ok[b] = True
+        except np.linalg.LinAlgError:
+            pass
+    return ok
+
+
 def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: float = 20.0,
                    max_newton: int = 400):
     """Log-barrier Newton method for ``max w_b'd s.t. R_b - diag(d) PD, d > 0``, many problems at once.
@@ -123,12 +143,13 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
         dd, tt, ww, rr = d[idx], t[idx], wn[idx], rs[idx]
         lam2 = np.full(idx.size, np.inf)
         waiting = np.zeros(idx.size, dtype=bool)   # centred in this round: counts no more steps
+        taken = np.zeros(idx.size, dtype=int)
         for _ in range(40):
             m = rr - dd[:, :, None] * eye
             lc = np.linalg.cholesky(m)
             li = np.linalg.inv(lc)
-            wm = np.swapaxes(li, 1, 2) @ li
-            g = -tt[:, None] * ww + np.diagonal(wm, axis1=1, axis2=2) - 1.0 / dd
+            wm = li.transpose(0, 2, 1) @ li
+            g = -tt[:, None] * ww + wm.diagonal(axis1=1, axis2=2) - 1.0 / dd
             # Newton system scaled by diag(d): (d W d) o (d W d) + I is well conditioned
             # even when some d_j -> 0.
             h = dd[:, :, None] * (wm * wm) * dd[:, None, :] + eye
@@ -143,27 +164,30 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
                     except np.linalg.LinAlgError:
                         y[b] = np.linalg.lstsq(h[b], dd[b] * g[b], rcond=None)[0]
             dx = -dd * y
-            lam2 = -np.sum(g * dx, axis=1)
-            bad = ~np.all(np.isfinite(dx), axis=1) | ~np.isfinite(lam2)
-            dx[bad] = 0.0
-            lam2[bad] = 0.0
-            steps[idx[~waiting]] += 1
+            lam2 = -(g * dx).sum(axis=1)
+            finite = np.isfinite(lam2)
+            if not finite.all():
+                # (a finite lam2 implies a finite dx: any infinite or NaN term makes the sum so)
+                bad = ~np.isfinite(dx).all(axis=1) | ~finite
+                dx[bad] = 0.0
+                lam2[bad] = 0.0
+            taken += ~waiting
             done = lam2 <= 1e-8
             waiting |= done
             if done.all():
                 break
+            going = ~done
             # Inside the Dikin ellipsoid (lam2 < 1/4) the full Newton step is
             # feasible and converges quadratically (self-concordance).
             # Rounding can still break that when R - D is nearly singular, so
             # every full step is checked before it is taken.
             step = np.where(done, 0.0, 1.0)
-            quad = np.flatnonzero((lam2 < 0.25) & ~done)
+            quad = ((lam2 < 0.25) & going).nonzero()[0]
             full_ok = np.zeros(dd.shape[0], dtype=bool)
             if quad.size:
                 dq = dd[quad] + dx[quad]
-                evq = np.linalg.eigvalsh(rr[quad] - dq[:, :, None] * eye)[:, 0]
-                full_ok[quad] = (evq > 0) & np.all(dq > 0, axis=1)
-            damp = np.flatnonzero(~full_ok & ~done)
+                full_ok[quad] = _positive_definite(rr[quad] - dq[:, :, None] * eye) & (dq > 0).all(axis=1)
+            damp = (going & ~full_ok).nonzero()[0]
             if damp.size:
                 lid, dxd, ddd, rd = li[damp], dx[damp], dd[damp], rr[damp]
                 gm = (lid * dxd[:, None, :]) @ np.swapaxes(lid, 1, 2)
@@ -195,6 +219,7 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
                 s[todo] = 0.0
                 step[damp] = s
             dd = dd + step[:, None] * dx
+        steps[idx] += taken
         # Centring that has not converged goes on at the same t, except at large
         # t, where the cause is rounding (R - D singular to working precision):
         # such a problem falls back to its last centred iterate and stops.
