@@ -36,7 +36,7 @@ import numpy as np
 from relspan.analysis._common import check_whole
 from relspan.analysis._export import fields_dict, frame
 from relspan.analysis.frisch._base import check_eps, correlation, frisch_cov
-from relspan.analysis.frisch.minrank import _certify, _relations_back, _Searcher
+from relspan.analysis.frisch.minrank import _certify, _descend_many, _relations_back, _Searcher
 from relspan.analysis.frisch.mintrace import _MT_GAP, MinimumTrace, _barrier_batch, _barrier_trace
 from relspan.errors import OptionsError
 
@@ -344,9 +344,68 @@ def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: floa
 
 
 def _max_corank(s: np.ndarray, nm: tuple[str, ...], r: np.ndarray, sd: np.ndarray, search: _Searcher,
-                mt_solution: tuple[np.ndarray, float, int], *, eps: float, eps_imp: float, starts: int,
-                seed: int, max_iter: int, warm_d: dict[int, np.ndarray]) -> FrischCorank:
+                mt_solution: tuple[np.ndarray, float, int], **kw: Any) -> FrischCorank:
     """:func:`frisch_max_corank` after its checks, given the minimum-trace solve of ``search.rb``."""
+    steps = _max_corank_steps(s, nm, r, sd, search, mt_solution, **kw)
+    try:
+        ask = next(steps)
+        while True:
+            searcher, q, d0, max_iter = ask
+            ask = steps.send(searcher.descend(q, d0, max_iter=max_iter, stop_on_first=True))
+    except StopIteration as done:
+        return done.value
+
+
+def _max_coranks_lockstep(runs: list) -> list:
+    """Run many :func:`_max_corank_steps` generators, their descents stacked (one per round and corank).
+
+    Each generator gets exactly what :meth:`_Searcher.descend` gives it alone
+    (:func:`relspan.analysis.frisch.minrank._descend_many`). An exception in
+    one run ends that run only: its place in the result holds None.
+    """
+    out: list = [None] * len(runs)
+    asks: dict[int, tuple] = {}
+
+    def advance(i: int, sent: Any) -> None:
+        try:
+            asks[i] = runs[i].send(sent)
+        except StopIteration as done:
+            out[i] = done.value
+            asks.pop(i, None)
+        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+            asks.pop(i, None)
+
+    for i in range(len(runs)):
+        advance(i, None)
+    while asks:
+        by_key: dict[tuple[int, int], list[int]] = {}
+        for i, (_, q, _, max_iter) in asks.items():
+            by_key.setdefault((q, max_iter), []).append(i)
+        for (q, max_iter), ids in sorted(by_key.items()):
+            try:
+                got = _descend_many([(asks[i][0], asks[i][2]) for i in ids], q, max_iter=max_iter,
+                                    stop_on_first=True)
+            except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+                got = []
+                for i in ids:          # one failed the stacked descent: each alone, as one call would
+                    try:
+                        got.append(asks[i][0].descend(q, asks[i][2], max_iter=max_iter, stop_on_first=True))
+                    except (ValueError, np.linalg.LinAlgError, ArithmeticError) as err:
+                        got.append(err)
+            for i, res in zip(ids, got):
+                if isinstance(res, Exception):
+                    asks.pop(i, None)
+                else:
+                    advance(i, res)
+    return out
+
+
+def _max_corank_steps(s: np.ndarray, nm: tuple[str, ...], r: np.ndarray, sd: np.ndarray, search: _Searcher,
+                      mt_solution: tuple[np.ndarray, float, int], *, eps: float, eps_imp: float, starts: int,
+                      seed: int, max_iter: int, warm_d: dict[int, np.ndarray]):
+    """The body of :func:`_max_corank` as a generator: it yields each descent it needs
+    ``(searcher, q, d0, max_iter)`` (always ``stop_on_first``), is sent ``(d, solves)``, and
+    returns the :class:`FrischCorank`."""
     n = s.shape[0]
     rng = np.random.default_rng(seed)
     d_mt, gap, steps = mt_solution
@@ -395,7 +454,7 @@ def _max_corank(s: np.ndarray, nm: tuple[str, ...], r: np.ndarray, sd: np.ndarra
                 tried = 1 + (starts - 1)
                 closest, closest_en = first, np.inf
                 for labs, d0 in batches:
-                    d1s, it = search.descend(q, d0, max_iter=max_iter, stop_on_first=True)
+                    d1s, it = yield search, q, d0, max_iter
                     iters += it
                     for lab, d1 in zip(labs, d1s):
                         ok, lam, en = _certify(r, d1, q, eps)
@@ -412,8 +471,7 @@ def _max_corank(s: np.ndarray, nm: tuple[str, ...], r: np.ndarray, sd: np.ndarra
                     # R - D indefinite: the same search on R + eps I (see the docstring).
                     if shifted is None:
                         shifted = _Searcher.indefinite(r, eps)
-                    d1s, it = shifted.descend(q, np.array([closest, d_mt]), max_iter=max_iter,
-                                              stop_on_first=True)
+                    d1s, it = yield shifted, q, np.array([closest, d_mt]), max_iter
                     iters += it
                     for d1 in d1s:
                         ok, lam, en = _certify(r, d1, q, eps)
@@ -471,7 +529,8 @@ def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | Non
     covariances (the first and costliest solve of each analysis) run as one
     batched barrier solve, in which each problem takes exactly the iterates
     it takes alone (:func:`relspan.analysis.frisch.mintrace._barrier_batch`);
-    the search for each corank then runs per covariance as before.
+    the searches of all covariances then run in lockstep, corank by corank,
+    their descents stacked the same way.
 
     Parameters
     ----------
@@ -525,17 +584,12 @@ def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | Non
                     solved[i] = _barrier_trace(prepared[i][4].rb, np.ones(c.shape[1]), gap_tol=_MT_GAP)
                 except (ValueError, np.linalg.LinAlgError, ArithmeticError):
                     pass
-    out: list[FrischCorank | None] = []
-    for i, p in enumerate(prepared):
-        if p is None or i not in solved:
-            out.append(None)
-            continue
-        s, nm, r, sd, search = p
-        try:
-            out.append(_max_corank(s, nm, r, sd, search, solved[i], eps=eps, eps_imp=eps_imp, starts=starts,
-                                   seed=seed, max_iter=max_iter, warm_d={}))
-        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
-            out.append(None)
+    order = [i for i in ok if i in solved]
+    runs = [_max_corank_steps(*prepared[i][:5], solved[i], eps=eps, eps_imp=eps_imp, starts=starts, seed=seed,
+                              max_iter=max_iter, warm_d={}) for i in order]
+    out: list[FrischCorank | None] = [None] * len(prepared)
+    for i, res in zip(order, _max_coranks_lockstep(runs)):
+        out[i] = res
     return tuple(out)
 
 

@@ -121,13 +121,12 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
     wscale = np.where(wscale > 0, wscale, 1.0)
     wn = w / wscale[:, None]
     if r.ndim == 2:
-        b1 = 1.0 / np.diag(np.linalg.inv(r))
-        bound = np.tile(b1, (nb, 1))
-        wd_scale = np.maximum(1.0, np.abs(wn) @ b1)
+        bound = np.tile(1.0 / np.diag(np.linalg.inv(r)), (nb, 1))
     else:
         bound = 1.0 / np.diagonal(np.linalg.inv(rs), axis1=1, axis2=2)
-        # row by row, as each problem alone computes it (the same bits)
-        wd_scale = np.maximum(1.0, np.array([(np.abs(wn[b:b + 1]) @ bound[b])[0] for b in range(nb)]))
+    # one product per problem, so that its bits do not depend on the other problems
+    aw = np.abs(wn)
+    wd_scale = np.maximum(1.0, np.array([aw[b] @ bound[b] for b in range(nb)]))
     # sum_j d_j / bound_j <= 1 makes diag(d) a convex combination of matrices <= R.
     d = bound / (2.0 * n)
     t = np.ones(nb)
