@@ -77,3 +77,13 @@ def test_resample_coranks_of_a_stack_equal_one_call_per_resample():
         assert q == q1
         assert {k: (v.status, v.noise_share) for k, v in certs.items()} == \
             {k: (v.status, v.noise_share) for k, v in certs1.items()}
+
+
+def test_warm_started_stack_gives_each_resample_its_own_warm_search():
+    covs = _resamples(6, 5, 2, b=10, rows=30)
+    est = frisch_max_corank(np.mean(covs, axis=0), eps=0.01)
+    many = frisch_max_corank_many(covs, eps=0.01, starts=2, warm=est)
+    for c, got in zip(covs, many):
+        ref = frisch_max_corank(c, eps=0.01, starts=2, warm=est)
+        assert [(x.status, x.noise_share, x.found_by) for x in got.certificates] == \
+            [(x.status, x.noise_share, x.found_by) for x in ref.certificates]

@@ -521,11 +521,11 @@ def _check_eps_pair(eps: Any, eps_impossible: Any) -> tuple[float, float]:
 
 
 def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | None = None, starts: int = 8,
-                           seed: int = 0, max_iter: int = 25) -> tuple[FrischCorank | None, ...]:
+                           seed: int = 0, max_iter: int = 25, warm: Any = None) -> tuple[FrischCorank | None, ...]:
     """:func:`frisch_max_corank` of every covariance of a stack, the minimum-trace solves stacked.
 
     The same results, bit for bit, as one :func:`frisch_max_corank` call per
-    covariance (without ``warm``): the minimum-trace problems of all
+    covariance (with the same ``warm``): the minimum-trace problems of all
     covariances (the first and costliest solve of each analysis) run as one
     batched barrier solve, in which each problem takes exactly the iterates
     it takes alone (:func:`relspan.analysis.frisch.mintrace._barrier_batch`);
@@ -536,7 +536,7 @@ def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | Non
     ----------
     covs : (B, n, n) array_like
         Covariances (e.g. resamples of one window).
-    eps, eps_impossible, starts, seed, max_iter
+    eps, eps_impossible, starts, seed, max_iter, warm
         As for :func:`frisch_max_corank`, shared by all covariances.
 
     Returns
@@ -568,7 +568,11 @@ def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | Non
         try:
             s, nm = frisch_cov(cov, None)
             r, sd = correlation(s)
-            prepared.append((s, nm, r, sd, _Searcher(r, eps)))
+            prepared.append((s, nm, r, sd, _Searcher(r, eps), _warm_shares(warm, s)))
+        except OptionsError as err:
+            if err.key == "warm":
+                raise
+            prepared.append(None)
         except (ValueError, np.linalg.LinAlgError, ArithmeticError):
             prepared.append(None)
     ok = [i for i, p in enumerate(prepared) if p is not None]
@@ -586,7 +590,7 @@ def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | Non
                     pass
     order = [i for i in ok if i in solved]
     runs = [_max_corank_steps(*prepared[i][:5], solved[i], eps=eps, eps_imp=eps_imp, starts=starts, seed=seed,
-                              max_iter=max_iter, warm_d={}) for i in order]
+                              max_iter=max_iter, warm_d=prepared[i][5]) for i in order]
     out: list[FrischCorank | None] = [None] * len(prepared)
     for i, res in zip(order, _max_coranks_lockstep(runs)):
         out[i] = res
@@ -721,14 +725,22 @@ def frisch_corank_stack(covs: Any, *, eps: float, eps_impossible: float | None =
             # a few ten Berge & Kiers iterations from it, per resample, usually settle it.
             retry = np.flatnonzero(~ok & (nxt_ruled if qw < n - 1 else np.ones(b, dtype=bool))
                                    & np.all(d >= 0, axis=1))
-            for i in retry:
-                d1, _ = _Searcher(r[i], eps).descend(qw, d[i][None, :], max_iter=8, stop_on_first=True)
-                if _certify(r[i], d1[0], qw, eps)[0]:
-                    nxt[i] = True
+            if retry.size:      # stacked: each resample's descent as alone
+                ends = _descend_many([(_Searcher(r[i], eps), d[i][None, :]) for i in retry], qw, max_iter=8,
+                                     stop_on_first=True)
+                for i, (d1, _) in zip(retry, ends):
+                    if _certify(r[i], d1[0], qw, eps)[0]:
+                        nxt[i] = True
             for i in np.flatnonzero(nxt):
                 out[i] = qw
             done = nxt
-    for i in np.flatnonzero(~done):
-        out[i] = corank_verdict(frisch_max_corank(c[i], eps=eps, eps_impossible=eps_imp, starts=starts,
-                                                  seed=seed, warm=cor))
+    rest = np.flatnonzero(~done)
+    if rest.size:
+        # every other resample gets the full search (warm-started), all of them in lockstep
+        many = frisch_max_corank_many(c[rest], eps=eps, eps_impossible=eps_imp, starts=starts, seed=seed,
+                                      warm=cor)
+        for i, res in zip(rest, many):
+            if res is None:     # what frisch_max_corank raises for this resample, raised here
+                res = frisch_max_corank(c[i], eps=eps, eps_impossible=eps_imp, starts=starts, seed=seed, warm=cor)
+            out[i] = corank_verdict(res)
     return FrischCorankStack(tuple(out), eps, eps_imp, int(done.sum()))
