@@ -174,40 +174,7 @@ class _Searcher:
         ``stop_on_first``, all runs stop once one reaches the target.
         Returns ``(d, solves)``.
         """
-        d = np.array(np.atleast_2d(d0), dtype=float)
-        nb, n = d.shape
-        target = 0.01 * self.eps
-        f_old = np.full(nb, np.inf)
-        active = np.ones(nb, dtype=bool)
-        fine = np.zeros(nb, dtype=bool)
-        eye = np.eye(n)
-        solves = 0
-        for it in range(1, max_iter + 1):
-            idx = np.flatnonzero(active)
-            lam, vec = np.linalg.eigh(self.r[None] - d[idx][:, :, None] * eye)
-            f = lam[:, :q].sum(axis=1)
-            # reached: ||E|| <= target (q eigenvalues near 0 and none negative)
-            reached = (np.max(np.abs(lam[:, :q]), axis=1) <= target) & (lam[:, 0] >= -target)
-            stop = reached.copy()
-            stalled = f_old[idx] - f <= np.maximum(1e-10 * np.maximum(1.0, np.abs(f)), 1e-3 * f)
-            promote = stalled & ~fine[idx] & ~reached & (
-                lam[:, q - 1] <= self.eps + 10.0 * self.gap_coarse)
-            stop |= stalled & ~promote
-            fine[idx[promote]] = True
-            f_old[idx] = np.where(promote, np.inf, f)
-            if stop_on_first and reached.any():
-                break
-            active[idx[stop]] = False
-            keep = ~stop
-            if not keep.any():
-                break
-            w = np.sum(vec[keep][:, :, :q] ** 2, axis=2)
-            rows = idx[keep]
-            # coarse and fine runs in one stacked solve, each at its own precision (each
-            # problem of a stack takes the iterates it takes alone)
-            d[rows] = self.solve(w, np.where(fine[rows], self.gap, self.gap_coarse))
-            solves += int(keep.sum())
-        return d, solves
+        return _descend_many([(self, d0)], q, max_iter=max_iter, stop_on_first=stop_on_first)[0]
 
 
 def _descend_many(requests: list[tuple["_Searcher", np.ndarray]], q: int, *, max_iter: int,
