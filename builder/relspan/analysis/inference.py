@@ -547,7 +547,9 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     nobs : float
         Rows of the window.
     diagonal : callable, optional
-        ``diagonal(cov, warm) -> (q, certificates)``; default :func:`diagonal_corank_of`.
+        ``diagonal(cov, warm) -> (q, certificates)``, one resample at a time; by default
+        :func:`diagonal_coranks_of` takes the whole stack at once (the same results as
+        :func:`diagonal_corank_of` per resample).
 
     Returns
     -------

@@ -670,12 +670,13 @@ def frisch_corank_stack(covs: Any, *, eps: float, eps_impossible: float | None =
 
     Notes
     -----
-    Cost, measured by ``benchmarks/bench_frisch.py`` (second table, 99 iid
-    resamples of 200 rows, tolerance 0.01, a shared 2-core machine): 14-28 ms
-    per resample at n = 4, 170-260 ms at n = 6, 260-530 ms at n = 8 and
-    430-1150 ms at n = 10; most of it is spent where the fast path does not
-    settle (the search for a corank the estimate left undetermined). A
-    resample settled by the fast path costs two small batched
+    Cost, measured by ``benchmarks/bench_frisch.py resamples`` (its last table:
+    99 iid resamples of 200 rows, tolerance 0.01, CPU time on a shared 2-core
+    machine): 0.8 ms per resample at n = 4, 6 ms at n = 6, 11 ms at n = 8 and
+    31 ms at n = 10 (docs/performance.md, section 7); the resamples the fast
+    path does not settle are searched in lockstep
+    (:func:`frisch_max_corank_many`). A resample settled by the fast path
+    costs its share of two small batched
     eigendecompositions and one batched inverse.
 
     Examples
