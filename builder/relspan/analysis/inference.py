@@ -62,7 +62,7 @@ from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, Granule
 
 __all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInference", "window_inference",
            "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
-           "imbens_manski_outer", "diagonal_corank_of", "DEFAULT_DIAGONAL_RESAMPLES",
+           "imbens_manski_outer", "diagonal_corank_of", "diagonal_coranks_of", "DEFAULT_DIAGONAL_RESAMPLES",
            "EQUAL_RULE", "FULL_SAMPLE_PLAN", "DIAGONAL_PLAN_KINDS",
            "DIAGONAL_SCOPE_RULE", "diagonal_scope", "MANY_WINDOWS", "MANY_WINDOWS_RESAMPLES",
            "MANY_WINDOWS_RULE"]
@@ -364,6 +364,7 @@ def diagonal_corank_of(cov: np.ndarray, warm: Any, *, eps: float, seed: int) -> 
     largest certified corank, or None when a larger one is neither certified
     nor ruled out (the window analysis's rule). ``warm`` is accepted for a
     warm-started search and not used yet. Returns ``(q, certificates by q)``.
+    :func:`diagonal_coranks_of` gives the same for a stack, faster.
 
     References
     ----------
@@ -371,7 +372,28 @@ def diagonal_corank_of(cov: np.ndarray, warm: Any, *, eps: float, seed: int) -> 
     """
     from relspan.analysis.frisch import frisch_max_corank
 
-    cor = frisch_max_corank(cov, eps=eps, starts=1, seed=seed)
+    return _corank_and_certificates(frisch_max_corank(cov, eps=eps, starts=1, seed=seed))
+
+
+def diagonal_coranks_of(covs: np.ndarray, *, eps: float, seed: int) -> list[tuple[int | None, Any]]:
+    """:func:`diagonal_corank_of` of every covariance of a ``(B, n, n)`` stack, bit for bit.
+
+    The minimum-trace solves of all resamples run as one batched solve
+    (:func:`relspan.analysis.frisch.frisch_max_corank_many`). A resample the
+    search cannot take gives ``(None, {})`` (undetermined), as a
+    ``ValueError``, ``LinAlgError`` or ``ArithmeticError`` of
+    :func:`diagonal_corank_of` does in :func:`window_inference`.
+    """
+    from relspan.analysis.frisch import frisch_max_corank_many
+
+    covs = np.asarray(covs, dtype=float)
+    if covs.shape[0] == 0:
+        return []
+    return [(None, {}) if cor is None else _corank_and_certificates(cor)
+            for cor in frisch_max_corank_many(covs, eps=eps, starts=1, seed=seed)]
+
+
+def _corank_and_certificates(cor: Any) -> tuple[int | None, Any]:
     top = cor.max_certified
     q: int | None = int(top)
     for cert in cor.certificates:
@@ -525,7 +547,9 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     nobs : float
         Rows of the window.
     diagonal : callable, optional
-        ``diagonal(cov, warm) -> (q, certificates)``; default :func:`diagonal_corank_of`.
+        ``diagonal(cov, warm) -> (q, certificates)``, one resample at a time; by default
+        :func:`diagonal_coranks_of` takes the whole stack at once (the same results as
+        :func:`diagonal_corank_of` per resample).
 
     Returns
     -------
@@ -641,12 +665,13 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
         d_b = min(options.diagonal_resamples, res.resamples)
         q_hat = estimates.get("diagonal_q")
         if d_b > 0:
-            fn = diagonal or (lambda s, w: diagonal_corank_of(s, w, eps=eps, seed=options.seed))
+            # the default search on the whole stack at once (the same results as one call each)
+            stacked = diagonal_coranks_of(on_scale[:d_b], eps=eps, seed=options.seed) if diagonal is None else None
             got, undet, shares = [], 0, []
             warm = None
-            for s in on_scale[:d_b]:
+            for i, s in enumerate(on_scale[:d_b]):
                 try:
-                    q, certs = fn(s, warm)
+                    q, certs = stacked[i] if stacked is not None else diagonal(s, warm)
                 except (ValueError, np.linalg.LinAlgError, ArithmeticError):
                     q, certs = None, {}      # a resample the search cannot take: undetermined
                 warm = certs

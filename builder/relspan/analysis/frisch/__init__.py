@@ -28,7 +28,9 @@ What this package offers (one module per algorithm)
   (``warm=`` a previous, overlapping window's result).
 * ``corank`` also offers :func:`frisch_corank_stack`: the corank of each of
   many resampled covariances, warm-started from the estimate (resampling
-  support), and :func:`corank_verdict`.
+  support), :func:`frisch_max_corank_many` (the same as one
+  :func:`frisch_max_corank` per covariance, the minimum-trace solves of all
+  stacked into one batched solve) and :func:`corank_verdict`.
 
 Numerical method
 ----------------
@@ -127,7 +129,8 @@ References
 
 from relspan.analysis.frisch.analysis import FrischResult, frisch_analysis
 from relspan.analysis.frisch.corank import (CorankCertificate, FrischCorank, FrischCorankStack, corank_verdict,
-                                            frisch_corank_stack, frisch_max_corank, ledermann_corank)
+                                            frisch_corank_stack, frisch_max_corank, frisch_max_corank_many,
+                                            ledermann_corank)
 from relspan.analysis.frisch.identification import FrischIdentification, frisch_identification
 from relspan.analysis.frisch.mintrace import MinimumTrace, minimum_trace
 from relspan.analysis.frisch.orthant import (CoefficientInterval, FailingTriple, FrischSet, OrthantTest,
@@ -159,4 +162,5 @@ __all__ = [
     "FrischCorankStack",
     "corank_verdict",
     "frisch_corank_stack",
+    "frisch_max_corank_many",
 ]

@@ -36,12 +36,12 @@ import numpy as np
 from relspan.analysis._common import check_whole
 from relspan.analysis._export import fields_dict, frame
 from relspan.analysis.frisch._base import check_eps, correlation, frisch_cov
-from relspan.analysis.frisch.minrank import _certify, _relations_back, _Searcher
-from relspan.analysis.frisch.mintrace import _MT_GAP, MinimumTrace, _barrier_trace
+from relspan.analysis.frisch.minrank import _certify, _descend_many, _relations_back, _Searcher
+from relspan.analysis.frisch.mintrace import _MT_GAP, MinimumTrace, _barrier_batch, _barrier_trace
 from relspan.errors import OptionsError
 
 __all__ = ["CorankCertificate", "FrischCorank", "FrischCorankStack", "ledermann_corank", "frisch_max_corank",
-           "corank_verdict", "frisch_corank_stack"]
+           "frisch_max_corank_many", "corank_verdict", "frisch_corank_stack"]
 
 
 def ledermann_corank(n: int) -> int:
@@ -333,15 +333,82 @@ def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: floa
     .. [6] C. Spearman, American Journal of Psychology 15(2), 1904 (triad).
     """
     s, nm = frisch_cov(cov, names)
-    n = s.shape[0]
     eps, eps_imp = _check_eps_pair(eps, eps_impossible)
     starts = check_whole(starts, key="starts", minimum=1)
     seed = check_whole(seed, key="seed", minimum=0)
     warm_d = _warm_shares(warm, s)
     r, sd = correlation(s)
     search = _Searcher(r, eps)
+    return _max_corank(s, nm, r, sd, search, _barrier_trace(search.rb, np.ones(s.shape[0]), gap_tol=_MT_GAP),
+                       eps=eps, eps_imp=eps_imp, starts=starts, seed=seed, max_iter=max_iter, warm_d=warm_d)
+
+
+def _max_corank(s: np.ndarray, nm: tuple[str, ...], r: np.ndarray, sd: np.ndarray, search: _Searcher,
+                mt_solution: tuple[np.ndarray, float, int], **kw: Any) -> FrischCorank:
+    """:func:`frisch_max_corank` after its checks, given the minimum-trace solve of ``search.rb``."""
+    steps = _max_corank_steps(s, nm, r, sd, search, mt_solution, **kw)
+    try:
+        ask = next(steps)
+        while True:
+            searcher, q, d0, max_iter = ask
+            ask = steps.send(searcher.descend(q, d0, max_iter=max_iter, stop_on_first=True))
+    except StopIteration as done:
+        return done.value
+
+
+def _max_coranks_lockstep(runs: list) -> list:
+    """Run many :func:`_max_corank_steps` generators, their descents stacked (one per round and corank).
+
+    Each generator gets exactly what :meth:`_Searcher.descend` gives it alone
+    (:func:`relspan.analysis.frisch.minrank._descend_many`). An exception in
+    one run ends that run only: its place in the result holds None.
+    """
+    out: list = [None] * len(runs)
+    asks: dict[int, tuple] = {}
+
+    def advance(i: int, sent: Any) -> None:
+        try:
+            asks[i] = runs[i].send(sent)
+        except StopIteration as done:
+            out[i] = done.value
+            asks.pop(i, None)
+        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+            asks.pop(i, None)
+
+    for i in range(len(runs)):
+        advance(i, None)
+    while asks:
+        by_key: dict[tuple[int, int], list[int]] = {}
+        for i, (_, q, _, max_iter) in asks.items():
+            by_key.setdefault((q, max_iter), []).append(i)
+        for (q, max_iter), ids in sorted(by_key.items()):
+            try:
+                got = _descend_many([(asks[i][0], asks[i][2]) for i in ids], q, max_iter=max_iter,
+                                    stop_on_first=True)
+            except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+                got = []
+                for i in ids:          # one failed the stacked descent: each alone, as one call would
+                    try:
+                        got.append(asks[i][0].descend(q, asks[i][2], max_iter=max_iter, stop_on_first=True))
+                    except (ValueError, np.linalg.LinAlgError, ArithmeticError) as err:
+                        got.append(err)
+            for i, res in zip(ids, got):
+                if isinstance(res, Exception):
+                    asks.pop(i, None)
+                else:
+                    advance(i, res)
+    return out
+
+
+def _max_corank_steps(s: np.ndarray, nm: tuple[str, ...], r: np.ndarray, sd: np.ndarray, search: _Searcher,
+                      mt_solution: tuple[np.ndarray, float, int], *, eps: float, eps_imp: float, starts: int,
+                      seed: int, max_iter: int, warm_d: dict[int, np.ndarray]):
+    """The body of :func:`_max_corank` as a generator: it yields each descent it needs
+    ``(searcher, q, d0, max_iter)`` (always ``stop_on_first``), is sent ``(d, solves)``, and
+    returns the :class:`FrischCorank`."""
+    n = s.shape[0]
     rng = np.random.default_rng(seed)
-    d_mt, gap, steps = _barrier_trace(search.rb, np.ones(n), gap_tol=_MT_GAP)
+    d_mt, gap, steps = mt_solution
     # Minimum trace on the correlation scale: max sum_j d_j / s_jj on the covariance scale.
     mt = MinimumTrace(d_mt * sd ** 2, 1.0 / sd ** 2, float(np.sum(d_mt)), gap,
                       float(np.linalg.eigvalsh(s - np.diag(d_mt * sd ** 2))[0]), steps)
@@ -387,7 +454,7 @@ def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: floa
                 tried = 1 + (starts - 1)
                 closest, closest_en = first, np.inf
                 for labs, d0 in batches:
-                    d1s, it = search.descend(q, d0, max_iter=max_iter, stop_on_first=True)
+                    d1s, it = yield search, q, d0, max_iter
                     iters += it
                     for lab, d1 in zip(labs, d1s):
                         ok, lam, en = _certify(r, d1, q, eps)
@@ -404,8 +471,7 @@ def frisch_max_corank(cov: Any, *, names: Sequence[str] | None = None, eps: floa
                     # R - D indefinite: the same search on R + eps I (see the docstring).
                     if shifted is None:
                         shifted = _Searcher.indefinite(r, eps)
-                    d1s, it = shifted.descend(q, np.array([closest, d_mt]), max_iter=max_iter,
-                                              stop_on_first=True)
+                    d1s, it = yield shifted, q, np.array([closest, d_mt]), max_iter
                     iters += it
                     for d1 in d1s:
                         ok, lam, en = _certify(r, d1, q, eps)
@@ -452,6 +518,83 @@ def _check_eps_pair(eps: Any, eps_impossible: Any) -> tuple[float, float]:
                            key="eps_impossible",
                            fix="pass the pair from NoiseTolerance.diagonal_eps(), or leave it out.")
     return eps, eps_imp
+
+
+def frisch_max_corank_many(covs: Any, *, eps: float, eps_impossible: float | None = None, starts: int = 8,
+                           seed: int = 0, max_iter: int = 25, warm: Any = None) -> tuple[FrischCorank | None, ...]:
+    """:func:`frisch_max_corank` of every covariance of a stack, the minimum-trace solves stacked.
+
+    The same results, bit for bit, as one :func:`frisch_max_corank` call per
+    covariance (with the same ``warm``): the minimum-trace problems of all
+    covariances (the first and costliest solve of each analysis) run as one
+    batched barrier solve, in which each problem takes exactly the iterates
+    it takes alone (:func:`relspan.analysis.frisch.mintrace._barrier_batch`);
+    the searches of all covariances then run in lockstep, corank by corank,
+    their descents stacked the same way.
+
+    Parameters
+    ----------
+    covs : (B, n, n) array_like
+        Covariances (e.g. resamples of one window).
+    eps, eps_impossible, starts, seed, max_iter, warm
+        As for :func:`frisch_max_corank`, shared by all covariances.
+
+    Returns
+    -------
+    tuple of (FrischCorank or None)
+        One per covariance; None for one the analysis cannot take (a
+        constant variable, a matrix that is not positive semidefinite, or a
+        numerical failure), where :func:`frisch_max_corank` raises.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(0)
+    >>> x = rng.standard_normal((200, 2)) @ rng.standard_normal((2, 4)) + 0.3 * rng.standard_normal((200, 4))
+    >>> covs = np.stack([np.cov(x[rng.integers(0, 200, 200)].T) for _ in range(5)])
+    >>> many = frisch_max_corank_many(covs, eps=0.01, starts=1)
+    >>> [c.max_certified for c in many] == [frisch_max_corank(c, eps=0.01, starts=1).max_certified for c in covs]
+    True
+    """
+    c = np.asarray(covs, dtype=float)
+    if c.ndim != 3 or c.shape[1] != c.shape[2]:
+        raise OptionsError(f"covs must be a (B, n, n) stack of covariances; got shape {c.shape}.", key="covs",
+                           fix="stack the covariances with numpy.stack.")
+    eps, eps_imp = _check_eps_pair(eps, eps_impossible)
+    starts = check_whole(starts, key="starts", minimum=1)
+    seed = check_whole(seed, key="seed", minimum=0)
+    prepared: list[tuple | None] = []
+    for cov in c:
+        try:
+            s, nm = frisch_cov(cov, None)
+            r, sd = correlation(s)
+            prepared.append((s, nm, r, sd, _Searcher(r, eps), _warm_shares(warm, s)))
+        except OptionsError as err:
+            if err.key == "warm":
+                raise
+            prepared.append(None)
+        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+            prepared.append(None)
+    ok = [i for i, p in enumerate(prepared) if p is not None]
+    solved: dict[int, tuple[np.ndarray, float, int]] = {}
+    if ok:
+        rb = np.stack([prepared[i][4].rb for i in ok])
+        try:
+            d, gap, steps = _barrier_batch(rb, np.ones(c.shape[1]), gap_tol=_MT_GAP)
+            solved = {i: (d[k], float(gap[k]), int(steps[k])) for k, i in enumerate(ok)}
+        except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+            for i in ok:     # one problem failed the stacked solve: each alone, as the loop would
+                try:
+                    solved[i] = _barrier_trace(prepared[i][4].rb, np.ones(c.shape[1]), gap_tol=_MT_GAP)
+                except (ValueError, np.linalg.LinAlgError, ArithmeticError):
+                    pass
+    order = [i for i in ok if i in solved]
+    runs = [_max_corank_steps(*prepared[i][:5], solved[i], eps=eps, eps_imp=eps_imp, starts=starts, seed=seed,
+                              max_iter=max_iter, warm_d=prepared[i][5]) for i in order]
+    out: list[FrischCorank | None] = [None] * len(prepared)
+    for i, res in zip(order, _max_coranks_lockstep(runs)):
+        out[i] = res
+    return tuple(out)
 
 
 def corank_verdict(cor: FrischCorank) -> int | None:
@@ -527,12 +670,13 @@ def frisch_corank_stack(covs: Any, *, eps: float, eps_impossible: float | None =
 
     Notes
     -----
-    Cost, measured by ``benchmarks/bench_frisch.py`` (second table, 99 iid
-    resamples of 200 rows, tolerance 0.01, a shared 2-core machine): 14-28 ms
-    per resample at n = 4, 170-260 ms at n = 6, 260-530 ms at n = 8 and
-    430-1150 ms at n = 10; most of it is spent where the fast path does not
-    settle (the search for a corank the estimate left undetermined). A
-    resample settled by the fast path costs two small batched
+    Cost, measured by ``benchmarks/bench_frisch.py resamples`` (its last table:
+    99 iid resamples of 200 rows, tolerance 0.01, CPU time on a shared 2-core
+    machine): 0.8 ms per resample at n = 4, 6 ms at n = 6, 11 ms at n = 8 and
+    31 ms at n = 10 (docs/performance.md, section 7); the resamples the fast
+    path does not settle are searched in lockstep
+    (:func:`frisch_max_corank_many`). A resample settled by the fast path
+    costs its share of two small batched
     eigendecompositions and one batched inverse.
 
     Examples
@@ -582,14 +726,22 @@ def frisch_corank_stack(covs: Any, *, eps: float, eps_impossible: float | None =
             # a few ten Berge & Kiers iterations from it, per resample, usually settle it.
             retry = np.flatnonzero(~ok & (nxt_ruled if qw < n - 1 else np.ones(b, dtype=bool))
                                    & np.all(d >= 0, axis=1))
-            for i in retry:
-                d1, _ = _Searcher(r[i], eps).descend(qw, d[i][None, :], max_iter=8, stop_on_first=True)
-                if _certify(r[i], d1[0], qw, eps)[0]:
-                    nxt[i] = True
+            if retry.size:      # stacked: each resample's descent as alone
+                ends = _descend_many([(_Searcher(r[i], eps), d[i][None, :]) for i in retry], qw, max_iter=8,
+                                     stop_on_first=True)
+                for i, (d1, _) in zip(retry, ends):
+                    if _certify(r[i], d1[0], qw, eps)[0]:
+                        nxt[i] = True
             for i in np.flatnonzero(nxt):
                 out[i] = qw
             done = nxt
-    for i in np.flatnonzero(~done):
-        out[i] = corank_verdict(frisch_max_corank(c[i], eps=eps, eps_impossible=eps_imp, starts=starts,
-                                                  seed=seed, warm=cor))
+    rest = np.flatnonzero(~done)
+    if rest.size:
+        # every other resample gets the full search (warm-started), all of them in lockstep
+        many = frisch_max_corank_many(c[rest], eps=eps, eps_impossible=eps_imp, starts=starts, seed=seed,
+                                      warm=cor)
+        for i, res in zip(rest, many):
+            if res is None:     # what frisch_max_corank raises for this resample, raised here
+                res = frisch_max_corank(c[i], eps=eps, eps_impossible=eps_imp, starts=starts, seed=seed, warm=cor)
+            out[i] = corank_verdict(res)
     return FrischCorankStack(tuple(out), eps, eps_imp, int(done.sum()))

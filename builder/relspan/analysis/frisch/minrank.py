@@ -73,8 +73,8 @@ class _Searcher:
         """
         return cls(r + eps * np.eye(r.shape[0]), 2.0 * eps, certify=(r, eps))
 
-    def solve(self, w: np.ndarray, gap: float | None = None) -> np.ndarray:
-        """Weighted trace problems, one per row of ``w``."""
+    def solve(self, w: np.ndarray, gap: float | np.ndarray | None = None) -> np.ndarray:
+        """Weighted trace problems, one per row of ``w`` (``gap``: one target, or one per row)."""
         d, _, _ = _barrier_batch(self.rb, w, gap_tol=self.gap if gap is None else gap)
         return d
 
@@ -174,42 +174,64 @@ class _Searcher:
         ``stop_on_first``, all runs stop once one reaches the target.
         Returns ``(d, solves)``.
         """
-        d = np.array(np.atleast_2d(d0), dtype=float)
-        nb, n = d.shape
-        target = 0.01 * self.eps
-        f_old = np.full(nb, np.inf)
-        active = np.ones(nb, dtype=bool)
-        fine = np.zeros(nb, dtype=bool)
-        eye = np.eye(n)
-        solves = 0
-        for it in range(1, max_iter + 1):
-            idx = np.flatnonzero(active)
-            lam, vec = np.linalg.eigh(self.r[None] - d[idx][:, :, None] * eye)
-            f = lam[:, :q].sum(axis=1)
-            # reached: ||E|| <= target (q eigenvalues near 0 and none negative)
-            reached = (np.max(np.abs(lam[:, :q]), axis=1) <= target) & (lam[:, 0] >= -target)
-            stop = reached.copy()
-            stalled = f_old[idx] - f <= np.maximum(1e-10 * np.maximum(1.0, np.abs(f)), 1e-3 * f)
-            promote = stalled & ~fine[idx] & ~reached & (
-                lam[:, q - 1] <= self.eps + 10.0 * self.gap_coarse)
-            stop |= stalled & ~promote
-            fine[idx[promote]] = True
-            f_old[idx] = np.where(promote, np.inf, f)
-            if stop_on_first and reached.any():
-                break
-            active[idx[stop]] = False
-            keep = ~stop
-            if not keep.any():
-                break
-            w = np.sum(vec[keep][:, :, :q] ** 2, axis=2)
-            rows = idx[keep]
-            for level in (False, True):
-                sel = fine[rows] == level
-                if not sel.any():
-                    continue
-                d[rows[sel]] = self.solve(w[sel], self.gap if level else self.gap_coarse)
-            solves += int(keep.sum())
-        return d, solves
+        return _descend_many([(self, d0)], q, max_iter=max_iter, stop_on_first=stop_on_first)[0]
+
+
+def _descend_many(requests: list[tuple["_Searcher", np.ndarray]], q: int, *, max_iter: int,
+                  stop_on_first: bool) -> list[tuple[np.ndarray, int]]:
+    """:meth:`_Searcher.descend` of many searchers (matrices) in lockstep, each as if alone.
+
+    ``requests`` holds ``(searcher, d0)`` pairs; every row of every ``d0``
+    runs the same iterations as in ``searcher.descend(q, d0, ...)`` (the
+    eigendecompositions and the weighted trace problems of all rows are
+    stacked; each problem of a stack takes exactly its own iterates), and
+    ``stop_on_first`` stops the rows of one request together. Returns one
+    ``(d, solves)`` per request.
+    """
+    d = np.vstack([np.atleast_2d(np.asarray(d0, dtype=float)) for _, d0 in requests])
+    sizes = [np.atleast_2d(d0).shape[0] for _, d0 in requests]
+    grp = np.repeat(np.arange(len(requests)), sizes)
+    nb, n = d.shape
+    r = np.stack([requests[g][0].r for g in grp])
+    rb = np.stack([requests[g][0].rb for g in grp])
+    eps = np.array([requests[g][0].eps for g in grp])
+    gap = np.array([requests[g][0].gap for g in grp])
+    gap_coarse = np.array([requests[g][0].gap_coarse for g in grp])
+    target = 0.01 * eps
+    f_old = np.full(nb, np.inf)
+    active = np.ones(nb, dtype=bool)
+    fine = np.zeros(nb, dtype=bool)
+    solves = np.zeros(len(requests), dtype=int)
+    eye = np.eye(n)
+    for _ in range(max_iter):
+        idx = np.flatnonzero(active)
+        if idx.size == 0:
+            break
+        lam, vec = np.linalg.eigh(r[idx] - d[idx][:, :, None] * eye)
+        f = lam[:, :q].sum(axis=1)
+        reached = (np.max(np.abs(lam[:, :q]), axis=1) <= target[idx]) & (lam[:, 0] >= -target[idx])
+        stop = reached.copy()
+        stalled = f_old[idx] - f <= np.maximum(1e-10 * np.maximum(1.0, np.abs(f)), 1e-3 * f)
+        promote = stalled & ~fine[idx] & ~reached & (
+            lam[:, q - 1] <= eps[idx] + 10.0 * gap_coarse[idx])
+        stop |= stalled & ~promote
+        fine[idx[promote]] = True
+        f_old[idx] = np.where(promote, np.inf, f)
+        if stop_on_first and reached.any():
+            stop |= np.isin(grp[idx], grp[idx[reached]])    # that request's rows stop, as alone
+        active[idx[stop]] = False
+        keep = ~stop
+        if not keep.any():
+            continue
+        w = np.sum(vec[keep][:, :, :q] ** 2, axis=2)
+        rows = idx[keep]
+        d[rows], _, _ = _barrier_batch(rb[rows], w, gap_tol=np.where(fine[rows], gap[rows], gap_coarse[rows]))
+        np.add.at(solves, grp[rows], 1)
+    out, start = [], 0
+    for g, k in enumerate(sizes):
+        out.append((d[start:start + k], int(solves[g])))
+        start += k
+    return out
 
 
 def _certify(r: np.ndarray, d: np.ndarray, q: int, eps: float) -> tuple[bool, np.ndarray, float]:

@@ -222,10 +222,10 @@ def solution_spread(cov: Any, q: int, eps: float, *, names: Sequence[str] | None
     for attempt in (search, _Searcher.indefinite(r, eps)):
         # The search keeping R - D PSD first; where it finds no member, the
         # same on R + eps I (members whose R - D is indefinite, as certified).
-        first, _ = attempt.descend(q, d_mt[None, :], max_iter=max_iter)
-        _keep(first[0])
-        rand, _ = attempt.descend(q, rand_starts, max_iter=max_iter)
-        for d1 in rand:
+        # the minimum-trace start and the random ones in one lockstep run (runs are
+        # independent of each other), kept in that order
+        ends, _ = attempt.descend(q, np.vstack([d_mt[None, :], rand_starts]), max_iter=max_iter)
+        for d1 in ends:
             _keep(d1)
         if members:
             for d1 in attempt.walk(q, members[0], dirs):
