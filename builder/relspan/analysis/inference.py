@@ -147,8 +147,8 @@ DIAGONAL_PLAN_KINDS = ("full", "periods")
 #: the cost rule, in words (methods page)
 DIAGONAL_SCOPE_RULE = ("The diagonal-noise corank support is computed for the full sample and for the windows of "
                        "full-sample and named-period plans; rolling and expanding windows get none, because each "
-                       "resample needs a corank search of its own (about 100 times the cost of the other "
-                       "intervals); their diagonal-noise coranks are shown without support and say so.")
+                       "resample needs a corank search of its own (more than all the other intervals of a "
+                       "window cost together); their diagonal-noise coranks are shown without support and say so.")
 
 
 #: plans with more windows than this resample each window at most :data:`MANY_WINDOWS_RESAMPLES` times
