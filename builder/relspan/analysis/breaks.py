@@ -187,7 +187,7 @@ class BreakScan:
         ``sup`` over candidate dates of ``T log(S_0 / S_1)`` (misfit of one
         common subspace over the misfit of separate ones; module notes).
     critical_value : float
-        The ``ceil((1 - level)(B + 1))``-th largest of the ``B`` statistics of
+        The ``floor((1 - level)(B + 1))``-th largest of the ``B`` statistics of
         the restricted-bootstrap resamples (one relation subspace throughout):
         the statistic exceeds it exactly when ``p_value <= 1 - level``.
     p_value : float
@@ -305,7 +305,7 @@ class DatasetBreak:
     date_high: str | None = None
     dates: tuple[tuple[str, str, str], ...] = ()
 
-    def found(self) -> list[tuple[BreakDate, str, str, str]]:
+    def dated(self) -> list[tuple[BreakDate, str, str, str]]:
         """Every break found, in time order, with its date and interval in the data's notation."""
         if self.scan is None:
             return []

@@ -346,9 +346,9 @@ METHODS = (
      "the neighbouring segments' subspaces. The scan follows the eigenvector subspace (equal and bounded "
      "noise) at the full sample's corank, or, where the full sample shows no relation, at the corank most "
      "windows show. Measured on simulated data (3 series, one relation, nominal level 5%, 200 samples "
-     "each): false alarms in @STABLE@; a turn of 14 degrees at mid-sample was found in @POWER@; with "
-     "that one break, a second was reported in @EXTRA@; with two such turns, both were found in @TWO@. "
-     "@CAVEAT@",
+     "each): false alarms in 10 of 200 stable samples of 300 independent rows, 11 of 200 with autocorrelated rows (AR(1), coefficient 0.5; 16 of 200 with 800 rows) and 12 of 200 with coefficient 0.8; a turn of 14 degrees at mid-sample was found in all 200 samples with independent rows, 199 of 200 with coefficient 0.5 and 166 of 200 with 0.8; with "
+     "that one break, a second was reported in 12, 8 and 7 of 200; with two such turns, both were found in 198 of 200 with independent rows and 181 of 200 with coefficient 0.5. "
+     "So on these simulations false alarms stay between 5% and 8% under serial dependence, strongly autocorrelated rows cost detection, and the date intervals cover the true date less often than their 95% when rows are autocorrelated (173 and 133 of 200 at 0.5 and 0.8; 185 with independent rows).",
      ("andrews1993", "andrewsmonahan1992", "kendall1954", "bai1997", "baiperron1998", "sidak1967",
       "politis1994", "politis2003", "politis2004", "daviskahan1970", "eckart1936")),
     ("inference", "Sampling uncertainty: resampling, tests and intervals",

@@ -178,7 +178,7 @@ def _break_marker(result, plan) -> dict:
     if br is None:
         return {}
     starts = [int(w.first_row) - 1 for w in plan.windows]   # 0-based first row of each window
-    listed = br.found() or [(br.scan, br.date, br.date_low, br.date_high)]
+    listed = br.dated() or [(br.scan, br.date, br.date_low, br.date_high)]
     at, labels = [], []
     for b, date, _, _ in listed:
         after = next((i for i, r in enumerate(starts) if r >= b.split_row), None)

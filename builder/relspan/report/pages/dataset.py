@@ -229,7 +229,7 @@ def _break_section(result) -> str:
         sc = br.scan
         rel = "relations" if sc.q == 1 else f"subspaces of {count(sc.q, 'relation')}"
         level = f"{1 - sc.level:.0%}"
-        listed = br.found()
+        listed = br.dated()
         if sc.found and listed:
             extra = ""
             if result.full.coranks.get(a) == 0:
