@@ -360,6 +360,12 @@ def dataset_breaks(prepared, ds, full, plans, *, opts: ResamplingOptions | None 
             out[a] = DatasetBreak(assumption=a, q=None, q_from=q_from, scan=None,
                                   reason=f"Cannot be judged: {q_from}.")
             continue
+        if (1.0 - opts.test_level) * (opts.resamples + 1) < 1.0:
+            out[a] = DatasetBreak(assumption=a, q=q, q_from=q_from, scan=None,
+                                  reason=f"Cannot be judged: with {opts.resamples} resamples the smallest p-value "
+                                  f"the scan can show, 1/{opts.resamples + 1}, is above "
+                                  f"{1.0 - opts.test_level:.0%}.")
+            continue
         if q not in done:
             stats = prepared.granules_between(0, len(prepared.granules))
             rng = resample.window_rng(opts.seed, ds.id, BREAK_PLAN, q)

@@ -280,6 +280,9 @@ def _further_words(sc, found: int) -> str:
     if sc.segment_level != sc.segment_level:       # NaN: stopped at the most breaks looked for
         return (f"The search stops at {sc.max_breaks} breaks, so whether the segments hold more is not "
                 "judged.")
+    if (1.0 - sc.segment_level) * (sc.resamples + 1) < 1.0:
+        return (f"Whether there is a further break cannot be judged with {sc.resamples} resamples: the smallest "
+                f"p-value they can show is above the {1 - sc.segment_level:.1%} each segment is tested at.")
     untested = sum(1 for _, _, p in sc.segments if p != p)
     tested = segs - untested
     short = (f"shorter than twice the {sc.min_segment_rows:,} rows a candidate date must leave on each side, "
