@@ -456,6 +456,17 @@ def _turned_scores(c, m, cm, cuts, q) -> np.ndarray:
     return _scores(c, m2, cm2, v0)
 
 
+def _standardised(scores) -> np.ndarray | None:
+    """The score series centred and scaled to unit variance, constant ones dropped (None: too few to judge)."""
+    z = np.asarray(scores, dtype=float)
+    z = z - z.mean(axis=0)
+    sd = np.sqrt((z * z).mean(axis=0))
+    keep = sd > 0
+    if z.shape[0] < 8 or not keep.any():
+        return None
+    return z[:, keep] / sd[keep]
+
+
 def long_run_ratio(scores) -> float:
     """How much serial dependence inflates the variance of the scores' partial sums (>= 1).
 
@@ -472,15 +483,10 @@ def long_run_ratio(scores) -> float:
     .. [1] D. N. Politis, "Adaptive bandwidth choice", Journal of Nonparametric
            Statistics 15(4-5), 517-533, 2003.
     """
-    z = np.asarray(scores, dtype=float)
-    k, p = z.shape
-    z = z - z.mean(axis=0)
-    sd = np.sqrt((z * z).mean(axis=0))
-    keep = sd > 0
-    if k < 8 or not keep.any():
+    z = _standardised(scores)
+    if z is None:
         return 1.0
-    z = z[:, keep] / sd[keep]
-    p = z.shape[1]
+    k, p = z.shape
     kn = max(5, math.ceil(math.sqrt(math.log10(k))))
     m_max = math.ceil(math.sqrt(k)) + kn
     lags = min(k - 1, m_max + kn)
@@ -531,14 +537,10 @@ def prewhitened_long_run_ratio(scores) -> float:
            Biometrika 41(3-4), 403-404, 1954.
     .. [3] D. N. Politis, Journal of Nonparametric Statistics 15(4-5), 517-533, 2003.
     """
-    z = np.asarray(scores, dtype=float)
-    k = z.shape[0]
-    z = z - z.mean(axis=0)
-    sd = np.sqrt((z * z).mean(axis=0))
-    keep = sd > 0
-    if k < 8 or not keep.any():
+    z = _standardised(scores)
+    if z is None:
         return 1.0
-    z = z[:, keep] / sd[keep]
+    k = z.shape[0]
     den = (z[:-1] ** 2).sum(axis=0)
     r = np.where(den > 0, (z[1:] * z[:-1]).sum(axis=0) / np.where(den > 0, den, 1.0), 0.0)
     r = np.clip(r + (1.0 + 3.0 * r) / k, -_AR_CAP, _AR_CAP)
