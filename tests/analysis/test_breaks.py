@@ -315,3 +315,15 @@ def test_too_few_resamples_for_a_further_test_is_said_not_read_as_no_break():
     res = subspace_break_scan(GranuleStats.from_rows(x), q=1, rng=rng, resamples=19)
     assert res.found and len(res.dates) == 1
     assert "cannot be judged with 19 resamples" in _further_words(res, 1)
+
+
+def test_window_figures_draw_one_dashed_line_per_break():
+    from relspan.report.figures.windows import subspace_stability
+
+    w = 6
+    a = np.abs(np.subtract.outer(np.arange(w), np.arange(w))) * 2.0
+    fig = subspace_stability(a, [f"w{i}" for i in range(w)], np.arange(w) * 1.5, threshold_deg=5.0,
+                             break_at=[1.5, 3.5], break_label=["break from 2001 (scan)", "break from 2004 (scan)"])
+    assert "Dashed vertical lines: break from 2001 (scan) and break from 2004 (scan)." in fig.description
+    dashed = [ln for ax in fig.figure.axes for ln in ax.get_lines() if ln.get_linestyle() not in ("-", "None")]
+    assert sorted({float(ln.get_xdata()[0]) for ln in dashed if len(set(ln.get_xdata())) == 1}) == [1.5, 3.5]
