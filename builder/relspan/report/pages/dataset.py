@@ -244,11 +244,11 @@ def _break_section(result) -> str:
                           "sampling explains (fit statistic {} against a critical value of {} from resampling "
                           "with no change; {}).{}\n",
                           names, count(sc.q, "relation"), br.q_from,
-                          "a break" if len(listed) == 1 else f"{len(listed)} breaks", level,
+                          "a break" if len(listed) == 1 else count(len(listed), "break"), level,
                           fmt(sc.statistic), fmt(sc.critical_value), p_words(sc.p_value, sc.resamples), extra))
             for b, date, lo, hi in listed:
                 how = ("found by the whole-sample test" if b.step == 1 else
-                       md("found by the scan of rows {} to {} (a segment the other breaks leave), at the {} level: "
+                       md("found by the scan of rows {} to {}, a segment the other breaks leave, at the {} level: "
                           "statistic {} against {}; {}", f"{b.segment[0] + 1:,}", f"{b.segment[1]:,}",
                           f"{1 - b.level:.1%}", fmt(b.statistic), fmt(b.critical_value),
                           p_words(b.p_value, sc.resamples)))
@@ -288,9 +288,10 @@ def _further_words(sc, found: int) -> str:
     short = (f"shorter than twice the {sc.min_segment_rows:,} rows a candidate date must leave on each side, "
              "so a further break there cannot be judged")
     if tested == 0:
-        return f"Whether there is a further break cannot be judged: each of the {segs} segments is {short}."
-    which = (f"each of the {segs} segments the {'break leaves' if found == 1 else 'breaks leave'}" if not untested
-             else f"{tested} of the {segs} segments the {'break leaves' if found == 1 else 'breaks leave'}")
+        return f"Whether there is a further break cannot be judged: each of the {count(segs, 'segment')} is {short}."
+    leave = "break leaves" if found == 1 else "breaks leave"
+    which = (f"each of the {count(segs, 'segment')} the {leave}" if not untested
+             else f"{count(tested, 'segment')} of the {count(segs, 'segment').split(' ', 1)[0]} the {leave}")
     verb = "were" if untested and tested > 1 else "was"
     words = (f"No further break: {which} {verb} scanned the same way, at the {1 - sc.segment_level:.1%} level each "
              f"(Šidák: {1 - sc.level:.0%} shared among {segs}), and none shows one")
