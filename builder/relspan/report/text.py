@@ -311,8 +311,8 @@ METHODS = (
      "answer in a window is a set or family of subspaces, and one member of it is no answer: windows are "
      "not compared by an angle there.",
      ("bjorck1973", "daviskahan1970", "westfall1993")),
-    ("breaks", "A break at an unknown date",
-     "The relation subspace may change once, at a date the data must reveal.",
+    ("breaks", "Breaks at unknown dates",
+     "The relation subspace may change at dates the data must reveal.",
      [(r"$\sup_{t}\ T \, \ln(S_0(t) / S_1(t))$",
        "the supremum over candidate dates t of T times the log of S0 over S1, where S1 is the misfit (sum of "
        "the q smallest eigenvalues of the co-moment matrix) of separate relation subspaces before and after "
@@ -321,29 +321,36 @@ METHODS = (
      "data's units under an absolute tolerance); each side keeps its own mean. The misfit is the total "
      "least squares residual sum of squares, so the statistic is the likelihood-ratio form of the equal-"
      "noise model, the counterpart of Andrews' sup-LR test: a relation that fits well on each side but not "
-     "across makes it large. Candidate dates leave out the first and last 15% of the rows. The critical "
-     "value is the 95% quantile of the same statistic over bootstrap resamples of the sample turned so that "
-     "no change holds: at the most likely date each side is rotated about its own mean by the direct "
-     "rotation (Davis & Kahan) that carries its relation subspace onto the common one, and moved to the "
-     "overall mean, so every row keeps the size of its misfit; rows are drawn from it with replacement. For "
-     "time-ordered rows the observed statistic is first divided by the long-run variance ratio of the fit's "
-     "scores (misfit times the coordinates along the relations' complement; flat-top lag window with "
-     "Politis' bandwidth, at least 1), as Andrews' statistics use a long-run covariance: serial dependence "
-     "inflates the statistic by that factor and the resamples carry none. The date's interval comes from "
-     "resampling the two segments separately, in stationary blocks for time-ordered rows; the angle "
-     "reported is the largest "
-     "principal angle between the two sides' subspaces. The scan follows the eigenvector subspace (equal "
-     "and bounded noise) at the full sample's corank, or, where the full sample shows no relation, at the "
-     "corank most windows show. Measured on simulated data of 300 rows (3 series, one relation, nominal "
-     "level 5%): false alarms in 10 of 200 stable samples with independent rows, and in 22 of 200 with "
-     "autocorrelated rows (AR(1), coefficient 0.5; 7 of 100 with 800 rows), so with strongly "
-     "autocorrelated rows the scan raises more false alarms than its level says; a 20-degree break was "
-     "found in all 400 samples that had one. Only one "
-     "break is looked for: a sequential search for several breaks in the spirit of Bai & Perron needs "
-     "critical values for the sequence of tests that this resampling scheme does not give, so several "
-     "breaks are not offered.",
-     ("andrews1993", "baiperron1998", "politis1994", "politis2003", "politis2004", "daviskahan1970",
-      "eckart1936")),
+     "across makes it large. Candidate dates leave out the first and last 15% of the rows. The null comes "
+     "from bootstrap resamples of the sample turned so that no change holds: at the most likely date each "
+     "side is rotated about its own mean by the direct rotation (Davis & Kahan) that carries its relation "
+     "subspace onto the common one, and moved to the overall mean, so every row keeps the size of its "
+     "misfit; rows are drawn from it with replacement. A break is declared when the p-value (one plus the "
+     "resamples at or above the statistic, over one plus their number) is at most 5%; the critical value "
+     "shown is the resampled statistic at that boundary. For time-ordered rows each observed statistic is "
+     "first divided by the long-run variance ratio of the fit's scores (misfit times the coordinates along "
+     "the relations' complement), as Andrews' statistics use a long-run covariance: serial dependence "
+     "inflates the statistic by that factor and the resamples carry none. Each score series is prewhitened "
+     "by an AR(1) filter (Andrews & Monahan; its coefficient corrected for small-sample bias as Kendall "
+     "gives) and the residuals' long-run variance taken with the flat-top lag window and Politis' "
+     "bandwidth; the ratio is at least 1. Several breaks are sought one at a time (Bai; the sequential "
+     "procedure of Bai & Perron): after a break is found, each segment between the breaks found so far is "
+     "scanned the same way, with its own resamples, candidate dates leaving at least 15% of the whole "
+     "sample's rows on each side (a shorter segment is not tested: a break there cannot be judged), and the "
+     "long-run ratio of the whole sample under the breaks found; with l breaks found each of the l + 1 "
+     "segments is tested at the level 1 - 0.95^(1/(l + 1)) (Šidák; 2.5% each for two segments), so that a "
+     "further false break is declared with a chance of about 5% when the segments hold none, and the "
+     "segment with the smallest p-value gets the next break, up to five. Each break's date is then the most "
+     "likely one between its neighbours; its interval comes from resampling the two sides separately, in "
+     "stationary blocks for time-ordered rows; the angle reported is the largest principal angle between "
+     "the neighbouring segments' subspaces. The scan follows the eigenvector subspace (equal and bounded "
+     "noise) at the full sample's corank, or, where the full sample shows no relation, at the corank most "
+     "windows show. Measured on simulated data (3 series, one relation, nominal level 5%, 200 samples "
+     "each): false alarms in 10 of 200 stable samples of 300 independent rows, 11 of 200 with autocorrelated rows (AR(1), coefficient 0.5; 16 of 200 with 800 rows) and 12 of 200 with coefficient 0.8; a turn of 14 degrees at mid-sample was found in all 200 samples with independent rows, 199 of 200 with coefficient 0.5 and 166 of 200 with 0.8; with "
+     "that one break, a second was reported in 12, 8 and 7 of 200; with two such turns, both were found in 198 of 200 with independent rows and 181 of 200 with coefficient 0.5. "
+     "So on these simulations false alarms stay between 5% and 8% under serial dependence, strongly autocorrelated rows cost detection, and the date intervals cover the true date less often than their 95% when rows are autocorrelated (173 and 133 of 200 at 0.5 and 0.8; 185 with independent rows).",
+     ("andrews1993", "andrewsmonahan1992", "kendall1954", "bai1997", "baiperron1998", "sidak1967",
+      "politis1994", "politis2003", "politis2004", "daviskahan1970", "eckart1936")),
     ("inference", "Sampling uncertainty: resampling, tests and intervals",
      "The rows of a window are a sample; block resampling keeps the dependence of time-ordered rows.",
      [(r"$X^2 = \nu' \, (k \ln \bar\lambda - \sum_{j \leq k} \ln \lambda_j)$",
@@ -554,6 +561,13 @@ REFERENCES = {
                    "Statistical Association*, 89(428), 1303–1313.",
     "westfall1993": "Westfall, P. H. & Young, S. S. (1993). *Resampling-Based Multiple Testing: Examples "
                     "and Methods for p-Value Adjustment*. New York: Wiley.",
+    "andrewsmonahan1992": "Andrews, D. W. K. & Monahan, J. C. (1992). An improved heteroskedasticity and "
+                          "autocorrelation consistent covariance matrix estimator. *Econometrica*, 60(4), 953–966.",
+    "kendall1954": "Kendall, M. G. (1954). Note on bias in the estimation of autocorrelation. *Biometrika*, "
+                   "41(3–4), 403–404.",
+    "bai1997": "Bai, J. (1997). Estimating multiple breaks one at a time. *Econometric Theory*, 13(3), 315–352.",
+    "sidak1967": "Šidák, Z. (1967). Rectangular confidence regions for the means of multivariate normal "
+                 "distributions. *Journal of the American Statistical Association*, 62(318), 626–633.",
     "andrews1993": "Andrews, D. W. K. (1993). Tests for parameter instability and structural change with "
                    "unknown change point. *Econometrica*, 61(4), 821–856.",
     "baiperron1998": "Bai, J. & Perron, P. (1998). Estimating and testing linear models with multiple "

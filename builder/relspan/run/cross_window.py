@@ -332,7 +332,7 @@ _SCANNED = ("equal", "bounded")
 
 def dataset_breaks(prepared, ds, full, plans, *, opts: ResamplingOptions | None = None
                    ) -> dict[str, DatasetBreak]:
-    """Scan the whole sample for one break of each assumption's relation subspace.
+    """Scan the whole sample for breaks of each assumption's relation subspace (one, then one at a time).
 
     equal and bounded noise share their subspace (the q smallest
     eigenvectors), so one scan serves both when their q agree. Assumptions
@@ -360,6 +360,12 @@ def dataset_breaks(prepared, ds, full, plans, *, opts: ResamplingOptions | None 
             out[a] = DatasetBreak(assumption=a, q=None, q_from=q_from, scan=None,
                                   reason=f"Cannot be judged: {q_from}.")
             continue
+        if (1.0 - opts.test_level) * (opts.resamples + 1) < 1.0:
+            out[a] = DatasetBreak(assumption=a, q=q, q_from=q_from, scan=None,
+                                  reason=f"Cannot be judged: with {opts.resamples} resamples the smallest p-value "
+                                  f"the scan can show, 1/{opts.resamples + 1}, is above "
+                                  f"{1.0 - opts.test_level:.0%}.")
+            continue
         if q not in done:
             stats = prepared.granules_between(0, len(prepared.granules))
             rng = resample.window_rng(opts.seed, ds.id, BREAK_PLAN, q)
@@ -377,9 +383,12 @@ def dataset_breaks(prepared, ds, full, plans, *, opts: ResamplingOptions | None 
                                   reason=f"Cannot be judged: {scan.message if hasattr(scan, 'message') else scan}")
             continue
         lo, hi = scan.split_interval
+        dates = tuple((_row_time(prepared, b.split_row + 1), _row_time(prepared, b.split_interval[0] + 1),
+                       _row_time(prepared, b.split_interval[1] + 1)) for b in scan.dates)
         out[a] = DatasetBreak(assumption=a, q=q, q_from=q_from, scan=scan, reason="",
                               date=_row_time(prepared, scan.split_row + 1),
-                              date_low=_row_time(prepared, lo + 1), date_high=_row_time(prepared, hi + 1))
+                              date_low=_row_time(prepared, lo + 1), date_high=_row_time(prepared, hi + 1),
+                              dates=dates)
     return out
 
 

@@ -173,15 +173,27 @@ def _drawable_stability(plan, q: int):
 
 
 def _break_marker(result, plan) -> dict:
-    """Where the break the scan found falls among the plan's windows (between two window positions)."""
+    """Where the breaks the scan found fall among the plan's windows (each between two window positions)."""
     br = next((b for b in getattr(result, "breaks", {}).values() if b.scan is not None and b.scan.found), None)
     if br is None:
         return {}
     starts = [int(w.first_row) - 1 for w in plan.windows]   # 0-based first row of each window
-    after = next((i for i, r in enumerate(starts) if r >= br.scan.split_row), None)
-    if after is None or after == 0:
+    listed = br.dated() or [(br.scan, br.date, br.date_low, br.date_high)]
+    at, labels = [], []
+    for b, date, _, _ in listed:
+        after = next((i for i, r in enumerate(starts) if r >= b.split_row), None)
+        if after is None or after == 0:
+            continue
+        if at and at[-1] == after - 0.5:       # two breaks between the same two windows: one line
+            labels[-1] = labels[-1].replace("break from", "breaks from").replace(" (scan)", f" and {date} (scan)")
+            continue
+        at.append(after - 0.5)
+        labels.append(f"break from {date} (scan)")
+    if not at:
         return {}
-    return {"break_at": after - 0.5, "break_label": f"break from {br.date} (scan)"}
+    if len(at) == 1:
+        return {"break_at": at[0], "break_label": labels[0]}
+    return {"break_at": at, "break_label": labels}
 
 
 def _drawn_threshold(stab) -> float:

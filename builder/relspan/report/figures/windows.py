@@ -63,13 +63,33 @@ def _threshold_line(ax, threshold: float, text: str) -> None:
                 fontweight="bold")
 
 
-def _break_marker(ax, at, label: str | None) -> None:
-    """The break the scan found: one dashed vertical line, labelled (nothing when ``at`` is None)."""
+def _breaks_drawn(at, label) -> list[tuple[float, str | None]]:
+    """``break_at`` / ``break_label`` as (position, label) pairs: one break (a number) or several (sequences)."""
     if at is None:
-        return
-    ax.axvline(at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
-    ax.annotate(label or "break", xy=(at, 1), xycoords=("data", "axes fraction"), xytext=(3, -3),
-                textcoords="offset points", rotation=90, ha="left", va="top", fontsize=MIN_TEXT_PT, color=INK)
+        return []
+    if np.ndim(at) == 0:
+        return [(at, label)]
+    labels = list(label) if label is not None and not isinstance(label, str) else [label] * len(at)
+    return list(zip(list(at), labels))
+
+
+def _break_marker(ax, at, label) -> None:
+    """The breaks the scan found: a dashed vertical line each, labelled (nothing when ``at`` is None)."""
+    for x, text in _breaks_drawn(at, label):
+        ax.axvline(x, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
+        ax.annotate(text or "break", xy=(x, 1), xycoords=("data", "axes fraction"), xytext=(3, -3),
+                    textcoords="offset points", rotation=90, ha="left", va="top", fontsize=MIN_TEXT_PT,
+                    color=INK)
+
+
+def _break_words(at, label) -> str:
+    """The figure description's sentence on the dashed lines ("" when none)."""
+    drawn = _breaks_drawn(at, label)
+    if not drawn:
+        return ""
+    if len(drawn) == 1:
+        return f" Dashed vertical line: {drawn[0][1] or 'the break the scan found'}."
+    return f" Dashed vertical lines: {join_words([t or 'a break the scan found' for _, t in drawn])}."
 
 
 def _angle_panel(ax, x, angles, threshold, is_dt) -> None:
@@ -88,7 +108,7 @@ def _angle_panel(ax, x, angles, threshold, is_dt) -> None:
 def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times=None,
                        threshold_deg: float = 10.0, *, title: str | None = None,
                        name: str = "subspace-stability", break_at=None,
-                       break_label: str | None = None) -> FigureResult:
+                       break_label=None) -> FigureResult:
     """Principal angles between the windows' relation subspaces, and each window's angle to the full sample.
 
     Left: a heatmap of the angle between every pair of windows (a sequential
@@ -116,10 +136,10 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
         The stability threshold (spec ``checks.max_angle_deg``).
     title, name : str
         Optional title; file stem.
-    break_at : float, optional
-        Where the break scan dates a break, in the right panel's x units (a
-        time, or a position between window indices): drawn as a dashed line
-        labelled ``break_label``.
+    break_at : float or sequence of float, optional
+        Where the break scan dates a break (or each of several), in the right
+        panel's x units (a time, or a position between window indices): drawn
+        as a dashed line labelled ``break_label`` (a str, or one per break).
 
     Returns
     -------
@@ -240,8 +260,7 @@ def subspace_stability(angle_matrix, labels: Sequence[str], angle_to_full, times
         desc += (f"{plural(len(above), 'window')} of {w} exceed the threshold: {join_words(shown)}.")
     else:
         desc += f"All {w} windows stay within the threshold."
-    if break_at is not None:
-        desc += f" Dashed vertical line: {break_label or 'the break the scan found'}."
+    desc += _break_words(break_at, break_label)
     alt = fit_alt(f"{head}; {len(above)} of {w} windows above it.", f"{head}.",
                   f"Largest angle to the full sample: {angle_text(f[jf])} degrees (threshold {num(thr)}).")
     return FigureResult(name, fig, alt, desc.strip(), table)
@@ -256,7 +275,7 @@ def _sign_flips(v: np.ndarray) -> list[tuple[int, int]]:
 def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence[float]],
                       angle_to_full, threshold_deg: float, coefficient_label: str, *, times=None,
                       title: str | None = None, name: str = "coefficient-swing", break_at=None,
-                      break_label: str | None = None) -> FigureResult:
+                      break_label=None) -> FigureResult:
     """A normalised coefficient per window under each noise assumption, above the subspace angle.
 
     Top: the chosen coefficient in every window, one line per assumption
@@ -356,8 +375,8 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
             t.set_visible(False)
         _angle_panel(axa, x, f, thr, is_dt)
         _break_marker(axa, break_at, break_label)
-        if break_at is not None:
-            ax.axvline(break_at, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
+        for xb, _ in _breaks_drawn(break_at, break_label):
+            ax.axvline(xb, color=INK, linewidth=1.1, linestyle=(0, (4, 2)), zorder=2)
         axa.set_ylabel("angle to full\nsample (°)")
         ax.margins(x=0.03)
         if len(coefficient_label) > 30:  # a long label becomes the panel's title, wrapped, in the layout
@@ -438,8 +457,7 @@ def coefficient_swing(labels: Sequence[str], coefficients: Mapping[str, Sequence
     if total_flips and not (f > thr).any():
         desc += ("The coefficient changes sign while the subspace of relations stays within the threshold: "
                  "the relations are stable, but this single coefficient is not pinned down by the data.")
-    if break_at is not None:
-        desc += f" Dashed vertical line: {break_label or 'the break the scan found'}."
+    desc += _break_words(break_at, break_label)
     flipping = [nm for nm in names if flips[nm]]
     fl_txt = (f"sign flips under {join_words(flipping)}" if flipping else "no sign flip")
     alt = fit_alt(f"{coefficient_label}: {fl_txt}; angle to full sample at most {angle_text(f[jf])} "

@@ -198,19 +198,19 @@ def _plan_section(result, plan, pub: Publisher, folder: str) -> str:
 
 
 def _break_section(result) -> str:
-    """"A break at an unknown date": what the scan of the whole sample found, with its rule (renders results)."""
+    """"Breaks at unknown dates": what the scan of the whole sample found, with its rule (renders results)."""
     breaks = getattr(result, "breaks", {}) or {}
     if not breaks:
         return ""
-    out = [Raw("### A break at an unknown date {#break}\n")]
+    out = [Raw("### Breaks at unknown dates {#break}\n")]
     moving = [p for p in result.plans if any(st.stable is False for st in p.stability.values())]
     def same(scan) -> tuple:  # equal and bounded noise share one scan (one object before caching, two after)
         return (scan.q, scan.statistic, scan.critical_value, scan.split_row, scan.angle_deg)
 
-    def p_words(sc) -> str:
-        if sc.p_value <= 1.0 / (1 + sc.resamples) + 1e-12:
-            return f"p = {fmt(sc.p_value)}: none of the {sc.resamples} resamples reached it"
-        return f"p = {fmt(sc.p_value)}"
+    def p_words(p: float, resamples: int) -> str:
+        if p <= 1.0 / (1 + resamples) + 1e-12:
+            return f"p = {fmt(p)}: none of the {resamples} resamples reached it"
+        return f"p = {fmt(p)}"
 
     seen: dict[tuple, list[str]] = {}
     for a, br in breaks.items():
@@ -229,40 +229,75 @@ def _break_section(result) -> str:
         sc = br.scan
         rel = "relations" if sc.q == 1 else f"subspaces of {count(sc.q, 'relation')}"
         level = f"{1 - sc.level:.0%}"
-        if sc.found:
+        listed = br.dated()
+        if sc.found and listed:
             extra = ""
             if result.full.coranks.get(a) == 0:
-                extra += (" A relation that changes at one date is consistent with the full sample, which "
-                          "mixes both periods, showing none.")
+                extra += (" A relation that changes at a date is consistent with the full sample, which "
+                          "mixes the periods, showing none.")
             if not moving:
                 extra += (" The window comparisons above show no change at their level; the scan pools "
-                          "every row on each side of one date, so it can find a change that windows, each "
+                          "every row on each side of a date, so it can find a change that windows, each "
                           "shorter, do not.")
-            out.append(md("- Under {} (at {}: {}): **a break** at the {} level: one relation subspace for "
-                          "both sides fits worse than separate ones by more than sampling explains (fit "
-                          "statistic {} against a critical value of {} from resampling with no change; {}). "
-                          "Most likely from {} on, with a {} interval from {} to {} (resampling each "
-                          "segment). The estimated {} before and after differ by {}\u00b0 on the common "
-                          "scale.{}\n",
-                          names, count(sc.q, "relation"), br.q_from, level, fmt(sc.statistic),
-                          fmt(sc.critical_value), p_words(sc), br.date, f"{sc.level:.0%}", br.date_low,
-                          br.date_high, rel, fmt(sc.angle_deg), extra))
+            out.append(md("- Under {} (at {}: {}): **{}** at the {} level: one relation subspace for the "
+                          "whole sample fits worse than separate ones before and after a date by more than "
+                          "sampling explains (fit statistic {} against a critical value of {} from resampling "
+                          "with no change; {}).{}\n",
+                          names, count(sc.q, "relation"), br.q_from,
+                          "a break" if len(listed) == 1 else count(len(listed), "break"), level,
+                          fmt(sc.statistic), fmt(sc.critical_value), p_words(sc.p_value, sc.resamples), extra))
+            for b, date, lo, hi in listed:
+                how = ("found by the whole-sample test" if b.step == 1 else
+                       md("found by the scan of rows {} to {}, a segment the other breaks leave, at the {} level: "
+                          "statistic {} against {}; {}", f"{b.segment[0] + 1:,}", f"{b.segment[1]:,}",
+                          f"{1 - b.level:.1%}", fmt(b.statistic), fmt(b.critical_value),
+                          p_words(b.p_value, sc.resamples)))
+                out.append(md("    - From {} on, with a {} interval from {} to {} (resampling each side); the "
+                              "estimated {} before and after differ by {}\u00b0 on the common scale ({}).\n",
+                              date, f"{sc.level:.0%}", lo, hi, rel, fmt(b.angle_deg), how))
+            out.append(md("    - {}\n", _further_words(sc, len(listed))))
         else:
             extra = (" This does not show that nothing changes: a small or gradual change can escape the scan."
                      if not moving else " The window comparisons above do show change; the scan, which "
-                     "tests the whole sample for one sharp break, does not confirm a single break at this "
-                     "level. Both can hold: a gradual drift, several breaks, or a break too small for the scan.")
+                     "tests the whole sample for sharp breaks, does not confirm one at this "
+                     "level. Both can hold: a gradual drift, or a break too small for the scan.")
             out.append(md("- Under {} (at {}: {}): **no break found** at the {} level: one relation subspace "
                           "fits both sides of every candidate date within what sampling explains (fit "
                           "statistic {} against a critical value of {}; {}).{}\n",
                           names, count(sc.q, "relation"), br.q_from, level, fmt(sc.statistic),
-                          fmt(sc.critical_value), p_words(sc), extra))
+                          fmt(sc.critical_value), p_words(sc.p_value, sc.resamples), extra))
     rule = next((b.scan.rule for b in breaks.values() if b.scan is not None), None)
     if rule:
-        out.append(md("**Rule.** {} Only one break is looked for: a search for several breaks needs critical "
-                      "values for a sequence of tests that this resampling does not give "
-                      "(see [the methods](/methods.html#breaks)).\n", rule))
+        out.append(md("**Rule.** {} (See [the methods](/methods.html#breaks).)\n", rule))
     return Raw("\n".join(out))
+
+
+def _further_words(sc, found: int) -> str:
+    """What the search for further breaks concluded (renders ``scan.segments``)."""
+    if sc.max_breaks <= 1:
+        return "Only one break was looked for."
+    segs = len(sc.segments)
+    if sc.segment_level != sc.segment_level:       # NaN: stopped at the most breaks looked for
+        return (f"The search stops at {sc.max_breaks} breaks, so whether the segments hold more is not "
+                "judged.")
+    if (1.0 - sc.segment_level) * (sc.resamples + 1) < 1.0:
+        return (f"Whether there is a further break cannot be judged with {sc.resamples} resamples: the smallest "
+                f"p-value they can show is above the {1 - sc.segment_level:.1%} each segment is tested at.")
+    untested = sum(1 for _, _, p in sc.segments if p != p)
+    tested = segs - untested
+    short = (f"shorter than twice the {sc.min_segment_rows:,} rows a candidate date must leave on each side, "
+             "so a further break there cannot be judged")
+    if tested == 0:
+        return f"Whether there is a further break cannot be judged: each of the {count(segs, 'segment')} is {short}."
+    leave = "break leaves" if found == 1 else "breaks leave"
+    which = (f"each of the {count(segs, 'segment')} the {leave}" if not untested
+             else f"{count(tested, 'segment')} of the {count(segs, 'segment').split(' ', 1)[0]} the {leave}")
+    verb = "were" if untested and tested > 1 else "was"
+    words = (f"No further break: {which} {verb} scanned the same way, at the {1 - sc.segment_level:.1%} level each "
+             f"(Šidák: {1 - sc.level:.0%} shared among {segs}), and none shows one")
+    if untested:
+        words += f"; the other {'one is' if untested == 1 else f'{untested} are'} {short}"
+    return words + "."
 
 
 def _single_coefficient_note() -> str:

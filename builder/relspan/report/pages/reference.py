@@ -52,9 +52,10 @@ def methods_page(pub: Publisher) -> Page:
                     "neither certified nor ruled out.\n- Change across windows: an angle counts as a change only "
                     "when it exceeds what resampling produces when nothing changes, all comparisons of a plan "
                     "judged together at the 5% level (max-T rule); undetermined windows are not compared.\n"
-                    "- A break at an unknown date: the sup-type scan of the fit of one relation subspace against "
-                    "separate ones before and after, with critical values from resampling under no change, at "
-                    "the 5% level; one break only.\n"
+                    "- Breaks at unknown dates: the sup-type scan of the fit of one relation subspace against "
+                    "separate ones before and after, with p-values from resampling under no change, at the 5% "
+                    "level; further breaks one at a time in the segments between those found, each of the l + 1 "
+                    "segments at 1 - 0.95^(1/(l + 1)) (Šidák), up to five.\n"
                     "- Windows are compared on one scale: each variable divided by its full-sample standard "
                     "deviation.\n"))
     return Page("methods.html", "Methods", "\n".join(body), "methods", breadcrumbs=(HOME,),
