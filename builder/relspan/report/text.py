@@ -557,8 +557,6 @@ REFERENCES = {
                    "Scientific Computing*, 23(6), 2008–2040.",
     "chan1983": "Chan, T. F., Golub, G. H. & LeVeque, R. J. (1983). Algorithms for computing the sample "
                 "variance: analysis and recommendations. *The American Statistician*, 37(3), 242–247.",
-    "politis1994": "Politis, D. N. & Romano, J. P. (1994). The stationary bootstrap. *Journal of the American "
-                   "Statistical Association*, 89(428), 1303–1313.",
     "westfall1993": "Westfall, P. H. & Young, S. S. (1993). *Resampling-Based Multiple Testing: Examples "
                     "and Methods for p-Value Adjustment*. New York: Wiley.",
     "andrewsmonahan1992": "Andrews, D. W. K. & Monahan, J. C. (1992). An improved heteroskedasticity and "
