@@ -360,7 +360,7 @@ METHODS = (
      "several rows are resampled whole.",
      ("efron1979", "efron1987", "kuensch1989", "politis1994", "politis2003", "politis2004", "patton2009",
       "lawley1956", "anderson1963", "bartlett1954", "minka2000", "waternaux1976", "davison1997",
-      "schoenemann1966", "imbens2004", "chan1979")),
+      "schoenemann1966", "imbens2004", "chan1979", "weyl1912")),
     ("moments", "Window statistics from mergeable blocks",
      "Windows are merged from block statistics, never recomputed from raw rows.",
      [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
@@ -415,8 +415,10 @@ INFERENCE_RULES = (
     "Corank under equal noise: the number of smallest eigenvalues (on the analysed scale) that are equal. "
     "Starting from k = 2, the test that the k smallest eigenvalues are equal (Lawley 1956; Anderson 1963; "
     "chi-square with k(k+1)/2 \u2212 1 degrees of freedom, at the 5% level, rows taken as independent) is "
-    "applied until it rejects; k eigenvalues also count as equal when all k are at most eps (a common "
-    "noise variance at most eps plus a deviation of norm at most eps/2). When all n count as equal, the data "
+    "applied until it rejects; k eigenvalues also count as equal when they lie within eps of one another "
+    "(the k-th smallest minus the smallest at most eps: equal noise of any size plus a deviation of norm at "
+    "most eps/2, by Weyl's inequality), so near-exact relations whose tiny noise variances differ are not "
+    "lost, and the size of the common noise variance never enters. When all n count as equal, the data "
     "show nothing but equal noise and no relation is reported. Corank 1 fits "
     "equal noise whatever the data, so one relation is reported only when the smallest eigenvalue is at "
     "most eps; otherwise no relation. The shares of resamples giving each corank are its support.",
