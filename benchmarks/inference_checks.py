@@ -2,6 +2,7 @@
 
     .venv/bin/python benchmarks/inference_checks.py coverage [--datasets 400]   # 90% intervals
     .venv/bin/python benchmarks/inference_checks.py corank [--datasets 400]     # equal-noise corank rule
+    .venv/bin/python benchmarks/inference_checks.py blocks [--datasets 400]     # why AR(1) coverage is low
     .venv/bin/python benchmarks/inference_checks.py breaks [--runs 40]          # break scan
     .venv/bin/python benchmarks/inference_checks.py                             # all three
 
@@ -42,6 +43,68 @@ def run_coverage(datasets: int) -> None:
         print(f"{label + f' ({seed})':<28} {c['eigenvalue']:>10.3f} {c['coefficient']:>12.3f} {c['angle']:>7.3f} | "
               f"{c['eigenvalue (studentized)']:>10.3f} {c['coefficient (studentized)']:>12.3f} "
               f"{c['angle (studentized)']:>7.3f}", flush=True)
+
+
+def run_blocks(datasets: int, *, t: int = 400, rho: float = 0.5, seed: int = 11) -> None:
+    """Block-length rules and schemes side by side on the same AR(1) datasets (pipeline intervals)."""
+    from relspan.analysis.intervals import (angle_interval, coefficient_intervals, interval, largest_angle_stack,
+                                            relation_bases)
+    from relspan.analysis.resample import draw_granules, politis_white_block_length, stack_covariances
+    from relspan.analysis.stability import principal_angles
+
+    rng = np.random.default_rng(seed)
+    s1, a1 = one_relation_cov(0.0)
+    s2, a2 = one_relation_cov(20.0)
+    te = float(np.linalg.eigvalsh(s1)[0])
+    tc = float(-a1[0] / a1[2])
+    ta = float(principal_angles(a1, a2)[-1])
+    true_sd = float(np.sqrt(2.0 * te**2 * (1 + rho**2) / ((1 - rho**2) * t)))   # closed form, Gaussian AR(1)
+
+    def products(x):
+        z = (x - x.mean(0)) / x.std(0)
+        i, j = np.triu_indices(x.shape[1])
+        return z[:, i] * z[:, j]
+
+    variants = {  # name: (scheme, block length of the rows x)
+        "stationary, Politis-White on x (pipeline)": ("stationary", lambda x: politis_white_block_length(x).value),
+        "stationary, Politis-White on products": ("stationary", lambda x: politis_white_block_length(products(x)).value),
+        "stationary, twice Politis-White": ("stationary", lambda x: 2 * politis_white_block_length(x).value),
+        "moving, Politis-White (moving)": ("moving", lambda x: politis_white_block_length(x, kind="moving").value),
+        "moving, 4 rows": ("moving", lambda x: 4.0),
+        "moving, 8 rows": ("moving", lambda x: 8.0),
+        "moving, 16 rows": ("moving", lambda x: 16.0),
+    }
+    hits = {k: np.zeros(3) for k in variants}
+    sd = {k: [] for k in variants}
+    blen = {k: [] for k in variants}
+    for _ in range(datasets):
+        xs = [rows(rng, s, t, rho) for s in (s1, s2)]
+        est = [np.linalg.eigh(np.cov(x.T)) for x in xs]
+        basis, basis2 = est[0][1][:, :1].T, est[1][1][:, :1].T
+        angle = float(largest_angle_stack(basis, basis2[None])[0])
+        for name, (scheme, rule) in variants.items():
+            fits = []
+            for x in xs:
+                b = float(rule(x))
+                b = float(round(b)) if scheme == "moving" else b
+                idx = draw_granules(t, scheme=scheme, resamples=199, rng=rng, block_length=b)
+                wb, vb = np.linalg.eigh(stack_covariances(GranuleStats.from_rows(x), idx)[0])
+                fits.append((wb, relation_bases(vb, 1), b))
+            (wb, bases, b), (_, bases2, _) = fits
+            hits[name] += [interval(float(est[0][0][0]), wb[:, 0], level=0.9, method="basic").contains(te),
+                           coefficient_intervals(basis, bases, targets=[2], level=0.9)[(0, 0)].contains(tc),
+                           angle_interval(angle, bases, bases2, level=0.9).contains(ta)]
+            sd[name].append(wb[:, 0].std())
+            blen[name].append(b)
+    print(f"AR(1) {rho}, T = {t}, {datasets} datasets (seed {seed}), 199 resamples; true sd of the smallest "
+          f"eigenvalue {true_sd:.4f} (closed form)")
+    print(f"{'scheme, block length':<44} {'rows':>5} {'eigenvalue':>10} {'coefficient':>11} {'angle':>6} "
+          f"{'boot sd / true':>14} {'cv':>5}")
+    for name in variants:
+        h = hits[name] / datasets
+        v = np.array(sd[name])
+        print(f"{name:<44} {np.mean(blen[name]):>5.1f} {h[0]:>10.3f} {h[1]:>11.3f} {h[2]:>6.3f} "
+              f"{v.mean() / true_sd:>14.3f} {v.std() / v.mean():>5.3f}", flush=True)
 
 
 # --------------------------------------------------------------------------- equal-noise corank
@@ -131,7 +194,7 @@ def run_breaks(runs: int) -> None:
 
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", nargs="?", choices=("coverage", "corank", "breaks", "all"), default="all")
+    ap.add_argument("what", nargs="?", choices=("coverage", "corank", "blocks", "breaks", "all"), default="all")
     ap.add_argument("--datasets", type=int, default=400)
     ap.add_argument("--runs", type=int, default=40)
     a = ap.parse_args()
@@ -139,6 +202,8 @@ def main() -> None:
         run_corank(a.datasets)
     if a.what in ("coverage", "all"):
         run_coverage(a.datasets)
+    if a.what in ("blocks", "all"):
+        run_blocks(a.datasets)
     if a.what in ("breaks", "all"):
         run_breaks(a.runs)
 

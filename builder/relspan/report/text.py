@@ -353,10 +353,14 @@ METHODS = (
        "the outer set: lower end minus c standard deviations, upper end plus c standard deviations, with c "
        "from the normal distribution")],
      "Bootstrap intervals are approximate: with few rows, strong dependence or heavy tails they can cover "
-     "less often than stated (the block bootstrap underestimates the spread of the smallest eigenvalue under "
-     "autocorrelation; measured in docs/inference.md). The equality test assumes Gaussian rows; heavy tails "
-     "make it reject too often (Waternaux 1976), and its chi-square reference is approximate on the "
-     "correlation scale. Minka's (2000) evidence is kept in the results as a second opinion. Granules of "
+     "less often than stated. In simulations with autocorrelated rows (AR(1), coefficient 0.5, 400 and 800 "
+     "rows) the 90% intervals covered the truth in 82-89% of datasets: the block bootstrap's spread came out "
+     "about a tenth too small, and varied from sample to sample, whatever the block length (measured in "
+     "docs/inference.md). The equality test assumes Gaussian rows, taken as independent: heavy tails "
+     "(Waternaux 1976) and autocorrelation make it reject too often (in simulations with AR(1) coefficient "
+     "0.5, about one true equality in five where the eigenvalues differ by more than the tolerance), and its "
+     "chi-square reference is approximate on the correlation scale (6-9% rejections at the 5% level in "
+     "simulations). Minka's (2000) evidence is kept in the results as a second opinion. Granules of "
      "several rows are resampled whole.",
      ("efron1979", "efron1987", "kuensch1989", "politis1994", "politis2003", "politis2004", "patton2009",
       "lawley1956", "anderson1963", "bartlett1954", "minka2000", "waternaux1976", "davison1997",
