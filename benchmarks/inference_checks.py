@@ -25,7 +25,7 @@ from relspan.analysis.breaks import subspace_break_scan  # noqa: E402
 from relspan.analysis.equal_test import sequential_corank_stack  # noqa: E402
 from relspan.analysis.inference import equal_noise_corank_stack  # noqa: E402
 from relspan.analysis.resample import GranuleStats  # noqa: E402
-from tests.analysis.inference_sims import coverage, one_relation_cov, rows  # noqa: E402
+from tests.analysis.inference_sims import coverage, coverage_design, one_relation_cov, rows  # noqa: E402
 
 #: coverage cells: label, AR(1) coefficient, rows per window, seed
 COVERAGE_CELLS = (("iid, T = 400", 0.0, 400, 11), ("iid, T = 800", 0.0, 800, 13),
@@ -50,14 +50,9 @@ def run_blocks(datasets: int, *, t: int = 400, rho: float = 0.5, seed: int = 11)
     from relspan.analysis.intervals import (angle_interval, coefficient_intervals, interval, largest_angle_stack,
                                             relation_bases)
     from relspan.analysis.resample import draw_granules, politis_white_block_length, stack_covariances
-    from relspan.analysis.stability import principal_angles
 
     rng = np.random.default_rng(seed)
-    s1, a1 = one_relation_cov(0.0)
-    s2, a2 = one_relation_cov(20.0)
-    te = float(np.linalg.eigvalsh(s1)[0])
-    tc = float(-a1[0] / a1[2])
-    ta = float(principal_angles(a1, a2)[-1])
+    s1, s2, te, tc, ta = coverage_design()
     true_sd = float(np.sqrt(2.0 * te**2 * (1 + rho**2) / ((1 - rho**2) * t)))   # closed form, Gaussian AR(1)
 
     def products(x):

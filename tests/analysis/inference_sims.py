@@ -27,6 +27,17 @@ def rows(rng: np.random.Generator, cov: np.ndarray, t: int, rho: float = 0.0) ->
     return lfilter([1.0], [1.0, -rho], e, axis=0)
 
 
+def coverage_design() -> tuple[np.ndarray, np.ndarray, float, float, float]:
+    """The two windows' population covariances (relation turned 20 degrees) and the true smallest
+    eigenvalue of the first, coefficient of x1 in its relation solved for x3, and largest angle."""
+    from relspan.analysis.stability import principal_angles
+
+    s1, a1 = one_relation_cov(0.0)
+    s2, a2 = one_relation_cov(20.0)
+    return (s1, s2, float(np.linalg.eigvalsh(s1)[0]), float(-a1[0] / a1[2]),
+            float(principal_angles(a1, a2)[-1]))
+
+
 def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: float = 0.90,
              seed: int = 2024, studentized: bool = False) -> dict[str, float]:
     """Share of simulated datasets whose nominal-``level`` intervals cover the truth.
@@ -43,14 +54,9 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
                                             largest_angle_stack, relation_bases)
     from relspan.analysis.resample import (GranuleStats, influence_sd, influence_values, resample_covariances,
                                            resample_influence_sd, statistic_gradient, studentized_interval)
-    from relspan.analysis.stability import principal_angles
 
     rng = np.random.default_rng(seed)
-    s1, a1 = one_relation_cov(0.0)
-    s2, a2 = one_relation_cov(20.0)
-    true_eig = float(np.linalg.eigvalsh(s1)[0])
-    true_coef = float(-a1[0] / a1[2])
-    true_angle = float(principal_angles(a1, a2)[-1])
+    s1, s2, true_eig, true_coef, true_angle = coverage_design()
     hits = np.zeros(6)
 
     def smallest(cov):
