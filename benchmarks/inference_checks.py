@@ -1,9 +1,14 @@
-"""Measured coverage of 90% bootstrap intervals and the break scan's power, on simulated data.
+"""Measured behaviour of relspan's inference on simulated data of known structure.
 
-    .venv/bin/python benchmarks/inference_checks.py [--datasets 200]
+    .venv/bin/python benchmarks/inference_checks.py coverage [--datasets 400]   # 90% intervals
+    .venv/bin/python benchmarks/inference_checks.py corank [--datasets 400]     # equal-noise corank rule
+    .venv/bin/python benchmarks/inference_checks.py blocks [--datasets 400]     # why AR(1) coverage is low
+    .venv/bin/python benchmarks/inference_checks.py breaks [--runs 40]          # break scan
+    .venv/bin/python benchmarks/inference_checks.py                             # all three
 
-Prints the table recorded in docs/inference.md (the same simulations as
-tests/analysis/test_coverage.py and tests/analysis/test_breaks.py).
+Prints the tables recorded in docs/inference.md (the same simulations as
+tests/analysis/test_coverage.py, test_inference.py and test_breaks.py, with
+more datasets). All data are invented here, seeded.
 """
 
 from __future__ import annotations
@@ -17,23 +22,159 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from relspan.analysis.breaks import subspace_break_scan  # noqa: E402
+from relspan.analysis.equal_test import sequential_corank_stack  # noqa: E402
+from relspan.analysis.inference import equal_noise_corank_stack  # noqa: E402
 from relspan.analysis.resample import GranuleStats  # noqa: E402
-from tests.analysis.inference_sims import coverage, one_relation_cov, rows  # noqa: E402
+from tests.analysis.inference_sims import coverage, coverage_design, one_relation_cov, rows  # noqa: E402
+
+#: coverage cells: label, AR(1) coefficient, rows per window, seed
+COVERAGE_CELLS = (("iid, T = 400", 0.0, 400, 11), ("iid, T = 800", 0.0, 800, 13),
+                  ("AR(1) 0.5, T = 400", 0.5, 400, 2024), ("AR(1) 0.5, T = 400", 0.5, 400, 31),
+                  ("AR(1) 0.5, T = 800", 0.5, 800, 7), ("AR(1) 0.5, T = 800", 0.5, 800, 32))
 
 
-def main() -> None:
-    ap = argparse.ArgumentParser()
-    ap.add_argument("--datasets", type=int, default=200)
-    a = ap.parse_args()
-    print(f"coverage of nominal 90% intervals, {a.datasets} datasets, 199 resamples each")
-    print(f"{'rows':<28} {'eigenvalue':>10} {'coefficient':>12} {'angle':>8}")
-    for label, rho, t, seed in (("iid, T = 400", 0.0, 400, 2024), ("iid, T = 400 (seed 11)", 0.0, 400, 11),
-                                ("AR(1) 0.5, T = 400", 0.5, 400, 2024), ("AR(1) 0.5, T = 800", 0.5, 800, 7),
-                                ("AR(1) 0.5, T = 800 (seed 1)", 0.5, 800, 1)):
-        c = coverage(rho=rho, t=t, datasets=a.datasets, seed=seed)
-        print(f"{label:<28} {c['eigenvalue']:>10.3f} {c['coefficient']:>12.3f} {c['angle']:>8.3f}")
+def run_coverage(datasets: int) -> None:
+    print(f"coverage of nominal 90% intervals, {datasets} datasets per cell, 199 resamples per window")
+    print("as the pipeline computes them (eigenvalue basic, coefficient percentile, angle basic) | studentised")
+    print(f"{'rows (seed)':<28} {'eigenvalue':>10} {'coefficient':>12} {'angle':>7} | "
+          f"{'eigenvalue':>10} {'coefficient':>12} {'angle':>7}")
+    for label, rho, t, seed in COVERAGE_CELLS:
+        c = coverage(rho=rho, t=t, datasets=datasets, seed=seed, studentized=True)
+        print(f"{label + f' ({seed})':<28} {c['eigenvalue']:>10.3f} {c['coefficient']:>12.3f} {c['angle']:>7.3f} | "
+              f"{c['eigenvalue (studentized)']:>10.3f} {c['coefficient (studentized)']:>12.3f} "
+              f"{c['angle (studentized)']:>7.3f}", flush=True)
+
+
+def run_blocks(datasets: int, *, t: int = 400, rho: float = 0.5, seed: int = 11) -> None:
+    """Block-length rules and schemes side by side on the same AR(1) datasets (pipeline intervals)."""
+    from relspan.analysis.intervals import (angle_interval, coefficient_intervals, interval, largest_angle_stack,
+                                            relation_bases)
+    from relspan.analysis.resample import draw_granules, politis_white_block_length, stack_covariances
+
+    rng = np.random.default_rng(seed)
+    s1, s2, te, tc, ta = coverage_design()
+    true_sd = float(np.sqrt(2.0 * te**2 * (1 + rho**2) / ((1 - rho**2) * t)))   # closed form, Gaussian AR(1)
+
+    def products(x):
+        z = (x - x.mean(0)) / x.std(0)
+        i, j = np.triu_indices(x.shape[1])
+        return z[:, i] * z[:, j]
+
+    variants = {  # name: (scheme, block length of the rows x)
+        "stationary, Politis-White on x (pipeline)": ("stationary", lambda x: politis_white_block_length(x).value),
+        "stationary, Politis-White on products": ("stationary", lambda x: politis_white_block_length(products(x)).value),
+        "stationary, twice Politis-White": ("stationary", lambda x: 2 * politis_white_block_length(x).value),
+        "moving, Politis-White (moving)": ("moving", lambda x: politis_white_block_length(x, kind="moving").value),
+        "moving, 4 rows": ("moving", lambda x: 4.0),
+        "moving, 8 rows": ("moving", lambda x: 8.0),
+        "moving, 16 rows": ("moving", lambda x: 16.0),
+    }
+    hits = {k: np.zeros(3) for k in variants}
+    sd = {k: [] for k in variants}
+    blen = {k: [] for k in variants}
+    for _ in range(datasets):
+        xs = [rows(rng, s, t, rho) for s in (s1, s2)]
+        est = [np.linalg.eigh(np.cov(x.T)) for x in xs]
+        basis, basis2 = est[0][1][:, :1].T, est[1][1][:, :1].T
+        angle = float(largest_angle_stack(basis, basis2[None])[0])
+        for name, (scheme, rule) in variants.items():
+            fits = []
+            for x in xs:
+                b = float(rule(x))
+                b = float(round(b)) if scheme == "moving" else b
+                idx = draw_granules(t, scheme=scheme, resamples=199, rng=rng, block_length=b)
+                wb, vb = np.linalg.eigh(stack_covariances(GranuleStats.from_rows(x), idx)[0])
+                fits.append((wb, relation_bases(vb, 1), b))
+            (wb, bases, b), (_, bases2, _) = fits
+            hits[name] += [interval(float(est[0][0][0]), wb[:, 0], level=0.9, method="basic").contains(te),
+                           coefficient_intervals(basis, bases, targets=[2], level=0.9)[(0, 0)].contains(tc),
+                           angle_interval(angle, bases, bases2, level=0.9).contains(ta)]
+            sd[name].append(wb[:, 0].std())
+            blen[name].append(b)
+    print(f"AR(1) {rho}, T = {t}, {datasets} datasets (seed {seed}), 199 resamples; true sd of the smallest "
+          f"eigenvalue {true_sd:.4f} (closed form)")
+    print(f"{'scheme, block length':<44} {'rows':>5} {'eigenvalue':>10} {'coefficient':>11} {'angle':>6} "
+          f"{'boot sd / true':>14} {'cv':>5}")
+    for name in variants:
+        h = hits[name] / datasets
+        v = np.array(sd[name])
+        print(f"{name:<44} {np.mean(blen[name]):>5.1f} {h[0]:>10.3f} {h[1]:>11.3f} {h[2]:>6.3f} "
+              f"{v.mean() / true_sd:>14.3f} {v.std() / v.mean():>5.3f}", flush=True)
+
+
+# --------------------------------------------------------------------------- equal-noise corank
+
+
+def two_relations(rng: np.random.Generator, t: int, *, noise: float = 0.075, extra: float = 0.0,
+                  rho: float = 0.0) -> np.ndarray:
+    """Five variables, three unit-variance factors (two exact relations), equal noise ``noise``.
+
+    ``extra`` adds noise of that variance along the second relation only (the two smallest population
+    eigenvalues become ``noise`` and ``noise + extra``: equal noise fails). ``rho``: AR(1) rows.
+    """
+    load = rng.normal(size=(5, 3))
+    load /= np.linalg.norm(load, axis=1, keepdims=True)
+    f = rng.normal(size=(t, 3))
+    e = rng.normal(size=(t, 5)) * np.sqrt(noise)
+    if extra:
+        a = np.linalg.svd(load.T)[2][4]
+        e = e + rng.normal(size=(t, 1)) * np.sqrt(extra) * a[None, :]
+    if rho:
+        from scipy.signal import lfilter
+        for z in (f, e):
+            z[1:] *= np.sqrt(1.0 - rho**2)
+            z[:] = lfilter([1.0], [1.0, -rho], z, axis=0)
+    return f @ load.T + e
+
+
+def corank_shares(rng, t: int, datasets: int, *, scale: str = "correlation", nobs: float | None = None,
+                  eps: float = 0.05, **kw) -> tuple[np.ndarray, np.ndarray]:
+    """Shares of datasets choosing corank 0..5: by the test alone, and by the pipeline's rule."""
+    lam = []
+    for _ in range(datasets):
+        x = two_relations(rng, t, **kw)
+        c = np.corrcoef(x.T) if scale == "correlation" else np.cov(x.T) / (1.0 + kw.get("noise", 0.075))
+        lam.append(np.linalg.eigvalsh(c))
+    lam = np.array(lam)
+    nb = t if nobs is None else nobs
+    test = np.bincount(sequential_corank_stack(lam, nobs=nb), minlength=6) / datasets
+    rule = np.bincount(equal_noise_corank_stack(lam, eps=eps, nobs=nb), minlength=6) / datasets
+    return test, rule
+
+
+def run_corank(datasets: int) -> None:
+    rng = np.random.default_rng(2026)
+    print(f"equal-noise corank, five variables with two exact relations, {datasets} datasets per row, eps = 0.05")
+    print("'fewer' = a corank below 2 chosen: under equal noise the size of the k = 2 test; "
+          "under unequal noise its power")
+    print(f"{'case':<52} {'test: 2':>8} {'fewer':>6} {'more':>6} | {'rule: 2':>8} {'fewer':>6} {'more':>6}")
+
+    def row(label, t, **kw):
+        test, rule = corank_shares(rng, t, datasets, **kw)
+        print(f"{label:<52} {test[2]:>8.3f} {test[:2].sum():>6.3f} {test[3:].sum():>6.3f} | "
+              f"{rule[2]:>8.3f} {rule[:2].sum():>6.3f} {rule[3:].sum():>6.3f}", flush=True)
+
+    for t in (100, 400, 2000):
+        for scale in ("correlation", "common"):
+            row(f"equal noise 7.5%, T = {t}, {scale} scale", t, scale=scale)
+    for t in (100, 400, 2000):
+        row(f"equal noise 40%, T = {t}, correlation scale", t, noise=0.4)
+    for t in (400, 2000):
+        row(f"AR(1) 0.5, noise 40%, T = {t}, rows as independent", t, noise=0.4, rho=0.5)
+        row(f"AR(1) 0.5, noise 40%, T = {t}, T (1 - r^2) / (1 + r^2)", t, noise=0.4, rho=0.5,
+            nobs=t * 0.75 / 1.25)
+    for extra in (0.0375, 0.075, 0.15):
+        for t in (400, 2000):
+            row(f"unequal: extra {extra:g} on relation 2, T = {t}", t, extra=extra)
+    for t in (144, 400, 2000):
+        row(f"near-exact: noise 0.5%, extra 0.5% on relation 2, T = {t}", t, noise=0.005, extra=0.005)
+
+
+# --------------------------------------------------------------------------- break scan
+
+
+def run_breaks(runs: int) -> None:
     rng = np.random.default_rng(2024)
-    runs = 40
     found = alarms = 0
     for _ in range(runs):
         for turn in (20.0, 0.0):
@@ -44,6 +185,22 @@ def main() -> None:
             alarms += hit and turn == 0
     print(f"break scan, 300 rows, 3 variables, 5% level: 20-degree break found in {found}/{runs}; "
           f"false alarms {alarms}/{runs}")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("what", nargs="?", choices=("coverage", "corank", "blocks", "breaks", "all"), default="all")
+    ap.add_argument("--datasets", type=int, default=400)
+    ap.add_argument("--runs", type=int, default=40)
+    a = ap.parse_args()
+    if a.what in ("corank", "all"):
+        run_corank(a.datasets)
+    if a.what in ("coverage", "all"):
+        run_coverage(a.datasets)
+    if a.what in ("blocks", "all"):
+        run_blocks(a.datasets)
+    if a.what in ("breaks", "all"):
+        run_breaks(a.runs)
 
 
 if __name__ == "__main__":

@@ -27,40 +27,92 @@ def rows(rng: np.random.Generator, cov: np.ndarray, t: int, rho: float = 0.0) ->
     return lfilter([1.0], [1.0, -rho], e, axis=0)
 
 
+def coverage_design() -> tuple[np.ndarray, np.ndarray, float, float, float]:
+    """The two windows' population covariances (relation turned 20 degrees) and the true smallest
+    eigenvalue of the first, coefficient of x1 in its relation solved for x3, and largest angle."""
+    from relspan.analysis.stability import principal_angles
+
+    s1, a1 = one_relation_cov(0.0)
+    s2, a2 = one_relation_cov(20.0)
+    return (s1, s2, float(np.linalg.eigvalsh(s1)[0]), float(-a1[0] / a1[2]),
+            float(principal_angles(a1, a2)[-1]))
+
+
 def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: float = 0.90,
-             seed: int = 2024) -> dict[str, float]:
+             seed: int = 2024, studentized: bool = False) -> dict[str, float]:
     """Share of simulated datasets whose nominal-``level`` intervals cover the truth.
 
     Per dataset: two windows of ``t`` rows, the relation turned by 20 degrees between them. Intervals:
     the smallest eigenvalue of window 1 (basic), the normalised coefficient of x1 in the relation solved
     for x3 (percentile, Procrustes-aligned bases) and the largest principal angle between the windows
     (basic, independent resamples of each window). Truth: the population covariance's values.
+
+    ``studentized=True`` adds, from the same data and resamples, the studentised intervals of
+    :func:`relspan.analysis.resample.studentized_interval` (keys ending in ``" (studentized)"``).
     """
     from relspan.analysis.intervals import (angle_interval, coefficient_intervals, interval,
                                             largest_angle_stack, relation_bases)
-    from relspan.analysis.resample import GranuleStats, resample_covariances
-    from relspan.analysis.stability import principal_angles
+    from relspan.analysis.resample import (GranuleStats, influence_sd, influence_values, resample_covariances,
+                                           resample_influence_sd, statistic_gradient, studentized_interval)
 
     rng = np.random.default_rng(seed)
-    s1, a1 = one_relation_cov(0.0)
-    s2, a2 = one_relation_cov(20.0)
-    true_eig = float(np.linalg.eigvalsh(s1)[0])
-    true_coef = float(-a1[0] / a1[2])
-    true_angle = float(principal_angles(a1, a2)[-1])
-    hits = np.zeros(3)
+    s1, s2, true_eig, true_coef, true_angle = coverage_design()
+    hits = np.zeros(6)
+
+    def smallest(cov):
+        return np.linalg.eigh(cov)[1][:, 0]
+
+    def eig(cov):
+        return np.linalg.eigvalsh(cov)[0]
+
+    def coef(cov):
+        v = smallest(cov)
+        return -v[0] / v[2]
+
+    def sd_pair(stats, res, f):
+        u = influence_values(stats, statistic_gradient(f, res.estimate))
+        return (influence_sd(u, stats.counts, ordered=stats.ordered),
+                resample_influence_sd(u, stats.counts, res.draws, res.blocks))
+
     for _ in range(datasets):
         fits = []
         for cov in (s1, s2):
             x = rows(rng, cov, t, rho)
-            r = resample_covariances(GranuleStats.from_rows(x, ordered=rho != 0.0), resamples=resamples, rng=rng)
+            st = GranuleStats.from_rows(x, ordered=rho != 0.0)
+            r = resample_covariances(st, resamples=resamples, rng=rng, keep_draws=studentized)
             w, v = np.linalg.eigh(r.estimate)
             wb, vb = r.eigh()
-            fits.append((w, v[:, :1].T, wb, relation_bases(vb, 1)))
-        (w, basis, wb, bases), (_, basis2, _, bases2) = fits
+            fits.append((w, v[:, :1].T, wb, relation_bases(vb, 1), st, r))
+        (w, basis, wb, bases, st1, r1), (_, basis2, _, bases2, st2, r2) = fits
         e = interval(float(w[0]), wb[:, 0], level=level, method="basic")
         c = coefficient_intervals(basis, bases, targets=[2], level=level)[(0, 0)]
         est = float(largest_angle_stack(basis, basis2[None])[0])
+        draws_a = largest_angle_stack(bases, bases2)
         a = angle_interval(est, bases, bases2, level=level, method="basic")
-        hits += [e.contains(true_eig), c.contains(true_coef), a.contains(true_angle)]
+        hits[:3] += [e.contains(true_eig), c.contains(true_coef), a.contains(true_angle)]
+        if studentized:
+            se, se_b = sd_pair(st1, r1, eig)
+            ts = studentized_interval(float(w[0]), wb[:, 0], se, se_b, level=level)
+            sc, sc_b = sd_pair(st1, r1, coef)
+            # the coefficient's draws: each resample's reduced form (sign-free for one relation)
+            tc = studentized_interval(c.estimate, -bases[:, 0, 0] / bases[:, 0, 2], sc, sc_b, level=level)
+            v2 = basis2[0]
+
+            def ang_a(cov):
+                return largest_angle_stack(smallest(cov)[None], v2[None][None])[0]
+
+            v1 = basis[0]
+
+            def ang_b(cov):
+                return largest_angle_stack(v1[None], smallest(cov)[None][None])[0]
+
+            sa, sa_b = sd_pair(st1, r1, ang_a)
+            sb, sb_b = sd_pair(st2, r2, ang_b)
+            ta = studentized_interval(est, draws_a, float(np.hypot(sa, sb)), np.hypot(sa_b, sb_b), level=level)
+            hits[3:] += [ts.contains(true_eig), tc.contains(true_coef), ta.contains(true_angle)]
     share = hits / datasets
-    return {"eigenvalue": float(share[0]), "coefficient": float(share[1]), "angle": float(share[2])}
+    out = {"eigenvalue": float(share[0]), "coefficient": float(share[1]), "angle": float(share[2])}
+    if studentized:
+        out.update({"eigenvalue (studentized)": float(share[3]), "coefficient (studentized)": float(share[4]),
+                    "angle (studentized)": float(share[5])})
+    return out

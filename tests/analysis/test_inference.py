@@ -58,6 +58,20 @@ def test_equal_rule_one_relation_needs_its_noise_within_the_tolerance():
     assert equal_noise_corank_rule([0.01, 0.9, 2.09], eps=0.05, nobs=500) == 1
 
 
+def test_equal_rule_counts_eigenvalues_within_the_tolerance_of_the_smallest_whatever_their_level():
+    # 5000 rows: the test rejects 0.20 = 0.24 (ratio 1.2), but they lie within eps = 0.05 of each other,
+    # so equal noise up to a deviation of norm eps/2 (Weyl) holds with s^2 = 0.22, well above eps
+    lam = [0.20, 0.24, 1.6, 1.96]
+    from relspan.analysis.equal_test import sequential_corank
+    assert sequential_corank(lam, nobs=5000) == 1
+    assert equal_noise_corank_rule(lam, eps=0.05, nobs=5000) == 2
+    # near-exact relations with unequal tiny noise (the demo's harbour series look like this)
+    assert equal_noise_corank_rule([0.0048, 0.0098, 0.9968, 2.9886], eps=0.05, nobs=144) == 2
+    # a gap wider than eps with the test rejecting: only the test decides, and one relation needs l_1 <= eps
+    assert equal_noise_corank_rule([0.20, 0.30, 1.6, 1.9], eps=0.05, nobs=5000) == 0
+    assert equal_noise_corank_rule([0.01, 0.07, 1.6, 2.32], eps=0.05, nobs=5000) == 1
+
+
 def test_equal_noise_coefficient_intervals_cover_the_true_reduced_form():
     x, load = _issue_case(seed=5)
     w = _analyse(x)

@@ -2,11 +2,13 @@
 
 import numpy as np
 import pytest
+from scipy.signal import lfilter
 
 from relspan.analysis.moments import merge_all
-from relspan.analysis.resample import (GranuleStats, draw_granules, merge_weighted, politis_white_block_length,
-                                       resample_covariances, scale_stack, stack_covariances, window_rng,
-                                       window_seed)
+from relspan.analysis.resample import (GranuleStats, draw_blocks, draw_granules, influence_sd, influence_values,
+                                       merge_weighted, politis_white_block_length, resample_covariances,
+                                       resample_influence_sd, scale_stack, stack_covariances, statistic_gradient,
+                                       studentized_interval, window_rng, window_seed)
 from relspan.data.blocks import granulate, granule_rows_for
 from relspan.errors import OptionsError
 
@@ -153,3 +155,72 @@ class TestResampleCovariances:
     def test_bad_resample_count_is_refused(self):
         with pytest.raises(OptionsError, match="resamples must be"):
             resample_covariances(GranuleStats.from_rows(_rows(t=20)), resamples=0, rng=np.random.default_rng(0))
+
+
+class TestStudentized:
+    """Blockwise studentised (bootstrap-t) intervals: the pieces, each against a hand computation."""
+
+    def test_draw_blocks_gives_the_draws_of_draw_granules_and_their_blocks(self):
+        for scheme, b in (("iid", 1.0), ("moving", 7.0), ("stationary", 6.5)):
+            idx = draw_granules(200, scheme=scheme, resamples=30, rng=np.random.default_rng(4), block_length=b)
+            idx2, block = draw_blocks(200, scheme=scheme, resamples=30, rng=np.random.default_rng(4),
+                                      block_length=b)
+            np.testing.assert_array_equal(idx, idx2)
+            # inside a block the granules are consecutive (wrapping at the end for stationary blocks)
+            same = block[:, 1:] == block[:, :-1]
+            assert np.all(((idx2[:, 1:] - idx2[:, :-1]) % 200)[same] == 1)
+            assert np.all(np.diff(block, axis=1) >= 0) and np.all(block[:, 0] == 0)
+            if scheme == "moving":
+                np.testing.assert_array_equal(block[0], np.arange(200) // 7)
+
+    def test_influence_of_a_variance_is_the_textbook_one(self):
+        # f(S) = S[0, 0]: influence of row t is (x_t - m)^2 - s^2 (divisor N); its standard error
+        # sqrt(sum((x - m)^2 - s^2)^2) / N is the usual delta-method one (common practice)
+        x = np.random.default_rng(1).normal(size=(300, 2))
+        st = GranuleStats.from_rows(x, ordered=False)
+        g = statistic_gradient(lambda s: s[0, 0], np.cov(x.T))
+        np.testing.assert_allclose(g, [[1.0, 0.0], [0.0, 0.0]], atol=1e-8)
+        u = influence_values(st, g)
+        d2 = (x[:, 0] - x[:, 0].mean()) ** 2
+        np.testing.assert_allclose(u, d2 - d2.mean(), atol=1e-10)
+        want = np.sqrt(np.sum((d2 - d2.mean()) ** 2)) / 300
+        assert influence_sd(u, st.counts, ordered=False) == pytest.approx(want, rel=1e-8)  # numerical gradient
+
+    def test_influence_of_granules_is_the_sum_over_their_rows(self):
+        x = np.random.default_rng(2).normal(size=(240, 3))
+        g = statistic_gradient(lambda s: np.linalg.eigvalsh(s)[0], np.cov(x.T))
+        rows_u = influence_values(GranuleStats.from_rows(x), g)
+        gr = granulate(x, cap=60, cuts=[])
+        st = GranuleStats.from_table(gr, 0, len(gr))
+        k = gr.rows_per_granule
+        np.testing.assert_allclose(influence_values(st, g), rows_u.reshape(-1, k).sum(axis=1), atol=1e-9)
+
+    def test_long_run_sd_of_an_ar1_mean_is_near_its_closed_form(self):
+        # AR(1) with coefficient 0.5 and unit variance: long-run variance (1 + r) / (1 - r) = 3
+        # (closed form, common practice); the flat-top estimate over 20000 rows is within 10%
+        rng = np.random.default_rng(3)
+        e = rng.normal(size=20000)
+        e[1:] *= np.sqrt(0.75)
+        x = lfilter([1.0], [1.0, -0.5], e)
+        sd = influence_sd(x - x.mean(), np.ones(x.size), ordered=True)
+        assert sd == pytest.approx(np.sqrt(3.0 / x.size), rel=0.10)
+        assert influence_sd(x - x.mean(), np.ones(x.size), ordered=False) == pytest.approx(
+            np.sqrt(1.0 / x.size), rel=0.05)
+
+    def test_resample_sd_sums_influence_within_blocks(self):
+        u = np.array([1.0, -2.0, 3.0, 0.5, -1.5, -1.0])
+        idx = np.array([[0, 1, 2, 3, 4, 5], [2, 3, 2, 3, 0, 1]])
+        block = np.array([[0, 0, 1, 1, 2, 2], [0, 0, 1, 1, 2, 2]])
+        got = resample_influence_sd(u, np.ones(6), idx, block)
+        e0 = u - u.mean()
+        want0 = np.sqrt((e0[0] + e0[1]) ** 2 + (e0[2] + e0[3]) ** 2 + (e0[4] + e0[5]) ** 2) / 6
+        v = u[idx[1]] - u[idx[1]].mean()
+        want1 = np.sqrt((v[0] + v[1]) ** 2 + (v[2] + v[3]) ** 2 + (v[4] + v[5]) ** 2) / 6
+        np.testing.assert_allclose(got, [want0, want1], rtol=1e-12)
+
+    def test_studentized_interval_inverts_the_quantiles_of_the_t_draws(self):
+        # hand computation: t draws (d - 2) / s = -2, -1, 0, 1, 4; 50% quantiles (linear) -1 and 1
+        iv = studentized_interval(2.0, [0.0, 1.0, 2.0, 3.0, 6.0], 0.5, [1.0] * 5, level=0.5)
+        assert (iv.low, iv.high, iv.method, iv.resamples) == (1.5, 2.5, "studentized", 5)
+        # a resample without a standard error is left out
+        assert studentized_interval(2.0, [0.0, 1.0, 9.0], 1.0, [1.0, 1.0, 0.0], level=0.5).resamples == 2

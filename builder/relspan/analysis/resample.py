@@ -75,8 +75,9 @@ from relspan.errors import OptionsError
 
 __all__ = ["SCHEMES", "DEFAULT_RESAMPLES", "DEFAULT_LEVEL", "BlockLength", "GranuleStats",
            "CovarianceResamples", "window_seed", "window_rng", "politis_white_block_length",
-           "draw_granules", "merge_weighted", "resample_covariances", "stack_covariances",
-           "correlation_stack", "scale_stack"]
+           "draw_granules", "draw_blocks", "merge_weighted", "resample_covariances", "stack_covariances",
+           "correlation_stack", "scale_stack", "statistic_gradient", "influence_values", "influence_sd",
+           "resample_influence_sd", "studentized_interval"]
 
 #: resampling schemes
 SCHEMES = ("iid", "moving", "stationary")
@@ -143,13 +144,13 @@ def _flat_top(t: np.ndarray) -> np.ndarray:
     return np.where(a <= 0.5, 1.0, np.where(a <= 1.0, 2.0 * (1.0 - a), 0.0))
 
 
-def _pw_one(x: np.ndarray, kind: str) -> float:
-    """Politis-White block length of one series (Patton-Politis-White 2009 constants)."""
+def _flat_top_lags(x: np.ndarray) -> tuple[np.ndarray, int]:
+    """Autocovariances of a centred series (divisor n) and the flat-top bandwidth ``M`` (Politis 2003).
+
+    ``M = 2 m_hat``, ``m_hat`` the first lag after which ``K_N`` autocorrelations in
+    a row lie within ``2 sqrt(log10 n / n)``; at most ``ceil(sqrt n) + K_N``.
+    """
     n = x.shape[0]
-    x = x - x.mean()
-    var = float(x @ x) / n
-    if n < 4 or var <= 0:
-        return 1.0
     kn = max(5, math.ceil(math.sqrt(math.log10(n))))
     m_max = math.ceil(math.sqrt(n)) + kn
     lags = min(n - 1, m_max + kn)
@@ -165,7 +166,17 @@ def _pw_one(x: np.ndarray, kind: str) -> float:
             break
     if m_hat is None:
         m_hat = m_max
-    big_m = min(2 * max(m_hat, 1), m_max, lags)
+    return acov, min(2 * max(m_hat, 1), m_max, lags)
+
+
+def _pw_one(x: np.ndarray, kind: str) -> float:
+    """Politis-White block length of one series (Patton-Politis-White 2009 constants)."""
+    n = x.shape[0]
+    x = x - x.mean()
+    var = float(x @ x) / n
+    if n < 4 or var <= 0:
+        return 1.0
+    acov, big_m = _flat_top_lags(x)
     k = np.arange(1, big_m + 1)
     lam = _flat_top(k / big_m)
     g_hat = 2.0 * float(np.sum(lam * k * acov[1:big_m + 1]))
@@ -295,6 +306,23 @@ def draw_granules(k: int, *, scheme: str, resamples: int, rng: np.random.Generat
     (resamples, k) int64
         Row ``b`` lists the granules of resample ``b`` in the order drawn.
     """
+    return draw_blocks(k, scheme=scheme, resamples=resamples, rng=rng, block_length=block_length)[0]
+
+
+def draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Generator,
+                block_length: float = 1.0) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`draw_granules` and, beside it, the block each drawn granule belongs to.
+
+    Returns
+    -------
+    idx : (resamples, k) int64
+        As :func:`draw_granules` (the same draws for the same ``rng`` state).
+    block : (resamples, k) int64
+        ``block[b, t]`` numbers the block (0, 1, ... within resample ``b``)
+        that position ``t`` was copied from; for ``"iid"`` every position is
+        a block of its own. The studentised interval
+        (:func:`studentized_interval`) sums influence values over these blocks.
+    """
     if scheme not in SCHEMES:
         raise OptionsError(f"scheme must be one of {', '.join(SCHEMES)}; got {scheme!r}.", key="scheme",
                            fix="Use 'stationary' or 'moving' for time-ordered rows, 'iid' otherwise.")
@@ -302,13 +330,13 @@ def draw_granules(k: int, *, scheme: str, resamples: int, rng: np.random.Generat
         raise OptionsError(f"need at least one granule and one resample; got k={k}, resamples={resamples}.",
                            key="resamples", fix="Ask for at least one resample of a non-empty window.")
     if scheme == "iid" or k == 1:
-        return rng.integers(0, k, size=(resamples, k))
+        return rng.integers(0, k, size=(resamples, k)), np.broadcast_to(np.arange(k), (resamples, k))
     if scheme == "moving":
         b = int(min(max(round(block_length), 1), k))
         nb = -(-k // b)
         starts = rng.integers(0, k - b + 1, size=(resamples, nb))
         idx = (starts[:, :, None] + np.arange(b)).reshape(resamples, nb * b)
-        return idx[:, :k]
+        return idx[:, :k], np.broadcast_to(np.arange(k) // b, (resamples, k))
     p = 1.0 / max(float(block_length), 1.0)
     new = rng.random((resamples, k), dtype=np.float32) < np.float32(p)
     new[:, 0] = True
@@ -316,7 +344,8 @@ def draw_granules(k: int, *, scheme: str, resamples: int, rng: np.random.Generat
     starts = rng.integers(0, k, size=int(block[-1]) + 1)    # one uniform start per block
     t = np.arange(k)
     begin = np.maximum.accumulate(np.where(new, t, 0), axis=1)
-    return (starts[block].reshape(resamples, k) + (t - begin)) % k
+    idx = (starts[block].reshape(resamples, k) + (t - begin)) % k
+    return idx, np.cumsum(new, axis=1) - 1
 
 
 def merge_weighted(counts, means, comoments, weights) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -396,6 +425,9 @@ class CovarianceResamples:
         ``(seed, dataset, plan, window)`` when the stream came from :func:`window_seed`.
     note : str
         What the granule size approximates (empty for single rows).
+    draws, blocks : (B, k) int arrays or None
+        The granules drawn and their blocks (:func:`draw_blocks`), kept only
+        when asked (``keep_draws=True``): a studentised interval needs them.
     """
 
     estimate: np.ndarray
@@ -408,6 +440,8 @@ class CovarianceResamples:
     granules: int
     seed: tuple | None
     note: str
+    draws: np.ndarray | None = None
+    blocks: np.ndarray | None = None
 
     @property
     def resamples(self) -> int:
@@ -464,7 +498,7 @@ def scale_stack(covs: np.ndarray, scale) -> np.ndarray:
 def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMPLES,
                          rng: np.random.Generator, scheme: str | None = None,
                          block_length: float | None = None, seed: tuple | None = None,
-                         ddof: int = 1) -> CovarianceResamples:
+                         ddof: int = 1, keep_draws: bool = False) -> CovarianceResamples:
     """Bootstrap resamples of a window's covariance from its granule statistics.
 
     Parameters
@@ -483,6 +517,9 @@ def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMP
         Recorded on the result (``(seed, dataset, plan, window)``).
     ddof : int
         Covariance divisor ``rows - ddof``.
+    keep_draws : bool
+        Keep the drawn granules and their blocks on the result (memory: two
+        ``(B, k)`` integer arrays), for :func:`studentized_interval`.
 
     Returns
     -------
@@ -515,7 +552,7 @@ def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMP
         b, rule = bl.value, bl.rule
     if scheme == "moving":
         b = float(min(max(round(b), 1), stats.k))
-    idx = draw_granules(stats.k, scheme=scheme, resamples=int(resamples), rng=rng, block_length=b)
+    idx, blocks = draw_blocks(stats.k, scheme=scheme, resamples=int(resamples), rng=rng, block_length=b)
     covs, rows = stack_covariances(stats, idx, ddof=ddof)
     tot, _, cm = stats.window_moments()
     note = "" if stats.rows_per_granule == 1 else (
@@ -523,4 +560,121 @@ def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMP
         "granule boundaries and the block length is estimated from granule means.")
     return CovarianceResamples(estimate=cm / (tot - ddof), covariances=covs, rows=rows, scheme=scheme,
                                block_length=b, block_rule=rule, rows_per_granule=stats.rows_per_granule,
-                               granules=stats.k, seed=seed, note=note)
+                               granules=stats.k, seed=seed, note=note,
+                               draws=idx if keep_draws else None,
+                               blocks=np.ascontiguousarray(blocks) if keep_draws else None)
+
+
+# --------------------------------------------------------------------------- studentised intervals
+
+
+def statistic_gradient(f, cov, *, step: float | None = None) -> np.ndarray:
+    """The symmetric gradient ``G`` of a smooth statistic of a covariance, by central differences.
+
+    ``f(cov + E) = f(cov) + tr(G E) + O(||E||^2)`` for symmetric ``E``; ``step``
+    defaults to ``1e-6`` times the largest diagonal entry.
+    """
+    s = np.asarray(cov, dtype=float)
+    n = s.shape[0]
+    h = float(step) if step is not None else 1e-6 * max(float(np.max(np.abs(np.diag(s)))), 1e-300)
+    g = np.zeros((n, n))
+    for i in range(n):
+        for j in range(i, n):
+            e = np.zeros((n, n))
+            e[i, j] = e[j, i] = h
+            d = (float(f(s + e)) - float(f(s - e))) / (2.0 * h)
+            g[i, j] = g[j, i] = d if i == j else d / 2.0
+    return g
+
+
+def influence_values(stats: GranuleStats, grad) -> np.ndarray:
+    """Each granule's share ``U_i`` of the linearised statistic (its empirical influence, summed over its rows).
+
+    ``U_i = tr(G (P_i - c_i S0))`` with ``P_i = C_i + c_i d_i d_i^T`` the
+    granule's co-moment about the window mean, ``S0`` the window's
+    co-moment over its rows and ``G`` from :func:`statistic_gradient`:
+    ``sum_i U_i / N`` is the first-order change of the statistic.
+    """
+    g = np.asarray(grad, dtype=float)
+    c, m, cm = stats.counts, stats.means, stats.comoments
+    d = m - (c @ m) / c.sum()
+    quad = np.einsum("kij,ij->k", cm, g) + c * np.einsum("ki,ij,kj->k", d, g, d)
+    return quad - c * (float(quad.sum()) / float(c.sum()))
+
+
+def influence_sd(values, counts, *, ordered: bool) -> float:
+    """Standard error of a statistic from its influence values (``sqrt(long-run variance) / N``).
+
+    Time-ordered granules: the flat-top lag-window estimate of the long-run
+    variance of the influence series (Politis & Romano 1995; bandwidth by
+    Politis' 2003 rule, as in :func:`politis_white_block_length`), which
+    has no first-order bias, unlike the block bootstrap's own variance;
+    when it is not positive, the Bartlett (triangular) window with the same
+    bandwidth, which always is. Unordered rows: lag 0 only.
+    """
+    u = np.asarray(values, dtype=float)
+    n_rows = float(np.sum(counts))
+    k = u.shape[0]
+    u = u - u.mean()
+    if not ordered or k < 4:
+        return math.sqrt(float(u @ u)) / n_rows
+    acov, big_m = _flat_top_lags(u)
+    lag = np.arange(1, big_m + 1)
+    lrv = float(acov[0] + 2.0 * np.sum(_flat_top(lag / big_m) * acov[1:big_m + 1]))
+    if not lrv > 0:
+        lrv = float(acov[0] + 2.0 * np.sum((1.0 - lag / (big_m + 1.0)) * acov[1:big_m + 1]))
+    return math.sqrt(max(lrv, 0.0) * k) / n_rows
+
+
+def resample_influence_sd(values, counts, idx, block) -> np.ndarray:
+    """The standard error each resample gives itself: its block sums of influence values (``(B,)``).
+
+    For resample ``b`` the drawn granules' influence values are centred at the
+    resample's own mean and summed within each drawn block; the variance is
+    the sum of squared block sums over ``N_b^2`` (the blockwise studentisation
+    of Goetze & Kuensch 1996: blocks are independent given the data).
+    """
+    u = np.asarray(values, dtype=float)[idx]
+    c = np.asarray(counts, dtype=float)[idx]
+    nb = c.sum(axis=1)
+    e = u - c * (u.sum(axis=1) / nb)[:, None]
+    b_total, k = idx.shape
+    flat = (np.arange(b_total)[:, None] * k + np.asarray(block)).ravel()
+    sums = np.bincount(flat, weights=e.ravel(), minlength=b_total * k).reshape(b_total, k)
+    return np.sqrt(np.sum(sums**2, axis=1)) / nb
+
+
+def studentized_interval(estimate: float, draws, sd: float, sd_draws, *, level: float):
+    """Studentised (bootstrap-t) interval ``[t - sd q_hi, t - sd q_lo]``.
+
+    ``q`` are quantiles of ``(draw_b - estimate) / sd_draws[b]`` (Hall 1988;
+    Davison & Hinkley 1997, section 5.2.1); for block resamples the resample
+    standard errors come from :func:`resample_influence_sd` (Goetze & Kuensch
+    1996) and ``sd`` from :func:`influence_sd`. Resamples with no finite,
+    positive standard error are left out. Returns an
+    :class:`relspan.analysis.intervals.Interval` with method ``"studentized"``.
+
+    References
+    ----------
+    .. [1] P. Hall, "Theoretical comparison of bootstrap confidence intervals",
+           Annals of Statistics 16(3), 927-953, 1988.
+    .. [2] F. Goetze and H. R. Kuensch, "Second-order correctness of the
+           blockwise bootstrap for stationary observations", Annals of
+           Statistics 24(5), 1914-1933, 1996.
+    .. [3] D. N. Politis and J. P. Romano, "Bias-corrected nonparametric
+           spectral estimation", Journal of Time Series Analysis 16(1), 67-103, 1995.
+    """
+    from relspan.analysis.intervals import Interval
+    if not (0.0 < float(level) < 1.0):
+        raise OptionsError(f"level must be in (0, 1); got {level!r}.", key="level",
+                           fix="Use a confidence level such as 0.90.")
+    t = float(estimate)
+    d = np.asarray(draws, dtype=float)
+    s = np.asarray(sd_draws, dtype=float)
+    ok = np.isfinite(d) & np.isfinite(s) & (s > 0)
+    if ok.sum() < 2 or not (sd > 0):
+        return Interval(t, np.nan, np.nan, float(level), "studentized", int(ok.sum()))
+    z = (d[ok] - t) / s[ok]
+    a = (1.0 - float(level)) / 2.0
+    lo, hi = np.quantile(z, [a, 1.0 - a])
+    return Interval(t, t - sd * float(hi), t - sd * float(lo), float(level), "studentized", int(ok.sum()))
