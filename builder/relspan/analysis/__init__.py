@@ -11,10 +11,14 @@ naming the function's own parameter; see :mod:`relspan.errors` for the rule.
 
 # Imported on first use (PEP 562): importing one module of the package (the data pass needs
 # moments and _dd only) does not import every method family and SciPy with it.
+# ``equal_noise`` names both a submodule and its function: imported here, so the package's
+# attribute is the function whichever module imports the submodule first (as before)
+from relspan.analysis.equal_noise import equal_noise  # noqa: E402
+
 _WHERE = {
     **dict.fromkeys(('Moments', 'merge', 'merge_all', 'moments_of'), 'relspan.analysis.moments'),
     **dict.fromkeys(('ElementaryRegressions', 'choose_reference', 'elementary_regressions'), 'relspan.analysis.elementary'),
-    **dict.fromkeys(('EqualNoise', 'EqualNoiseCorank', 'equal_noise'), 'relspan.analysis.equal_noise'),
+    **dict.fromkeys(('EqualNoise', 'EqualNoiseCorank'), 'relspan.analysis.equal_noise'),
     **dict.fromkeys(('BoundedCorank', 'BoundedNoise', 'NoiseTolerance', 'bounded_noise', 'tolerance_eps'), 'relspan.analysis.bounded'),
     **dict.fromkeys(('CoefficientSwing', 'CorankSequence', 'SubspaceStability', 'coefficient_swing', 'corank_sequence', 'principal_angles', 'subspace_stability'), 'relspan.analysis.stability'),
     **dict.fromkeys(('ElementaryFlat', 'elementary_flat'), 'relspan.analysis.flat'),
