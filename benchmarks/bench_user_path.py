@@ -82,27 +82,33 @@ def relspan_path(x: np.ndarray):
     return ers, time.perf_counter() - t1
 
 
+def _window_moments(x: np.ndarray):
+    """Covariances (high and low parts), counts and means of the rolling windows of ``x``."""
+    from relspan.analysis import _dd
+    from relspan.data.blocks import BlockBuilder, assemble_stacked
+
+    t = x.shape[0]
+    b = BlockBuilder(x.shape[1], lambda p, _t: (p // STEP)[:, None], timed=False)
+    pos = np.arange(t, dtype=np.int64)
+    b.push(x - x[0], pos, pos + 1, None)
+    blocks = b.finish(x[0].copy())
+    lo = np.arange(0, (t - WIDTH) // STEP + 1)
+    c, m, cm, _, cml = assemble_stacked(blocks, lo, lo + WIDTH // STEP, low=True)
+    hi, clo = _dd.dd_div_float(cm, cml, (c - 1).astype(float)[:, None, None])
+    return hi, 0.5 * (clo + clo.transpose(0, 2, 1)), c, m
+
+
 _STACK_INPUT: dict = {}
 
 
 def _stack_again(x: np.ndarray):
     """elementary_regressions_stack alone on the window moments of ``x`` (built once, kept)."""
-    from relspan.analysis import _dd
     from relspan.analysis.elementary import elementary_regressions_stack
-    from relspan.data.blocks import BlockBuilder, assemble_stacked
 
     key = (x.shape, float(x[0, 0]))
     if key not in _STACK_INPUT:
-        t = x.shape[0]
-        b = BlockBuilder(x.shape[1], lambda p, _t: (p // STEP)[:, None], timed=False)
-        pos = np.arange(t, dtype=np.int64)
-        b.push(x - x[0], pos, pos + 1, None)
-        blocks = b.finish(x[0].copy())
-        lo = np.arange(0, (t - WIDTH) // STEP + 1)
-        c, m, cm, _, cml = assemble_stacked(blocks, lo, lo + WIDTH // STEP, low=True)
-        hi, clo = _dd.dd_div_float(cm, cml, (c - 1).astype(float)[:, None, None])
         _STACK_INPUT.clear()
-        _STACK_INPUT[key] = (hi, 0.5 * (clo + clo.transpose(0, 2, 1)), c, m)
+        _STACK_INPUT[key] = _window_moments(x)
     hi, clo, c, m = _STACK_INPUT[key]
     return elementary_regressions_stack(hi, cov_los=clo, names=[f"x{j}" for j in range(x.shape[1])],
                                         counts=c, means=m)
@@ -142,20 +148,10 @@ def rolling_ols(x: np.ndarray):
 
 def one_vs_stack(x: np.ndarray) -> None:
     """The stack against the one-window function the pipeline called before, same windows."""
-    from relspan.analysis import _dd
     from relspan.analysis.elementary import elementary_regressions, elementary_regressions_stack
-    from relspan.data.blocks import BlockBuilder, assemble_stacked
 
-    t, n = x.shape
-    b = BlockBuilder(n, lambda p, _t: (p // STEP)[:, None], timed=False)
-    pos = np.arange(t, dtype=np.int64)
-    b.push(x - x[0], pos, pos + 1, None)
-    blocks = b.finish(x[0].copy())
-    lo = np.arange(0, (t - WIDTH) // STEP + 1)
-    c, m, cm, _, cml = assemble_stacked(blocks, lo, lo + WIDTH // STEP, low=True)
-    hi, clo = _dd.dd_div_float(cm, cml, (c - 1).astype(float)[:, None, None])
-    clo = 0.5 * (clo + clo.transpose(0, 2, 1))
-    names = [f"x{j}" for j in range(n)]
+    hi, clo, c, m = _window_moments(x)
+    names = [f"x{j}" for j in range(x.shape[1])]
 
     def one_by_one():
         with warnings.catch_warnings():
