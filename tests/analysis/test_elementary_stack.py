@@ -5,7 +5,11 @@ identical; relations, coefficients, residual variances, R^2 and intercepts agree
 :func:`elementary_regressions` window by window to ``ULPS`` units in the last place of the
 largest entry of their row, times the correlation-scale condition number over 1e6 when that is
 larger (the first inverse is found by LU instead of Cholesky; both are refined against the
-double-double covariance, which leaves a few ulp times the condition).
+double-double covariance, which leaves a few ulp times the condition). A window whose a-priori
+error bound (``inverse_error_bound``: 2 n (n + 3) cond u) is at most ``REFINE_ABOVE_ERROR`` keeps
+its float64 inverse unrefined in the stack: there each array agrees with the refined one-window
+result within that bound times the array's largest magnitude (the reference of the published
+quantum, ``relspan.precision``).
 """
 
 from __future__ import annotations
@@ -15,7 +19,9 @@ import warnings
 import numpy as np
 import pytest
 
-from relspan.analysis.elementary import elementary_regressions, elementary_regressions_stack
+from relspan.analysis import elementary as elementary_module
+from relspan.analysis.elementary import (REFINE_ABOVE_ERROR, elementary_regressions, elementary_regressions_stack,
+                                         inverse_error_bound)
 from relspan.analysis.window import WindowOptions, analyse_window
 from relspan.data import prepare_frame
 from relspan.errors import IllConditionedWarning
@@ -28,13 +34,15 @@ sm = pytest.importorskip("statsmodels.api")
 ULPS = 8
 
 
-def _close(a, b, cond):
+def _close(a, b, cond, unrefined=0.0):
     a, b = np.asarray(a, float), np.asarray(b, float)
     assert np.array_equal(np.isnan(a), np.isnan(b))
     if np.isnan(b).all():
         return
     scale = np.max(np.abs(np.nan_to_num(b)), axis=-1, keepdims=True) if b.ndim else np.abs(b)
     bound = ULPS * np.spacing(scale) * max(1.0, cond / 1e6)
+    if unrefined:   # the a-priori bound, relative to the array's largest magnitude
+        bound = np.maximum(bound, unrefined * np.max(np.abs(np.nan_to_num(b))))
     diff = np.abs(np.nan_to_num(a) - np.nan_to_num(b))
     assert np.all(diff <= bound), float(np.max(diff / np.spacing(scale)))
 
@@ -45,13 +53,15 @@ def _compare(stack, one):
     assert np.array_equal(stack.std, one.std) and stack.count == one.count
     assert stack.singular_reason == one.singular_reason
     cond = one.condition_correlation if np.isfinite(one.condition_correlation) else 1.0
+    bound = float(inverse_error_bound(cond, one.n)) if not one.singular else 0.0
+    unrefined = bound if bound <= REFINE_ABOVE_ERROR else 0.0
     for name in ("relations", "coefficients", "residual_variance", "r_squared", "intercepts",
                  "residual_variance_unbiased"):
         a, b = getattr(stack, name), getattr(one, name)
         if b is None:
             assert a is None
             continue
-        _close(a, b, cond)
+        _close(a, b, cond, unrefined)
     assert np.array_equal(stack.exact_relations, one.exact_relations)
 
 
@@ -84,6 +94,20 @@ def test_stack_matches_the_one_window_function_within_the_stated_bound(seed):
                                          cov_lo=los[i])
             _compare(stack[i], one)
     assert any(er.singular for er in stack) and not all(er.singular for er in stack)
+
+
+def test_stack_refines_only_windows_whose_error_bound_exceeds_the_cut(monkeypatch):
+    covs, los, means, counts = _windows(4, w=120)
+    names = [f"x{i}" for i in range(covs.shape[1])]
+    refined = []
+    real = elementary_module._refined_inverse_stack
+    monkeypatch.setattr(elementary_module, "_refined_inverse_stack",
+                        lambda s, lo, pr, d: (refined.append(len(s)), real(s, lo, pr, d))[1])
+    stack = elementary_regressions_stack(covs, names=names, counts=counts, means=means, cov_los=los)
+    above = [er for er in stack if not er.singular
+             and inverse_error_bound(er.condition_correlation, er.n) > REFINE_ABOVE_ERROR]
+    assert 0 < len(above) < sum(not er.singular for er in stack)   # both kinds occur here
+    assert sum(refined) == len(above)
 
 
 def test_stack_warns_like_the_one_window_function_only_when_asked():

@@ -73,6 +73,22 @@ class TestDeterminism:
         for key, res in figs.items():
             assert render_figure(res, fmt) == render_figure(res, fmt), key
 
+    @pytest.mark.parametrize("fmt", ["svg", "png"])
+    def test_a_save_draws_the_figure_once_and_leaves_no_layout_engine(self, fmt, monkeypatch):
+        # the layout is fixed when the figure is built (one pass); a figure that still has a
+        # layout engine (even the placeholder "none" leaves) is drawn twice by savefig, and
+        # savefig would put a constrained engine back under the style's rcParams
+        res = fi.build_all()["gallery"]
+        assert res.figure.get_layout_engine() is None
+        draws = []
+        real = matplotlib.figure.Figure.draw
+        monkeypatch.setattr(matplotlib.figure.Figure, "draw",
+                            lambda self, renderer: (draws.append(1), real(self, renderer))[1])
+        first = render_figure(res, fmt)
+        assert len(draws) == 1
+        assert res.figure.get_layout_engine() is None
+        assert render_figure(res, fmt) == first and len(draws) == 2
+
     @pytest.mark.slow
     def test_bytes_do_not_depend_on_pythonhashseed(self, figs):
         here = {}

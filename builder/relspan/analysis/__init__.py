@@ -9,24 +9,27 @@ Bad arguments raise :class:`~relspan.errors.OptionsError` (a ``ValueError``)
 naming the function's own parameter; see :mod:`relspan.errors` for the rule.
 """
 
-from relspan.analysis.moments import Moments, merge, merge_all, moments_of
-from relspan.analysis.elementary import ElementaryRegressions, choose_reference, elementary_regressions
-from relspan.analysis.equal_noise import EqualNoise, EqualNoiseCorank, equal_noise
-from relspan.analysis.bounded import BoundedCorank, BoundedNoise, NoiseTolerance, bounded_noise, tolerance_eps
-from relspan.analysis.stability import (CoefficientSwing, CorankSequence, SubspaceStability, coefficient_swing,
-                                        corank_sequence, principal_angles, subspace_stability)
-from relspan.analysis.flat import ElementaryFlat, elementary_flat
-from relspan.analysis.identified import CoefficientStatus, Identified, identified_quantities
-from relspan.analysis.frisch import (CoefficientInterval, CorankCertificate, FailingTriple, FrischCorank,
-                                     FrischIdentification, FrischResult, FrischSet, MinimumTrace,
-                                     OrthantTest, SolutionSpread, TriadResult, frisch_analysis,
-                                     frisch_identification, frisch_max_corank, frisch_q1,
-                                     ledermann_corank, minimum_trace, one_orthant, solution_spread,
-                                     triad)
-from relspan.analysis.window import WindowAnalysis, WindowOptions, analyse_window
-from relspan.analysis.findings import Finding, dataset_findings
-from relspan.analysis.claims import ClaimVerdict, evaluate_claim, evaluate_claims
-from relspan.analysis.results import AnalysisRun, DatasetResult, PlanResult
+# Imported on first use (PEP 562): importing one module of the package (the data pass needs
+# moments and _dd only) does not import every method family and SciPy with it.
+# ``equal_noise`` names both a submodule and its function: imported here, so the package's
+# attribute is the function whichever module imports the submodule first (as before)
+from relspan.analysis.equal_noise import equal_noise  # noqa: E402
+
+_WHERE = {
+    **dict.fromkeys(('Moments', 'merge', 'merge_all', 'moments_of'), 'relspan.analysis.moments'),
+    **dict.fromkeys(('ElementaryRegressions', 'choose_reference', 'elementary_regressions'), 'relspan.analysis.elementary'),
+    **dict.fromkeys(('EqualNoise', 'EqualNoiseCorank'), 'relspan.analysis.equal_noise'),
+    **dict.fromkeys(('BoundedCorank', 'BoundedNoise', 'NoiseTolerance', 'bounded_noise', 'tolerance_eps'), 'relspan.analysis.bounded'),
+    **dict.fromkeys(('CoefficientSwing', 'CorankSequence', 'SubspaceStability', 'coefficient_swing', 'corank_sequence', 'principal_angles', 'subspace_stability'), 'relspan.analysis.stability'),
+    **dict.fromkeys(('ElementaryFlat', 'elementary_flat'), 'relspan.analysis.flat'),
+    **dict.fromkeys(('CoefficientStatus', 'Identified', 'identified_quantities'), 'relspan.analysis.identified'),
+    **dict.fromkeys(('CoefficientInterval', 'CorankCertificate', 'FailingTriple', 'FrischCorank', 'FrischIdentification', 'FrischResult', 'FrischSet', 'MinimumTrace', 'OrthantTest', 'SolutionSpread', 'TriadResult', 'frisch_analysis', 'frisch_identification', 'frisch_max_corank', 'frisch_q1', 'ledermann_corank', 'minimum_trace', 'one_orthant', 'solution_spread', 'triad'), 'relspan.analysis.frisch'),
+    **dict.fromkeys(('WindowAnalysis', 'WindowOptions', 'analyse_window'), 'relspan.analysis.window'),
+    **dict.fromkeys(('Finding', 'dataset_findings'), 'relspan.analysis.findings'),
+    **dict.fromkeys(('ClaimVerdict', 'evaluate_claim', 'evaluate_claims'), 'relspan.analysis.claims'),
+    **dict.fromkeys(('AnalysisRun', 'DatasetResult', 'PlanResult'), 'relspan.analysis.results'),
+}
+
 
 __all__ = [
     # window statistics
@@ -51,3 +54,18 @@ __all__ = [
     # the results of a run (built by relspan.run.pipeline)
     "PlanResult", "DatasetResult", "AnalysisRun",
 ]
+
+
+def __getattr__(name: str):
+    module = _WHERE.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    import importlib
+
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

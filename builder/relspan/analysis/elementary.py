@@ -37,7 +37,8 @@ from relspan.analysis._export import jsonable
 from relspan.errors import IllConditionedWarning, OptionsError
 
 __all__ = ["ElementaryRegressions", "elementary_regressions", "choose_reference",
-           "DEFAULT_WARN_CONDITION", "elementary_regressions_stack", "warn_ill_conditioned"]
+           "DEFAULT_WARN_CONDITION", "elementary_regressions_stack", "warn_ill_conditioned",
+           "REFINE_ABOVE_ERROR", "inverse_error_bound"]
 
 #: condition number (correlation scale, 2-norm) above which a window is reported as
 #: ill-conditioned: about 10 of the 16 significant digits may be lost beyond it.
@@ -482,6 +483,40 @@ def _refined_inverse_stack(s: np.ndarray, s_lo: np.ndarray, pr: np.ndarray, d: n
     return out
 
 
+#: :func:`elementary_regressions_stack` refines a window's first inverse only where
+#: :func:`inverse_error_bound` exceeds this: two decimal digits below the quantum of the published
+#: closed forms (nine significant digits of an array's largest entry, ``relspan.precision``)
+REFINE_ABOVE_ERROR = 1e-11
+
+
+def inverse_error_bound(cond_r, n: int):
+    """A-priori bound on the normwise relative error of a window's unrefined float64 inverse.
+
+    The inverse of the correlation matrix ``R`` computed by an LU solve in float64 from the
+    float64 covariance (its double-double low part dropped) has
+    ``||X - inv(R)|| / ||inv(R)|| <= c_n cond(R) u`` to first order, ``u = 2^-53`` (Higham
+    2002, ch. 14, inversion by Gaussian elimination; the rounding of the covariance and of the
+    scaling to correlations adds a perturbation of a few ``u`` per entry, ch. 7). The constant
+    used here, ``c_n = 2 n (n + 3)``, is deliberately generous (``n (n + 3)``: the elimination's
+    ``n`` terms per entry and the three roundings of the scaling, for each of ``n`` columns;
+    a factor 2 for pivot growth); ``tests/analysis/test_elementary_stack.py`` checks it against
+    the refined inverse on random windows up to the cut.
+
+    Parameters
+    ----------
+    cond_r : float or ndarray
+        2-norm condition number of the correlation matrix.
+    n : int
+        Number of variables.
+
+    References
+    ----------
+    .. [1] N. J. Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., SIAM, 2002,
+           ch. 7 (perturbation theory), 14 (matrix inversion).
+    """
+    return 2.0 * n * (n + 3) * np.asarray(cond_r, dtype=float) * 2.0 ** -53
+
+
 #: bytes of the largest temporaries of one batch of :func:`elementary_regressions_stack`
 _STACK_BYTES = 1 << 22
 
@@ -524,10 +559,14 @@ def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, mea
     Against :func:`elementary_regressions` window by window, eigenvalues,
     ranks and condition numbers are the same numbers (the same LAPACK routine
     on the same matrices); the first inverse comes from a batched LU solve
-    instead of a Cholesky solve and both are refined against the
-    double-double covariance, so coefficients, residual variances and R^2
-    agree to a few units in the last place (``tests/analysis/test_elementary_stack.py``
-    states the bound).
+    instead of a Cholesky solve. It is refined against the double-double
+    covariance (as the one-window function always does) only where the
+    a-priori bound :func:`inverse_error_bound` exceeds :data:`REFINE_ABOVE_ERROR`
+    (a correlation-scale condition number above about 800 for n = 6): there
+    coefficients, residual variances and R^2 agree with the one-window function
+    to a few units in the last place; elsewhere the float64 inverse is kept, within
+    that bound of the refined one, two digits below what the site publishes
+    (``tests/analysis/test_elementary_stack.py`` checks both).
 
     References
     ----------
@@ -591,7 +630,13 @@ def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, mea
         sf, rf, df, lof = s[idx], r[idx], d[idx], lo[idx]
         pr = np.linalg.inv(rf)
         pr = 0.5 * (pr + pr.transpose(0, 2, 1))
-        pr = _refined_inverse_stack(sf, lof, pr, df)
+        evf = ev[idx]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            cond_f = np.where(evf[:, 0] > 0, evf[:, -1] / np.where(evf[:, 0] > 0, evf[:, 0], 1.0), np.inf)
+        # refinement only where the float64 inverse may miss the published digits (a-priori bound)
+        need = np.flatnonzero(~(inverse_error_bound(cond_f, n) <= REFINE_ABOVE_ERROR))
+        if need.size:
+            pr[need] = _refined_inverse_stack(sf[need], lof[need], pr[need], df[need])
         diag = np.diagonal(pr, axis1=1, axis2=2).copy()
         rel = pr / diag[:, :, None] * (df[:, :, None] / df[:, None, :])
         eye = np.eye(n, dtype=bool)
@@ -600,18 +645,29 @@ def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, mea
         r2 = 1.0 - 1.0 / diag
         coef = -rel
         coef[:, eye] = 0.0
-        wsf, evf = ws[idx], ev[idx]
+        wsf = ws[idx]
         empty = np.zeros((0, n))
-        for a, i in enumerate(idx):
+        with np.errstate(divide="ignore", invalid="ignore"):
+            conds = np.where(wsf[:, 0] > 0, wsf[:, -1] / wsf[:, 0], np.inf).tolist()
+        conds_r = cond_f.tolist()
+        icpt = [None] * idx.size if mv is None else list(np.matmul(rel, mv[idx][:, :, None])[:, :, 0])
+        rels, coefs, resvars, r2s, ds = list(rel), list(coef), list(resvar), list(r2), list(df)
+        unb: list = [None] * idx.size
+        if counts is not None:   # resvar (c - ddof) / (c - n) where c > n, as one array operation
+            cf = np.array([cnt[i] for i in idx.tolist()], dtype=np.int64)
+            has = np.flatnonzero(cf > n)
+            if has.size:
+                vals = resvar[has] * (cf[has] - ddof)[:, None] / (cf[has] - n)[:, None]
+                for a, v in zip(has.tolist(), vals):
+                    unb[a] = v
+        for a, i in enumerate(idx.tolist()):
             c = cnt[i]
-            condition = float(wsf[a, -1] / wsf[a, 0]) if wsf[a, 0] > 0 else float("inf")
-            cond_r = float(evf[a, -1] / evf[a, 0]) if evf[a, 0] > 0 else float("inf")
-            unbiased = None if c is None or c <= n else resvar[a] * (c - ddof) / (c - n)
+            unbiased = unb[a]
             out[i] = ElementaryRegressions(
-                names=names_t, relations=rel[a], coefficients=coef[a],
-                intercepts=None if mv is None else rel[a] @ mv[i], residual_variance=resvar[a],
-                residual_variance_unbiased=unbiased, r_squared=r2[a], std=df[a], condition=condition,
-                condition_correlation=cond_r, rank=n, singular=False, singular_reason="",
+                names=names_t, relations=rels[a], coefficients=coefs[a],
+                intercepts=icpt[a], residual_variance=resvars[a],
+                residual_variance_unbiased=unbiased, r_squared=r2s[a], std=ds[a], condition=conds[a],
+                condition_correlation=conds_r[a], rank=n, singular=False, singular_reason="",
                 exact_relations=empty, exact_normalised=empty, exact_pivots=(), count=c, ddof=int(ddof))
     for i in range(w):
         if out[i] is None:   # singular, or input the one-window function must judge (and name)

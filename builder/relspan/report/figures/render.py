@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import io
 
+import matplotlib
 import pandas as pd
 
 from relspan.errors import OptionsError
@@ -20,6 +21,8 @@ __all__ = ["render_figure", "table_csv", "SVG_METADATA"]
 #: SVG metadata: no date and no creator (matplotlib would write its version there, so every
 #: matplotlib release would change the bytes of every figure)
 SVG_METADATA = {"Date": None, "Creator": None}
+#: rcParams for the save: no layout engine is attached to a figure during it
+_NO_LAYOUT = {"figure.constrained_layout.use": False, "figure.autolayout": False}
 
 
 def render_figure(result: FigureResult, fmt: str = "svg") -> bytes:
@@ -42,7 +45,10 @@ def render_figure(result: FigureResult, fmt: str = "svg") -> bytes:
         raise OptionsError(f"render_figure: fmt must be 'svg' or 'png'; got {fmt!r}.",
                            key="fmt", fix="Use fmt='svg' (default) or fmt='png'.")
     buf = io.BytesIO()
-    with style_context():
+    # the layout is fixed and the figure has no layout engine (contract.settle); savefig puts the
+    # engine it finds back with ``set_layout_engine``, which under the style's rcParams would attach
+    # a new constrained layout engine (and the next save would lay the figure out again)
+    with style_context(), matplotlib.rc_context(_NO_LAYOUT):
         if fmt == "svg":
             result.figure.savefig(buf, format="svg", metadata=SVG_METADATA)
         else:
