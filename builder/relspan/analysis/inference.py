@@ -408,6 +408,33 @@ def _intervals(estimates, draws, *, level: float, method: str) -> list[Interval]
             for j, iv in enumerate(out)]
 
 
+def _aligned_reduced_forms(estimate: np.ndarray, bases: np.ndarray, targets: Sequence[int]) -> np.ndarray:
+    """Reduced forms of the estimate and of its resampled bases aligned to it, ``(1 + B, q, n)``.
+
+    Each resampled basis (orthonormal rows) is rotated within its span onto
+    the estimate by orthogonal Procrustes (:func:`procrustes_align`), then the
+    estimate and the draws are solved for ``targets`` in one batched call
+    (:func:`reduced_form_stack`). For one relation the rotation is a sign flip
+    and the solve a division by the target entry: both are done directly, with
+    the same floating-point operations as the general path (the sign cancels
+    exactly; LAPACK's 1 x 1 solve multiplies by the reciprocal of the pivot),
+    and without a batched SVD per resample.
+    """
+    stack = np.concatenate([estimate[None], bases]) if bases.size else estimate[None]
+    if estimate.shape[0] != 1:
+        if bases.size:
+            stack[1:] = procrustes_align(estimate, bases)
+        return reduced_form_stack(stack, targets)
+    t = int(targets[0])
+    pivot = stack[:, :, t:t + 1]
+    out = np.full_like(stack, np.nan)
+    # cond of a 1 x 1 block is 1 when its entry is finite and non-zero, NaN otherwise (reduced_form_stack)
+    ok = (np.isfinite(pivot) & (pivot != 0.0))[:, 0, 0]
+    if ok.any():
+        out[ok] = stack[ok] * (1.0 / pivot[ok])
+    return out
+
+
 def _inv_stack(covs: np.ndarray) -> np.ndarray:
     """Inverses of a ``(B, n, n)`` stack; NaN for a singular resample (an exact relation in it)."""
     try:
@@ -579,6 +606,9 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     tstd = np.asarray(estimates.get("tstd", np.ones(n)), dtype=float)
     if "equal" in assumptions:
         noise_of: list[tuple[int, float, np.ndarray]] = []
+        coef_est: list[float] = []
+        coef_draws: list[np.ndarray] = []
+        coef_of: list[tuple[int, list[tuple[int, int, int]]]] = []
         for q in coranks:
             basis = bases.get(q)
             if basis is None:
@@ -592,28 +622,31 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
                 np.isfinite(rb).all(axis=(1, 2))[:, None, None], rb, np.nan)
             rb = np.linalg.qr(np.swapaxes(rb, 1, 2))[0]
             rb = np.swapaxes(rb, 1, 2)
-            aligned = np.full_like(rb, np.nan)
             fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
-            if fine.any():
-                aligned[fine] = procrustes_align(est_data, rb[fine])
             # the estimate and its draws in one batched call (each matrix is solved on its own)
-            both = reduced_form_stack(np.concatenate([est_data[None], aligned[fine]]), tidx)
+            both = _aligned_reduced_forms(est_data, rb[fine], tidx)
             est_red = both[0]
-            draws = np.full_like(aligned, np.nan)
+            draws = np.full_like(rb, np.nan)
             if fine.any():
                 draws[fine] = both[1:]
             cells = [(i, t, k) for i, t in enumerate(tidx) for k in range(n) if k not in tidx]
-            ivs = _intervals([-est_red[i, k] for i, _, k in cells],
-                             np.stack([-draws[:, i, k] for i, _, k in cells], axis=1) if cells else
-                             np.zeros((draws.shape[0], 0)), level=level, method="percentile")
-            coefficients[q] = tuple(CoefficientInterval(names[t], names[k], iv)
-                                    for (_, t, k), iv in zip(cells, ivs))
+            coef_est.extend(-est_red[i, k] for i, _, k in cells)
+            coef_draws.extend(-draws[:, i, k] for i, _, k in cells)
+            coef_of.append((q, cells))
             targets[q] = tuple(names[t] for t in tidx)
             noise_of.append((q, float(np.mean(est_lam[:q])), lam[:, :q].mean(axis=1)))
-        if noise_of:
-            ivs = _intervals([e for _, e, _ in noise_of], np.stack([d for _, _, d in noise_of], axis=1),
+        # every corank's coefficients and noise variances in one batched quantile call (same bits as
+        # one call per corank: each column's order statistics are its own)
+        ests = coef_est + [e for _, e, _ in noise_of]
+        if ests:
+            ivs = _intervals(ests, np.stack(coef_draws + [d for _, _, d in noise_of], axis=1),
                              level=level, method="percentile")
-            noise.update((q, iv) for (q, _, _), iv in zip(noise_of, ivs))
+            at = 0
+            for q, cells in coef_of:
+                coefficients[q] = tuple(CoefficientInterval(names[t], names[k], iv)
+                                        for (_, t, k), iv in zip(cells, ivs[at:at + len(cells)]))
+                at += len(cells)
+            noise.update((q, iv) for (q, _, _), iv in zip(noise_of, ivs[at:]))
         rules["coefficients"] = (
             "Equal noise: each resample's relation subspace is rotated within itself to the estimate by "
             "orthogonal Procrustes (Schoenemann 1966), solved for the same variables as the estimate, "
