@@ -57,8 +57,8 @@ from relspan.analysis.corank_support import CorankSupport, bounded_support
 from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, sequential_corank_stack
 from relspan.analysis.intervals import (Interval, interval, procrustes_align,
                                         reduced_form_stack)
-from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, GranuleStats, resample_covariances,
-                                       scale_stack, window_rng)
+from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, CovarianceResamples, GranuleStats,
+                                       resample_covariances, scale_stack, window_rng)
 
 __all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInference", "window_inference",
            "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
@@ -520,6 +520,51 @@ def imbens_manski_outer(lower: float, upper: float, lower_draws, upper_draws, *,
 # --------------------------------------------------------------------------- the window
 
 
+def _block_in_granules(stats_: GranuleStats, scheme: str | None, block_length: float | None) -> float | None:
+    """The block length in granules (None: the automatic rule), as every window stream converts it."""
+    if scheme != "iid" and block_length is not None:
+        return max(block_length / max(stats_.rows_per_granule, 1), 1.0)
+    return None
+
+
+def draw_window(stats_: GranuleStats, *, options, seed_key: tuple) -> CovarianceResamples:
+    """A window's resamples from its own stream ``window_rng(options.seed, *seed_key)`` (the one place).
+
+    ``options`` needs ``resamples``, ``scheme``, ``block_length`` (rows) and
+    ``seed``: the window task's :class:`ResamplingOptions` and the cross-window
+    stage's options both qualify, so whoever draws a window with the same
+    options gets the same resamples, bit for bit.
+    """
+    rng = window_rng(options.seed, *seed_key)
+    return resample_covariances(stats_, resamples=int(options.resamples), rng=rng, scheme=options.scheme,
+                                block_length=_block_in_granules(stats_, options.scheme, options.block_length),
+                                seed=(options.seed, *seed_key))
+
+
+def drawn_as(drawn: CovarianceResamples, options, seed_key: tuple, stats_: GranuleStats) -> bool:
+    """True when ``drawn`` is what :func:`draw_window` gives for these options and this window."""
+    block = _block_in_granules(stats_, options.scheme, options.block_length)
+    return (drawn.seed == (options.seed, *seed_key) and drawn.resamples == int(options.resamples)
+            and drawn.scheme == options.scheme and drawn.granules == stats_.k
+            and (block is None or drawn.block_length == (float(min(max(round(block), 1), stats_.k))
+                                                          if options.scheme == "moving" else float(block))))
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class DrawnGranules:
+    """A window's granules with its resamples already drawn (:func:`draw_window`).
+
+    The window task draws a window once and hands the same resamples to the
+    intervals (:func:`window_inference` reads :attr:`drawn` when it was drawn
+    with the task's own options and stream, and draws afresh otherwise) and to
+    the cross-window stability stage.
+    """
+
+    stats: GranuleStats
+    drawn: CovarianceResamples
+
+
+
 def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: ResamplingOptions,
                      seed_key: tuple, scale: str, eps: float, ref: int, coranks: Sequence[int],
                      estimates: Mapping[str, Any], assumptions: Sequence[str], nobs: float,
@@ -561,12 +606,13 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     names = tuple(names)
     n = len(names)
     level = options.level
-    block = None
-    if options.scheme != "iid" and options.block_length is not None:
-        block = max(options.block_length / max(stats_.rows_per_granule, 1), 1.0)
-    rng = window_rng(options.seed, *seed_key)
-    res = resample_covariances(stats_, resamples=options.resamples, rng=rng, scheme=options.scheme,
-                               block_length=block, seed=(options.seed, *seed_key))
+    res = None
+    if isinstance(stats_, DrawnGranules):
+        stats_, res = stats_.stats, stats_.drawn
+        if not drawn_as(res, options, seed_key, stats_):
+            res = None
+    if res is None:
+        res = draw_window(stats_, options=options, seed_key=seed_key)
     covs = res.covariances
     on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
     lam, vec = np.linalg.eigh(on_scale)
