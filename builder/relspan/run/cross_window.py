@@ -321,7 +321,7 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     own = {a: [_own_basis(w, a) for w in analyses] for a in wanted}
     later: list[str] = list(wanted)       # assumptions whose comparison has not finished
     kept: dict[tuple[str, int], np.ndarray] = {}
-    kept_bytes = 0
+    kept_bytes = sum(h.nbytes for h in handed if h is not None)   # one budget for handed and kept bases
     held: dict[int, _Draws] = {}
 
     def draws_of(i: int) -> _Draws:
