@@ -583,17 +583,34 @@ def drawn_as(drawn: CovarianceResamples, options, seed_key: tuple, stats_: Granu
 
 @dataclass(frozen=True, slots=True, eq=False)
 class DrawnGranules:
-    """A window's granules with its resamples already drawn (:func:`draw_window`).
+    """A window's granules with its resamples already drawn (:func:`draw_window`), and their decompositions.
 
     The window task draws a window once and hands the same resamples to the
     intervals (:func:`window_inference` reads :attr:`drawn` when it was drawn
     with the task's own options and stream, and draws afresh otherwise) and to
-    the cross-window stability stage.
+    the cross-window stability stage. ``on_scale``, ``eig`` (values, vectors)
+    and ``inverse`` are the batched decompositions both read, computed once by
+    :func:`drawn_granules` exactly as :func:`window_inference` computes them
+    (``scale`` says on which scale; ``inverse`` is None when a resample is singular).
     """
 
     stats: GranuleStats
     drawn: CovarianceResamples
+    scale: str | None = None
+    on_scale: np.ndarray | None = None
+    eig: tuple | None = None
+    inverse: np.ndarray | None = None
 
+
+def drawn_granules(stats_: GranuleStats, drawn: CovarianceResamples, scale: str) -> DrawnGranules:
+    """:class:`DrawnGranules` with the decompositions of :func:`window_inference` on ``scale``."""
+    covs = drawn.covariances
+    on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
+    try:
+        inverse = np.linalg.inv(covs)
+    except np.linalg.LinAlgError:
+        inverse = None
+    return DrawnGranules(stats_, drawn, scale, on_scale, np.linalg.eigh(on_scale), inverse)
 
 
 def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: ResamplingOptions,
@@ -637,16 +654,19 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     names = tuple(names)
     n = len(names)
     level = options.level
-    res = None
+    res = pre = None
     if isinstance(stats_, DrawnGranules):
-        stats_, res = stats_.stats, stats_.drawn
+        pre, stats_, res = stats_, stats_.stats, stats_.drawn
         if not drawn_as(res, options, seed_key, stats_):
-            res = None
+            pre = res = None
     if res is None:
         res = draw_window(stats_, options=options, seed_key=seed_key)
     covs = res.covariances
-    on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
-    lam, vec = np.linalg.eigh(on_scale)
+    if pre is not None and pre.scale == scale and pre.eig is not None:
+        on_scale, (lam, vec) = pre.on_scale, pre.eig        # computed once, as here, by the task
+    else:
+        on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
+        lam, vec = np.linalg.eigh(on_scale)
     rows_b = res.rows
     if scale == "correlation":
         std_b = np.sqrt(np.diagonal(covs, axis1=1, axis2=2))
@@ -735,7 +755,7 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     est_el = estimates.get("elementary")
     if est_el is not None:
         with np.errstate(all="ignore"):
-            p = _inv_stack(covs)
+            p = pre.inverse if pre is not None and pre.inverse is not None else _inv_stack(covs)
             d = np.diagonal(p, axis1=1, axis2=2)
             draws = -p / d[:, :, None]
         cells = [(j, k) for j in range(n) for k in range(n) if j != k]

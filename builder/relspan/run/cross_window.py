@@ -137,9 +137,21 @@ class HandedDraws:
         return sum(b.nbytes for b in {id(b): b for b in self.bases.values()}.values())
 
 
-def handed_draws(cr: resample.CovarianceResamples, analysis, shape=None) -> HandedDraws:
-    """What :func:`plan_stability` reads of one window, from its resamples ``cr`` (computed as there)."""
+def handed_draws(cr: resample.CovarianceResamples, analysis, shape=None, pre=None) -> HandedDraws:
+    """What :func:`plan_stability` reads of one window, from its resamples ``cr`` (computed as there).
+
+    ``pre`` (:class:`relspan.analysis.inference.DrawnGranules` of ``cr``): its
+    eigenvectors and inverses are reused where they are the same arithmetic as
+    here (the same scale; on the correlation scale, no variance below 1e-300).
+    """
     d = _Draws(cr, analysis, shape)
+    if pre is not None and pre.drawn is cr:
+        covs = cr.covariances
+        if pre.eig is not None and pre.scale == analysis.scale and (
+                analysis.scale != "correlation" or bool(np.all(np.diagonal(covs, axis1=1, axis2=2) >= 1e-300))):
+            d._memo["vec"] = pre.eig[1]
+        if pre.inverse is not None:
+            d._memo["inverse"] = pre.inverse
     bases = {}
     for a in STABILITY_ASSUMPTIONS:
         own = _own_basis(analysis, a)
@@ -227,11 +239,13 @@ class _Draws:
         """:func:`resampled_bases` of ``assumption`` at corank ``q``."""
         analysis = self.analysis
         if assumption == "elementary":
-            covs = self.cr.covariances
-            try:
-                inv = np.linalg.inv(covs)
-            except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
-                inv = np.linalg.pinv(covs, hermitian=True)
+            def inverse():
+                covs = self.cr.covariances
+                try:
+                    return np.linalg.inv(covs)
+                except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
+                    return np.linalg.pinv(covs, hermitian=True)
+            inv = self._get("inverse", inverse)
             rows = inv[:, analysis.ref, :][:, None, :]
             return _common_rows(rows, analysis.common_std)
         def make():

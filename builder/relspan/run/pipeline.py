@@ -206,13 +206,15 @@ def _analyse_task(item: tuple) -> tuple:
     else:  # without granules: no resampling
         (granules, resampling, seed_key), given = (None, None, ()), rest
     stats = None if granules is None else granules.stats()
-    drawn = None
+    drawn = pre = None
     if ask is not None and stats is not None:
-        from relspan.analysis.inference import DrawnGranules, draw_window, drawn_as
+        from relspan.analysis.inference import draw_window, drawn_as, drawn_granules
 
         drawn = draw_window(stats, options=ask.opts, seed_key=ask.seed_key)
         if resampling is not None and resampling.enabled and drawn_as(drawn, resampling, seed_key, stats):
-            stats = DrawnGranules(stats, drawn)      # the intervals read the same resamples
+            # the intervals read the same resamples and decompositions
+            scale = "as given" if options.absolute is not None else "correlation"
+            stats = pre = drawn_granules(stats, drawn, scale)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
         try:
@@ -228,7 +230,7 @@ def _analyse_task(item: tuple) -> tuple:
         return result, raised
     from relspan.run.cross_window import handed_draws
 
-    return result, raised, handed_draws(drawn, result, ask.shape)
+    return result, raised, handed_draws(drawn, result, ask.shape, pre)
 
 
 def _with_elementary(items: list[tuple], names: tuple[str, ...]) -> list[tuple]:
