@@ -5,6 +5,7 @@
     python benchmarks/bench_user_path.py check SPEC                   # one `relspan check`, for whole-process timing
     python benchmarks/bench_user_path.py check-stages SPEC            # `relspan check` (in process, serial) by stage
     python benchmarks/bench_user_path.py spec FOLDER --windows 1000 --n 6 [--resamples 499]  # write the generated spec
+    python benchmarks/bench_user_path.py side-by-side SPEC --before DIR [--pairs 2]  # check-stages, A B A B
 
 ``elementary``: every elementary regression (each variable on the others, with intercept) of
 every rolling window (width 250, step 50 rows), n = 6, on invented rows (seeded):
@@ -24,6 +25,10 @@ user's path timed where they are called (wall and CPU seconds of this process): 
 data pass, the batched elementary regressions, the window tasks (each window's analysis
 and its resampling), the cross-window stability (``run/cross_window.plan_stability``),
 the break scan, the full sample's spread, trends and influence, the findings, the claims.
+``side-by-side``: ``check-stages`` of SPEC in fresh processes, interleaved: this checkout
+(A) and the package folder DIR (B, e.g. ``git archive COMMIT builder | tar -x -C DIR``, then
+``DIR/builder``) put first on ``PYTHONPATH``, A B A B ...; prints each stage's CPU seconds
+(median over the pairs), the ratio B / A, and each side's peak RSS.
 ``spec`` writes the generated CSV and spec of ``stages`` into FOLDER (``--resamples``
 sets ``checks.resampling.resamples``; 0 turns the window tasks' resampling off), for
 ``check``, ``check-stages`` and whole-process timers.
@@ -329,9 +334,59 @@ def check_stages(spec_path: str) -> None:
     print(f"  {'the rest (spec, imports, glue)':40s} {'':8s}   {'':4s} {total[1] - listed:8.2f} s CPU")
 
 
+def _stage_lines(text: str) -> dict[str, float]:
+    """CPU seconds per stage (and the whole check, ``total``; peak RSS in MiB, ``rss``) from check-stages."""
+    import re
+
+    out: dict[str, float] = {}
+    for line in text.splitlines():
+        m = re.search(r"in process: [\d.]+ s wall, ([\d.]+) s CPU; peak RSS (\d+) MiB", line)
+        if m:
+            out["total"], out["rss"] = float(m.group(1)), float(m.group(2))
+            continue
+        m = re.match(r"  (.+?)\s+[\d.]+ s wall\s+([\d.]+) s CPU", line)
+        if m:
+            out[m.group(1).strip()] = float(m.group(2))
+            continue
+        m = re.match(r"  (the rest.*?)\s+([\d.]+) s CPU", line)
+        if m:
+            out[m.group(1).strip()] = float(m.group(2))
+    return out
+
+
+def side_by_side(spec_path: str, before: str, pairs: int) -> None:
+    """check-stages of this checkout (A) and of ``before`` (B) in fresh processes, A B A B ..."""
+    import os
+    import statistics
+    import subprocess
+
+    here = Path(__file__).resolve()
+    runs: dict[str, list[dict[str, float]]] = {"A": [], "B": []}
+    for _ in range(pairs):
+        for side in ("A", "B"):
+            env = dict(os.environ)
+            if side == "B":
+                env["PYTHONPATH"] = before + (os.pathsep + env["PYTHONPATH"] if env.get("PYTHONPATH") else "")
+            done = subprocess.run([sys.executable, str(here), "check-stages", spec_path], env=env,
+                                  capture_output=True, text=True, check=True)
+            runs[side].append(_stage_lines(done.stdout))
+    stages_ = [k for k in runs["B"][0] if k not in ("total", "rss")] + ["total"]
+    print(f"check-stages {spec_path}: A = this checkout, B = {before}; {pairs} interleaved pairs, "
+          "CPU seconds (median)")
+    print(f"  {'stage':40s} {'B':>8s} {'A':>8s} {'B / A':>7s}")
+    for k in stages_:
+        b = statistics.median(r.get(k, 0.0) for r in runs["B"])
+        a = statistics.median(r.get(k, 0.0) for r in runs["A"])
+        ratio = f"{b / a:7.2f}" if a > 0.05 else f"{'':7s}"
+        print(f"  {k:40s} {b:8.2f} {a:8.2f} {ratio}")
+    print(f"  peak RSS MiB: B {max(r['rss'] for r in runs['B']):.0f}, A {max(r['rss'] for r in runs['A']):.0f}; "
+          "per-run CPU of the whole check: B " + ", ".join(f"{r['total']:.2f}" for r in runs["B"])
+          + "; A " + ", ".join(f"{r['total']:.2f}" for r in runs["A"]))
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", choices=["elementary", "stages", "check", "check-stages", "spec"])
+    ap.add_argument("what", choices=["elementary", "stages", "check", "check-stages", "spec", "side-by-side"])
     ap.add_argument("spec", nargs="?")
     ap.add_argument("--rows", type=int, default=100_000)
     ap.add_argument("--windows", type=int, default=1000)
@@ -339,6 +394,8 @@ def main() -> None:
     ap.add_argument("--assumptions", default="elementary,equal,bounded")
     ap.add_argument("--no-summaries", action="store_true")
     ap.add_argument("--resamples", type=int, default=None)
+    ap.add_argument("--before", default=None, help="side-by-side: the package folder to compare against")
+    ap.add_argument("--pairs", type=int, default=2)
     args = ap.parse_args()
     if args.what == "elementary":
         elementary(args.rows)
@@ -348,6 +405,10 @@ def main() -> None:
         print(_spec(folder, args.windows, args.n, args.assumptions.split(","), args.resamples))
     elif args.what == "check-stages":
         check_stages(args.spec)
+    elif args.what == "side-by-side":
+        if not args.before:
+            ap.error("side-by-side needs --before DIR (the package folder of the other checkout)")
+        side_by_side(args.spec, args.before, args.pairs)
     elif args.what == "stages":
         stages(args.windows, args.n, args.assumptions.split(","), not args.no_summaries)
     else:

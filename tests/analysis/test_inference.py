@@ -165,3 +165,39 @@ def test_batched_intervals_equal_the_one_column_intervals_bit_for_bit():
         got = _intervals(est, d, level=0.9, method=method)
         want = [interval(float(est[j]), d[:, j], level=0.9, method=method) for j in range(7)]
         assert [repr(g) for g in got] == [repr(w) for w in want]
+
+
+def _orthonormal_stack(rng, b, q, n):
+    """Invented resampled bases: ``(b, q, n)`` orthonormal rows (QR of random matrices)."""
+    return np.swapaxes(np.linalg.qr(rng.standard_normal((b, n, q)))[0], 1, 2)
+
+
+def test_aligned_reduced_forms_equal_procrustes_then_reduced_form_stack_bit_for_bit():
+    from relspan.analysis.inference import _aligned_reduced_forms
+    from relspan.analysis.intervals import procrustes_align, reduced_form_stack
+
+    rng = np.random.default_rng(21)  # invented bases, both signs of the one-relation rows
+    for q, targets in ((1, [2]), (2, [0, 3]), (3, [1, 2, 4])):
+        est = _orthonormal_stack(rng, 1, q, 5)[0]
+        draws = _orthonormal_stack(rng, 199, q, 5) * rng.choice([-1.0, 1.0], size=(199, 1, 1))
+        draws[7, :, targets[0]] = 0.0            # a resample whose target block is singular
+        got = _aligned_reduced_forms(est, draws, targets)
+        want = reduced_form_stack(np.concatenate([est[None], procrustes_align(est, draws)]), targets)
+        assert got.shape == want.shape
+        assert np.array_equal(got, want, equal_nan=True)
+        assert np.isnan(got[8]).all() or q > 1   # the singular one-relation resample gives NaN
+
+
+def test_reduced_forms_keep_the_condition_rule_of_reduced_form_stack():
+    from relspan.analysis.inference import _reduced_forms_of_orthonormal
+    from relspan.analysis.intervals import reduced_form_stack
+
+    rng = np.random.default_rng(22)  # invented bases; some target blocks nearly or exactly singular
+    stack = _orthonormal_stack(rng, 300, 2, 6)
+    stack[:40, 1, 0] = stack[:40, 0, 0] * np.logspace(-18, -1, 40)[:, None].ravel()
+    stack[:40, 1, 1] = stack[:40, 0, 1] * np.logspace(-18, -1, 40)
+    stack[40, :, :2] = 0.0                                 # exactly singular: the general path
+    for s in (stack, stack[41:]):
+        got = _reduced_forms_of_orthonormal(s, [0, 1])
+        want = reduced_form_stack(s, [0, 1])
+        assert np.array_equal(got, want, equal_nan=True)

@@ -175,3 +175,18 @@ class TestBreakScanWired:
         scan = d.breaks["equal"].scan
         assert scan.found and scan.split_interval[0] <= 150 <= scan.split_interval[1]
         assert abs(scan.angle_deg - 30.0) < 8.0
+
+
+def test_null_angles_against_a_fixed_basis_equal_the_broadcast_pairs_bit_for_bit():
+    from relspan.analysis.intervals import largest_angle_stack
+    from relspan.analysis.stability import _largest_angles
+
+    rng = np.random.default_rng(31)  # invented bases: 3 comparisons, 199 draws each
+    for q in (1, 2, 3):
+        est = np.swapaxes(np.linalg.qr(rng.standard_normal((3, 6, q)))[0], 1, 2)
+        draws = est[:, None] + 0.05 * rng.standard_normal((3, 199, q, 6))
+        got = null_angle_stack(est, draws, None, None)
+        pairs = np.broadcast_to(est[:, None], draws.shape).reshape(-1, q, 6)
+        want = (_largest_angles(draws.reshape(-1, q, 6), pairs) if q == 1 else
+                largest_angle_stack(draws.reshape(-1, q, 6), pairs)).reshape(3, 199)
+        assert np.array_equal(got, want)

@@ -25,21 +25,57 @@ def _load(folder):
     return load_spec(path)
 
 
-def test_each_window_is_resampled_once_for_every_assumption(tmp_path, monkeypatch):
-    spec = _load(tmp_path)
+def _count_draws(monkeypatch) -> collections.Counter:
+    """Counts every draw of a window's resamples (window tasks and the cross-window stage) by stream."""
+    from relspan.analysis import inference
+
     asked = collections.Counter()
-    real = cross_window.window_resamples
+    real = inference.draw_window
 
-    def counting(prepared, ds, plan_id, index, opts):
-        asked[(ds.id, plan_id, index)] += 1
-        return real(prepared, ds, plan_id, index, opts)
+    def counting(stats, *, options, seed_key):
+        asked[tuple(seed_key)] += 1
+        return real(stats, options=options, seed_key=seed_key)
 
-    monkeypatch.setattr(cross_window, "window_resamples", counting)
+    monkeypatch.setattr(inference, "draw_window", counting)
+    return asked
+
+
+def test_each_window_is_resampled_once_for_its_intervals_and_every_assumption(tmp_path, monkeypatch):
+    spec = _load(tmp_path)
+    asked = _count_draws(monkeypatch)
     run = run_analysis(spec, jobs=1, use_cache=False, progress=False)
     stability = run.dataset("alpha").plan("roll").stability
     assert {"elementary", "equal", "bounded"} <= set(stability)     # three assumptions compared
     drawn = {k: v for k, v in asked.items() if k[1] == "roll"}
-    assert drawn and set(drawn.values()) == {1}
+    assert len(drawn) == len(run.dataset("alpha").plan("roll").analyses)
+    assert set(drawn.values()) == {1}          # the task's draw serves its intervals and the stage
+
+
+def test_without_intervals_the_stability_still_rests_on_one_draw_per_window(tmp_path, monkeypatch):
+    _write_data(tmp_path)
+    path = _spec(tmp_path, assumptions="[elementary, equal, bounded]")
+    path.write_text(path.read_text() + "  resampling: {resamples: 0, seed: 3}\n")
+    asked = _count_draws(monkeypatch)
+    run = run_analysis(load_spec(path), jobs=1, use_cache=False, progress=False)
+    plan = run.dataset("alpha").plan("roll")
+    assert all(a.inference is None for a in plan.analyses)            # no intervals asked for
+    drawn = {k: v for k, v in asked.items() if k[1] == "roll"}
+    assert len(drawn) == len(plan.analyses) and set(drawn.values()) == {1}
+    assert plan.stability["equal"].resamples == cross_window.plan_options(
+        run.dataset("alpha").spec, len(plan.analyses)).resamples
+
+
+def test_stability_is_the_same_whether_the_tasks_hand_their_draws_over_or_not(tmp_path, monkeypatch):
+    from relspan.run import pipeline
+
+    spec = _load(tmp_path)
+    handed = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    monkeypatch.setattr(pipeline, "HAND_BYTES", 0)        # nothing handed over: the stage draws each window
+    asked = _count_draws(monkeypatch)
+    drawn = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    assert {k for k in asked if k[1] == "roll"}            # the stage drew them itself
+    assert _same(_results(handed), _results(drawn))       # stability and plausible coranks included
+    assert handed.dataset("alpha").plan("roll").stability["equal"].compared > 0
 
 
 def test_stability_is_the_same_whether_later_draws_are_kept_or_drawn_again(tmp_path, monkeypatch):
@@ -93,6 +129,8 @@ def test_the_stability_stage_draws_what_the_window_tasks_draw(tmp_path, monkeypa
         seen.append((kw["scheme"], kw["block_length"], stats.rows_per_granule))
         return real(stats, **kw)
 
-    monkeypatch.setattr(cross_window.resample, "resample_covariances", spy)
+    from relspan.analysis import inference
+
+    monkeypatch.setattr(inference, "resample_covariances", spy)
     run_analysis(load_spec(path), jobs=1, use_cache=False, progress=False)
     assert seen and all(s == "moving" and b == max(7 / g, 1.0) for s, b, g in seen)

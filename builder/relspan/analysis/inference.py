@@ -52,13 +52,13 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 from scipy import optimize, stats
 
-from relspan.analysis._common import jsonable, orthonormal_rows, pivot_columns
+from relspan.analysis._common import EPS, jsonable, orthonormal_rows, pivot_columns
 from relspan.analysis.corank_support import CorankSupport, bounded_support
 from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, sequential_corank_stack
 from relspan.analysis.intervals import (Interval, interval, procrustes_align,
                                         reduced_form_stack)
-from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, GranuleStats, resample_covariances,
-                                       scale_stack, window_rng)
+from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, CovarianceResamples, GranuleStats,
+                                       resample_covariances, scale_stack, window_rng)
 
 __all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInference", "window_inference",
            "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
@@ -447,6 +447,64 @@ def _intervals(estimates, draws, *, level: float, method: str) -> list[Interval]
             for j, iv in enumerate(out)]
 
 
+def _aligned_reduced_forms(estimate: np.ndarray, bases: np.ndarray, targets: Sequence[int]) -> np.ndarray:
+    """Reduced forms of the estimate and of its resampled bases aligned to it, ``(1 + B, q, n)``.
+
+    Each resampled basis (orthonormal rows) is rotated within its span onto
+    the estimate by orthogonal Procrustes (:func:`procrustes_align`), then the
+    estimate and the draws are solved for ``targets`` in one batched call
+    (:func:`reduced_form_stack`). For one relation the rotation is a sign flip
+    and the solve a division by the target entry: both are done directly, with
+    the same floating-point operations as the general path (the sign cancels
+    exactly; LAPACK's 1 x 1 solve multiplies by the reciprocal of the pivot),
+    and without a batched SVD per resample.
+    """
+    stack = np.concatenate([estimate[None], bases]) if bases.size else estimate[None]
+    if estimate.shape[0] != 1:
+        if bases.size:
+            stack[1:] = procrustes_align(estimate, bases)
+        return _reduced_forms_of_orthonormal(stack, targets)
+    t = int(targets[0])
+    pivot = stack[:, :, t:t + 1]
+    out = np.full_like(stack, np.nan)
+    # cond of a 1 x 1 block is 1 when its entry is finite and non-zero, NaN otherwise (reduced_form_stack)
+    ok = (np.isfinite(pivot) & (pivot != 0.0))[:, 0, 0]
+    if ok.any():
+        out[ok] = stack[ok] * (1.0 / pivot[ok])
+    return out
+
+
+def _reduced_forms_of_orthonormal(stack: np.ndarray, targets: Sequence[int]) -> np.ndarray:
+    """:func:`reduced_form_stack` of a ``(B, q, n)`` stack of orthonormal rows, without most of its SVDs.
+
+    The same matrices, the same rule (NaN where cond(A_c) >= 1/eps), the same
+    solves: each matrix is solved on its own in one batched call, and cond is
+    computed (an SVD each) only where a cheap bound cannot settle it. With
+    orthonormal rows, ``||A_c||_2 <= 1`` and ``||A_c^{-1} A||_2 = ||A_c^{-1}||_2``,
+    so ``cond(A_c) <= ||A_c^{-1} A||_F``: a solution of Frobenius norm below
+    half of 1/eps (room for rounding) has a block well within the rule.
+    """
+    t = list(targets)
+    block = stack[:, :, t]
+    try:
+        with np.errstate(all="ignore"):
+            x = np.linalg.solve(block, stack)
+    except np.linalg.LinAlgError:       # an exactly singular block: the general path
+        return reduced_form_stack(stack, targets)
+    with np.errstate(all="ignore"):
+        norm = np.sqrt(np.sum(x * x, axis=(1, 2)))
+    sure = np.isfinite(norm) & (norm < 0.5 / EPS)
+    if sure.all():
+        return x
+    out = np.full_like(stack, np.nan)
+    out[sure] = x[sure]
+    rest = np.flatnonzero(~sure)
+    cond = np.linalg.cond(block[rest])
+    ok = np.isfinite(cond) & (cond < 1.0 / EPS)
+    out[rest[ok]] = x[rest[ok]]
+    return out
+
+
 def _inv_stack(covs: np.ndarray) -> np.ndarray:
     """Inverses of a ``(B, n, n)`` stack; NaN for a singular resample (an exact relation in it)."""
     try:
@@ -532,6 +590,68 @@ def imbens_manski_outer(lower: float, upper: float, lower_draws, upper_draws, *,
 # --------------------------------------------------------------------------- the window
 
 
+def _block_in_granules(stats_: GranuleStats, scheme: str | None, block_length: float | None) -> float | None:
+    """The block length in granules (None: the automatic rule), as every window stream converts it."""
+    if scheme != "iid" and block_length is not None:
+        return max(block_length / max(stats_.rows_per_granule, 1), 1.0)
+    return None
+
+
+def draw_window(stats_: GranuleStats, *, options, seed_key: tuple) -> CovarianceResamples:
+    """A window's resamples from its own stream ``window_rng(options.seed, *seed_key)`` (the one place).
+
+    ``options`` needs ``resamples``, ``scheme``, ``block_length`` (rows) and
+    ``seed``: the window task's :class:`ResamplingOptions` and the cross-window
+    stage's options both qualify, so whoever draws a window with the same
+    options gets the same resamples, bit for bit.
+    """
+    rng = window_rng(options.seed, *seed_key)
+    return resample_covariances(stats_, resamples=int(options.resamples), rng=rng, scheme=options.scheme,
+                                block_length=_block_in_granules(stats_, options.scheme, options.block_length),
+                                seed=(options.seed, *seed_key))
+
+
+def drawn_as(drawn: CovarianceResamples, options, seed_key: tuple, stats_: GranuleStats) -> bool:
+    """True when ``drawn`` is what :func:`draw_window` gives for these options and this window."""
+    block = _block_in_granules(stats_, options.scheme, options.block_length)
+    return (drawn.seed == (options.seed, *seed_key) and drawn.resamples == int(options.resamples)
+            and drawn.scheme == options.scheme and drawn.granules == stats_.k
+            and (block is None or drawn.block_length == (float(min(max(round(block), 1), stats_.k))
+                                                          if options.scheme == "moving" else float(block))))
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class DrawnGranules:
+    """A window's granules with its resamples already drawn (:func:`draw_window`), and their decompositions.
+
+    The window task draws a window once and hands the same resamples to the
+    intervals (:func:`window_inference` reads :attr:`drawn` when it was drawn
+    with the task's own options and stream, and draws afresh otherwise) and to
+    the cross-window stability stage. ``on_scale``, ``eig`` (values, vectors)
+    and ``inverse`` are the batched decompositions both read, computed once by
+    :func:`drawn_granules` exactly as :func:`window_inference` computes them
+    (``scale`` says on which scale; ``inverse`` is None when a resample is singular).
+    """
+
+    stats: GranuleStats
+    drawn: CovarianceResamples
+    scale: str | None = None
+    on_scale: np.ndarray | None = None
+    eig: tuple | None = None
+    inverse: np.ndarray | None = None
+
+
+def drawn_granules(stats_: GranuleStats, drawn: CovarianceResamples, scale: str) -> DrawnGranules:
+    """:class:`DrawnGranules` with the decompositions of :func:`window_inference` on ``scale``."""
+    covs = drawn.covariances
+    on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
+    try:
+        inverse = np.linalg.inv(covs)
+    except np.linalg.LinAlgError:
+        inverse = None
+    return DrawnGranules(stats_, drawn, scale, on_scale, np.linalg.eigh(on_scale), inverse)
+
+
 def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: ResamplingOptions,
                      seed_key: tuple, scale: str, eps: float, ref: int, coranks: Sequence[int],
                      estimates: Mapping[str, Any], assumptions: Sequence[str], nobs: float,
@@ -575,15 +695,19 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     names = tuple(names)
     n = len(names)
     level = options.level
-    block = None
-    if options.scheme != "iid" and options.block_length is not None:
-        block = max(options.block_length / max(stats_.rows_per_granule, 1), 1.0)
-    rng = window_rng(options.seed, *seed_key)
-    res = resample_covariances(stats_, resamples=options.resamples, rng=rng, scheme=options.scheme,
-                               block_length=block, seed=(options.seed, *seed_key))
+    res = pre = None
+    if isinstance(stats_, DrawnGranules):
+        pre, stats_, res = stats_, stats_.stats, stats_.drawn
+        if not drawn_as(res, options, seed_key, stats_):
+            pre = res = None
+    if res is None:
+        res = draw_window(stats_, options=options, seed_key=seed_key)
     covs = res.covariances
-    on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
-    lam, vec = np.linalg.eigh(on_scale)
+    if pre is not None and pre.scale == scale and pre.eig is not None:
+        on_scale, (lam, vec) = pre.on_scale, pre.eig        # computed once, as here, by the task
+    else:
+        on_scale = scale_stack(covs, "correlation" if scale == "correlation" else "as given")
+        lam, vec = np.linalg.eigh(on_scale)
     rows_b = res.rows
     if scale == "correlation":
         std_b = np.sqrt(np.diagonal(covs, axis1=1, axis2=2))
@@ -620,6 +744,9 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     tstd = np.asarray(estimates.get("tstd", np.ones(n)), dtype=float)
     if "equal" in assumptions:
         noise_of: list[tuple[int, float, np.ndarray]] = []
+        coef_est: list[float] = []
+        coef_draws: list[np.ndarray] = []
+        coef_of: list[tuple[int, list[tuple[int, int, int]]]] = []
         for q in coranks:
             basis = bases.get(q)
             if basis is None:
@@ -633,28 +760,31 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
                 np.isfinite(rb).all(axis=(1, 2))[:, None, None], rb, np.nan)
             rb = np.linalg.qr(np.swapaxes(rb, 1, 2))[0]
             rb = np.swapaxes(rb, 1, 2)
-            aligned = np.full_like(rb, np.nan)
             fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
-            if fine.any():
-                aligned[fine] = procrustes_align(est_data, rb[fine])
             # the estimate and its draws in one batched call (each matrix is solved on its own)
-            both = reduced_form_stack(np.concatenate([est_data[None], aligned[fine]]), tidx)
+            both = _aligned_reduced_forms(est_data, rb[fine], tidx)
             est_red = both[0]
-            draws = np.full_like(aligned, np.nan)
+            draws = np.full_like(rb, np.nan)
             if fine.any():
                 draws[fine] = both[1:]
             cells = [(i, t, k) for i, t in enumerate(tidx) for k in range(n) if k not in tidx]
-            ivs = _intervals([-est_red[i, k] for i, _, k in cells],
-                             np.stack([-draws[:, i, k] for i, _, k in cells], axis=1) if cells else
-                             np.zeros((draws.shape[0], 0)), level=level, method="percentile")
-            coefficients[q] = tuple(CoefficientInterval(names[t], names[k], iv)
-                                    for (_, t, k), iv in zip(cells, ivs))
+            coef_est.extend(-est_red[i, k] for i, _, k in cells)
+            coef_draws.extend(-draws[:, i, k] for i, _, k in cells)
+            coef_of.append((q, cells))
             targets[q] = tuple(names[t] for t in tidx)
             noise_of.append((q, float(np.mean(est_lam[:q])), lam[:, :q].mean(axis=1)))
-        if noise_of:
-            ivs = _intervals([e for _, e, _ in noise_of], np.stack([d for _, _, d in noise_of], axis=1),
+        # every corank's coefficients and noise variances in one batched quantile call (same bits as
+        # one call per corank: each column's order statistics are its own)
+        ests = coef_est + [e for _, e, _ in noise_of]
+        if ests:
+            ivs = _intervals(ests, np.stack(coef_draws + [d for _, _, d in noise_of], axis=1),
                              level=level, method="percentile")
-            noise.update((q, iv) for (q, _, _), iv in zip(noise_of, ivs))
+            at = 0
+            for q, cells in coef_of:
+                coefficients[q] = tuple(CoefficientInterval(names[t], names[k], iv)
+                                        for (_, t, k), iv in zip(cells, ivs[at:at + len(cells)]))
+                at += len(cells)
+            noise.update((q, iv) for (q, _, _), iv in zip(noise_of, ivs[at:]))
         rules["coefficients"] = (
             "Equal noise: each resample's relation subspace is rotated within itself to the estimate by "
             "orthogonal Procrustes (Schoenemann 1966), solved for the same variables as the estimate, "
@@ -666,7 +796,7 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
     est_el = estimates.get("elementary")
     if est_el is not None:
         with np.errstate(all="ignore"):
-            p = _inv_stack(covs)
+            p = pre.inverse if pre is not None and pre.inverse is not None else _inv_stack(covs)
             d = np.diagonal(p, axis1=1, axis2=2)
             draws = -p / d[:, :, None]
         cells = [(j, k) for j in range(n) for k in range(n) if j != k]

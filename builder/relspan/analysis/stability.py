@@ -182,6 +182,29 @@ def _largest_angles(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.degrees(np.arctan2(sn, np.abs(c)))
 
 
+def _largest_angles_to_fixed(draws: np.ndarray, fixed: np.ndarray) -> np.ndarray:
+    """:func:`_largest_angles` of ``draws`` ``(P, B, q, n)`` against ``fixed[p]`` ``(P, q, n)``, ``(P, B)``.
+
+    The arithmetic of :func:`relspan.analysis.intervals.largest_angle_stack` on
+    the broadcast pairs, with the fixed basis orthonormalised once per
+    comparison instead of once per resample (the same QR of the same matrix,
+    copied: the same bits).
+    """
+    p, nb, q, n = draws.shape
+    a = draws.reshape(p * nb, q, n)
+    if q == 1:
+        return _largest_angles(a, np.broadcast_to(fixed[:, None], draws.shape).reshape(p * nb, q, n)
+                               ).reshape(p, nb)
+    qa = np.linalg.qr(np.swapaxes(a, 1, 2))[0]
+    qb = np.repeat(np.linalg.qr(np.swapaxes(fixed, 1, 2))[0], nb, axis=0)
+    m = np.swapaxes(qa, 1, 2) @ qb
+    cos = np.linalg.svd(m, compute_uv=False)[:, -1]
+    resid = qb - qa @ m
+    sin = np.linalg.svd(resid, compute_uv=False)[:, 0]
+    sin = np.where(sin <= 4.0 * n * EPS, 0.0, sin)
+    return np.degrees(np.arctan2(sin, np.clip(cos, 0.0, 1.0))).reshape(p, nb)
+
+
 def null_angle_stack(est_a, draws_a, est_b, draws_b) -> np.ndarray:
     """Angles sampling alone produces between two windows that share one subspace, batched.
 
@@ -205,7 +228,7 @@ def null_angle_stack(est_a, draws_a, est_b, draws_b) -> np.ndarray:
     da = np.asarray(draws_a, dtype=float)
     p, nb, q, n = da.shape
     if draws_b is None:
-        moved = np.broadcast_to(ea[:, None], da.shape)
+        return _largest_angles_to_fixed(da, ea)
     else:
         rot = direct_rotation_stack(est_b, ea)
         moved = np.asarray(draws_b, dtype=float) @ np.swapaxes(rot, 1, 2)[:, None]

@@ -24,7 +24,8 @@ from relspan.analysis.breaks import DatasetBreak, subspace_break_scan
 from relspan.analysis.stability import (TEST_LEVEL, SamplingSpread, SubspaceStability, compare_windows,
                                         sampling_spread)
 
-__all__ = ["ResamplingOptions", "window_resamples", "resampled_bases", "plausible_coranks",
+__all__ = ["ResamplingOptions", "window_resamples", "resampled_bases", "plausible_coranks", "StabilityAsk",
+           "HandedDraws", "handed_draws", "hand_bytes",
            "plan_stability", "dataset_breaks", "full_sample_spread", "STABILITY_ASSUMPTIONS", "BREAK_PLAN",
            "FULL_PLAN"]
 
@@ -68,6 +69,11 @@ def _resampling_options(ds) -> ResamplingOptions:
                              seed=int(r.seed), scheme=r.scheme, block_length=r.block_length)
 
 
+def plan_options(ds, windows: int) -> ResamplingOptions:
+    """The stability stage's resampling options for a plan of ``windows`` windows of ``ds``."""
+    return _for_plan(_resampling_options(ds), windows)
+
+
 def _for_plan(opts: ResamplingOptions, windows: int) -> ResamplingOptions:
     """The options for a plan of ``windows`` windows: the window tasks' cap for very many windows
     (:data:`relspan.analysis.inference.MANY_WINDOWS_RULE`), so that both stages draw the same resamples."""
@@ -83,20 +89,81 @@ def window_resamples(prepared, ds, plan_id: str | None, index: int, opts: Resamp
     """The resampled covariances of window ``index`` of plan ``plan_id`` (analysed coordinates).
 
     Granules from ``prepared.window_granules``; the stream is
-    ``window_rng(seed, dataset, plan, index)``: the same draws whoever asks.
-    ``plan_id=None`` resamples the whole sample (stream :data:`FULL_PLAN`, index 0).
+    ``window_rng(seed, dataset, plan, index)``: the same draws whoever asks
+    (:func:`relspan.analysis.inference.draw_window`, the one place a window is
+    drawn). ``plan_id=None`` resamples the whole sample (stream
+    :data:`FULL_PLAN`, index 0).
     """
+    from relspan.analysis.inference import draw_window
+
     if plan_id is None:
         stats = prepared.granules_between(0, len(prepared.granules))
         plan_id, index = FULL_PLAN, 0
     else:
         stats = prepared.window_granules(plan_id, index)
-    rng = resample.window_rng(opts.seed, ds.id, plan_id, index)
-    block = None  # in granules, as the window task converts it (analysis/inference.window_inference)
-    if opts.scheme != "iid" and opts.block_length is not None:
-        block = max(opts.block_length / max(stats.rows_per_granule, 1), 1.0)
-    return resample.resample_covariances(stats, resamples=opts.resamples, rng=rng, scheme=opts.scheme,
-                                         block_length=block, seed=(opts.seed, ds.id, plan_id, int(index)))
+    return draw_window(stats, options=opts, seed_key=(ds.id, plan_id, int(index)))
+
+
+@dataclass(frozen=True, slots=True)
+class StabilityAsk:
+    """What the stability stage will read of one window, sent with the window's task.
+
+    The task draws the window's resamples with these options and stream
+    (``seed_key`` = ``(dataset, plan, window index)``), the same resamples the
+    stage would draw, and hands over :class:`HandedDraws`.
+    """
+
+    opts: ResamplingOptions
+    shape: tuple | None
+    seed_key: tuple
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class HandedDraws:
+    """One window's resampled relation bases at its own corank, and its plausible coranks.
+
+    ``bases[assumption]``: ``(B, q, n)`` on the common scale, as
+    :func:`resampled_bases` gives them (equal and bounded noise at the same
+    corank share one array); ``plausible[assumption]``: as
+    :func:`plausible_coranks`.
+    """
+
+    resamples: int
+    bases: Mapping[str, np.ndarray]
+    plausible: Mapping[str, frozenset | None]
+
+    @property
+    def nbytes(self) -> int:
+        return sum(b.nbytes for b in {id(b): b for b in self.bases.values()}.values())
+
+
+def handed_draws(cr: resample.CovarianceResamples, analysis, shape=None, pre=None) -> HandedDraws:
+    """What :func:`plan_stability` reads of one window, from its resamples ``cr`` (computed as there).
+
+    ``pre`` (:class:`relspan.analysis.inference.DrawnGranules` of ``cr``): its
+    eigenvectors and inverses are reused where they are the same arithmetic as
+    here (the same scale; on the correlation scale, no variance below 1e-300).
+    """
+    d = _Draws(cr, analysis, shape)
+    if pre is not None and pre.drawn is cr:
+        covs = cr.covariances
+        if pre.eig is not None and pre.scale == analysis.scale and (
+                analysis.scale != "correlation" or bool(np.all(np.diagonal(covs, axis1=1, axis2=2) >= 1e-300))):
+            d._memo["vec"] = pre.eig[1]
+        if pre.inverse is not None:
+            d._memo["inverse"] = pre.inverse
+    bases = {}
+    for a in STABILITY_ASSUMPTIONS:
+        own = _own_basis(analysis, a)
+        if own is not None and a in analysis.coranks:
+            bases[a] = d.bases(a, int(own.shape[0]))
+    plausible = {a: d.plausible(a) for a in ("equal", "bounded", "shaped") if a in analysis.coranks}
+    return HandedDraws(resamples=cr.resamples, bases=bases, plausible=plausible)
+
+
+def hand_bytes(opts: ResamplingOptions, n: int) -> int:
+    """Bytes :class:`HandedDraws` may hold for one window at most (elementary plus one basis of n - 1 rows)."""
+    return int(opts.resamples) * n * 8 * n
 
 
 def _analysed(covs: np.ndarray, scale: str) -> tuple[np.ndarray, np.ndarray]:
@@ -172,20 +239,25 @@ class _Draws:
         """:func:`resampled_bases` of ``assumption`` at corank ``q``."""
         analysis = self.analysis
         if assumption == "elementary":
-            covs = self.cr.covariances
-            try:
-                inv = np.linalg.inv(covs)
-            except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
-                inv = np.linalg.pinv(covs, hermitian=True)
+            def inverse():
+                covs = self.cr.covariances
+                try:
+                    return np.linalg.inv(covs)
+                except np.linalg.LinAlgError:  # a resample without full rank (e.g. few distinct granules)
+                    return np.linalg.pinv(covs, hermitian=True)
+            inv = self._get("inverse", inverse)
             rows = inv[:, analysis.ref, :][:, None, :]
             return _common_rows(rows, analysis.common_std)
-        _, tstd = self._analysed()
-        if assumption == "shaped":
-            vec = self._vectors("shaped")[:, :, :q] / self._shaped()[1][:, :, None]
-        else:
-            vec = self._vectors(assumption)[:, :, :q]
-        rows = np.swapaxes(vec, 1, 2) / tstd[:, None, :]
-        return _common_rows(rows, analysis.common_std)
+        def make():
+            _, tstd = self._analysed()
+            if assumption == "shaped":
+                vec = self._vectors("shaped")[:, :, :q] / self._shaped()[1][:, :, None]
+            else:
+                vec = self._vectors(assumption)[:, :, :q]
+            rows = np.swapaxes(vec, 1, 2) / tstd[:, None, :]
+            return _common_rows(rows, analysis.common_std)
+        # equal and bounded noise at one corank read the same eigenvectors: one array serves both
+        return self._get(("bases", "shaped" if assumption == "shaped" else "eig", q), make)
 
     def plausible(self, assumption: str, share: float = 1.0 - TEST_LEVEL) -> frozenset[int] | None:
         """:func:`plausible_coranks` of ``assumption``."""
@@ -234,7 +306,7 @@ KEEP_BYTES = 256 * 2**20
 
 
 def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
-                   opts: ResamplingOptions | None = None
+                   opts: ResamplingOptions | None = None, handed: Sequence[HandedDraws | None] | None = None
                    ) -> tuple[dict[str, SubspaceStability], dict[str, tuple]]:
     """Calibrated stability of each assumption over one plan, and each window's plausible coranks.
 
@@ -244,11 +316,15 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     support (None where the assumption has no per-resample rule).
 
     Each window's resamples are drawn and decomposed once for every
-    assumption: the bases the assumptions compared later will ask for are kept
-    (up to :data:`KEEP_BYTES`), and the plausible coranks of every assumption
-    are read at the same time.
+    assumption: ``handed[i]`` (:class:`HandedDraws`, from window i's task,
+    which drew them with :func:`plan_options` and the same stream) is read
+    when given; otherwise the window is drawn here, the bases the assumptions
+    compared later will ask for are kept (up to :data:`KEEP_BYTES`), and the
+    plausible coranks of every assumption are read at the same time.
     """
     opts = _for_plan(opts or _resampling_options(ds), len(analyses))
+    handed = list(handed) if handed is not None else [None] * len(analyses)
+    handed = [h if h is not None and h.resamples == opts.resamples else None for h in handed]
     shape = ds.noise_shape
     labels = [a.label for a in analyses]
     wanted = [a for a in STABILITY_ASSUMPTIONS if a in full.coranks and a in full.bases]
@@ -259,7 +335,7 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     own = {a: [_own_basis(w, a) for w in analyses] for a in wanted}
     later: list[str] = list(wanted)       # assumptions whose comparison has not finished
     kept: dict[tuple[str, int], np.ndarray] = {}
-    kept_bytes = 0
+    kept_bytes = sum(h.nbytes for h in handed if h is not None)   # one budget for handed and kept bases
     held: dict[int, _Draws] = {}
 
     def draws_of(i: int) -> _Draws:
@@ -272,6 +348,8 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     def resampled(a: str, i: int) -> np.ndarray:
         nonlocal kept_bytes
         got = kept.get((a, i))
+        if got is None and handed[i] is not None:
+            got = handed[i].bases.get(a)
         if got is not None:
             return got
         d = draws_of(i)
@@ -296,7 +374,8 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
     for a in ruled:
         for i in range(len(analyses)):
             if i not in plaus[a]:
-                plaus[a][i] = draws_of(i).plausible(a)
+                plaus[a][i] = (handed[i].plausible.get(a) if handed[i] is not None else
+                               draws_of(i).plausible(a))
     plausible = {a: tuple(plaus[a].get(i) for i in range(len(analyses))) for a in ruled}
     return out, plausible
 

@@ -184,32 +184,53 @@ class _PreparedSlice:
     dataset_id: str
 
 
-def _analyse_task(item: tuple) -> tuple[WindowAnalysis, tuple[RelspanWarning, ...]]:
+def _analyse_task(item: tuple) -> tuple:
     """One window (top-level so process pools and Dask can pickle it).
 
     The window's resampling runs here, on the executor, from its own granules and
     its own random stream (``(seed, dataset, plan, window index)``), so the numbers
     do not depend on where or in which order windows run. Items are
-    ``(moments, names, options, common_std, label[, granules, resampling, seed_key][, elementary])``.
+    ``(moments, names, options, common_std, label[, granules, resampling, seed_key, ask][, elementary])``.
+    With ``ask`` (:class:`relspan.run.cross_window.StabilityAsk`) the task also
+    computes what the stability stage reads of the window
+    (:class:`~relspan.run.cross_window.HandedDraws`) from the same resamples its
+    intervals use when both stages draw with the same options (one draw), and
+    returns ``(result, warnings, handed)``; otherwise ``(result, warnings)``.
     """
     moments, names, options, common_std, label, *rest = item
-    if len(rest) >= 3:
-        (granules, resampling, seed_key), given = rest[:3], rest[3:]
+    ask = None
+    if len(rest) >= 4:
+        (granules, resampling, seed_key, ask), given = rest[:4], rest[4:]
+    elif len(rest) == 3:
+        (granules, resampling, seed_key), given = rest, ()
     else:  # without granules: no resampling
         (granules, resampling, seed_key), given = (None, None, ()), rest
+    stats = None if granules is None else granules.stats()
+    drawn = pre = None
+    if ask is not None and stats is not None:
+        from relspan.analysis.inference import draw_window, drawn_as, drawn_granules
+
+        drawn = draw_window(stats, options=ask.opts, seed_key=ask.seed_key)
+        if resampling is not None and resampling.enabled and drawn_as(drawn, resampling, seed_key, stats):
+            # the intervals read the same resamples and decompositions
+            scale = "as given" if options.absolute is not None else "correlation"
+            stats = pre = drawn_granules(stats, drawn, scale)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", RelspanWarning)
         try:
             result = analyse_window(moments, names=names, options=options, common_std=common_std,
                                     label=label, elementary=given[0] if given else None,
-                                    granules=None if granules is None else granules.stats(),
-                                    resampling=resampling, seed_key=seed_key)
+                                    granules=stats, resampling=resampling, seed_key=seed_key)
         except OptionsError as exc:
             if exc.key not in _SPEC_KEYS:
                 raise
             raise OptionsError(exc.message, key=_SPEC_KEYS[exc.key], fix=exc.fix) from exc
     raised = tuple(w.message for w in caught if isinstance(w.message, RelspanWarning))
-    return result, raised
+    if drawn is None:
+        return result, raised
+    from relspan.run.cross_window import handed_draws
+
+    return result, raised, handed_draws(drawn, result, ask.shape, pre)
 
 
 def _with_elementary(items: list[tuple], names: tuple[str, ...]) -> list[tuple]:
@@ -270,12 +291,12 @@ def _flats(analysis: WindowAnalysis, examined: Sequence[int]) -> dict:
 
 def _plan_summaries(ds: DatasetSpec, prepared, plan: WindowPlanSpec, windows: Sequence,
                     analyses: Sequence[WindowAnalysis], full: WindowAnalysis,
-                    examined: Sequence[int]) -> PlanResult:
+                    examined: Sequence[int], handed: Sequence | None = None) -> PlanResult:
     from relspan.run.cross_window import plan_stability
 
     labels = [a.label for a in analyses]
     # each window at its own corank, judged against resampling (relspan.run.cross_window)
-    stability, plausible = plan_stability(prepared, ds, plan.id, analyses, full)
+    stability, plausible = plan_stability(prepared, ds, plan.id, analyses, full, handed=handed)
     swings: dict = {}
     for assumption in full.coefficients:
         vals = [a.coefficients.get(assumption) for a in analyses]
@@ -307,8 +328,8 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     resampling = resampling_options(ds)
     use = resampling.enabled and prepared.granules is not None
 
-    def granules(plan_id, i):
-        if not use:
+    def granules(plan_id, i, for_stability=False):
+        if not (use or (for_stability and prepared.granules is not None)):
             return None
         if plan_id is None:
             return _GranuleSpan.of(prepared, 0, len(prepared.granules))
@@ -316,32 +337,66 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
         return _GranuleSpan.of(prepared, *prepared.granules.span(w.first_row - 1, w.last_row - 1))
 
     items = [(full_m, names, options, common_std, "full sample", granules(None, 0), resampling,
-              (ds.id, FULL_SAMPLE_PLAN, 0))]
+              (ds.id, FULL_SAMPLE_PLAN, 0), None)]
     spans = []
+    budget = HAND_BYTES
     for plan in plans:
         pairs = window_moments(prepared, plan.id)
         spans.append((plan, [w for w, _ in pairs], len(items), len(items) + len(pairs)))
         plan_resampling = diagonal_scope(resampling, plan.kind, len(pairs))
-        items.extend((m, names, options, common_std, w.label, granules(plan.id, i), plan_resampling,
-                      (ds.id, plan.id, i)) for i, (w, m) in enumerate(pairs))
+        asks = _stability_asks(ds, plan, len(pairs), len(names), budget)
+        budget -= sum(a is not None for a in asks) * _hand_bytes(ds, len(pairs), len(names))
+        items.extend((m, names, options, common_std, w.label, granules(plan.id, i, asks[i] is not None),
+                      plan_resampling, (ds.id, plan.id, i), asks[i]) for i, (w, m) in enumerate(pairs))
     items = _with_elementary(items, names)
     executor = executor or SerialExecutor()
     results = map_in_chunks(executor, _analyse_task, items, progress=progress)
     sink = warn_sink if warn_sink is not None else []
-    for i, (_, raised) in enumerate(results):  # say which dataset and plan a window belongs to
+    for i, (_, raised, *_h) in enumerate(results):  # say which dataset and plan a window belongs to
         plan_id = next((p.id for p, _, a, b in spans if a <= i < b), None)
         sink.extend(w.located(dataset=ds.id, plan=plan_id) for w in raised)
-    analyses = [r for r, _ in results]
+    analyses = [r[0] for r in results]
+    handed = [r[2] if len(r) > 2 else None for r in results]
+    del results
     # the cross-window stage runs here, with one BLAS thread as the window tasks (small products)
     from relspan.run.executors import one_blas_thread
 
     with one_blas_thread():
         return _cross_window(ds, prepared, plans, analyses, spans, options, common_std, resampling, sink,
-                             cache_key)
+                             cache_key, handed)
+
+
+#: bytes of resampled bases the window tasks hand to the stability stage for one dataset at most
+#: (estimated per window by :func:`relspan.run.cross_window.hand_bytes`); windows beyond it are
+#: drawn again by the stage (the same stream, the same bits)
+HAND_BYTES = 256 * 2**20
+
+
+def _hand_bytes(ds: DatasetSpec, windows: int, n: int) -> int:
+    from relspan.run.cross_window import hand_bytes, plan_options
+
+    return hand_bytes(plan_options(ds, windows), n)
+
+
+def _stability_asks(ds: DatasetSpec, plan: WindowPlanSpec, windows: int, n: int, budget: int) -> list:
+    """Per window of a plan, the :class:`~relspan.run.cross_window.StabilityAsk` its task answers (or None).
+
+    Windows are asked in order while the estimated bytes fit ``budget``; none
+    when no assumption of the spec has a stability comparison.
+    """
+    from relspan.run.cross_window import STABILITY_ASSUMPTIONS, StabilityAsk, plan_options
+
+    if not any(a in STABILITY_ASSUMPTIONS for a in ds.checks.assumptions):
+        return [None] * windows
+    opts = plan_options(ds, windows)
+    fit = max(0, min(windows, budget // max(_hand_bytes(ds, windows, n), 1)))
+    shape = ds.noise_shape
+    return [StabilityAsk(opts=opts, shape=shape, seed_key=(ds.id, plan.id, i)) if i < fit else None
+            for i in range(windows)]
 
 
 def _cross_window(ds: DatasetSpec, prepared, plans, analyses, spans, options, common_std, resampling,
-                  sink: list, cache_key: str) -> DatasetResult:
+                  sink: list, cache_key: str, handed: Sequence | None = None) -> DatasetResult:
     """Everything after the window tasks: stability, breaks, spread, trends, influence, findings."""
     from relspan.analysis.findings import dataset_findings, dataset_summary
     from relspan.analysis.identified import identified_quantities
@@ -350,8 +405,12 @@ def _cross_window(ds: DatasetSpec, prepared, plans, analyses, spans, options, co
     full = analyses[0]
     examined, examined_from = _choose_examined(ds, full)
     threshold = float(ds.checks.max_angle_deg)
-    plan_results = tuple(_plan_summaries(ds, prepared, plan, wins, analyses[a:b], full, examined)
-                         for plan, wins, a, b in spans)
+    handed = list(handed) if handed is not None else [None] * len(analyses)
+    plan_results = []
+    for plan, wins, a, b in spans:
+        plan_results.append(_plan_summaries(ds, prepared, plan, wins, analyses[a:b], full, examined, handed[a:b]))
+        handed[a:b] = [None] * (b - a)   # read once: let them go
+    plan_results = tuple(plan_results)
     from relspan.run.cross_window import dataset_breaks, full_sample_spread
 
     breaks = dataset_breaks(prepared, ds, full, plan_results)
