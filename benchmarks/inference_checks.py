@@ -22,7 +22,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from relspan.analysis.breaks import subspace_break_scan  # noqa: E402
-from relspan.analysis.equal_test import sequential_corank_stack  # noqa: E402
+from relspan.analysis.equal_test import effective_nobs_by_k, sequential_corank_stack, serial_dependence  # noqa: E402
 from relspan.analysis.inference import equal_noise_corank_stack  # noqa: E402
 from relspan.analysis.resample import GranuleStats  # noqa: E402
 from tests.analysis.inference_sims import coverage, coverage_design, one_relation_cov, rows  # noqa: E402
@@ -128,15 +128,23 @@ def two_relations(rng: np.random.Generator, t: int, *, noise: float = 0.075, ext
 
 
 def corank_shares(rng, t: int, datasets: int, *, scale: str = "correlation", nobs: float | None = None,
-                  eps: float = 0.05, **kw) -> tuple[np.ndarray, np.ndarray]:
-    """Shares of datasets choosing corank 0..5: by the test alone, and by the pipeline's rule."""
-    lam = []
+                  eps: float = 0.05, serial: bool = False, **kw) -> tuple[np.ndarray, np.ndarray]:
+    """Shares of datasets choosing corank 0..5: by the test alone, and by the pipeline's rule.
+
+    ``serial``: the pipeline's effective sample size for time-ordered rows (per k, from the lag-1
+    autocorrelations of the eigen-components: ``relspan.analysis.equal_test.effective_nobs_by_k``).
+    """
+    lam, nbs = [], []
     for _ in range(datasets):
         x = two_relations(rng, t, **kw)
         c = np.corrcoef(x.T) if scale == "correlation" else np.cov(x.T) / (1.0 + kw.get("noise", 0.075))
-        lam.append(np.linalg.eigvalsh(c))
+        vals, vecs = np.linalg.eigh(c)
+        lam.append(vals)
+        if serial:
+            d = np.sqrt(np.diag(np.cov(x.T))) if scale == "correlation" else np.ones(x.shape[1])
+            nbs.append(effective_nobs_by_k(t, serial_dependence(x).lag1(vecs / d[:, None]))[0])
     lam = np.array(lam)
-    nb = t if nobs is None else nobs
+    nb = (t if nobs is None else nobs) if not serial else np.array(nbs)
     test = np.bincount(sequential_corank_stack(lam, nobs=nb), minlength=6) / datasets
     rule = np.bincount(equal_noise_corank_stack(lam, eps=eps, nobs=nb), minlength=6) / datasets
     return test, rule
@@ -163,6 +171,7 @@ def run_corank(datasets: int) -> None:
         row(f"AR(1) 0.5, noise 40%, T = {t}, rows as independent", t, noise=0.4, rho=0.5)
         row(f"AR(1) 0.5, noise 40%, T = {t}, T (1 - r^2) / (1 + r^2)", t, noise=0.4, rho=0.5,
             nobs=t * 0.75 / 1.25)
+        row(f"AR(1) 0.5, noise 40%, T = {t}, pipeline's effective rows", t, noise=0.4, rho=0.5, serial=True)
     for extra in (0.0375, 0.075, 0.15):
         for t in (400, 2000):
             row(f"unequal: extra {extra:g} on relation 2, T = {t}", t, extra=extra)

@@ -45,7 +45,11 @@ from relspan.analysis._common import check_cov, jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["EigenEqualityTest", "EqualNoiseCorankTest", "equal_eigenvalues_test", "equal_noise_corank",
-           "sequential_corank", "minka_log_evidence", "DEFAULT_TEST_LEVEL"]
+           "sequential_corank", "minka_log_evidence", "DEFAULT_TEST_LEVEL", "SerialDependence",
+           "serial_dependence", "effective_nobs_by_k", "SERIAL_CLIP"]
+
+#: lag-1 autocorrelations are clipped to this magnitude before the inflation factor is formed
+SERIAL_CLIP = 0.99
 
 #: significance level of each test in the sequence when the spec does not say
 DEFAULT_TEST_LEVEL = 0.05
@@ -177,16 +181,23 @@ def sequential_corank_stack(eigenvalues: np.ndarray, *, nobs, level: float = DEF
                             ) -> np.ndarray:
     """:func:`sequential_corank` for a ``(B, n)`` stack of eigenvalues, vectorised over rows.
 
-    ``nobs`` is a number or a ``(B,)`` array (rows of each resample).
+    ``nobs`` is a number, a ``(B,)`` array (rows of each resample) or a
+    ``(B, n - 1)`` array whose column ``k - 2`` is the sample size of the test
+    of the k smallest eigenvalues (:func:`effective_nobs_by_k`).
     """
     lam = np.sort(np.asarray(eigenvalues, dtype=float), axis=1)[:, ::-1]
     b, n = lam.shape
-    nu = np.broadcast_to(np.asarray(nobs, dtype=float), (b,)) - 1.0
+    nobs_a = np.asarray(nobs, dtype=float)
+    if nobs_a.ndim == 2:
+        nu_k = np.broadcast_to(nobs_a, (b, n - 1)) - 1.0
+    else:
+        nu_k = np.broadcast_to(np.broadcast_to(nobs_a, (b,))[:, None], (b, n - 1)) - 1.0
     q = np.ones(b, dtype=int)
     alive = np.ones(b, dtype=bool)
     with np.errstate(divide="ignore", invalid="ignore"):
         for k in range(2, n + 1):
             m = n - k
+            nu = nu_k[:, k - 2]
             small = lam[:, m:]
             lbar = small.mean(axis=1)
             corr = (lbar**2 * np.sum(1.0 / (lam[:, :m] - lbar[:, None]) ** 2, axis=1)) if m else 0.0
@@ -200,6 +211,97 @@ def sequential_corank_stack(eigenvalues: np.ndarray, *, nobs, level: float = DEF
             if not alive.any():
                 break
     return q
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class SerialDependence:
+    """Lag-0 and lag-1 autocovariance matrices of a time-ordered window (analysed coordinates).
+
+    Attributes
+    ----------
+    c0 : (n, n) ndarray
+        Covariance of the series the lags are read from.
+    c1 : (n, n) ndarray
+        Lag-1 autocovariance, symmetrised (``(G + G') / 2``, ``G = sum_t z_t z_{t+1}' / K``).
+    points : int
+        ``K``, the points of that series (rows, or granule means).
+    rows_per_point : int
+        1 when the series is the rows themselves; ``g`` when it is the means of granules of up to
+        ``g`` rows (then only dependence between granules is seen and the correction is smaller).
+    """
+
+    c0: np.ndarray
+    c1: np.ndarray
+    points: int
+    rows_per_point: int = 1
+
+    def lag1(self, directions) -> np.ndarray:
+        """Lag-1 autocorrelation of the series projected on each direction.
+
+        ``directions`` is ``(..., n, k)``: columns are directions in analysed coordinates.
+        Returns ``(..., k)``, clipped to ``[-SERIAL_CLIP, SERIAL_CLIP]`` (0 where undefined).
+        """
+        u = np.asarray(directions, dtype=float)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            num = np.einsum("...ik,ij,...jk->...k", u, self.c1, u)
+            den = np.einsum("...ik,ij,...jk->...k", u, self.c0, u)
+            r = num / den
+        r = np.where(np.isfinite(r), r, 0.0)
+        return np.clip(r, -SERIAL_CLIP, SERIAL_CLIP)
+
+
+def serial_dependence(means, *, rows_per_point: int = 1) -> SerialDependence | None:
+    """:class:`SerialDependence` of a ``(K, n)`` series in time order (None when ``K < 3``)."""
+    z = np.asarray(means, dtype=float)
+    if z.ndim != 2 or z.shape[0] < 3 or not np.all(np.isfinite(z)):
+        return None
+    z = z - z.mean(axis=0, keepdims=True)
+    k = z.shape[0]
+    c0 = z.T @ z / k
+    g = z[:-1].T @ z[1:] / k
+    return SerialDependence(c0=c0, c1=(g + g.T) / 2.0, points=int(k), rows_per_point=int(rows_per_point))
+
+
+def effective_nobs_by_k(nobs, lag1) -> np.ndarray:
+    """Sample size of the test of the k smallest eigenvalues, k = 2 .. n, under serial dependence.
+
+    Parameters
+    ----------
+    nobs : float or (B,) array_like
+        ``T``, the rows behind each covariance.
+    lag1 : (n,) or (B, n) array_like
+        Lag-1 autocorrelations ``r_a`` of the eigen-components, in ascending order of eigenvalue.
+
+    Returns
+    -------
+    (B, n - 1) ndarray
+        Column ``k - 2``: ``T / max_{a, b <= k} (1 + r_a r_b) / (1 - r_a r_b)``, at most ``T``.
+
+    Notes
+    -----
+    The test statistic is a smooth function of the sample covariance of the k
+    components it tests. For two series with lag-1 autocorrelations ``r_a``,
+    ``r_b`` that behave like AR(1) series, the variance of their sample
+    covariance (and, with ``a = b``, of a sample variance) is that of
+    ``T (1 - r_a r_b) / (1 + r_a r_b)`` independent rows (Bartlett 1946; the
+    factor the trends section uses for effective rows). The test takes the
+    largest factor over the pairs it tests (``a = b`` included), so it errs
+    toward rejecting less; with equal coefficients ``r`` this is
+    ``T (1 - r^2) / (1 + r^2)``. The factor never raises the sample size above ``T``.
+
+    References
+    ----------
+    .. [1] M. S. Bartlett, "On the theoretical specification and sampling
+           properties of autocorrelated time-series", JRSS Supplement 8(1), 27-41, 1946.
+    """
+    r = np.atleast_2d(np.clip(np.asarray(lag1, dtype=float), -SERIAL_CLIP, SERIAL_CLIP))
+    b, n = r.shape
+    t = np.broadcast_to(np.asarray(nobs, dtype=float), (b,)) if np.ndim(nobs) else np.full(b, float(nobs))
+    # the largest r_a r_b over a, b <= k is max(max r, -min r)^2 (the pair of the largest |r|)
+    top = np.maximum.accumulate(np.abs(r), axis=1)[:, 1:]
+    p = top**2
+    factor = np.maximum((1.0 + p) / (1.0 - p), 1.0)
+    return t[:, None] / factor
 
 
 def minka_log_evidence(eigenvalues, *, nobs: float) -> np.ndarray:

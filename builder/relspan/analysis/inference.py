@@ -54,7 +54,7 @@ from scipy import optimize, stats
 
 from relspan.analysis._common import EPS, jsonable, orthonormal_rows, pivot_columns
 from relspan.analysis.corank_support import CorankSupport, bounded_support
-from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, sequential_corank_stack
+from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, effective_nobs_by_k, sequential_corank_stack
 from relspan.analysis.intervals import (Interval, interval, procrustes_align,
                                         reduced_form_stack)
 from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, CovarianceResamples, GranuleStats,
@@ -317,7 +317,8 @@ class WindowInference:
 # --------------------------------------------------------------------------- equal-noise corank
 
 
-def equal_noise_corank_rule(eigenvalues, *, eps: float, nobs: float, level: float = DEFAULT_TEST_LEVEL) -> int:
+def equal_noise_corank_rule(eigenvalues, *, eps: float, nobs: float, level: float = DEFAULT_TEST_LEVEL,
+                            lag1=None) -> int:
     """The equal-noise corank of one covariance (see :data:`EQUAL_RULE`).
 
     ``eigenvalues`` on the analysis scale, ``eps`` the tolerance on that scale.
@@ -337,21 +338,46 @@ def equal_noise_corank_rule(eigenvalues, *, eps: float, nobs: float, level: floa
     read as one relation (measured in ``benchmarks/inference_checks.py corank``).
     Corank 1 always fits, so it is reported only when ``l_1 <= eps``.
 
+    Serial dependence: ``lag1`` (None for rows taken as independent) gives the
+    lag-1 autocorrelations of the eigen-components, one per eigenvalue in the
+    order given; the test of the k smallest then uses the effective sample size
+    ``T / max_{a,b<=k} (1 + r_a r_b) / (1 - r_a r_b)``
+    (:func:`relspan.analysis.equal_test.effective_nobs_by_k`, Bartlett 1946).
+
     References
     ----------
     .. [1] D. N. Lawley, Biometrika 43(1/2), 128-136, 1956.
     .. [2] T. W. Anderson, Ann. Math. Statist. 34(1), 122-148, 1963.
     .. [3] H. Weyl, "Das asymptotische Verteilungsgesetz der Eigenwerte linearer
            partieller Differentialgleichungen", Mathematische Annalen 71, 441-479, 1912.
+    .. [4] M. S. Bartlett, "On the theoretical specification and sampling
+           properties of autocorrelated time-series", JRSS Supplement 8(1), 27-41, 1946.
     """
     return int(equal_noise_corank_stack(np.asarray(eigenvalues, dtype=float)[None, :], eps=eps,
-                                        nobs=nobs, level=level)[0])
+                                        nobs=nobs, level=level,
+                                        lag1=None if lag1 is None else np.asarray(lag1, dtype=float)[None, :])[0])
 
 
-def equal_noise_corank_stack(eigenvalues, *, eps: float, nobs, level: float = DEFAULT_TEST_LEVEL) -> np.ndarray:
-    """:func:`equal_noise_corank_rule` for a ``(B, n)`` stack."""
-    lam = np.sort(np.asarray(eigenvalues, dtype=float), axis=1)
+def equal_noise_corank_stack(eigenvalues, *, eps: float, nobs, level: float = DEFAULT_TEST_LEVEL,
+                             lag1=None, serial=None, directions=None) -> np.ndarray:
+    """:func:`equal_noise_corank_rule` for a ``(B, n)`` stack.
+
+    ``lag1`` is ``(B, n)``, aligned with ``eigenvalues`` column by column, or None. Alternatively
+    ``serial`` (:class:`relspan.analysis.equal_test.SerialDependence` of the
+    window, None for independent rows) with ``directions`` ``(B, n, n)``, each
+    resample's eigenvectors (columns aligned with ``eigenvalues``) carried to analysed
+    coordinates: a block bootstrap keeps the window's dependence, so each
+    resample's components are read against the window's lag-1 autocovariance.
+    """
+    order = np.argsort(np.asarray(eigenvalues, dtype=float), axis=1)
+    lam = np.take_along_axis(np.asarray(eigenvalues, dtype=float), order, axis=1)
     n = lam.shape[1]
+    if lag1 is None and serial is not None and directions is not None:
+        lag1 = np.take_along_axis(serial.lag1(directions), order, axis=1)
+    elif lag1 is not None:
+        lag1 = np.take_along_axis(np.broadcast_to(np.asarray(lag1, dtype=float), lam.shape), order, axis=1)
+    if lag1 is not None:
+        nobs = effective_nobs_by_k(nobs, lag1)
     q_test = sequential_corank_stack(lam, nobs=nobs, level=level)
     # within the tolerance of the smallest (ascending: a prefix); independent of the level s^2
     q_near = np.sum(lam - lam[:, :1] <= eps, axis=1)
@@ -723,7 +749,9 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
 
     supports: dict[str, CorankSupport] = {}
     if "equal" in assumptions:
-        qs = equal_noise_corank_stack(lam, eps=eps, nobs=rows_b, level=options.test_level)
+        serial = estimates.get("serial") if options.scheme != "iid" else None
+        qs = equal_noise_corank_stack(lam, eps=eps, nobs=rows_b, level=options.test_level, serial=serial,
+                                      directions=None if serial is None else vec / std_b[:, :, None])
         supports["equal"] = _support("equal", estimates.get("equal_q"), qs, n,
                                      EQUAL_RULE + f" Applied to each of {res.resamples} resamples.")
     if "bounded" in assumptions:

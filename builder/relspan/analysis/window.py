@@ -32,6 +32,7 @@ from relspan.analysis.bounded import BoundedNoise, bounded_noise, tolerance_eps
 from relspan.analysis.elementary import (ElementaryRegressions, choose_reference, elementary_regressions,
                                          warn_ill_conditioned)
 from relspan.analysis.equal_noise import EqualNoise, equal_noise
+from relspan.analysis.equal_test import SerialDependence, serial_dependence
 from relspan.analysis.frisch import FrischResult, frisch_analysis
 from relspan.analysis.inference import ResamplingOptions, WindowInference, equal_noise_corank_rule, window_inference
 from relspan.analysis.moments import Moments
@@ -350,7 +351,13 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
         eq = equal_noise(mat, names=names)
     if "equal" in options.assumptions and eq is not None:
         # the multiplicity of the smallest eigenvalue, by test (not a count below the tolerance)
-        coranks["equal"] = equal_noise_corank_rule(eq.eigenvalues, eps=eps, nobs=float(moments.count))
+        # time-ordered rows: the test's sample size is the effective one (Bartlett 1946; equal_test)
+        serial = _serial(granules)
+        lam_eq, lag1 = np.sort(np.asarray(eq.eigenvalues, dtype=float)), None
+        if serial is not None:
+            vecs = np.linalg.eigh(mat)[1]       # columns in ascending order of eigenvalue, as lam_eq
+            lag1 = serial.lag1(vecs / tstd[:, None])
+        coranks["equal"] = equal_noise_corank_rule(lam_eq, eps=eps, nobs=float(moments.count), lag1=lag1)
         bases["equal"] = {q: _common(to_data_units(eq.coranks[q - 1].basis), common_std) for q in keep}
         coefficients["equal"] = normalised_coefficients(to_data_units(eq.coranks[0].basis)[0], ref)
 
@@ -408,6 +415,19 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
     )
 
 
+def _serial(granules) -> SerialDependence | None:
+    """Lag-0/lag-1 autocovariances of a time-ordered window's granule means (None: rows independent).
+
+    Unordered rows, and windows analysed without granules, keep the row count.
+    """
+    if granules is None:
+        return None
+    stats_ = getattr(granules, "stats", granules)   # DrawnGranules carries its GranuleStats
+    if not getattr(stats_, "ordered", False):
+        return None
+    return serial_dependence(stats_.means, rows_per_point=int(stats_.rows_per_granule))
+
+
 def _frisch_corank(fr: FrischResult) -> int | None:
     """Largest certified corank, or None when a larger one is neither certified nor ruled out."""
     top = fr.corank.max_certified
@@ -457,5 +477,6 @@ def _inference(granules, resampling, seed_key, tol, eps, ref, keep, coranks, eq,
                    "elementary": None if er.singular else np.asarray(er.coefficients, dtype=float),
                    "equal_q": coranks.get("equal"), "bounded_q": coranks.get("bounded"),
                    "diagonal_q": coranks.get("diagonal"), "diagonal_share": share,
+                   "serial": _serial(granules),
                    "frisch_lower": lower, "frisch_upper": upper},
         nobs=float(moments.count))
