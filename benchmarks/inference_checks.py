@@ -175,6 +175,14 @@ def run_corank(datasets: int) -> None:
     for extra in (0.0375, 0.075, 0.15):
         for t in (400, 2000):
             row(f"unequal: extra {extra:g} on relation 2, T = {t}", t, extra=extra)
+    for extra in (0.1, 0.2, 0.4):
+        for t in (400, 2000):
+            row(f"unequal, AR(1) 0.5, noise 40%: extra {extra:g}, T = {t}, indep.", t, noise=0.4, extra=extra,
+                rho=0.5)
+            row(f"unequal, AR(1) 0.5, noise 40%: extra {extra:g}, T = {t}, effective", t, noise=0.4, extra=extra,
+                rho=0.5, serial=True)
+    for t in (400, 2000):
+        row(f"iid rows, noise 7.5%, T = {t}, effective rows (time-ordered)", t, serial=True)
     for t in (144, 400, 2000):
         row(f"near-exact: noise 0.5%, extra 0.5% on relation 2, T = {t}", t, noise=0.005, extra=0.005)
 

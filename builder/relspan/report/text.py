@@ -365,14 +365,16 @@ METHODS = (
      "about a tenth too small, and varied from sample to sample, whatever the block length (measured in "
      "docs/inference.md). Studentised intervals (Hall 1988) with each resample's own standard error from its "
      "blocks (Goetze & Kuensch 1996) and a flat-top lag-window standard error (Politis & Romano 1995) "
-     "covered about 85-91% in the same simulations; they are not yet used for the numbers on this site. The equality test assumes Gaussian rows, taken as independent: heavy tails "
-     "(Waternaux 1976) and autocorrelation make it reject too often (in simulations with AR(1) coefficient "
-     "0.5, about one true equality in five where the eigenvalues differ by more than the tolerance), and its "
+     "covered about 85-91% in the same simulations; they are not yet used for the numbers on this site. The equality test assumes Gaussian rows: heavy tails "
+     "(Waternaux 1976) make it reject too often; autocorrelation did too with rows taken as independent (in "
+     "simulations with AR(1) coefficient 0.5, about one true equality in five), and with the effective "
+     "sample size it rejected 5.3% and 4.6% of true equalities at 400 and 2000 rows (1000 datasets each), "
+     "at a cost in power against small unequal noise at 400 rows (benchmarks/inference_checks.py corank); its "
      "chi-square reference is approximate on the correlation scale (6-9% rejections at the 5% level in "
      "simulations). Minka's (2000) evidence is kept in the results as a second opinion. Granules of "
      "several rows are resampled whole.",
      ("efron1979", "efron1987", "kuensch1989", "politis1994", "politis2003", "politis2004", "patton2009",
-      "lawley1956", "anderson1963", "bartlett1954", "minka2000", "waternaux1976", "davison1997",
+      "lawley1956", "anderson1963", "bartlett1954", "bartlett1946", "minka2000", "waternaux1976", "davison1997",
       "schoenemann1966", "imbens2004", "chan1979", "weyl1912", "hall1988", "goetze1996", "politis1995")),
     ("moments", "Window statistics from mergeable blocks",
      "Windows are merged from block statistics, never recomputed from raw rows.",
@@ -427,8 +429,14 @@ INFERENCE_RULES = (
     "the numbers do not depend on how many processes run or on the cache.",
     "Corank under equal noise: the number of smallest eigenvalues (on the analysed scale) that are equal. "
     "Starting from k = 2, the test that the k smallest eigenvalues are equal (Lawley 1956; Anderson 1963; "
-    "chi-square with k(k+1)/2 \u2212 1 degrees of freedom, at the 5% level, rows taken as independent) is "
-    "applied until it rejects; k eigenvalues also count as equal when they lie within eps of one another "
+    "chi-square with k(k+1)/2 \u2212 1 degrees of freedom, at the 5% level) is applied until it rejects. "
+    "With time-ordered rows its sample size is the effective one: the T rows divided by the largest "
+    "(1 + r_a r_b)/(1 \u2212 r_a r_b) over the k tested eigen-components, r their lag-1 autocorrelations "
+    "(Bartlett 1946: the variance inflation of a sample covariance of two AR(1)-like series, the factor of "
+    "the trends section), the same on the full sample, each window and each block resample (read against "
+    "the window's lag-1 autocovariance, since block resamples keep its dependence); unordered rows keep T. "
+    "With granules of several rows the lag-1 autocorrelation is that of granule means, which sees only "
+    "dependence between granules, so the correction is then smaller than the rows call for; k eigenvalues also count as equal when they lie within eps of one another "
     "(the k-th smallest minus the smallest at most eps: equal noise of any size plus a deviation of norm at "
     "most eps/2, by Weyl's inequality), so near-exact relations whose tiny noise variances differ are not "
     "lost, and the size of the common noise variance never enters. When all n count as equal, the data "
