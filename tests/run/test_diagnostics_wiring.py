@@ -267,3 +267,24 @@ class TestDetrend:
         run, _ = _run(self._spec(tmp_path, "tr.csv", "detrend"))
         frame = analyse_frame(df, columns=["x", "y"], time="quarter", transforms=["detrend", "detrend"]).result
         np.testing.assert_allclose(frame.full.cov, run.dataset("tr").full.cov, rtol=1e-12)
+
+
+def test_influence_recounts_give_the_equality_test_the_full_samples_serial_dependence(tmp_path, monkeypatch):
+    # The full-sample equal-noise count tests on effective rows under serial dependence; a leave-one-
+    # block-out recount that treated the rows as independent could differ for that reason alone (a
+    # contradiction on the page). Every recount must carry the time-ordered granules.
+    import relspan.run.pipeline as pipeline
+
+    seen = []
+    real = pipeline.analyse_window
+
+    def spy(*args, **kwargs):
+        seen.append(kwargs.get("granules"))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(pipeline, "analyse_window", spy)
+    _macro_csv(tmp_path / "macro.csv")
+    run, _ = _run(_spec(tmp_path, "logdiff"))
+    assert run.dataset("macro").influence is not None
+    assert len(seen) > 5
+    assert all(getattr(getattr(g, "stats", g), "ordered", False) for g in seen), [type(g).__name__ for g in seen]

@@ -502,7 +502,11 @@ def _influence(ds: DatasetSpec, prepared, full, options, common_std, sink: list)
         m = Moments(count=int(count), mean=np.asarray(mean), comoment=np.asarray(comoment))
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            return dict(analyse_window(m, names=names, options=opts, common_std=common_std).coranks)
+            # the full sample's granules give the equality test the full sample's serial dependence
+            # (effective rows), as the full-sample count it is compared with had: without them a
+            # recount would treat autocorrelated rows as independent and could differ for that alone
+            return dict(analyse_window(m, names=names, options=opts, common_std=common_std,
+                                       granules=stats).coranks)
 
     checked = tuple(a for a in fast if a != "elementary")
     if not checked:
