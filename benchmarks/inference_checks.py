@@ -35,8 +35,7 @@ COVERAGE_CELLS = (("iid, T = 400", 0.0, 400, 11), ("iid, T = 800", 0.0, 800, 13)
 
 def run_coverage(datasets: int) -> None:
     print(f"coverage of nominal 90% intervals, {datasets} datasets per cell, 199 resamples per window")
-    print("as the pipeline computes them (eigenvalue: studentised for AR(1) rows, basic for iid; coefficient "
-          "percentile, angle basic) | studentised")
+    print("as the pipeline computes them (eigenvalue basic, coefficient percentile, angle basic) | studentised")
     print(f"{'rows (seed)':<28} {'eigenvalue':>10} {'coefficient':>12} {'angle':>7} | "
           f"{'eigenvalue':>10} {'coefficient':>12} {'angle':>7}")
     for label, rho, t, seed in COVERAGE_CELLS:

@@ -43,16 +43,13 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
     """Share of simulated datasets whose nominal-``level`` intervals cover the truth.
 
     Per dataset: two windows of ``t`` rows, the relation turned by 20 degrees between them. Intervals:
-    the smallest eigenvalue of window 1 (the pipeline's own
-    :func:`relspan.analysis.inference.eigenvalue_intervals`: blockwise studentised for AR(1) rows,
-    basic for iid rows), the normalised coefficient of x1 in the relation solved
+    the smallest eigenvalue of window 1 (basic), the normalised coefficient of x1 in the relation solved
     for x3 (percentile, Procrustes-aligned bases) and the largest principal angle between the windows
     (basic, independent resamples of each window). Truth: the population covariance's values.
 
     ``studentized=True`` adds, from the same data and resamples, the studentised intervals of
     :func:`relspan.analysis.resample.studentized_interval` (keys ending in ``" (studentized)"``).
     """
-    from relspan.analysis.inference import eigenvalue_intervals
     from relspan.analysis.intervals import (angle_interval, coefficient_intervals, interval,
                                             largest_angle_stack, relation_bases)
     from relspan.analysis.resample import (GranuleStats, influence_sd, influence_values, resample_covariances,
@@ -82,12 +79,12 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
         for cov in (s1, s2):
             x = rows(rng, cov, t, rho)
             st = GranuleStats.from_rows(x, ordered=rho != 0.0)
-            r = resample_covariances(st, resamples=resamples, rng=rng, keep_draws=studentized or rho != 0.0)
+            r = resample_covariances(st, resamples=resamples, rng=rng, keep_draws=studentized)
             w, v = np.linalg.eigh(r.estimate)
             wb, vb = r.eigh()
             fits.append((w, v[:, :1].T, wb, relation_bases(vb, 1), st, r))
         (w, basis, wb, bases, st1, r1), (_, basis2, _, bases2, st2, r2) = fits
-        e = eigenvalue_intervals(st1, r1, w[:1], wb[:, :1], scale="as given", level=level)[0][0]
+        e = interval(float(w[0]), wb[:, 0], level=level, method="basic")
         c = coefficient_intervals(basis, bases, targets=[2], level=level)[(0, 0)]
         est = float(largest_angle_stack(basis, basis2[None])[0])
         draws_a = largest_angle_stack(bases, bases2)

@@ -77,7 +77,7 @@ __all__ = ["SCHEMES", "DEFAULT_RESAMPLES", "DEFAULT_LEVEL", "BlockLength", "Gran
            "CovarianceResamples", "window_seed", "window_rng", "politis_white_block_length",
            "draw_granules", "draw_blocks", "merge_weighted", "resample_covariances", "stack_covariances",
            "correlation_stack", "scale_stack", "statistic_gradient", "influence_values", "influence_sd",
-           "resample_influence_sd", "studentized_interval", "drawn_blocks"]
+           "resample_influence_sd", "studentized_interval"]
 
 #: resampling schemes
 SCHEMES = ("iid", "moving", "stationary")
@@ -566,27 +566,6 @@ def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMP
 
 
 # --------------------------------------------------------------------------- studentised intervals
-
-
-def drawn_blocks(res: CovarianceResamples) -> tuple[np.ndarray, np.ndarray] | None:
-    """The granules drawn for ``res`` and their blocks (as ``keep_draws=True`` keeps them).
-
-    Kept draws are returned as they are; otherwise, when ``res`` records its
-    stream (``res.seed``, as :func:`window_seed` names it), the draws are made
-    again from a fresh copy of that stream with the same scheme, block length
-    and resamples: :func:`resample_covariances` takes nothing else from the
-    stream before :func:`draw_blocks`, so they are the same draws, bit for bit.
-    None when neither is available.
-    """
-    if res.draws is not None and res.blocks is not None:
-        return res.draws, res.blocks
-    if res.seed is None or len(res.seed) != 4:
-        return None
-    rng = window_rng(*res.seed)
-    idx, blocks = draw_blocks(res.granules, scheme=res.scheme, resamples=res.resamples, rng=rng,
-                              block_length=res.block_length)
-    return idx, np.ascontiguousarray(blocks)
-
 
 
 def statistic_gradient(f, cov, *, step: float | None = None) -> np.ndarray:
