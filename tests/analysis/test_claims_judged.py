@@ -120,3 +120,20 @@ def test_no_break_claim_takes_no_plan_and_other_kinds_need_one(tmp_path):
     with pytest.raises(SpecError, match=r"claims\[0\]\.plan is missing; a subspace_stable claim"):
         load_spec(write_case(tmp_path / "b", x, plans=HALVES_PLAN, claims=(
             "claims:\n  - {id: c, kind: subspace_stable, dataset: case, corank: 1}\n")))
+
+
+def test_no_break_claim_names_every_break_the_scan_found(tmp_path):
+    # two turns of 20 degrees at rows 100 and 200 of 300 (benchmarks/break_scan_checks.simulate); the
+    # claim's finding used to name only the whole sample's break, hiding the second one
+    from benchmarks.break_scan_checks import simulate
+
+    x, cuts = simulate(np.random.default_rng(33), 300, 0.0, (1 / 3, 2 / 3), 20.0)
+    claim = "claims:\n  - {id: calm, kind: no_break, dataset: case}\n"
+    run = analyse(write_case(tmp_path, x, plans=HALVES_PLAN, tolerance=0.1, claims=claim))
+    v = run.verdicts[0]
+    dated = run.datasets[0].breaks["equal"].dated()
+    assert v.word == "fails" and len(dated) == 2
+    assert v.observed.startswith("2 breaks of the 1-dimensional relation subspace")
+    for b, date, low, high in dated:
+        assert f"at {date} (interval {low} to {high})" in v.observed
+    assert v.windows_failing == tuple(d[1] for d in dated)

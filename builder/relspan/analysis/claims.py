@@ -211,11 +211,21 @@ def _no_break(claim: ClaimSpec, result) -> ClaimVerdict:
         return _unjudged(claim, f"Break scan under {name}: {br.reason}", why, br.to_dict())
     sc = br.scan
     if sc.found:
-        observed = (f"A break of the {sc.q}-dimensional relation subspace under {name} at {br.date} "
-                    f"(interval {br.date_low} to {br.date_high}); angle before/after {_fmt(sc.angle_deg)} "
-                    f"degrees; statistic {_fmt(sc.statistic)} above the critical value "
-                    f"{_fmt(sc.critical_value)} (p = {_fmt(sc.p_value)}). {sc.rule}")
-        return ClaimVerdict(claim, False, observed, br.to_dict(), (str(br.date),))
+        dated = br.dated() or [(None, br.date, br.date_low, br.date_high)]
+        parts = []
+        for b, date, low, high in dated:
+            if b is None:  # a scan result without per-break records: the whole sample's test only
+                parts.append(f"at {date} (interval {low} to {high}); angle before/after "
+                             f"{_fmt(sc.angle_deg)} degrees; statistic {_fmt(sc.statistic)} above the "
+                             f"critical value {_fmt(sc.critical_value)} (p = {_fmt(sc.p_value)})")
+                continue
+            parts.append(f"at {date} (interval {low} to {high}); angle between the neighbouring "
+                         f"segments {_fmt(b.angle_deg)} degrees; statistic {_fmt(b.statistic)} above the "
+                         f"critical value {_fmt(b.critical_value)} (p = {_fmt(b.p_value)})")
+        head = ("A break" if len(parts) == 1 else f"{len(parts)} breaks")
+        observed = (f"{head} of the {sc.q}-dimensional relation subspace under {name}: "
+                    + "; ".join(parts) + f". {sc.rule}")
+        return ClaimVerdict(claim, False, observed, br.to_dict(), tuple(str(d[1]) for d in dated))
     observed = (f"No break of the {sc.q}-dimensional relation subspace under {name}: statistic "
                 f"{_fmt(sc.statistic)} at most the critical value {_fmt(sc.critical_value)} "
                 f"(p = {_fmt(sc.p_value)}). {sc.rule}")
