@@ -71,24 +71,52 @@ class MinimumTrace:
         return fields_dict(self)
 
 
-def _positive_definite(m: np.ndarray) -> np.ndarray:
-    """Per matrix of a (B, n, n) stack: does its Cholesky factorisation exist (positive definite)?
+try:    # the gufuncs behind numpy.linalg, without its per-call checks (same LAPACK calls, same bits)
+    from numpy.linalg import _umath_linalg as _ul
 
-    One batched factorisation; only when one of them fails, each alone.
-    """
-    try:
-        np.linalg.cholesky(m)
-        return np.ones(m.shape[0], dtype=bool)
-    except np.linalg.LinAlgError:
-        pass
-    ok = np.zeros(m.shape[0], dtype=bool)
-    for b in range(m.shape[0]):
-        try:
-            np.linalg.cholesky(m[b])
-            ok[b] = True
-        except np.linalg.LinAlgError:
-            pass
-    return ok
+    def _cholesky_or_nan(m: np.ndarray) -> np.ndarray:
+        """Lower Cholesky factors of a (B, n, n) stack; a matrix that is not positive definite gets NaNs."""
+        return _ul.cholesky_lo(m, signature="d->d")
+
+    def _inv_raw(m: np.ndarray) -> np.ndarray:
+        return _ul.inv(m, signature="d->d")
+except (ImportError, AttributeError):        # pragma: no cover - another numpy layout
+    def _cholesky_or_nan(m: np.ndarray) -> np.ndarray:
+        out = np.full(m.shape, np.nan)
+        for b in range(m.shape[0]):
+            try:
+                out[b] = np.linalg.cholesky(m[b])
+            except np.linalg.LinAlgError:
+                pass
+        return out
+
+    def _inv_raw(m: np.ndarray) -> np.ndarray:
+        return np.linalg.inv(m)
+
+
+def _cholesky(m: np.ndarray) -> np.ndarray:
+    """Lower Cholesky factors of a (B, n, n) stack, as :func:`numpy.linalg.cholesky` (raises if one fails)."""
+    with np.errstate(invalid="ignore"):
+        lc = _cholesky_or_nan(m)
+    if np.isnan(lc[:, -1, -1]).any():
+        raise np.linalg.LinAlgError("Matrix is not positive definite")
+    return lc
+
+
+def _inv_lower(lc: np.ndarray) -> np.ndarray:
+    """Inverses of a stack of Cholesky factors (non-singular: positive diagonals)."""
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        li = _inv_raw(lc)
+    if np.isnan(li[:, -1, -1]).any():
+        raise np.linalg.LinAlgError("Singular matrix")
+    return li
+
+
+def _positive_definite(m: np.ndarray) -> np.ndarray:
+    """Per matrix of a (B, n, n) stack: does its Cholesky factorisation exist (positive definite)?"""
+    with np.errstate(invalid="ignore"):
+        lc = _cholesky_or_nan(m)
+    return ~np.isnan(lc[:, -1, -1])
 
 
 def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: float = 20.0,
@@ -134,6 +162,11 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
     active = np.ones(nb, dtype=bool)
     good_d, good_t = d.copy(), t.copy()      # last well-centred iterate of each problem
     steps = np.zeros(nb, dtype=int)
+    # The factorisation at each problem's current iterate, kept from the last Newton
+    # iteration of a centring: the next centring (same iterate, larger t) starts from it
+    # instead of factorising the same matrix again.
+    c_lc, c_li, c_wm = np.empty((nb, n, n)), np.empty((nb, n, n)), np.empty((nb, n, n))
+    c_ok = np.zeros(nb, dtype=bool)
     while True:
         active &= steps < max_newton
         if not active.any():
@@ -143,11 +176,16 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
         lam2 = np.full(idx.size, np.inf)
         waiting = np.zeros(idx.size, dtype=bool)   # centred in this round: counts no more steps
         taken = np.zeros(idx.size, dtype=int)
+        cached = bool(c_ok[idx].all())
+        step = np.zeros(idx.size)
         for _ in range(40):
-            m = rr - dd[:, :, None] * eye
-            lc = np.linalg.cholesky(m)
-            li = np.linalg.inv(lc)
-            wm = li.transpose(0, 2, 1) @ li
+            if cached:
+                lc, li, wm = c_lc[idx], c_li[idx], c_wm[idx]
+                cached = False
+            else:
+                lc = _cholesky(rr - dd[:, :, None] * eye)
+                li = _inv_lower(lc)
+                wm = li.transpose(0, 2, 1) @ li
             g = -tt[:, None] * ww + wm.diagonal(axis1=1, axis2=2) - 1.0 / dd
             # Newton system scaled by diag(d): (d W d) o (d W d) + I is well conditioned
             # even when some d_j -> 0.
@@ -174,6 +212,7 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
             done = lam2 <= 1e-8
             waiting |= done
             if done.all():
+                step = np.zeros(idx.size)
                 break
             going = ~done
             # Inside the Dikin ellipsoid (lam2 < 1/4) the full Newton step is
@@ -204,11 +243,14 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
                 for _ in range(50):
                     k = np.flatnonzero(todo)
                     dn = ddd[k] + s[k, None] * dxd[k]
-                    ev = np.linalg.eigvalsh(rd[k] - dn[:, :, None] * eye)
-                    ok = (ev[:, 0] > 0) & np.all(dn > 0, axis=1)
                     with np.errstate(invalid="ignore", divide="ignore"):
+                        # log det by a Cholesky factorisation, which also decides
+                        # definiteness (a failed factorisation is all NaN)
+                        ld = np.log(np.diagonal(_cholesky_or_nan(rd[k] - dn[:, :, None] * eye),
+                                                axis1=1, axis2=2))
+                        ok = np.isfinite(ld).all(axis=1) & np.all(dn > 0, axis=1)
                         f1 = (-tdd[k] * np.sum(wdd[k] * dn, axis=1)
-                              - np.sum(np.log(np.where(ok[:, None], ev, 1.0)), axis=1)
+                              - 2.0 * np.sum(np.where(ok[:, None], ld, 0.0), axis=1)
                               - np.sum(np.log(np.where(ok[:, None], dn, 1.0)), axis=1))
                     ok &= f1 <= f0[k] - 0.01 * s[k] * lam2[damp][k]
                     todo[k[ok]] = False
@@ -218,6 +260,10 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
                 s[todo] = 0.0
                 step[damp] = s
             dd = dd + step[:, None] * dx
+        # the last factorisation is still that of the iterate where no step was taken
+        fresh = step == 0.0
+        c_lc[idx[fresh]], c_li[idx[fresh]], c_wm[idx[fresh]] = lc[fresh], li[fresh], wm[fresh]
+        c_ok[idx] = fresh
         steps[idx] += taken
         # Centring that has not converged goes on at the same t, except at large
         # t, where the cause is rounding (R - D singular to working precision):
@@ -225,6 +271,7 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
         centred = lam2 <= 1e-6
         stuck = ~centred & (tt >= 1e8)
         d[idx] = np.where(stuck[:, None], good_d[idx], dd)
+        c_ok[idx[stuck]] = False
         t[idx] = np.where(stuck, good_t[idx], tt)
         good_d[idx[centred]], good_t[idx[centred]] = dd[centred], tt[centred]
         value = np.abs(np.sum(ww * d[idx], axis=1))
