@@ -159,6 +159,9 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
     d = bound / (2.0 * n)
     t = np.ones(nb)
     eye = np.eye(n)
+    if nb == 1:
+        d1, t1, s1 = _barrier_one(rs[0], wn[0], d[0], float(tol[0]), float(wd_scale[0]), mu, max_newton)
+        return d1[None, :], np.array([2.0 * n / t1 * wscale[0]]), np.array([s1])
     active = np.ones(nb, dtype=bool)
     good_d, good_t = d.copy(), t.copy()      # last well-centred iterate of each problem
     steps = np.zeros(nb, dtype=int)
@@ -284,6 +287,100 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
     # from the bounds d > 0); rescale to the caller's weights.
     gap = 2.0 * n / t * wscale
     return d, gap, steps
+
+
+def _barrier_one(r: np.ndarray, wn: np.ndarray, d: np.ndarray, tol: float, wd_scale: float, mu: float,
+                 max_newton: int) -> tuple[np.ndarray, float, int]:
+    """:func:`_barrier_batch` of one problem, without the bookkeeping of a stack.
+
+    The same arithmetic on the same numbers in the same order (one row of
+    the stack as a vector; tests/analysis/test_frisch_barrier.py checks the
+    iterates bit for bit against the stacked form): a solve of one problem,
+    the commonest case (every minimum-trace solve, every descent from one
+    point), costs about half the Python-level work. ``wn`` are the scaled
+    weights, ``d`` the start; returns ``(d, t, steps)``.
+    """
+    n = r.shape[0]
+    eye = np.eye(n)
+    t = 1.0
+    good_d, good_t = d, t
+    steps = 0
+    cache = None                 # factorisation at ``d``, from the last iteration of a centring
+    while steps < max_newton:
+        dd, tt = d, t
+        lam2 = np.inf
+        taken = 0
+        step = 0.0
+        for _ in range(40):
+            if cache is not None:
+                lc, li, wm = cache
+                cache = None
+            else:
+                lc = _cholesky((r - dd[:, None] * eye)[None])[0]
+                li = _inv_lower(lc[None])[0]
+                wm = (li.T[None] @ li[None])[0]
+            g = -tt * wn + wm.diagonal() - 1.0 / dd
+            h = dd[:, None] * (wm * wm) * dd[None, :] + eye
+            rhs = dd * g
+            try:
+                y = np.linalg.solve(h[None], rhs[None, :, None])[0, :, 0]
+            except np.linalg.LinAlgError:
+                y = np.linalg.lstsq(h, dd * g, rcond=None)[0]
+            dx = -dd * y
+            lam2 = -(g * dx).sum()
+            if not np.isfinite(lam2):
+                dx = np.zeros(n)
+                lam2 = 0.0
+            taken += 1
+            if lam2 <= 1e-8:
+                step = 0.0
+                break
+            step = 1.0
+            full_ok = False
+            if lam2 < 0.25:
+                dq = dd + dx
+                full_ok = bool(_positive_definite((r - dq[:, None] * eye)[None])[0]) and bool((dq > 0).all())
+            if not full_ok:
+                gm = (li[None] * dx[None, None, :]) @ li.T[None]
+                emax = np.linalg.eigvalsh(gm)[0, -1]
+                smax = 1.0 / emax if emax > 0 else np.inf
+                neg = dx < 0
+                if neg.any():
+                    smax = min(smax, float((-dd[neg] / dx[neg]).min()))
+                s = min(1.0, 0.95 * smax)
+                f0 = (-tt * np.sum(wn * dd) - 2.0 * np.sum(np.log(lc.diagonal())) - np.sum(np.log(dd)))
+                ok = False
+                for _ in range(50):
+                    dn = dd + s * dx
+                    with np.errstate(invalid="ignore", divide="ignore"):
+                        ld = np.log(_cholesky_or_nan((r - dn[:, None] * eye)[None])[0].diagonal())
+                    ok = bool(np.isfinite(ld).all()) and bool((dn > 0).all())
+                    if ok:
+                        f1 = -tt * np.sum(wn * dn) - 2.0 * np.sum(ld) - np.sum(np.log(dn))
+                        ok = bool(f1 <= f0 - 0.01 * s * lam2)
+                    if ok:
+                        break
+                    s *= 0.5
+                step = s if ok else 0.0
+            dd = dd + step * dx
+        steps += taken
+        centred = lam2 <= 1e-6
+        stuck = not centred and tt >= 1e8
+        if stuck:
+            d, t = good_d, good_t
+        else:
+            d, t = dd, tt
+            if step == 0.0:
+                cache = (lc, li, wm)
+        if centred:
+            good_d, good_t = dd, tt
+        value = abs(np.sum(wn * d))
+        rel_gap = 2.0 * n / t / max(value, 1e-3 * wd_scale)
+        if stuck or (centred and (rel_gap <= tol or t * mu > 1e13)):
+            break
+        if centred:
+            t *= mu
+    return d, t, steps
 
 
 def _barrier_trace(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10,
