@@ -149,11 +149,13 @@ def profile(quick: bool) -> None:
         return out
 
     def c_barrier(*a, **k):
-        return count(barrier(*a, **k), time.process_time())
+        t0 = time.process_time()
+        return count(barrier(*a, **k), t0)
 
     def c_trace(*a, **k):
         phase[0] = "minimum trace"
-        return count(trace(*a, **k), time.process_time())
+        t0 = time.process_time()
+        return count(trace(*a, **k), t0)
 
     def c_descend_many(req, q, **k):
         if phase[0] == "minimum trace" or phase[0].startswith("corank"):
