@@ -80,6 +80,7 @@ try:    # the gufuncs behind numpy.linalg, without its per-call checks (same LAP
 
     def _inv_raw(m: np.ndarray) -> np.ndarray:
         return _ul.inv(m, signature="d->d")
+    _RAW = True
 except (ImportError, AttributeError):        # pragma: no cover - another numpy layout
     def _cholesky_or_nan(m: np.ndarray) -> np.ndarray:
         out = np.full(m.shape, np.nan)
@@ -90,26 +91,33 @@ except (ImportError, AttributeError):        # pragma: no cover - another numpy 
                 pass
         return out
 
-    def _inv_raw(m: np.ndarray) -> np.ndarray:
-        return np.linalg.inv(m)
+    _inv_raw = np.linalg.inv
+    _RAW = False
+
+
+def _not_positive_definite(err: str, flag: int) -> None:
+    raise np.linalg.LinAlgError("Matrix is not positive definite")
+
+
+def _singular(err: str, flag: int) -> None:
+    raise np.linalg.LinAlgError("Singular matrix")
 
 
 def _cholesky(m: np.ndarray) -> np.ndarray:
-    """Lower Cholesky factors of a (B, n, n) stack, as :func:`numpy.linalg.cholesky` (raises if one fails)."""
-    with np.errstate(invalid="ignore"):
-        lc = _cholesky_or_nan(m)
-    if np.isnan(lc[:, -1, -1]).any():
-        raise np.linalg.LinAlgError("Matrix is not positive definite")
-    return lc
+    """Lower Cholesky factors of a (B, n, n) stack; raises as :func:`numpy.linalg.cholesky` does."""
+    with np.errstate(call=_not_positive_definite, invalid="call", over="ignore", divide="ignore",
+                     under="ignore"):
+        return _cholesky_or_nan(m)
 
 
 def _inv_lower(lc: np.ndarray) -> np.ndarray:
-    """Inverses of a stack of Cholesky factors (non-singular: positive diagonals)."""
-    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
-        li = _inv_raw(lc)
-    if np.isnan(li[:, -1, -1]).any():
-        raise np.linalg.LinAlgError("Singular matrix")
-    return li
+    """Inverses of a stack of Cholesky factors; raises as :func:`numpy.linalg.inv` does."""
+    with np.errstate(call=_singular, invalid="call", over="ignore", divide="ignore", under="ignore"):
+        return _inv_raw(lc)
+
+
+if not _RAW:                                 # pragma: no cover - another numpy layout
+    _cholesky, _inv_lower = np.linalg.cholesky, np.linalg.inv
 
 
 def _positive_definite(m: np.ndarray) -> np.ndarray:
