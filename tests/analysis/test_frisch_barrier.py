@@ -22,7 +22,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from _barrier_reference import _barrier_batch as _reference_batch  # noqa: E402
 
 from relspan.analysis.frisch.mintrace import (  # noqa: E402
-    _barrier_batch, _cholesky, _positive_definite, _regularised)
+    _barrier_batch, _cholesky, _cholesky_or_nan, _regularised)
 
 
 def _correlations(seed: int, n: int, k: int, b: int, rows: int) -> np.ndarray:
@@ -58,7 +58,7 @@ class TestSameIterates:
 
 
 class TestFactorisationHelpers:
-    def test_positive_definite_agrees_with_numpy_cholesky_per_matrix(self):
+    def test_a_failed_factorisation_is_all_nan_exactly_where_numpy_cholesky_fails(self):
         rng = np.random.default_rng(3)
         a = rng.standard_normal((40, 5, 5))
         m = a @ a.transpose(0, 2, 1) - rng.uniform(0.0, 2.0, (40, 1, 1)) * np.eye(5)
@@ -70,7 +70,10 @@ class TestFactorisationHelpers:
             except np.linalg.LinAlgError:
                 expected.append(False)
         assert 0 < sum(expected) < 40
-        assert _positive_definite(m).tolist() == expected
+        with np.errstate(invalid="ignore"):
+            lc = _cholesky_or_nan(m)
+        assert (~np.isnan(lc[:, -1, -1])).tolist() == expected
+        assert np.isnan(lc[~np.array(expected)]).all()
 
     def test_cholesky_raises_like_numpy_when_one_matrix_is_not_positive_definite(self):
         m = np.stack([np.eye(3), np.diag([1.0, -1.0, 1.0])])

@@ -120,13 +120,6 @@ if not _RAW:                                 # pragma: no cover - another numpy 
     _cholesky, _inv_lower = np.linalg.cholesky, np.linalg.inv
 
 
-def _positive_definite(m: np.ndarray) -> np.ndarray:
-    """Per matrix of a (B, n, n) stack: does its Cholesky factorisation exist (positive definite)?"""
-    with np.errstate(invalid="ignore"):
-        lc = _cholesky_or_nan(m)
-    return ~np.isnan(lc[:, -1, -1])
-
-
 def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: float = 20.0,
                    max_newton: int = 400):
     """Log-barrier Newton method for ``max w_b'd s.t. R_b - diag(d) PD, d > 0``, many problems at once.
@@ -177,7 +170,8 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
     # iteration of a centring: the next centring (same iterate, larger t) starts from it
     # instead of factorising the same matrix again.
     c_lc, c_li, c_wm = np.empty((nb, n, n)), np.empty((nb, n, n)), np.empty((nb, n, n))
-    c_ok = np.zeros(nb, dtype=bool)
+    c_ok = np.zeros(nb, dtype=bool)            # c_li, c_wm hold the current iterate's
+    c_lc_ok = np.zeros(nb, dtype=bool)         # c_lc holds the current iterate's
     while True:
         active &= steps < max_newton
         if not active.any():
@@ -188,13 +182,16 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
         waiting = np.zeros(idx.size, dtype=bool)   # centred in this round: counts no more steps
         taken = np.zeros(idx.size, dtype=int)
         cached = bool(c_ok[idx].all())
+        # The Cholesky factor at each row's next iterate: the check of a full step and the
+        # line search factorise exactly the matrix of the iterate they accept.
+        lc_next = c_lc[idx] if c_lc_ok[idx].all() else None
         step = np.zeros(idx.size)
         for _ in range(40):
             if cached:
                 lc, li, wm = c_lc[idx], c_li[idx], c_wm[idx]
                 cached = False
             else:
-                lc = _cholesky(rr - dd[:, :, None] * eye)
+                lc = _cholesky(rr - dd[:, :, None] * eye) if lc_next is None else lc_next
                 li = _inv_lower(lc)
                 wm = li.transpose(0, 2, 1) @ li
             g = -tt[:, None] * ww + wm.diagonal(axis1=1, axis2=2) - 1.0 / dd
@@ -224,6 +221,7 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
             waiting |= done
             if done.all():
                 step = np.zeros(idx.size)
+                lc_next = lc
                 break
             going = ~done
             # Inside the Dikin ellipsoid (lam2 < 1/4) the full Newton step is
@@ -231,11 +229,16 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
             # Rounding can still break that when R - D is nearly singular, so
             # every full step is checked before it is taken.
             step = np.where(done, 0.0, 1.0)
+            lc_next = lc.copy()                 # rows that do not move keep theirs
             quad = ((lam2 < 0.25) & going).nonzero()[0]
             full_ok = np.zeros(dd.shape[0], dtype=bool)
             if quad.size:
                 dq = dd[quad] + dx[quad]
-                full_ok[quad] = _positive_definite(rr[quad] - dq[:, :, None] * eye) & (dq > 0).all(axis=1)
+                with np.errstate(invalid="ignore"):
+                    fq = _cholesky_or_nan(rr[quad] - dq[:, :, None] * eye)
+                okq = ~np.isnan(fq[:, -1, -1]) & (dq > 0).all(axis=1)
+                full_ok[quad] = okq
+                lc_next[quad[okq]] = fq[okq]
             damp = (going & ~full_ok).nonzero()[0]
             if damp.size:
                 lid, dxd, ddd, rd = li[damp], dx[damp], dd[damp], rr[damp]
@@ -257,14 +260,15 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
                     with np.errstate(invalid="ignore", divide="ignore"):
                         # log det by a Cholesky factorisation, which also decides
                         # definiteness (a failed factorisation is all NaN)
-                        ld = np.log(np.diagonal(_cholesky_or_nan(rd[k] - dn[:, :, None] * eye),
-                                                axis1=1, axis2=2))
+                        fk = _cholesky_or_nan(rd[k] - dn[:, :, None] * eye)
+                        ld = np.log(np.diagonal(fk, axis1=1, axis2=2))
                         ok = np.isfinite(ld).all(axis=1) & np.all(dn > 0, axis=1)
                         f1 = (-tdd[k] * np.sum(wdd[k] * dn, axis=1)
                               - 2.0 * np.sum(np.where(ok[:, None], ld, 0.0), axis=1)
                               - np.sum(np.log(np.where(ok[:, None], dn, 1.0)), axis=1))
                     ok &= f1 <= f0[k] - 0.01 * s[k] * lam2[damp][k]
                     todo[k[ok]] = False
+                    lc_next[damp[k[ok]]] = fk[ok]
                     if not todo.any():
                         break
                     s[k[~ok]] *= 0.5
@@ -273,8 +277,10 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
             dd = dd + step[:, None] * dx
         # the last factorisation is still that of the iterate where no step was taken
         fresh = step == 0.0
-        c_lc[idx[fresh]], c_li[idx[fresh]], c_wm[idx[fresh]] = lc[fresh], li[fresh], wm[fresh]
+        c_li[idx[fresh]], c_wm[idx[fresh]] = li[fresh], wm[fresh]
         c_ok[idx] = fresh
+        c_lc[idx] = lc_next
+        c_lc_ok[idx] = True
         steps[idx] += taken
         # Centring that has not converged goes on at the same t, except at large
         # t, where the cause is rounding (R - D singular to working precision):
@@ -283,6 +289,7 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
         stuck = ~centred & (tt >= 1e8)
         d[idx] = np.where(stuck[:, None], good_d[idx], dd)
         c_ok[idx[stuck]] = False
+        c_lc_ok[idx[stuck]] = False
         t[idx] = np.where(stuck, good_t[idx], tt)
         good_d[idx[centred]], good_t[idx[centred]] = dd[centred], tt[centred]
         value = np.abs(np.sum(ww * d[idx], axis=1))
@@ -314,6 +321,7 @@ def _barrier_one(r: np.ndarray, wn: np.ndarray, d: np.ndarray, tol: float, wd_sc
     good_d, good_t = d, t
     steps = 0
     cache = None                 # factorisation at ``d``, from the last iteration of a centring
+    lc_next = None               # Cholesky factor at ``d`` (from the check of the step that led there)
     while steps < max_newton:
         dd, tt = d, t
         lam2 = np.inf
@@ -324,7 +332,7 @@ def _barrier_one(r: np.ndarray, wn: np.ndarray, d: np.ndarray, tol: float, wd_sc
                 lc, li, wm = cache
                 cache = None
             else:
-                lc = _cholesky((r - dd[:, None] * eye)[None])[0]
+                lc = _cholesky((r - dd[:, None] * eye)[None])[0] if lc_next is None else lc_next
                 li = _inv_lower(lc[None])[0]
                 wm = (li.T[None] @ li[None])[0]
             g = -tt * wn + wm.diagonal() - 1.0 / dd
@@ -342,12 +350,18 @@ def _barrier_one(r: np.ndarray, wn: np.ndarray, d: np.ndarray, tol: float, wd_sc
             taken += 1
             if lam2 <= 1e-8:
                 step = 0.0
+                lc_next = lc
                 break
             step = 1.0
             full_ok = False
+            lc_next = lc
             if lam2 < 0.25:
                 dq = dd + dx
-                full_ok = bool(_positive_definite((r - dq[:, None] * eye)[None])[0]) and bool((dq > 0).all())
+                with np.errstate(invalid="ignore"):
+                    fq = _cholesky_or_nan((r - dq[:, None] * eye)[None])[0]
+                full_ok = not np.isnan(fq[-1, -1]) and bool((dq > 0).all())
+                if full_ok:
+                    lc_next = fq
             if not full_ok:
                 gm = (li[None] * dx[None, None, :]) @ li.T[None]
                 emax = np.linalg.eigvalsh(gm)[0, -1]
@@ -361,12 +375,14 @@ def _barrier_one(r: np.ndarray, wn: np.ndarray, d: np.ndarray, tol: float, wd_sc
                 for _ in range(50):
                     dn = dd + s * dx
                     with np.errstate(invalid="ignore", divide="ignore"):
-                        ld = np.log(_cholesky_or_nan((r - dn[:, None] * eye)[None])[0].diagonal())
+                        fk = _cholesky_or_nan((r - dn[:, None] * eye)[None])[0]
+                        ld = np.log(fk.diagonal())
                     ok = bool(np.isfinite(ld).all()) and bool((dn > 0).all())
                     if ok:
                         f1 = -tt * np.sum(wn * dn) - 2.0 * np.sum(ld) - np.sum(np.log(dn))
                         ok = bool(f1 <= f0 - 0.01 * s * lam2)
                     if ok:
+                        lc_next = fk
                         break
                     s *= 0.5
                 step = s if ok else 0.0
@@ -376,6 +392,7 @@ def _barrier_one(r: np.ndarray, wn: np.ndarray, d: np.ndarray, tol: float, wd_sc
         stuck = not centred and tt >= 1e8
         if stuck:
             d, t = good_d, good_t
+            lc_next = None
         else:
             d, t = dd, tt
             if step == 0.0:
