@@ -4,6 +4,7 @@ Run (prints tables and ratios; asserts nothing)::
 
     python benchmarks/bench_frisch.py [window] [--quick]   # per window, n = 4..10, beside CLARABEL
     python benchmarks/bench_frisch.py resamples [--quick]  # the resampling path, stacked vs one at a time
+    python benchmarks/bench_frisch.py profile [--quick]    # where one window's Newton steps go, by phase
     python benchmarks/bench_frisch.py answers PATH         # every answer on 200 cases, written to PATH
     python benchmarks/bench_frisch.py compare OLD NEW      # two such files: which cases differ, and how
 
@@ -27,6 +28,15 @@ beside one call per resample (``diagonal_corank_of``), interleaved, with a
 check that both give the same coranks and certificates; per resample, the
 ratio to one CLARABEL solve. Then :func:`frisch_corank_stack` (warm-started
 from the estimate) per resample.
+
+``profile``: the same windows as ``window``, each analysed with the barrier
+solver and the searches wrapped by counters (the analysis itself is not
+changed): per window, the lockstep Newton steps (one step of a stacked solve
+counts once, however many problems it carries) and the CPU milliseconds
+spent in barrier solves, by phase: the minimum-trace solve; the corank
+search from its best point, from the random starts, and on ``R + eps I``;
+the spread search's starts (and their ``R + eps I`` retry) and its walkers.
+The counters' own cost is included in the CPU figures.
 
 ``answers`` / ``compare``: the before/after check of issue 15 (every
 certificate and verdict kept). 200 seeded cases (n = 4..10; structured, some
@@ -115,6 +125,85 @@ def window(quick: bool) -> None:
     for kind, r in all_ratios.items():
         print(f"median ratio, {kind}: {statistics.median(r):.2f}  (max {max(r):.2f})")
     print(f"median ratio, all: {statistics.median(all_ratios['structured'] + all_ratios['unstructured']):.2f}")
+
+
+def profile(quick: bool) -> None:
+    """Where the lockstep Newton steps of one window's analysis go, by phase (means per window)."""
+    import collections
+    from unittest import mock
+
+    import relspan.analysis.frisch.analysis as an
+    import relspan.analysis.frisch.corank as co
+    import relspan.analysis.frisch.minrank as mr
+
+    reps = 3 if quick else 9
+    phase = ["?"]
+    acc: dict = collections.defaultdict(lambda: [0, 0.0])
+    barrier, trace, descend_many = mr._barrier_batch, co._barrier_trace, mr._descend_many
+    descend, walk, spread = mr._Searcher.descend, mr._Searcher.walk, an.solution_spread
+
+    def count(out, t0):
+        a = acc[phase[0]]
+        a[0] += int(np.max(out[2]))
+        a[1] += time.process_time() - t0
+        return out
+
+    def c_barrier(*a, **k):
+        t0 = time.process_time()
+        return count(barrier(*a, **k), t0)
+
+    def c_trace(*a, **k):
+        phase[0] = "minimum trace"
+        t0 = time.process_time()
+        return count(trace(*a, **k), t0)
+
+    def c_descend_many(req, q, **k):
+        if phase[0] == "minimum trace" or phase[0].startswith("corank"):
+            rows = sum(np.atleast_2d(d).shape[0] for _, d in req)
+            phase[0] = "corank: " + ("R + eps I" if req[0][0].cert_r is not req[0][0].r
+                                     else "best point" if rows == 1 else "random starts")
+        return descend_many(req, q, **k)
+
+    def c_descend(self, q, d0, **k):
+        if phase[0].startswith("spread: starts"):
+            phase[0] = "spread: starts" + (" (R + eps I)" if self.cert_r is not self.r else "")
+        return descend(self, q, d0, **k)
+
+    def c_walk(self, *a, **k):
+        phase[0] = "spread: walkers"
+        return walk(self, *a, **k)
+
+    def c_spread(*a, **k):
+        phase[0] = "spread: starts"
+        return spread(*a, **k)
+
+    order = ["minimum trace", "corank: best point", "corank: random starts", "corank: R + eps I",
+             "spread: starts", "spread: starts (R + eps I)", "spread: walkers"]
+    print("Lockstep Newton steps per window (CPU ms in barrier solves), means over "
+          f"{reps} windows per row, tolerance 0.01:")
+    print(f"{'case':<18}{'total':>13}" + "".join(f"  {p}" for p in order))
+    with mock.patch.object(mr, "_barrier_batch", c_barrier), mock.patch.object(co, "_barrier_trace", c_trace), \
+            mock.patch.object(mr, "_descend_many", c_descend_many), \
+            mock.patch.object(co, "_descend_many", c_descend_many), \
+            mock.patch.object(mr._Searcher, "descend", c_descend), mock.patch.object(mr._Searcher, "walk", c_walk), \
+            mock.patch.object(an, "solution_spread", c_spread):
+        for kind, make in (("structured", _structured), ("unstructured", _unstructured)):
+            for n in range(4, 11):
+                tot: dict = collections.defaultdict(lambda: [0, 0.0])
+                cpu = 0.0
+                for seed in range(reps):
+                    acc.clear()
+                    phase[0] = "?"
+                    t0 = time.process_time()
+                    frisch_analysis(make(n, seed), eps=0.01)
+                    cpu += time.process_time() - t0
+                    for key, (st, ms) in acc.items():
+                        tot[key][0] += st
+                        tot[key][1] += ms
+                steps = sum(v[0] for v in tot.values()) / reps
+                cells = "".join(f"  {tot[p][0] / reps:.0f} ({1e3 * tot[p][1] / reps:.0f})".rjust(len(p) + 2)
+                                for p in order)
+                print(f"{kind[:5] + ' n=' + str(n):<18}{steps:>6.0f} ({1e3 * cpu / reps:>4.0f})" + cells)
 
 
 def _resample_stack(n: int, rows: int, b: int, rng: np.random.Generator) -> np.ndarray:
@@ -259,7 +348,7 @@ def compare(old: str, new: str) -> None:
 
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", nargs="?", default="window", choices=["window", "resamples", "answers", "compare"])
+    ap.add_argument("what", nargs="?", default="window", choices=["window", "resamples", "profile", "answers", "compare"])
     ap.add_argument("paths", nargs="*")
     ap.add_argument("--quick", action="store_true", help="fewer windows per row")
     a = ap.parse_args()
@@ -267,6 +356,8 @@ def main() -> None:
         window(a.quick)
     elif a.what == "resamples":
         resamples(a.quick)
+    elif a.what == "profile":
+        profile(a.quick)
     elif a.what == "answers":
         answers(a.paths[0])
     else:

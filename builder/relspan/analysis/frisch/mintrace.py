@@ -71,24 +71,53 @@ class MinimumTrace:
         return fields_dict(self)
 
 
-def _positive_definite(m: np.ndarray) -> np.ndarray:
-    """Per matrix of a (B, n, n) stack: does its Cholesky factorisation exist (positive definite)?
+try:    # the gufuncs behind numpy.linalg, without its per-call checks (same LAPACK calls, same bits)
+    from numpy.linalg import _umath_linalg as _ul
 
-    One batched factorisation; only when one of them fails, each alone.
-    """
-    try:
-        np.linalg.cholesky(m)
-        return np.ones(m.shape[0], dtype=bool)
-    except np.linalg.LinAlgError:
-        pass
-    ok = np.zeros(m.shape[0], dtype=bool)
-    for b in range(m.shape[0]):
-        try:
-            np.linalg.cholesky(m[b])
-            ok[b] = True
-        except np.linalg.LinAlgError:
-            pass
-    return ok
+    def _cholesky_or_nan(m: np.ndarray) -> np.ndarray:
+        """Lower Cholesky factors of a (B, n, n) stack; a matrix that is not positive definite gets NaNs."""
+        return _ul.cholesky_lo(m, signature="d->d")
+
+    def _inv_raw(m: np.ndarray) -> np.ndarray:
+        return _ul.inv(m, signature="d->d")
+    _RAW = True
+except (ImportError, AttributeError):        # pragma: no cover - another numpy layout
+    def _cholesky_or_nan(m: np.ndarray) -> np.ndarray:
+        out = np.full(m.shape, np.nan)
+        for b in range(m.shape[0]):
+            try:
+                out[b] = np.linalg.cholesky(m[b])
+            except np.linalg.LinAlgError:
+                pass
+        return out
+
+    _inv_raw = np.linalg.inv
+    _RAW = False
+
+
+def _not_positive_definite(err: str, flag: int) -> None:
+    raise np.linalg.LinAlgError("Matrix is not positive definite")
+
+
+def _singular(err: str, flag: int) -> None:
+    raise np.linalg.LinAlgError("Singular matrix")
+
+
+def _cholesky(m: np.ndarray) -> np.ndarray:
+    """Lower Cholesky factors of a (B, n, n) stack; raises as :func:`numpy.linalg.cholesky` does."""
+    with np.errstate(call=_not_positive_definite, invalid="call", over="ignore", divide="ignore",
+                     under="ignore"):
+        return _cholesky_or_nan(m)
+
+
+def _inv_lower(lc: np.ndarray) -> np.ndarray:
+    """Inverses of a stack of Cholesky factors; raises as :func:`numpy.linalg.inv` does."""
+    with np.errstate(call=_singular, invalid="call", over="ignore", divide="ignore", under="ignore"):
+        return _inv_raw(lc)
+
+
+if not _RAW:                                 # pragma: no cover - another numpy layout
+    _cholesky, _inv_lower = np.linalg.cholesky, np.linalg.inv
 
 
 def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: float = 20.0,
@@ -131,9 +160,18 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
     d = bound / (2.0 * n)
     t = np.ones(nb)
     eye = np.eye(n)
+    if nb == 1:
+        d1, t1, s1 = _barrier_one(rs[0], wn[0], d[0], float(tol[0]), float(wd_scale[0]), mu, max_newton)
+        return d1[None, :], np.array([2.0 * n / t1 * wscale[0]]), np.array([s1])
     active = np.ones(nb, dtype=bool)
     good_d, good_t = d.copy(), t.copy()      # last well-centred iterate of each problem
     steps = np.zeros(nb, dtype=int)
+    # The factorisation at each problem's current iterate, kept from the last Newton
+    # iteration of a centring: the next centring (same iterate, larger t) starts from it
+    # instead of factorising the same matrix again.
+    c_lc, c_li, c_wm = np.empty((nb, n, n)), np.empty((nb, n, n)), np.empty((nb, n, n))
+    c_ok = np.zeros(nb, dtype=bool)            # c_li, c_wm hold the current iterate's
+    c_lc_ok = np.zeros(nb, dtype=bool)         # c_lc holds the current iterate's
     while True:
         active &= steps < max_newton
         if not active.any():
@@ -143,11 +181,19 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
         lam2 = np.full(idx.size, np.inf)
         waiting = np.zeros(idx.size, dtype=bool)   # centred in this round: counts no more steps
         taken = np.zeros(idx.size, dtype=int)
+        cached = bool(c_ok[idx].all())
+        # The Cholesky factor at each row's next iterate: the check of a full step and the
+        # line search factorise exactly the matrix of the iterate they accept.
+        lc_next = c_lc[idx] if c_lc_ok[idx].all() else None
+        step = np.zeros(idx.size)
         for _ in range(40):
-            m = rr - dd[:, :, None] * eye
-            lc = np.linalg.cholesky(m)
-            li = np.linalg.inv(lc)
-            wm = li.transpose(0, 2, 1) @ li
+            if cached:
+                lc, li, wm = c_lc[idx], c_li[idx], c_wm[idx]
+                cached = False
+            else:
+                lc = _cholesky(rr - dd[:, :, None] * eye) if lc_next is None else lc_next
+                li = _inv_lower(lc)
+                wm = li.transpose(0, 2, 1) @ li
             g = -tt[:, None] * ww + wm.diagonal(axis1=1, axis2=2) - 1.0 / dd
             # Newton system scaled by diag(d): (d W d) o (d W d) + I is well conditioned
             # even when some d_j -> 0.
@@ -174,6 +220,8 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
             done = lam2 <= 1e-8
             waiting |= done
             if done.all():
+                step = np.zeros(idx.size)
+                lc_next = lc
                 break
             going = ~done
             # Inside the Dikin ellipsoid (lam2 < 1/4) the full Newton step is
@@ -181,11 +229,16 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
             # Rounding can still break that when R - D is nearly singular, so
             # every full step is checked before it is taken.
             step = np.where(done, 0.0, 1.0)
+            lc_next = lc.copy()                 # rows that do not move keep theirs
             quad = ((lam2 < 0.25) & going).nonzero()[0]
             full_ok = np.zeros(dd.shape[0], dtype=bool)
             if quad.size:
                 dq = dd[quad] + dx[quad]
-                full_ok[quad] = _positive_definite(rr[quad] - dq[:, :, None] * eye) & (dq > 0).all(axis=1)
+                with np.errstate(invalid="ignore"):
+                    fq = _cholesky_or_nan(rr[quad] - dq[:, :, None] * eye)
+                okq = ~np.isnan(fq[:, -1, -1]) & (dq > 0).all(axis=1)
+                full_ok[quad] = okq
+                lc_next[quad[okq]] = fq[okq]
             damp = (going & ~full_ok).nonzero()[0]
             if damp.size:
                 lid, dxd, ddd, rd = li[damp], dx[damp], dd[damp], rr[damp]
@@ -204,20 +257,30 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
                 for _ in range(50):
                     k = np.flatnonzero(todo)
                     dn = ddd[k] + s[k, None] * dxd[k]
-                    ev = np.linalg.eigvalsh(rd[k] - dn[:, :, None] * eye)
-                    ok = (ev[:, 0] > 0) & np.all(dn > 0, axis=1)
                     with np.errstate(invalid="ignore", divide="ignore"):
+                        # log det by a Cholesky factorisation, which also decides
+                        # definiteness (a failed factorisation is all NaN)
+                        fk = _cholesky_or_nan(rd[k] - dn[:, :, None] * eye)
+                        ld = np.log(np.diagonal(fk, axis1=1, axis2=2))
+                        ok = np.isfinite(ld).all(axis=1) & np.all(dn > 0, axis=1)
                         f1 = (-tdd[k] * np.sum(wdd[k] * dn, axis=1)
-                              - np.sum(np.log(np.where(ok[:, None], ev, 1.0)), axis=1)
+                              - 2.0 * np.sum(np.where(ok[:, None], ld, 0.0), axis=1)
                               - np.sum(np.log(np.where(ok[:, None], dn, 1.0)), axis=1))
                     ok &= f1 <= f0[k] - 0.01 * s[k] * lam2[damp][k]
                     todo[k[ok]] = False
+                    lc_next[damp[k[ok]]] = fk[ok]
                     if not todo.any():
                         break
                     s[k[~ok]] *= 0.5
                 s[todo] = 0.0
                 step[damp] = s
             dd = dd + step[:, None] * dx
+        # the last factorisation is still that of the iterate where no step was taken
+        fresh = step == 0.0
+        c_li[idx[fresh]], c_wm[idx[fresh]] = li[fresh], wm[fresh]
+        c_ok[idx] = fresh
+        c_lc[idx] = lc_next
+        c_lc_ok[idx] = True
         steps[idx] += taken
         # Centring that has not converged goes on at the same t, except at large
         # t, where the cause is rounding (R - D singular to working precision):
@@ -225,6 +288,8 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
         centred = lam2 <= 1e-6
         stuck = ~centred & (tt >= 1e8)
         d[idx] = np.where(stuck[:, None], good_d[idx], dd)
+        c_ok[idx[stuck]] = False
+        c_lc_ok[idx[stuck]] = False
         t[idx] = np.where(stuck, good_t[idx], tt)
         good_d[idx[centred]], good_t[idx[centred]] = dd[centred], tt[centred]
         value = np.abs(np.sum(ww * d[idx], axis=1))
@@ -237,6 +302,110 @@ def _barrier_batch(r: np.ndarray, w: np.ndarray, *, gap_tol: Any = 1e-10, mu: fl
     # from the bounds d > 0); rescale to the caller's weights.
     gap = 2.0 * n / t * wscale
     return d, gap, steps
+
+
+def _barrier_one(r: np.ndarray, wn: np.ndarray, d: np.ndarray, tol: float, wd_scale: float, mu: float,
+                 max_newton: int) -> tuple[np.ndarray, float, int]:
+    """:func:`_barrier_batch` of one problem, without the bookkeeping of a stack.
+
+    The same arithmetic on the same numbers in the same order (one row of
+    the stack as a vector; tests/analysis/test_frisch_barrier.py checks the
+    iterates bit for bit against the stacked form): a solve of one problem,
+    the commonest case (every minimum-trace solve, every descent from one
+    point), costs about half the Python-level work. ``wn`` are the scaled
+    weights, ``d`` the start; returns ``(d, t, steps)``.
+    """
+    n = r.shape[0]
+    eye = np.eye(n)
+    t = 1.0
+    good_d, good_t = d, t
+    steps = 0
+    cache = None                 # factorisation at ``d``, from the last iteration of a centring
+    lc_next = None               # Cholesky factor at ``d`` (from the check of the step that led there)
+    while steps < max_newton:
+        dd, tt = d, t
+        lam2 = np.inf
+        taken = 0
+        step = 0.0
+        for _ in range(40):
+            if cache is not None:
+                lc, li, wm = cache
+                cache = None
+            else:
+                lc = _cholesky((r - dd[:, None] * eye)[None])[0] if lc_next is None else lc_next
+                li = _inv_lower(lc[None])[0]
+                wm = (li.T[None] @ li[None])[0]
+            g = -tt * wn + wm.diagonal() - 1.0 / dd
+            h = dd[:, None] * (wm * wm) * dd[None, :] + eye
+            rhs = dd * g
+            try:
+                y = np.linalg.solve(h[None], rhs[None, :, None])[0, :, 0]
+            except np.linalg.LinAlgError:
+                y = np.linalg.lstsq(h, dd * g, rcond=None)[0]
+            dx = -dd * y
+            lam2 = -(g * dx).sum()
+            if not np.isfinite(lam2):
+                dx = np.zeros(n)
+                lam2 = 0.0
+            taken += 1
+            if lam2 <= 1e-8:
+                step = 0.0
+                lc_next = lc
+                break
+            step = 1.0
+            full_ok = False
+            lc_next = lc
+            if lam2 < 0.25:
+                dq = dd + dx
+                with np.errstate(invalid="ignore"):
+                    fq = _cholesky_or_nan((r - dq[:, None] * eye)[None])[0]
+                full_ok = not np.isnan(fq[-1, -1]) and bool((dq > 0).all())
+                if full_ok:
+                    lc_next = fq
+            if not full_ok:
+                gm = (li[None] * dx[None, None, :]) @ li.T[None]
+                emax = np.linalg.eigvalsh(gm)[0, -1]
+                smax = 1.0 / emax if emax > 0 else np.inf
+                neg = dx < 0
+                if neg.any():
+                    smax = min(smax, float((-dd[neg] / dx[neg]).min()))
+                s = min(1.0, 0.95 * smax)
+                f0 = (-tt * np.sum(wn * dd) - 2.0 * np.sum(np.log(lc.diagonal())) - np.sum(np.log(dd)))
+                ok = False
+                for _ in range(50):
+                    dn = dd + s * dx
+                    with np.errstate(invalid="ignore", divide="ignore"):
+                        fk = _cholesky_or_nan((r - dn[:, None] * eye)[None])[0]
+                        ld = np.log(fk.diagonal())
+                    ok = bool(np.isfinite(ld).all()) and bool((dn > 0).all())
+                    if ok:
+                        f1 = -tt * np.sum(wn * dn) - 2.0 * np.sum(ld) - np.sum(np.log(dn))
+                        ok = bool(f1 <= f0 - 0.01 * s * lam2)
+                    if ok:
+                        lc_next = fk
+                        break
+                    s *= 0.5
+                step = s if ok else 0.0
+            dd = dd + step * dx
+        steps += taken
+        centred = lam2 <= 1e-6
+        stuck = not centred and tt >= 1e8
+        if stuck:
+            d, t = good_d, good_t
+            lc_next = None
+        else:
+            d, t = dd, tt
+            if step == 0.0:
+                cache = (lc, li, wm)
+        if centred:
+            good_d, good_t = dd, tt
+        value = abs(np.sum(wn * d))
+        rel_gap = 2.0 * n / t / max(value, 1e-3 * wd_scale)
+        if stuck or (centred and (rel_gap <= tol or t * mu > 1e13)):
+            break
+        if centred:
+            t *= mu
+    return d, t, steps
 
 
 def _barrier_trace(r: np.ndarray, w: np.ndarray, *, gap_tol: float = 1e-10,
