@@ -420,12 +420,18 @@ class HashingInput:
         if size == 0:
             if not self._ended:
                 self._ended = True
-                self._stream.check(b"", True)  # a character cut off at the end of the file
+                try:
+                    self._stream.check(b"", True)  # a character cut off at the end of the file
+                except DataError:
+                    raise OSError("the file is not UTF-8 text") from None
             return buf
         self._stream.sha.update(buf)
         self.bytes_read += size
         if self._stream.mid_character or int(np.frombuffer(buf, np.uint8).max()) >= 0x80:
-            self._stream.check(buf.to_pybytes(), False)  # ASCII is UTF-8: only other bytes are decoded
+            try:  # ASCII is UTF-8: only other bytes are decoded
+                self._stream.check(buf.to_pybytes(), False)
+            except DataError:  # the reference reader re-reads the file and locates the byte
+                raise OSError("the file is not UTF-8 text") from None
         return buf
 
     def read(self, nbytes: int = -1) -> bytes:
