@@ -11,6 +11,11 @@ Writes a CSV of invented numbers (seeded), then runs one of:
 Compare two modes side by side with an interleaving timer (A B A B ..., ratio per pair),
 e.g. ``... pass PATH`` against ``... bare PATH``; docs/performance.md records the ratios.
 Each mode prints one line (what it did and its own in-process time); nothing is asserted.
+
+``--repeat R`` runs the mode R more times in the same process after the first (imports and
+pyarrow's thread pool warm) and prints the CPU seconds (user + system of the whole process, all
+threads: ``time.process_time``) and wall seconds of each run and their medians: the cost of the
+pass itself, without the interpreter's start and the imports.
 """
 
 from __future__ import annotations
@@ -59,12 +64,28 @@ def main() -> None:
     ap.add_argument("--rows", type=int, default=1_000_000)
     ap.add_argument("--cols", type=int, default=6)
     ap.add_argument("--time", action="store_true")
+    ap.add_argument("--repeat", type=int, default=0)
     args = ap.parse_args()
     if args.mode == "write":
         write(args.path, args.rows, args.cols, args.time)
         print(f"wrote {args.path} ({args.path.stat().st_size / 1e6:.1f} MB)")
         return
     t = time.perf_counter()
+    what = _run(args)
+    print(f"{args.mode}: {what}; {time.perf_counter() - t:.3f} s in process", file=sys.stderr)
+    if args.repeat:
+        cpu, wall = [], []
+        for _ in range(args.repeat):
+            c, w = time.process_time(), time.perf_counter()
+            _run(args)
+            cpu.append(time.process_time() - c)
+            wall.append(time.perf_counter() - w)
+        print(f"{args.mode} repeated {args.repeat}x in process: CPU s "
+              f"{' '.join(f'{v:.3f}' for v in cpu)} (median {np.median(cpu):.3f}); wall s "
+              f"{' '.join(f'{v:.3f}' for v in wall)} (median {np.median(wall):.3f})")
+
+
+def _run(args) -> str:
     if args.mode == "bare":
         import pyarrow.csv as pacsv
 
@@ -95,7 +116,7 @@ def main() -> None:
         ds, plans = _spec(args.path)
         prep = prepare_dataset(ds, plans)
         what = f"prepare_dataset: {prep.rows_used} rows, {len(prep.blocks)} blocks, sha {prep.sha256[:12]}"
-    print(f"{args.mode}: {what}; {time.perf_counter() - t:.3f} s in process", file=sys.stderr)
+    return what
 
 
 if __name__ == "__main__":

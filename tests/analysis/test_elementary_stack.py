@@ -170,3 +170,38 @@ def test_window_analysis_from_a_precomputed_result_equals_computing_it():
         assert [str(w.message) for w in a] == [str(w.message) for w in b]
         assert given.coranks == computed.coranks
         _compare(given.elementary, computed.elementary)
+
+
+def test_stack_results_are_the_objects_the_keyword_constructor_builds():
+    """The stack fills each result's fields directly (for speed); it must be the same object."""
+    import dataclasses
+
+    rng = np.random.default_rng(11)
+    x = rng.normal(size=(400, 4)) + np.array([5.0, -2.0, 30.0, 0.5])
+    covs = np.stack([np.cov(x[a:a + 100], rowvar=False) for a in range(0, 300, 50)])
+    means = np.stack([x[a:a + 100].mean(axis=0) for a in range(0, 300, 50)])
+    got = elementary_regressions_stack(covs, names=list("abcd"), counts=[100] * len(covs), means=means)
+    for er in got:
+        fields = {f.name: getattr(er, f.name) for f in dataclasses.fields(er)}
+        rebuilt = type(er)(**fields)
+        for name, value in fields.items():
+            other = getattr(rebuilt, name)
+            if isinstance(value, np.ndarray):
+                assert np.array_equal(value, other), name
+            else:
+                assert value == other and type(value) is type(other), name
+        with pytest.raises(dataclasses.FrozenInstanceError):
+            er.rank = 0   # still frozen
+    with pytest.raises(TypeError):
+        elementary_module._complete(1, 2, 3)
+
+
+def test_singular_windows_take_their_null_vectors_from_the_smallest_eigenvalues():
+    """Rank from the eigenvalues alone; the exact relation from eigh's matching columns."""
+    rng = np.random.default_rng(12)
+    x = rng.normal(size=(200, 3))
+    x = np.column_stack([x, x[:, 0] - 2.0 * x[:, 2]])     # an exact relation: a - 2c - d = 0
+    one = elementary_regressions(np.cov(x, rowvar=False), names=list("abcd"))
+    assert one.rank == 3 and one.singular
+    a = one.exact_relations[0] / one.exact_relations[0][0]
+    assert np.allclose(a, [1.0, 0.0, -2.0, -1.0], atol=1e-9)

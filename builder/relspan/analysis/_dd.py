@@ -140,18 +140,29 @@ def exact_comoment(y: np.ndarray, ones: np.ndarray | None = None):
     if ones is None:
         ones = np.ones(length)
     m = np.matmul(ones, y) / length                    # (k, n) float mean
-    dh, dl = two_sum(y, -m[:, None, :])                # exact deviations dh + dl
-    mu = np.max(np.abs(dh), axis=1)                    # (k, n)
+    # exact deviations dh + dl = y - m (TwoSum, Knuth), in three (k, L, n) buffers reused in
+    # place: the same operations in the same order as two_sum(y, -m), so the same bits
+    neg = -m[:, None, :]
+    dh = np.add(y, neg)                                # s = y + (-m)
+    t = np.subtract(dh, y)                             # bb = s - y
+    dl = np.subtract(dh, t)                            # s - bb
+    np.subtract(y, dl, out=dl)                         # y - (s - bb)
+    np.subtract(neg, t, out=t)                         # (-m) - bb
+    np.add(dl, t, out=dl)                              # e
+    mu = np.max(np.abs(dh, out=t), axis=1)             # (k, n)
     _, ex = np.frexp(mu)
     # a * a products have <= 2 (52 - beta) bits; L of them must add up exactly in 53 bits
     beta = (53 + int(np.ceil(np.log2(max(length, 1)))) + 1) // 2 + 1
     with np.errstate(over="ignore", invalid="ignore"):
         sigma = np.ldexp(1.0, ex + beta)[:, None, :]
-        a = (dh + sigma) - sigma
+        a = np.add(dh, sigma, out=t)
+        np.subtract(a, sigma, out=a)
         bad = ~np.isfinite(sigma)
         if bad.any():                                  # out of range: no split there
-            a = np.where(bad, 0.0, a)
-    r = (dh - a) + dl                                  # dh - a is exact
+            a[np.broadcast_to(bad, a.shape)] = 0.0
+    r = np.subtract(dh, a, out=dh)                     # dh - a is exact
+    np.add(r, dl, out=r)
+    del dl
     at = a.transpose(0, 2, 1)
     s1 = np.matmul(at, a)                              # exact
     x = np.matmul(at, r)

@@ -22,6 +22,8 @@ References
 
 from __future__ import annotations
 
+import dataclasses
+
 import warnings
 from dataclasses import dataclass
 from typing import Sequence
@@ -274,7 +276,10 @@ def elementary_regressions(cov, *, names: Sequence[str], count: int | None = Non
                                fix="Pass the window means in the order of names, or leave it out.")
     rtol = 100.0 * n * EPS if rank_rtol is None else float(rank_rtol)
     r, d = correlation_scale(s)
-    w, v = np.linalg.eigh(r)
+    # eigenvalues alone (LAPACK's value-only path); the vectors only where they are used
+    # (exact relations of a singular window, a Cholesky breakdown), from eigh, whose columns
+    # are in the same ascending order
+    w = np.linalg.eigvalsh(r)
     wmax = float(max(w[-1], 0.0))
     tol = rtol * wmax if wmax > 0 else 1.0
     null = w <= tol
@@ -287,8 +292,9 @@ def elementary_regressions(cov, *, names: Sequence[str], count: int | None = Non
         try:
             c = sla.cho_factor(r, lower=True, check_finite=False)
             pr = sla.cho_solve(c, np.eye(n), check_finite=False)
-        except np.linalg.LinAlgError:  # positive by eigh but Cholesky broke down: use the spectrum
-            pr = (v / w) @ v.T
+        except np.linalg.LinAlgError:  # positive by eigvalsh but Cholesky broke down: the spectrum
+            wv, v = np.linalg.eigh(r)
+            pr = (v / wv) @ v.T
         pr = 0.5 * (pr + pr.T)
         s_lo = _check_lo(cov_lo, n)
         pr = _refined_inverse(s, s_lo, pr, d)
@@ -305,7 +311,8 @@ def elementary_regressions(cov, *, names: Sequence[str], count: int | None = Non
         pivots: tuple[int, ...] = ()
         reason = ""
     else:
-        u = v[:, null]  # correlation-scale null vectors (columns)
+        _, v = np.linalg.eigh(r)
+        u = v[:, null]  # correlation-scale null vectors (columns; null is the first n - rank)
         exact = orthonormal_rows((u / d[:, None]).T)
         pivots = pivot_columns(exact)
         exact_norm, _ = reduced_form(exact, pivots)
@@ -521,6 +528,26 @@ def inverse_error_bound(cond_r, n: int):
 _STACK_BYTES = 1 << 22
 
 
+_FIELD_SETTERS = tuple(getattr(ElementaryRegressions, f.name).__set__
+                       for f in dataclasses.fields(ElementaryRegressions))
+
+
+def _complete(*values) -> ElementaryRegressions:
+    """An :class:`ElementaryRegressions` with every field given, in the order of the fields.
+
+    The same object the keyword constructor builds (complete, once), for the stack's
+    thousands of windows: the slots are filled by their descriptors directly, which costs
+    about half of the frozen dataclass's ``__init__`` (one ``object.__setattr__`` per field).
+    ``tests/analysis/test_elementary_stack.py`` checks it against the constructor.
+    """
+    if len(values) != len(_FIELD_SETTERS):
+        raise TypeError(f"{len(_FIELD_SETTERS)} field values expected, got {len(values)}")
+    obj = object.__new__(ElementaryRegressions)
+    for put, v in zip(_FIELD_SETTERS, values):
+        put(obj, v)
+    return obj
+
+
 def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, means=None, cov_los=None,
                                  ddof: int = 1, labels: Sequence[str] | None = None,
                                  warn_condition: float = DEFAULT_WARN_CONDITION,
@@ -615,7 +642,7 @@ def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, mea
     d = np.where(d > 0, d, 1.0)
     r = s / (d[:, :, None] * d[:, None, :])
     r = 0.5 * (r + r.transpose(0, 2, 1))
-    ev, _ = np.linalg.eigh(r)
+    ev = np.linalg.eigvalsh(r)                               # as elementary_regressions
     wmax = np.maximum(ev[:, -1], 0.0)
     rtol = 100.0 * n * EPS
     tol = np.where(wmax > 0, rtol * wmax, 1.0)
@@ -627,7 +654,10 @@ def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, mea
 
     out: list[ElementaryRegressions | None] = [None] * w
     if idx.size:
-        sf, rf, df, lof = s[idx], r[idx], d[idx], lo[idx]
+        if idx.size == w:   # every window full rank: the stacks themselves, no gathered copies
+            sf, rf, df, lof = s, r, d, lo
+        else:
+            sf, rf, df, lof = s[idx], r[idx], d[idx], lo[idx]
         pr = np.linalg.inv(rf)
         pr = 0.5 * (pr + pr.transpose(0, 2, 1))
         evf = ev[idx]
@@ -660,15 +690,10 @@ def elementary_regressions_stack(covs, *, names: Sequence[str], counts=None, mea
                 vals = resvar[has] * (cf[has] - ddof)[:, None] / (cf[has] - n)[:, None]
                 for a, v in zip(has.tolist(), vals):
                     unb[a] = v
+        ddof_i = int(ddof)
         for a, i in enumerate(idx.tolist()):
-            c = cnt[i]
-            unbiased = unb[a]
-            out[i] = ElementaryRegressions(
-                names=names_t, relations=rels[a], coefficients=coefs[a],
-                intercepts=icpt[a], residual_variance=resvars[a],
-                residual_variance_unbiased=unbiased, r_squared=r2s[a], std=ds[a], condition=conds[a],
-                condition_correlation=conds_r[a], rank=n, singular=False, singular_reason="",
-                exact_relations=empty, exact_normalised=empty, exact_pivots=(), count=c, ddof=int(ddof))
+            out[i] = _complete(names_t, rels[a], coefs[a], icpt[a], resvars[a], unb[a], r2s[a], ds[a],
+                               conds[a], conds_r[a], n, False, "", empty, empty, (), cnt[i], ddof_i)
     for i in range(w):
         if out[i] is None:   # singular, or input the one-window function must judge (and name)
             with warnings.catch_warnings():

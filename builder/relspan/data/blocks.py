@@ -294,7 +294,7 @@ def _short_moments(y: np.ndarray, starts: np.ndarray, length: int):
 #: short blocks reduced together in one stack (bounds the temporary copy of their rows)
 _STACK_BLOCKS = 2048
 #: bytes of temporaries one stack may use (about a dozen (n, n) and eight (L, n) arrays per block)
-_STACK_BYTES = 1 << 19
+_STACK_BYTES = 1 << 21
 
 
 def _stack_blocks(length: int, n: int) -> int:

@@ -7,8 +7,8 @@ Two engines read the same cells (see :data:`ENGINES`):
   checked as UTF-8 in the same pass. Every field is tokenised, so a row with
   more fields than the header is caught.
 - :func:`arrow_chunks`, the fast path: pyarrow's multi-threaded streaming
-  reader, with the hash and UTF-8 check of the whole file in a thread beside
-  it. Whatever it may read differently from pandas raises
+  reader, fed through :class:`HashingInput`, which hashes and checks as UTF-8
+  the same bytes the parser reads (one read of the file). Whatever it may read differently from pandas raises
   :class:`FastPathDeclined` before a result exists, and the caller reads the
   file again with pandas.
 
@@ -37,8 +37,8 @@ from relspan.errors import DataError
 if TYPE_CHECKING:
     from relspan.data.sources.reader import TableReader
 
-__all__ = ["ENGINES", "FastPathDeclined", "arrow_available", "read_header", "text_head", "pandas_chunks",
-           "arrow_chunks", "parser_error"]
+__all__ = ["ENGINES", "FastPathDeclined", "HashingInput", "arrow_available", "read_header", "text_head",
+           "pandas_chunks", "arrow_chunks", "parser_error"]
 
 #: CSV readers: ``auto`` (pyarrow's streaming reader when pyarrow is installed, else
 #: pandas), ``pyarrow`` (only that one; a file it cannot take exactly raises
@@ -252,7 +252,8 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
     first, non-UTF-8 bytes anywhere) raises :class:`FastPathDeclined`
     before a result exists, and the caller reads the file with pandas.
     The SHA-256 and the UTF-8 check of the whole file (unselected columns
-    too) run in a thread beside the parser.
+    too) are taken from the very bytes the parser reads (:class:`HashingInput`):
+    the file is read once.
     """
     import pyarrow as pa  # noqa: PLC0415 (optional dependency)
     import pyarrow.csv as pacsv  # noqa: PLC0415
@@ -264,13 +265,15 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
     types = {names[p]: pa.float64() for p in table.positions[:nvar]}
     if table.time_column is not None:
         types[take[-1]] = pa.string()
-    hasher = _Hasher(src)
-    hasher.start()
     batches: _Prefetch | None = None
+    try:
+        source = HashingInput(src)
+    except (pa.ArrowException, OSError) as err:
+        raise FastPathDeclined(str(err)) from None
     try:
         try:
             reader = pacsv.open_csv(
-                src.resolved,
+                pa.PythonFile(source, mode="r"),
                 read_options=pacsv.ReadOptions(column_names=names, skip_rows=1,
                                                block_size=ARROW_BLOCK_BYTES, use_threads=True),
                 parse_options=pacsv.ParseOptions(delimiter=src.delimiter or ","),
@@ -287,11 +290,13 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
             for a in range(0, batch.num_rows, chunk_rows):
                 part = batch.slice(a, chunk_rows)
                 values = np.empty((part.num_rows, nvar))
+                nulls = np.empty(nvar, np.int64)
                 for j in range(nvar):
                     col = part.column(j)
                     values[:, j] = col.to_numpy(zero_copy_only=False)
-                    if col.null_count != int(np.isnan(values[:, j]).sum()):
-                        raise FastPathDeclined("a numeric cell reads as NaN")
+                    nulls[j] = col.null_count
+                if not np.array_equal(np.isnan(values).sum(axis=0), nulls):
+                    raise FastPathDeclined("a numeric cell reads as NaN")
                 yield values, (part.column(nvar) if nvar < part.num_columns else None)
 
         # only parsing runs ahead (pyarrow's threads, a few batches queued); each batch is
@@ -308,11 +313,12 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
                 if table.time_column is not None:
                     times = tcol.to_pandas()
                 yield RawChunk(values, times, False, rows)
-        sha = hasher.result()
+        sha = source.sha256()
     finally:
-        hasher.stop()
         if batches is not None:
             batches.stop()
+            batches.join()
+        source.close()
     table.sha256 = sha
     table.rows_read = row0
 
@@ -379,44 +385,74 @@ class _Prefetch(threading.Thread):
 _AHEAD = 3
 
 
-class _Hasher(threading.Thread):
-    """SHA-256 and UTF-8 check of a whole file, in a thread beside the CSV parser.
+class HashingInput:
+    """The file as pyarrow's streaming CSV reader reads it, hashed and checked on the way.
 
-    ``hashlib`` and the file reads release the GIL on large buffers, so on a
-    machine with a spare core this costs little wall time.
+    pyarrow pulls the file through :meth:`read_buffer` (``pyarrow.PythonFile``
+    calls it when it exists), one block at a time; each block is read by
+    pyarrow's own file reader into an Arrow buffer (outside Python's heap),
+    added to the SHA-256 and, unless it is ASCII, checked as UTF-8, and then
+    handed to the parser unchanged. So the file is read once: the bytes that
+    are parsed are the bytes that are hashed.
+
+    Attributes
+    ----------
+    bytes_read : int
+        Bytes handed to the parser so far.
+    opens : int
+        Times the file was opened (1).
     """
 
     def __init__(self, src: TableSource) -> None:
-        super().__init__(name="relspan-sha256", daemon=True)
-        self._src = src
-        self._halt = threading.Event()
-        self._sha: str | None = None
-        self._failed = False
+        import pyarrow as pa  # noqa: PLC0415 (optional dependency)
 
-    def run(self) -> None:
-        try:
-            with open(self._src.resolved, "rb") as fh:
-                stream = CheckedStream(fh, self._src.path)
-                while not self._halt.is_set():
-                    data = fh.read(1 << 20)
-                    if not data:
-                        stream.check(b"", True)
-                        break
-                    stream.sha.update(data)
-                    if not data.isascii() or stream.mid_character:
-                        stream.check(data, False)  # ASCII is UTF-8: only other bytes are decoded
-                self._sha = stream.sha.hexdigest()
-        except Exception:  # noqa: BLE001 - reported as a declined fast path, pandas re-reads
-            self._failed = True
+        self._file = pa.OSFile(str(src.resolved), "rb")
+        self.opens = 1
+        self._stream = CheckedStream(None, src.path)
+        self.bytes_read = 0
+        self._ended = False
+        self.closed = False
 
-    def result(self) -> str:
-        self.join()
-        if self._failed or self._sha is None:
-            raise FastPathDeclined("the file is not UTF-8 text or could not be hashed")
-        return self._sha
+    def read_buffer(self, nbytes: int):
+        """The next ``nbytes`` bytes (fewer at the end) as a ``pyarrow.Buffer``."""
+        buf = self._file.read_buffer(nbytes)
+        size = buf.size
+        if size == 0:
+            if not self._ended:
+                self._ended = True
+                try:
+                    self._stream.check(b"", True)  # a character cut off at the end of the file
+                except DataError:
+                    raise OSError("the file is not UTF-8 text") from None
+            return buf
+        self._stream.sha.update(buf)
+        self.bytes_read += size
+        if self._stream.mid_character or int(np.frombuffer(buf, np.uint8).max()) >= 0x80:
+            try:  # ASCII is UTF-8: only other bytes are decoded
+                self._stream.check(buf.to_pybytes(), False)
+            except DataError:  # the reference reader re-reads the file and locates the byte
+                raise OSError("the file is not UTF-8 text") from None
+        return buf
 
-    def stop(self) -> None:
-        self._halt.set()
+    def read(self, nbytes: int = -1) -> bytes:
+        return self.read_buffer(nbytes if nbytes is not None and nbytes >= 0 else 1 << 62).to_pybytes()
+
+    def readable(self) -> bool:
+        return True
+
+    def seekable(self) -> bool:
+        return False
+
+    def close(self) -> None:
+        if not self.closed:
+            self.closed = True
+            self._file.close()
+
+    def sha256(self) -> str:
+        """The SHA-256 of the whole file; only once it was read to the end."""
+        if not self._ended:
+            raise FastPathDeclined("the file was not read to its end")
+        return self._stream.sha.hexdigest()
 
 
 # --------------------------------------------------------------------------- head (relspan new)
