@@ -1,7 +1,9 @@
 """The cross-window stage: resampled relation bases per window, calibrated stability, the break scan.
 
-Runs inside :func:`relspan.run.pipeline.analyse_prepared`, after every window
-is analysed and while the dataset's granules are still held. Every random
+Runs inside :func:`relspan.run.pipeline.analyse_prepared` while the dataset's
+granules are still held: the stability of each plan as its window tasks finish
+(:class:`PlanFeed`, fed the bases each task hands over), the rest after every
+window is analysed. Every random
 draw comes from a stream named by ``(seed, dataset, plan, window)``
 (:func:`relspan.analysis.resample.window_rng`), so the numbers do not depend on
 ``--jobs``, the executor or the order windows were analysed in.
@@ -25,7 +27,7 @@ from relspan.analysis.stability import (TEST_LEVEL, SamplingSpread, StabilityStr
                                         compare_windows, sampling_spread)
 
 __all__ = ["ResamplingOptions", "window_resamples", "resampled_bases", "plausible_coranks", "StabilityAsk",
-           "HandedDraws", "handed_draws", "hand_bytes", "PlanFeed",
+           "HandedDraws", "handed_draws", "PlanFeed",
            "plan_stability", "dataset_breaks", "full_sample_spread", "STABILITY_ASSUMPTIONS", "BREAK_PLAN",
            "FULL_PLAN"]
 
@@ -159,11 +161,6 @@ def handed_draws(cr: resample.CovarianceResamples, analysis, shape=None, pre=Non
             bases[a] = d.bases(a, int(own.shape[0]))
     plausible = {a: d.plausible(a) for a in ("equal", "bounded", "shaped") if a in analysis.coranks}
     return HandedDraws(resamples=cr.resamples, bases=bases, plausible=plausible)
-
-
-def hand_bytes(opts: ResamplingOptions, n: int) -> int:
-    """Bytes :class:`HandedDraws` may hold for one window at most (elementary plus one basis of n - 1 rows)."""
-    return int(opts.resamples) * n * 8 * n
 
 
 def _analysed(covs: np.ndarray, scale: str) -> tuple[np.ndarray, np.ndarray]:
