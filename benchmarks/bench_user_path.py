@@ -279,13 +279,16 @@ def stages(windows: int, n: int, assumptions: list[str], summaries: bool) -> Non
               + f"; peak RSS {rss:.0f} MiB")
 
 
-#: (module, attribute, stage) of every timed call in ``check-stages``; nested stages are
-#: subtracted from the one that calls them (window tasks and elementary from the analysis)
+#: (module, attribute, stage) of every timed call in ``check-stages``; a stage called inside another
+#: is subtracted from it (the stability feed, which runs as the window tasks finish, from the tasks);
+#: attributes a checkout does not have (an older one, compared side by side) are skipped
 _STAGES = (
     ("relspan.data.prepare", "prepare_dataset", "data pass (reading)"),
     ("relspan.run.pipeline", "_with_elementary", "elementary regressions (batched)"),
     ("relspan.run.executors", "map_in_chunks", "window tasks (analysis + resampling)"),
     ("relspan.run.cross_window", "plan_stability", "cross-window stability"),
+    ("relspan.run.cross_window", "PlanFeed.add", "cross-window stability"),
+    ("relspan.run.cross_window", "PlanFeed.result", "cross-window stability"),
     ("relspan.run.cross_window", "dataset_breaks", "break scan"),
     ("relspan.run.cross_window", "full_sample_spread", "full-sample spread"),
     ("relspan.run.pipeline", "_trends", "trends"),
@@ -304,34 +307,91 @@ def check_stages(spec_path: str) -> None:
     import relspan
 
     spent: dict[str, list[float]] = {}
+    inner: list[list[float]] = []     # per running timed call: time spent in timed calls inside it
+    peaks: dict[str, float] = {}      # per stage: the highest resident memory while it ran (MiB)
+    held: dict[str, float] = {}       # per stage: resident memory when it last returned (MiB)
 
     def timed(fn, stage):
         def wrapper(*a, **k):
             w, c = time.perf_counter(), time.process_time()
+            if inner:   # the caller's peak so far, before the kernel's peak is reset for this stage
+                inner[-1][2] = max(inner[-1][2], _peak_mib())
+            inner.append([0.0, 0.0, 0.0])
+            _reset_peak()
             try:
                 return fn(*a, **k)
             finally:
+                dw, dc = time.perf_counter() - w, time.process_time() - c
+                nested = inner.pop()
                 acc = spent.setdefault(stage, [0.0, 0.0])
-                acc[0] += time.perf_counter() - w
-                acc[1] += time.process_time() - c
+                acc[0] += dw - nested[0]
+                acc[1] += dc - nested[1]
+                top = max(_peak_mib(), nested[2])
+                peaks[stage] = max(peaks.get(stage, 0.0), top)
+                held[stage] = _rss_mib()
+                if inner:
+                    inner[-1][0] += dw
+                    inner[-1][1] += dc
+                    inner[-1][2] = max(inner[-1][2], top)
+                    _reset_peak()
         return wrapper
 
     for mod, attr, stage in _STAGES:
-        m = importlib.import_module(mod)
-        setattr(m, attr, timed(getattr(m, attr), stage))
+        owner = importlib.import_module(mod)
+        *path, name = attr.split(".")
+        try:
+            for part in path:
+                owner = getattr(owner, part)
+            setattr(owner, name, timed(getattr(owner, name), stage))
+        except AttributeError:
+            continue
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         w, c = time.perf_counter(), time.process_time()
         relspan.check(spec_path, jobs=1, use_cache=False)
         total = (time.perf_counter() - w, time.process_time() - c)
-    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    # the stages reset the kernel's peak (ru_maxrss reads the same counter): the whole run's is their largest
+    rss = max([resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, _peak_mib(), *peaks.values()])
     print(f"relspan.check({spec_path!r}, jobs=1), in process: {total[0]:.2f} s wall, {total[1]:.2f} s CPU; "
           f"peak RSS {rss:.0f} MiB")
     listed = 0.0
     for stage, (sw, sc) in spent.items():
         listed += sc
-        print(f"  {stage:40s} {sw:8.2f} s wall {sc:8.2f} s CPU ({sc / total[1]:5.1%} of CPU)")
+        mem = (f"; RSS peak {peaks[stage]:6.0f} MiB, after {held[stage]:6.0f} MiB" if _HAS_PEAK and stage in peaks
+               else "")
+        print(f"  {stage:40s} {sw:8.2f} s wall {sc:8.2f} s CPU ({sc / total[1]:5.1%} of CPU){mem}")
     print(f"  {'the rest (spec, imports, glue)':40s} {'':8s}   {'':4s} {total[1] - listed:8.2f} s CPU")
+
+
+def _status_mib(key: str) -> float:
+    """``VmHWM`` / ``VmRSS`` of this process from /proc (Linux), in MiB; 0 where /proc is missing."""
+    import re
+
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            return int(re.search(key + r":\s+(\d+)", fh.read()).group(1)) / 1024
+    except (OSError, AttributeError):
+        return 0.0
+
+
+def _peak_mib() -> float:
+    return _status_mib("VmHWM")
+
+
+def _rss_mib() -> float:
+    return _status_mib("VmRSS")
+
+
+def _reset_peak() -> None:
+    """Reset the kernel's resident-memory peak to the current RSS (Linux: ``echo 5 > /proc/self/clear_refs``)."""
+    try:
+        with open("/proc/self/clear_refs", "w", encoding="ascii") as fh:
+            fh.write("5")
+    except OSError:
+        pass
+
+
+_HAS_PEAK = bool(_peak_mib())
 
 
 def _stage_lines(text: str) -> dict[str, float]:

@@ -11,8 +11,8 @@ import pytest
 
 from relspan.analysis.intervals import angle_change_test, direct_rotation
 from relspan.analysis.resample import GranuleStats, resample_covariances
-from relspan.analysis.stability import (compare_windows, direct_rotation_stack, null_angle_stack,
-                                        subspace_stability)
+from relspan.analysis.stability import (PAIRWISE_CAP, StabilityStream, compare_windows, direct_rotation_stack,
+                                        null_angle_stack, principal_angles, subspace_stability)
 from tests.analysis.inference_sims import one_relation_cov, rows
 from tests.analysis.stability_sims import analyse, break_rows, write_case
 
@@ -77,6 +77,74 @@ class TestBatchedRule:
         none = compare_windows([None, None], labels=["a", "b"], resampled=lambda i: d, coranks=[None, 0])
         assert none.stable is None and none.status == "cannot be judged"
         assert "Cannot be judged" in none.verdict
+
+
+class TestStream:
+    """Windows fed one at a time (as their tasks finish) give the rule of the whole plan at once."""
+
+    @staticmethod
+    def _plan(seed=12, w=70):
+        # invented windows: one relation in most, two in a run of them, none (corank 0) in one
+        rng = np.random.default_rng(seed)
+        cov = one_relation_cov(0.0)[0]
+        dims = [2 if 20 <= i < 35 else 0 if i == 50 else 1 for i in range(w)]
+        wins = [_window(rng, cov, 120, q=max(q, 1), resamples=59) for q in dims]
+        bases = [None if q == 0 else e for q, (e, _) in zip(dims, wins)]
+        return bases, [d for _, d in wins], dims, wins[0][0]
+
+    def test_many_windows_streamed_give_the_rule_computed_one_comparison_at_a_time(self):
+        bases, draws, dims, ref = self._plan()
+        st = StabilityStream(len(bases), reference=ref, chunk=7)
+        for i, b in enumerate(bases):
+            st.add(b, dims[i], draws[i] if b is not None else None, label=f"w{i}")
+        got = st.finish()
+        # the rule written out comparison by comparison: neighbours (consecutive comparable windows of
+        # one corank) and each window of the reference's corank against it; max-T over the family
+        usable = [i for i, q in enumerate(dims) if q]
+        neigh = [(a, b) for a, b in zip(usable, usable[1:]) if dims[a] == dims[b]]
+        refc = [i for i in usable if dims[i] == 1]
+        nulls = {c: null_angle_stack(bases[c[0]][None], draws[c[0]][None], bases[c[1]][None],
+                                     draws[c[1]][None])[0] for c in neigh}
+        nulls.update({(i, -1): null_angle_stack(bases[i][None], draws[i][None], None, None)[0] for i in refc})
+        ql = {c: np.quantile(v, 0.95) for c, v in nulls.items()}
+        crit = np.quantile(np.max([v / ql[c] for c, v in nulls.items()], axis=0), 0.95)
+        assert got.pairwise_deg is None and got.compared == len(nulls)
+        assert got.family_critical == pytest.approx(crit, rel=1e-12)
+        for k, c in enumerate(neigh):
+            assert tuple(got.neighbour_pairs[k]) == c
+            assert got.neighbour_threshold_deg[k] == pytest.approx(ql[c] * crit, rel=1e-12)
+            # reference: principal_angles, the one-pair function of this module
+            angle = principal_angles(bases[c[0]], bases[c[1]]).max()   # degrees
+            assert got.neighbour_deg[k] == pytest.approx(angle, abs=1e-9)
+        for i in refc:
+            assert got.reference_threshold_deg[i] == pytest.approx(ql[(i, -1)] * crit, rel=1e-12)
+        assert got.not_comparable == ("w50: no relation holds in it",)
+
+    def test_the_stream_holds_the_draws_of_one_batch_of_comparisons_not_of_the_plan(self):
+        bases, draws, dims, ref = self._plan(w=200)
+        st = StabilityStream(len(bases), reference=ref, chunk=8)
+        held = []
+        for i, b in enumerate(bases):
+            st.add(b, dims[i], draws[i], label=f"w{i}")
+            held.append(len(st.draws))
+        whole = compare_windows(bases, labels=[f"w{i}" for i in range(200)], resampled=lambda i: draws[i],
+                                reference=ref, coranks=dims)
+        assert max(held) <= PAIRWISE_CAP + 1            # the first windows, until every pair is ruled out
+        assert max(held[2 * PAIRWISE_CAP:]) <= 8 + 2     # then one batch's windows and the last one
+        got = st.finish()
+        # the same comparisons whatever the batch size (each comparison's null does not depend on its batch)
+        np.testing.assert_allclose(got.neighbour_threshold_deg, whole.neighbour_threshold_deg, rtol=1e-12)
+        np.testing.assert_array_equal(got.neighbour_change, whole.neighbour_change)
+
+    def test_a_small_plan_streamed_still_compares_every_pair(self):
+        bases, draws, dims, ref = self._plan(w=12)
+        st = StabilityStream(12, reference=ref)
+        for i, b in enumerate(bases):
+            st.add(b, dims[i], draws[i], label=f"w{i}")
+        got = st.finish()
+        whole = subspace_stability(bases, labels=[f"w{i}" for i in range(12)], draws=draws, reference=ref)
+        assert got.pairwise_deg is not None
+        np.testing.assert_array_equal(got.pairwise_threshold_deg, whole.pairwise_threshold_deg)
 
 
 class TestPipeline:

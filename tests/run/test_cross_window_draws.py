@@ -70,7 +70,7 @@ def test_stability_is_the_same_whether_the_tasks_hand_their_draws_over_or_not(tm
 
     spec = _load(tmp_path)
     handed = run_analysis(spec, jobs=1, use_cache=False, progress=False)
-    monkeypatch.setattr(pipeline, "HAND_BYTES", 0)        # nothing handed over: the stage draws each window
+    monkeypatch.setattr(pipeline, "HAND_OVER", False)     # nothing handed over: the stage draws each window
     asked = _count_draws(monkeypatch)
     drawn = run_analysis(spec, jobs=1, use_cache=False, progress=False)
     assert {k for k in asked if k[1] == "roll"}            # the stage drew them itself
@@ -79,7 +79,10 @@ def test_stability_is_the_same_whether_the_tasks_hand_their_draws_over_or_not(tm
 
 
 def test_stability_is_the_same_whether_later_draws_are_kept_or_drawn_again(tmp_path, monkeypatch):
+    from relspan.run import pipeline
+
     spec = _load(tmp_path)
+    monkeypatch.setattr(pipeline, "HAND_OVER", False)     # the stage draws (and keeps) windows itself
     kept = run_analysis(spec, jobs=1, use_cache=False, progress=False)
     monkeypatch.setattr(cross_window, "KEEP_BYTES", 0)      # nothing kept: drawn again when asked
     again = run_analysis(spec, jobs=1, use_cache=False, progress=False)
@@ -134,3 +137,60 @@ def test_the_stability_stage_draws_what_the_window_tasks_draw(tmp_path, monkeypa
     monkeypatch.setattr(inference, "resample_covariances", spy)
     run_analysis(load_spec(path), jobs=1, use_cache=False, progress=False)
     assert seen and all(s == "moving" and b == max(7 / g, 1.0) for s, b, g in seen)
+
+
+def _many_windows(folder, rows: int = 9000):
+    """A rolling plan of 89 windows (above the pairwise cap: neighbours and the reference only)."""
+    _write_data(folder, rows=rows)
+    path = _spec(folder, assumptions="[elementary, equal, bounded]")
+    path.write_text(path.read_text() + RESAMPLING)
+    return load_spec(path)
+
+
+def test_the_stage_reads_each_window_as_its_task_finishes_and_holds_few_windows_draws(tmp_path, monkeypatch):
+    """Every window is handed over and drawn once, and the handed bases of finished windows are let go
+    while later tasks run (not all held until the last task: memory bounded whatever the plan's size)."""
+    import weakref
+
+    from relspan.analysis import stability
+    from relspan.run.executors import auto_chunk_size
+
+    spec = _many_windows(tmp_path)
+    monkeypatch.setattr(stability, "_CHUNK", 16)        # comparisons per batch: several batches here
+    asked = _count_draws(monkeypatch)
+    alive: list = []
+    most = [0]
+    real = cross_window.handed_draws
+
+    def tracking(*a, **k):
+        h = real(*a, **k)
+        alive.extend(weakref.ref(b) for b in h.bases.values())
+        most[0] = max(most[0], sum(r() is not None for r in alive))
+        return h
+
+    monkeypatch.setattr(cross_window, "handed_draws", tracking)
+    run = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    plan = run.dataset("alpha").plan("roll")
+    w = len(plan.analyses)
+    assert w > stability.PAIRWISE_CAP and plan.stability["equal"].pairwise_deg is None
+    drawn = {k: v for k, v in asked.items() if k[1] == "roll"}
+    assert len(drawn) == w and set(drawn.values()) == {1}      # nothing drawn again by the stage
+    per_window = len(alive) // w                                # elementary, and equal/bounded's shared one
+    # held at once: the executor's chunk of finished tasks, and the first windows up to the pairwise cap
+    # (every pair is compared below it) or the windows of one batch of comparisons past it
+    bound = per_window * (auto_chunk_size(w + 1, 1) + max(stability.PAIRWISE_CAP, 16) + 2)
+    assert most[0] <= bound < per_window * w, (most[0], bound, w)
+
+
+def test_streamed_stability_equals_the_stage_drawing_every_window_itself(tmp_path, monkeypatch):
+    from relspan.analysis import stability
+    from relspan.run import pipeline
+
+    spec = _many_windows(tmp_path)
+    monkeypatch.setattr(stability, "_CHUNK", 16)
+    streamed = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    monkeypatch.setattr(pipeline, "HAND_OVER", False)
+    drawn = run_analysis(spec, jobs=1, use_cache=False, progress=False)
+    assert _same(_results(streamed), _results(drawn))
+    st = streamed.dataset("alpha").plan("roll").stability
+    assert all(s.compared > stability._CHUNK for s in st.values())   # several batches were streamed

@@ -183,6 +183,53 @@ class TestMapInChunks:
                           progress=counter)
         assert counter.done == 6  # chunks [0,1] [2,3] [4,5] finished; [6,7] failed; rest never ran
 
+    def test_consume_reads_each_chunk_in_item_order_even_when_a_later_chunk_finishes_first(self):
+        import threading
+        from concurrent.futures import ThreadPoolExecutor
+
+        first_may_finish = threading.Event()
+
+        def task(x):
+            if x == 0:      # the first chunk waits until the second has finished
+                assert first_may_finish.wait(timeout=60)
+            return x * x
+
+        seen, finished = [], []
+
+        def consume(start, results):
+            seen.append((start, list(results)))
+            return [r + 1 for r in results]      # what it returns stands for the results
+
+        with ThreadPoolExecutor(2) as ex:
+            real = ex.submit
+
+            def submit(fn, *a):
+                f = real(fn, *a)
+                if a[1][0] == 2:    # the chunk holding item 2: let the first chunk go once it is done
+                    f.add_done_callback(lambda _: (finished.append(2), first_may_finish.set()))
+                return f
+
+            ex.submit = submit
+            out = map_in_chunks(ex, task, range(6), chunk_size=2, consume=consume)
+        assert finished == [2]
+        assert [s for s, _ in seen] == [0, 2, 4]
+        assert [r for _, rs in seen for r in rs] == [x * x for x in range(6)]
+        assert out == [x * x + 1 for x in range(6)]
+
+    def test_consume_runs_as_chunks_finish_in_process_not_after_all_of_them(self):
+        ran, order = [], []
+
+        def task(x):
+            ran.append(x)
+            return x
+
+        def consume(start, results):
+            order.append((start, len(ran)))    # how many tasks had run when this chunk was read
+            return results
+
+        map_in_chunks(SerialExecutor(), task, range(9), chunk_size=3, consume=consume)
+        assert order == [(0, 3), (3, 6), (6, 9)]
+
     def test_dask_reraises_the_task_error(self, dask_cluster):
         with open_executor(scheduler=dask_cluster.scheduler_address) as ex:
             with pytest.raises(ValueError, match="task 7 failed on purpose"):

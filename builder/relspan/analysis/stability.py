@@ -30,7 +30,7 @@ from relspan.analysis.intervals import largest_angle_stack
 from relspan.errors import OptionsError
 
 __all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "compare_windows",
-           "direct_rotation_stack", "null_angle_stack", "SamplingSpread", "sampling_spread", "TEST_LEVEL", "PAIRWISE_CAP", "CoefficientSwing",
+           "StabilityStream", "direct_rotation_stack", "null_angle_stack", "SamplingSpread", "sampling_spread", "TEST_LEVEL", "PAIRWISE_CAP", "CoefficientSwing",
            "coefficient_swing", "CorankSequence", "corank_sequence", "ZERO_SIGN_TOL"]
 
 #: a coefficient within this distance of 0 has no sign (it neither starts nor ends a sign change)
@@ -431,7 +431,7 @@ def _max_or_none(x: np.ndarray) -> float | None:
 def compare_windows(bases: Sequence, *, labels: Sequence[str], resampled, reference=None,
                     coranks: Sequence[int | None] | None = None, assumption: str = "equal",
                     level: float = TEST_LEVEL, pairwise_cap: int = PAIRWISE_CAP,
-                    chunk: int = _CHUNK) -> SubspaceStability:
+                    chunk: int | None = None) -> SubspaceStability:
     """Compare the relation subspaces of a plan's windows against their sampling spread.
 
     Parameters
@@ -455,8 +455,8 @@ def compare_windows(bases: Sequence, *, labels: Sequence[str], resampled, refere
         Quantile of the family's null for a change (0.95: 5% family-wise).
     pairwise_cap : int
         Compare every pair when at most this many windows are comparable.
-    chunk : int
-        Comparisons per batched null computation (memory bound).
+    chunk : int, optional
+        Comparisons per batched null computation (memory bound; default :data:`_CHUNK`).
 
     Returns
     -------
@@ -486,145 +486,245 @@ def compare_windows(bases: Sequence, *, labels: Sequence[str], resampled, refere
     mats = [_as_basis(b) for b in bases]
     w = len(mats)
     labels_t = check_names_len(labels, w, key="labels")
-    if not 0.5 <= float(level) < 1.0:
-        raise OptionsError(f"level must be in [0.5, 1); got {level!r}.", key="level",
-                           fix="Use 0.95 (a change declared at the 5% level).")
     dims_given = list(coranks) if coranks is not None else [None if m is None else m.shape[0] for m in mats]
     if len(dims_given) != w:
         raise OptionsError(f"coranks has {len(dims_given)} entries for {w} windows.", key="coranks",
                            fix="Give one corank (or None) per window.")
-    dims = tuple(None if d is None else int(d) for d in dims_given)
-    ref = _as_basis(reference)
-    ref_dim = None if ref is None else int(ref.shape[0])
-    usable = [i for i in range(w) if mats[i] is not None and dims[i] not in (None, 0)
-              and mats[i].shape[0] == dims[i]]
-    not_comp = []
-    usable_set = set(usable)
+    stream = StabilityStream(w, reference=reference, assumption=assumption, level=level,
+                             pairwise_cap=pairwise_cap, chunk=chunk)
     for i in range(w):
-        if i in usable_set:
-            continue
-        why = ("its corank is undetermined at the tolerance" if dims[i] is None else
-               "no relation holds in it" if dims[i] == 0 else "it has no relation basis")
-        not_comp.append(f"{labels_t[i]}: {why}")
-    # the comparisons: (i, j) with j = -1 for the reference
-    neigh = [(a, b) for a, b in zip(usable, usable[1:]) if dims[a] == dims[b]]
-    pairwise = len(usable) <= pairwise_cap
-    pairs = ([(a, b) for k, a in enumerate(usable) for b in usable[k + 1:] if dims[a] == dims[b]]
-             if pairwise else list(neigh))
-    # a single window is the whole plan: comparing it with the full sample compares nothing
-    refc = [(i, -1) for i in usable if ref_dim is not None and dims[i] == ref_dim and w >= 2]
-    comps = pairs + refc
-    # observed angles: one batched call per dimension
-    obs = np.full(len(comps), np.nan)
-    by_q: dict[int, list[int]] = {}
-    for k, (i, _) in enumerate(comps):
-        by_q.setdefault(dims[i], []).append(k)
-    for q, ks in by_q.items():
-        a = np.stack([mats[comps[k][0]] for k in ks])
-        b = np.stack([ref if comps[k][1] < 0 else mats[comps[k][1]] for k in ks])
-        obs[ks] = _largest_angles(a, b)
-    # null draws, chunked in window order; only the running family maximum is kept
-    q_level = np.full(len(comps), np.nan)
-    fam: np.ndarray | None = None
-    order = sorted(range(len(comps)), key=lambda k: (max(comps[k]), comps[k][0]))
-    held: dict[int, np.ndarray] = {}
-    resamples = 0
-    for s0 in range(0, len(order), chunk):
-        part = order[s0:s0 + chunk]
-        need = sorted({x for k in part for x in comps[k] if x >= 0})
-        for x in list(held):
-            if x not in need and not pairwise:
-                del held[x]
-        for x in need:
-            if x not in held:
-                d = np.asarray(resampled(x), dtype=float)
-                if d.ndim != 3 or d.shape[1:] != mats[x].shape:
-                    raise OptionsError(f"resampled bases of window {labels_t[x]!r} have shape {d.shape}; "
-                                       f"expected (B, {mats[x].shape[0]}, {mats[x].shape[1]}).",
-                                       key="resampled", fix="Resample at the window's own corank.")
-                held[x] = d
-        groups: dict[tuple[int, bool], list[int]] = {}
-        for k in part:
-            groups.setdefault((dims[comps[k][0]], comps[k][1] < 0), []).append(k)
-        for (_, to_ref), ks in groups.items():
-            nb = min(held[x].shape[0] for k in ks for x in comps[k] if x >= 0)
-            ea = np.stack([mats[comps[k][0]] for k in ks])
-            da = np.stack([held[comps[k][0]][:nb] for k in ks])
+        stream.add(mats[i], dims_given[i], lambda i=i: resampled(i), label=labels_t[i])
+    return stream.finish()
+
+
+class StabilityStream:
+    """:func:`compare_windows` fed one window at a time, in window order, holding few windows' draws.
+
+    A plan's windows arrive as their tasks finish; each brings its relation
+    basis, its corank and its resampled bases (an array, or a callable that
+    gives them when first needed). Up to ``pairwise_cap`` comparable windows
+    every pair is compared, so their draws are held until :meth:`finish`; past
+    it only neighbours and each window against the reference are compared
+    (:class:`SubspaceStability`), and these need only the previous comparable
+    window's draws: comparisons are processed ``chunk`` at a time as they
+    become complete (the same batches, in the same order, as when every
+    window is given at once), then the draws no later comparison needs are let
+    go. What is kept between windows is each comparison's null quantile and
+    the family's running maximum over resamples, so memory does not grow
+    with the plan beyond one basis and a few numbers per window.
+
+    Parameters
+    ----------
+    windows : int
+        Windows of the plan (all of them are :meth:`add`-ed before :meth:`finish`).
+    reference, assumption, level, pairwise_cap, chunk
+        As :func:`compare_windows`.
+    """
+
+    __slots__ = ("w", "ref", "ref_dim", "assumption", "level", "cap", "chunk", "mats", "dims", "labels",
+                 "usable", "draws", "streaming", "pending", "last", "q_level", "fam", "resamples")
+
+    def __init__(self, windows: int, *, reference=None, assumption: str = "equal", level: float = TEST_LEVEL,
+                 pairwise_cap: int = PAIRWISE_CAP, chunk: int | None = None) -> None:
+        if not 0.5 <= float(level) < 1.0:
+            raise OptionsError(f"level must be in [0.5, 1); got {level!r}.", key="level",
+                               fix="Use 0.95 (a change declared at the 5% level).")
+        self.w = int(windows)
+        self.ref = _as_basis(reference)
+        self.ref_dim = None if self.ref is None else int(self.ref.shape[0])
+        self.assumption, self.level = assumption, float(level)
+        self.cap, self.chunk = int(pairwise_cap), int(_CHUNK if chunk is None else chunk)
+        self.mats: list = []
+        self.dims: list = []
+        self.labels: list[str] = []
+        self.usable: list[int] = []
+        self.draws: dict = {}           # window -> its draws (or the callable giving them), while needed
+        self.streaming = False          # past the pairwise cap: neighbours and reference only
+        self.pending: list[tuple[int, int]] = []   # comparisons not yet processed (streaming)
+        self.last: int | None = None    # the last comparable window emitted (streaming)
+        self.q_level: dict = {}         # comparison -> its null's level quantile
+        self.fam: np.ndarray | None = None
+        self.resamples = 0
+
+    def add(self, basis, dim: int | None, draws, *, label: str) -> None:
+        """The next window: its basis ``(q, n)`` (or None), corank, resampled bases ``(B, q, n)``, label.
+
+        ``draws`` may be None for a window that cannot be compared (no basis).
+        """
+        i = len(self.mats)
+        if i >= self.w:
+            raise ValueError(f"the plan has {self.w} windows; window {label!r} is one too many")
+        m = _as_basis(basis)
+        d = None if dim is None else int(dim)
+        self.mats.append(m)
+        self.dims.append(d)
+        self.labels.append(str(label))
+        if m is None or d in (None, 0) or m.shape[0] != d:
+            return
+        self.usable.append(i)
+        self.draws[i] = draws
+        if self.streaming:
+            self._emit(i)
+        elif len(self.usable) > self.cap:
+            self.streaming = True
+            for x in self.usable:       # replay the windows held so far, in order
+                self._emit(x)
+
+    def _emit(self, b: int) -> None:
+        """Window ``b``'s comparisons (with the previous comparable window, with the reference)."""
+        prev, self.last = self.last, b
+        if prev is not None and self.dims[prev] == self.dims[b]:
+            self.pending.append((prev, b))
+        if self.ref_dim is not None and self.dims[b] == self.ref_dim and self.w >= 2:
+            self.pending.append((b, -1))
+        if len(self.pending) >= self.chunk:
+            part, self.pending = self.pending[:self.chunk], self.pending[self.chunk:]
+            self._process(part)
+            keep = {x for c in self.pending for x in c if x >= 0}
+            keep.add(b)
+            for x in [x for x in self.draws if x <= b and x not in keep]:
+                del self.draws[x]
+
+    def _fetch(self, x: int) -> np.ndarray:
+        d = self.draws[x]
+        if not isinstance(d, np.ndarray):
+            d = np.asarray(d() if callable(d) else d, dtype=float)
+            if d.ndim != 3 or d.shape[1:] != self.mats[x].shape:
+                raise OptionsError(f"resampled bases of window {self.labels[x]!r} have shape {d.shape}; "
+                                   f"expected (B, {self.mats[x].shape[0]}, {self.mats[x].shape[1]}).",
+                                   key="resampled", fix="Resample at the window's own corank.")
+            self.draws[x] = d
+        return d
+
+    def _process(self, part: list[tuple[int, int]]) -> None:
+        """Null draws of a batch of comparisons: their level quantiles, and the family's running maximum."""
+        held = {x: self._fetch(x) for x in sorted({x for c in part for x in c if x >= 0})}
+        groups: dict[tuple[int, bool], list[tuple[int, int]]] = {}
+        for c in part:
+            groups.setdefault((self.dims[c[0]], c[1] < 0), []).append(c)
+        for (_, to_ref), cs in groups.items():
+            nb = min(held[x].shape[0] for c in cs for x in c if x >= 0)
+            ea = np.stack([self.mats[c[0]] for c in cs])
+            da = np.stack([held[c[0]][:nb] for c in cs])
             if to_ref:
                 null = null_angle_stack(ea, da, None, None)
             else:
-                eb = np.stack([mats[comps[k][1]] for k in ks])
-                db = np.stack([held[comps[k][1]][:nb] for k in ks])
+                eb = np.stack([self.mats[c[1]] for c in cs])
+                db = np.stack([held[c[1]][:nb] for c in cs])
                 null = null_angle_stack(ea, da, eb, db)
-            ql = np.quantile(null, level, axis=1)
-            q_level[ks] = ql
+            ql = np.quantile(null, self.level, axis=1)
+            for c, v in zip(cs, ql):
+                self.q_level[c] = v
             ratio = null / np.maximum(ql, 1e-12)[:, None]
             mx = ratio.max(axis=0)
-            if fam is None:
-                fam = mx
+            if self.fam is None:
+                self.fam = mx
             else:
-                m = min(fam.size, mx.size)
-                fam = np.maximum(fam[:m], mx[:m])
-            resamples = nb if resamples == 0 else min(resamples, nb)
-    crit = float(np.quantile(fam, level)) if fam is not None else None
-    thr = q_level * crit if crit is not None else np.full(len(comps), np.nan)
-    change = obs > thr if crit is not None else np.zeros(len(comps), dtype=bool)
-    index = {c: k for k, c in enumerate(comps)}
-    npairs = np.array(neigh, dtype=int).reshape(-1, 2)
-    n_deg = np.array([obs[index[c]] for c in neigh], dtype=float)
-    n_thr = np.array([thr[index[c]] for c in neigh], dtype=float)
-    n_chg = np.array([bool(change[index[c]]) for c in neigh], dtype=bool)
-    r_deg = np.full(w, np.nan)
-    r_thr = np.full(w, np.nan)
-    r_chg = np.zeros(w, dtype=bool)
-    for (i, _), k in ((c, index[c]) for c in refc):
-        r_deg[i], r_thr[i], r_chg[i] = obs[k], thr[k], change[k]
-    p_deg = p_chg = p_thr = None
-    if pairwise:
-        p_deg = np.full((w, w), np.nan)
-        p_thr = np.full((w, w), np.nan)
-        p_chg = np.zeros((w, w), dtype=bool)
-        for i in usable:
-            p_deg[i, i] = 0.0
-        for (i, j) in pairs:
-            k = index[(i, j)]
-            p_deg[i, j] = p_deg[j, i] = obs[k]
-            p_thr[i, j] = p_thr[j, i] = thr[k]
-            p_chg[i, j] = p_chg[j, i] = change[k]
-    stable = None if not comps else not bool(change.any())
-    name = _assumption_name(assumption)
-    lvl = f"{1 - float(level):.0%}"
-    rule = (f"Each window is taken at its own corank under {name}; two subspaces count as different only "
-            f"where their largest principal angle exceeds what resampling produces when nothing changes "
-            f"(paired bootstrap resamples, {resamples} per window, carried onto one common subspace; the "
-            f"full sample treated as fixed), judged for all {len(comps)} comparisons together at the {lvl} "
-            f"level (max-T rule, Westfall & Young 1993).")
-    what = ("every pair of windows and each window against the full sample" if pairwise else
-            "neighbouring windows and each window against the full sample")
-    if stable is None:
-        verdict = (f"Cannot be judged under {name}: " + ("a single window has nothing to be compared with."
-                   if w < 2 else "no two windows (nor a window and the full sample) have the same determined "
-                   "number of relations, so no relation subspaces can be compared."))
-    elif stable:
-        verdict = (f"No change under {name}: comparing {what} ({len(comps)} comparisons), no angle exceeds "
-                   f"what sampling alone produces at the {lvl} level; largest angle "
-                   f"{float(np.nanmax(obs)):.3g} degrees.")
-    else:
-        k = int(np.nanargmax(np.where(change, obs / np.maximum(thr, 1e-12), -np.inf)))
-        i, j = comps[k]
-        other = "the full sample" if j < 0 else labels_t[j]
-        verdict = (f"Changes under {name}: {int(change.sum())} of {len(comps)} comparisons exceed what "
-                   f"sampling alone produces at the {lvl} level; e.g. {labels_t[i]} against {other}: "
-                   f"{obs[k]:.3g} degrees, above the threshold of {thr[k]:.3g} degrees.")
-    return SubspaceStability(
-        assumption=assumption, labels=labels_t, dims=dims, reference_dim=ref_dim, neighbour_pairs=npairs,
-        neighbour_deg=n_deg, neighbour_threshold_deg=n_thr, neighbour_change=n_chg, to_reference_deg=r_deg,
-        reference_threshold_deg=r_thr, reference_change=r_chg, pairwise_deg=p_deg, pairwise_change=p_chg,
-        pairwise_threshold_deg=p_thr,
-        max_to_reference_deg=_max_or_none(r_deg), max_neighbour_deg=_max_or_none(n_deg),
-        max_pairwise_deg=None if p_deg is None else _max_or_none(p_deg[np.triu_indices(w, 1)]),
-        family_critical=crit, compared=len(comps), not_comparable=tuple(not_comp), level=float(level),
-        resamples=int(resamples), stable=stable, rule=rule, verdict=verdict)
+                m = min(self.fam.size, mx.size)
+                self.fam = np.maximum(self.fam[:m], mx[:m])
+            self.resamples = nb if self.resamples == 0 else min(self.resamples, nb)
+
+    def finish(self) -> SubspaceStability:
+        """The plan's :class:`SubspaceStability` once every window has been added."""
+        if len(self.mats) != self.w:
+            raise ValueError(f"the plan has {self.w} windows; {len(self.mats)} were added")
+        w, mats, dims, usable, level = self.w, self.mats, tuple(self.dims), self.usable, self.level
+        labels_t = tuple(self.labels)
+        ref, ref_dim = self.ref, self.ref_dim
+        not_comp = []
+        usable_set = set(usable)
+        for i in range(w):
+            if i in usable_set:
+                continue
+            why = ("its corank is undetermined at the tolerance" if dims[i] is None else
+                   "no relation holds in it" if dims[i] == 0 else "it has no relation basis")
+            not_comp.append(f"{labels_t[i]}: {why}")
+        # the comparisons: (i, j) with j = -1 for the reference
+        neigh = [(a, b) for a, b in zip(usable, usable[1:]) if dims[a] == dims[b]]
+        pairwise = not self.streaming
+        pairs = ([(a, b) for k, a in enumerate(usable) for b in usable[k + 1:] if dims[a] == dims[b]]
+                 if pairwise else list(neigh))
+        # a single window is the whole plan: comparing it with the full sample compares nothing
+        refc = [(i, -1) for i in usable if ref_dim is not None and dims[i] == ref_dim and w >= 2]
+        comps = pairs + refc
+        if pairwise:   # every draw is held: the comparisons in window order, chunk by chunk
+            order = sorted(comps, key=lambda c: (max(c), c[0]))
+            for s0 in range(0, len(order), self.chunk):
+                self._process(order[s0:s0 + self.chunk])
+        elif self.pending:
+            part, self.pending = self.pending, []
+            self._process(part)
+        self.draws.clear()
+        # observed angles: one batched call per dimension
+        obs = np.full(len(comps), np.nan)
+        by_q: dict[int, list[int]] = {}
+        for k, (i, _) in enumerate(comps):
+            by_q.setdefault(dims[i], []).append(k)
+        for q, ks in by_q.items():
+            a = np.stack([mats[comps[k][0]] for k in ks])
+            b = np.stack([ref if comps[k][1] < 0 else mats[comps[k][1]] for k in ks])
+            obs[ks] = _largest_angles(a, b)
+        q_level = np.array([self.q_level.get(c, np.nan) for c in comps], dtype=float)
+        fam, resamples, assumption = self.fam, self.resamples, self.assumption
+        crit = float(np.quantile(fam, level)) if fam is not None else None
+        thr = q_level * crit if crit is not None else np.full(len(comps), np.nan)
+        change = obs > thr if crit is not None else np.zeros(len(comps), dtype=bool)
+        index = {c: k for k, c in enumerate(comps)}
+        npairs = np.array(neigh, dtype=int).reshape(-1, 2)
+        n_deg = np.array([obs[index[c]] for c in neigh], dtype=float)
+        n_thr = np.array([thr[index[c]] for c in neigh], dtype=float)
+        n_chg = np.array([bool(change[index[c]]) for c in neigh], dtype=bool)
+        r_deg = np.full(w, np.nan)
+        r_thr = np.full(w, np.nan)
+        r_chg = np.zeros(w, dtype=bool)
+        for (i, _), k in ((c, index[c]) for c in refc):
+            r_deg[i], r_thr[i], r_chg[i] = obs[k], thr[k], change[k]
+        p_deg = p_chg = p_thr = None
+        if pairwise:
+            p_deg = np.full((w, w), np.nan)
+            p_thr = np.full((w, w), np.nan)
+            p_chg = np.zeros((w, w), dtype=bool)
+            for i in usable:
+                p_deg[i, i] = 0.0
+            for (i, j) in pairs:
+                k = index[(i, j)]
+                p_deg[i, j] = p_deg[j, i] = obs[k]
+                p_thr[i, j] = p_thr[j, i] = thr[k]
+                p_chg[i, j] = p_chg[j, i] = change[k]
+        stable = None if not comps else not bool(change.any())
+        name = _assumption_name(assumption)
+        lvl = f"{1 - float(level):.0%}"
+        rule = (f"Each window is taken at its own corank under {name}; two subspaces count as different only "
+                f"where their largest principal angle exceeds what resampling produces when nothing changes "
+                f"(paired bootstrap resamples, {resamples} per window, carried onto one common subspace; the "
+                f"full sample treated as fixed), judged for all {len(comps)} comparisons together at the {lvl} "
+                f"level (max-T rule, Westfall & Young 1993).")
+        what = ("every pair of windows and each window against the full sample" if pairwise else
+                "neighbouring windows and each window against the full sample")
+        if stable is None:
+            verdict = (f"Cannot be judged under {name}: " + ("a single window has nothing to be compared with."
+                       if w < 2 else "no two windows (nor a window and the full sample) have the same determined "
+                       "number of relations, so no relation subspaces can be compared."))
+        elif stable:
+            verdict = (f"No change under {name}: comparing {what} ({len(comps)} comparisons), no angle exceeds "
+                       f"what sampling alone produces at the {lvl} level; largest angle "
+                       f"{float(np.nanmax(obs)):.3g} degrees.")
+        else:
+            k = int(np.nanargmax(np.where(change, obs / np.maximum(thr, 1e-12), -np.inf)))
+            i, j = comps[k]
+            other = "the full sample" if j < 0 else labels_t[j]
+            verdict = (f"Changes under {name}: {int(change.sum())} of {len(comps)} comparisons exceed what "
+                       f"sampling alone produces at the {lvl} level; e.g. {labels_t[i]} against {other}: "
+                       f"{obs[k]:.3g} degrees, above the threshold of {thr[k]:.3g} degrees.")
+        return SubspaceStability(
+            assumption=assumption, labels=labels_t, dims=dims, reference_dim=ref_dim, neighbour_pairs=npairs,
+            neighbour_deg=n_deg, neighbour_threshold_deg=n_thr, neighbour_change=n_chg, to_reference_deg=r_deg,
+            reference_threshold_deg=r_thr, reference_change=r_chg, pairwise_deg=p_deg, pairwise_change=p_chg,
+            pairwise_threshold_deg=p_thr,
+            max_to_reference_deg=_max_or_none(r_deg), max_neighbour_deg=_max_or_none(n_deg),
+            max_pairwise_deg=None if p_deg is None else _max_or_none(p_deg[np.triu_indices(w, 1)]),
+            family_critical=crit, compared=len(comps), not_comparable=tuple(not_comp), level=float(level),
+            resamples=int(resamples), stable=stable, rule=rule, verdict=verdict)
 
 
 def _assumption_name(aid: str) -> str:

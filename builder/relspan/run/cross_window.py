@@ -1,7 +1,9 @@
 """The cross-window stage: resampled relation bases per window, calibrated stability, the break scan.
 
-Runs inside :func:`relspan.run.pipeline.analyse_prepared`, after every window
-is analysed and while the dataset's granules are still held. Every random
+Runs inside :func:`relspan.run.pipeline.analyse_prepared` while the dataset's
+granules are still held: the stability of each plan as its window tasks finish
+(:class:`PlanFeed`, fed the bases each task hands over), the rest after every
+window is analysed. Every random
 draw comes from a stream named by ``(seed, dataset, plan, window)``
 (:func:`relspan.analysis.resample.window_rng`), so the numbers do not depend on
 ``--jobs``, the executor or the order windows were analysed in.
@@ -21,11 +23,11 @@ import numpy as np
 
 from relspan.analysis import resample
 from relspan.analysis.breaks import DatasetBreak, subspace_break_scan
-from relspan.analysis.stability import (TEST_LEVEL, SamplingSpread, SubspaceStability, compare_windows,
-                                        sampling_spread)
+from relspan.analysis.stability import (TEST_LEVEL, SamplingSpread, StabilityStream, SubspaceStability,
+                                        compare_windows, sampling_spread)
 
 __all__ = ["ResamplingOptions", "window_resamples", "resampled_bases", "plausible_coranks", "StabilityAsk",
-           "HandedDraws", "handed_draws", "hand_bytes",
+           "HandedDraws", "handed_draws", "PlanFeed",
            "plan_stability", "dataset_breaks", "full_sample_spread", "STABILITY_ASSUMPTIONS", "BREAK_PLAN",
            "FULL_PLAN"]
 
@@ -159,11 +161,6 @@ def handed_draws(cr: resample.CovarianceResamples, analysis, shape=None, pre=Non
             bases[a] = d.bases(a, int(own.shape[0]))
     plausible = {a: d.plausible(a) for a in ("equal", "bounded", "shaped") if a in analysis.coranks}
     return HandedDraws(resamples=cr.resamples, bases=bases, plausible=plausible)
-
-
-def hand_bytes(opts: ResamplingOptions, n: int) -> int:
-    """Bytes :class:`HandedDraws` may hold for one window at most (elementary plus one basis of n - 1 rows)."""
-    return int(opts.resamples) * n * 8 * n
 
 
 def _analysed(covs: np.ndarray, scale: str) -> tuple[np.ndarray, np.ndarray]:
@@ -378,6 +375,61 @@ def plan_stability(prepared, ds, plan_id: str, analyses: Sequence, full, *,
                                draws_of(i).plausible(a))
     plausible = {a: tuple(plaus[a].get(i) for i in range(len(analyses))) for a in ruled}
     return out, plausible
+
+
+class PlanFeed:
+    """:func:`plan_stability` of one plan, computed as the plan's window tasks finish.
+
+    Each window's task hands over its resampled bases (:class:`HandedDraws`);
+    :meth:`add` passes them to one :class:`~relspan.analysis.stability.StabilityStream`
+    per assumption, keeps the window's plausible coranks, and lets the bases go.
+    So every window is handed over, none is drawn again, and the stage holds at
+    most a few hundred windows' draws whatever the plan's size. :meth:`result`
+    gives what :func:`plan_stability` gives from the same windows (the same
+    comparisons in the same batches: the same bits), or None when some window
+    came without its draws (the stage then draws them itself).
+    """
+
+    __slots__ = ("opts", "windows", "added", "wanted", "ruled", "streams", "plaus", "complete")
+
+    def __init__(self, ds, windows: int, full, *, opts: ResamplingOptions | None = None) -> None:
+        self.opts = _for_plan(opts or _resampling_options(ds), windows)
+        self.windows, self.added = int(windows), 0
+        self.wanted = [a for a in STABILITY_ASSUMPTIONS if a in full.coranks and a in full.bases]
+        self.ruled = [a for a in self.wanted if a in ("equal", "bounded", "shaped")]
+        self.streams = {a: StabilityStream(windows, reference=_own_basis(full, a), assumption=a,
+                                           level=self.opts.test_level) for a in self.wanted}
+        self.plaus: dict[str, list] = {a: [] for a in self.ruled}
+        self.complete = windows >= 1
+
+    def add(self, analysis, handed: HandedDraws | None) -> None:
+        """The plan's next window (in order): its analysis and what its task handed over."""
+        self.added += 1
+        if not self.complete:
+            return
+        if handed is None or handed.resamples != self.opts.resamples:
+            self.complete = False
+            self.streams.clear()
+            return
+        for a in self.wanted:
+            own = _own_basis(analysis, a)
+            draws = handed.bases.get(a)
+            if own is not None and draws is None:
+                self.complete = False
+                self.streams.clear()
+                return
+            self.streams[a].add(own, analysis.coranks.get(a), draws, label=analysis.label)
+        for a in self.ruled:
+            self.plaus[a].append(handed.plausible.get(a))
+
+    def result(self) -> tuple[dict[str, SubspaceStability], dict[str, tuple]] | None:
+        """``(stability, plausible)`` as :func:`plan_stability` returns them; None if a window was not handed over."""
+        if not self.complete or self.added != self.windows:
+            return None
+        if not self.wanted:
+            return {}, {}
+        return ({a: self.streams[a].finish() for a in self.wanted},
+                {a: tuple(self.plaus[a]) for a in self.ruled})
 
 
 def _row_time(prepared, row1: int) -> str:

@@ -369,7 +369,8 @@ def _run_chunk_one_blas_thread(fn: Callable[[Any], Any], chunk: Sequence[Any]) -
 
 
 def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[Any], *,
-                  chunk_size: int | None = None, progress: _Counter | None = None) -> list:
+                  chunk_size: int | None = None, progress: _Counter | None = None,
+                  consume: Callable[[int, list], list] | None = None) -> list:
     """``[fn(x) for x in items]``, run on ``executor`` in chunks, in order.
 
     Parameters
@@ -387,11 +388,19 @@ def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[
     progress : object with ``update(k)``, optional
         Advanced by the number of items of each chunk as it finishes (e.g. a
         :class:`relspan.run.progress.Progress`).
+    consume : callable, optional
+        ``consume(start, results)`` is called in this process with each
+        chunk's results, in item order (``start`` is the index of the chunk's
+        first item), as soon as the chunk and every chunk before it have
+        finished; what it returns stands for those results in the list
+        returned, and the chunk's own results are let go. A stage that reads
+        each result once (the stability stage reads each window's resampled
+        bases) so holds a few chunks at a time, not all of them.
 
     Returns
     -------
     list
-        ``fn(item)`` for every item, in the order of ``items``.
+        ``fn(item)`` (or what ``consume`` made of it) for every item, in the order of ``items``.
 
     Raises
     ------
@@ -407,17 +416,35 @@ def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[
     elif isinstance(chunk_size, bool) or not isinstance(chunk_size, int) or chunk_size < 1:
         raise ValueError(f"chunk_size must be an integer >= 1; got {chunk_size!r}")
     chunks = [items[i:i + chunk_size] for i in range(0, len(items), chunk_size)]
-    futures: list[Future] = []
+    futures: list[Future | None] = []
     index: dict[Future, int] = {}
     pending: set[Future] = set()
     failed = False
+    done_chunks: list[list | None] = [None] * len(chunks)
+    settled = [False] * len(chunks)
+    delivered = 0     # chunks handed to ``consume`` (or kept), in order
 
     def settle(f: Future) -> None:
         nonlocal failed
         if f.cancelled() or f.exception() is not None:
             failed = True
-        elif progress is not None:
+            return
+        settled[index[f]] = True
+        if progress is not None:
             progress.update(len(chunks[index[f]]))
+
+    def deliver() -> None:
+        """Hand every finished chunk to ``consume`` in order, up to the first one still running."""
+        nonlocal delivered
+        while not failed and delivered < len(futures):
+            f = futures[delivered]
+            if f is None or not settled[delivered]:
+                return
+            got = f.result()
+            done_chunks[delivered] = consume(delivered * chunk_size, got) if consume is not None else got
+            futures[delivered] = None     # the future (and a worker's pickled results) can go
+            del index[f]
+            delivered += 1
 
     # one BLAS thread in every executor, the serial one included: a BLAS splitting a product over
     # threads may sum in another order, and results must be identical bit for bit across --jobs
@@ -430,21 +457,24 @@ def map_in_chunks(executor: Executor, fn: Callable[[Any], Any], items: Iterable[
             settle(f)
             if failed:
                 break
+            deliver()
         else:
             pending.add(f)
     while pending and not failed:
         done, pending = wait(pending, return_when=FIRST_COMPLETED)
         for f in sorted(done, key=index.__getitem__):
             settle(f)
+        deliver()
     if failed:
         for f in pending:
             f.cancel()
         wait(pending)
         for f in futures:
-            if not f.cancelled() and f.exception() is not None:
+            if f is not None and not f.cancelled() and f.exception() is not None:
                 raise f.exception()
         raise RuntimeError("a chunk of tasks was cancelled before it ran")
+    deliver()
     results: list = []
-    for f in futures:
-        results.extend(f.result())
+    for got in done_chunks:
+        results.extend(got)
     return results

@@ -291,12 +291,14 @@ def _flats(analysis: WindowAnalysis, examined: Sequence[int]) -> dict:
 
 def _plan_summaries(ds: DatasetSpec, prepared, plan: WindowPlanSpec, windows: Sequence,
                     analyses: Sequence[WindowAnalysis], full: WindowAnalysis,
-                    examined: Sequence[int], handed: Sequence | None = None) -> PlanResult:
+                    examined: Sequence[int], feed=None) -> PlanResult:
     from relspan.run.cross_window import plan_stability
 
     labels = [a.label for a in analyses]
-    # each window at its own corank, judged against resampling (relspan.run.cross_window)
-    stability, plausible = plan_stability(prepared, ds, plan.id, analyses, full, handed=handed)
+    # each window at its own corank, judged against resampling (relspan.run.cross_window): computed
+    # as the window tasks finished (the feed), or here, drawing each window, when some were not handed
+    done = feed.result() if feed is not None else None
+    stability, plausible = done if done is not None else plan_stability(prepared, ds, plan.id, analyses, full)
     swings: dict = {}
     for assumption in full.coefficients:
         vals = [a.coefficients.get(assumption) for a in analyses]
@@ -339,64 +341,80 @@ def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec],
     items = [(full_m, names, options, common_std, "full sample", granules(None, 0), resampling,
               (ds.id, FULL_SAMPLE_PLAN, 0), None)]
     spans = []
-    budget = HAND_BYTES
     for plan in plans:
         pairs = window_moments(prepared, plan.id)
         spans.append((plan, [w for w, _ in pairs], len(items), len(items) + len(pairs)))
         plan_resampling = diagonal_scope(resampling, plan.kind, len(pairs))
-        asks = _stability_asks(ds, plan, len(pairs), len(names), budget)
-        budget -= sum(a is not None for a in asks) * _hand_bytes(ds, len(pairs), len(names))
+        asks = _stability_asks(ds, plan, len(pairs))
         items.extend((m, names, options, common_std, w.label, granules(plan.id, i, asks[i] is not None),
                       plan_resampling, (ds.id, plan.id, i), asks[i]) for i, (w, m) in enumerate(pairs))
     items = _with_elementary(items, names)
     executor = executor or SerialExecutor()
-    results = map_in_chunks(executor, _analyse_task, items, progress=progress)
+    feeds: dict[str, object] = {}
+    span_of = [None] * len(items)
+    for plan, _, a, b in spans:
+        span_of[a:b] = [(plan, b - a)] * (b - a)
+    full_of: list = []
+
+    def consume(start: int, chunk: list) -> list:
+        """Each window's handed draws go to its plan's stability feed as the window's chunk finishes."""
+        from relspan.run.cross_window import PlanFeed
+
+        out = []
+        for k, r in enumerate(chunk):
+            i = start + k
+            if i == 0:
+                full_of.append(r[0])
+            elif len(r) > 2:
+                plan, w = span_of[i]
+                if plan.id not in feeds:
+                    feeds[plan.id] = PlanFeed(ds, w, full_of[0])
+                feeds[plan.id].add(r[0], r[2])
+                r = r[:2]     # the draws are read: let them go
+            out.append(r)
+        return out
+
+    # the stability feeds run here, with one BLAS thread as the window tasks (small products)
+    from relspan.run.executors import one_blas_thread
+
+    with one_blas_thread():
+        results = map_in_chunks(executor, _analyse_task, items, progress=progress, consume=consume)
     sink = warn_sink if warn_sink is not None else []
     for i, (_, raised, *_h) in enumerate(results):  # say which dataset and plan a window belongs to
         plan_id = next((p.id for p, _, a, b in spans if a <= i < b), None)
         sink.extend(w.located(dataset=ds.id, plan=plan_id) for w in raised)
     analyses = [r[0] for r in results]
-    handed = [r[2] if len(r) > 2 else None for r in results]
     del results
     # the cross-window stage runs here, with one BLAS thread as the window tasks (small products)
-    from relspan.run.executors import one_blas_thread
-
     with one_blas_thread():
         return _cross_window(ds, prepared, plans, analyses, spans, options, common_std, resampling, sink,
-                             cache_key, handed)
+                             cache_key, feeds)
 
 
-#: bytes of resampled bases the window tasks hand to the stability stage for one dataset at most
-#: (estimated per window by :func:`relspan.run.cross_window.hand_bytes`); windows beyond it are
-#: drawn again by the stage (the same stream, the same bits)
-HAND_BYTES = 256 * 2**20
+#: the window tasks hand their resampled bases to the stability stage, which reads them as the tasks
+#: finish (:class:`relspan.run.cross_window.PlanFeed`); False: the stage draws every window again
+#: itself (the same stream, the same bits; the path the tests compare the hand-over with)
+HAND_OVER = True
 
 
-def _hand_bytes(ds: DatasetSpec, windows: int, n: int) -> int:
-    from relspan.run.cross_window import hand_bytes, plan_options
-
-    return hand_bytes(plan_options(ds, windows), n)
-
-
-def _stability_asks(ds: DatasetSpec, plan: WindowPlanSpec, windows: int, n: int, budget: int) -> list:
+def _stability_asks(ds: DatasetSpec, plan: WindowPlanSpec, windows: int) -> list:
     """Per window of a plan, the :class:`~relspan.run.cross_window.StabilityAsk` its task answers (or None).
 
-    Windows are asked in order while the estimated bytes fit ``budget``; none
-    when no assumption of the spec has a stability comparison.
+    Every window is asked (the stage consumes the draws as tasks finish, so
+    they are never all held); none when no assumption of the spec has a
+    stability comparison, or when :data:`HAND_OVER` is off.
     """
     from relspan.run.cross_window import STABILITY_ASSUMPTIONS, StabilityAsk, plan_options
 
-    if not any(a in STABILITY_ASSUMPTIONS for a in ds.checks.assumptions):
+    if not HAND_OVER or not any(a in STABILITY_ASSUMPTIONS for a in ds.checks.assumptions):
         return [None] * windows
     opts = plan_options(ds, windows)
-    fit = max(0, min(windows, budget // max(_hand_bytes(ds, windows, n), 1)))
     shape = ds.noise_shape
-    return [StabilityAsk(opts=opts, shape=shape, seed_key=(ds.id, plan.id, i)) if i < fit else None
-            for i in range(windows)]
+    return [StabilityAsk(opts=opts, shape=shape, seed_key=(ds.id, plan.id, i)) for i in range(windows)]
 
 
 def _cross_window(ds: DatasetSpec, prepared, plans, analyses, spans, options, common_std, resampling,
-                  sink: list, cache_key: str, handed: Sequence | None = None) -> DatasetResult:
+                  sink: list, cache_key: str, feeds: dict | None = None) -> DatasetResult:
     """Everything after the window tasks: stability, breaks, spread, trends, influence, findings."""
     from relspan.analysis.findings import dataset_findings, dataset_summary
     from relspan.analysis.identified import identified_quantities
@@ -405,11 +423,11 @@ def _cross_window(ds: DatasetSpec, prepared, plans, analyses, spans, options, co
     full = analyses[0]
     examined, examined_from = _choose_examined(ds, full)
     threshold = float(ds.checks.max_angle_deg)
-    handed = list(handed) if handed is not None else [None] * len(analyses)
+    feeds = feeds or {}
     plan_results = []
     for plan, wins, a, b in spans:
-        plan_results.append(_plan_summaries(ds, prepared, plan, wins, analyses[a:b], full, examined, handed[a:b]))
-        handed[a:b] = [None] * (b - a)   # read once: let them go
+        plan_results.append(_plan_summaries(ds, prepared, plan, wins, analyses[a:b], full, examined,
+                                            feeds.pop(plan.id, None)))
     plan_results = tuple(plan_results)
     from relspan.run.cross_window import dataset_breaks, full_sample_spread
 
