@@ -39,7 +39,7 @@ def coverage_design() -> tuple[np.ndarray, np.ndarray, float, float, float]:
 
 
 def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: float = 0.90,
-             seed: int = 2024, studentized: bool = False) -> dict[str, float]:
+             seed: int = 2024, studentized: bool = False, widths: bool = False) -> dict[str, float]:
     """Share of simulated datasets whose nominal-``level`` intervals cover the truth.
 
     Per dataset: two windows of ``t`` rows, the relation turned by 20 degrees between them. Intervals:
@@ -53,7 +53,10 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
     the pipeline showed before), the studentised intervals of
     :func:`relspan.analysis.resample.studentized_interval` (keys ending in ``" (studentized)"``, with
     the pipeline's resolution rule) and the same on the log scale for the eigenvalue and the angle
-    (keys ending in ``" (log studentized)"``), and ``"eigenvalue (pipeline, log)"``.
+    (keys ending in ``" (log studentized)"``), and ``"eigenvalue (pipeline, log)"``. ``widths=True``
+    (with ``studentized``) adds the median and the 95th percentile over datasets of the ratio of the
+    studentised eigenvalue interval's width to the basic one's (``"width ratio (median)"``,
+    ``"width ratio (p95)"``).
     """
     from relspan.analysis.inference import SE_RESOLUTION, eigenvalue_intervals
     from relspan.analysis.intervals import (angle_interval, coefficient_intervals, interval,
@@ -69,6 +72,7 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
                  "coefficient (studentized)", "angle (studentized)", "eigenvalue (log studentized)",
                  "angle (log studentized)"]
     hits = dict.fromkeys(keys, 0)
+    ratios = []
 
     def smallest(cov):
         return np.linalg.eigh(cov)[1][:, 0]
@@ -104,12 +108,14 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
                "angle": a.contains(true_angle)}
         if studentized:
             floor = SE_RESOLUTION * float(w[-1])
-            got["eigenvalue (basic)"] = interval(float(w[0]), wb[:, 0], level=level, method="basic").contains(true_eig)
+            eb = interval(float(w[0]), wb[:, 0], level=level, method="basic")
+            got["eigenvalue (basic)"] = eb.contains(true_eig)
             got["eigenvalue (pipeline, log)"] = eigenvalue_intervals(st1, r1, w, wb, scale="as given", level=level,
                                                                      log=True)[0][0].contains(true_eig)
             se, se_b = sd_pair(st1, r1, eig)
-            got["eigenvalue (studentized)"] = studentized_interval(float(w[0]), wb[:, 0], se, se_b, level=level,
-                                                                   resolution=floor).contains(true_eig)
+            es = studentized_interval(float(w[0]), wb[:, 0], se, se_b, level=level, resolution=floor)
+            got["eigenvalue (studentized)"] = es.contains(true_eig)
+            ratios.append((es.high - es.low) / (eb.high - eb.low))
             got["eigenvalue (log studentized)"] = studentized_interval(
                 float(w[0]), wb[:, 0], se, se_b, level=level, resolution=floor, log=True).contains(true_eig)
             sc, sc_b = sd_pair(st1, r1, coef)
@@ -135,4 +141,10 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
                                                                   log=True).contains(true_angle)
         for k, v in got.items():
             hits[k] += bool(v)
-    return {k: hits[k] / datasets for k in keys}
+    out = {k: hits[k] / datasets for k in keys}
+    if studentized and widths:
+        r = np.asarray(ratios, dtype=float)
+        r = np.where(np.isfinite(r), r, np.inf)
+        out["width ratio (median)"] = float(np.median(r))
+        out["width ratio (p95)"] = float(np.quantile(r, 0.95))
+    return out

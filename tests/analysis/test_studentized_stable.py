@@ -15,9 +15,9 @@ import math
 import numpy as np
 import pytest
 
-from relspan.analysis.inference import (MIN_BLOCKS, SE_RESOLUTION, ResamplingOptions, draw_window,
+from relspan.analysis.inference import (SE_RESOLUTION, ResamplingOptions, draw_window,
                                         eigenvalue_intervals, window_inference)
-from relspan.analysis.resample import (GranuleStats, blocks_per_resample, resample_influence_sd,
+from relspan.analysis.resample import (GranuleStats, blocks_per_resample, drawn_blocks, resample_influence_sd,
                                        studentized_interval)
 
 
@@ -134,22 +134,28 @@ def test_near_exact_relation_stays_finite_and_close_to_the_basic_interval():
     assert small.low <= small.estimate <= small.high <= 3 * small.estimate
 
 
-def test_few_blocks_keep_the_basic_interval():
-    # 144 rows with mean blocks of 36: 4 block lengths in the window, fewer than MIN_BLOCKS. About 2% of
-    # stationary resamples are then a single block (a rotation of the window).
+def test_few_blocks_single_block_resamples_are_left_out():
+    # 144 rows with mean blocks of 36: 4 block lengths in the window, so about 2% of stationary resamples
+    # are a single block (a rotation of the window); they are left out of every eigenvalue's interval.
     rng = np.random.default_rng(10)
     x = _ar_rows(rng, 144, 0.9, np.array([[1.0, 0.2], [0.3, 1.0], [0.8, 0.7]]), 0.1)
-    got = _eig_intervals(x, block_length=36.0)
-    assert [iv.method for iv in got.eigenvalues] == ["basic"] * 3
-    assert f"fewer than the {MIN_BLOCKS}" in got.rules["eigenvalues"]
+    stats = GranuleStats.from_rows(x, ordered=True)
+    opts = ResamplingOptions(resamples=499, level=0.90, scheme="stationary", seed=3, block_length=36.0)
+    res = draw_window(stats, options=opts, seed_key=("d", "p", 0))
+    single = int(np.sum(blocks_per_resample(drawn_blocks(res)[1]) == 1))
+    assert single > 0
+    got = _eig_intervals(x, block_length=36.0, resamples=499)
+    assert [iv.method for iv in got.eigenvalues] == ["studentized"] * 3
+    assert all(iv.resamples == 499 - single for iv in got.eigenvalues)
+    assert all(iv.low <= iv.estimate <= iv.high < np.inf for iv in got.eigenvalues)
 
 
 @pytest.mark.parametrize("scale", ["as given", "correlation"])
 def test_intervals_do_not_follow_last_bit_changes_of_the_data(scale):
     # Two BLAS kernels differ in the last bits of the co-moments; mimic that by changing every row by a
     # relative 1e-15 and require the eigenvalue intervals to agree to 1e-9 relative (published: at most
-    # 9 significant digits). Both a window the rule studentises (T = 400, short blocks) and one it does
-    # not (T = 144, long blocks, where single-block resamples once made the ends arbitrary).
+    # 9 significant digits). Both a window with short blocks (T = 400) and one with long blocks (T = 144,
+    # 4 block lengths, where single-block resamples once made the ends arbitrary).
     for t, rho, blen in ((400, 0.5, None), (144, 0.9, 36.0)):
         rng = np.random.default_rng(t)
         x = _ar_rows(rng, t, rho, np.array([[1.0, 0.2], [0.3, 1.0], [0.8, 0.7], [0.1, 0.9]]), 0.1)

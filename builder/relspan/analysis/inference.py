@@ -67,7 +67,7 @@ __all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInfere
            "imbens_manski_outer", "diagonal_corank_of", "diagonal_coranks_of", "DEFAULT_DIAGONAL_RESAMPLES",
            "EQUAL_RULE", "FULL_SAMPLE_PLAN", "DIAGONAL_PLAN_KINDS",
            "DIAGONAL_SCOPE_RULE", "diagonal_scope", "MANY_WINDOWS", "MANY_WINDOWS_RESAMPLES",
-           "MANY_WINDOWS_RULE", "eigenvalue_gradient", "eigenvalue_intervals", "MIN_BLOCKS", "SE_RESOLUTION"]
+           "MANY_WINDOWS_RULE", "eigenvalue_gradient", "eigenvalue_intervals", "SE_RESOLUTION"]
 
 #: resamples behind the diagonal-noise support (each needs a corank search of its own)
 DEFAULT_DIAGONAL_RESAMPLES = 99
@@ -644,8 +644,6 @@ def eigenvalue_gradient(cov, j: int, *, scale: str) -> np.ndarray:
     return np.outer(vec[:, j], vec[:, j])
 
 
-#: fewest mean block lengths a window's granules must hold for its eigenvalues to be studentised
-MIN_BLOCKS = 10
 #: standard errors at most this share of the window's largest eigenvalue count as zero (not resolved)
 SE_RESOLUTION = 1e-8
 #: the eigenvalue intervals are studentised on the log scale (they are positive)
@@ -653,18 +651,13 @@ EIGENVALUE_LOG_SCALE = False
 
 #: the eigenvalue intervals for block resamples, in words (methods page, results.json)
 STUDENTIZED_RULE = ("Studentised (bootstrap-t) intervals (Hall 1988) of the eigenvalues on the {scale} scale, "
-                    "from {resamples} block resamples ({blocks:.3g} mean block lengths in the window): each "
-                    "resample is standardised by its own standard error from the sums of influence values over "
+                    "from {resamples} block resamples: each resample is standardised by its own standard error from the sums of influence values over "
                     "its blocks (Goetze & Kuensch 1996), and the interval's scale is the standard error from the "
                     "flat-top lag-window long-run variance of the influence values (Politis & Romano 1995). "
                     "Resamples made of a single block (a rotation of the window itself, with no standard error "
                     "of their own) are left out, and so are standard errors at most {res:g} of the largest "
                     "eigenvalue (not resolved from rounding); an eigenvalue whose own standard error is that "
                     "small gets the basic interval. Lower ends below 0 set to 0.")
-FEW_BLOCKS_RULE = ("Basic bootstrap intervals (Davison & Hinkley 1997) of the eigenvalues on the {scale} scale, "
-                   "from {resamples} block resamples; lower ends below 0 set to 0. Not studentised: the window "
-                   "holds {blocks:.3g} mean block lengths, fewer than the {min_blocks} a resample's own "
-                   "standard error needs (it has about one degree of freedom per block).")
 BASIC_RULE = ("Basic bootstrap intervals (Davison & Hinkley 1997) of the eigenvalues on the {scale} scale, from "
               "{resamples} resamples; lower ends below 0 set to 0.")
 
@@ -673,20 +666,18 @@ def eigenvalue_intervals(stats_: GranuleStats, res: CovarianceResamples, estimat
                          level: float, log: bool | None = None) -> tuple[list[Interval], str]:
     """Intervals of the eigenvalues (ascending) on the analysis scale, and the rule that made them.
 
-    Block resamples of time-ordered rows (``res.scheme`` moving or stationary)
-    whose window holds at least :data:`MIN_BLOCKS` mean block lengths
-    (granules over block length): blockwise studentised intervals
+    Block resamples of time-ordered rows (``res.scheme`` moving or stationary):
+    blockwise studentised intervals
     (:func:`relspan.analysis.resample.studentized_interval`), which cover
-    closer to the stated level than the basic interval under autocorrelation
-    (docs/inference.md, measured coverage). Three rules keep them stable:
+    closer to the stated level than the basic interval under autocorrelation,
+    in short windows with few blocks too (docs/inference.md, measured
+    coverage). Two rules keep them stable across BLAS kernels:
 
     - a resample made of one block has no standard error of its own (its one
       centred block sum is zero; floating point leaves rounding, which differs
       between BLAS kernels and gave the studentised quantiles arbitrary values)
-      and is left out (:func:`relspan.analysis.resample.resample_influence_sd`);
-    - a window with fewer than :data:`MIN_BLOCKS` mean block lengths keeps the
-      basic interval: its resamples' standard errors have only a few degrees of
-      freedom each, so the studentised quantiles are dominated by their noise;
+      and is left out (:func:`relspan.analysis.resample.resample_influence_sd`):
+      it is a rotation of the window, whose statistic is the estimate;
     - standard errors at most :data:`SE_RESOLUTION` times the largest
       eigenvalue count as zero (an exact relation's eigenvalue is rounding and
       so is its standard error): such resamples are left out, and an eigenvalue
@@ -717,27 +708,20 @@ def eigenvalue_intervals(stats_: GranuleStats, res: CovarianceResamples, estimat
     out = list(basic)
     rule = BASIC_RULE.format(scale=scale, resamples=res.resamples)
     use_log = EIGENVALUE_LOG_SCALE if log is None else bool(log)
-    if res.scheme != "iid":
-        held = float(res.granules) / max(float(res.block_length), 1.0)
-        blocks = drawn_blocks(res) if held >= MIN_BLOCKS else None
-        if blocks is None:
-            rule = FEW_BLOCKS_RULE.format(scale=scale, resamples=res.resamples, blocks=held,
-                                          min_blocks=MIN_BLOCKS)
-        else:
-            rule = STUDENTIZED_RULE.format(scale=scale, resamples=res.resamples, blocks=held,
-                                           res=SE_RESOLUTION)
-            idx, blk = blocks
-            cov = res.estimate
-            top = float(np.max(np.abs(est))) if est.size else 0.0
-            floor = SE_RESOLUTION * top
-            for j in range(est.shape[0]):
-                u = influence_values(stats_, eigenvalue_gradient(cov, j, scale=scale))
-                se = influence_sd(u, stats_.counts, ordered=True)
-                iv = studentized_interval(float(est[j]), d[:, j], se,
-                                          resample_influence_sd(u, stats_.counts, idx, blk), level=level,
-                                          resolution=floor, log=use_log)
-                if np.isfinite(iv.low) and np.isfinite(iv.high):
-                    out[j] = iv
+    blocks = drawn_blocks(res) if res.scheme != "iid" else None
+    if blocks is not None:
+        rule = STUDENTIZED_RULE.format(scale=scale, resamples=res.resamples, res=SE_RESOLUTION)
+        idx, blk = blocks
+        cov = res.estimate
+        floor = SE_RESOLUTION * (float(np.max(np.abs(est))) if est.size else 0.0)
+        for j in range(est.shape[0]):
+            u = influence_values(stats_, eigenvalue_gradient(cov, j, scale=scale))
+            se = influence_sd(u, stats_.counts, ordered=True)
+            iv = studentized_interval(float(est[j]), d[:, j], se,
+                                      resample_influence_sd(u, stats_.counts, idx, blk), level=level,
+                                      resolution=floor, log=use_log)
+            if np.isfinite(iv.low) and np.isfinite(iv.high):
+                out[j] = iv
     eig = [Interval(iv.estimate, max(iv.low, 0.0), iv.high, iv.level, iv.method, iv.resamples) for iv in out]
     return eig, rule
 
