@@ -253,7 +253,8 @@ def run_breaks(runs: int) -> None:
 
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", nargs="?", choices=("coverage", "corank", "blocks", "breaks", "fewblocks", "all"), default="all")
+    ap.add_argument("what", nargs="?", default="all",
+                    choices=("coverage", "corank", "blocks", "breaks", "fewblocks", "all"))
     ap.add_argument("--datasets", type=int, default=400)
     ap.add_argument("--runs", type=int, default=40)
     ap.add_argument("--cells", default="", help="coverage: comma-separated cell numbers (default all)")

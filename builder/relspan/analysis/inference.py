@@ -651,9 +651,10 @@ EIGENVALUE_LOG_SCALE = False
 
 #: the eigenvalue intervals for block resamples, in words (methods page, results.json)
 STUDENTIZED_RULE = ("Studentised (bootstrap-t) intervals (Hall 1988) of the eigenvalues on the {scale} scale, "
-                    "from {resamples} block resamples: each resample is standardised by its own standard error from the sums of influence values over "
-                    "its blocks (Goetze & Kuensch 1996), and the interval's scale is the standard error from the "
-                    "flat-top lag-window long-run variance of the influence values (Politis & Romano 1995). "
+                    "from {resamples} block resamples: each resample is standardised by its own standard error "
+                    "from the sums of influence values over its blocks (Goetze & Kuensch 1996), and the "
+                    "interval's scale is the standard error from the flat-top lag-window long-run variance of "
+                    "the influence values (Politis & Romano 1995). "
                     "Resamples made of a single block (a rotation of the window itself, with no standard error "
                     "of their own) are left out, and so are standard errors at most {res:g} of the largest "
                     "eigenvalue (not resolved from rounding); an eigenvalue whose own standard error is that "
