@@ -3,6 +3,7 @@
     .venv/bin/python benchmarks/inference_checks.py coverage [--datasets 400]   # 90% intervals
     .venv/bin/python benchmarks/inference_checks.py corank [--datasets 400]     # equal-noise corank rule
     .venv/bin/python benchmarks/inference_checks.py blocks [--datasets 400]     # why AR(1) coverage is low
+    .venv/bin/python benchmarks/inference_checks.py fewblocks [--datasets 400]  # short windows: basic kept
     .venv/bin/python benchmarks/inference_checks.py breaks [--runs 40]          # break scan
     .venv/bin/python benchmarks/inference_checks.py                             # all three
 
@@ -29,20 +30,66 @@ from tests.analysis.inference_sims import coverage, coverage_design, one_relatio
 
 #: coverage cells: label, AR(1) coefficient, rows per window, seed
 COVERAGE_CELLS = (("iid, T = 400", 0.0, 400, 11), ("iid, T = 800", 0.0, 800, 13),
-                  ("AR(1) 0.5, T = 400", 0.5, 400, 2024), ("AR(1) 0.5, T = 400", 0.5, 400, 31),
-                  ("AR(1) 0.5, T = 800", 0.5, 800, 7), ("AR(1) 0.5, T = 800", 0.5, 800, 32))
+                  ("AR(1) 0.5, T = 400", 0.5, 400, 2024), ("AR(1) 0.5, T = 800", 0.5, 800, 7))
+
+#: columns of the coverage table: (heading, key of tests.analysis.inference_sims.coverage)
+COVERAGE_COLUMNS = (("eig basic", "eigenvalue (basic)"), ("eig pipeline", "eigenvalue"),
+                    ("eig log", "eigenvalue (pipeline, log)"), ("coef pct", "coefficient"),
+                    ("coef stud", "coefficient (studentized)"), ("angle basic", "angle"),
+                    ("angle stud", "angle (studentized)"), ("angle log", "angle (log studentized)"))
 
 
-def run_coverage(datasets: int) -> None:
+def run_coverage(datasets: int, cells: str = "") -> None:
+    """Coverage table; ``cells`` a comma-separated list of cell numbers (0-based) to run, all by default.
+
+    Prints each share with its Monte Carlo standard error ``sqrt(p (1 - p) / N)``.
+    """
+    chosen = [int(c) for c in cells.split(",") if c.strip()] if cells else range(len(COVERAGE_CELLS))
     print(f"coverage of nominal 90% intervals, {datasets} datasets per cell, 199 resamples per window")
-    print("as the pipeline computes them (eigenvalue basic, coefficient percentile, angle basic) | studentised")
-    print(f"{'rows (seed)':<28} {'eigenvalue':>10} {'coefficient':>12} {'angle':>7} | "
-          f"{'eigenvalue':>10} {'coefficient':>12} {'angle':>7}")
-    for label, rho, t, seed in COVERAGE_CELLS:
+    print("eig basic: the interval shown before; eig pipeline: what window_inference shows now (studentised "
+          "for AR(1) rows, basic for iid); eig log: the same studentised on the log scale; coef pct / "
+          "angle basic: the pipeline's; *stud: studentised from the same resamples")
+    print(f"{'rows (seed)':<26} " + " ".join(f"{h:>14}" for h, _ in COVERAGE_COLUMNS))
+    for i in chosen:
+        label, rho, t, seed = COVERAGE_CELLS[i]
         c = coverage(rho=rho, t=t, datasets=datasets, seed=seed, studentized=True)
-        print(f"{label + f' ({seed})':<28} {c['eigenvalue']:>10.3f} {c['coefficient']:>12.3f} {c['angle']:>7.3f} | "
-              f"{c['eigenvalue (studentized)']:>10.3f} {c['coefficient (studentized)']:>12.3f} "
-              f"{c['angle (studentized)']:>7.3f}", flush=True)
+        cols = []
+        for _, key in COVERAGE_COLUMNS:
+            p = c[key]
+            cols.append(f"{p:.3f} ({(p * (1 - p) / datasets) ** 0.5:.3f})")
+        print(f"{label + f' ({seed})':<26} " + " ".join(f"{x:>14}" for x in cols), flush=True)
+
+
+#: short windows: label, AR(1) coefficient, rows per window, seed
+FEW_BLOCK_CELLS = (("AR(1) 0.5, T = 100", 0.5, 100, 41), ("AR(1) 0.8, T = 100", 0.8, 100, 42),
+                   ("AR(1) 0.9, T = 100", 0.9, 100, 43), ("AR(1) 0.9, T = 200", 0.9, 200, 44),
+                   ("AR(1) 0.95, T = 100", 0.95, 100, 47), ("AR(1) 0.95, T = 200", 0.95, 200, 45))
+
+
+def run_few_blocks(datasets: int) -> None:
+    """Short, strongly dependent windows, whose resamples hold few blocks: studentised against basic.
+
+    ``k / b``: rows over the automatic mean block length (median over 200 datasets of the cell's design);
+    "one block": the share of resamples made of a single block (left out of the studentised interval).
+    Widths: the ratio of the studentised interval's width to the basic one's, median and 95th percentile
+    over datasets.
+    """
+    from relspan.analysis.resample import politis_white_block_length
+
+    s1, *_ = coverage_design()
+    print(f"smallest eigenvalue, nominal 90%, {datasets} datasets per cell, 199 stationary resamples")
+    print(f"{'rows (seed)':<26} {'k / b':>7} {'one block':>10} {'basic':>14} {'studentised':>14} "
+          f"{'width ratio: median':>20} {'p95':>6}")
+    for label, rho, t, seed in FEW_BLOCK_CELLS:
+        rng = np.random.default_rng(seed + 1000)
+        blen = np.array([politis_white_block_length(rows(rng, s1, t, rho)).value for _ in range(200)])
+        one = float(np.mean((1.0 - 1.0 / blen) ** (t - 1)))   # P(no new block after the first)
+        c = coverage(rho=rho, t=t, datasets=datasets, seed=seed, studentized=True, widths=True)
+        se = (lambda p: (p * (1 - p) / datasets) ** 0.5)
+        cols = [f"{c[k]:.3f} ({se(c[k]):.3f})" for k in ("eigenvalue (basic)", "eigenvalue")]
+        print(f"{label + f' ({seed})':<26} {np.median(t / blen):>7.1f} {one:>10.3f} "
+              + " ".join(f"{x:>14}" for x in cols)
+              + f" {c['width ratio (median)']:>20.2f} {c['width ratio (p95)']:>6.2f}", flush=True)
 
 
 def run_blocks(datasets: int, *, t: int = 400, rho: float = 0.5, seed: int = 11) -> None:
@@ -206,16 +253,20 @@ def run_breaks(runs: int) -> None:
 
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", nargs="?", choices=("coverage", "corank", "blocks", "breaks", "all"), default="all")
+    ap.add_argument("what", nargs="?", default="all",
+                    choices=("coverage", "corank", "blocks", "breaks", "fewblocks", "all"))
     ap.add_argument("--datasets", type=int, default=400)
     ap.add_argument("--runs", type=int, default=40)
+    ap.add_argument("--cells", default="", help="coverage: comma-separated cell numbers (default all)")
     a = ap.parse_args()
     if a.what in ("corank", "all"):
         run_corank(a.datasets)
     if a.what in ("coverage", "all"):
-        run_coverage(a.datasets)
+        run_coverage(a.datasets, a.cells)
     if a.what in ("blocks", "all"):
         run_blocks(a.datasets)
+    if a.what in ("fewblocks", "all"):
+        run_few_blocks(a.datasets)
     if a.what in ("breaks", "all"):
         run_breaks(a.runs)
 

@@ -39,17 +39,26 @@ def coverage_design() -> tuple[np.ndarray, np.ndarray, float, float, float]:
 
 
 def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: float = 0.90,
-             seed: int = 2024, studentized: bool = False) -> dict[str, float]:
+             seed: int = 2024, studentized: bool = False, widths: bool = False) -> dict[str, float]:
     """Share of simulated datasets whose nominal-``level`` intervals cover the truth.
 
     Per dataset: two windows of ``t`` rows, the relation turned by 20 degrees between them. Intervals:
-    the smallest eigenvalue of window 1 (basic), the normalised coefficient of x1 in the relation solved
+    the smallest eigenvalue of window 1 (the pipeline's own
+    :func:`relspan.analysis.inference.eigenvalue_intervals`: blockwise studentised for AR(1) rows,
+    basic for iid rows), the normalised coefficient of x1 in the relation solved
     for x3 (percentile, Procrustes-aligned bases) and the largest principal angle between the windows
     (basic, independent resamples of each window). Truth: the population covariance's values.
 
-    ``studentized=True`` adds, from the same data and resamples, the studentised intervals of
-    :func:`relspan.analysis.resample.studentized_interval` (keys ending in ``" (studentized)"``).
+    ``studentized=True`` adds, from the same data and resamples: ``"eigenvalue (basic)"`` (the interval
+    the pipeline showed before), the studentised intervals of
+    :func:`relspan.analysis.resample.studentized_interval` (keys ending in ``" (studentized)"``, with
+    the pipeline's resolution rule) and the same on the log scale for the eigenvalue and the angle
+    (keys ending in ``" (log studentized)"``), and ``"eigenvalue (pipeline, log)"``. ``widths=True``
+    (with ``studentized``) adds the median and the 95th percentile over datasets of the ratio of the
+    studentised eigenvalue interval's width to the basic one's (``"width ratio (median)"``,
+    ``"width ratio (p95)"``).
     """
+    from relspan.analysis.inference import SE_RESOLUTION, eigenvalue_intervals
     from relspan.analysis.intervals import (angle_interval, coefficient_intervals, interval,
                                             largest_angle_stack, relation_bases)
     from relspan.analysis.resample import (GranuleStats, influence_sd, influence_values, resample_covariances,
@@ -57,7 +66,13 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
 
     rng = np.random.default_rng(seed)
     s1, s2, true_eig, true_coef, true_angle = coverage_design()
-    hits = np.zeros(6)
+    keys = ["eigenvalue", "coefficient", "angle"]
+    if studentized:
+        keys += ["eigenvalue (basic)", "eigenvalue (pipeline, log)", "eigenvalue (studentized)",
+                 "coefficient (studentized)", "angle (studentized)", "eigenvalue (log studentized)",
+                 "angle (log studentized)"]
+    hits = dict.fromkeys(keys, 0)
+    ratios = []
 
     def smallest(cov):
         return np.linalg.eigh(cov)[1][:, 0]
@@ -79,23 +94,34 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
         for cov in (s1, s2):
             x = rows(rng, cov, t, rho)
             st = GranuleStats.from_rows(x, ordered=rho != 0.0)
-            r = resample_covariances(st, resamples=resamples, rng=rng, keep_draws=studentized)
+            r = resample_covariances(st, resamples=resamples, rng=rng, keep_draws=studentized or rho != 0.0)
             w, v = np.linalg.eigh(r.estimate)
             wb, vb = r.eigh()
             fits.append((w, v[:, :1].T, wb, relation_bases(vb, 1), st, r))
         (w, basis, wb, bases, st1, r1), (_, basis2, _, bases2, st2, r2) = fits
-        e = interval(float(w[0]), wb[:, 0], level=level, method="basic")
+        e = eigenvalue_intervals(st1, r1, w, wb, scale="as given", level=level)[0][0]
         c = coefficient_intervals(basis, bases, targets=[2], level=level)[(0, 0)]
         est = float(largest_angle_stack(basis, basis2[None])[0])
         draws_a = largest_angle_stack(bases, bases2)
         a = angle_interval(est, bases, bases2, level=level, method="basic")
-        hits[:3] += [e.contains(true_eig), c.contains(true_coef), a.contains(true_angle)]
+        got = {"eigenvalue": e.contains(true_eig), "coefficient": c.contains(true_coef),
+               "angle": a.contains(true_angle)}
         if studentized:
+            floor = SE_RESOLUTION * float(w[-1])
+            eb = interval(float(w[0]), wb[:, 0], level=level, method="basic")
+            got["eigenvalue (basic)"] = eb.contains(true_eig)
+            got["eigenvalue (pipeline, log)"] = eigenvalue_intervals(st1, r1, w, wb, scale="as given", level=level,
+                                                                     log=True)[0][0].contains(true_eig)
             se, se_b = sd_pair(st1, r1, eig)
-            ts = studentized_interval(float(w[0]), wb[:, 0], se, se_b, level=level)
+            es = studentized_interval(float(w[0]), wb[:, 0], se, se_b, level=level, resolution=floor)
+            got["eigenvalue (studentized)"] = es.contains(true_eig)
+            ratios.append((es.high - es.low) / (eb.high - eb.low))
+            got["eigenvalue (log studentized)"] = studentized_interval(
+                float(w[0]), wb[:, 0], se, se_b, level=level, resolution=floor, log=True).contains(true_eig)
             sc, sc_b = sd_pair(st1, r1, coef)
             # the coefficient's draws: each resample's reduced form (sign-free for one relation)
-            tc = studentized_interval(c.estimate, -bases[:, 0, 0] / bases[:, 0, 2], sc, sc_b, level=level)
+            got["coefficient (studentized)"] = studentized_interval(
+                c.estimate, -bases[:, 0, 0] / bases[:, 0, 2], sc, sc_b, level=level).contains(true_coef)
             v2 = basis2[0]
 
             def ang_a(cov):
@@ -108,11 +134,17 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
 
             sa, sa_b = sd_pair(st1, r1, ang_a)
             sb, sb_b = sd_pair(st2, r2, ang_b)
-            ta = studentized_interval(est, draws_a, float(np.hypot(sa, sb)), np.hypot(sa_b, sb_b), level=level)
-            hits[3:] += [ts.contains(true_eig), tc.contains(true_coef), ta.contains(true_angle)]
-    share = hits / datasets
-    out = {"eigenvalue": float(share[0]), "coefficient": float(share[1]), "angle": float(share[2])}
-    if studentized:
-        out.update({"eigenvalue (studentized)": float(share[3]), "coefficient (studentized)": float(share[4]),
-                    "angle (studentized)": float(share[5])})
+            sab, sab_b = float(np.hypot(sa, sb)), np.hypot(sa_b, sb_b)
+            got["angle (studentized)"] = studentized_interval(est, draws_a, sab, sab_b,
+                                                              level=level).contains(true_angle)
+            got["angle (log studentized)"] = studentized_interval(est, draws_a, sab, sab_b, level=level,
+                                                                  log=True).contains(true_angle)
+        for k, v in got.items():
+            hits[k] += bool(v)
+    out = {k: hits[k] / datasets for k in keys}
+    if studentized and widths:
+        r = np.asarray(ratios, dtype=float)
+        r = np.where(np.isfinite(r), r, np.inf)
+        out["width ratio (median)"] = float(np.median(r))
+        out["width ratio (p95)"] = float(np.quantile(r, 0.95))
     return out

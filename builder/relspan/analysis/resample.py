@@ -77,7 +77,7 @@ __all__ = ["SCHEMES", "DEFAULT_RESAMPLES", "DEFAULT_LEVEL", "BlockLength", "Gran
            "CovarianceResamples", "window_seed", "window_rng", "politis_white_block_length",
            "draw_granules", "draw_blocks", "merge_weighted", "resample_covariances", "stack_covariances",
            "correlation_stack", "scale_stack", "statistic_gradient", "influence_values", "influence_sd",
-           "resample_influence_sd", "studentized_interval"]
+           "resample_influence_sd", "studentized_interval", "drawn_blocks", "blocks_per_resample"]
 
 #: resampling schemes
 SCHEMES = ("iid", "moving", "stationary")
@@ -568,6 +568,27 @@ def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMP
 # --------------------------------------------------------------------------- studentised intervals
 
 
+def drawn_blocks(res: CovarianceResamples) -> tuple[np.ndarray, np.ndarray] | None:
+    """The granules drawn for ``res`` and their blocks (as ``keep_draws=True`` keeps them).
+
+    Kept draws are returned as they are; otherwise, when ``res`` records its
+    stream (``res.seed``, as :func:`window_seed` names it), the draws are made
+    again from a fresh copy of that stream with the same scheme, block length
+    and resamples: :func:`resample_covariances` takes nothing else from the
+    stream before :func:`draw_blocks`, so they are the same draws, bit for bit.
+    None when neither is available.
+    """
+    if res.draws is not None and res.blocks is not None:
+        return res.draws, res.blocks
+    if res.seed is None or len(res.seed) != 4:
+        return None
+    rng = window_rng(*res.seed)
+    idx, blocks = draw_blocks(res.granules, scheme=res.scheme, resamples=res.resamples, rng=rng,
+                              block_length=res.block_length)
+    return idx, np.ascontiguousarray(blocks)
+
+
+
 def statistic_gradient(f, cov, *, step: float | None = None) -> np.ndarray:
     """The symmetric gradient ``G`` of a smooth statistic of a covariance, by central differences.
 
@@ -633,26 +654,59 @@ def resample_influence_sd(values, counts, idx, block) -> np.ndarray:
     resample's own mean and summed within each drawn block; the variance is
     the sum of squared block sums over ``N_b^2`` (the blockwise studentisation
     of Goetze & Kuensch 1996: blocks are independent given the data).
+
+    A resample made of a single block has no standard error: its one centred
+    block sum is zero by construction, and what floating point leaves of it is
+    rounding (different on every BLAS kernel). Such resamples get exactly 0,
+    so :func:`studentized_interval` leaves them out. (A single stationary or
+    circular block of ``k`` granules is a rotation of the window itself: its
+    statistic is the estimate, up to rounding, and it carries no information
+    about the spread.)
     """
     u = np.asarray(values, dtype=float)[idx]
     c = np.asarray(counts, dtype=float)[idx]
     nb = c.sum(axis=1)
     e = u - c * (u.sum(axis=1) / nb)[:, None]
     b_total, k = idx.shape
-    flat = (np.arange(b_total)[:, None] * k + np.asarray(block)).ravel()
+    blk = np.asarray(block)
+    flat = (np.arange(b_total)[:, None] * k + blk).ravel()
     sums = np.bincount(flat, weights=e.ravel(), minlength=b_total * k).reshape(b_total, k)
-    return np.sqrt(np.sum(sums**2, axis=1)) / nb
+    sd = np.sqrt(np.sum(sums**2, axis=1)) / nb
+    return np.where(blocks_per_resample(blk) >= 2, sd, 0.0)
 
 
-def studentized_interval(estimate: float, draws, sd: float, sd_draws, *, level: float):
+def blocks_per_resample(block) -> np.ndarray:
+    """How many blocks each resample is made of (``(B,)``), from :func:`draw_blocks`' block numbers."""
+    blk = np.asarray(block)
+    if blk.ndim != 2 or blk.shape[1] == 0:
+        return np.zeros(blk.shape[:1], dtype=np.int64)
+    return (blk.max(axis=1) + 1).astype(np.int64)
+
+
+def studentized_interval(estimate: float, draws, sd: float, sd_draws, *, level: float,
+                         resolution: float = 0.0, log: bool = False):
     """Studentised (bootstrap-t) interval ``[t - sd q_hi, t - sd q_lo]``.
 
     ``q`` are quantiles of ``(draw_b - estimate) / sd_draws[b]`` (Hall 1988;
     Davison & Hinkley 1997, section 5.2.1); for block resamples the resample
     standard errors come from :func:`resample_influence_sd` (Goetze & Kuensch
-    1996) and ``sd`` from :func:`influence_sd`. Resamples with no finite,
-    positive standard error are left out. Returns an
+    1996) and ``sd`` from :func:`influence_sd`. Returns an
     :class:`relspan.analysis.intervals.Interval` with method ``"studentized"``.
+
+    Parameters
+    ----------
+    resolution : float
+        Standard errors at or below it (absolute, on the statistic's scale)
+        count as zero: they are not resolved from rounding. Resamples whose
+        standard error is zero (or not finite) are left out; when the window's
+        own ``sd`` is zero the interval is not available (``low``/``high`` NaN)
+        and the caller falls back to another interval.
+    log : bool
+        For a positive statistic: studentise ``log theta`` instead
+        (``(log draw_b - log t) / (sd_draws[b] / draw_b)``, scale ``sd / t``,
+        the delta method) and return ``[t exp(-(sd/t) q_hi), t exp(-(sd/t) q_lo)]``,
+        which stays positive. Draws at or below ``resolution`` are left out;
+        an estimate at or below it gives no interval.
 
     References
     ----------
@@ -663,17 +717,39 @@ def studentized_interval(estimate: float, draws, sd: float, sd_draws, *, level: 
            Statistics 24(5), 1914-1933, 1996.
     .. [3] D. N. Politis and J. P. Romano, "Bias-corrected nonparametric
            spectral estimation", Journal of Time Series Analysis 16(1), 67-103, 1995.
+    .. [4] A. C. Davison and D. V. Hinkley, *Bootstrap Methods and their
+           Application*, Cambridge University Press, 1997.
     """
     from relspan.analysis.intervals import Interval
     if not (0.0 < float(level) < 1.0):
         raise OptionsError(f"level must be in (0, 1); got {level!r}.", key="level",
                            fix="Use a confidence level such as 0.90.")
+    res = max(float(resolution), 0.0)
+    if not math.isfinite(res):
+        raise OptionsError(f"resolution must be finite; got {resolution!r}.", key="resolution",
+                           fix="Pass a small non-negative number on the statistic's scale.")
     t = float(estimate)
     d = np.asarray(draws, dtype=float)
     s = np.asarray(sd_draws, dtype=float)
-    ok = np.isfinite(d) & np.isfinite(s) & (s > 0)
-    if ok.sum() < 2 or not (sd > 0):
+    sd = float(sd)
+    ok = np.isfinite(d) & np.isfinite(s) & (s > res)
+    if log:
+        ok &= d > res
+        usable = t > res and sd > res
+    else:
+        usable = sd > res
+    if ok.sum() < 2 or not usable:
         return Interval(t, np.nan, np.nan, float(level), "studentized", int(ok.sum()))
+    a = (1.0 - float(level)) / 2.0
+    if log:
+        z = (np.log(d[ok]) - math.log(t)) / (s[ok] / d[ok])
+        lo, hi = np.quantile(z, [a, 1.0 - a])
+        r = sd / t
+        return Interval(t, t * math.exp(-r * float(hi)), t * math.exp(-r * float(lo)), float(level),
+                        "studentized", int(ok.sum()))
+    z = (d[ok] - t) / s[ok]
+    lo, hi = np.quantile(z, [a, 1.0 - a])
+    return Interval(t, t - sd * float(hi), t - sd * float(lo), float(level), "studentized", int(ok.sum()))
     z = (d[ok] - t) / s[ok]
     a = (1.0 - float(level)) / 2.0
     lo, hi = np.quantile(z, [a, 1.0 - a])
