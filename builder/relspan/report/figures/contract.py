@@ -71,10 +71,9 @@ def literal_dollars(fig: Figure) -> None:
     their formatters at every draw (so log-axis exponents keep their mathtext); fixed
     tick labels given as text are escaped in their formatter.
     """
-    from matplotlib.text import Text
     from matplotlib.ticker import FixedFormatter
 
-    for text in fig.findobj(Text):
+    for text in _texts_except_ticks(fig):
         value = text.get_text()
         if "$" in value:
             text.set_text(_escape_dollars(value))
@@ -83,6 +82,29 @@ def literal_dollars(fig: Figure) -> None:
             for fmt in (axis.get_major_formatter(), axis.get_minor_formatter()):
                 if isinstance(fmt, FixedFormatter):
                     fmt.seq = [_escape_dollars(str(v)) for v in fmt.seq]
+
+
+def _texts_except_ticks(fig: Figure):
+    """Every Text artist of the figure except the tick labels, in drawing-tree order.
+
+    ``Figure.findobj`` would also walk each axis's ticks, and asking an axis for its ticks
+    runs its locator and builds every tick (a large part of a figure's cost when it is done
+    at each :func:`settle`); tick labels are rewritten by their formatters at every draw and
+    are escaped there (:func:`literal_dollars`), so they are not needed here.
+    """
+    from matplotlib.axis import Axis
+    from matplotlib.text import Text
+
+    stack = [fig]
+    while stack:
+        artist = stack.pop()
+        if isinstance(artist, Text):
+            yield artist
+        if isinstance(artist, Axis):
+            children = [artist.label, artist.offsetText]
+        else:
+            children = artist.get_children()
+        stack.extend(reversed(children))
 
 
 def _escape_dollars(value: str) -> str:
