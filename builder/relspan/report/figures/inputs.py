@@ -106,9 +106,11 @@ def _map_content_key(result, analysis, flat, q: int, name: str) -> str | None:
 
 map_figure.content_key = _map_content_key
 
-#: a plan of more windows than this gets no map per window (each would be a full figure on its
-#: window page, ~0.2 s each); its windows are all drawn in the plan's shared-frame figure
-WINDOW_MAP_CAP = 8
+#: a plan of more windows than this gets no map per window; its windows are all drawn in the plan's
+#: shared-frame figure (the overlay, and a small panel each, labelled, up to the gallery's 24 panels).
+#: Three is the plans whose small panels fit in one row of that figure (periods, eras); each map of
+#: its own is a full figure (0.1-0.15 s of a build), so a plan costs at most three of them
+WINDOW_MAP_CAP = 3
 
 
 def has_window_maps(result, plan, q) -> bool:
