@@ -8,6 +8,7 @@ a frozen layout) happens when the result is built.
 from __future__ import annotations
 
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import pandas as pd
@@ -125,10 +126,56 @@ def settle(fig: Figure) -> None:
     with style_context():
         engine = fig.get_layout_engine()
         if engine is not None:
-            engine.execute(fig)
+            with _ticks_once_per_geometry(fig):
+                engine.execute(fig)
             _drop_layout_engine(fig)
         for ax in fig.axes:
             ax.apply_aspect()
+
+
+@contextmanager
+def _ticks_once_per_geometry(fig: Figure):
+    """During the layout pass, each axis works out its ticks once per geometry.
+
+    Measuring one axes for the constrained layout asks each of its axes for its ticks five or six
+    times (its extent, its label's position against its own tick labels and each spine's extent,
+    the title's position), and each time runs the locator and the formatter and rewrites every
+    tick. Within the pass nothing else changes an axis's ticks, and they depend only on its view
+    interval, the axes' box in pixels (the room for ticks), and its locators and formatters (all in
+    the key): the same key gives the same ticks, already in place, so the last answer is kept.
+    The wrapper is an instance attribute removed after the pass; the save computes ticks afresh.
+    """
+    wrapped = []
+    for ax in fig.axes:
+        for axis in ax._axis_map.values():
+            if "_update_ticks" in vars(axis):
+                continue
+            wrapped.append(axis)
+            axis._update_ticks = _LastTicks(axis)
+    try:
+        yield
+    finally:
+        for axis in wrapped:
+            vars(axis).pop("_update_ticks", None)
+
+
+class _LastTicks:
+    """``axis._update_ticks`` that recomputes only when its inputs changed (see above)."""
+
+    __slots__ = ("axis", "key", "ticks")
+
+    def __init__(self, axis) -> None:
+        self.axis, self.key, self.ticks = axis, None, None
+
+    def __call__(self):
+        axis = self.axis
+        key = (tuple(float(v) for v in axis.get_view_interval()), tuple(axis.axes.bbox.bounds),
+               id(axis.major.locator), id(axis.major.formatter), id(axis.minor.locator),
+               id(axis.minor.formatter))
+        if key != self.key:
+            self.ticks = type(axis)._update_ticks(axis)
+            self.key = key
+        return list(self.ticks)
 
 
 def _drop_layout_engine(fig: Figure) -> None:
