@@ -276,20 +276,11 @@ class _SiteExtension(Extension):
 
 
 def _new_markdown() -> _md.Markdown:
-    # extension objects, not names: Markdown looks each name up among the installed packages'
-    # entry points (importlib.metadata) on every call, which cost more than rendering a small page
-    from markdown.extensions.attr_list import AttrListExtension
-    from markdown.extensions.fenced_code import FencedCodeExtension
-    from markdown.extensions.footnotes import FootnoteExtension
-    from markdown.extensions.md_in_html import MarkdownInHtmlExtension
-    from markdown.extensions.tables import TableExtension
-    from markdown.extensions.toc import TocExtension
-
     return _md.Markdown(
-        extensions=[TableExtension(), AttrListExtension(),
-                    FootnoteExtension(BACKLINK_TITLE="Back to reference %d"),
-                    TocExtension(slugify=slugify, permalink=False), MarkdownInHtmlExtension(),
-                    FencedCodeExtension(), _SiteExtension()],
+        extensions=["tables", "attr_list", "footnotes", "toc", "md_in_html", "fenced_code",
+                    _SiteExtension()],
+        extension_configs={"toc": {"slugify": slugify, "permalink": False},
+                           "footnotes": {"BACKLINK_TITLE": "Back to reference %d"}},
         output_format="html",
     )
 
