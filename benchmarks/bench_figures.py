@@ -10,6 +10,10 @@ Three modes (numbers are printed, never asserted; speed is not tested in unit te
     # 2. the figure stage alone: every figure job of the demo drawn in this process, by family
     .venv/bin/python benchmarks/bench_figures.py --stage
 
+    # 2b. the cold demo build (--jobs 1 --no-cache) stage by stage in CPU seconds of the process,
+    #     this tree against REV, interleaved A B A B; prints each run and the per-stage ratios
+    .venv/bin/python benchmarks/bench_figures.py --stages-vs 055e2ee --rounds 2
+
     # 3. the demo built under two OpenBLAS kernels (OPENBLAS_CORETYPE, set for the build only,
     #    --no-cache, to temporary folders); prints how many SVGs differ (with --vs-rev: for REV too)
     .venv/bin/python benchmarks/bench_figures.py --kernels Haswell SkylakeX [--vs-rev 7d40cc3]
@@ -105,6 +109,68 @@ def stage() -> None:
         print(f"  {name:20s} {len(ts):3d} jobs  {sum(ts):6.2f} s  {1000 * statistics.median(ts):6.0f} ms median")
 
 
+#: run in a child process: one build, the CPU seconds of the process at each stage boundary
+#: (the calls relspan.run.build.build makes), printed as one JSON line
+_STAGES_CHILD = r"""
+import json, sys, time, warnings
+t_start = time.process_time()  # CPU since the interpreter started: its start-up is in the first stage
+import relspan.report.site_content, relspan.run.build, relspan.run.figures, relspan.site
+B = sys.modules["relspan.run.build"]
+marks = {}
+def timed(mod, name, label):
+    real = getattr(mod, name)
+    def wrapper(*a, **k):
+        t = time.process_time()
+        try:
+            return real(*a, **k)
+        finally:
+            marks[label] = marks.get(label, 0.0) + time.process_time() - t
+    setattr(mod, name, wrapper)
+timed(B, "run_analysis", "analysis")
+timed(sys.modules["relspan.report.site_content"], "site_draft", "pages")
+timed(sys.modules["relspan.run.figures"], "draw_figures", "figures")
+timed(relspan.site, "render_site", "html")
+timed(relspan.site, "write_site", "write")
+imports = time.process_time()
+with warnings.catch_warnings():
+    warnings.simplefilter("ignore")
+    B.build(sys.argv[1], out=sys.argv[2], jobs=1, use_cache=False, progress=False)
+marks["imports"] = imports
+marks["whole"] = time.process_time()
+print(json.dumps(marks))
+"""
+STAGES = ("imports", "analysis", "pages", "figures", "html", "write", "whole")
+
+
+def run_stages(out: Path, pythonpath: str) -> dict:
+    import json
+
+    env = dict(os.environ, PYTHONPATH=pythonpath)
+    res = subprocess.run([sys.executable, "-c", _STAGES_CHILD, str(SPEC), str(out)], env=env, check=True,
+                         capture_output=True, text=True)
+    return json.loads(res.stdout.strip().splitlines()[-1])
+
+
+def stages_vs(rev: str, rounds: int) -> None:
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        other = str(export_rev(rev, tmp))
+        here = str(ROOT / "builder")
+        a, b = [], []
+        for k in range(rounds):
+            b.append(run_stages(tmp / f"b{k}", other))
+            a.append(run_stages(tmp / f"a{k}", here))
+        print(f"cold demo build --jobs 1, CPU seconds of the process by stage ({rounds} interleaved pairs, "
+              f"{rev} first in each pair)")
+        print(f"  {'stage':10s} {rev + ' (each run)':>24s} {'this tree (each run)':>24s}  ratio this/{rev}")
+        for st in STAGES:
+            ra = [x[st] for x in a]
+            rb = [y[st] for y in b]
+            ratios = [x / y for x, y in zip(ra, rb) if y > 0]
+            print(f"  {st:10s} {', '.join(f'{v:.2f}' for v in rb):>24s} {', '.join(f'{v:.2f}' for v in ra):>24s}"
+                  f"  {', '.join(f'{r:.2f}' for r in ratios)}")
+
+
 def svg_files(folder: Path) -> dict[str, bytes]:
     return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*.svg"))}
 
@@ -136,9 +202,12 @@ def main(argv=None) -> None:
     ap.add_argument("--rounds", type=int, default=5)
     ap.add_argument("--stage", action="store_true", help="time the figure stage by family")
     ap.add_argument("--kernels", nargs=2, metavar="CORETYPE", help="two OPENBLAS_CORETYPE values")
+    ap.add_argument("--stages-vs", metavar="REV", help="the cold build by stage (CPU s), this tree against REV")
     args = ap.parse_args(argv)
     if args.stage:
         stage()
+    elif args.stages_vs:
+        stages_vs(args.stages_vs, args.rounds)
     elif args.kernels:
         kernels(args.kernels, args.vs_rev)
     elif args.vs_rev:

@@ -94,3 +94,26 @@ def test_dollar_signs_in_labels_and_units_are_drawn_literally_in_the_overview_pa
     series = {"Cost $5 & $x": series["Cargo handled"], "Truck trips": series["Truck trips"]}
     res = data_overview(times, series, windows, units={"Cost $5 & $x": "$ per t"})
     assert render_figure(res).startswith(b"<?xml")
+
+
+def test_snapping_small_multiples_with_shared_limits_recomputes_no_ticks(monkeypatch):
+    # the small multiples of a gallery share their limits: setting an unchanged limit on each of
+    # them, or asking every axis for its tick labels, ran every sibling's locator and formatter again
+    from matplotlib.axis import Axis
+    from matplotlib.figure import Figure
+
+    from relspan.report.figures.snap import snap_figure
+
+    fig = Figure()
+    first = fig.add_subplot(3, 3, 1)
+    axes = [first] + [fig.add_subplot(3, 3, k, sharex=first, sharey=first) for k in range(2, 10)]
+    for k, ax in enumerate(axes):
+        ax.plot([0.0, 1.0], [0.0, 0.1 * k])
+    first.set_xlim(-0.5, 1.5)
+    first.set_ylim(-1.0, 2.0)
+    calls = []
+    real = Axis._update_ticks
+    monkeypatch.setattr(Axis, "_update_ticks", lambda self: calls.append(self) or real(self))
+    snap_figure(fig)
+    assert calls == []
+    assert axes[-1].get_xlim() == pytest.approx((-0.5, 1.5), abs=1e-12)

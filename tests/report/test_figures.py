@@ -89,6 +89,31 @@ class TestDeterminism:
         assert res.figure.get_layout_engine() is None
         assert render_figure(res, fmt) == first and len(draws) == 2
 
+    def test_the_layout_pass_works_out_each_axis_ticks_once_per_geometry(self, monkeypatch):
+        # measuring an axes for the constrained layout asked each axis for its ticks five or six
+        # times per layout iteration; with the same limits and box the answer is the same
+        from matplotlib.axis import Axis
+
+        from relspan.report.figures.contract import settle
+        from relspan.report.figures.style import new_figure, style_context
+
+        with style_context():
+            fig = new_figure(4.0)
+            axes = [fig.add_subplot(2, 2, k) for k in range(1, 5)]
+            for k, ax in enumerate(axes):
+                ax.plot([0, 1, 2], [k, 2 * k, 0.5])
+                ax.set_title(f"panel {k}", loc="left")
+                ax.set_xlabel("x")
+                ax.set_ylabel("y")
+        runs = []
+        real = Axis._update_ticks
+        monkeypatch.setattr(Axis, "_update_ticks", lambda self: runs.append(self) or real(self))
+        settle(fig)
+        n_axis = 2 * len(axes)
+        per_axis = {id(a): runs.count(a) for a in runs}
+        assert len(per_axis) == n_axis and max(per_axis.values()) <= 3  # constrained layout: 2 iterations
+        assert all("_update_ticks" not in vars(a) for ax in axes for a in (ax.xaxis, ax.yaxis))
+
     @pytest.mark.slow
     def test_bytes_do_not_depend_on_pythonhashseed(self, figs):
         here = {}

@@ -105,6 +105,34 @@ def test_results_json_validates_against_the_shipped_schema(site):
     jsonschema.Draft202012Validator(schema).validate(json.loads(_read(out, "data/results.json")))
 
 
+def test_results_json_is_the_plain_encoding_of_the_results_document(site):
+    # the site assembles data/results.json from the datasets' own files; it must be the same bytes
+    # as encoding the whole document at once
+    from relspan.report.pages.tables import json_bytes
+    from relspan.report.site_content import results_document
+
+    out, run = site
+    assert (out / "data/results.json").read_bytes() == json_bytes(results_document(run))
+    for result in run.datasets:
+        part = json.loads(_read(out, f"data/{result.spec.id}/results.json"))
+        assert part in json.loads(_read(out, "data/results.json"))["datasets"]
+
+
+def test_results_json_assembly_matches_plain_encoding_for_nested_text_and_a_colliding_title():
+    from types import SimpleNamespace
+
+    from relspan.report.pages.tables import json_bytes
+    from relspan.report.site_content import _results_json, results_document
+
+    docs = [{"id": "a", "note": "two\nlines \u00e9", "plans": [{"x": [1.5, None, {"y": []}]}], "e": {}},
+            {"id": "b", "nested": {"deep": [[1, 2], ["@relspan-dataset-0@"]]}}]
+    for title in ("plain", "@relspan-dataset-1@"):
+        run = SimpleNamespace(spec=SimpleNamespace(report=SimpleNamespace(title=title)), environment={"k": 1},
+                              verdicts=[], datasets=[])
+        texts = [json_bytes(d) for d in docs]
+        assert _results_json(run, docs, texts) == json_bytes(results_document(run, docs))
+
+
 def test_each_dataset_results_json_validates_against_the_dataset_definition(site):
     import jsonschema  # reference library
 

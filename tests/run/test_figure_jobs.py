@@ -66,10 +66,32 @@ def test_plans_beyond_the_cap_have_no_window_maps_and_their_pages_point_to_the_s
                             if j.dataset_key == result.cache_key and j.ident.startswith(f"{plan.plan.id}/w")]
                 from relspan.report.pages.addresses import window_path
 
-                page = next(p for p in draft.content.pages
-                            if p.path == window_path(result.spec.id, plan.plan.id, 0))
-                assert "in one frame" in page.body_markdown
+                gallery = [j for j in draft.figure_jobs
+                           if j.dataset_key == result.cache_key and j.fn is ff.gallery_figure
+                           and j.args[1] is plan]
+                assert len(gallery) == 1  # the plan's shared-frame figure is drawn
+                for i, label in enumerate(plan.labels):
+                    page = next(p for p in draft.content.pages
+                                if p.path == window_path(result.spec.id, plan.plan.id, i))
+                    assert "in one frame" in page.body_markdown
+                    assert f"more than {ff.WINDOW_MAP_CAP} windows" in page.body_markdown
+                    # each window is reachable: the page names its own panel of the shared-frame figure
+                    assert ff.has_gallery_panel(plan, i)
+                    assert f"the panel titled \u201c{label}\u201d" in page.body_markdown
     assert seen_big
+
+
+def test_the_window_map_cap_leaves_no_demo_plan_of_more_than_three_windows_with_maps_of_its_own(demo):
+    # stated on every window page of such a plan; the demo's 7-window "growing" plans are above it
+    from relspan.report.figures import inputs as ff
+
+    run, draft = demo
+    assert ff.WINDOW_MAP_CAP == 3
+    window_maps = [j.ident for j in draft.figure_jobs if "/w" in j.ident and j.ident.split("/")[2] == "map"]
+    plans = {i.split("/")[0] for i in window_maps}
+    assert plans <= {"full", "eras"}, window_maps
+    growing = [p for r in run.datasets for p in r.plans if p.plan.id == "growing"]
+    assert growing and all(len(p.analyses) == 7 for p in growing)
 
 
 # ------------------------------------------------ both formats: SVG and PNG from one drawing (issue 14)

@@ -38,6 +38,41 @@ class TestFormulaSvg:
         formula_svg("y = x")
         assert dict(matplotlib.rcParams) == before
 
+    def test_each_formula_is_parsed_once(self, monkeypatch):
+        # the image is sized with the parse that draws it (measuring with a second parser at
+        # another size parsed every formula twice)
+        from matplotlib import _mathtext
+
+        calls = []
+        real = _mathtext.Parser.parse
+
+        def counting(self, s, *args, **kwargs):
+            calls.append(s)
+            return real(self, s, *args, **kwargs)
+
+        monkeypatch.setattr(_mathtext.Parser, "parse", counting)
+        formula_svg(r"\sum_{j \leq k} \ln \lambda_j - q \ln \bar{\lambda}")  # not rendered by other tests
+        assert len(calls) == 1
+
+    def test_the_glyphs_lie_inside_the_image_with_its_padding(self):
+        # the image box is the formula's measured box plus 1.5 pt on every side: the glyphs' group
+        # starts 1.5 pt from the left, and its baseline sits the measured depth + 1.5 pt above the bottom
+        import re
+
+        from matplotlib.font_manager import FontProperties
+        from matplotlib.textpath import TextToPath
+
+        tex = r"\hat{\beta}_{jk} = -P_{jk}/P_{jj}"
+        root = ET.fromstring(formula_svg(tex))
+        w, h = (float(root.get(k).removesuffix("pt")) for k in ("width", "height"))
+        with matplotlib.rc_context({"mathtext.fontset": "cm"}):
+            tw, th, td = TextToPath().get_text_width_height_descent(f"${tex}$", FontProperties(size=14.0),
+                                                                     ismath=True)
+        assert w == pytest.approx(tw + 3.0, abs=0.01) and h == pytest.approx(th + 3.0, abs=0.01)
+        group = next(g for g in root.iter(f"{_SVG}g") if "translate" in (g.get("transform") or ""))
+        x, y = map(float, re.search(r"translate\(([-\d.]+) ([-\d.]+)\)", group.get("transform")).groups())
+        assert x == pytest.approx(1.5, abs=0.01) and y == pytest.approx(h - td - 1.5, abs=0.01)
+
     @pytest.mark.parametrize("bad", [r"\frac{1", r"\begin{matrix} a \end{matrix}", ""])
     def test_unrenderable_formula_says_why_and_how_to_fix(self, bad):
         with pytest.raises(ValueError, match="(cannot be rendered|non-empty).*") as err:

@@ -54,6 +54,15 @@ class TestEscapeText:
         assert squash(els[2].attrs["alt"] or "") == _expected(s)
         assert els[1].attrs == {"href": "/a.html"}
 
+    @pytest.mark.parametrize("s", ["]:", "a]: b", "[x]: /y"])
+    def test_text_that_looks_like_a_reference_definition_stays_text(self, s):
+        # "[\\]:](/a.html)" was read as the definition of a link reference "\\" (found by hypothesis)
+        html = render_markdown(f"[{escape_text(s)}](/a.html) ![{escape_text(s)}](/b.svg)").html
+        els = parse(html).elements
+        assert [e.tag for e in els] == ["p", "a", "img"]
+        assert element_text(els[1]) == s and els[2].attrs["alt"] == s
+        assert squash("".join(parse(render_markdown(escape_text(s)).html).texts)) == s
+
     def test_script_and_event_handler_become_text(self):
         s = '<script>alert("x")</script><img src=x onerror=alert(1)> & &amp;'
         html = render_markdown(escape_text(s)).html

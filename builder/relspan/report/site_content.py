@@ -80,17 +80,39 @@ def dataset_document(result) -> dict:
     }))
 
 
-def results_document(run) -> dict:
-    """Everything the run computed, as one JSON-ready dict (layout: docs/results.md)."""
+def results_document(run, datasets: list[dict] | None = None) -> dict:
+    """Everything the run computed, as one JSON-ready dict (layout: docs/results.md).
+
+    ``datasets``: the :func:`dataset_document` of each of ``run.datasets`` when the caller has
+    them already (the site publishes each one on its own too); made here otherwise.
+    """
     return {
         "schema": RESULTS_SCHEMA_VERSION,
         "relspan": __version__,
         "title": run.spec.report.title,
         "environment": run.environment,
         "precision": precision_table(),
-        "datasets": [dataset_document(r) for r in run.datasets],
+        "datasets": [dataset_document(r) for r in run.datasets] if datasets is None else list(datasets),
         "claims": canonical_document(jsonable([v.to_dict() for v in run.verdicts]), ("claims",)),
     }
+
+
+def _results_json(run, documents: list[dict], texts: list[bytes]) -> bytes:
+    """``json_bytes(results_document(run, documents))``, with each dataset's part taken from its own
+    file's text (``texts``, that dataset's ``json_bytes``) instead of encoded a second time.
+
+    ``json_bytes`` indents by one space per level and escapes every line break inside strings, so
+    a dataset's text nested in the ``datasets`` list (level 2) is its own text with each line after
+    the first indented by two more spaces.
+    """
+    marks = [f"@relspan-dataset-{i}@" for i in range(len(documents))]
+    outer = P.json_bytes(results_document(run, marks)).decode()
+    tokens = [f'"{mark}"' for mark in marks]
+    if any(outer.count(token) != 1 for token in tokens):  # a text of the run equals a mark
+        return P.json_bytes(results_document(run, documents))
+    for token, text in zip(tokens, texts):
+        outer = outer.replace(token, text.decode().rstrip("\n").replace("\n", "\n  "))
+    return outer.encode()
 
 
 def _assumptions_csv(result) -> bytes:
@@ -173,13 +195,16 @@ def site_draft(run) -> SiteDraft:
     pub = P.Publisher(fmt=spec.site.figures, also=also)
     archive = f"{spec.path.stem}-site.zip"
     pages: list[Page] = [P.home_page(run, pub, archive), P.datasets_page(run)]
+    documents, texts = [], []
     for result in run.datasets:
         pages.append(P.dataset_page(run, result, pub))
         pages.extend(P.window_pages(run, result, pub))
-        pub.add(f"data/{result.spec.id}/results.json", P.json_bytes(dataset_document(result)))
+        documents.append(dataset_document(result))
+        texts.append(P.json_bytes(documents[-1]))
+        pub.add(f"data/{result.spec.id}/results.json", texts[-1])
         pub.add(f"data/{result.spec.id}/assumptions.csv", _assumptions_csv(result))
         pub.add(f"data/{result.spec.id}/windows.csv", _windows_csv(result))
-    pub.add("data/results.json", P.json_bytes(results_document(run)))
+    pub.add("data/results.json", _results_json(run, documents, texts))
     pub.add("data/claims.csv", _claims_csv(run))
     pub.add("data/findings.csv", _findings_csv(run))
     spec_link = pub.add(f"data/{spec.path.name}", spec.text.encode("utf-8"))

@@ -17,7 +17,6 @@ from relspan.site.markdown import (Heading, RenderedMarkdown, escape_cell, escap
                                    render_markdown, slugify)
 from relspan.site.render import (SUMS_NAME, relative_url, render_site, rewrite_links,
                                  sha256sums, source_date)
-from relspan.site.serve import make_server, serve_folder
 from relspan.site.writer import MARKER, check_output, write_site
 
 __all__ = [
@@ -29,3 +28,13 @@ __all__ = [
     "write_site", "check_output", "MARKER", "serve_folder", "make_server",
     "check_site", "check_files", "Problem", "PROBLEM_KINDS",
 ]
+
+
+def __getattr__(name: str):
+    # the preview server (http.server, and with it ssl and email) is imported only when asked
+    # for: a build never needs it
+    if name in ("make_server", "serve_folder"):
+        from relspan.site import serve
+
+        return getattr(serve, name)
+    raise AttributeError(f"module 'relspan.site' has no attribute {name!r}")

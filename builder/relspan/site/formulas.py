@@ -41,18 +41,26 @@ def _as_mathtext(tex: str) -> str:
 
 
 def _render(tex: str, fontsize: float) -> tuple[bytes, float, float]:
-    """SVG bytes plus width and height in points."""
+    """SVG bytes plus width and height in points.
+
+    The formula is parsed once: the image is sized with the parse that draws it. The SVG renderer
+    lays mathtext out with its own text-to-path converter (a parse at its reference size, scaled);
+    that converter is made here, measures the formula, and is handed to the renderer, whose layout
+    and drawing then reuse the same parse (matplotlib caches parses per parser). Measuring with a
+    separate parser at the formula's own size, as before, parsed every formula twice.
+    """
     from matplotlib import rc_context
-    from matplotlib.backends.backend_svg import FigureCanvasSVG
+    from matplotlib.backends.backend_svg import RendererSVG
     from matplotlib.figure import Figure
     from matplotlib.font_manager import FontProperties
-    from matplotlib.mathtext import MathTextParser
+    from matplotlib.textpath import TextToPath
 
     text = _as_mathtext(tex)
     with rc_context(_RC):
         prop = FontProperties(size=fontsize)
+        to_path = TextToPath()
         try:
-            width, height, depth, *_ = MathTextParser("path").parse(text, dpi=72, prop=prop)
+            width, height, depth = to_path.get_text_width_height_descent(text, prop, ismath=True)
         except ValueError as err:
             first = str(err).strip().splitlines()
             detail = " ".join(line.strip() for line in first if line.strip())
@@ -62,12 +70,16 @@ def _render(tex: str, fontsize: float) -> tuple[bytes, float, float]:
         w = width + 2 * _PAD_PT
         h = height + 2 * _PAD_PT
         fig = Figure(figsize=(w / 72.0, h / 72.0), dpi=72)
-        FigureCanvasSVG(fig)
         fig.text(_PAD_PT / w, (_PAD_PT + depth) / h, text, fontproperties=prop)
-        buf = io.BytesIO()
-        fig.savefig(buf, format="svg", transparent=True,
-                    metadata={"Date": None, "Creator": None, "Format": None, "Type": None})
-    data = buf.getvalue()
+        buf = io.StringIO()
+        # what ``savefig(format="svg")`` does for a figure with nothing rasterised, with the
+        # renderer's text-to-path converter replaced by the one that measured the formula
+        renderer = RendererSVG(w, h, buf, image_dpi=72,
+                               metadata={"Date": None, "Creator": None, "Format": None, "Type": None})
+        renderer._text2path = to_path
+        fig.draw(renderer)
+        renderer.finalize()
+    data = buf.getvalue().encode("utf-8")
     # matplotlib writes a generator comment that names its version; drop it so the
     # bytes depend on the formula and glyph paths only.
     data = re.sub(rb"<!-- Created with matplotlib[^>]*-->\n?", b"", data)

@@ -84,8 +84,13 @@ def escape_text(text: str) -> str:
     '&lt;b&gt;&quot;R&amp;D&quot;&lt;/b&gt; \\\\*x\\\\*'
     """
     out = []
+    prev = ""
     for ch in _normalise_plain(text):
-        if ch in _HTML_ENTITIES:
+        if ch == ":" and prev == "]":
+            # "]:" would let the line read as a reference definition ("[id]: url"), which the
+            # block parser finds before backslash escapes are applied; an entity breaks the match
+            out.append("&#58;")
+        elif ch in _HTML_ENTITIES:
             out.append(_HTML_ENTITIES[ch])
         elif ch in _MD_SPECIALS:
             out.append("\\" + ch)
@@ -93,6 +98,7 @@ def escape_text(text: str) -> str:
             out.append(f"&#{ord(ch)};")  # no-break and other Unicode spaces survive stripping
         else:
             out.append(ch)
+        prev = ch
     return "".join(out)
 
 

@@ -8,6 +8,7 @@ a frozen layout) happens when the result is built.
 from __future__ import annotations
 
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import pandas as pd
@@ -71,10 +72,9 @@ def literal_dollars(fig: Figure) -> None:
     their formatters at every draw (so log-axis exponents keep their mathtext); fixed
     tick labels given as text are escaped in their formatter.
     """
-    from matplotlib.text import Text
     from matplotlib.ticker import FixedFormatter
 
-    for text in fig.findobj(Text):
+    for text in _texts_except_ticks(fig):
         value = text.get_text()
         if "$" in value:
             text.set_text(_escape_dollars(value))
@@ -83,6 +83,29 @@ def literal_dollars(fig: Figure) -> None:
             for fmt in (axis.get_major_formatter(), axis.get_minor_formatter()):
                 if isinstance(fmt, FixedFormatter):
                     fmt.seq = [_escape_dollars(str(v)) for v in fmt.seq]
+
+
+def _texts_except_ticks(fig: Figure):
+    """Every Text artist of the figure except the tick labels, in drawing-tree order.
+
+    ``Figure.findobj`` would also walk each axis's ticks, and asking an axis for its ticks
+    runs its locator and builds every tick (a large part of a figure's cost when it is done
+    at each :func:`settle`); tick labels are rewritten by their formatters at every draw and
+    are escaped there (:func:`literal_dollars`), so they are not needed here.
+    """
+    from matplotlib.axis import Axis
+    from matplotlib.text import Text
+
+    stack = [fig]
+    while stack:
+        artist = stack.pop()
+        if isinstance(artist, Text):
+            yield artist
+        if isinstance(artist, Axis):
+            children = [artist.label, artist.offsetText]
+        else:
+            children = artist.get_children()
+        stack.extend(reversed(children))
 
 
 def _escape_dollars(value: str) -> str:
@@ -103,10 +126,56 @@ def settle(fig: Figure) -> None:
     with style_context():
         engine = fig.get_layout_engine()
         if engine is not None:
-            engine.execute(fig)
+            with _ticks_once_per_geometry(fig):
+                engine.execute(fig)
             _drop_layout_engine(fig)
         for ax in fig.axes:
             ax.apply_aspect()
+
+
+@contextmanager
+def _ticks_once_per_geometry(fig: Figure):
+    """During the layout pass, each axis works out its ticks once per geometry.
+
+    Measuring one axes for the constrained layout asks each of its axes for its ticks five or six
+    times (its extent, its label's position against its own tick labels and each spine's extent,
+    the title's position), and each time runs the locator and the formatter and rewrites every
+    tick. Within the pass nothing else changes an axis's ticks, and they depend only on its view
+    interval, the axes' box in pixels (the room for ticks), and its locators and formatters (all in
+    the key): the same key gives the same ticks, already in place, so the last answer is kept.
+    The wrapper is an instance attribute removed after the pass; the save computes ticks afresh.
+    """
+    wrapped = []
+    for ax in fig.axes:
+        for axis in ax._axis_map.values():
+            if "_update_ticks" in vars(axis):
+                continue
+            wrapped.append(axis)
+            axis._update_ticks = _LastTicks(axis)
+    try:
+        yield
+    finally:
+        for axis in wrapped:
+            vars(axis).pop("_update_ticks", None)
+
+
+class _LastTicks:
+    """``axis._update_ticks`` that recomputes only when its inputs changed (see above)."""
+
+    __slots__ = ("axis", "key", "ticks")
+
+    def __init__(self, axis) -> None:
+        self.axis, self.key, self.ticks = axis, None, None
+
+    def __call__(self):
+        axis = self.axis
+        key = (tuple(float(v) for v in axis.get_view_interval()), tuple(axis.axes.bbox.bounds),
+               id(axis.major.locator), id(axis.major.formatter), id(axis.minor.locator),
+               id(axis.minor.formatter))
+        if key != self.key:
+            self.ticks = type(axis)._update_ticks(axis)
+            self.key = key
+        return list(self.ticks)
 
 
 def _drop_layout_engine(fig: Figure) -> None:

@@ -20,7 +20,7 @@ from relspan.report.figures.overview import data_overview
 from relspan.report.figures.windows import coefficient_swing, subspace_stability
 
 __all__ = ["overview_figure", "map_data", "set_map_data", "map_figure", "gallery_figure", "WINDOW_MAP_CAP",
-           "has_window_maps", "stability_figure",
+           "has_window_maps", "GALLERY_PANELS", "has_gallery_panel", "stability_figure",
            "swing_figure", "spectrum_figure", "timeline_figure", "frisch_figure"]
 
 
@@ -106,9 +106,11 @@ def _map_content_key(result, analysis, flat, q: int, name: str) -> str | None:
 
 map_figure.content_key = _map_content_key
 
-#: a plan of more windows than this gets no map per window (each would be a full figure on its
-#: window page, ~0.2 s each); its windows are all drawn in the plan's shared-frame figure
-WINDOW_MAP_CAP = 8
+#: a plan of more windows than this gets no map per window; its windows are all drawn in the plan's
+#: shared-frame figure (the overlay, and a small panel each, labelled, up to the gallery's 24 panels).
+#: Three is the plans whose small panels fit in one row of that figure (periods, eras); each map of
+#: its own is a full figure (0.1-0.15 s of a build), so a plan costs at most three of them
+WINDOW_MAP_CAP = 3
 
 
 def has_window_maps(result, plan, q) -> bool:
@@ -159,7 +161,19 @@ def gallery_figure(result, plan, q: int):
                   f"sample's ({assumption(GALLERY_ASSUMPTION).name}, common scale)", stab.to_reference_deg)
     return window_gallery(maps, list(plan.labels), reference=reference,
                           set_name=f"relation set ({assumption(GALLERY_ASSUMPTION).name})",
-                          subspace_angles=angles, name=f"{result.spec.id}-{plan.plan.id}-gallery")
+                          subspace_angles=angles, max_panels=GALLERY_PANELS,
+                          name=f"{result.spec.id}-{plan.plan.id}-gallery")
+
+
+#: at most this many small panels in a plan's shared-frame figure (the overlay shows every window)
+GALLERY_PANELS = 24
+
+
+def has_gallery_panel(plan, i: int) -> bool:
+    """Whether window ``i`` of ``plan`` has a small panel of its own in the plan's shared-frame figure."""
+    from relspan.report.figures.maps import _panel_indices
+
+    return i in _panel_indices(len(plan.analyses), GALLERY_PANELS)
 
 
 def _drawable_stability(plan, q: int):

@@ -96,7 +96,8 @@ def snap_figure(fig: Figure, digits: int = FIGURE_DIGITS) -> None:
     ``10 ** (floor(log10(span)) - digits + 1)``), on a log axis those of each
     value. Axis limits are rounded first (they fix the transforms and the
     ticks), then the data of lines, patches, collections, images and texts.
-    Text rotations are rounded to 1e-6 degrees (so -0 and 0 agree). Call it
+    Text rotations are rounded to 1e-6 degrees (so -0 and 0 agree); tick label
+    rotations are the constants the figure functions set. Call it
     when the figure is complete, before its layout is frozen.
     """
     for ax in fig.axes:
@@ -104,8 +105,14 @@ def snap_figure(fig: Figure, digits: int = FIGURE_DIGITS) -> None:
         y0, y1 = ax.get_ylim()
         fx = _axis_rounder(ax.get_xscale(), x0, x1, digits)
         fy = _axis_rounder(ax.get_yscale(), y0, y1, digits)
-        ax.set_xlim(*(float(v) for v in fx([x0, x1])))
-        ax.set_ylim(*(float(v) for v in fy([y0, y1])))
+        # only limits that change are set: setting a limit of an axes that shares it (the small
+        # multiples of a gallery) sets it on every sibling, which then all redo their ticks
+        nx = tuple(float(v) for v in fx([x0, x1]))
+        ny = tuple(float(v) for v in fy([y0, y1]))
+        if nx != (x0, x1):
+            ax.set_xlim(*nx)
+        if ny != (y0, y1):
+            ax.set_ylim(*ny)
         data = ax.transData
 
         def rxy(a, fx=fx, fy=fy):
@@ -160,9 +167,9 @@ def snap_figure(fig: Figure, digits: int = FIGURE_DIGITS) -> None:
             _snap_text(t, rxy, digits)
     for t in fig.texts:
         _snap_text(t, None, digits)
-    for ax in fig.axes:
-        for t in ax.get_xticklabels() + ax.get_yticklabels():
-            t.set_rotation(_round_rot(t.get_rotation()))
+    # tick labels are left alone: their texts come from the formatters (of rounded limits) at each
+    # draw, and their rotations are constants set with ``tick_params`` (asking for the labels here
+    # ran every axis's locator and formatter once more)
 
 
 def _set_point(setter, xy) -> None:

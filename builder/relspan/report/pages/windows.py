@@ -120,9 +120,12 @@ def window_pages(run, result, pub: Publisher) -> list[Page]:
             if q is not None and len(result.names) < 3:
                 body.append(NO_MAP)
             elif q is not None and not ff.has_window_maps(result, plan, q):
-                body.append(md("This window is drawn with every other window of the plan in one frame, in "
-                               "[the plan's section]({}); a plan of more than {} windows has no map per "
-                               "window.\n", Raw("/" + section), str(ff.WINDOW_MAP_CAP)))
+                where = (md("the panel titled \u201c{}\u201d", str(plan.labels[i])) if ff.has_gallery_panel(plan, i)
+                         else Raw("the figure's table"))
+                body.append(md("This window is drawn with every other window of the plan in one frame in "
+                               "[the plan's section]({}): the overlay at the top, and {}. A plan of more than "
+                               "{} windows has no map per window.\n", Raw("/" + section), where,
+                               str(ff.WINDOW_MAP_CAP)))
             elif q is not None:
                 body.append(pub.figure(ff.map_figure, (result, a, plan.flats[i].get(q), q,
                                                           f"{ds.id}-{plan.plan.id}-w{i + 1:02d}-map"),
