@@ -184,3 +184,28 @@ def test_resolution_is_relative_to_the_largest_eigenvalue():
         assert q.method == p.method == "studentized"
         assert q.low == pytest.approx(1e6 * p.low, rel=1e-8) and q.high == pytest.approx(1e6 * p.high, rel=1e-8)
     assert SE_RESOLUTION < 1e-6
+
+
+def _whitened(x):
+    """Rows whose sample covariance is the identity up to rounding: every eigenvalue tied."""
+    y = x - x.mean(axis=0)
+    chol = np.linalg.cholesky(np.cov(y.T))
+    return np.linalg.solve(chol, y.T).T
+
+
+def test_tied_eigenvalues_get_the_basic_interval_and_do_not_follow_last_bits():
+    # a whitened sample: the eigenvalues of its covariance agree to rounding, so no eigenvalue is
+    # simple and its eigenvector (the gradient of the studentised standard error) is arbitrary within
+    # the tied space; a relative 1e-15 change of the rows (what two BLAS kernels do) must not move the
+    # intervals beyond rounding
+    rng = np.random.default_rng(21)
+    x = _whitened(_ar_rows(rng, 400, 0.5, np.array([[1.0, 0.2], [0.3, 1.0], [0.5, -0.4]]), 0.5))
+    lam = np.linalg.eigvalsh(np.cov(x.T))
+    assert lam[-1] - lam[0] <= SE_RESOLUTION * lam[-1]
+    a = _eig_intervals(x)
+    b = _eig_intervals(x * (1.0 + 1e-15 * rng.standard_normal(x.shape)))
+    assert [iv.method for iv in a.eigenvalues] == ["basic"] * 3
+    for u, v in zip(a.eigenvalues, b.eigenvalues):
+        assert u.low == pytest.approx(v.low, rel=1e-9, abs=1e-12)
+        assert u.high == pytest.approx(v.high, rel=1e-9, abs=1e-12)
+    assert "tied" in a.rules["eigenvalues"]

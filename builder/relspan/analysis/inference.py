@@ -658,7 +658,8 @@ STUDENTIZED_RULE = ("Studentised (bootstrap-t) intervals (Hall 1988) of the eige
                     "Resamples made of a single block (a rotation of the window itself, with no standard error "
                     "of their own) are left out, and so are standard errors at most {res:g} of the largest "
                     "eigenvalue (not resolved from rounding); an eigenvalue whose own standard error is that "
-                    "small gets the basic interval. Lower ends below 0 set to 0.")
+                    "small, or which lies within that share of a neighbouring eigenvalue (tied, so without "
+                    "a gradient), gets the basic interval. Lower ends below 0 set to 0.")
 BASIC_RULE = ("Basic bootstrap intervals (Davison & Hinkley 1997) of the eigenvalues on the {scale} scale, from "
               "{resamples} resamples; lower ends below 0 set to 0.")
 
@@ -683,7 +684,11 @@ def eigenvalue_intervals(stats_: GranuleStats, res: CovarianceResamples, estimat
       eigenvalue count as zero (an exact relation's eigenvalue is rounding and
       so is its standard error): such resamples are left out, and an eigenvalue
       whose own standard error is that small gets the basic interval, method
-      ``"basic"``.
+      ``"basic"``;
+    - an eigenvalue within that share of a neighbouring one is not simple: its
+      eigenvector, and so the first-order gradient the standard errors use
+      (:func:`eigenvalue_gradient`), is any vector of the tied space, and the
+      one returned differs between BLAS kernels; it gets the basic interval.
 
     Independent rows: basic bootstrap intervals, as measured equally good
     there. Lower ends are at least 0. Every step is a function of the window's
@@ -716,6 +721,10 @@ def eigenvalue_intervals(stats_: GranuleStats, res: CovarianceResamples, estimat
         cov = res.estimate
         floor = SE_RESOLUTION * (float(np.max(np.abs(est))) if est.size else 0.0)
         for j in range(est.shape[0]):
+            gap = min([abs(float(est[j] - est[k])) for k in (j - 1, j + 1) if 0 <= k < est.shape[0]],
+                      default=np.inf)
+            if gap <= floor:
+                continue  # tied with a neighbour: not a simple eigenvalue, no gradient; the basic interval
             u = influence_values(stats_, eigenvalue_gradient(cov, j, scale=scale))
             se = influence_sd(u, stats_.counts, ordered=True)
             iv = studentized_interval(float(est[j]), d[:, j], se,
