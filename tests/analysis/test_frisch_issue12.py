@@ -211,7 +211,12 @@ def test_verdicts_of_the_200_recorded_cases_are_kept_except_the_intended_changes
             assert v["spread"] == r["spread"], i
             assert v["spread_distinct_gt1"] == r["spread_distinct_gt1"], i
             if r["max_angle_deg"] is not None:
-                assert v["max_angle_deg"] == pytest.approx(r["max_angle_deg"], abs=1e-6)
+                # Solutions closer than 1e-3 degrees are one solution to the spread search
+                # (frisch/spread.py), so an angle below that is rounding of the barrier solves and
+                # moves with the BLAS kernel: case 22 (no distinct solutions) recorded 1.13e-06
+                # degrees, 1.27e-11 under OpenBLAS's Haswell kernel on an AMD EPYC. Compare to
+                # a tenth of that resolution.
+                assert v["max_angle_deg"] == pytest.approx(r["max_angle_deg"], abs=1e-4), i
     assert changed < 200
 
 
