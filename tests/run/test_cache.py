@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import io
 import json
 import os
 import pickle
@@ -18,7 +19,8 @@ import pytest
 from relspan.errors import OutputError, RelspanNote, RelspanWarning
 from relspan.run import cache as cache_module
 from relspan.run import codec
-from relspan.run.cache import ResultCache, canonical_json, task_key
+from relspan.run.cache import ENTRY_FORMAT, ResultCache, canonical_json, task_key
+from relspan.run.codec import CodecError
 
 KEY = task_key(task="demo", n=1)
 
@@ -115,11 +117,11 @@ class TestResultCache:
         path = c.path_for(KEY)
         assert path.suffix == ".npz" and path.parent.parent.name.startswith("env-")
         with zipfile.ZipFile(path) as zf:
-            assert sorted(zf.namelist()) == ["a0.npy", "header.npy"]
+            assert sorted(zf.namelist()) == ["header.npy", "p0.npy"]
             assert all(i.compress_type == zipfile.ZIP_STORED for i in zf.infolist())
         with np.load(path, allow_pickle=False) as npz:
             header = json.loads(npz["header"].tobytes())
-            assert np.array_equal(npz["a0"], [0.5, 1.25])
+            assert np.array_equal(npz["p0"], [0.5, 1.25])
         assert header["key"] == KEY and header["value"]["$"] == "dc"
         assert b"\x80\x05" not in path.read_bytes()  # no pickle stream anywhere
 
@@ -392,3 +394,38 @@ class TestPrune:
         assert c.get(KEY) == 1
         c.prune()
         assert c.get(KEY) == 1
+
+
+class TestPackedEntries:
+    """An entry packs its arrays into one member per dtype (reading one member per array was
+    quadratic in numpy's npz reader: 45,190 members took 12 s), and the round trip stays exact."""
+
+    def test_many_arrays_of_mixed_dtypes_round_trip_bit_for_bit_in_few_members(self, tmp_path):
+        rng = np.random.default_rng(5)
+        value = {"f": [rng.standard_normal((i % 4, 3)) for i in range(500)],
+                 "i": [np.arange(i, dtype=np.int64) for i in range(50)],
+                 "b": np.array([True, False]), "u": np.array(["ab", "c"]), "e": np.empty((0, 2)),
+                 "s": np.float64(-0.0), "nan": np.array([np.nan, np.inf])}
+        c = ResultCache(tmp_path)
+        assert c.put(KEY, value)
+        with zipfile.ZipFile(c.path_for(KEY)) as zf:
+            assert len(zf.namelist()) <= 7  # the header and one pack per dtype
+        got = c.get(KEY)
+        for a, b in zip(value["f"] + value["i"], got["f"] + got["i"]):
+            assert a.dtype == b.dtype and a.shape == b.shape and a.tobytes() == b.tobytes()
+        assert got["u"].tolist() == ["ab", "c"] and got["e"].shape == (0, 2)
+        assert np.signbit(got["s"]) and got["nan"].tobytes() == value["nan"].tobytes()
+        got["f"][1][0, 0] = 7.0  # arrays are independent copies, not views of one pack
+        assert got["f"][2][0, 0] != 7.0 or value["f"][2][0, 0] == 7.0
+
+    @pytest.mark.parametrize("place", [[0, 0, [99]], [1, 0, [1]], [0, -1, [1]], [0, 0, [-1]],
+                                       [0, 0, "1"], "x", [0, 0.0, [1]]])
+    def test_an_array_placed_outside_its_pack_is_not_an_entry(self, tmp_path, place):
+        from relspan.run.cache import _decode
+
+        header = json.dumps({"format": ENTRY_FORMAT, "key": KEY, "environment": "e", "packs": 1,
+                             "arrays": [place], "value": {"$": "array", "i": 0}}).encode()
+        buf = io.BytesIO()
+        np.savez(buf, header=np.frombuffer(header, dtype=np.uint8), p0=np.zeros(3))
+        with pytest.raises(CodecError):
+            _decode(buf.getvalue(), KEY, "e")

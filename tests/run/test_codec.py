@@ -15,6 +15,7 @@ import pytest
 
 from relspan.errors import IllConditionedWarning, NumericalWarning
 from relspan.run import codec
+from relspan.run.cache import ENTRY_FORMAT
 
 REPO = Path(__file__).resolve().parents[2]
 
@@ -222,10 +223,10 @@ def test_planted_pickle_and_forged_entry_in_a_sent_project_run_nothing(project, 
     (cache / env_folder / key[:2]).mkdir(parents=True)
     evil = np.empty(1, dtype=object)
     evil[0] = _Planted()
-    header = json.dumps({"format": "relspan-cache-entry/2", "key": key, "environment": env_folder[4:],
-                         "arrays": 1, "value": {"$": "array", "i": 0}}).encode()
+    header = json.dumps({"format": ENTRY_FORMAT, "key": key, "environment": env_folder[4:],
+                         "packs": 1, "arrays": [[0, 0, [1]]], "value": {"$": "array", "i": 0}}).encode()
     with open(cache / env_folder / key[:2] / f"{key}.npz", "wb") as fh:
-        np.savez(fh, header=np.frombuffer(header, dtype=np.uint8), a0=evil)
+        np.savez(fh, header=np.frombuffer(header, dtype=np.uint8), p0=evil)
     for command in ("check", "build"):
         result = run_cli(command, "spec.yaml", "--jobs", "1", "--quiet", cwd=project)
         assert result.returncode == 0, result.stderr

@@ -60,7 +60,7 @@ DEFAULT_CACHE_DIRNAME = ".relspan-cache"
 KEY_FORMAT = "relspan-task-key/1"
 
 #: the entry format (header ``format`` field); entries of any other format are ignored
-ENTRY_FORMAT = "relspan-cache-entry/2"
+ENTRY_FORMAT = "relspan-cache-entry/3"
 
 #: entries of this environment not read or written for this many days are pruned
 PRUNE_AFTER_DAYS = 30
@@ -81,7 +81,7 @@ NUMERIC_LIBRARIES = ("numpy", "scipy", "pandas", "matplotlib", "pyarrow", "stats
 _ENV_PREFIX = "env-"
 _ENV_FILE = "ENVIRONMENT.json"
 _ENTRY_RE = re.compile(r"^[0-9a-f]{64}\.npz$")
-_ARRAY_RE = re.compile(r"^a[0-9]{1,9}\.npy$")
+_ARRAY_RE = re.compile(r"^p[0-9]{1,9}\.npy$")
 _TAG = "\x00"  # prefix of the keys that mark non-JSON values; user dict keys may not start with it
 _README = """\
 This folder is relspan's result cache.
@@ -240,7 +240,10 @@ def cache_environment() -> dict:
             except metadata.PackageNotFoundError:
                 versions[name] = "absent"
         _ENVIRONMENT = {"python": platform.python_version(), "machine": platform.machine(),
-                        "libraries": versions, "blas": _blas_info(), "codec": codec.FORMAT}
+                        "libraries": versions, "blas": _blas_info(),
+                        # the entry layout too, so entries of an older layout sit in another
+                        # environment's folder: noted once, not reused, pruned after a build
+                        "codec": f"{codec.FORMAT}; {ENTRY_FORMAT}"}
     return _ENVIRONMENT
 
 
@@ -270,7 +273,7 @@ def _difference(old: dict, new: dict) -> str:
                 return "?"
         out.append(f"maths library {word(old.get('blas'))} (now {word(new.get('blas'))})")
     if old.get("codec") != new.get("codec"):
-        out.append("another entry format")
+        out.append("an older or newer cache entry format")
     return "; ".join(out[:3]) + ("; ..." if len(out) > 3 else "") if out else "another environment"
 
 
@@ -381,9 +384,9 @@ class ResultCache:
                 old = json.loads((others[0] / _ENV_FILE).read_text(encoding="utf-8"))
             except (OSError, ValueError):
                 old = None
-            _note(f"{folder}: results cached under other library versions or another maths-library "
-                  f"kernel ({_difference(old, self._env)}) are not reused; they are recomputed, and "
-                  "a build deletes them.")
+            _note(f"{folder}: results cached in another computing environment (other library "
+                  f"versions, maths-library kernel or cache format: {_difference(old, self._env)}) "
+                  "are not reused; they are recomputed, and a build deletes them.")
         legacy = [c for c in children if len(c.name) == 2 and c.is_dir()]
         legacy += [c for c in children if c.is_file() and c.suffix in (".pkl", ".pickle")]
         if legacy:
@@ -638,14 +641,60 @@ class ResultCache:
             raise
 
 
+def _pack(arrays: list[np.ndarray]) -> tuple[list[list], list[np.ndarray]]:
+    """The codec's arrays as one flat array per dtype, and where each one lies in its pack.
+
+    A run of many windows holds tens of thousands of small arrays; written as one zip member
+    each, numpy's reader looked every member up in a list (``NpzFile.__getitem__``), so reading
+    45,190 of them took longer than computing them (12.2 s against about 8 s for a 1,000-window
+    check; docs/performance.md). Packed, an entry has a few members whatever its size.
+    """
+    groups: dict[str, list[np.ndarray]] = {}
+    order: list[str] = []
+    where: list[list] = []
+    sizes: dict[str, int] = {}
+    for a in arrays:
+        code = a.dtype.str
+        if code not in groups:
+            groups[code], sizes[code] = [], 0
+            order.append(code)
+        where.append([order.index(code), sizes[code], list(a.shape)])
+        groups[code].append(a.ravel(order="C"))
+        sizes[code] += a.size
+    packs = [np.concatenate(groups[c]) if groups[c] else np.empty(0, dtype=c) for c in order]
+    return where, packs
+
+
+def _unpack(where: Any, packs: list[np.ndarray]) -> list[np.ndarray]:
+    """The arrays :func:`_pack` packed; CodecError for any place outside its pack."""
+    if not isinstance(where, list):
+        raise codec.CodecError("a malformed header")
+    out = []
+    for item in where:
+        if not (isinstance(item, list) and len(item) == 3 and type(item[0]) is int
+                and type(item[1]) is int and isinstance(item[2], list)
+                and all(type(d) is int and d >= 0 for d in item[2]) and len(item[2]) <= 32):
+            raise codec.CodecError("a malformed array place")
+        j, off, shape = item
+        if not 0 <= j < len(packs):
+            raise codec.CodecError("an array in no pack")
+        size = math.prod(shape)
+        flat = packs[j]
+        if off < 0 or off + size > flat.size:
+            raise codec.CodecError("an array beyond its pack")
+        out.append(flat[off:off + size].reshape(shape).copy())
+    return out
+
+
 def _encode(value: Any, key: str, env_id: str) -> bytes:
     doc, arrays = codec.encode(value)
-    header = {"format": ENTRY_FORMAT, "key": key, "environment": env_id, "arrays": len(arrays),
-              "value": doc}
+    where, packs = _pack(arrays)
+    header = {"format": ENTRY_FORMAT, "key": key, "environment": env_id, "arrays": where,
+              "packs": len(packs), "value": doc}
     text = json.dumps(header, sort_keys=True, separators=(",", ":"), allow_nan=False)
     buf = io.BytesIO()
     members = {"header": np.frombuffer(text.encode("utf-8"), dtype=np.uint8)}
-    members.update({f"a{i}": a for i, a in enumerate(arrays)})
+    members.update({f"p{j}": a for j, a in enumerate(packs)})
     np.savez(buf, **members)  # stored, not compressed: no member can expand beyond the file
     return buf.getvalue()
 
@@ -675,10 +724,13 @@ def _decode(blob: bytes, key: str, env_id: str) -> Any:
                 raise codec.CodecError("the entry belongs to another key")
             if header.get("environment") != env_id:
                 raise codec.CodecError("the entry was made in another environment")
-            n = header.get("arrays")
+            n = header.get("packs")
             if type(n) is not int or not 0 <= n <= len(infos):
                 raise codec.CodecError("a malformed header")
-            arrays = [npz[f"a{i}"] for i in range(n)]
+            packs = [npz[f"p{j}"] for j in range(n)]
+            if any(p.ndim != 1 or p.dtype.hasobject for p in packs):
+                raise codec.CodecError("a malformed pack")
+            arrays = _unpack(header.get("arrays"), packs)
     except codec.CodecError:
         raise
     except (zipfile.BadZipFile, ValueError, KeyError, OSError, EOFError, UnicodeDecodeError,
