@@ -18,7 +18,8 @@ from relspan.errors import OptionsError
 from relspan.report.figures.snap import round_sig, snap_figure
 from relspan.report.figures.style import style_context
 
-__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout", "keep_inside"]
+__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout", "keep_inside",
+           "drop_layout_engine"]
 
 #: longest alt text we accept (characters)
 ALT_MAX = 150
@@ -128,7 +129,7 @@ def settle(fig: Figure) -> None:
         if engine is not None:
             with _ticks_once_per_geometry(fig):
                 engine.execute(fig)
-            _drop_layout_engine(fig)
+            drop_layout_engine(fig)
         for ax in fig.axes:
             ax.apply_aspect()
 
@@ -178,7 +179,7 @@ class _LastTicks:
         return list(self.ticks)
 
 
-def _drop_layout_engine(fig: Figure) -> None:
+def drop_layout_engine(fig: Figure) -> None:
     """Leave the figure with no layout engine at all (``get_layout_engine()`` is None).
 
     ``set_layout_engine("none")`` keeps a placeholder engine, and ``savefig`` draws a figure
