@@ -558,7 +558,8 @@ def _fixed_grid(fig, top, cells: list, ncols: int, top_ratio: float) -> None:
             measured[kind(ax)] = margins(ax)
     none = (0.0, 0.0, 0.0, 0.0)
     dec = [measured[kind(ax)] if v else none for ax, v in zip(cells, shown)]
-    title_w = [ax.title.get_window_extent(renderer).width if v else 0.0 for ax, v in zip(cells, shown)]
+    title_w = [max(t.get_window_extent(renderer).width for t in (ax.title, ax._left_title, ax._right_title))
+               if v else 0.0 for ax, v in zip(cells, shown)]
     m_top = margins(top)
     left = [max(d[0] for d in dec[c::ncols]) for c in range(ncols)]
     right = [max(d[1] for d in dec[c::ncols]) for c in range(ncols)]
@@ -582,9 +583,18 @@ def _fixed_grid(fig, top, cells: list, ncols: int, top_ratio: float) -> None:
         y_hi -= leg.get_window_extent(renderer).height + 2 * h_pad
 
     # columns: equal axes widths; a panel title longer than its axes widens its column's right margin
-    for _ in range(2):
-        aw = (wpx - x_lo - sum(left) - sum(right) - 2 * w_pad * ncols) / ncols
-        right = [max(right[c], max(title_w[c::ncols]) - aw) for c in range(ncols)]
+    room = wpx - x_lo - sum(left) - 2 * w_pad * ncols
+    longest = [max(title_w[c::ncols]) for c in range(ncols)]
+    aw = (room - sum(right)) / ncols
+    binding: set[int] = set()
+    while True:  # the columns whose title overhangs: each pass adds one at least, so at most ncols passes
+        more = {c for c in range(ncols) if longest[c] - aw > right[c]} | binding
+        if more == binding or len(more) == ncols:
+            break
+        binding = more
+        aw = ((room - sum(longest[c] for c in binding) - sum(right[c] for c in range(ncols) if c not in binding))
+              / (ncols - len(binding)))
+    right = [max(right[c], longest[c] - aw) for c in range(ncols)]
     xs, x = [], x_lo
     for c in range(ncols):
         xs.append(x + w_pad + left[c])
