@@ -14,6 +14,10 @@ Three modes (numbers are printed, never asserted; speed is not tested in unit te
     #     this tree against REV, interleaved A B A B; prints each run and the per-stage ratios
     .venv/bin/python benchmarks/bench_figures.py --stages-vs 055e2ee --rounds 2
 
+    # 2c. the figure stage alone, this tree against REV: the demo's figure jobs (one analysis,
+    #     pickled) drawn in a child process per run, interleaved; CPU seconds, layout passes, tick runs
+    .venv/bin/python benchmarks/bench_figures.py --figures-vs main --rounds 3
+
     # 3. the demo built under two OpenBLAS kernels (OPENBLAS_CORETYPE, set for the build only,
     #    --no-cache, to temporary folders); prints how many SVGs differ (with --vs-rev: for REV too)
     .venv/bin/python benchmarks/bench_figures.py --kernels Haswell SkylakeX [--vs-rev 7d40cc3]
@@ -171,6 +175,68 @@ def stages_vs(rev: str, rounds: int) -> None:
                   f"  {', '.join(f'{r:.2f}' for r in ratios)}")
 
 
+#: run in a child process: the demo's figure jobs (pickled by the parent from one analysis) drawn
+#: with the child's relspan, as the build draws them; CPU seconds, and two counts that do not depend
+#: on the machine's load: layout-engine passes and runs of an axis's tick locator and formatter
+_FIGURES_CHILD = r"""
+import json, pickle, sys, time
+import matplotlib._constrained_layout as CL
+import matplotlib.layout_engine as LE
+from matplotlib.axis import Axis
+from relspan.run.figures import draw_figures
+jobs = pickle.load(open(sys.argv[1], "rb"))
+n = {"ticks": 0, "layouts": 0}
+real_ticks, real_layout = Axis._update_ticks, CL.do_constrained_layout
+def ticks(self):
+    n["ticks"] += 1
+    return real_ticks(self)
+def layout(*a, **k):
+    n["layouts"] += 1
+    return real_layout(*a, **k)
+Axis._update_ticks = ticks
+LE.do_constrained_layout = layout
+t = time.process_time()
+out = draw_figures(jobs, "svg")
+print(json.dumps({"cpu": time.process_time() - t, "figures": sum(o is not None for o in out), **n}))
+"""
+
+
+def figures_vs(rev: str, rounds: int) -> None:
+    import json
+    import pickle
+    import warnings
+
+    from relspan.report.site_content import site_draft
+    from relspan.run.pipeline import run_analysis
+    from relspan.spec import load_spec
+
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        other = str(export_rev(rev, tmp))
+        here = str(ROOT / "builder")
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            run = run_analysis(load_spec(SPEC), jobs=1, use_cache=False, progress=False)
+        jobs_file = tmp / "jobs.pkl"
+        jobs_file.write_bytes(pickle.dumps(site_draft(run).figure_jobs))
+
+        def child(path):
+            res = subprocess.run([sys.executable, "-c", _FIGURES_CHILD, str(jobs_file)], check=True,
+                                 env=dict(os.environ, PYTHONPATH=path), capture_output=True, text=True)
+            return json.loads(res.stdout.strip().splitlines()[-1])
+
+        a, b = [], []
+        for k in range(rounds):
+            b.append(child(other))
+            a.append(child(here))
+            print(f"round {k + 1}: {rev} {b[-1]}, this tree {a[-1]}")
+        ratios = [x["cpu"] / y["cpu"] for x, y in zip(a, b)]
+        print(f"figure stage of the demo ({a[0]['figures']} figures), CPU s: {rev} median "
+              f"{statistics.median(y['cpu'] for y in b):.2f}, this tree median {statistics.median(x['cpu'] for x in a):.2f}; "
+              f"per-pair ratio this/{rev}: {', '.join(f'{r:.2f}' for r in ratios)} (median {statistics.median(ratios):.2f}); "
+              f"layout passes {b[0]['layouts']} -> {a[0]['layouts']}, tick runs {b[0]['ticks']} -> {a[0]['ticks']}")
+
+
 def svg_files(folder: Path) -> dict[str, bytes]:
     return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*.svg"))}
 
@@ -203,9 +269,13 @@ def main(argv=None) -> None:
     ap.add_argument("--stage", action="store_true", help="time the figure stage by family")
     ap.add_argument("--kernels", nargs=2, metavar="CORETYPE", help="two OPENBLAS_CORETYPE values")
     ap.add_argument("--stages-vs", metavar="REV", help="the cold build by stage (CPU s), this tree against REV")
+    ap.add_argument("--figures-vs", metavar="REV", help="the figure stage alone (CPU s, layout passes, tick "
+                    "runs), this tree against REV, one child process per run")
     args = ap.parse_args(argv)
     if args.stage:
         stage()
+    elif args.figures_vs:
+        figures_vs(args.figures_vs, args.rounds)
     elif args.stages_vs:
         stages_vs(args.stages_vs, args.rounds)
     elif args.kernels:

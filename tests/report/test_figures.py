@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import contextlib
+
 import hashlib
 import itertools
 import os
@@ -88,6 +90,26 @@ class TestDeterminism:
         assert len(draws) == 1
         assert res.figure.get_layout_engine() is None
         assert render_figure(res, fmt) == first and len(draws) == 2
+
+    @pytest.mark.parametrize("fmt", ["svg", "png"])
+    def test_a_save_works_out_each_axis_ticks_once_and_writes_the_same_bytes(self, fmt, monkeypatch):
+        # drawing an axes asked each axis for its ticks again for its label's position (against
+        # every sibling's tick labels) and for each spine's extent (the title's position)
+        from matplotlib.axis import Axis
+
+        res = fi.build_all()["gallery"]
+        fresh = fi.build_all()["gallery"]
+        runs = []
+        real = Axis._update_ticks
+        monkeypatch.setattr(Axis, "_update_ticks", lambda self: runs.append(self) or real(self))
+        once = render_figure(res, fmt)
+        per_axis = {id(a): runs.count(a) for a in runs}
+        assert per_axis and max(per_axis.values()) == 1
+        # the same bytes as a save that recomputes the ticks at every question
+        monkeypatch.setattr("relspan.report.figures.render.ticks_once_per_geometry",
+                            lambda fig: contextlib.nullcontext())
+        assert render_figure(fresh, fmt) == once
+        assert all("_update_ticks" not in vars(a) for ax in res.figure.axes for a in (ax.xaxis, ax.yaxis))
 
     def test_the_layout_pass_works_out_each_axis_ticks_once_per_geometry(self, monkeypatch):
         # measuring an axes for the constrained layout asked each axis for its ticks five or six
@@ -313,6 +335,49 @@ class TestWindowGallery:
         rms = [fi.map_data(fi.two_relation_data(3, 3, rows=600)[60 * k: 60 * k + 240], fi.NAMES3).rms
                for k in range(6)]
         assert f"ranges from {num(min(rms))} (" in res.description and f"to {num(max(rms))} (" in res.description
+
+    @pytest.mark.parametrize("w, long_title", [(6, False), (9, False), (7, True)])
+    def test_grid_is_laid_out_without_the_constrained_layout_and_every_text_stays_clear(
+            self, w, long_title, monkeypatch):
+        # the small multiples are placed on a fixed grid measured once; the rules are the
+        # constrained layout's: panels of one size in aligned rows and columns, the overlay as wide
+        # as the grid, no text outside the figure or on another text (a long title widens its column)
+        from matplotlib import _constrained_layout
+        from matplotlib.text import Text
+
+        from relspan.report.figures.style import style_context
+
+        def no_pass(*a, **k):
+            raise AssertionError("constrained layout pass")
+
+        monkeypatch.setattr(_constrained_layout, "do_constrained_layout", no_pass)
+        data = fi.two_relation_data(3, 3, rows=600)
+        ms = [fi.map_data(data[20 * k: 20 * k + 240], fi.NAMES3) for k in range(w)]
+        labels = [f"w{k}" for k in range(w)]
+        if long_title:  # wider than a panel: its column gets the room, the panels stay one size
+            labels[1] = "the second window, with a label wider than its panel"
+        res = window_gallery(ms, labels, reference=fi.map_data(data, fi.NAMES3))
+        fig = res.figure
+        panels = [a for a in fig.axes[1:] if a.get_visible()]
+        boxes = [a.get_position() for a in panels]
+        assert len({(round(b.width, 6), round(b.height, 6)) for b in boxes}) == 1
+        top = fig.axes[0].get_position()
+        assert top.x0 == pytest.approx(min(b.x0 for b in boxes)) and top.x1 == pytest.approx(max(b.x1 for b in boxes))
+        with style_context():
+            fig.canvas.draw()
+            r = fig.canvas.get_renderer()
+            # drawn texts: a tick beyond the axis limits keeps a label that is never drawn
+            drawn = {id(t.label1) for a in fig.axes for axis in (a.xaxis, a.yaxis) for t in axis._update_ticks()}
+            ticks = {id(t.label1) for a in fig.axes for axis in (a.xaxis, a.yaxis) for t in axis.get_major_ticks()}
+            texts = [t.get_window_extent(r) for t in fig.findobj(Text) if t.get_visible() and t.get_text().strip()
+                     and (id(t) in drawn or id(t) not in ticks) and (t.axes is None or t.axes.get_visible())]
+            # what each axes draws (no tick label beyond the limits), and the figure's own labels
+            inked = [a.get_tightbbox(r) for a in [fig.axes[0]] + panels]
+            inked += [t.get_window_extent(r) for t in (fig._supxlabel, fig._supylabel)]
+        wpx, hpx = fig.bbox.width, fig.bbox.height
+        assert all(b.x0 >= 0 and b.y0 >= 0 and b.x1 <= wpx and b.y1 <= hpx for b in inked)
+        for a, b in itertools.combinations(texts, 2):
+            assert min(a.x1, b.x1) - max(a.x0, b.x0) <= 1.0 or min(a.y1, b.y1) - max(a.y0, b.y0) <= 1.0
 
     def test_table_has_every_window_and_the_reference(self, figs):
         tab = figs["gallery"].table

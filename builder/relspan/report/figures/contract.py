@@ -18,7 +18,8 @@ from relspan.errors import OptionsError
 from relspan.report.figures.snap import round_sig, snap_figure
 from relspan.report.figures.style import style_context
 
-__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout", "keep_inside"]
+__all__ = ["FigureResult", "ALT_MAX", "fit_alt", "literal_dollars", "settle", "freeze_layout", "keep_inside",
+           "drop_layout_engine", "ticks_once_per_geometry"]
 
 #: longest alt text we accept (characters)
 ALT_MAX = 150
@@ -126,16 +127,16 @@ def settle(fig: Figure) -> None:
     with style_context():
         engine = fig.get_layout_engine()
         if engine is not None:
-            with _ticks_once_per_geometry(fig):
+            with ticks_once_per_geometry(fig):
                 engine.execute(fig)
-            _drop_layout_engine(fig)
+            drop_layout_engine(fig)
         for ax in fig.axes:
             ax.apply_aspect()
 
 
 @contextmanager
-def _ticks_once_per_geometry(fig: Figure):
-    """During the layout pass, each axis works out its ticks once per geometry.
+def ticks_once_per_geometry(fig: Figure):
+    """During the layout pass (and a save), each axis works out its ticks once per geometry.
 
     Measuring one axes for the constrained layout asks each of its axes for its ticks five or six
     times (its extent, its label's position against its own tick labels and each spine's extent,
@@ -143,7 +144,12 @@ def _ticks_once_per_geometry(fig: Figure):
     tick. Within the pass nothing else changes an axis's ticks, and they depend only on its view
     interval, the axes' box in pixels (the room for ticks), and its locators and formatters (all in
     the key): the same key gives the same ticks, already in place, so the last answer is kept.
-    The wrapper is an instance attribute removed after the pass; the save computes ticks afresh.
+    The wrapper is an instance attribute removed after the pass.
+
+    A save draws every axes once, and the drawing asks each axis for its ticks three to five
+    times more (its label's position against its siblings' tick labels, each spine's extent for
+    the title's position); :func:`~relspan.report.figures.render.render_figure` runs the save
+    under the same rule, so each axis runs its locator and formatter once per save.
     """
     wrapped = []
     for ax in fig.axes:
@@ -178,7 +184,7 @@ class _LastTicks:
         return list(self.ticks)
 
 
-def _drop_layout_engine(fig: Figure) -> None:
+def drop_layout_engine(fig: Figure) -> None:
     """Leave the figure with no layout engine at all (``get_layout_engine()`` is None).
 
     ``set_layout_engine("none")`` keeps a placeholder engine, and ``savefig`` draws a figure

@@ -29,7 +29,7 @@ from matplotlib.ticker import MaxNLocator
 
 from relspan.report.figures import geometry
 from relspan.report.figures.checks import as_float_array, as_labels, fail
-from relspan.report.figures.contract import keep_inside, FigureResult, fit_alt, settle
+from relspan.report.figures.contract import drop_layout_engine, keep_inside, FigureResult, fit_alt, settle
 from relspan.report.figures.labels import place_point_labels
 from relspan.report.figures.style import (FAINT, INK, MIN_TEXT_PT, MUTED, PALETTE, SEQUENTIAL, new_figure,
                                           series_style, style_context)
@@ -521,6 +521,97 @@ def drawn_angles_deg(maps: Sequence[ElementaryMapData], reference: ElementaryMap
     return np.array(out)
 
 
+def _fixed_grid(fig, top, cells: list, ncols: int, top_ratio: float) -> None:
+    """Place a wide top axes over a grid of same-sized small panels, measured once.
+
+    ``cells`` are the grid's axes row by row (hidden ones are unused cells). The layout follows
+    the rules the constrained layout applies to such a grid (axes of one size; per column, the
+    largest left and right decoration of its axes; per row, the largest top and bottom one; the
+    outside legend and the figure's x and y labels in margins of their own, each with the same
+    pads), but measures only what differs: the top axes, one panel of each kind of decoration
+    (tick labels on the left, at the bottom, both, none), every panel title's width (titles are
+    the only text that differs between panels of a kind) and the figure-level texts. Positions
+    are final after this one pass: the tick labels do not depend on the axes' size (fixed tick
+    counts), and text sizes never change.
+    """
+    import matplotlib
+
+    renderer = fig.canvas.get_renderer()
+    wpx, hpx = fig.bbox.width, fig.bbox.height
+    w_pad = matplotlib.rcParams["figure.constrained_layout.w_pad"] * fig.dpi
+    h_pad = matplotlib.rcParams["figure.constrained_layout.h_pad"] * fig.dpi
+
+    def margins(ax):  # decoration outside the axes box: left, right, bottom, top (px)
+        box, tight = ax.get_window_extent(renderer), ax.get_tightbbox(renderer)
+        return (max(box.x0 - tight.x0, 0.0), max(tight.x1 - box.x1, 0.0),
+                max(box.y0 - tight.y0, 0.0), max(tight.y1 - box.y1, 0.0))
+
+    def kind(ax):
+        return (ax.yaxis.get_tick_params().get("labelleft", True),
+                ax.xaxis.get_tick_params().get("labelbottom", True))
+
+    nrows = math.ceil(len(cells) / ncols)
+    shown = [ax.get_visible() for ax in cells]
+    measured = {}
+    for ax, v in zip(cells, shown):
+        if v and kind(ax) not in measured:
+            measured[kind(ax)] = margins(ax)
+    none = (0.0, 0.0, 0.0, 0.0)
+    dec = [measured[kind(ax)] if v else none for ax, v in zip(cells, shown)]
+    title_w = [max(t.get_window_extent(renderer).width for t in (ax.title, ax._left_title, ax._right_title))
+               if v else 0.0 for ax, v in zip(cells, shown)]
+    m_top = margins(top)
+    left = [max(d[0] for d in dec[c::ncols]) for c in range(ncols)]
+    right = [max(d[1] for d in dec[c::ncols]) for c in range(ncols)]
+    left[0] = max(left[0], m_top[0])
+    right[-1] = max(right[-1], m_top[1])
+    bottom = [max(d[2] for d in dec[r * ncols:(r + 1) * ncols]) for r in range(nrows)]
+    above = [max(d[3] for d in dec[r * ncols:(r + 1) * ncols]) for r in range(nrows)]
+
+    # figure-level texts, placed where the constrained layout puts them, and their margins
+    x_lo, y_lo, y_hi = 0.0, 0.0, hpx
+    if fig._supylabel is not None:
+        fig._supylabel.set_x(w_pad / wpx)
+        x_lo = fig._supylabel.get_window_extent(renderer).width + 2 * w_pad
+    if fig._supxlabel is not None:
+        fig._supxlabel.set_y(h_pad / hpx)
+        y_lo = fig._supxlabel.get_window_extent(renderer).height + 2 * h_pad
+    if fig._suptitle is not None:
+        fig._suptitle.set_y(1 - h_pad / hpx)
+        y_hi -= fig._suptitle.get_window_extent(renderer).height + 2 * h_pad
+    for leg in fig.legends:
+        y_hi -= leg.get_window_extent(renderer).height + 2 * h_pad
+
+    # columns: equal axes widths; a panel title longer than its axes widens its column's right margin
+    room = wpx - x_lo - sum(left) - 2 * w_pad * ncols
+    longest = [max(title_w[c::ncols]) for c in range(ncols)]
+    aw = (room - sum(right)) / ncols
+    binding: set[int] = set()
+    while True:  # the columns whose title overhangs: each pass adds one at least, so at most ncols passes
+        more = {c for c in range(ncols) if longest[c] - aw > right[c]} | binding
+        if more == binding or len(more) == ncols:
+            break
+        binding = more
+        aw = ((room - sum(longest[c] for c in binding) - sum(right[c] for c in range(ncols) if c not in binding))
+              / (ncols - len(binding)))
+    right = [max(right[c], longest[c] - aw) for c in range(ncols)]
+    xs, x = [], x_lo
+    for c in range(ncols):
+        xs.append(x + w_pad + left[c])
+        x = xs[-1] + aw + right[c] + w_pad
+    # rows: the top axes is top_ratio panels high
+    ah = ((y_hi - y_lo - m_top[2] - m_top[3] - sum(bottom) - sum(above) - 2 * h_pad * (nrows + 1))
+          / (top_ratio + nrows))
+    y = y_hi - h_pad - m_top[3] - top_ratio * ah
+    top.set_position([xs[0] / wpx, y / hpx, (xs[-1] + aw - xs[0]) / wpx, top_ratio * ah / hpx], which="both")
+    y -= m_top[2] + h_pad
+    for r in range(nrows):
+        y -= h_pad + above[r] + ah
+        for c, ax in enumerate(cells[r * ncols:(r + 1) * ncols]):
+            ax.set_position([xs[c] / wpx, y / hpx, aw / wpx, ah / hpx], which="both")
+        y -= bottom[r] + h_pad
+
+
 def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
                    reference: ElementaryMapData | None = None, title: str | None = None,
                    set_name: str = "fitted flat", subspace_angles: tuple[str, Sequence[float]] | None = None,
@@ -606,9 +697,11 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
         panel_h = 2.1 if ncols <= 3 else 1.6
         over_h = 3.2
         fig = new_figure(1.0 + over_h + panel_h * nrows + (0.3 if title else 0.0))
-        gs = fig.add_gridspec(1 + nrows, ncols, height_ratios=[over_h / panel_h] + [1.0] * nrows)
-        ov = fig.add_subplot(gs[0, :])
-        axs = [[fig.add_subplot(gs[1 + r, c], sharex=ov, sharey=ov) for c in range(ncols)] for r in range(nrows)]
+        drop_layout_engine(fig)  # laid out by _fixed_grid: measured once, no constrained-layout pass
+        # provisional boxes (wide, so no title overhangs while measured); _fixed_grid places them
+        ov = fig.add_axes((0.1, 0.5, 0.8, 0.3))
+        axs = [[fig.add_axes((0.1, 0.1, 0.8, 0.3), sharex=ov, sharey=ov) for c in range(ncols)]
+               for r in range(nrows)]
         if title:
             fig.suptitle(title, x=0.01, ha="left", fontweight="bold", fontsize=11)
         # the overlay: every window's set and points in one frame
@@ -672,6 +765,7 @@ def window_gallery(maps: Sequence[ElementaryMapData], labels: Sequence[str], *,
         # no tick label at the top edge, where it would meet the panel title or legend above
         ov.yaxis.set_major_locator(MaxNLocator(nbins=4, steps=[1, 2, 2.5, 5, 10], prune="upper"))
         equal = False
+        _fixed_grid(fig, ov, [a for row in axs for a in row], ncols, over_h / panel_h)
         settle(fig)
 
     rows = []

@@ -13,7 +13,7 @@ import matplotlib
 import pandas as pd
 
 from relspan.errors import OptionsError
-from relspan.report.figures.contract import FigureResult
+from relspan.report.figures.contract import FigureResult, ticks_once_per_geometry
 from relspan.report.figures.style import DPI, style_context
 
 __all__ = ["render_figure", "table_csv", "SVG_METADATA"]
@@ -48,7 +48,8 @@ def render_figure(result: FigureResult, fmt: str = "svg") -> bytes:
     # the layout is fixed and the figure has no layout engine (contract.settle); savefig puts the
     # engine it finds back with ``set_layout_engine``, which under the style's rcParams would attach
     # a new constrained layout engine (and the next save would lay the figure out again)
-    with style_context(), matplotlib.rc_context(_NO_LAYOUT):
+    # (and the drawing works out each axis's ticks once, not at every question about them)
+    with style_context(), matplotlib.rc_context(_NO_LAYOUT), ticks_once_per_geometry(result.figure):
         if fmt == "svg":
             result.figure.savefig(buf, format="svg", metadata=SVG_METADATA)
         else:
