@@ -59,8 +59,9 @@ from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, effective_nobs_by_k,
 from relspan.analysis.intervals import (Interval, interval, procrustes_align,
                                         reduced_form_stack)
 from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, CovarianceResamples, GranuleStats,
-                                       drawn_blocks, influence_sd, influence_values, resample_covariances,
-                                       resample_influence_sd, scale_stack, studentized_interval, window_rng)
+                                       can_redraw, influence_sd, influence_values, iter_drawn_blocks,
+                                       resample_covariances, resample_influence_sd, scale_stack,
+                                       studentized_interval, window_rng)
 
 __all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInference", "window_inference",
            "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
@@ -714,21 +715,27 @@ def eigenvalue_intervals(stats_: GranuleStats, res: CovarianceResamples, estimat
     out = list(basic)
     rule = BASIC_RULE.format(scale=scale, resamples=res.resamples)
     use_log = EIGENVALUE_LOG_SCALE if log is None else bool(log)
-    blocks = drawn_blocks(res) if res.scheme != "iid" else None
-    if blocks is not None:
+    if res.scheme != "iid" and can_redraw(res):
         rule = STUDENTIZED_RULE.format(scale=scale, resamples=res.resamples, res=SE_RESOLUTION)
-        idx, blk = blocks
         cov = res.estimate
         floor = SE_RESOLUTION * (float(np.max(np.abs(est))) if est.size else 0.0)
+        influence: dict[int, tuple[np.ndarray, float]] = {}
         for j in range(est.shape[0]):
             gap = min([abs(float(est[j] - est[k])) for k in (j - 1, j + 1) if 0 <= k < est.shape[0]],
                       default=np.inf)
             if gap <= floor:
                 continue  # tied with a neighbour: not a simple eigenvalue, no gradient; the basic interval
             u = influence_values(stats_, eigenvalue_gradient(cov, j, scale=scale))
-            se = influence_sd(u, stats_.counts, ordered=True)
-            iv = studentized_interval(float(est[j]), d[:, j], se,
-                                      resample_influence_sd(u, stats_.counts, idx, blk), level=level,
+            influence[j] = (u, influence_sd(u, stats_.counts, ordered=True))
+        # the resamples' own standard errors, drawn again chunk by chunk (never all at once)
+        sd_draws = {j: np.empty(res.resamples) for j in influence}
+        if influence:
+            for b0, idx, blk in iter_drawn_blocks(res):
+                for j, (u, _) in influence.items():
+                    sd_draws[j][b0:b0 + idx.shape[0]] = resample_influence_sd(u, stats_.counts, idx, blk)
+                del idx, blk
+        for j, (u, se) in influence.items():
+            iv = studentized_interval(float(est[j]), d[:, j], se, sd_draws[j], level=level,
                                       resolution=floor, log=use_log)
             if np.isfinite(iv.low) and np.isfinite(iv.high):
                 out[j] = iv
