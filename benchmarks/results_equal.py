@@ -11,6 +11,7 @@ checkout (put first on ``PYTHONPATH``, e.g. an exported main) is read by another
 ``compare`` reports each path where the two differ: floats and arrays must be equal bit
 for bit (NaN equal to NaN in the same place), a list of numbers equals an array holding
 the same numbers (so a field stored as a float array instead of a list compares equal),
+``cache_key`` fields are left out (they hash relspan's own code, which differs by design),
 and a dict key or dataclass field present on one side only is a difference. Exit code 0
 when equal, 1 otherwise.
 """
@@ -47,7 +48,7 @@ def walk(obj, seen=None):
         return {"__type__": type(obj).__qualname__,
                 **{f.name: walk(getattr(obj, f.name), seen) for f in dataclasses.fields(obj)}}
     if isinstance(obj, dict):
-        return {"__dict__": [(walk(k, seen), walk(v, seen)) for k, v in obj.items()]}
+        return {"__dict__": [[walk(k, seen), walk(v, seen)] for k, v in obj.items()]}
     if isinstance(obj, (list, tuple)):
         return [walk(v, seen) for v in obj]
     if isinstance(obj, (set, frozenset)):
@@ -56,6 +57,12 @@ def walk(obj, seen=None):
         return {"__frame__": walk(obj.to_dict("split"), seen)}
     if isinstance(obj, BaseException):
         return {"__exc__": type(obj).__name__, "text": str(obj)}
+    slots = [n for c in type(obj).__mro__ for n in getattr(c, "__slots__", ()) if n != "__weakref__"]
+    if hasattr(obj, "__dict__") or slots:
+        seen = seen | {id(obj)}
+        attrs = dict(vars(obj)) if hasattr(obj, "__dict__") else {}
+        attrs.update((n, getattr(obj, n)) for n in slots if hasattr(obj, n) and n != "__dict__")
+        return {"__object__": type(obj).__qualname__, **{k: walk(v, seen) for k, v in sorted(attrs.items())}}
     return {"__repr__": type(obj).__name__, "text": repr(obj)}
 
 
@@ -98,6 +105,10 @@ def diff(a, b, path="run", out=None, limit=50):
         if not (a == b or (a != a and b != b)):
             out.append(f"{path}: {a!r} vs {b!r}")
         return out
+    if isinstance(a, tuple):
+        a = list(a)
+    if isinstance(b, tuple):
+        b = list(b)
     if type(a) is not type(b):
         out.append(f"{path}: {type(a).__name__} vs {type(b).__name__}")
         return out
@@ -105,7 +116,7 @@ def diff(a, b, path="run", out=None, limit=50):
         if set(a) != set(b):
             out.append(f"{path}: keys {sorted(set(a) ^ set(b))} on one side only")
         for k in a:
-            if k in b:
+            if k in b and k != "cache_key":
                 diff(a[k], b[k], f"{path}.{k}", out, limit)
         return out
     if isinstance(a, list):
@@ -115,7 +126,10 @@ def diff(a, b, path="run", out=None, limit=50):
         for i, (x, y) in enumerate(zip(a, b)):
             diff(x, y, f"{path}[{i}]", out, limit)
         return out
-    if a != b:
+    same = a == b
+    if not isinstance(same, bool):
+        same = bool(np.all(same))
+    if not same:
         out.append(f"{path}: {a!r} vs {b!r}"[:300])
     return out
 

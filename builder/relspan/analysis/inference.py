@@ -47,6 +47,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import sys
 from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
 
@@ -399,7 +400,7 @@ def _support(assumption: str, estimate: int | None, values: np.ndarray, n: int, 
     counts = np.bincount(np.asarray(values, dtype=int), minlength=n + 1)[: n + 1]
     return CorankSupport(assumption=assumption, estimate=estimate, coranks=tuple(range(n + 1)),
                          chosen_share=tuple(float(c) / max(total, 1) for c in counts), admissible_share=None,
-                         undetermined_share=undetermined / max(total, 1), resamples=total, rule=rule)
+                         undetermined_share=undetermined / max(total, 1), resamples=total, rule=sys.intern(rule))
 
 
 # --------------------------------------------------------------------------- diagonal noise
@@ -1021,8 +1022,8 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
 
     return WindowInference(
         resamples=res.resamples, level=level, scheme=res.scheme,
-        block_length_rows=float(res.block_length * res.rows_per_granule), block_rule=res.block_rule,
+        block_length_rows=float(res.block_length * res.rows_per_granule), block_rule=sys.intern(res.block_rule),
         rows_per_granule=res.rows_per_granule, granules=res.granules, seed=(options.seed, *seed_key),
-        note=res.note, scale=scale, eigenvalues=tuple(eig), coranks=supports, coefficients=coefficients,
+        note=sys.intern(res.note), scale=scale, eigenvalues=tuple(eig), coranks=supports, coefficients=coefficients,
         targets=targets, elementary=tuple(elementary), noise=noise, diagonal_noise=tuple(diag_noise),
-        outer=tuple(outer), rules=rules)
+        outer=tuple(outer), rules={k: sys.intern(v) for k, v in rules.items()})
