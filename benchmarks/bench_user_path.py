@@ -6,6 +6,7 @@
     python benchmarks/bench_user_path.py check-stages SPEC            # `relspan check` (in process, serial) by stage
     python benchmarks/bench_user_path.py spec FOLDER --windows 1000 --n 6 [--resamples 499]  # write the generated spec
     python benchmarks/bench_user_path.py side-by-side SPEC --before DIR [--pairs 2]  # check-stages, A B A B
+    python benchmarks/bench_user_path.py task-costs FOLDER [--windows 300 --n 6 --pairs 2]  # the scheduler's constants
 
 ``elementary``: every elementary regression (each variable on the others, with intercept) of
 every rolling window (width 250, step 50 rows), n = 6, on invented rows (seeded):
@@ -29,6 +30,12 @@ the break scan, the full sample's spread, trends and influence, the findings, th
 (A) and the package folder DIR (B, e.g. ``git archive COMMIT builder | tar -x -C DIR``, then
 ``DIR/builder``) put first on ``PYTHONPATH``, A B A B ...; prints each stage's CPU seconds
 (median over the pairs), the ratio B / A, and each side's peak RSS.
+``task-costs``: the per-window and per-resample CPU seconds of the window tasks that the
+scheduler's cost model uses (``relspan.run.executors.window_work``): ``check-stages`` of three
+generated specs in fresh processes, interleaved: ``resamples: 0`` without the stability draws
+(``pipeline.HAND_OVER = False``: the analyses alone), ``resamples: 0`` (the analyses and the
+stability stage's draws) and the default resampling (intervals too); the window-task CPU
+seconds divided by the tasks and resamples (plans of more than 200 windows: 199 per window).
 ``spec`` writes the generated CSV and spec of ``stages`` into FOLDER (``--resamples``
 sets ``checks.resampling.resamples``; 0 turns the window tasks' resampling off), for
 ``check``, ``check-stages`` and whole-process timers.
@@ -444,9 +451,46 @@ def side_by_side(spec_path: str, before: str, pairs: int) -> None:
           + "; A " + ", ".join(f"{r['total']:.2f}" for r in runs["A"]))
 
 
+def task_costs(folder: str, windows: int, n: int, pairs: int) -> None:
+    """Per-window and per-resample CPU seconds of the window tasks (see the module notes)."""
+    import os
+    import re
+    import statistics
+    import subprocess
+
+    base = Path(folder)
+    specs = {}
+    for name, resamples in (("zero", 0), ("on", None)):
+        (base / name).mkdir(parents=True, exist_ok=True)
+        specs[name] = str(_spec(base / name, windows, n, ["elementary", "equal", "bounded"], resamples))
+    here = Path(__file__).resolve()
+
+    def tasks(spec: str, hand: bool) -> float:
+        code = (f"import sys; sys.path.insert(0, {str(here.parent)!r}); import relspan.run.pipeline as p; "
+                f"p.HAND_OVER = {hand!r}; import bench_user_path as b; b.check_stages({spec!r})")
+        out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                             env=dict(os.environ)).stdout
+        return float(re.search(r"window tasks.*?([\d.]+) s CPU", out).group(1))
+
+    runs: dict[str, list[float]] = {"alone": [], "stability": [], "intervals": []}
+    for _ in range(pairs):
+        runs["alone"].append(tasks(specs["zero"], False))
+        runs["stability"].append(tasks(specs["zero"], True))
+        runs["intervals"].append(tasks(specs["on"], True))
+    c, a, b = (statistics.median(runs[k]) for k in ("alone", "stability", "intervals"))
+    per = 199 if windows > 200 else 499
+    w = windows + 1
+    print(f"window tasks of {w} (n = {n}, {per} resamples each), CPU seconds, median of {pairs}: "
+          f"analyses alone {c:.2f}, with the stability draws {a:.2f}, with the intervals too {b:.2f}")
+    print(f"  per window, the analyses: {c / w * 1e3:.3f} ms")
+    print(f"  per resample, drawing it and the stability decompositions: {(a - c) / (w * per) * 1e6:.1f} us")
+    print(f"  per resample, the intervals and corank supports beyond that: {(b - a) / (w * per) * 1e6:.1f} us")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("what", choices=["elementary", "stages", "check", "check-stages", "spec", "side-by-side"])
+    ap.add_argument("what", choices=["elementary", "stages", "check", "check-stages", "spec", "side-by-side",
+                                    "task-costs"])
     ap.add_argument("spec", nargs="?")
     ap.add_argument("--rows", type=int, default=100_000)
     ap.add_argument("--windows", type=int, default=1000)
@@ -469,6 +513,8 @@ def main() -> None:
         if not args.before:
             ap.error("side-by-side needs --before DIR (the package folder of the other checkout)")
         side_by_side(args.spec, args.before, args.pairs)
+    elif args.what == "task-costs":
+        task_costs(args.spec, args.windows, args.n, args.pairs)
     elif args.what == "stages":
         stages(args.windows, args.n, args.assumptions.split(","), not args.no_summaries)
     else:

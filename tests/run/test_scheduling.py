@@ -77,3 +77,70 @@ def test_a_first_build_does_not_hash_its_file_before_the_pass_and_a_rebuild_only
     changed = relspan.check(spec, jobs=1)
     assert changed.run.cache_misses == 1 and len(passes) == 2
     assert pipeline is not None
+
+
+def test_resampling_counts_in_the_estimate_and_in_proportion_to_the_resamples():
+    base = window_work(1000, 6, ("elementary", "equal", "bounded"))
+    stab = window_work(1000, 6, ("elementary", "equal", "bounded"), stability_resamples=199)
+    both = window_work(1000, 6, ("elementary", "equal", "bounded"), resamples=199, stability_resamples=199)
+    twice = window_work(1000, 6, ("elementary", "equal", "bounded"), resamples=398, stability_resamples=398)
+    assert base < stab < both
+    assert twice - base == pytest.approx(2 * (both - base))
+    # a task that resamples for its intervals draws once: the stability draws are not counted twice
+    assert window_work(10, 6, ("equal",), resamples=199) == window_work(10, 6, ("equal",), resamples=199,
+                                                                        stability_resamples=199)
+
+
+def _spec(tmp_path, windows: int, resamples: int | None, assumptions: str = "elementary, equal, bounded"):
+    from relspan.spec import load_spec
+
+    rows = 100 + 10 * (windows - 1)
+    (tmp_path / "d.csv").write_text("a,b,c\n" + "".join(f"{i % 7},{i % 5},{i % 3}\n" for i in range(rows)))
+    extra = "" if resamples is None else f", resampling: {{resamples: {resamples}}}"
+    (tmp_path / "s.yaml").write_text(
+        "relspan: 1\nreport: {title: t}\ndatasets:\n  - id: d\n    title: d\n    source: d.csv\n"
+        "    variables: [{column: a}, {column: b}, {column: c}]\n"
+        f"windows:\n  - {{id: full, kind: full}}\n  - {{id: r, kind: rolling, width: 100, step: 10}}\n"
+        f"checks: {{assumptions: [{assumptions}]{extra}}}\n", encoding="utf-8")
+    spec = load_spec(tmp_path / "s.yaml")
+    ds = spec.datasets[0]
+    return ds, [(p, 1 if p.kind == "full" else windows) for p in spec.plans_for(ds)]
+
+
+def test_a_plan_whose_resampling_dominates_goes_to_the_pool_where_the_analyses_alone_would_not(tmp_path):
+    from relspan.run.pipeline import _analysis_work
+
+    ds, counts = _spec(tmp_path, 1000, None)
+    work = _analysis_work(ds, counts)
+    analyses_alone = window_work(1 + 1000, 3, tuple(ds.checks.assumptions))
+    assert analyses_alone < POOL_ABOVE_S < work
+    assert choose_local(analyses_alone, 2)[0] == 1 and choose_local(work, 2)[0] == 2
+
+
+def test_resamples_zero_still_counts_the_stability_draws_and_small_plans_stay_in_process(tmp_path):
+    from relspan.run.pipeline import _analysis_work
+
+    ds0, counts0 = _spec(tmp_path, 1000, 0)
+    ds, counts = _spec(tmp_path, 1000, None)
+    analyses_alone = window_work(1 + 1000, 3, tuple(ds0.checks.assumptions))
+    assert analyses_alone < _analysis_work(ds0, counts0) < _analysis_work(ds, counts)
+    small, small_counts = _spec(tmp_path, 20, None)
+    assert choose_local(_analysis_work(small, small_counts), 2)[0] == 1
+
+
+def test_plans_of_many_windows_are_costed_at_their_capped_resamples(tmp_path):
+    from relspan.analysis.inference import MANY_WINDOWS, MANY_WINDOWS_RESAMPLES
+    from relspan.run.executors import _INTERVAL_RESAMPLE_S, _STABILITY_RESAMPLE_S
+    from relspan.run.pipeline import _analysis_work
+
+    few, few_counts = _spec(tmp_path, MANY_WINDOWS, None)
+    many, many_counts = _spec(tmp_path, MANY_WINDOWS + 1, None)
+    # the full sample's task and the full plan's one window keep the spec's 499
+    full = 2 * window_work(1, 3, tuple(few.checks.assumptions), resamples=499)
+    per_few = _analysis_work(few, few_counts) - full
+    per_many = _analysis_work(many, many_counts) - full
+    each = _STABILITY_RESAMPLE_S + _INTERVAL_RESAMPLE_S
+    assert per_few / MANY_WINDOWS == pytest.approx(window_work(1, 3, ("elementary", "equal", "bounded"))
+                                                   + 499 * each)
+    assert per_many / (MANY_WINDOWS + 1) == pytest.approx(window_work(1, 3, ("elementary", "equal", "bounded"))
+                                                          + MANY_WINDOWS_RESAMPLES * each)

@@ -25,6 +25,7 @@ References
 
 from __future__ import annotations
 
+import sys
 from dataclasses import dataclass
 from typing import Any, Callable
 
@@ -127,7 +128,7 @@ def equal_noise_support(estimate_eigenvalues, resampled_eigenvalues, *, nobs, re
             "resamples; corank 1 always fits equal noise and is no evidence of a relation by itself.")
     return CorankSupport(assumption="equal", estimate=int(q_hat), coranks=tuple(range(n + 1)),
                          chosen_share=_shares(qs, n), admissible_share=None, undetermined_share=0.0,
-                         resamples=int(lam.shape[0]), rule=rule)
+                         resamples=int(lam.shape[0]), rule=sys.intern(rule))
 
 
 def bounded_support(estimate_eigenvalues, resampled_eigenvalues, *, eps: float) -> CorankSupport:
@@ -150,7 +151,7 @@ def bounded_support(estimate_eigenvalues, resampled_eigenvalues, *, eps: float) 
             "allow that many relations within the tolerance, not that they are shown to hold.")
     return CorankSupport(assumption="bounded", estimate=int(np.sum(est <= eps)), coranks=tuple(range(n + 1)),
                          chosen_share=_shares(qmax, n), admissible_share=adm_share, undetermined_share=0.0,
-                         resamples=int(lam.shape[0]), rule=rule)
+                         resamples=int(lam.shape[0]), rule=sys.intern(rule))
 
 
 def diagonal_support(estimate: int | None, covariances, analyse: Callable[[np.ndarray, Any], tuple],
@@ -192,4 +193,4 @@ def diagonal_support(estimate: int | None, covariances, analyse: Callable[[np.nd
     return CorankSupport(assumption="diagonal", estimate=estimate, coranks=tuple(range(n + 1)),
                          chosen_share=tuple(float(x) for x in shares), admissible_share=None,
                          undetermined_share=undetermined / max(b, 1), resamples=b,
-                         rule=f"{rule}, over {b} resamples, each warm-started from the previous one.")
+                         rule=sys.intern(f"{rule}, over {b} resamples, each warm-started from the previous one."))

@@ -28,6 +28,7 @@ References
 
 from __future__ import annotations
 
+import sys
 from dataclasses import dataclass
 from typing import Sequence
 
@@ -240,7 +241,7 @@ def equal_noise(cov, *, names: Sequence[str], shape=None, scale: str = "as given
                 + ("relative " if w_diag is not None else "") + "noise means something different in "
                 "different units. Compare with the correlation-scale result before relying on it.")
     return EqualNoise(names=names_t, eigenvalues=np.asarray(lam, dtype=float), eigenvectors=vec_orig,
-                      shape=w_diag, scale=scale, coranks=tuple(coranks), scale_note=note, method=method)
+                      shape=w_diag, scale=scale, coranks=tuple(coranks), scale_note=sys.intern(note), method=method)
 
 
 def _ratio(a: float, b: float) -> float:

@@ -47,6 +47,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import sys
 from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
 
@@ -59,8 +60,9 @@ from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, effective_nobs_by_k,
 from relspan.analysis.intervals import (Interval, interval, procrustes_align,
                                         reduced_form_stack)
 from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, CovarianceResamples, GranuleStats,
-                                       drawn_blocks, influence_sd, influence_values, resample_covariances,
-                                       resample_influence_sd, scale_stack, studentized_interval, window_rng)
+                                       can_redraw, influence_sd, influence_values, iter_drawn_blocks,
+                                       resample_covariances, resample_influence_sd, scale_stack,
+                                       studentized_interval, window_rng)
 
 __all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInference", "window_inference",
            "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
@@ -398,7 +400,7 @@ def _support(assumption: str, estimate: int | None, values: np.ndarray, n: int, 
     counts = np.bincount(np.asarray(values, dtype=int), minlength=n + 1)[: n + 1]
     return CorankSupport(assumption=assumption, estimate=estimate, coranks=tuple(range(n + 1)),
                          chosen_share=tuple(float(c) / max(total, 1) for c in counts), admissible_share=None,
-                         undetermined_share=undetermined / max(total, 1), resamples=total, rule=rule)
+                         undetermined_share=undetermined / max(total, 1), resamples=total, rule=sys.intern(rule))
 
 
 # --------------------------------------------------------------------------- diagonal noise
@@ -714,21 +716,27 @@ def eigenvalue_intervals(stats_: GranuleStats, res: CovarianceResamples, estimat
     out = list(basic)
     rule = BASIC_RULE.format(scale=scale, resamples=res.resamples)
     use_log = EIGENVALUE_LOG_SCALE if log is None else bool(log)
-    blocks = drawn_blocks(res) if res.scheme != "iid" else None
-    if blocks is not None:
+    if res.scheme != "iid" and can_redraw(res):
         rule = STUDENTIZED_RULE.format(scale=scale, resamples=res.resamples, res=SE_RESOLUTION)
-        idx, blk = blocks
         cov = res.estimate
         floor = SE_RESOLUTION * (float(np.max(np.abs(est))) if est.size else 0.0)
+        influence: dict[int, tuple[np.ndarray, float]] = {}
         for j in range(est.shape[0]):
             gap = min([abs(float(est[j] - est[k])) for k in (j - 1, j + 1) if 0 <= k < est.shape[0]],
                       default=np.inf)
             if gap <= floor:
                 continue  # tied with a neighbour: not a simple eigenvalue, no gradient; the basic interval
             u = influence_values(stats_, eigenvalue_gradient(cov, j, scale=scale))
-            se = influence_sd(u, stats_.counts, ordered=True)
-            iv = studentized_interval(float(est[j]), d[:, j], se,
-                                      resample_influence_sd(u, stats_.counts, idx, blk), level=level,
+            influence[j] = (u, influence_sd(u, stats_.counts, ordered=True))
+        # the resamples' own standard errors, drawn again chunk by chunk (never all at once)
+        sd_draws = {j: np.empty(res.resamples) for j in influence}
+        if influence:
+            for b0, idx, blk in iter_drawn_blocks(res):
+                for j, (u, _) in influence.items():
+                    sd_draws[j][b0:b0 + idx.shape[0]] = resample_influence_sd(u, stats_.counts, idx, blk)
+                del idx, blk
+        for j, (u, se) in influence.items():
+            iv = studentized_interval(float(est[j]), d[:, j], se, sd_draws[j], level=level,
                                       resolution=floor, log=use_log)
             if np.isfinite(iv.low) and np.isfinite(iv.high):
                 out[j] = iv
@@ -1014,8 +1022,8 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
 
     return WindowInference(
         resamples=res.resamples, level=level, scheme=res.scheme,
-        block_length_rows=float(res.block_length * res.rows_per_granule), block_rule=res.block_rule,
+        block_length_rows=float(res.block_length * res.rows_per_granule), block_rule=sys.intern(res.block_rule),
         rows_per_granule=res.rows_per_granule, granules=res.granules, seed=(options.seed, *seed_key),
-        note=res.note, scale=scale, eigenvalues=tuple(eig), coranks=supports, coefficients=coefficients,
+        note=sys.intern(res.note), scale=scale, eigenvalues=tuple(eig), coranks=supports, coefficients=coefficients,
         targets=targets, elementary=tuple(elementary), noise=noise, diagonal_noise=tuple(diag_noise),
-        outer=tuple(outer), rules=rules)
+        outer=tuple(outer), rules={k: sys.intern(v) for k, v in rules.items()})

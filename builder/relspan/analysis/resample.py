@@ -77,7 +77,8 @@ __all__ = ["SCHEMES", "DEFAULT_RESAMPLES", "DEFAULT_LEVEL", "BlockLength", "Gran
            "CovarianceResamples", "window_seed", "window_rng", "politis_white_block_length",
            "draw_granules", "draw_blocks", "merge_weighted", "resample_covariances", "stack_covariances",
            "correlation_stack", "scale_stack", "statistic_gradient", "influence_values", "influence_sd",
-           "resample_influence_sd", "studentized_interval", "drawn_blocks", "blocks_per_resample"]
+           "resample_influence_sd", "studentized_interval", "drawn_blocks", "blocks_per_resample", "iter_draw_blocks",
+           "iter_drawn_blocks", "draw_chunk", "can_redraw"]
 
 #: resampling schemes
 SCHEMES = ("iid", "moving", "stationary")
@@ -86,8 +87,14 @@ SCHEMES = ("iid", "moving", "stationary")
 DEFAULT_RESAMPLES = 499
 #: level of intervals when the spec does not say
 DEFAULT_LEVEL = 0.90
-#: granules x resamples held at once in the multiplicity matrix (bounds memory to ~32 MB)
+#: granules x resamples held at once in the multiplicity matrix (bounds memory to ~32 MB); the merges
+#: of :func:`stack_covariances` take this many resamples at a time, whatever the draws' chunks, so
+#: the matrix products (and so every covariance's last bits) stay those of one fixed partition
 _CHUNK_CELLS = 4_000_000
+#: granule indices drawn at once by :func:`iter_draw_blocks` (8 MB of indices and as much of blocks):
+#: a window's resamples are never all held as indices (499 resamples of 30,013 granules were
+#: 120 MB of indices, 236 MB with what was made of them)
+_DRAW_CELLS = 1_000_000
 
 
 def window_seed(seed: int, dataset: str, plan: str, window: int) -> np.random.SeedSequence:
@@ -322,6 +329,47 @@ def draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Generator
         that position ``t`` was copied from; for ``"iid"`` every position is
         a block of its own. The studentised interval
         (:func:`studentized_interval`) sums influence values over these blocks.
+
+    Notes
+    -----
+    The chunks of :func:`iter_draw_blocks` put together: the same draws, bit
+    for bit, as drawing every resample at once. Callers that can work chunk by
+    chunk (:func:`resample_covariances`, the studentised intervals) use the
+    iterator and never hold the whole ``(resamples, k)`` array.
+    """
+    parts = list(iter_draw_blocks(k, scheme=scheme, resamples=resamples, rng=rng, block_length=block_length))
+    if len(parts) == 1:
+        return parts[0][1], parts[0][2]
+    return np.concatenate([p[1] for p in parts]), np.concatenate([p[2] for p in parts])
+
+
+def draw_chunk(k: int, cells: int | None = None) -> int:
+    """Resamples per chunk of :func:`iter_draw_blocks` for a window of ``k`` granules (``cells`` // k, >= 1)."""
+    return max(1, int(_DRAW_CELLS if cells is None else cells) // max(int(k), 1))
+
+
+def iter_draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Generator,
+                     block_length: float = 1.0, chunk: int | None = None):
+    """:func:`draw_blocks` in chunks of resamples: yields ``(start, idx, block)`` in order.
+
+    ``idx`` and ``block`` are rows ``start .. start + len(idx) - 1`` of what
+    :func:`draw_blocks` returns, and the generator ``rng`` is left in the same
+    state, so every draw is the same, bit for bit, however the resamples are
+    chunked (``chunk`` resamples at a time; default :func:`draw_chunk`, about
+    :data:`_DRAW_CELLS` granule indices). Memory: one chunk's indices and
+    blocks, plus, for the stationary scheme, one byte per granule and resample
+    (below).
+
+    How the stream is kept: ``"iid"`` and ``"moving"`` draw one integer per
+    granule (or block start) in row order, so a chunk's rows are the next
+    integers of the stream. The stationary scheme draws first every
+    resample's block breaks (one float32 per granule, all resamples, in row
+    order) and only then one uniform start per block, all blocks of all
+    resamples in order; a resample's number of blocks is random, so the
+    breaks of every resample are drawn first (in chunks, kept as booleans)
+    and each chunk then takes the next ``blocks in the chunk`` starts of
+    the stream: the same starts, in the same order, as one draw of all of
+    them.
     """
     if scheme not in SCHEMES:
         raise OptionsError(f"scheme must be one of {', '.join(SCHEMES)}; got {scheme!r}.", key="scheme",
@@ -329,22 +377,39 @@ def draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Generator
     if k < 1 or resamples < 1:
         raise OptionsError(f"need at least one granule and one resample; got k={k}, resamples={resamples}.",
                            key="resamples", fix="Ask for at least one resample of a non-empty window.")
+    step = draw_chunk(k) if chunk is None else max(1, int(chunk))
+    spans = [(b0, min(step, resamples - b0)) for b0 in range(0, resamples, step)]
     if scheme == "iid" or k == 1:
-        return rng.integers(0, k, size=(resamples, k)), np.broadcast_to(np.arange(k), (resamples, k))
+        for b0, nb in spans:
+            yield b0, rng.integers(0, k, size=(nb, k)), np.broadcast_to(np.arange(k), (nb, k))
+        return
     if scheme == "moving":
         b = int(min(max(round(block_length), 1), k))
-        nb = -(-k // b)
-        starts = rng.integers(0, k - b + 1, size=(resamples, nb))
-        idx = (starts[:, :, None] + np.arange(b)).reshape(resamples, nb * b)
-        return idx[:, :k], np.broadcast_to(np.arange(k) // b, (resamples, k))
-    p = 1.0 / max(float(block_length), 1.0)
-    new = rng.random((resamples, k), dtype=np.float32) < np.float32(p)
+        nblk = -(-k // b)
+        for b0, nb in spans:
+            yield b0, _moving_chunk(rng, k, b, nblk, nb), np.broadcast_to(np.arange(k) // b, (nb, k))
+        return
+    p = np.float32(1.0 / max(float(block_length), 1.0))
+    new = np.empty((resamples, k), dtype=bool)
+    for b0, nb in spans:                                   # every resample's block breaks first
+        np.less(rng.random((nb, k), dtype=np.float32), p, out=new[b0:b0 + nb])
     new[:, 0] = True
-    block = np.cumsum(new.ravel()) - 1                      # running block number, all resamples
-    starts = rng.integers(0, k, size=int(block[-1]) + 1)    # one uniform start per block
     t = np.arange(k)
+    for b0, nb in spans:                                   # then the starts, chunk by chunk
+        yield (b0, *_stationary_chunk(rng, new[b0:b0 + nb], t, k))
+
+
+def _moving_chunk(rng: np.random.Generator, k: int, b: int, nblk: int, nb: int) -> np.ndarray:
+    starts = rng.integers(0, k - b + 1, size=(nb, nblk))
+    return (starts[:, :, None] + np.arange(b)).reshape(nb, nblk * b)[:, :k]
+
+
+def _stationary_chunk(rng: np.random.Generator, new: np.ndarray, t: np.ndarray, k: int):
+    nb = new.shape[0]
+    block = np.cumsum(new.ravel()) - 1                      # running block number within the chunk
+    starts = rng.integers(0, k, size=int(block[-1]) + 1)    # the chunk's next starts of the stream
     begin = np.maximum.accumulate(np.where(new, t, 0), axis=1)
-    idx = (starts[block].reshape(resamples, k) + (t - begin)) % k
+    idx = (starts[block].reshape(nb, k) + (t - begin)) % k
     return idx, np.cumsum(new, axis=1) - 1
 
 
@@ -384,19 +449,48 @@ def merge_weighted(counts, means, comoments, weights) -> tuple[np.ndarray, np.nd
 def stack_covariances(stats: GranuleStats, idx: np.ndarray, *, ddof: int = 1
                       ) -> tuple[np.ndarray, np.ndarray]:
     """Covariances ``(B, n, n)`` and row counts ``(B,)`` of resamples given as granule indices."""
-    b_total, _ = idx.shape
+    return _stack_chunks(stats, [(0, idx)], int(idx.shape[0]), ddof=ddof)
+
+
+def _stack_chunks(stats: GranuleStats, chunks, b_total: int, *, ddof: int = 1
+                  ) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`stack_covariances` of resamples given chunk by chunk: ``(start, idx, ...)`` in order.
+
+    The multiplicities are gathered into the merge's own partition (``_CHUNK_CELLS``
+    cells, resamples ``0, m, 2m, ...``) whatever the chunks are, so each merge is the
+    same matrix product as when every index was given at once.
+    """
     k = stats.k
     covs = np.empty((b_total, stats.n, stats.n))
     rows = np.empty(b_total)
-    chunk = max(1, _CHUNK_CELLS // max(k, 1))
-    for b0 in range(0, b_total, chunk):
-        part = idx[b0:b0 + chunk]
+    m = max(1, _CHUNK_CELLS // max(k, 1))
+    w = None
+    filled = 0                      # rows of the current merge's multiplicities already gathered
+    m0 = 0                          # the current merge's first resample
+    for item in chunks:
+        b0, part = item[0], item[1]
+        del item
         nb = part.shape[0]
-        flat = (np.arange(nb)[:, None] * k + part).ravel()
-        w = np.bincount(flat, minlength=nb * k).reshape(nb, k)
-        tot, _, cm = merge_weighted(stats.counts, stats.means, stats.comoments, w)
-        covs[b0:b0 + nb] = cm / (tot - ddof)[:, None, None]
-        rows[b0:b0 + nb] = tot
+        at = 0
+        while at < nb:
+            if w is None:
+                w = np.zeros((min(m, b_total - m0), k))
+            take = min(nb - at, w.shape[0] - filled)
+            piece = part[at:at + take]
+            flat = (np.arange(take)[:, None] * k + piece).ravel()
+            w[filled:filled + take] = np.bincount(flat, minlength=take * k).reshape(take, k)
+            del flat, piece
+            filled += take
+            at += take
+            if filled == w.shape[0]:
+                tot, _, cm = merge_weighted(stats.counts, stats.means, stats.comoments, w)
+                covs[m0:m0 + filled] = cm / (tot - ddof)[:, None, None]
+                rows[m0:m0 + filled] = tot
+                m0 += filled
+                w, filled = None, 0
+        del part
+    if m0 != b_total:
+        raise ValueError(f"chunks gave {m0} resamples; expected {b_total}")
     return covs, rows
 
 
@@ -552,8 +646,13 @@ def resample_covariances(stats: GranuleStats, *, resamples: int = DEFAULT_RESAMP
         b, rule = bl.value, bl.rule
     if scheme == "moving":
         b = float(min(max(round(b), 1), stats.k))
-    idx, blocks = draw_blocks(stats.k, scheme=scheme, resamples=int(resamples), rng=rng, block_length=b)
-    covs, rows = stack_covariances(stats, idx, ddof=ddof)
+    if keep_draws:
+        idx, blocks = draw_blocks(stats.k, scheme=scheme, resamples=int(resamples), rng=rng, block_length=b)
+        covs, rows = stack_covariances(stats, idx, ddof=ddof)
+    else:   # chunk by chunk: the same draws and covariances, without every index held at once
+        idx = blocks = None
+        covs, rows = _stack_chunks(stats, iter_draw_blocks(stats.k, scheme=scheme, resamples=int(resamples),
+                                                           rng=rng, block_length=b), int(resamples), ddof=ddof)
     tot, _, cm = stats.window_moments()
     note = "" if stats.rows_per_granule == 1 else (
         f"Granules of up to {stats.rows_per_granule} rows are resampled whole: blocks start only at "
@@ -587,6 +686,30 @@ def drawn_blocks(res: CovarianceResamples) -> tuple[np.ndarray, np.ndarray] | No
                               block_length=res.block_length)
     return idx, np.ascontiguousarray(blocks)
 
+
+
+def iter_drawn_blocks(res: CovarianceResamples, *, chunk: int | None = None):
+    """:func:`drawn_blocks` chunk by chunk: ``(start, idx, block)`` as :func:`iter_draw_blocks` yields them.
+
+    Kept draws are sliced; otherwise the draws are made again from a fresh copy of
+    ``res``'s recorded stream, one chunk at a time (the whole ``(B, k)`` arrays are
+    never held). Yields nothing when neither is available (as :func:`drawn_blocks`
+    returns None).
+    """
+    if res.draws is not None and res.blocks is not None:
+        step = draw_chunk(res.granules) if chunk is None else max(1, int(chunk))
+        for b0 in range(0, res.draws.shape[0], step):
+            yield b0, res.draws[b0:b0 + step], res.blocks[b0:b0 + step]
+        return
+    if res.seed is None or len(res.seed) != 4:
+        return
+    yield from iter_draw_blocks(res.granules, scheme=res.scheme, resamples=res.resamples,
+                                rng=window_rng(*res.seed), block_length=res.block_length, chunk=chunk)
+
+
+def can_redraw(res: CovarianceResamples) -> bool:
+    """True when :func:`iter_drawn_blocks` has draws to give (kept, or a recorded stream)."""
+    return (res.draws is not None and res.blocks is not None) or (res.seed is not None and len(res.seed) == 4)
 
 
 def statistic_gradient(f, cov, *, step: float | None = None) -> np.ndarray:

@@ -22,6 +22,7 @@ Conventions
 
 from __future__ import annotations
 
+import sys
 import warnings
 from dataclasses import dataclass, field
 from typing import Mapping, Sequence
@@ -408,10 +409,10 @@ def analyse_window(moments: Moments, *, names: Sequence[str], options: WindowOpt
 
     return WindowAnalysis(
         label=label, count=int(moments.count), names=names, cov=cov, common_std=common_std,
-        eps=float(eps), scale=tol.scale, tolerance_note=tol.convention, ref=int(ref),
+        eps=float(eps), scale=tol.scale, tolerance_note=sys.intern(tol.convention), ref=int(ref),
         elementary=er, equal=eq if "equal" in options.assumptions else None, shaped=shaped,
         bounded=bd, diagonal=fr, coranks=coranks, bases=bases, coefficients=coefficients,
-        frisch_lower=lower, frisch_upper=upper, notes=tuple(dict.fromkeys(notes)), inference=inference,
+        frisch_lower=lower, frisch_upper=upper, notes=tuple(sys.intern(t) for t in dict.fromkeys(notes)), inference=inference,
     )
 
 

@@ -260,24 +260,46 @@ POOL_ABOVE_S = 4.0
 _WINDOW_S = 0.0004
 _SHAPED_S = 0.0002
 _DIAGONAL_S_PER_N2 = 0.007
+#: seconds per resample of a window task: drawing one resample and the stability stage's
+#: decompositions of it (bases of each compared assumption, plausible coranks), and, beyond those,
+#: its intervals and corank supports. Measured on the machine of docs/performance.md (sections 5
+#: and 6) as ``benchmarks/bench_user_path.py task-costs`` measures them: the window tasks' CPU
+#: seconds of 1,001 windows (n = 6, 100 rows, 199 resamples each) with the analyses alone (0.96 s),
+#: with the stability draws (3.71 s) and with the intervals too (11.4 s), at a load average of 5
+#: to 9; a repeat at a load average of 8 (300 windows) gave about twice each figure
+_STABILITY_RESAMPLE_S = 0.000014
+_INTERVAL_RESAMPLE_S = 0.000039
+#: seconds x n^2 per diagonal-noise resample (a corank search warm-started from the previous
+#: resample; the demo's window tasks with ``diagonal_resamples`` 99 against 0, section 5)
+_DIAGONAL_RESAMPLE_S_PER_N2 = 0.0002
 #: seconds to draw one figure (median over the demo's figures, same machine)
 FIGURE_S = 0.2
 
 
-def window_work(windows: int, n: int, assumptions, *, frisch_starts: int = 8) -> float:
+def window_work(windows: int, n: int, assumptions, *, frisch_starts: int = 8, resamples: int = 0,
+                stability_resamples: int = 0, diagonal_resamples: int = 0) -> float:
     """Estimated seconds in one process for ``windows`` window tasks of ``n`` variables.
 
     A rough cost model (constants measured on the machine of docs/performance.md):
     about 0.4 ms per window for the elementary, equal and bounded analyses, and
     about 7 ms x n^2 per window for the diagonal-noise (Frisch scheme) search
-    with 8 starts, in proportion to the starts. Used only to choose where tasks
-    run; the choice never changes a result.
+    with 8 starts, in proportion to the starts. Resampling adds, per window,
+    ``stability_resamples`` draws for the stability stage
+    (:data:`_STABILITY_RESAMPLE_S` each; a task that also resamples for its
+    intervals draws once, so the larger of the two counts), ``resamples``
+    resamples of the intervals and corank supports (:data:`_INTERVAL_RESAMPLE_S`
+    each, beyond the draw) and ``diagonal_resamples`` warm-started diagonal-noise
+    searches (:data:`_DIAGONAL_RESAMPLE_S_PER_N2` x n^2 each). Used only to
+    choose where tasks run; the choice never changes a result.
     """
     per = _WINDOW_S
     if "shaped" in assumptions:
         per += _SHAPED_S
     if "diagonal" in assumptions:
         per += _DIAGONAL_S_PER_N2 * n * n * max(int(frisch_starts), 1) / 8.0
+        per += _DIAGONAL_RESAMPLE_S_PER_N2 * n * n * max(int(diagonal_resamples), 0)
+    per += _STABILITY_RESAMPLE_S * max(int(stability_resamples), int(resamples), 0)
+    per += _INTERVAL_RESAMPLE_S * max(int(resamples), 0)
     return float(windows) * per
 
 

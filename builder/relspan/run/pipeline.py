@@ -582,12 +582,33 @@ def _cached_result(cache, spec: Spec, ds: DatasetSpec, plans) -> tuple[object | 
     return cache.get(key), key
 
 
-def _analysis_work(ds: DatasetSpec, tasks: int) -> float:
-    """Estimated seconds in one process for a dataset's window tasks (to choose where they run)."""
+def _analysis_work(ds: DatasetSpec, counts: Sequence[tuple[WindowPlanSpec, int]]) -> float:
+    """Estimated seconds in one process for a dataset's window tasks (to choose where they run).
+
+    The full sample's task and each plan's windows, with the resamples each
+    task draws: its intervals' (``checks.resampling.resamples``, capped for
+    plans of many windows; diagonal-noise resamples only where they run) and
+    the stability stage's draws it answers (:func:`_stability_asks`).
+    """
+    from relspan.analysis.inference import diagonal_scope, resampling_options
+    from relspan.run.cross_window import STABILITY_ASSUMPTIONS, plan_options
     from relspan.run.executors import window_work
 
-    return window_work(tasks, len(ds.variables), tuple(ds.checks.assumptions),
-                       frisch_starts=ds.checks.frisch_starts)
+    n, assumptions = len(ds.variables), tuple(ds.checks.assumptions)
+    opts = resampling_options(ds)
+    diag = "diagonal" in assumptions
+    stable = HAND_OVER and any(a in STABILITY_ASSUMPTIONS for a in assumptions)
+    work = window_work(1, n, assumptions, frisch_starts=ds.checks.frisch_starts, resamples=opts.resamples,
+                       diagonal_resamples=opts.diagonal_resamples if diag and opts.resamples else 0)
+    for plan, windows in counts:
+        if windows < 1:
+            continue
+        o = diagonal_scope(opts, plan.kind, windows)
+        work += window_work(windows, n, assumptions, frisch_starts=ds.checks.frisch_starts,
+                            resamples=o.resamples,
+                            stability_resamples=plan_options(ds, windows).resamples if stable else 0,
+                            diagonal_resamples=o.diagonal_resamples if diag and o.resamples else 0)
+    return work
 
 
 #: a dataset with more windows than this gets a note before its analysis (time and pages)
@@ -676,7 +697,7 @@ def run_analysis(spec: Spec, *, jobs: int | None = None, scheduler: str | None =
             _note_many_windows(ds, counts)
             total = 1 + sum(n for _, n in counts)
             sink: list[RelspanWarning] = []
-            lazy.expect(_analysis_work(ds, total), f"analysis of {ds.id}")
+            lazy.expect(_analysis_work(ds, counts), f"analysis of {ds.id}")
             with Progress(f"analysis of {ds.id}", total, enabled=progress) as bar:
                 ex = lazy.get()
                 if lazy.decisions:
