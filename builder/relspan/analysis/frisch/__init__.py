@@ -74,7 +74,12 @@ with the minimum-trace solve run to a relative duality gap of 1e-12:
 
 * minimum-trace and certificate noise variances, noise shares: absolute
   5.3e-16 on the correlation scale; publish to an absolute 1e-12 times
-  each variable's variance.
+  each variable's variance. Off the demo, a component at the boundary (a
+  variance near zero) is fixed only to about the square root of the solve's
+  duality gap: one moved from 2.0e-9 to 4.0e-8 between two kernels in an
+  unstructured n = 7 case (tests/analysis/test_frisch_answers.py, case 24);
+  relspan.precision publishes iterative results to 4 significant digits of
+  each array's largest entry, so no published digit moves.
 * eigenvalues of ``R - D``, ``e_norm``, ``min_eigenvalue``: absolute
   1.8e-15 (correlation scale); publish to an absolute 1e-12 (their relative
   digits are noise: these are near-zero numbers).
