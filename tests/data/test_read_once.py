@@ -148,3 +148,20 @@ def test_bytes_that_are_not_utf8_hand_the_file_to_the_reference_reader(big_csv):
         prepare_dataset(spec, PLANS, engine="pyarrow")
     with pytest.raises(Exception, match="UTF-8"):
         prepare_dataset(spec, PLANS)               # auto: the pandas reader names the byte
+
+
+def test_reads_after_close_return_the_end_and_settle_waits_for_none(tmp_path):
+    """When the parser stops early, pyarrow's read-ahead may still call back; after close every
+    read is the end at once (no read of a closed file), so the read-ahead drains before exit."""
+    from types import SimpleNamespace
+
+    path = tmp_path / "x.csv"
+    path.write_text("a,b\n1,2\n", encoding="utf-8")
+    src = SimpleNamespace(resolved=path, path=path)
+    h = csv_engine.HashingInput(src)
+    assert h.read_buffer(4).to_pybytes() == b"a,b\n"
+    h.close()
+    assert h.closed and h.read_buffer(4).size == 0 and h.read() == b""
+    h.settle(quiet=0.01, limit=1.0)  # returns: nothing is inside a read
+    with pytest.raises(csv_engine.FastPathDeclined):
+        h.sha256()  # not read to its end: no hash is claimed

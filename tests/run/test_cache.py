@@ -429,3 +429,14 @@ class TestPackedEntries:
         np.savez(buf, header=np.frombuffer(header, dtype=np.uint8), p0=np.zeros(3))
         with pytest.raises(CodecError):
             _decode(buf.getvalue(), KEY, "e")
+
+
+def test_the_allow_list_is_read_without_importing_relspan_report():
+    """pkgutil.walk_packages imported every subpackage (relspan.report, matplotlib) on every
+    cache read; the list is now read from the package's folders."""
+    code = ("import sys; from relspan.run import codec; names = codec._package_modules(); "
+            "assert 'relspan.report.figures.maps' in names and 'relspan.run.cache' in names; "
+            "assert 'relspan.report' not in sys.modules and 'matplotlib' not in sys.modules, "
+            "sorted(m for m in sys.modules if m.startswith(('relspan.report', 'matplotlib')))[:5]")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
