@@ -150,9 +150,9 @@ def test_bytes_that_are_not_utf8_hand_the_file_to_the_reference_reader(big_csv):
         prepare_dataset(spec, PLANS)               # auto: the pandas reader names the byte
 
 
-def test_reads_after_close_return_the_end_and_settle_waits_for_none(tmp_path):
+def test_reads_after_close_return_the_end(tmp_path):
     """When the parser stops early, pyarrow's read-ahead may still call back; after close every
-    read is the end at once (no read of a closed file), so the read-ahead drains before exit."""
+    read is the end at once (no read of a closed file), so the read-ahead finishes."""
     from types import SimpleNamespace
 
     path = tmp_path / "x.csv"
@@ -162,6 +162,46 @@ def test_reads_after_close_return_the_end_and_settle_waits_for_none(tmp_path):
     assert h.read_buffer(4).to_pybytes() == b"a,b\n"
     h.close()
     assert h.closed and h.read_buffer(4).size == 0 and h.read() == b""
-    h.settle(quiet=0.01, limit=1.0)  # returns: nothing is inside a read
     with pytest.raises(csv_engine.FastPathDeclined):
         h.sha256()  # not read to its end: no hash is claimed
+
+
+def test_loans_wait_until_every_lent_object_is_freed():
+    import pyarrow as pa
+
+    loans = csv_engine._Loans()
+    assert loans.wait(0.0)                     # nothing lent
+    a, b = loans.lend(pa.py_buffer(b"ab")), loans.lend(pa.py_buffer(b"cd"))
+    assert not loans.wait(0.01)
+    del a
+    assert not loans.wait(0.01)                # b is still out
+    del b
+    assert loans.wait(0.0)
+
+
+@pytest.mark.parametrize("bad_line", [12, 30_000])  # in pyarrow's first block, and deep in the file
+def test_a_reader_stopped_early_has_let_go_of_every_block_when_the_pass_returns(big_csv, monkeypatch,
+                                                                                 bad_line):
+    """The process may end right after the slower reader has taken over; pyarrow's I/O threads
+    must have released every object of ours by then (each release takes the interpreter lock;
+    during shutdown that aborts the process: 'terminate called without an active exception')."""
+    lines = big_csv.read_text(encoding="utf-8").splitlines(keepends=True)
+    lines[bad_line - 1] = lines[bad_line - 1].rstrip("\n") + ",1,2\n"   # a ragged row
+    big_csv.write_text("".join(lines), encoding="utf-8")
+    made: list = []
+
+    class Watched(csv_engine._Loans):
+        def __init__(self):
+            super().__init__()
+            made.append(self)
+
+        def lend(self, obj):
+            self.lent = getattr(self, "lent", 0) + 1
+            return super().lend(obj)
+
+    monkeypatch.setattr(csv_engine, "_Loans", Watched)
+    monkeypatch.setattr(csv_engine, "ARROW_BLOCK_BYTES", 1 << 16)  # many blocks read ahead
+    with pytest.raises(csv_engine.FastPathDeclined):
+        prepare_dataset(make_spec(big_csv, ["a", "b", "c", "d"]), PLANS, engine="pyarrow")
+    assert len(made) == 1 and made[0].lent >= 2     # the file object and at least one block
+    assert made[0].wait(0.0)                        # all freed before the pass returned

@@ -24,7 +24,7 @@ import io
 import queue
 import re
 import threading
-import time
+import weakref
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable, Iterator
 
@@ -267,14 +267,16 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
     if table.time_column is not None:
         types[take[-1]] = pa.string()
     batches: _Prefetch | None = None
+    reader = None
     try:
         source = HashingInput(src)
     except (pa.ArrowException, OSError) as err:
         raise FastPathDeclined(str(err)) from None
+    loans = _Loans()
     try:
         try:
             reader = pacsv.open_csv(
-                pa.PythonFile(source, mode="r"),
+                pa.PythonFile(loans.lend(_Handle(source, loans)), mode="r"),
                 read_options=pacsv.ReadOptions(column_names=names, skip_rows=1,
                                                block_size=ARROW_BLOCK_BYTES, use_threads=True),
                 parse_options=pacsv.ParseOptions(delimiter=src.delimiter or ","),
@@ -319,10 +321,10 @@ def arrow_chunks(table: TableReader) -> Iterator[RawChunk]:
         if batches is not None:
             batches.stop()
             batches.join()
-        ended = source._ended
-        source.close()
-        if not ended:  # stopped early: let pyarrow's read-ahead drain before anything else
-            source.settle()
+            batches.drop()
+        reader = None  # noqa: F841 - the last reference on this side
+        source.close()  # from here every read is the end, so pyarrow's read-ahead finishes at once
+        loans.wait()
     table.sha256 = sha
     table.rows_read = row0
 
@@ -384,9 +386,89 @@ class _Prefetch(threading.Thread):
     def stop(self) -> None:
         self._halt.set()
 
+    def drop(self) -> None:
+        """Let go of the reader (after :meth:`join`)."""
+        self._reader = None
+
 
 #: record batches parsed ahead of the one being reduced
 _AHEAD = 3
+
+
+class _Loans:
+    """What pyarrow's reader holds of ours, and a wait until it has let go of all of it.
+
+    pyarrow's streaming reader reads ahead on its own I/O threads, which call
+    back into Python: each read, and the release of each object it got from
+    Python (the file object, and every block of bytes, which it keeps while the
+    parser works on it), under the interpreter lock. When the parser stops early
+    (a cell it cannot read, so the slower reader takes over) those threads may
+    still be at it; if the process ends meanwhile, a thread that asks for the
+    lock during the interpreter's shutdown is torn down under C++ and the
+    process aborts ("terminate called without an active exception", exit -6:
+    seen in two CI runs; 26 of 60 runs of a bare pyarrow reader stopped at a
+    ragged row on this machine; 3 of 40 runs when only the file object was
+    awaited). Every object handed to pyarrow is counted here and uncounted when
+    it is freed, which is the last call pyarrow makes into Python for it;
+    :meth:`wait` returns once none is left.
+    """
+
+    #: seconds to wait for pyarrow's threads at most; past it the caller goes on
+    LIMIT = 30.0
+
+    def __init__(self) -> None:
+        self._lock = threading.RLock()  # RLock: a release may run inside lend() on the same thread
+        self._refs: dict = {}  # id -> weak reference (a Buffer is not hashable)
+        self._none = threading.Event()
+        self._none.set()
+
+    def lend(self, obj):
+        """Count ``obj`` (about to be handed to pyarrow) until it is freed; return it."""
+        with self._lock:
+            ref = weakref.ref(obj, self._returned)
+            self._refs[id(ref)] = ref
+            self._none.clear()
+        return obj
+
+    def _returned(self, ref) -> None:
+        with self._lock:
+            self._refs.pop(id(ref), None)
+            if not self._refs:
+                self._none.set()
+
+    def wait(self, limit: float | None = None) -> bool:
+        """Wait until pyarrow freed everything lent; whether it did within ``limit`` seconds."""
+        return self._none.wait(self.LIMIT if limit is None else limit)
+
+
+class _Handle:
+    """The file-like view of a :class:`HashingInput` that pyarrow holds (reads only).
+
+    Every block it returns is counted in ``loans`` (see :class:`_Loans`).
+    """
+
+    def __init__(self, source: "HashingInput", loans: _Loans) -> None:
+        self._source = source
+        self._loans = loans
+
+    def read_buffer(self, nbytes: int):
+        return self._loans.lend(self._source.read_buffer(nbytes))
+
+    def read(self, nbytes: int = -1) -> bytes:
+        return self._source.read(nbytes)
+
+    @property
+    def closed(self) -> bool:
+        return self._source.closed
+
+    def readable(self) -> bool:
+        return True
+
+    def seekable(self) -> bool:
+        return False
+
+    def close(self) -> None:
+        self._source.close()
 
 
 class HashingInput:
@@ -416,21 +498,12 @@ class HashingInput:
         self.bytes_read = 0
         self._ended = False
         self.closed = False
-        self._busy = 0
-        self._last = time.monotonic()
         self._lock = threading.Lock()
 
     def read_buffer(self, nbytes: int):
         """The next ``nbytes`` bytes (fewer at the end) as a ``pyarrow.Buffer``."""
-        with self._lock:
-            self._busy += 1
-            self._last = time.monotonic()
-        try:
+        with self._lock:  # close() never closes the file under a read
             return self._read_buffer(nbytes)
-        finally:
-            with self._lock:
-                self._busy -= 1
-                self._last = time.monotonic()
 
     def _read_buffer(self, nbytes: int):
         if self.closed:  # pyarrow's read-ahead after the reader gave up: the end, at once
@@ -469,30 +542,7 @@ class HashingInput:
         if not self.closed:
             self.closed = True
             with self._lock:
-                if self._busy == 0:
-                    self._file.close()
-                    return
-            self.settle()
-            self._file.close()
-
-    def settle(self, quiet: float = 0.05, limit: float = 2.0) -> None:
-        """Wait until pyarrow's read-ahead threads have stopped calling :meth:`read_buffer`.
-
-        When the parser stops early (a cell it cannot read, so the slower reader takes over)
-        its read-ahead tasks may still be queued to call back into Python; if the process
-        ends while one waits for the interpreter lock, the thread is torn down under C++ and
-        the process aborts ("terminate called without an active exception": seen once in a
-        CI run, 1 in 60 runs of a corpus case under load). Once closed, every read returns
-        the end at once, so the tasks finish; this waits until none is inside a read and
-        none has called for ``quiet`` seconds, at most ``limit`` seconds.
-        """
-        end = time.monotonic() + limit
-        while time.monotonic() < end:
-            with self._lock:
-                idle = self._busy == 0 and time.monotonic() - self._last >= quiet
-            if idle:
-                return
-            time.sleep(quiet / 5)
+                self._file.close()
 
     def sha256(self) -> str:
         """The SHA-256 of the whole file; only once it was read to the end."""
