@@ -70,31 +70,33 @@ Certified accuracy (for rounding published numbers)
 ---------------------------------------------------
 Measured as the largest difference between two OpenBLAS kernels
 (``OPENBLAS_CORETYPE=Haswell`` vs ``SkylakeX``) over the demo's results,
-with the minimum-trace solve run to a relative duality gap of 1e-12:
+with the minimum-trace solve run to a relative duality gap of 1e-12. What the
+site publishes is set in one place, relspan.precision: every number of this
+analysis to 4 significant digits (of an array's largest entry), certificate
+relations and Newton step counts not at all; the accuracies below are what that rests on.
 
 * minimum-trace and certificate noise variances, noise shares: absolute
-  5.3e-16 on the correlation scale; publish to an absolute 1e-12 times
-  each variable's variance. Off the demo, a component at the boundary (a
+  5.3e-16 on the correlation scale. Off the demo, a component at the boundary (a
   variance near zero) is fixed only to about the square root of the solve's
   duality gap: one moved from 2.0e-9 to 4.0e-8 between two kernels in an
-  unstructured n = 7 case (tests/analysis/test_frisch_answers.py, case 24);
-  relspan.precision publishes iterative results to 4 significant digits of
-  each array's largest entry, so no published digit moves.
+  unstructured n = 7 case (tests/analysis/test_frisch_answers.py, case 24),
+  below the 4 published digits of the array's largest entry.
 * eigenvalues of ``R - D``, ``e_norm``, ``min_eigenvalue``: absolute
-  1.8e-15 (correlation scale); publish to an absolute 1e-12 (their relative
-  digits are noise: these are near-zero numbers).
+  1.8e-15 (correlation scale); their relative digits are noise (near-zero
+  numbers), so relspan.precision rounds the residuals on the scale of their
+  sibling eigenvalues, not on their own size.
 * ``min_trace.value``, triad loadings and noise variances, elementary
-  entries, orthant products: closed forms or converged to 1e-12 relative;
-  publish 10 significant digits.
+  entries, orthant products: closed forms or converged to 1e-12 relative.
 * certificate ``relations`` (and the relation bases taken from them):
   differed by up to 5.5e-4 absolute. When the certifying ``d`` has more
   than ``q`` near-zero eigenvalues, the corank-q relations are one choice
-  inside a larger null space and are not determined; publish them to 2
-  decimals at most, or only their span at the largest certified corank.
+  inside a larger null space and are not determined: not published (the
+  span at the largest certified corank is).
 * ``newton_steps`` and ``iterations`` are counts of an iterative path and
-  differ between kernels (45 vs 82 seen): not reproducible numbers.
+  differ between kernels (45 vs 82 seen): not reproducible numbers
+  (``newton_steps`` is not published).
 * spread angles: the largest principal angle among the members found is a
-  lower bound from a search; publish 2 significant digits.
+  lower bound from a search, resolved to about 1e-3 degrees.
 
 References
 ----------
