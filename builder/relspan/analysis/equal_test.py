@@ -39,9 +39,10 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 from relspan.analysis._common import check_cov, jsonable
+from relspan.analysis._dist import chi2_sf
 from relspan.errors import OptionsError
 
 __all__ = ["EigenEqualityTest", "EqualNoiseCorankTest", "equal_eigenvalues_test", "equal_noise_corank",
@@ -158,7 +159,7 @@ def equal_eigenvalues_test(eigenvalues, *, k: int, nobs: float) -> EigenEquality
     mult = nu - m - (2.0 * k * k + k + 2.0) / (6.0 * k) + corr
     raw = k * math.log(lbar) - float(np.sum(np.log(small)))
     stat = max(mult, 0.0) * max(raw, 0.0)
-    return EigenEqualityTest(k=int(k), statistic=stat, df=df, p_value=float(stats.chi2.sf(stat, df)),
+    return EigenEqualityTest(k=int(k), statistic=stat, df=df, p_value=float(chi2_sf(stat, df)),
                              multiplier=mult, nobs=float(nobs))
 
 
@@ -204,7 +205,7 @@ def sequential_corank_stack(eigenvalues: np.ndarray, *, nobs, level: float = DEF
             mult = np.maximum(nu - m - (2.0 * k * k + k + 2.0) / (6.0 * k) + corr, 0.0)
             raw = np.maximum(k * np.log(lbar) - np.sum(np.log(small), axis=1), 0.0)
             stat = np.where(small[:, -1] > 0, mult * raw, np.where(np.all(small == 0, axis=1), 0.0, np.inf))
-            p = stats.chi2.sf(stat, k * (k + 1) // 2 - 1)
+            p = chi2_sf(stat, k * (k + 1) // 2 - 1)
             ok = alive & (p >= level)
             q[ok] = k
             alive = ok

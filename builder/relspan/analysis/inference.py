@@ -52,9 +52,10 @@ from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import optimize
 
 from relspan.analysis._common import EPS, jsonable, orthonormal_rows, pivot_columns
+from relspan.analysis._dist import norm_cdf, norm_ppf
 from relspan.analysis.corank_support import CorankSupport, bounded_support
 from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, effective_nobs_by_k, sequential_corank_stack
 from relspan.analysis.intervals import (Interval, interval, procrustes_align,
@@ -611,9 +612,9 @@ def imbens_manski_outer(lower: float, upper: float, lower_draws, upper_draws, *,
     smax = max(s_lo, s_hi)
     width = (upper - lower) / smax if smax > 0 else np.inf
     if not np.isfinite(width):
-        c = float(stats.norm.ppf(level))
+        c = float(norm_ppf(level))
     else:
-        c = float(optimize.brentq(lambda z: stats.norm.cdf(z + width) - stats.norm.cdf(-z) - level,
+        c = float(optimize.brentq(lambda z: norm_cdf(z + width) - norm_cdf(-z) - level,
                                   0.0, 10.0))
     low = -np.inf if open_lo else lower - c * s_lo
     high = np.inf if open_hi else upper + c * s_hi

@@ -40,9 +40,9 @@ from dataclasses import dataclass, field
 from typing import Callable, Mapping, Sequence
 
 import numpy as np
-from scipy import stats as _st
 
 from relspan.analysis._common import jsonable
+from relspan.analysis._dist import chi2_ppf
 from relspan.errors import OptionsError
 
 __all__ = ["McdResult", "fast_mcd", "InfluenceReport", "influence_report", "MAX_BLOCKS", "FEW_ROWS_SHARE",
@@ -197,10 +197,10 @@ def fast_mcd(x, *, rng: np.random.Generator, starts: int = 500, keep: int = 10,
         d_raw = np.zeros(t)
         factor = 1.0
     else:
-        factor = float(np.median(d_raw) / _st.chi2.ppf(0.5, n))
+        factor = float(np.median(d_raw) / chi2_ppf(0.5, n))
     c_raw = c_raw * factor
     d_raw = d_raw / factor if factor > 0 else d_raw
-    cut = _st.chi2.ppf(FLAG_QUANTILE, n)
+    cut = chi2_ppf(FLAG_QUANTILE, n)
     flagged = d_raw > cut
     keep_rows = ~flagged
     m_rw = x[keep_rows].mean(axis=0)

@@ -50,7 +50,7 @@ from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
-from scipy import stats
+from relspan.analysis._dist import norm_cdf, norm_ppf
 
 from relspan.analysis._common import EPS, jsonable
 from relspan.errors import OptionsError
@@ -143,14 +143,14 @@ def bca_interval(estimate: float, draws, *, level: float, jackknife) -> Interval
         return Interval(t, np.nan, np.nan, level, "bca", int(d.size))
     share = (np.sum(d < t) + 0.5 * np.sum(d == t)) / d.size
     share = min(max(share, 0.5 / d.size), 1.0 - 0.5 / d.size)
-    z0 = stats.norm.ppf(share)
+    z0 = norm_ppf(share)
     dev = j.mean() - j
     den = 6.0 * float(np.sum(dev**2)) ** 1.5
     acc = float(np.sum(dev**3)) / den if den > 0 else 0.0
     out = []
     for a in ((1.0 - level) / 2.0, (1.0 + level) / 2.0):
-        za = stats.norm.ppf(a)
-        out.append(float(stats.norm.cdf(z0 + (z0 + za) / (1.0 - acc * (z0 + za)))))
+        za = norm_ppf(a)
+        out.append(float(norm_cdf(z0 + (z0 + za) / (1.0 - acc * (z0 + za)))))
     lo, hi = np.quantile(d, out)
     return Interval(t, float(lo), float(hi), level, "bca", int(d.size))
 
