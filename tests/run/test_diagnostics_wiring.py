@@ -147,6 +147,40 @@ class TestInfluence:
         np.testing.assert_allclose(ours.covariance, ref.covariance_, atol=0.15)
         assert set(np.flatnonzero(ours.flagged)) >= set(range(40))
 
+    @pytest.mark.parametrize("rows, share", [(1200, 0.1), (4000, 0.3)])
+    def test_fast_mcd_on_many_rows_starts_in_subsets_and_matches_scikit_learn(self, rows, share, monkeypatch):
+        # Above 600 rows the starts run in random subsets of 300 rows, merged (Rousseeuw & Van
+        # Driessen 1999, section 3.3). Reference library: scikit-learn MinCovDet (its own subset scheme).
+        sk = pytest.importorskip("sklearn.covariance")
+        from relspan.analysis import influence
+
+        rng = np.random.default_rng(7)
+        x = rng.standard_normal((rows, 5)) @ rng.standard_normal((5, 5))
+        bad = int(share * rows)
+        x[:bad] += 6.0  # a cluster of outliers
+        calls = []
+        plain = influence._random_starts
+
+        def counted(xs, h, starts, g):
+            calls.append((xs.shape[0], starts))
+            return plain(xs, h, starts, g)
+
+        monkeypatch.setattr(influence, "_random_starts", counted)
+        ours = influence.fast_mcd(x, rng=np.random.default_rng(0))
+        k = min(5, rows // 300)
+        assert calls == [(300, 500 // k)] * k  # 500 starts, none of them on all rows
+        ref = sk.MinCovDet(random_state=0).fit(x)
+        det = lambda s: np.linalg.det(np.cov(x[s].T, ddof=0))  # noqa: E731  the MCD objective
+        assert ours.support.sum() == ref.raw_support_.sum()
+        assert det(ours.support) <= det(ref.raw_support_) * (1 + 1e-4)
+        assert not ours.support[:bad].any() and ours.flagged[:bad].all()
+        assert np.mean(ours.flagged == ~ref.support_) > 0.99
+        # the plain algorithm (all 500 starts on all rows) finds an h-subset no better than 1e-4 below it
+        monkeypatch.setattr(influence, "MCD_NESTED_ABOVE", rows)
+        whole = influence.fast_mcd(x, rng=np.random.default_rng(0))
+        assert len(calls) == k + 1 and calls[-1] == (rows, 500)
+        assert ours.determinant <= whole.determinant * (1 + 1e-4)
+
     def test_one_gross_outlier_in_300_rows_is_named_as_deciding_the_count(self):
         from relspan.api import analyse_frame
 

@@ -12,9 +12,11 @@ the analysis would report without the rows in question:
   (Rousseeuw 1984), computed by FAST-MCD (Rousseeuw & Van Driessen 1999):
   the ``h = floor((T + n + 1) / 2)`` rows whose covariance has the smallest
   determinant, found from random ``(n + 1)``-row starts improved by
-  concentration steps; the raw estimate is made consistent at the normal
-  model and reweighted (rows with squared robust distance above the 97.5%
-  chi-square quantile get weight 0). Rows beyond that quantile are *flagged*;
+  concentration steps (above :data:`MCD_NESTED_ABOVE` rows the starts run in
+  random subsets of the rows, then merged: the paper's nested extension);
+  the raw estimate is made consistent at the normal model and reweighted
+  (rows with squared robust distance above the 97.5% chi-square quantile
+  get weight 0). Rows beyond that quantile are *flagged*;
   the count is computed again from the robust covariance and from the rows
   without the flagged ones. It needs single rows (granules of one row); for
   larger datasets, whose granules pool several rows, it is not run and the
@@ -46,7 +48,7 @@ from relspan.analysis._dist import chi2_ppf
 from relspan.errors import OptionsError
 
 __all__ = ["McdResult", "fast_mcd", "InfluenceReport", "influence_report", "MAX_BLOCKS", "FEW_ROWS_SHARE",
-           "MCD_MAX_ROWS"]
+           "MCD_MAX_ROWS", "MCD_NESTED_ABOVE", "MCD_SUBSET_ROWS", "MCD_SUBSETS"]
 
 #: most blocks the rows are cut into for leave-one-block-out
 MAX_BLOCKS = 20
@@ -54,6 +56,13 @@ MAX_BLOCKS = 20
 FEW_ROWS_SHARE = 0.05
 #: the robust fit runs on at most this many rows (single-row granules only)
 MCD_MAX_ROWS = 20000
+#: above this many rows FAST-MCD starts in random subsets and merges them (Rousseeuw & Van Driessen 1999,
+#: section 3.3; the paper's suggested sizes, recalled from memory: 600 rows, subsets of 300, at most 5)
+MCD_NESTED_ABOVE = 600
+#: rows of each random subset of the nested FAST-MCD
+MCD_SUBSET_ROWS = 300
+#: most random subsets of the nested FAST-MCD (their rows pooled form the merged set)
+MCD_SUBSETS = 5
 #: chi-square quantile beyond which a row is flagged (and gets weight 0 in the reweighting)
 FLAG_QUANTILE = 0.975
 
@@ -126,9 +135,96 @@ def _c_steps(x: np.ndarray, idx: np.ndarray, h: int, steps: int) -> tuple[float,
     return (ld if sign > 0 else -np.inf), idx
 
 
+def _random_starts(x: np.ndarray, h: int, starts: int, rng: np.random.Generator) -> list:
+    """FAST-MCD's first stage on rows ``x``: random ``(n + 1)``-row starts, each widened to the ``h``
+    nearest rows and given two concentration steps; returns the trials ``(log det, subset)``."""
+    t, n = x.shape
+    trials = []
+    for _ in range(int(starts)):
+        idx = rng.choice(t, size=n + 1, replace=False)
+        m, c = _mean_cov(x[idx])
+        extra = 0
+        while np.linalg.matrix_rank(c) < n and n + 1 + extra < t:  # singular start: add rows (the paper's rule)
+            extra += 1
+            idx = rng.choice(t, size=n + 1 + extra, replace=False)
+            m, c = _mean_cov(x[idx])
+        d = _sq_dist(x, m, c + 1e-300 * np.eye(n))
+        if d is None:
+            continue
+        sub = np.sort(np.argpartition(d, h - 1)[:h])
+        trials.append(_c_steps(x, sub, h, 2))
+    return trials
+
+
+def _best(trials: list, keep: int) -> list:
+    """Up to ``keep`` trials of smallest log determinant, each subset once, from the ``3 keep`` smallest."""
+    out, seen = [], set()
+    for ld, sub in sorted(trials, key=lambda r: r[0])[: 3 * keep]:
+        key = sub.tobytes()
+        if key not in seen:
+            seen.add(key)
+            out.append((ld, sub))
+            if len(out) >= keep:
+                break
+    return out
+
+
+def _carried(x: np.ndarray, fit_rows: np.ndarray, h: int, steps: int) -> tuple[float, np.ndarray] | None:
+    """A fit (the mean and covariance of ``fit_rows``) carried to rows ``x``: the ``h`` rows of ``x``
+    nearest to it, then ``steps`` concentration steps; None when the fit's covariance is singular."""
+    m, c = _mean_cov(fit_rows)
+    d = _sq_dist(x, m, c)
+    if d is None:
+        return None
+    return _c_steps(x, np.sort(np.argpartition(d, h - 1)[:h]), h, steps)
+
+
+def _nested(x: np.ndarray, h: int, starts: int, keep: int, rng: np.random.Generator) -> tuple[float, np.ndarray] | None:
+    """FAST-MCD for many rows (the nested extension of Rousseeuw & Van Driessen 1999, section 3.3).
+
+    Up to :data:`MCD_SUBSETS` disjoint random subsets of :data:`MCD_SUBSET_ROWS` rows (fewer rows,
+    partitioning a random order of all of them, below ``MCD_SUBSETS * MCD_SUBSET_ROWS``); in each,
+    ``starts / subsets`` random starts with two concentration steps at ``h_sub = ceil(rows_sub h / T)``,
+    the ``keep`` best kept; the subsets pooled into the merged set, where every kept fit gets two
+    concentration steps at ``h_merged = ceil(rows_merged h / T)``; the ``keep`` best of those iterated
+    to convergence on all rows. Returns ``(log det, subset)`` or None when a stage found only exact
+    fits (singular covariances), for the caller to run the plain algorithm instead.
+    """
+    t = x.shape[0]
+    k = min(MCD_SUBSETS, t // MCD_SUBSET_ROWS)
+    size = t // k if t < MCD_SUBSETS * MCD_SUBSET_ROWS else MCD_SUBSET_ROWS  # below: a partition of the rows
+    order = rng.permutation(t)[: k * size]
+    merged_rows = np.sort(order)
+    xm = x[merged_rows]
+    hm = int(np.ceil(merged_rows.size * h / t))
+    carried = []
+    for part in order.reshape(k, size):
+        part = np.sort(part)
+        xs = x[part]
+        found = _best(_random_starts(xs, int(np.ceil(size * h / t)), starts // k, rng), keep)
+        for ld, sub in found:
+            if np.isfinite(ld):
+                r = _carried(xm, xs[sub], hm, 2)
+                if r is not None and np.isfinite(r[0]):
+                    carried.append(r)
+    if not carried:
+        return None
+    best_ld, best = np.inf, None
+    for ld, sub in _best(carried, keep):
+        r = _carried(x, xm[sub], h, 100)
+        if r is not None and r[0] < best_ld:
+            best_ld, best = r
+    return None if best is None else (best_ld, best)
+
+
 def fast_mcd(x, *, rng: np.random.Generator, starts: int = 500, keep: int = 10,
              h: int | None = None) -> McdResult:
     """The Minimum Covariance Determinant estimate by FAST-MCD.
+
+    Up to :data:`MCD_NESTED_ABOVE` rows, every random start runs on all rows; above it the starts
+    run in random subsets of the rows first and are merged (the algorithm's nested extension for
+    large datasets, section 3.3 of [2]; see :func:`_nested`), which keeps the cost of the starts
+    independent of the number of rows. Where that finds only exact fits, the plain algorithm runs.
 
     Parameters
     ----------
@@ -139,7 +235,8 @@ def fast_mcd(x, *, rng: np.random.Generator, starts: int = 500, keep: int = 10,
     starts : int
         Random ``(n + 1)``-row starts, each followed by two concentration steps.
     keep : int
-        The best starts iterated to convergence.
+        The best starts iterated to convergence (and, above :data:`MCD_NESTED_ABOVE` rows, kept from
+        each subset and from the merged set).
     h : int, optional
         Subset size; default ``floor((T + n + 1) / 2)`` (the highest breakdown point).
 
@@ -160,35 +257,18 @@ def fast_mcd(x, *, rng: np.random.Generator, starts: int = 500, keep: int = 10,
         raise OptionsError(f"fast_mcd needs more than n + 1 = {n + 1} rows; got {t}.", key="x",
                            fix="Pass more rows.")
     h = int(h if h is not None else (t + n + 1) // 2)
-    trials = []
-    for _ in range(int(starts)):
-        idx = rng.choice(t, size=n + 1, replace=False)
-        m, c = _mean_cov(x[idx])
-        extra = 0
-        while np.linalg.matrix_rank(c) < n and n + 1 + extra < t:  # singular start: add rows (the paper's rule)
-            extra += 1
-            idx = rng.choice(t, size=n + 1 + extra, replace=False)
-            m, c = _mean_cov(x[idx])
-        d = _sq_dist(x, m, c + 1e-300 * np.eye(n))
-        if d is None:
-            continue
-        sub = np.sort(np.argpartition(d, h - 1)[:h])
-        trials.append(_c_steps(x, sub, h, 2))
-    if not trials:
-        trials.append(_c_steps(x, np.arange(h), h, 2))
-    trials.sort(key=lambda r: r[0])
-    best_ld, best = np.inf, None
-    seen = set()
-    for ld, sub in trials[: max(1, keep) * 3]:
-        key = sub.tobytes()
-        if key in seen:
-            continue
-        seen.add(key)
-        ld2, sub2 = _c_steps(x, sub, h, 100)
-        if ld2 < best_ld:
-            best_ld, best = ld2, sub2
-        if len(seen) >= keep:
-            break
+    found = _nested(x, h, starts, max(1, keep), rng) if t > MCD_NESTED_ABOVE else None
+    if found is not None:
+        best_ld, best = found
+    else:
+        trials = _random_starts(x, h, starts, rng)
+        if not trials:
+            trials.append(_c_steps(x, np.arange(h), h, 2))
+        best_ld, best = np.inf, None
+        for ld, sub in _best(trials, max(1, keep)):
+            ld2, sub2 = _c_steps(x, sub, h, 100)
+            if ld2 < best_ld:
+                best_ld, best = ld2, sub2
     support = np.zeros(t, dtype=bool)
     support[best] = True
     m_raw, c_raw = _mean_cov(x[best])
