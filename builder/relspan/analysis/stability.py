@@ -26,7 +26,7 @@ import pandas as pd
 
 from relspan.analysis._common import EPS, check_names_len
 from relspan.analysis._export import jsonable
-from relspan.analysis.intervals import largest_angle_stack
+from relspan.analysis.intervals import extreme_cos_sin, largest_angle_stack
 from relspan.errors import OptionsError
 
 __all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "compare_windows",
@@ -198,9 +198,7 @@ def _largest_angles_to_fixed(draws: np.ndarray, fixed: np.ndarray) -> np.ndarray
     qa = np.linalg.qr(np.swapaxes(a, 1, 2))[0]
     qb = np.repeat(np.linalg.qr(np.swapaxes(fixed, 1, 2))[0], nb, axis=0)
     m = np.swapaxes(qa, 1, 2) @ qb
-    cos = np.linalg.svd(m, compute_uv=False)[:, -1]
-    resid = qb - qa @ m
-    sin = np.linalg.svd(resid, compute_uv=False)[:, 0]
+    cos, sin = extreme_cos_sin(m, qb - qa @ m)
     sin = np.where(sin <= 4.0 * n * EPS, 0.0, sin)
     return np.degrees(np.arctan2(sin, np.clip(cos, 0.0, 1.0))).reshape(p, nb)
 
