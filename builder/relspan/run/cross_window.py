@@ -151,7 +151,7 @@ def handed_draws(cr: resample.CovarianceResamples, analysis, shape=None, pre=Non
         covs = cr.covariances
         if pre.eig is not None and pre.scale == analysis.scale and (
                 analysis.scale != "correlation" or bool(np.all(np.diagonal(covs, axis1=1, axis2=2) >= 1e-300))):
-            d._memo["vec"] = pre.eig[1]
+            d._memo["eig"] = pre.eig
         if pre.inverse is not None:
             d._memo["inverse"] = pre.inverse
     bases = {}
@@ -227,10 +227,16 @@ class _Draws:
             return mat / (sw[:, :, None] * sw[:, None, :]), sw
         return self._get("shaped", make)
 
-    def _vectors(self, assumption: str) -> np.ndarray:
+    def _eig(self, assumption: str) -> tuple[np.ndarray, np.ndarray]:
+        """Eigenvalues and eigenvectors of every resample (one batched ``eigh``; the corank rule reads
+        the values, the bases the vectors, so the values are those of the decomposition the window's
+        own rule uses, and no second decomposition is made)."""
         if assumption == "shaped":
-            return self._get("vec shaped", lambda: np.linalg.eigh(self._shaped()[0])[1])
-        return self._get("vec", lambda: np.linalg.eigh(self._analysed()[0])[1])
+            return self._get("eig shaped", lambda: np.linalg.eigh(self._shaped()[0]))
+        return self._get("eig", lambda: np.linalg.eigh(self._analysed()[0]))
+
+    def _vectors(self, assumption: str) -> np.ndarray:
+        return self._eig(assumption)[1]
 
     def bases(self, assumption: str, q: int) -> np.ndarray:
         """:func:`resampled_bases` of ``assumption`` at corank ``q``."""
@@ -263,10 +269,10 @@ class _Draws:
         analysis = self.analysis
         eps = analysis.eps
         if assumption == "shaped":
-            lam = self._get("lam shaped", lambda: np.linalg.eigvalsh(self._shaped()[0]))
+            lam = self._eig("shaped")[0]
             limit = eps / self._weights().max(axis=1)
         else:
-            lam = self._get("lam", lambda: np.linalg.eigvalsh(self._analysed()[0]))
+            lam = self._eig(assumption)[0]
             limit = np.full(lam.shape[0], eps)
         n = lam.shape[1]
         # the window's rule (relspan.analysis.window._corank_by_eigenvalues) on every resample at once
