@@ -19,6 +19,7 @@ from typing import Any, Sequence
 
 import numpy as np
 import scipy.linalg as sla
+from scipy.linalg import lapack as _lapack
 
 # Re-exported for modules that still import it from here (findings, claims, report/site_content).
 # TODO(architecture): they should import it from relspan.analysis._export.
@@ -170,6 +171,25 @@ def variable_index(names: Sequence[str], var: int | str, *, key: str) -> int:
                        fix="Use one of the listed variable names or its index.")
 
 
+def orthonormal_columns(a: np.ndarray) -> np.ndarray:
+    """``Q`` of the reduced QR decomposition of one ``(m, k)`` matrix, ``m >= k``: ``numpy.linalg.qr(a)[0]``.
+
+    The same LAPACK calls as NumPy's (Householder ``dgeqrf``, then ``dorgqr`` for the first ``k``
+    columns), made through SciPy's LAPACK wrappers, which skip NumPy's per-call work (the
+    triangular ``R`` it builds and the caller throws away): 1.4 against 10 microseconds for a
+    6 x 2 matrix, and the window analysis makes about 17 such calls per window. Other shapes,
+    and a LAPACK error, go to NumPy.
+    """
+    a = np.asarray(a, dtype=float)
+    if a.ndim != 2 or a.shape[1] == 0 or a.shape[0] < a.shape[1]:
+        return np.linalg.qr(a)[0]
+    qr, tau, _, info = _lapack.dgeqrf(a)
+    if info != 0:
+        return np.linalg.qr(a)[0]
+    q, _, info = _lapack.dorgqr(qr[:, :a.shape[1]], tau)
+    return q if info == 0 else np.linalg.qr(a)[0]
+
+
 def orthonormal_rows(basis: np.ndarray) -> np.ndarray:
     """Orthonormal rows spanning the row space of ``basis`` (QR of its transpose).
 
@@ -179,9 +199,7 @@ def orthonormal_rows(basis: np.ndarray) -> np.ndarray:
     b = np.atleast_2d(np.asarray(basis, dtype=float))
     if b.shape[0] == 0:
         return b.copy()
-    q, _ = np.linalg.qr(b.T)
-    out = q.T.copy()
-    return fix_signs(out)
+    return fix_signs(orthonormal_columns(b.T).T)
 
 
 def fix_signs(rows: np.ndarray) -> np.ndarray:

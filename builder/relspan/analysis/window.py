@@ -29,6 +29,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
+from relspan.analysis._common import orthonormal_columns
 from relspan.analysis.bounded import BoundedNoise, bounded_noise, tolerance_eps
 from relspan.analysis.elementary import (ElementaryRegressions, choose_reference, elementary_regressions,
                                          warn_ill_conditioned)
@@ -258,8 +259,7 @@ def normalised_coefficients(relation: np.ndarray, ref: int) -> np.ndarray:
 def _common(basis_data_units: np.ndarray, common_std: np.ndarray) -> np.ndarray:
     """Rows ``a`` in data units -> orthonormal rows on the common scale (``a * std``)."""
     b = np.atleast_2d(basis_data_units) * common_std[None, :]
-    q, _ = np.linalg.qr(b.T)
-    return q.T
+    return orthonormal_columns(b.T).T
 
 
 def _corank_by_eigenvalues(eigenvalues: np.ndarray, limit: float) -> int:
