@@ -55,3 +55,26 @@ def test_more_relations_keep_the_svd():
     cos, sin = extreme_cos_sin(m, qb - qa @ m)
     assert np.array_equal(cos, np.linalg.svd(m, compute_uv=False)[:, -1])
     assert np.array_equal(sin, np.linalg.svd(qb - qa @ m, compute_uv=False)[:, 0])
+
+
+@pytest.mark.parametrize("scale", [1e-9, 1e-3, 1.0, 1e3])
+def test_gram_schmidt_pairs_span_what_the_householder_qr_spans(scale):
+    from relspan.analysis.intervals import orth_columns_stack
+
+    rng = np.random.default_rng(5)
+    b = scale * rng.standard_normal((3000, 6, 2))
+    b[:10, :, 1] = b[:10, :, 0] + 1e-6 * scale * rng.standard_normal((10, 6))  # nearly dependent, still >1e-8
+    q = orth_columns_stack(b)
+    ref = np.linalg.qr(b)[0]
+    np.testing.assert_allclose(np.swapaxes(q, 1, 2) @ q, np.broadcast_to(np.eye(2), (3000, 2, 2)), atol=2e-15)
+    proj, proj_ref = q @ np.swapaxes(q, 1, 2), ref @ np.swapaxes(ref, 1, 2)
+    np.testing.assert_allclose(proj[10:], proj_ref[10:], atol=4e-15)
+    np.testing.assert_allclose(proj[:10], proj_ref[:10], atol=1e-9)  # the pair's own conditioning (1e6)
+
+
+def test_a_dependent_pair_sends_the_stack_to_numpy_qr():
+    from relspan.analysis.intervals import orth_columns_stack
+
+    b = np.random.default_rng(6).standard_normal((4, 5, 2))
+    b[2, :, 1] = 3.0 * b[2, :, 0]
+    np.testing.assert_array_equal(orth_columns_stack(b), np.linalg.qr(b)[0])

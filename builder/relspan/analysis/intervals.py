@@ -58,8 +58,8 @@ from relspan.errors import OptionsError
 __all__ = ["Interval", "INTERVAL_METHODS", "interval", "percentile_interval", "basic_interval",
            "bca_interval", "eigenvalue_intervals", "relation_bases", "procrustes_align",
            "reduced_form_stack", "coefficient_intervals", "elementary_coefficient_stack",
-           "extreme_cos_sin", "largest_angle_stack", "angle_interval", "direct_rotation", "AngleChange",
-           "angle_change_test", "stable_spread"]
+           "extreme_cos_sin", "orth_columns_stack", "largest_angle_stack", "angle_interval", "direct_rotation",
+           "AngleChange", "angle_change_test", "stable_spread"]
 
 INTERVAL_METHODS = ("percentile", "basic", "bca")
 
@@ -258,8 +258,36 @@ def elementary_coefficient_stack(covs) -> np.ndarray:
 
 def _orth(bases: np.ndarray) -> np.ndarray:
     """Orthonormal columns ``(B, n, q)`` spanning the rows of ``(B, q, n)``."""
-    q, _ = np.linalg.qr(np.swapaxes(bases, 1, 2))
-    return q
+    return orth_columns_stack(np.swapaxes(bases, 1, 2))
+
+
+def orth_columns_stack(b: np.ndarray) -> np.ndarray:
+    """Orthonormal columns ``(B, n, q)`` spanning the columns of each ``(B, n, q)`` matrix, for angles.
+
+    Only the span is defined (callers that need a particular basis of it use a QR of their own).
+    Two columns, the common case of the stability comparisons, by classical Gram-Schmidt applied
+    twice (numerically full-rank columns come out orthonormal to working precision: Giraud,
+    Langou & Rozloznik 2005, "The loss of orthogonality in the Gram-Schmidt orthogonalization
+    process", Computers & Mathematics with Applications 50; reference recalled from memory),
+    2.5 times faster than NumPy's batched Householder QR on 50,000 6 x 2 matrices; a stack with a
+    pair whose second column is within 1e-8 of the first's direction, and every other q, takes
+    NumPy's QR. The spans agree with the QR's within a few units of 1e-16
+    (``tests/analysis/test_intervals_angle_forms.py``).
+    """
+    if b.ndim != 3 or b.shape[2] != 2 or b.shape[0] == 0:
+        return np.linalg.qr(b)[0]
+    a1, a2 = b[:, :, 0], b[:, :, 1]
+    n1 = np.sqrt(_rowdot(a1, a1))
+    n2 = np.sqrt(_rowdot(a2, a2))
+    if not np.all(n1 > 0):
+        return np.linalg.qr(b)[0]
+    q1 = a1 / n1[:, None]
+    v = a2 - _rowdot(q1, a2)[:, None] * q1
+    v = v - _rowdot(q1, v)[:, None] * q1
+    nv = np.sqrt(_rowdot(v, v))
+    if not np.all(nv > 1e-8 * n2):
+        return np.linalg.qr(b)[0]
+    return np.stack([q1, v / nv[:, None]], axis=2)
 
 
 def extreme_cos_sin(m: np.ndarray, resid: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -269,8 +297,8 @@ def extreme_cos_sin(m: np.ndarray, resid: np.ndarray) -> tuple[np.ndarray, np.nd
     ``resid = Q_b - Q_a m`` (Bjoerck & Golub 1973). Two relations (q = 2), the common case of
     the stability comparisons, take closed forms instead of a batched SVD: the singular values
     of a 2 x 2 matrix ``[[a, b], [c, d]]`` are ``(h(a + d, b - c) +- h(a - d, b + c)) / 2``
-    with ``h`` the hypotenuse, and the largest singular value of ``resid`` is the square root of
-    the larger eigenvalue of its 2 x 2 Gram matrix, ``(g00 + g11) / 2 + h((g00 - g11) / 2, g01)``.
+    with ``h(x, y) = sqrt(x^2 + y^2)``, and the largest singular value of ``resid`` is the square
+    root of the larger eigenvalue of its 2 x 2 Gram matrix, ``(g00 + g11) / 2 + h((g00 - g11) / 2, g01)``.
     Neither subtracts nearly equal numbers where its result is small relative to its terms except
     the smallest cosine, whose absolute error stays within a few units of 1e-16 (the angle's
     error where the cosine is small, since the sine is then near 1); both agree with LAPACK's SVD
@@ -279,13 +307,29 @@ def extreme_cos_sin(m: np.ndarray, resid: np.ndarray) -> tuple[np.ndarray, np.nd
     if m.shape[-1] != 2:
         return np.linalg.svd(m, compute_uv=False)[:, -1], np.linalg.svd(resid, compute_uv=False)[:, 0]
     a, b, c, d = m[:, 0, 0], m[:, 0, 1], m[:, 1, 0], m[:, 1, 1]
-    cos = 0.5 * np.abs(np.hypot(a + d, b - c) - np.hypot(a - d, b + c))
+    cos = 0.5 * np.abs(_hyp(a + d, b - c) - _hyp(a - d, b + c))
     r0, r1 = resid[:, :, 0], resid[:, :, 1]
-    g00 = np.einsum("bi,bi->b", r0, r0)
-    g11 = np.einsum("bi,bi->b", r1, r1)
-    g01 = np.einsum("bi,bi->b", r0, r1)
-    sin = np.sqrt(0.5 * (g00 + g11) + np.hypot(0.5 * (g00 - g11), g01))
+    g00, g11, g01 = _rowdot(r0, r0), _rowdot(r1, r1), _rowdot(r0, r1)
+    sin = np.sqrt(0.5 * (g00 + g11) + _hyp(0.5 * (g00 - g11), g01))
     return cos, sin
+
+
+def _hyp(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """``sqrt(x^2 + y^2)`` by correctly rounded operations only (no overflow here: |x|, |y| <= 2)."""
+    return np.sqrt(x * x + y * y)
+
+
+def _rowdot(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Row-wise dot products of ``(B, n)`` arrays, summed column by column in a fixed order.
+
+    Elementwise products and sums only: the same bits whatever the stack's size, strides or the
+    processor's vector instructions (a reduction such as ``einsum`` may group the terms differently
+    for a broadcast copy of the same rows, or on another CPU).
+    """
+    out = x[:, 0] * y[:, 0]
+    for j in range(1, x.shape[1]):
+        out = out + x[:, j] * y[:, j]
+    return out
 
 
 def largest_angle_stack(bases_a, bases_b) -> np.ndarray:

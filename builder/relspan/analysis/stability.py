@@ -26,7 +26,7 @@ import pandas as pd
 
 from relspan.analysis._common import EPS, check_names_len
 from relspan.analysis._export import jsonable
-from relspan.analysis.intervals import extreme_cos_sin, largest_angle_stack
+from relspan.analysis.intervals import extreme_cos_sin, largest_angle_stack, orth_columns_stack
 from relspan.errors import OptionsError
 
 __all__ = ["principal_angles", "SubspaceStability", "subspace_stability", "compare_windows",
@@ -187,7 +187,7 @@ def _largest_angles_to_fixed(draws: np.ndarray, fixed: np.ndarray) -> np.ndarray
 
     The arithmetic of :func:`relspan.analysis.intervals.largest_angle_stack` on
     the broadcast pairs, with the fixed basis orthonormalised once per
-    comparison instead of once per resample (the same QR of the same matrix,
+    comparison instead of once per resample (the same orthonormalisation of the same matrix,
     copied: the same bits).
     """
     p, nb, q, n = draws.shape
@@ -195,8 +195,8 @@ def _largest_angles_to_fixed(draws: np.ndarray, fixed: np.ndarray) -> np.ndarray
     if q == 1:
         return _largest_angles(a, np.broadcast_to(fixed[:, None], draws.shape).reshape(p * nb, q, n)
                                ).reshape(p, nb)
-    qa = np.linalg.qr(np.swapaxes(a, 1, 2))[0]
-    qb = np.repeat(np.linalg.qr(np.swapaxes(fixed, 1, 2))[0], nb, axis=0)
+    qa = orth_columns_stack(np.swapaxes(a, 1, 2))
+    qb = np.repeat(orth_columns_stack(np.swapaxes(fixed, 1, 2)), nb, axis=0)
     m = np.swapaxes(qa, 1, 2) @ qb
     cos, sin = extreme_cos_sin(m, qb - qa @ m)
     sin = np.where(sin <= 4.0 * n * EPS, 0.0, sin)
