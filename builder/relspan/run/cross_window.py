@@ -23,6 +23,7 @@ import numpy as np
 
 from relspan.analysis import resample
 from relspan.analysis.breaks import DatasetBreak, subspace_break_scan
+from relspan.analysis.intervals import orth_columns_stack
 from relspan.analysis.stability import (TEST_LEVEL, SamplingSpread, StabilityStream, SubspaceStability,
                                         compare_windows, sampling_spread)
 
@@ -177,10 +178,13 @@ def _shape_weights(shape, tstd: np.ndarray) -> np.ndarray:
 
 
 def _common_rows(rows_data: np.ndarray, common_std: np.ndarray) -> np.ndarray:
-    """(B, q, n) rows in data units -> orthonormal rows on the common scale."""
+    """(B, q, n) rows in data units -> orthonormal rows on the common scale.
+
+    Only their span is read (every consumer takes principal angles), so two rows are
+    orthonormalised by :func:`relspan.analysis.intervals.orth_columns_stack`.
+    """
     b = rows_data * common_std[None, None, :]
-    qq, _ = np.linalg.qr(np.swapaxes(b, 1, 2))
-    return np.swapaxes(qq, 1, 2)
+    return np.swapaxes(orth_columns_stack(np.swapaxes(b, 1, 2)), 1, 2)
 
 
 def resampled_bases(cr: resample.CovarianceResamples, analysis, assumption: str, q: int,
