@@ -142,6 +142,14 @@ class TestAutoChunkSize:
     def test_in_process_runs_are_cut_only_for_progress(self):
         assert auto_chunk_size(3200, 1) == 100
 
+    def test_large_plans_get_chunks_of_at_most_200_items(self):
+        # one chunk's results travel (pickled) in one piece: their size is bounded
+        assert auto_chunk_size(20001, 2) == 200
+        assert auto_chunk_size(20001, 1) == 200
+        assert auto_chunk_size(1600, 2) == 200
+        assert auto_chunk_size(1599, 2) == 200
+        assert auto_chunk_size(1000, 2) == 125
+
 
 class TestMapInChunks:
     @pytest.mark.parametrize("chunk_size", [None, 1, 3, 100])
