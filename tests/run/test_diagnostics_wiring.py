@@ -181,6 +181,18 @@ class TestInfluence:
         assert len(calls) == k + 1 and calls[-1] == (rows, 500)
         assert ours.determinant <= whole.determinant * (1 + 1e-4)
 
+    def test_an_exact_fit_in_many_rows_is_found_as_by_the_plain_algorithm(self):
+        # 700 of 1,000 rows on the plane x3 = x1 + x2 (more than h = 502): the minimum determinant is 0
+        from relspan.analysis.influence import fast_mcd
+
+        rng = np.random.default_rng(9)
+        x = rng.standard_normal((1000, 3))
+        x[:700, 2] = x[:700, 0] + x[:700, 1]
+        fit = fast_mcd(x, rng=np.random.default_rng(0))
+        assert fit.determinant == 0.0 and fit.support.sum() == fit.h == 502
+        on_plane = np.abs(x[:, 2] - x[:, 0] - x[:, 1]) < 1e-12
+        assert np.all(on_plane[fit.support])
+
     def test_one_gross_outlier_in_300_rows_is_named_as_deciding_the_count(self):
         from relspan.api import analyse_frame
 

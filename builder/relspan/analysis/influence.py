@@ -179,7 +179,8 @@ def _carried(x: np.ndarray, fit_rows: np.ndarray, h: int, steps: int) -> tuple[f
     return _c_steps(x, np.sort(np.argpartition(d, h - 1)[:h]), h, steps)
 
 
-def _nested(x: np.ndarray, h: int, starts: int, keep: int, rng: np.random.Generator) -> tuple[float, np.ndarray] | None:
+def _nested(x: np.ndarray, h: int, starts: int, keep: int,
+            rng: np.random.Generator) -> tuple[float, np.ndarray] | None:
     """FAST-MCD for many rows (the nested extension of Rousseeuw & Van Driessen 1999, section 3.3).
 
     Up to :data:`MCD_SUBSETS` disjoint random subsets of :data:`MCD_SUBSET_ROWS` rows (fewer rows,
@@ -187,8 +188,9 @@ def _nested(x: np.ndarray, h: int, starts: int, keep: int, rng: np.random.Genera
     ``starts / subsets`` random starts with two concentration steps at ``h_sub = ceil(rows_sub h / T)``,
     the ``keep`` best kept; the subsets pooled into the merged set, where every kept fit gets two
     concentration steps at ``h_merged = ceil(rows_merged h / T)``; the ``keep`` best of those iterated
-    to convergence on all rows. Returns ``(log det, subset)`` or None when a stage found only exact
-    fits (singular covariances), for the caller to run the plain algorithm instead.
+    to convergence on all rows. Returns ``(log det, subset)``, or None when a subset or the merged
+    set holds an exact fit (a singular covariance: h rows on a hyperplane), for the caller to run
+    the plain algorithm, which reports exact fits as it always did.
     """
     t = x.shape[0]
     k = min(MCD_SUBSETS, t // MCD_SUBSET_ROWS)
@@ -203,10 +205,10 @@ def _nested(x: np.ndarray, h: int, starts: int, keep: int, rng: np.random.Genera
         xs = x[part]
         found = _best(_random_starts(xs, int(np.ceil(size * h / t)), starts // k, rng), keep)
         for ld, sub in found:
-            if np.isfinite(ld):
-                r = _carried(xm, xs[sub], hm, 2)
-                if r is not None and np.isfinite(r[0]):
-                    carried.append(r)
+            r = _carried(xm, xs[sub], hm, 2) if np.isfinite(ld) else None
+            if r is None or not np.isfinite(r[0]):
+                return None  # an exact fit (h rows on a hyperplane) somewhere: the plain algorithm decides
+            carried.append(r)
     if not carried:
         return None
     best_ld, best = np.inf, None
