@@ -227,7 +227,11 @@ def _say_more(args: argparse.Namespace, outcome) -> None:
     if not args.verbose:
         return
     run = outcome.run
-    print(f"relspan: {len(run.datasets)} dataset(s) analysed {outcome.where.split(' (')[0]}; "
+    where = outcome.where.split(" (")[0]
+    # a plan ("in this process", "on 2 worker processes") reads after "analysed"; the automatic
+    # choice names each stage ("analysis of d in this process: about ...; figures on ...")
+    where = where if where.startswith(("in ", "on ", "nowhere")) else f"(ran {where})"
+    print(f"relspan: {len(run.datasets)} dataset(s) analysed {where}; "
           f"result cache: {run.cache_hits} reused, {run.cache_misses} computed; "
           f"{outcome.seconds:.1f} s in all.", file=sys.stderr)
 

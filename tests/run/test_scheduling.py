@@ -39,6 +39,21 @@ def test_lazy_executor_chooses_per_stage_and_records_the_reason(monkeypatch):
     lazy.close()
 
 
+def test_the_verbose_summary_names_each_stage_with_its_choice(monkeypatch):
+    # stages with the same choice and reason are named together; the figures' own choice is told apart
+    from relspan.run.build import AUTO, _where
+
+    monkeypatch.setattr("relspan.run.executors.available_cores", lambda: 2)
+    lazy = LazyExecutor(auto=True)
+    for work, stage in ((0.5, "analysis of a"), (0.5, "analysis of b"), (3 * POOL_ABOVE_S, "figures")):
+        lazy.expect(work, stage)
+        lazy.get()
+    said = _where(AUTO, lazy)
+    lazy.close()
+    small, large = choose_local(0.5, 2)[1], choose_local(3 * POOL_ABOVE_S, 2)[1]
+    assert said == f"analysis of a and analysis of b {small}; figures {large}"
+
+
 @pytest.mark.parametrize("jobs, scheduler", [(1, None), (3, None), (None, "tcp://127.0.0.1:1")])
 def test_explicit_jobs_or_a_cluster_are_never_second_guessed(jobs, scheduler):
     assert not LazyExecutor(jobs, scheduler, auto=True).auto
