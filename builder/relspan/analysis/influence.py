@@ -226,7 +226,9 @@ def fast_mcd(x, *, rng: np.random.Generator, starts: int = 500, keep: int = 10,
     Up to :data:`MCD_NESTED_ABOVE` rows, every random start runs on all rows; above it the starts
     run in random subsets of the rows first and are merged (the algorithm's nested extension for
     large datasets, section 3.3 of [2]; see :func:`_nested`), which keeps the cost of the starts
-    independent of the number of rows. Where that finds only exact fits, the plain algorithm runs.
+    independent of the number of rows. Where a subset or the merged set holds an exact fit, and for
+    ``n >= MCD_SUBSET_ROWS / 4`` variables (too many for subsets of that size), the plain algorithm
+    runs.
 
     Parameters
     ----------
@@ -259,7 +261,8 @@ def fast_mcd(x, *, rng: np.random.Generator, starts: int = 500, keep: int = 10,
         raise OptionsError(f"fast_mcd needs more than n + 1 = {n + 1} rows; got {t}.", key="x",
                            fix="Pass more rows.")
     h = int(h if h is not None else (t + n + 1) // 2)
-    found = _nested(x, h, starts, max(1, keep), rng) if t > MCD_NESTED_ABOVE else None
+    nested = t > MCD_NESTED_ABOVE and 4 * n < MCD_SUBSET_ROWS
+    found = _nested(x, h, starts, max(1, keep), rng) if nested else None
     if found is not None:
         best_ld, best = found
     else:

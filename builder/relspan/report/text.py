@@ -414,8 +414,9 @@ METHODS = (
        "determinant")],
      "The full-sample counts under equal, known-shape and bounded noise are decided again with each of up "
      "to 20 contiguous blocks of rows left out, from the covariance of a robust fit (Minimum Covariance "
-     "Determinant by FAST-MCD: 500 random starts, which above 600 rows run in up to five random subsets of "
-     "300 rows that are then merged, as the algorithm's authors prescribe for large datasets; "
+     "Determinant by FAST-MCD: 500 random starts, which above 600 rows and below 75 variables run in up "
+     "to five random subsets of 300 rows that are then merged, as the algorithm's authors prescribe for "
+     "large datasets, or on all rows where a subset holds an exact fit; "
      "concentration steps, consistency factor and reweighting at the 97.5% chi-square quantile), and "
      "without the rows that fit flags as outlying (the most outlying row alone first; then all flagged "
      "rows when they are at most 5% of the rows). A count that changes is said to rest on that block, row "
