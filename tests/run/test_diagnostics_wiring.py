@@ -181,14 +181,23 @@ class TestInfluence:
         assert len(calls) == k + 1 and calls[-1] == (rows, 500)
         assert ours.determinant <= whole.determinant * (1 + 1e-4)
 
-    def test_an_exact_fit_in_many_rows_is_found_as_by_the_plain_algorithm(self):
+    def test_an_exact_fit_in_many_rows_is_found_as_by_the_plain_algorithm(self, monkeypatch):
         # 700 of 1,000 rows on the plane x3 = x1 + x2 (more than h = 502): the minimum determinant is 0
-        from relspan.analysis.influence import fast_mcd
+        from relspan.analysis import influence
 
         rng = np.random.default_rng(9)
         x = rng.standard_normal((1000, 3))
         x[:700, 2] = x[:700, 0] + x[:700, 1]
-        fit = fast_mcd(x, rng=np.random.default_rng(0))
+        calls = []
+        plain = influence._random_starts
+
+        def counted(xs, h, starts, g):
+            calls.append((xs.shape[0], starts))
+            return plain(xs, h, starts, g)
+
+        monkeypatch.setattr(influence, "_random_starts", counted)
+        fit = influence.fast_mcd(x, rng=np.random.default_rng(0))
+        assert calls[-1] == (1000, 500)  # a subset's exact fit handed the search to the plain algorithm
         assert fit.determinant == 0.0 and fit.support.sum() == fit.h == 502
         on_plane = np.abs(x[:, 2] - x[:, 0] - x[:, 1]) < 1e-12
         assert np.all(on_plane[fit.support])
