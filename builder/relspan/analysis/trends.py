@@ -1,7 +1,8 @@
 """Trends and dependence: per-series stationarity verdicts, the spurious-regression caution, effective sample size.
 
 Each series gets two tests with opposite null hypotheses, both with a
-constant (level) term, via statsmodels:
+constant (level) term (:mod:`relspan.analysis.unitroot`, which computes what
+statsmodels' ``adfuller`` and ``kpss`` compute):
 
 - ADF (Dickey & Fuller 1979; lag order by AIC): null "unit root";
 - KPSS (Kwiatkowski, Phillips, Schmidt & Shin 1992; automatic bandwidth): null
@@ -45,13 +46,13 @@ References
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
 
 from relspan.analysis._common import check_names_len, jsonable
+from relspan.analysis.unitroot import adf_constant, kpss_level
 from relspan.errors import OptionsError
 
 __all__ = ["SeriesDiagnostic", "TrendReport", "series_diagnostics", "effective_sample_size",
@@ -73,9 +74,9 @@ class SeriesDiagnostic:
     ----------
     name : str
     adf_statistic, adf_p_value : float
-        ADF with a constant, lag order by AIC (statsmodels ``adfuller``).
+        ADF with a constant, lag order by AIC (:func:`relspan.analysis.unitroot.adf_constant`).
     kpss_statistic, kpss_p_value : float
-        KPSS for level stationarity, automatic bandwidth (statsmodels ``kpss``);
+        KPSS for level stationarity, automatic bandwidth (:func:`relspan.analysis.unitroot.kpss_level`);
         its p-value is read from a table and clipped to [0.01, 0.10].
     verdict : str
         ``"stationary"``, ``"trending"`` or ``"cannot be judged"``.
@@ -178,9 +179,6 @@ def series_diagnostics(x, *, names: Sequence[str], alpha: float = 0.05) -> Trend
            159-178, 1992.
     .. [3] C. W. J. Granger and P. Newbold, Journal of Econometrics 2(2), 111-120, 1974.
     """
-    from statsmodels.tools.sm_exceptions import InterpolationWarning, SingularMatrixWarning
-    from statsmodels.tsa.stattools import adfuller, kpss
-
     a = np.asarray(x, dtype=float)
     if a.ndim == 1:
         a = a[:, None]
@@ -199,21 +197,13 @@ def series_diagnostics(x, *, names: Sequence[str], alpha: float = 0.05) -> Trend
             out.append(SeriesDiagnostic(name, np.nan, np.nan, np.nan, np.nan, "cannot be judged",
                                         float(r1[j]), float(per[j])))
             continue
-        with warnings.catch_warnings(record=True) as caught:
-            # tuple-return notices of statsmodels >= 0.15 and table-edge p-values are expected; a
-            # rank-deficient ADF design (a series with few distinct steps) is recorded and judged below
-            warnings.simplefilter("ignore", InterpolationWarning)
-            warnings.simplefilter("ignore", FutureWarning)
-            warnings.simplefilter("always", SingularMatrixWarning)
-            adf = adfuller(col, regression="c", autolag="AIC")
-            kp = kpss(col, regression="c", nlags="auto")
-        singular = any(issubclass(w.category, SingularMatrixWarning) for w in caught)
-        adf_rej, kpss_rej = adf[1] < alpha, kp[1] < alpha
+        adf, kp = adf_constant(col), kpss_level(col)
+        adf_rej, kpss_rej = adf.p_value < alpha, kp.p_value < alpha
         # a rank-deficient test regression gives no valid p-value: the series cannot be judged
-        verdict = ("cannot be judged" if singular or not np.isfinite(adf[1]) else
+        verdict = ("cannot be judged" if adf.singular or not np.isfinite(adf.p_value) else
                    "stationary" if adf_rej and not kpss_rej else
                    "trending" if kpss_rej and not adf_rej else "cannot be judged")
-        out.append(SeriesDiagnostic(name, float(adf[0]), float(adf[1]), float(kp[0]), float(kp[1]), verdict,
+        out.append(SeriesDiagnostic(name, adf.statistic, adf.p_value, kp.statistic, kp.p_value, verdict,
                                     float(r1[j]), float(per[j])))
     trending = [s.name for s in out if s.verdict == "trending"]
     caution = ""

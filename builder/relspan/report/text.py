@@ -396,8 +396,11 @@ METHODS = (
      [(r"$n_{\mathrm{eff}} = T\,(1 - r_i r_j)/(1 + r_i r_j)$",
        "effective rows are T times one minus r i r j over one plus r i r j, with r the lag-1 "
        "autocorrelations; the smallest pair is reported")],
-     "Each series gets the ADF test (null: a unit root; constant, lag order by AIC) and the KPSS test (null: "
-     "level stationarity; automatic bandwidth), both at 5%: stationary when ADF rejects and KPSS does not, "
+     "Each series gets the augmented Dickey-Fuller (ADF) test (null: a unit root; constant; lagged "
+     "differences up to 12 (T/100)^(1/4), their number chosen by AIC; p-value from MacKinnon's response "
+     "surface) and the KPSS test (null: level stationarity; Bartlett long-run variance (Newey and West) with "
+     "the bandwidth of Hobijn, Franses and Ooms, after Newey and West's automatic rule; p-value interpolated in the authors' table of critical values, so held "
+     "between 0.01 and 0.10), both at 5%: stationary when ADF rejects and KPSS does not, "
      "trending when KPSS rejects and ADF does not, otherwise cannot be judged. When two or more analysed "
      "series trend, relations among their levels can appear without any real relation (spurious regression) "
      "unless they are cointegrated, which is not tested: the dataset page says so and the build raises a "
@@ -406,7 +409,9 @@ METHODS = (
      "Differences are taken only between consecutive periods, so a gap in the time index drops the row "
      "after it. For very large datasets the tests run on means of consecutive runs of rows (said on the "
      "page).",
-     ("dickey1979", "kwiatkowski1992", "granger1974", "bartlett1946", "bretherton1999")),
+     ("dickey1979", "said1984", "schwert1989", "akaike1974", "mackinnon1994", "kwiatkowski1992", "newey1987",
+      "newey1994", "hobijn2004",
+      "granger1974", "bartlett1946", "bretherton1999")),
     ("influence", "Single rows and blocks of rows",
      "No single row or block of rows should decide a finding; the check says when one does.",
      [(r"$\min_{|H| = h}\ \det\,\mathrm{cov}(x_H),\quad h = \lfloor (T + n + 1)/2 \rfloor$",
@@ -608,6 +613,20 @@ REFERENCES = {
     "bjorck1996": "Björck, Å. (1996). *Numerical Methods for Least Squares Problems*. Philadelphia: SIAM.",
     "dickey1979": "Dickey, D. A. & Fuller, W. A. (1979). Distribution of the estimators for autoregressive time "
                   "series with a unit root. *Journal of the American Statistical Association*, 74(366), 427–431.",
+    "said1984": "Said, S. E. & Dickey, D. A. (1984). Testing for unit roots in autoregressive-moving average "
+                "models of unknown order. *Biometrika*, 71(3), 599–607.",
+    "schwert1989": "Schwert, G. W. (1989). Tests for unit roots: a Monte Carlo investigation. *Journal of "
+                   "Business & Economic Statistics*, 7(2), 147–159.",
+    "akaike1974": "Akaike, H. (1974). A new look at the statistical model identification. *IEEE Transactions "
+                  "on Automatic Control*, 19(6), 716–723.",
+    "mackinnon1994": "MacKinnon, J. G. (1994). Approximate asymptotic distribution functions for unit-root and "
+                     "cointegration tests. *Journal of Business & Economic Statistics*, 12(2), 167–176.",
+    "newey1987": "Newey, W. K. & West, K. D. (1987). A simple, positive semi-definite, heteroskedasticity and "
+                 "autocorrelation consistent covariance matrix. *Econometrica*, 55(3), 703–708.",
+    "newey1994": "Newey, W. K. & West, K. D. (1994). Automatic lag selection in covariance matrix estimation. "
+                 "*Review of Economic Studies*, 61(4), 631–653.",
+    "hobijn2004": "Hobijn, B., Franses, P. H. & Ooms, M. (2004). Generalizations of the KPSS-test for "
+                  "stationarity. *Statistica Neerlandica*, 58(4), 483–502.",
     "kwiatkowski1992": "Kwiatkowski, D., Phillips, P. C. B., Schmidt, P. & Shin, Y. (1992). Testing the null "
                        "hypothesis of stationarity against the alternative of a unit root. *Journal of "
                        "Econometrics*, 54(1–3), 159–178.",

@@ -18,7 +18,7 @@ an error.
 
 Entries live under a folder named after the **computing environment**: the
 versions of every library that touches numbers or figures (numpy, scipy,
-pandas, matplotlib, pyarrow, statsmodels, ...), Python, and the maths library
+pandas, matplotlib, pyarrow, ...), Python, and the maths library
 with its CPU kernel (threadpoolctl: internal_api, version, architecture).
 The full key of an entry is therefore (environment, task key). A cache made
 under other versions or another kernel is not reused (a one-line note says
@@ -69,13 +69,14 @@ PRUNE_AFTER_DAYS = 30
 STALE_TEMP_SECONDS = 3600
 
 #: libraries whose versions can change a number or a figure (absent ones are recorded as absent)
-NUMERIC_LIBRARIES = ("numpy", "scipy", "pandas", "matplotlib", "pyarrow", "statsmodels",
+NUMERIC_LIBRARIES = ("numpy", "scipy", "pandas", "matplotlib", "pyarrow",
                      "contourpy", "fonttools", "pillow", "kiwisolver",
                      # also touch numbers or figures: mathtext parsing (pyparsing), colour cycles
-                     # (cycler), date parsing (python-dateutil, tzdata), statsmodels' formulas and
-                     # arrays (patsy), Excel and Stata cells (openpyxl), pandas' optional
-                     # accelerators (bottleneck, numexpr) and the BLAS probe itself (threadpoolctl)
-                     "pyparsing", "cycler", "python-dateutil", "tzdata", "patsy", "openpyxl",
+                     # (cycler), date parsing (python-dateutil, tzdata), Excel and Stata cells
+                     # (openpyxl), pandas' optional accelerators (bottleneck, numexpr) and the BLAS
+                     # probe itself (threadpoolctl); statsmodels is no longer used at run time
+                     # (relspan.analysis.unitroot computes the trend tests)
+                     "pyparsing", "cycler", "python-dateutil", "tzdata", "openpyxl",
                      "bottleneck", "numexpr", "threadpoolctl")
 
 _ENV_PREFIX = "env-"
