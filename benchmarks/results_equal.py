@@ -5,7 +5,7 @@
 
 ``dump`` runs ``relspan.check(SPEC, jobs=1, use_cache=False)`` and walks its
 ``AnalysisRun``: dataclasses become their type name and fields (slots too), enums their
-value, tuples and lists lists, numpy arrays arrays, other objects their ``repr``; the
+value, tuples, lists and other sequences lists, numpy arrays arrays, other objects their ``repr``; the
 walked tree is pickled with plain Python and numpy types only, so a dump made by one
 checkout (put first on ``PYTHONPATH``, e.g. an exported main) is read by another.
 ``compare`` reports each path where the two differ: floats and arrays must be equal bit
@@ -19,6 +19,7 @@ when equal, 1 otherwise.
 from __future__ import annotations
 
 import argparse
+import collections.abc
 import dataclasses
 import enum
 import pickle
@@ -50,6 +51,8 @@ def walk(obj, seen=None):
     if isinstance(obj, dict):
         return {"__dict__": [[walk(k, seen), walk(v, seen)] for k, v in obj.items()]}
     if isinstance(obj, (list, tuple)):
+        return [walk(v, seen) for v in obj]
+    if isinstance(obj, collections.abc.Sequence):  # read-only sequences such as CoefficientIntervals
         return [walk(v, seen) for v in obj]
     if isinstance(obj, (set, frozenset)):
         return {"__set__": sorted(repr(walk(v, seen)) for v in obj)}

@@ -47,6 +47,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import struct
 import sys
 from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
@@ -65,7 +66,7 @@ from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, Covaria
                                        resample_covariances, resample_influence_sd, scale_stack,
                                        studentized_interval, window_rng)
 
-__all__ = ["ResamplingOptions", "CoefficientInterval", "OuterSet", "WindowInference", "window_inference",
+__all__ = ["ResamplingOptions", "CoefficientInterval", "CoefficientIntervals", "OuterSet", "WindowInference", "window_inference",
            "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
            "imbens_manski_outer", "diagonal_corank_of", "diagonal_coranks_of", "DEFAULT_DIAGONAL_RESAMPLES",
            "EQUAL_RULE", "FULL_SAMPLE_PLAN", "DIAGONAL_PLAN_KINDS",
@@ -194,6 +195,113 @@ class CoefficientInterval:
         return jsonable({"equation": self.equation, "variable": self.variable, **self.interval.to_dict()})
 
 
+class CoefficientIntervals(Sequence):
+    """Coefficient intervals of one window held compactly: a read-only sequence of :class:`CoefficientInterval`.
+
+    A window keeps ``n (n - 1)`` elementary and ``sum_q q (n - q)`` reduced-form
+    coefficient intervals; as objects (the coefficient, its :class:`Interval` and
+    three floats) they took about 220 bytes each, a quarter of a window's result,
+    and 20,000 windows kept over 250 MB of them. Here one window's numbers are
+    one bytes buffer (estimate, low, high as float64), the two variables of each
+    coefficient are indices into the window's ``names``, and the finite-draw counts
+    are int32; an item is made when it is read, holding exactly the stored numbers
+    (bit for bit what the intervals computed). Compares equal to a tuple or list of
+    the same items (a NaN bound equal to a NaN bound), so it is not hashable; pickled
+    and cached as its arguments.
+
+    Parameters
+    ----------
+    names : tuple of str
+        The window's variable names.
+    pairs : bytes
+        Per coefficient, (equation, variable) as two little-endian uint16 indices into ``names``.
+    values : bytes
+        Per coefficient, estimate, low and high as little-endian float64.
+    resamples : bytes
+        Per coefficient, the finite draws used, little-endian int32.
+    level : float
+    method : str
+        The level and method of every interval, unless ``extra`` gives them per item.
+    extra : tuple of (float, str), optional
+    """
+
+    __slots__ = ("_names", "_pairs", "_values", "_resamples", "_level", "_method", "_extra")
+
+    def __init__(self, names, pairs: bytes, values: bytes, resamples: bytes, level: float, method: str,
+                 extra=None) -> None:
+        names, pairs, values, resamples = tuple(names), bytes(pairs), bytes(values), bytes(resamples)
+        m = len(values) // 24
+        idx = np.frombuffer(pairs, dtype="<u2")
+        if (len(values) != 24 * m or len(pairs) != 4 * m or len(resamples) != 4 * m
+                or (m and int(idx.max()) >= len(names)) or (extra is not None and len(extra) != m)
+                or not all(isinstance(v, str) for v in names)):
+            raise ValueError("CoefficientIntervals: inconsistent arguments")
+        self._names, self._pairs, self._values, self._resamples = names, pairs, values, resamples
+        self._level, self._method = float(level), str(method)
+        self._extra = None if extra is None else tuple((float(lv), str(me)) for lv, me in extra)
+
+    @classmethod
+    def from_arrays(cls, names, equation, variable, table: np.ndarray, resamples, level: float, method: str,
+                    extra=None) -> "CoefficientIntervals":
+        """From index arrays ``equation``, ``variable`` (into ``names``), an ``(m, 3)`` table of
+        estimate, low, high and the finite-draw counts."""
+        pairs = np.column_stack([np.asarray(equation, dtype="<u2"), np.asarray(variable, dtype="<u2")])
+        table = np.asarray(table, dtype="<f8").reshape(-1, 3)
+        return cls(names, pairs.tobytes(), table.tobytes(), np.asarray(resamples, dtype="<i4").tobytes(),
+                   level, method, extra)
+
+    def __len__(self) -> int:
+        return len(self._values) // 24
+
+    def _item(self, i: int) -> CoefficientInterval:
+        est, low, high = _F3.unpack_from(self._values, 24 * i)
+        e, v = _U2.unpack_from(self._pairs, 4 * i)
+        level, method = (self._level, self._method) if self._extra is None else self._extra[i]
+        return CoefficientInterval(self._names[e], self._names[v],
+                                   Interval(est, low, high, level, method, _I1.unpack_from(self._resamples, 4 * i)[0]))
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return tuple(self._item(j) for j in range(*i.indices(len(self))))
+        m = len(self)
+        j = int(i) + m if int(i) < 0 else int(i)
+        if not 0 <= j < m:
+            raise IndexError("CoefficientIntervals index out of range")
+        return self._item(j)
+
+    def __iter__(self):
+        return (self._item(j) for j in range(len(self)))
+
+    def __eq__(self, other) -> bool:
+        if not isinstance(other, (CoefficientIntervals, tuple, list)):
+            return NotImplemented
+        return len(self) == len(other) and all(map(_same_coefficient, self, other))
+
+    __hash__ = None  # equal to tuples of its items (NaN bounds equal NaN), so not hashable
+
+    def __repr__(self) -> str:
+        return f"CoefficientIntervals({list(self)!r})"
+
+    def __reduce__(self):
+        return (CoefficientIntervals, (self._names, self._pairs, self._values, self._resamples, self._level,
+                                       self._method, self._extra))
+
+
+_F3, _U2, _I1 = struct.Struct("<3d"), struct.Struct("<2H"), struct.Struct("<i")
+
+
+def _same_coefficient(a, b) -> bool:
+    """Equal coefficient intervals; a NaN bound equals a NaN bound (one fails to resample in both)."""
+    if a is b:
+        return True
+    if not isinstance(b, CoefficientInterval) or (a.equation, a.variable) != (b.equation, b.variable):
+        return False
+    x, y = a.interval, b.interval
+    return ((x.level, x.method, x.resamples) == (y.level, y.method, y.resamples)
+            and all(u == v or (u != u and v != v) for u, v in ((x.estimate, y.estimate), (x.low, y.low),
+                                                                 (x.high, y.high))))
+
+
 @dataclass(frozen=True, slots=True)
 class OuterSet:
     """An outer confidence set for one coefficient of the diagonal-noise single-relation set.
@@ -253,12 +361,13 @@ class WindowInference:
         Ascending.
     coranks : mapping str -> CorankSupport
         ``equal``, ``bounded`` and ``diagonal`` (when computed).
-    coefficients : mapping int -> tuple of CoefficientInterval
-        Equal noise, per kept corank q: the reduced-form coefficients (data units).
+    coefficients : mapping int -> sequence of CoefficientInterval
+        Equal noise, per kept corank q: the reduced-form coefficients (data units), held
+        compactly (:class:`CoefficientIntervals`).
     targets : mapping int -> tuple of str
         The variables each corank's reduced form is solved for.
-    elementary : tuple of CoefficientInterval
-        Every elementary-regression coefficient (equation = the regressand).
+    elementary : sequence of CoefficientInterval
+        Every elementary-regression coefficient (equation = the regressand), held compactly.
     noise : mapping int -> Interval
         Equal noise: sigma^2 (mean of the q smallest eigenvalues), per kept q, on ``scale``.
     diagonal_noise : tuple of Interval
@@ -283,9 +392,9 @@ class WindowInference:
     scale: str
     eigenvalues: tuple[Interval, ...]
     coranks: Mapping[str, CorankSupport]
-    coefficients: Mapping[int, tuple[CoefficientInterval, ...]]
+    coefficients: Mapping[int, Sequence[CoefficientInterval]]
     targets: Mapping[int, tuple[str, ...]]
-    elementary: tuple[CoefficientInterval, ...]
+    elementary: Sequence[CoefficientInterval]
     noise: Mapping[int, Interval]
     diagonal_noise: tuple[Interval, ...]
     outer: tuple[OuterSet, ...]
@@ -453,8 +562,9 @@ def _corank_and_certificates(cor: Any) -> tuple[int | None, Any]:
     return q, {c.q: c for c in cor.certificates}
 
 
-def _intervals(estimates, draws, *, level: float, method: str) -> list[Interval]:
-    """:func:`relspan.analysis.intervals.interval` of each column of a ``(B, m)`` stack, batched.
+def _interval_rows(estimates, draws, *, level: float, method: str) -> list[tuple]:
+    """:func:`relspan.analysis.intervals.interval` of each column of a ``(B, m)`` stack, batched, as the
+    fields of each :class:`Interval` (estimate, low, high, level, method, resamples).
 
     Columns whose draws are all finite share one ``numpy.quantile`` along the
     resamples (the same order statistics and interpolation as one column at
@@ -462,23 +572,38 @@ def _intervals(estimates, draws, *, level: float, method: str) -> list[Interval]
     """
     est = [float(e) for e in estimates]
     d = np.asarray(draws, dtype=float).reshape(-1, len(est))
-    out: list[Interval | None] = [None] * len(est)
+    out: list[tuple | None] = [None] * len(est)
     full = np.isfinite(d).all(axis=0) if d.shape[0] >= 2 else np.zeros(len(est), dtype=bool)
     cols = np.flatnonzero(full)
-    if cols.size and method in ("percentile", "basic"):
-        lvl = float(level)
-        if not 0.0 < lvl < 1.0:
-            return [interval(e, d[:, j], level=level, method=method) for j, e in enumerate(est)]
+    lvl = float(level)
+    if cols.size and method in ("percentile", "basic") and 0.0 < lvl < 1.0:
         a = (1.0 - lvl) / 2.0
         qs = np.quantile(d[:, cols], [a, 1.0 - a], axis=0)
         b = int(d.shape[0])
         for c, j in enumerate(cols.tolist()):
             lo, hi = float(qs[0, c]), float(qs[1, c])
             t = est[j]
-            out[j] = (Interval(t, lo, hi, lvl, "percentile", b) if method == "percentile" else
-                      Interval(t, 2 * t - hi, 2 * t - lo, lvl, "basic", b))
-    return [iv if iv is not None else interval(est[j], d[:, j], level=level, method=method)
-            for j, iv in enumerate(out)]
+            out[j] = ((t, lo, hi, lvl, "percentile", b) if method == "percentile" else
+                      (t, 2 * t - hi, 2 * t - lo, lvl, "basic", b))
+    for j, row in enumerate(out):
+        if row is None:
+            iv = interval(est[j], d[:, j], level=level, method=method)
+            out[j] = (iv.estimate, iv.low, iv.high, iv.level, iv.method, iv.resamples)
+    return out
+
+
+def _intervals(estimates, draws, *, level: float, method: str) -> list[Interval]:
+    """:func:`_interval_rows` as :class:`Interval` objects."""
+    return [Interval(*row) for row in _interval_rows(estimates, draws, level=level, method=method)]
+
+
+def _coefficient_intervals(names, cells, rows: list[tuple], level: float, method: str) -> CoefficientIntervals:
+    """:class:`CoefficientIntervals` of ``(equation, variable)`` index pairs and their :func:`_interval_rows`."""
+    lvl = float(level)
+    extra = None if all(r[3] == lvl and r[4] == method for r in rows) else [(r[3], r[4]) for r in rows]
+    return CoefficientIntervals.from_arrays(
+        names, [e for e, _ in cells], [v for _, v in cells], [r[:3] for r in rows] or np.empty((0, 3)),
+        [r[5] for r in rows], lvl, method, extra)
 
 
 def _aligned_reduced_forms(estimate: np.ndarray, bases: np.ndarray, targets: Sequence[int]) -> np.ndarray:
@@ -895,7 +1020,7 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             resamples=b.resamples, rule=b.rule)
 
     # equal noise: reduced-form coefficients (data units) and sigma^2 per kept corank
-    coefficients: dict[int, tuple[CoefficientInterval, ...]] = {}
+    coefficients: dict[int, CoefficientIntervals] = {}
     targets: dict[int, tuple[str, ...]] = {}
     noise: dict[int, Interval] = {}
     bases = estimates.get("basis") or {}
@@ -935,14 +1060,14 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
         # one call per corank: each column's order statistics are its own)
         ests = coef_est + [e for _, e, _ in noise_of]
         if ests:
-            ivs = _intervals(ests, np.stack(coef_draws + [d for _, _, d in noise_of], axis=1),
-                             level=level, method="percentile")
+            rows = _interval_rows(ests, np.stack(coef_draws + [d for _, _, d in noise_of], axis=1),
+                                  level=level, method="percentile")
             at = 0
             for q, cells in coef_of:
-                coefficients[q] = tuple(CoefficientInterval(names[t], names[k], iv)
-                                        for (_, t, k), iv in zip(cells, ivs[at:at + len(cells)]))
+                coefficients[q] = _coefficient_intervals(names, [(t, k) for _, t, k in cells],
+                                                         rows[at:at + len(cells)], level, "percentile")
                 at += len(cells)
-            noise.update((q, iv) for (q, _, _), iv in zip(noise_of, ivs[at:]))
+            noise.update((q, Interval(*row)) for (q, _, _), row in zip(noise_of, rows[at:]))
         rules["coefficients"] = (
             "Equal noise: each resample's relation subspace is rotated within itself to the estimate by "
             "orthogonal Procrustes (Schoenemann 1966), solved for the same variables as the estimate, "
@@ -950,7 +1075,7 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
         rules["noise_variance"] = (f"Equal noise: sigma^2 is the mean of the q smallest eigenvalues on the {scale} "
                                    "scale (Tipping & Bishop 1999); percentile intervals.")
 
-    elementary: list[CoefficientInterval] = []
+    elementary: Sequence[CoefficientInterval] = ()
     est_el = estimates.get("elementary")
     if est_el is not None:
         with np.errstate(all="ignore"):
@@ -958,9 +1083,10 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             d = np.diagonal(p, axis1=1, axis2=2)
             draws = -p / d[:, :, None]
         cells = [(j, k) for j in range(n) for k in range(n) if j != k]
-        ivs = _intervals([est_el[j, k] for j, k in cells], np.stack([draws[:, j, k] for j, k in cells], axis=1),
-                         level=level, method="percentile")
-        elementary.extend(CoefficientInterval(names[j], names[k], iv) for (j, k), iv in zip(cells, ivs))
+        elementary = _coefficient_intervals(
+            names, cells, _interval_rows([est_el[j, k] for j, k in cells],
+                                         np.stack([draws[:, j, k] for j, k in cells], axis=1),
+                                         level=level, method="percentile"), level, "percentile")
         rules["elementary"] = ("Elementary regressions: -P[j,k]/P[j,j] of each resample's inverse covariance "
                                "(data units); percentile intervals.")
 
@@ -1026,5 +1152,5 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
         block_length_rows=float(res.block_length * res.rows_per_granule), block_rule=sys.intern(res.block_rule),
         rows_per_granule=res.rows_per_granule, granules=res.granules, seed=(options.seed, *seed_key),
         note=sys.intern(res.note), scale=scale, eigenvalues=tuple(eig), coranks=supports, coefficients=coefficients,
-        targets=targets, elementary=tuple(elementary), noise=noise, diagonal_noise=tuple(diag_noise),
+        targets=targets, elementary=elementary, noise=noise, diagonal_noise=tuple(diag_noise),
         outer=tuple(outer), rules={k: sys.intern(v) for k, v in rules.items()})

@@ -91,10 +91,12 @@ DEFAULT_LEVEL = 0.90
 #: of :func:`stack_covariances` take this many resamples at a time, whatever the draws' chunks, so
 #: the matrix products (and so every covariance's last bits) stay those of one fixed partition
 _CHUNK_CELLS = 4_000_000
-#: granule indices drawn at once by :func:`iter_draw_blocks` (8 MB of indices and as much of blocks):
-#: a window's resamples are never all held as indices (499 resamples of 30,013 granules were
-#: 120 MB of indices, 236 MB with what was made of them)
-_DRAW_CELLS = 1_000_000
+#: granule indices drawn at once by :func:`iter_draw_blocks` (2 MB of indices and as much of blocks,
+#: and about five times that in passing while a chunk is made and merged): a window's resamples are
+#: never all held as indices (499 resamples of 30,013 granules were 120 MB of indices, 236 MB with
+#: what was made of them). Smaller chunks give the same draws and covariances, bit for bit; a window
+#: of fewer than 500 granules still takes all 499 resamples in one chunk
+_DRAW_CELLS = 250_000
 
 
 def window_seed(seed: int, dataset: str, plan: str, window: int) -> np.random.SeedSequence:
@@ -357,7 +359,7 @@ def iter_draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Gene
     state, so every draw is the same, bit for bit, however the resamples are
     chunked (``chunk`` resamples at a time; default :func:`draw_chunk`, about
     :data:`_DRAW_CELLS` granule indices). Memory: one chunk's indices and
-    blocks, plus, for the stationary scheme, one byte per granule and resample
+    blocks, plus, for the stationary scheme, one bit per granule and resample
     (below).
 
     How the stream is kept: ``"iid"`` and ``"moving"`` draw one integer per
@@ -366,7 +368,7 @@ def iter_draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Gene
     resample's block breaks (one float32 per granule, all resamples, in row
     order) and only then one uniform start per block, all blocks of all
     resamples in order; a resample's number of blocks is random, so the
-    breaks of every resample are drawn first (in chunks, kept as booleans)
+    breaks of every resample are drawn first (in chunks, kept as bits)
     and each chunk then takes the next ``blocks in the chunk`` starts of
     the stream: the same starts, in the same order, as one draw of all of
     them.
@@ -390,13 +392,15 @@ def iter_draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Gene
             yield b0, _moving_chunk(rng, k, b, nblk, nb), np.broadcast_to(np.arange(k) // b, (nb, k))
         return
     p = np.float32(1.0 / max(float(block_length), 1.0))
-    new = np.empty((resamples, k), dtype=bool)
-    for b0, nb in spans:                                   # every resample's block breaks first
-        np.less(rng.random((nb, k), dtype=np.float32), p, out=new[b0:b0 + nb])
-    new[:, 0] = True
+    # every resample's block breaks first, kept as bits (one bit per granule and resample)
+    packed = np.empty((resamples, -(-k // 8)), dtype=np.uint8)
+    for b0, nb in spans:
+        packed[b0:b0 + nb] = np.packbits(rng.random((nb, k), dtype=np.float32) < p, axis=1)
+    packed[:, 0] |= np.uint8(0x80)                         # granule 0 always starts a block
     t = np.arange(k)
     for b0, nb in spans:                                   # then the starts, chunk by chunk
-        yield (b0, *_stationary_chunk(rng, new[b0:b0 + nb], t, k))
+        new = np.unpackbits(packed[b0:b0 + nb], axis=1, count=k).view(bool)
+        yield (b0, *_stationary_chunk(rng, new, t, k))
 
 
 def _moving_chunk(rng: np.random.Generator, k: int, b: int, nblk: int, nb: int) -> np.ndarray:
@@ -413,7 +417,8 @@ def _stationary_chunk(rng: np.random.Generator, new: np.ndarray, t: np.ndarray, 
     return idx, np.cumsum(new, axis=1) - 1
 
 
-def merge_weighted(counts, means, comoments, weights) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def merge_weighted(counts, means, comoments, weights, *, overwrite_weights: bool = False
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Moments of many weighted merges of the same granules, in one matrix product.
 
     Parameters
@@ -422,6 +427,10 @@ def merge_weighted(counts, means, comoments, weights) -> tuple[np.ndarray, np.nd
         Granule statistics.
     weights : (B, k) array_like
         ``weights[b, i]``: how many times merge ``b`` takes granule ``i`` (0, 1, 2, ...).
+    overwrite_weights : bool
+        With a float64 ``weights`` array the caller no longer needs, its cells are
+        reused for the count-weighted copy (``weights * counts``) instead of a second
+        ``(B, k)`` array: the same products, so the same bits, with half the memory.
 
     Returns
     -------
@@ -437,11 +446,16 @@ def merge_weighted(counts, means, comoments, weights) -> tuple[np.ndarray, np.nd
     center = (c @ m) / c.sum()
     d = m - center
     g = (cm + c[:, None, None] * d[:, :, None] * d[:, None, :]).reshape(k, n * n)
-    wc = w * c
+    wg = w @ g
+    if overwrite_weights and w is weights and w.flags.writeable:
+        wc = np.multiply(w, c, out=w)
+    else:
+        wc = w * c
+    del w
     tot = wc.sum(axis=1)
     safe = np.where(tot > 0, tot, 1.0)
     dbar = (wc @ d) / safe[:, None]
-    out = (w @ g).reshape(-1, n, n) - tot[:, None, None] * dbar[:, :, None] * dbar[:, None, :]
+    out = wg.reshape(-1, n, n) - tot[:, None, None] * dbar[:, :, None] * dbar[:, None, :]
     out = 0.5 * (out + out.transpose(0, 2, 1))
     return tot, dbar + center, out
 
@@ -483,7 +497,7 @@ def _stack_chunks(stats: GranuleStats, chunks, b_total: int, *, ddof: int = 1
             filled += take
             at += take
             if filled == w.shape[0]:
-                tot, _, cm = merge_weighted(stats.counts, stats.means, stats.comoments, w)
+                tot, _, cm = merge_weighted(stats.counts, stats.means, stats.comoments, w, overwrite_weights=True)
                 covs[m0:m0 + filled] = cm / (tot - ddof)[:, None, None]
                 rows[m0:m0 + filled] = tot
                 m0 += filled
