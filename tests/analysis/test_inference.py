@@ -172,20 +172,37 @@ def _orthonormal_stack(rng, b, q, n):
     return np.swapaxes(np.linalg.qr(rng.standard_normal((b, n, q)))[0], 1, 2)
 
 
-def test_aligned_reduced_forms_equal_procrustes_then_reduced_form_stack_bit_for_bit():
-    from relspan.analysis.inference import _aligned_reduced_forms
-    from relspan.analysis.intervals import procrustes_align, reduced_form_stack
+def test_reduced_forms_equal_reduced_form_stack_bit_for_bit():
+    from relspan.analysis.inference import _reduced_forms
+    from relspan.analysis.intervals import reduced_form_stack
 
     rng = np.random.default_rng(21)  # invented bases, both signs of the one-relation rows
     for q, targets in ((1, [2]), (2, [0, 3]), (3, [1, 2, 4])):
         est = _orthonormal_stack(rng, 1, q, 5)[0]
         draws = _orthonormal_stack(rng, 199, q, 5) * rng.choice([-1.0, 1.0], size=(199, 1, 1))
         draws[7, :, targets[0]] = 0.0            # a resample whose target block is singular
-        got = _aligned_reduced_forms(est, draws, targets)
-        want = reduced_form_stack(np.concatenate([est[None], procrustes_align(est, draws)]), targets)
+        got = _reduced_forms(est, draws, targets)
+        want = reduced_form_stack(np.concatenate([est[None], draws]), targets)
         assert got.shape == want.shape
         assert np.array_equal(got, want, equal_nan=True)
         assert np.isnan(got[8]).all() or q > 1   # the singular one-relation resample gives NaN
+
+
+def test_reduced_forms_do_not_depend_on_the_basis_chosen_within_each_subspace():
+    # (R A)_c^{-1} (R A) = A_c^{-1} A for any invertible R: rotating, reflecting or rescaling each
+    # resampled basis within its span (an orthogonal R keeps the rows orthonormal) changes only
+    # rounding, which is why the resampled bases are not rotated onto the estimate first
+    from relspan.analysis.inference import _reduced_forms
+
+    rng = np.random.default_rng(23)  # invented bases and rotations
+    for q, targets in ((2, [0, 3]), (3, [1, 2, 4]), (4, [0, 1, 2, 5])):
+        n = 6
+        est = _orthonormal_stack(rng, 1, q, n)[0]
+        draws = _orthonormal_stack(rng, 99, q, n)
+        rot = np.linalg.qr(rng.standard_normal((99, q, q)))[0] * rng.choice([-1.0, 1.0], size=(99, 1, q))
+        a = _reduced_forms(est, draws, targets)
+        b = _reduced_forms(est, rot @ draws, targets)
+        np.testing.assert_allclose(b, a, rtol=0, atol=1e-11 * max(1.0, float(np.nanmax(np.abs(a)))))
 
 
 def test_reduced_forms_keep_the_condition_rule_of_reduced_form_stack():

@@ -1,11 +1,11 @@
-"""Bootstrap intervals, Procrustes alignment, principal-angle stacks and the change rule (analysis.intervals)."""
+"""Bootstrap intervals, reduced-form coefficient intervals, principal-angle stacks and the change rule (analysis.intervals)."""
 
 import numpy as np
 import pytest
 
 from relspan.analysis.intervals import (Interval, angle_change_test, basic_interval, bca_interval,
                                         coefficient_intervals, direct_rotation, elementary_coefficient_stack,
-                                        largest_angle_stack, percentile_interval, procrustes_align,
+                                        largest_angle_stack, percentile_interval,
                                         relation_bases, stable_spread)
 from relspan.analysis.resample import GranuleStats, resample_covariances
 from relspan.analysis.stability import principal_angles
@@ -51,12 +51,13 @@ class TestAngles:
         np.testing.assert_allclose(r @ r.T, np.eye(5), atol=1e-12)
         assert principal_angles(a, b @ r.T)[-1] == pytest.approx(0.0, abs=1e-6)
 
-    def test_procrustes_aligns_signs_and_rotations_within_the_span(self):
+    def test_coefficient_intervals_ignore_signs_and_rotations_within_the_span(self):
         rng = np.random.default_rng(2)
         a = np.linalg.qr(rng.normal(size=(4, 2)))[0].T
         rot = np.array([[0.0, -1.0], [1.0, 0.0]])
-        got = procrustes_align(a, np.stack([rot @ a, -a]))
-        np.testing.assert_allclose(got, np.stack([a, a]), atol=1e-12)
+        got = coefficient_intervals(a, np.stack([rot @ a, -a, a]), targets=[0, 1], level=0.9)
+        for iv in got.values():   # every draw is the estimate's reduced form, whatever the basis
+            assert iv.low == pytest.approx(iv.estimate, abs=1e-12) and iv.high == pytest.approx(iv.estimate, abs=1e-12)
 
 
 def test_elementary_coefficients_match_least_squares():

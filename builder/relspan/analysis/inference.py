@@ -10,8 +10,9 @@ in one batched call, and reads off:
   bounded below by 0);
 - intervals for the identified relation coefficients under equal noise: the
   reduced form of each kept corank's relation subspace (for one relation, the
-  equation for the reference variable), each resampled basis aligned to the
-  estimate by orthogonal Procrustes first (percentile);
+  equation for the reference variable), each resample's subspace solved for the
+  same variables as the estimate (percentile); the reduced form does not depend
+  on the basis chosen within a subspace, so the resampled bases need no rotation;
 - intervals for the elementary-regression coefficients (percentile);
 - intervals for the equal-noise variance ``sigma^2`` (the mean of the q
   smallest eigenvalues) and for the diagonal-noise certificate's noise shares;
@@ -36,11 +37,9 @@ References
        and correlation matrices", Biometrika 43(1/2), 128-136, 1956.
 .. [4] T. W. Anderson, "Asymptotic theory for principal component analysis",
        Annals of Mathematical Statistics 34(1), 122-148, 1963.
-.. [5] P. H. Schoenemann, "A generalized solution of the orthogonal Procrustes
-       problem", Psychometrika 31(1), 1-10, 1966.
-.. [6] G. W. Imbens and C. F. Manski, "Confidence intervals for partially
+.. [5] G. W. Imbens and C. F. Manski, "Confidence intervals for partially
        identified parameters", Econometrica 72(6), 1845-1857, 2004.
-.. [7] A. C. Davison and D. V. Hinkley, Bootstrap Methods and their
+.. [6] A. C. Davison and D. V. Hinkley, Bootstrap Methods and their
        Application, Cambridge University Press, 1997.
 """
 
@@ -59,7 +58,7 @@ from relspan.analysis._common import EPS, jsonable, orthonormal_rows, pivot_colu
 from relspan.analysis._dist import norm_cdf, norm_ppf
 from relspan.analysis.corank_support import CorankSupport, bounded_support
 from relspan.analysis.equal_test import DEFAULT_TEST_LEVEL, effective_nobs_by_k, sequential_corank_stack
-from relspan.analysis.intervals import (Interval, interval, procrustes_align,
+from relspan.analysis.intervals import (Interval, interval,
                                         reduced_form_stack)
 from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, CovarianceResamples, GranuleStats,
                                        can_redraw, influence_sd, influence_values, iter_drawn_blocks,
@@ -606,22 +605,20 @@ def _coefficient_intervals(names, cells, rows: list[tuple], level: float, method
         [r[5] for r in rows], lvl, method, extra)
 
 
-def _aligned_reduced_forms(estimate: np.ndarray, bases: np.ndarray, targets: Sequence[int]) -> np.ndarray:
-    """Reduced forms of the estimate and of its resampled bases aligned to it, ``(1 + B, q, n)``.
+def _reduced_forms(estimate: np.ndarray, bases: np.ndarray, targets: Sequence[int]) -> np.ndarray:
+    """Reduced forms of the estimate and of its resampled bases, ``(1 + B, q, n)``.
 
-    Each resampled basis (orthonormal rows) is rotated within its span onto
-    the estimate by orthogonal Procrustes (:func:`procrustes_align`), then the
-    estimate and the draws are solved for ``targets`` in one batched call
-    (:func:`reduced_form_stack`). For one relation the rotation is a sign flip
-    and the solve a division by the target entry: both are done directly, with
-    the same floating-point operations as the general path (the sign cancels
-    exactly; LAPACK's 1 x 1 solve multiplies by the reciprocal of the pivot),
-    and without a batched SVD per resample.
+    The estimate and the draws (orthonormal rows) are solved for ``targets`` in
+    one batched call (:func:`_reduced_forms_of_orthonormal`, the rule of
+    :func:`reduced_form_stack`). The reduced form ``A_c^{-1} A`` does not depend
+    on the basis chosen within a subspace (``(R A)_c^{-1} (R A) = A_c^{-1} A``
+    for any invertible ``R``), so the resampled bases are not rotated onto the
+    estimate first. For one relation the solve is a division by the target
+    entry, done directly with the floating-point operations of LAPACK's 1 x 1
+    solve (a multiplication by the reciprocal of the pivot).
     """
     stack = np.concatenate([estimate[None], bases]) if bases.size else estimate[None]
     if estimate.shape[0] != 1:
-        if bases.size:
-            stack[1:] = procrustes_align(estimate, bases)
         return _reduced_forms_of_orthonormal(stack, targets)
     t = int(targets[0])
     pivot = stack[:, :, t:t + 1]
@@ -1045,7 +1042,7 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
             rb = np.swapaxes(rb, 1, 2)
             fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
             # the estimate and its draws in one batched call (each matrix is solved on its own)
-            both = _aligned_reduced_forms(est_data, rb[fine], tidx)
+            both = _reduced_forms(est_data, rb[fine], tidx)
             est_red = both[0]
             draws = np.full_like(rb, np.nan)
             if fine.any():
@@ -1069,8 +1066,8 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
                 at += len(cells)
             noise.update((q, Interval(*row)) for (q, _, _), row in zip(noise_of, rows[at:]))
         rules["coefficients"] = (
-            "Equal noise: each resample's relation subspace is rotated within itself to the estimate by "
-            "orthogonal Procrustes (Schoenemann 1966), solved for the same variables as the estimate, "
+            "Equal noise: each resample's relation subspace is solved for the same variables as the "
+            "estimate (its reduced form, which does not depend on the basis chosen within the subspace) "
             "and read in data units; percentile intervals (Efron 1979).")
         rules["noise_variance"] = (f"Equal noise: sigma^2 is the mean of the q smallest eigenvalues on the {scale} "
                                    "scale (Tipping & Bishop 1999); percentile intervals.")

@@ -6,10 +6,10 @@ method, resamples). The draws come from resampled covariances (see
 resample axis.
 
 - eigenvalues: of each resampled covariance on the analysis scale;
-- relation coefficients: each resampled relation basis is first aligned to the
-  original by orthogonal Procrustes (Schoenemann 1966), so signs and rotations
-  within the subspace do not scatter the draws; reduced-form coefficients
-  (solve for the same target variables as the estimate) are then read off;
+- relation coefficients: reduced-form coefficients of each resampled relation
+  subspace (solved for the same target variables as the estimate); the reduced
+  form does not depend on the basis chosen within the subspace, so signs and
+  rotations of the resampled bases do not scatter the draws;
 - elementary-regression coefficients: ``-P[j, k] / P[j, j]`` of each resample;
 - principal angles between windows (Bjoerck & Golub 1973), computed with
   sines and cosines as in :func:`relspan.analysis.stability.principal_angles`.
@@ -36,11 +36,9 @@ References
        American Statistical Association 82(397), 171-185, 1987.
 .. [3] A. C. Davison and D. V. Hinkley, Bootstrap Methods and their
        Application, Cambridge University Press, 1997.
-.. [4] P. H. Schoenemann, "A generalized solution of the orthogonal Procrustes
-       problem", Psychometrika 31(1), 1-10, 1966.
-.. [5] Å. Björck and G. H. Golub, "Numerical methods for computing angles
+.. [4] Å. Björck and G. H. Golub, "Numerical methods for computing angles
        between linear subspaces", Mathematics of Computation 27(123), 579-594, 1973.
-.. [6] C. Davis and W. M. Kahan, "The rotation of eigenvectors by a
+.. [5] C. Davis and W. M. Kahan, "The rotation of eigenvectors by a
        perturbation. III", SIAM Journal on Numerical Analysis 7(1), 1-46, 1970.
 """
 
@@ -56,7 +54,7 @@ from relspan.analysis._common import EPS, jsonable
 from relspan.errors import OptionsError
 
 __all__ = ["Interval", "INTERVAL_METHODS", "interval", "percentile_interval", "basic_interval",
-           "bca_interval", "eigenvalue_intervals", "relation_bases", "procrustes_align",
+           "bca_interval", "eigenvalue_intervals", "relation_bases",
            "reduced_form_stack", "coefficient_intervals", "elementary_coefficient_stack",
            "extreme_cos_sin", "orth_columns_stack", "largest_angle_stack", "angle_interval", "direct_rotation",
            "AngleChange", "angle_change_test", "stable_spread"]
@@ -184,26 +182,6 @@ def relation_bases(vectors: np.ndarray, q: int) -> np.ndarray:
     return np.swapaxes(np.asarray(vectors)[:, :, :q], 1, 2)
 
 
-def procrustes_align(reference, bases) -> np.ndarray:
-    """Rotate each resampled basis (within its own span) as close as possible to the reference.
-
-    For each ``B_b`` (q x n, orthonormal rows) the orthogonal ``R_b`` minimising
-    ``||R_b B_b - A||_F`` is ``U V^T`` with ``U S V^T = A B_b^T`` (Schoenemann
-    1966). The aligned basis spans the same subspace; for q = 1 this fixes the sign.
-
-    Parameters
-    ----------
-    reference : (q, n) array_like
-        The estimate's basis (orthonormal rows).
-    bases : (B, q, n) array_like
-    """
-    a = np.atleast_2d(np.asarray(reference, dtype=float))
-    b = np.asarray(bases, dtype=float)
-    m = a[None, :, :] @ np.swapaxes(b, 1, 2)  # (B, q, q)
-    u, _, vt = np.linalg.svd(m)
-    return (u @ vt) @ b
-
-
 def reduced_form_stack(bases, targets: Sequence[int]) -> np.ndarray:
     """Reduced forms ``A_c^{-1} A`` of a ``(B, q, n)`` stack (identity in ``targets``); NaN where singular."""
     b = np.asarray(bases, dtype=float)
@@ -230,13 +208,13 @@ def coefficient_intervals(basis, bases, *, targets: Sequence[int], level: float,
     basis : (q, n) array_like
         The estimate's relation basis.
     bases : (B, q, n) array_like
-        Resampled bases (aligned to ``basis`` by :func:`procrustes_align` first).
+        Resampled bases (any basis of each resampled subspace: the reduced form does not depend on it).
     targets : sequence of int
         The q variables solved for (as chosen on the estimate).
     """
     a = np.atleast_2d(np.asarray(basis, dtype=float))
     est = reduced_form_stack(a[None], targets)[0]
-    draws = reduced_form_stack(procrustes_align(a, bases), targets)
+    draws = reduced_form_stack(np.asarray(bases, dtype=float), targets)
     out = {}
     for i in range(a.shape[0]):
         for k in range(a.shape[1]):

@@ -380,7 +380,7 @@ METHODS = (
      "several rows are resampled whole.",
      ("efron1979", "efron1987", "kuensch1989", "politis1994", "politis2003", "politis2004", "patton2009",
       "lawley1956", "anderson1963", "bartlett1954", "bartlett1946", "minka2000", "waternaux1976", "davison1997",
-      "schoenemann1966", "imbens2004", "chan1979", "weyl1912", "hall1988", "goetze1996", "politis1995")),
+      "imbens2004", "chan1979", "weyl1912", "hall1988", "goetze1996", "politis1995")),
     ("moments", "Window statistics from mergeable blocks",
      "Windows are merged from block statistics, never recomputed from raw rows.",
      [(r"$m = m_A + \delta\,n_B/n,\quad C = C_A + C_B + \delta\delta^T n_A n_B / n$",
@@ -475,8 +475,8 @@ INFERENCE_RULES = (
     "relation gets the basic interval. Unordered rows get the basic bootstrap (Davison & Hinkley 1997). "
     "Lower ends at least 0; "
     "coefficients, noise variances and noise shares by percentiles (Efron 1979). Relation coefficients "
-    "under equal noise: each resample's relation subspace is rotated within itself to the estimate by "
-    "orthogonal Procrustes (Schoenemann 1966) and solved for the same variables as the estimate. The "
+    "under equal noise: each resample's relation subspace is solved for the same variables as the "
+    "estimate (its reduced form, which does not depend on the basis chosen within the subspace). The "
     "noise shares under independent noise describe the certificate found, over the resamples that "
     "certify the same corank.",
     "Plans with more than 200 windows resample each window at most 199 times (cost grows with the "
@@ -522,8 +522,6 @@ REFERENCES = {
                      "population. *Biometrika*, 63(3), 639–645.",
     "davison1997": "Davison, A. C. & Hinkley, D. V. (1997). *Bootstrap Methods and their Application*. "
                    "Cambridge: Cambridge University Press.",
-    "schoenemann1966": "Schoenemann, P. H. (1966). A generalized solution of the orthogonal Procrustes "
-                       "problem. *Psychometrika*, 31(1), 1–10.",
     "imbens2004": "Imbens, G. W. & Manski, C. F. (2004). Confidence intervals for partially identified "
                   "parameters. *Econometrica*, 72(6), 1845–1857.",
     "frisch1934": "Frisch, R. (1934). *Statistical Confluence Analysis by Means of Complete Regression "
