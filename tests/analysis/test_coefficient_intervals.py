@@ -65,6 +65,8 @@ def test_indexing_slicing_and_search_behave_as_a_tuple():
     with pytest.raises(IndexError):
         got[-7]
     assert got != items[:-1] and got != "x"
+    assert repr(got.find("x4", "x3")) == repr(items[5]) and got.find("x3", "x4") is None
+    assert got.find("x9", "x1") is None
     empty = _coefficient_intervals(NAMES, [], [], 0.9, "percentile")
     assert len(empty) == 0 and tuple(empty) == ()
 

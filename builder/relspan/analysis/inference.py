@@ -252,6 +252,16 @@ class CoefficientIntervals(Sequence):
     def __len__(self) -> int:
         return len(self._values) // 24
 
+    def find(self, equation: str, variable: str) -> CoefficientInterval | None:
+        """The item of coefficient ``variable`` in the equation for ``equation``, or None; only it is made."""
+        try:
+            e, v = self._names.index(equation), self._names.index(variable)
+        except ValueError:
+            return None
+        idx = np.frombuffer(self._pairs, dtype="<u2").reshape(-1, 2)
+        hit = np.flatnonzero((idx[:, 0] == e) & (idx[:, 1] == v))
+        return self._item(int(hit[0])) if hit.size else None
+
     def _item(self, i: int) -> CoefficientInterval:
         est, low, high = _F3.unpack_from(self._values, 24 * i)
         e, v = _U2.unpack_from(self._pairs, 4 * i)
@@ -287,6 +297,17 @@ class CoefficientIntervals(Sequence):
 
 
 _F3, _U2, _I1 = struct.Struct("<3d"), struct.Struct("<2H"), struct.Struct("<i")
+
+
+def _find(items, equation: str, variable: str) -> Interval | None:
+    """The interval of coefficient ``variable`` in the equation for ``equation`` among ``items``, or None."""
+    if isinstance(items, CoefficientIntervals):
+        c = items.find(equation, variable)
+        return None if c is None else c.interval
+    for c in items:
+        if c.equation == equation and c.variable == variable:
+            return c.interval
+    return None
 
 
 def _same_coefficient(a, b) -> bool:
@@ -400,16 +421,10 @@ class WindowInference:
     rules: Mapping[str, str]
 
     def coefficient(self, q: int, equation: str, variable: str) -> Interval | None:
-        for c in self.coefficients.get(q, ()):
-            if c.equation == equation and c.variable == variable:
-                return c.interval
-        return None
+        return _find(self.coefficients.get(q, ()), equation, variable)
 
     def elementary_coefficient(self, equation: str, variable: str) -> Interval | None:
-        for c in self.elementary:
-            if c.equation == equation and c.variable == variable:
-                return c.interval
-        return None
+        return _find(self.elementary, equation, variable)
 
     def to_dict(self) -> dict:
         return jsonable({
