@@ -1,4 +1,4 @@
-"""``orthonormal_columns``: the Q of NumPy's reduced QR, by the same LAPACK routines without NumPy's overhead.
+"""Small QRs through LAPACK directly: ``orthonormal_columns`` (the Q of NumPy's reduced QR) and ``pivot_columns`` (SciPy's pivots).
 
 Reference: ``numpy.linalg.qr`` (LAPACK dgeqrf + dorgqr). NumPy and SciPy may link different OpenBLAS
 builds, so the two are compared within a stated precision (1e-14), not bit for bit.
@@ -39,3 +39,27 @@ def test_orthonormal_rows_span_the_basis_with_fixed_signs():
     proj = rows.T @ rows
     np.testing.assert_allclose(b @ proj, b, atol=1e-14)  # the same row space
     assert all(r[np.argmax(np.abs(r))] > 0 for r in rows)
+
+
+def test_pivot_columns_are_scipys_qr_pivots():
+    # reference: scipy.linalg.qr(..., pivoting=True) (reference library), on random bases and on
+    # bases with tied or zero columns, where the pivot order is decided by ties
+    import scipy.linalg as sla
+
+    from relspan.analysis._common import pivot_columns
+
+    rng = np.random.default_rng(17)
+    for t in range(2000):
+        q = int(rng.integers(1, 6))
+        n = int(rng.integers(q + 1, 12))
+        b = rng.standard_normal((q, n))
+        if t % 4 == 1:
+            b[:, rng.integers(0, n)] = b[:, rng.integers(0, n)]
+        elif t % 4 == 2:
+            b = np.round(b)
+        elif t % 4 == 3:
+            b[:, :2] = 0.0
+        want = tuple(int(p) for p in sla.qr(b, mode="economic", pivoting=True)[2][:q])
+        assert pivot_columns(b) == want
+    with pytest.raises(ValueError):
+        pivot_columns(np.array([[1.0, np.nan, 2.0]]))   # non-finite input: scipy's error, as before
