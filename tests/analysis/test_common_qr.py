@@ -1,4 +1,5 @@
-"""Small QRs through LAPACK directly: ``orthonormal_columns`` (the Q of NumPy's reduced QR) and ``pivot_columns`` (SciPy's pivots).
+"""Small QRs through LAPACK directly: ``orthonormal_columns`` (the Q of NumPy's reduced QR) and
+``pivot_columns`` (SciPy's pivots).
 
 Reference: ``numpy.linalg.qr`` (LAPACK dgeqrf + dorgqr). NumPy and SciPy may link different OpenBLAS
 builds, so the two are compared within a stated precision (1e-14), not bit for bit.
