@@ -66,7 +66,7 @@ from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, Covaria
                                        studentized_interval, window_rng)
 
 __all__ = ["ResamplingOptions", "CoefficientInterval", "CoefficientIntervals", "OuterSet", "WindowInference",
-           "window_inference",           "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
+           "window_inference", "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
            "imbens_manski_outer", "diagonal_corank_of", "diagonal_coranks_of", "DEFAULT_DIAGONAL_RESAMPLES",
            "EQUAL_RULE", "FULL_SAMPLE_PLAN", "DIAGONAL_PLAN_KINDS",
            "DIAGONAL_SCOPE_RULE", "diagonal_scope", "MANY_WINDOWS", "MANY_WINDOWS_RESAMPLES",
