@@ -592,7 +592,7 @@ def _interval_rows(estimates, draws, *, level: float, method: str) -> list[tuple
     lvl = float(level)
     if cols.size and method in ("percentile", "basic") and 0.0 < lvl < 1.0:
         a = (1.0 - lvl) / 2.0
-        qs = np.quantile(d[:, cols], [a, 1.0 - a], axis=0)
+        qs = _two_quantiles(d[:, cols], a)
         b = int(d.shape[0])
         for c, j in enumerate(cols.tolist()):
             lo, hi = float(qs[0, c]), float(qs[1, c])
@@ -603,6 +603,38 @@ def _interval_rows(estimates, draws, *, level: float, method: str) -> list[tuple
         if row is None:
             iv = interval(est[j], d[:, j], level=level, method=method)
             out[j] = (iv.estimate, iv.low, iv.high, iv.level, iv.method, iv.resamples)
+    return out
+
+
+def _two_quantiles(d: np.ndarray, a: float) -> np.ndarray:
+    """``numpy.quantile(d, [a, 1 - a], axis=0)`` of finite columns, bit for bit, from one sort.
+
+    NumPy's default ("linear", Hyndman & Fan's definition 7) takes the order statistics at
+    ``floor(h)`` and ``floor(h) + 1`` with ``h = (B - 1) q`` and interpolates them as its
+    ``_lerp`` does (``lo + (hi - lo) g``, or ``hi - (hi - lo) (1 - g)`` when ``g >= 0.5``); the
+    same operations on the same order statistics give the same bits, without the general
+    function's per-call work (about 115 us for a window's columns, against 30 us here).
+    Where an order statistic used is zero, NumPy itself is called (see below).
+    ``tests/analysis/test_coefficient_intervals.py`` checks it against ``numpy.quantile``.
+    """
+    n = d.shape[0]
+    virtual = (n - 1) * np.array([a, 1.0 - a])
+    prev = np.floor(virtual)
+    gamma = (virtual - prev)[:, None]
+    lo_i = prev.astype(np.intp)
+    hi_i = lo_i + 1
+    top = virtual >= n - 1
+    lo_i[top] = -1
+    hi_i[top] = -1
+    s = np.sort(d, axis=0)
+    lo, hi = s[lo_i], s[hi_i]
+    if not (lo.all() and hi.all()):
+        # an order statistic of 0: -0.0 and 0.0 tie, and which one NumPy's partition puts there is
+        # its own business; only then its own call (every other value has one representation)
+        return np.quantile(d, [a, 1.0 - a], axis=0)
+    diff = hi - lo
+    out = lo + diff * gamma
+    np.subtract(hi, diff * (1 - gamma), out=out, where=np.broadcast_to(gamma >= 0.5, out.shape))
     return out
 
 
