@@ -181,7 +181,7 @@ def test_reduced_forms_equal_reduced_form_stack_bit_for_bit():
         est = _orthonormal_stack(rng, 1, q, 5)[0]
         draws = _orthonormal_stack(rng, 199, q, 5) * rng.choice([-1.0, 1.0], size=(199, 1, 1))
         draws[7, :, targets[0]] = 0.0            # a resample whose target block is singular
-        got = _reduced_forms(est, draws, targets)
+        got = _reduced_forms(np.concatenate([est[None], draws]), targets)
         want = reduced_form_stack(np.concatenate([est[None], draws]), targets)
         assert got.shape == want.shape
         assert np.array_equal(got, want, equal_nan=True)
@@ -197,12 +197,47 @@ def test_reduced_forms_do_not_depend_on_the_basis_chosen_within_each_subspace():
     rng = np.random.default_rng(23)  # invented bases and rotations
     for q, targets in ((2, [0, 3]), (3, [1, 2, 4]), (4, [0, 1, 2, 5])):
         n = 6
-        est = _orthonormal_stack(rng, 1, q, n)[0]
         draws = _orthonormal_stack(rng, 99, q, n)
         rot = np.linalg.qr(rng.standard_normal((99, q, q)))[0] * rng.choice([-1.0, 1.0], size=(99, 1, q))
-        a = _reduced_forms(est, draws, targets)
-        b = _reduced_forms(est, rot @ draws, targets)
+        a = _reduced_forms(draws, targets)
+        b = _reduced_forms(rot @ draws, targets)
         np.testing.assert_allclose(b, a, rtol=0, atol=1e-11 * max(1.0, float(np.nanmax(np.abs(a)))))
+
+
+def _exact_reduced_form(a, targets):
+    """``A_c^{-1} A`` of a float matrix in exact rational arithmetic (Gauss-Jordan on the target block)."""
+    from fractions import Fraction
+
+    m = [[Fraction(float(x)) for x in row] for row in a]
+    for col, t in enumerate(targets):
+        piv = next(r for r in range(col, len(m)) if m[r][t] != 0)
+        m[col], m[piv] = m[piv], m[col]
+        m[col] = [x / m[col][t] for x in m[col]]
+        for r in range(len(m)):
+            if r != col and m[r][t] != 0:
+                f = m[r][t]
+                m[r] = [x - f * y for x, y in zip(m[r], m[col])]
+    return np.array([[float(x) for x in row] for row in m])
+
+
+def test_reduced_forms_in_data_units_are_accurate_and_nan_for_a_constant_variable():
+    # A = V D^-1 in data units, its reduced form D_c (V_c^-1 V) D^-1 solved on the analysis scale,
+    # against exact rational arithmetic on A; standard deviations spread over six decades (the
+    # earlier path, QR of A's rows then a solve, was off by up to about 3e-9 of each equation's
+    # largest coefficient on these cases); a zero standard deviation gives NaN
+    from relspan.analysis.inference import _reduced_forms_in_data_units
+
+    rng = np.random.default_rng(24)  # invented bases and standard deviations
+    for q, targets in ((1, [2]), (2, [0, 3]), (3, [1, 2, 4]), (4, [0, 1, 2, 5])):
+        v = _orthonormal_stack(rng, 20, q, 6)
+        std = 10.0 ** rng.uniform(-3, 3, size=(20, 6))
+        std[5, 1] = 0.0
+        got = _reduced_forms_in_data_units(v, std, targets)
+        assert np.isnan(got[5]).all() and np.isfinite(np.delete(got, 5, axis=0)).all()
+        for b in set(range(20)) - {5}:
+            want = _exact_reduced_form(v[b] / std[b][None, :], targets)
+            scale = np.abs(want).max(axis=1, keepdims=True)
+            assert np.all(np.abs(got[b] - want) <= 1e-11 * scale), (q, b)
 
 
 def test_reduced_forms_keep_the_condition_rule_of_reduced_form_stack():

@@ -652,20 +652,16 @@ def _coefficient_intervals(names, cells, rows: list[tuple], level: float, method
         [r[5] for r in rows], lvl, method, extra)
 
 
-def _reduced_forms(estimate: np.ndarray, bases: np.ndarray, targets: Sequence[int]) -> np.ndarray:
-    """Reduced forms of the estimate and of its resampled bases, ``(1 + B, q, n)``.
+def _reduced_forms(stack: np.ndarray, targets: Sequence[int]) -> np.ndarray:
+    """Reduced forms ``A_c^{-1} A`` of a ``(B, q, n)`` stack of orthonormal rows, solved for ``targets``.
 
-    The estimate and the draws (orthonormal rows) are solved for ``targets`` in
-    one batched call (:func:`_reduced_forms_of_orthonormal`, the rule of
-    :func:`reduced_form_stack`). The reduced form ``A_c^{-1} A`` does not depend
-    on the basis chosen within a subspace (``(R A)_c^{-1} (R A) = A_c^{-1} A``
-    for any invertible ``R``), so the resampled bases are not rotated onto the
-    estimate first. For one relation the solve is a division by the target
-    entry, done directly with the floating-point operations of LAPACK's 1 x 1
-    solve (a multiplication by the reciprocal of the pivot).
+    One batched call (:func:`_reduced_forms_of_orthonormal`, the rule of
+    :func:`reduced_form_stack`: NaN where the target block is numerically
+    singular). For one relation the solve is a division by the target entry,
+    done directly with the floating-point operations of LAPACK's 1 x 1 solve
+    (a multiplication by the reciprocal of the pivot).
     """
-    stack = np.concatenate([estimate[None], bases]) if bases.size else estimate[None]
-    if estimate.shape[0] != 1:
+    if stack.shape[1] != 1:
         return _reduced_forms_of_orthonormal(stack, targets)
     t = int(targets[0])
     pivot = stack[:, :, t:t + 1]
@@ -674,6 +670,27 @@ def _reduced_forms(estimate: np.ndarray, bases: np.ndarray, targets: Sequence[in
     ok = (np.isfinite(pivot) & (pivot != 0.0))[:, 0, 0]
     if ok.any():
         out[ok] = stack[ok] * (1.0 / pivot[ok])
+    return out
+
+
+def _reduced_forms_in_data_units(vectors: np.ndarray, std: np.ndarray, targets: Sequence[int]) -> np.ndarray:
+    """Reduced forms in data units of relation bases given on the analysis scale, ``(B, q, n)``.
+
+    ``vectors`` holds orthonormal rows ``V`` on the analysis scale and ``std`` each
+    resample's standard deviations (the data-unit basis is ``A = V D^-1``). The
+    reduced form does not depend on the basis chosen within a subspace, so
+    ``A_c^{-1} A = D_c (V_c^{-1} V) D^{-1}``: it is solved on the analysis scale,
+    where the rows are orthonormal (:func:`_reduced_forms`), and rescaled, with no
+    orthonormalisation of the data-unit rows. A resample whose data-unit basis is
+    not finite (a constant variable: a standard deviation of 0) gives NaN.
+    """
+    t = list(targets)
+    out = np.full(vectors.shape, np.nan)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        fine = np.isfinite(vectors / std[:, None, :]).all(axis=(1, 2))
+        if fine.any():
+            s = std[fine]
+            out[fine] = _reduced_forms(vectors[fine], t) * (s[:, t][:, :, None] / s[:, None, :])
     return out
 
 
@@ -1080,20 +1097,9 @@ def window_inference(stats_: GranuleStats, *, names: Sequence[str], options: Res
                 continue
             est_data = orthonormal_rows(np.atleast_2d(basis) / tstd[None, :])
             tidx = [ref] if q == 1 else list(pivot_columns(est_data))
-            # resampled relation bases on the analysis scale -> data units of each resample
-            with np.errstate(divide="ignore", invalid="ignore"):
-                rb = np.swapaxes(vec[:, :, :q], 1, 2) / std_b[:, None, :]
-            rb = np.where(np.isfinite(rb), rb, 0.0) if np.isfinite(rb).all() else np.where(
-                np.isfinite(rb).all(axis=(1, 2))[:, None, None], rb, np.nan)
-            rb = np.linalg.qr(np.swapaxes(rb, 1, 2))[0]
-            rb = np.swapaxes(rb, 1, 2)
-            fine = np.isfinite(rb).all(axis=(1, 2))      # a resample with a constant variable has no basis
-            # the estimate and its draws in one batched call (each matrix is solved on its own)
-            both = _reduced_forms(est_data, rb[fine], tidx)
-            est_red = both[0]
-            draws = np.full_like(rb, np.nan)
-            if fine.any():
-                draws[fine] = both[1:]
+            est_red = _reduced_forms(est_data[None], tidx)[0]
+            # resampled relation bases on the analysis scale, their reduced forms in data units
+            draws = _reduced_forms_in_data_units(np.swapaxes(vec[:, :, :q], 1, 2), std_b, tidx)
             cells = [(i, t, k) for i, t in enumerate(tidx) for k in range(n) if k not in tidx]
             coef_est.extend(-est_red[i, k] for i, _, k in cells)
             coef_draws.extend(-draws[:, i, k] for i, _, k in cells)
