@@ -685,9 +685,11 @@ def _reduced_forms_in_data_units(vectors: np.ndarray, std: np.ndarray, targets: 
     not finite (a constant variable: a standard deviation of 0) gives NaN.
     """
     t = list(targets)
-    out = np.full(vectors.shape, np.nan)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         fine = np.isfinite(vectors / std[:, None, :]).all(axis=(1, 2))
+        if fine.all():
+            return _reduced_forms(vectors, t) * (std[:, t][:, :, None] / std[:, None, :])
+        out = np.full(vectors.shape, np.nan)
         if fine.any():
             s = std[fine]
             out[fine] = _reduced_forms(vectors[fine], t) * (s[:, t][:, :, None] / s[:, None, :])

@@ -392,15 +392,19 @@ def iter_draw_blocks(k: int, *, scheme: str, resamples: int, rng: np.random.Gene
             yield b0, _moving_chunk(rng, k, b, nblk, nb), np.broadcast_to(np.arange(k) // b, (nb, k))
         return
     p = np.float32(1.0 / max(float(block_length), 1.0))
+    if len(spans) == 1:                                    # one chunk: no need to keep the breaks
+        new = rng.random((resamples, k), dtype=np.float32) < p
+        new[:, 0] = True
+        yield (0, *_stationary_chunk(rng, new, k))
+        return
     # every resample's block breaks first, kept as bits (one bit per granule and resample)
     packed = np.empty((resamples, -(-k // 8)), dtype=np.uint8)
     for b0, nb in spans:
         packed[b0:b0 + nb] = np.packbits(rng.random((nb, k), dtype=np.float32) < p, axis=1)
     packed[:, 0] |= np.uint8(0x80)                         # granule 0 always starts a block
-    t = np.arange(k)
     for b0, nb in spans:                                   # then the starts, chunk by chunk
         new = np.unpackbits(packed[b0:b0 + nb], axis=1, count=k).view(bool)
-        yield (b0, *_stationary_chunk(rng, new, t, k))
+        yield (b0, *_stationary_chunk(rng, new, k))
 
 
 def _moving_chunk(rng: np.random.Generator, k: int, b: int, nblk: int, nb: int) -> np.ndarray:
@@ -408,13 +412,23 @@ def _moving_chunk(rng: np.random.Generator, k: int, b: int, nblk: int, nb: int) 
     return (starts[:, :, None] + np.arange(b)).reshape(nb, nblk * b)[:, :k]
 
 
-def _stationary_chunk(rng: np.random.Generator, new: np.ndarray, t: np.ndarray, k: int):
+def _stationary_chunk(rng: np.random.Generator, new: np.ndarray, k: int):
+    """Granule indices and block numbers of a chunk of stationary-bootstrap resamples.
+
+    ``new[b, j]``: granule ``j`` of resample ``b`` starts a block (``new[:, 0]`` all True).
+    Granule ``j`` of a block that starts at ``j0`` with drawn start ``s`` is ``(s + j - j0) mod k``;
+    with ``0 <= s, j - j0 < k`` the modulo is one subtraction of ``k``. Integers only: the same
+    indices as ``(starts[block] + (j - begin)) % k`` with ``begin`` the running block start.
+    """
     nb = new.shape[0]
-    block = np.cumsum(new.ravel()) - 1                      # running block number within the chunk
-    starts = rng.integers(0, k, size=int(block[-1]) + 1)    # the chunk's next starts of the stream
-    begin = np.maximum.accumulate(np.where(new, t, 0), axis=1)
-    idx = (starts[block].reshape(nb, k) + (t - begin)) % k
-    return idx, np.cumsum(new, axis=1) - 1
+    flat = new.ravel()
+    block = np.cumsum(flat, dtype=np.intp) - 1               # running block number within the chunk
+    starts = rng.integers(0, k, size=int(block[-1]) + 1)     # the chunk's next starts of the stream
+    idx = (starts - np.flatnonzero(flat))[block]             # start minus the block's first position
+    idx += np.arange(flat.size)                              # + the position: start + offset, < 2k - 1
+    idx -= k * (idx >= k)
+    block = block.reshape(nb, k)
+    return idx.reshape(nb, k), block - block[:, :1]
 
 
 def merge_weighted(counts, means, comoments, weights, *, overwrite_weights: bool = False
