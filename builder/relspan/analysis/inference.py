@@ -240,14 +240,23 @@ class CoefficientIntervals(Sequence):
         self._extra = None if extra is None else tuple((float(lv), str(me)) for lv, me in extra)
 
     @classmethod
-    def from_arrays(cls, names, equation, variable, table: np.ndarray, resamples, level: float, method: str,
-                    extra=None) -> "CoefficientIntervals":
-        """From index arrays ``equation``, ``variable`` (into ``names``), an ``(m, 3)`` table of
-        estimate, low, high and the finite-draw counts."""
-        pairs = np.column_stack([np.asarray(equation, dtype="<u2"), np.asarray(variable, dtype="<u2")])
-        table = np.asarray(table, dtype="<f8").reshape(-1, 3)
-        return cls(names, pairs.tobytes(), table.tobytes(), np.asarray(resamples, dtype="<i4").tobytes(),
-                   level, method, extra)
+    def from_rows(cls, names: tuple, cells, rows, level: float, method: str) -> "CoefficientIntervals":
+        """From ``(equation, variable)`` index pairs into ``names`` (a tuple of str) and, per pair, the
+        fields of its :class:`Interval` (estimate, low, high, level, method, resamples), as
+        :func:`_interval_rows` gives them; the numbers are packed exactly as they are."""
+        m = len(rows)
+        if len(cells) != m or not isinstance(names, tuple):
+            raise ValueError("CoefficientIntervals: one (equation, variable) pair per row, names a tuple")
+        lvl = float(level)
+        self = object.__new__(cls)
+        self._names = names
+        self._pairs = struct.pack(f"<{2 * m}H", *(i for cell in cells for i in cell))
+        self._values = struct.pack(f"<{3 * m}d", *(x for r in rows for x in r[:3]))
+        self._resamples = struct.pack(f"<{m}i", *(r[5] for r in rows))
+        self._level, self._method = lvl, str(method)
+        self._extra = (None if all(r[3] == lvl and r[4] == method for r in rows)
+                       else tuple((float(r[3]), str(r[4])) for r in rows))
+        return self
 
     def __len__(self) -> int:
         return len(self._values) // 24
@@ -645,11 +654,7 @@ def _intervals(estimates, draws, *, level: float, method: str) -> list[Interval]
 
 def _coefficient_intervals(names, cells, rows: list[tuple], level: float, method: str) -> CoefficientIntervals:
     """:class:`CoefficientIntervals` of ``(equation, variable)`` index pairs and their :func:`_interval_rows`."""
-    lvl = float(level)
-    extra = None if all(r[3] == lvl and r[4] == method for r in rows) else [(r[3], r[4]) for r in rows]
-    return CoefficientIntervals.from_arrays(
-        names, [e for e, _ in cells], [v for _, v in cells], [r[:3] for r in rows] or np.empty((0, 3)),
-        [r[5] for r in rows], lvl, method, extra)
+    return CoefficientIntervals.from_rows(tuple(names), cells, rows, level, method)
 
 
 def _reduced_forms(stack: np.ndarray, targets: Sequence[int]) -> np.ndarray:
