@@ -261,20 +261,21 @@ def open_executor(jobs: int | None = None, scheduler: str | None = None, *,
 #: and they then share the cores with the main process and other work
 POOL_ABOVE_S = 4.0
 
-#: seconds of one window task in one process, by assumption family (measured on the machine
-#: of docs/performance.md, medians over n = 3..10; an estimate for choosing, never a result)
-_WINDOW_S = 0.0004
+#: seconds of one window task in one process, by assumption family (an estimate for choosing, never
+#: a result; the diagonal and shaped figures are medians over n = 3..10 from earlier rounds)
+_WINDOW_S = 0.0005
 _SHAPED_S = 0.0002
 _DIAGONAL_S_PER_N2 = 0.007
 #: seconds per resample of a window task: drawing one resample and the stability stage's
 #: decompositions of it (bases of each compared assumption, plausible coranks), and, beyond those,
-#: its intervals and corank supports. Measured on the machine of docs/performance.md (sections 5
-#: and 6) as ``benchmarks/bench_user_path.py task-costs`` measures them: the window tasks' CPU
-#: seconds of 1,001 windows (n = 6, 100 rows, 199 resamples each) with the analyses alone (0.96 s),
-#: with the stability draws (3.71 s) and with the intervals too (11.4 s), at a load average of 5
-#: to 9; a repeat at a load average of 8 (300 windows) gave about twice each figure
-_STABILITY_RESAMPLE_S = 0.000014
-_INTERVAL_RESAMPLE_S = 0.000039
+#: its intervals and corank supports. Measured as ``benchmarks/bench_user_path.py task-costs``
+#: measures them, on the idle Intel Xeon of docs/performance.md's latest round: the window tasks'
+#: CPU seconds of 1,001 windows (n = 6, 100 rows, 199 resamples each) with the analyses alone
+#: (0.49 s), with the stability draws (2.19 s) and with the intervals too (4.17 s), median of 2
+#: (the previous constants, 0.4 ms, 14 us and 39 us, were measured on a loaded machine before
+#: the window tasks were made cheaper, and overstated a check's work about twofold)
+_STABILITY_RESAMPLE_S = 0.0000085
+_INTERVAL_RESAMPLE_S = 0.0000099
 #: seconds x n^2 per diagonal-noise resample (a corank search warm-started from the previous
 #: resample; the demo's window tasks with ``diagonal_resamples`` 99 against 0, section 5)
 _DIAGONAL_RESAMPLE_S_PER_N2 = 0.0002
@@ -287,7 +288,7 @@ def window_work(windows: int, n: int, assumptions, *, frisch_starts: int = 8, re
     """Estimated seconds in one process for ``windows`` window tasks of ``n`` variables.
 
     A rough cost model (constants measured on the machine of docs/performance.md):
-    about 0.4 ms per window for the elementary, equal and bounded analyses, and
+    about 0.5 ms per window for the elementary, equal and bounded analyses, and
     about 7 ms x n^2 per window for the diagonal-noise (Frisch scheme) search
     with 8 starts, in proportion to the starts. Resampling adds, per window,
     ``stability_resamples`` draws for the stability stage
