@@ -521,3 +521,22 @@ def test_without_verbose_a_log_gets_no_progress_and_quiet_and_verbose_exclude_ea
     assert done.returncode == 0 and done.stderr == ""
     both = run_cli("check", str(spec), "--quiet", "--verbose")
     assert both.returncode == 2 and "not allowed with argument" in both.stderr
+
+
+def test_the_command_freezes_its_imports_for_the_collector_and_the_library_does_not():
+    # gc.freeze keeps full collections off the modules the command imported (docs/performance.md);
+    # relspan used as a library must leave its host's collector as it found it
+    code = ("import gc, sys\n"
+            "from relspan.cli import main\n"
+            "import relspan\n"
+            "if sys.argv[1] == 'cli':\n"
+            "    main(['check', sys.argv[2], '--no-cache', '-q'])\n"
+            "else:\n"
+            "    relspan.check(sys.argv[2], use_cache=False, jobs=1)\n"
+            "print(gc.get_freeze_count())\n")
+    counts = {}
+    for how in ("cli", "library"):
+        out = subprocess.run([sys.executable, "-c", code, how, str(FAILING)], capture_output=True, text=True,
+                             check=True, cwd=ROOT)
+        counts[how] = int(out.stdout.strip().splitlines()[-1])
+    assert counts["cli"] > 10_000 and counts["library"] == 0
