@@ -12,6 +12,7 @@ Three modes (numbers are printed, never asserted; speed is not tested in unit te
 
     # 2b. the cold demo build (--jobs 1 --no-cache) stage by stage in CPU seconds of the process,
     #     this tree against REV, interleaved A B A B; prints each run and the per-stage ratios
+    #     (each side prepared as its relspan command prepares, e.g. gc.freeze where it has it)
     .venv/bin/python benchmarks/bench_figures.py --stages-vs 055e2ee --rounds 2
 
     # 2c. the figure stage alone, this tree against REV: the demo's figure jobs (one analysis,
@@ -135,6 +136,12 @@ timed(sys.modules["relspan.report.site_content"], "site_draft", "pages")
 timed(sys.modules["relspan.run.figures"], "draw_figures", "figures")
 timed(relspan.site, "render_site", "html")
 timed(relspan.site, "write_site", "write")
+try:  # what the relspan command does before it runs (gc.freeze), when the revision has it
+    from relspan.cli import _freeze_imports
+except ImportError:
+    pass
+else:
+    _freeze_imports()
 imports = time.process_time()
 with warnings.catch_warnings():
     warnings.simplefilter("ignore")

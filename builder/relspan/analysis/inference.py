@@ -52,7 +52,6 @@ from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
-from scipy import optimize
 
 from relspan.analysis._common import EPS, jsonable, orthonormal_rows, pivot_columns
 from relspan.analysis._dist import norm_cdf, norm_ppf
@@ -807,6 +806,8 @@ def imbens_manski_outer(lower: float, upper: float, lower_draws, upper_draws, *,
     if not np.isfinite(width):
         c = float(norm_ppf(level))
     else:
+        from scipy import optimize  # here: about 80 ms of import that checks without this set skip
+
         c = float(optimize.brentq(lambda z: norm_cdf(z + width) - norm_cdf(-z) - level,
                                   0.0, 10.0))
     low = -np.inf if open_lo else lower - c * s_lo
