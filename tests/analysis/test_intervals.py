@@ -1,4 +1,5 @@
-"""Bootstrap intervals, reduced-form coefficient intervals, principal-angle stacks and the change rule (analysis.intervals)."""
+"""Bootstrap intervals, reduced-form coefficient intervals, principal-angle stacks and the change rule
+(analysis.intervals)."""
 
 import numpy as np
 import pytest
