@@ -46,7 +46,7 @@ def coverage(*, rho: float, t: int, datasets: int, resamples: int = 199, level: 
     the smallest eigenvalue of window 1 (the pipeline's own
     :func:`relspan.analysis.inference.eigenvalue_intervals`: blockwise studentised for AR(1) rows,
     basic for iid rows), the normalised coefficient of x1 in the relation solved
-    for x3 (percentile, Procrustes-aligned bases) and the largest principal angle between the windows
+    for x3 (percentile, reduced forms of the resampled bases) and the largest principal angle between the windows
     (basic, independent resamples of each window). Truth: the population covariance's values.
 
     ``studentized=True`` adds, from the same data and resamples: ``"eigenvalue (basic)"`` (the interval
