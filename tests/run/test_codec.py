@@ -237,3 +237,60 @@ def test_planted_pickle_and_forged_entry_in_a_sent_project_run_nothing(project, 
             assert any("older cache format" in n for n in notes), result.stderr
             assert any("not a valid relspan cache entry" in n for n in notes), result.stderr
     assert not list(cache.rglob("*.pkl")), "the build prunes the old-format files"
+
+
+def test_the_per_class_shortcut_writes_the_documents_of_the_checks_it_replaces():
+    # the encoder remembers, per class, that its values are written as dataclasses; the documents
+    # must be those of the full checks, and a dataclass allowed only later must be found then
+    import dataclasses as dc
+    import json
+
+    from relspan.analysis.inference import CoefficientInterval
+    from relspan.analysis.intervals import Interval
+    from relspan.run import codec
+
+    value = {"a": (CoefficientInterval("x", "y", Interval(1.0, 0.5, float("nan"), 0.9, "percentile", 99)),),
+             "b": [Interval(2.0, 1.0, 3.0, 0.8, "basic", 10)]}
+    codec._DC_SPECS.clear()
+    first = json.dumps(codec.encode(value)[0])
+    assert Interval in codec._DC_SPECS and codec._DC_SPECS[Interval][1] == tuple(
+        f.name for f in dc.fields(Interval))
+    assert json.dumps(codec.encode(value)[0]) == first          # from the remembered classes
+    codec._DC_SPECS.clear()
+    codec._DC_SPECS.update({Interval: False, CoefficientInterval: False})   # never remembered: full checks
+    slow = codec._Encoder()
+    orig = codec._dataclass_spec
+    try:
+        codec._dataclass_spec = lambda t: None
+        assert json.dumps(slow.value(value)) == first
+    finally:
+        codec._dataclass_spec = orig
+        codec._DC_SPECS.clear()
+
+    @dc.dataclass
+    class Later:
+        v: float
+
+    with pytest.raises(codec.CodecError):
+        codec.encode(Later(1.0))                                 # not allowed: refused
+    codec.allow(Later)
+    assert codec.decode(*codec.encode(Later(2.0))).v == 2.0     # allowed later: found then
+
+
+def test_plain_sequences_are_written_as_the_item_by_item_walk_writes_them():
+    import json
+
+    from relspan.run import codec
+
+    value = {"t": (1, 2.5, "x", -0.0), "l": [1.0, 3], "mixed": (1.0, float("nan"), True, np.float64(2.0), None),
+             "nested": [(1.0, 2.0), [float("inf")]], "bools": [True, False]}
+    fast = codec.encode(value)
+    orig = codec._plain
+    try:
+        codec._plain = lambda items: False
+        slow = codec.encode(value)
+    finally:
+        codec._plain = orig
+    assert json.dumps(fast[0]) == json.dumps(slow[0]) and len(fast[1]) == len(slow[1])
+    back = codec.decode(*fast)
+    assert back["t"] == (1, 2.5, "x", -0.0) and type(back["mixed"][2]) is bool and np.isnan(back["mixed"][1])

@@ -128,6 +128,36 @@ _FOUND: dict[str, type] = {}
 
 # --------------------------------------------------------------------------- encode
 
+#: per class: ``(name, field names)`` when its values are written as dataclasses ("dc"), False when
+#: they never are (the checks of :meth:`_Encoder.value` made once per class instead of once per
+#: value: a window's result holds hundreds of dataclass values)
+_DC_SPECS: dict[type, tuple[str, tuple[str, ...]] | bool] = {}
+
+
+def _dataclass_spec(t: type) -> tuple[str, tuple[str, ...]] | None:
+    """What :meth:`_Encoder.value` writes for a dataclass value of class ``t`` (None: not that branch).
+
+    Only classes that reach the dataclass branch there qualify: not enums or warnings (their
+    branches come first; pandas objects are not dataclasses), and allowed (``_encodable_class``;
+    the allow-list only grows, so a class found allowed stays allowed). A None is looked up
+    again each time (a dataclass not allowed yet), so a class allowed later is found then.
+    """
+    spec = _DC_SPECS.get(t)
+    if spec is None:
+        from relspan.errors import RelspanWarning
+
+        if not dataclasses.is_dataclass(t) or issubclass(t, (enum.Enum, RelspanWarning)):
+            spec = _DC_SPECS[t] = False            # never: this class is not a dataclass there
+        elif _encodable_class(t):
+            spec = _DC_SPECS[t] = (_name_of(t), tuple(f.name for f in dataclasses.fields(t)))
+    return spec or None
+
+
+def _plain(items) -> bool:
+    """True when every item is written as itself: a str, an int or a finite float (not a bool)."""
+    return all(type(x) is str or type(x) is int or (type(x) is float and math.isfinite(x)) for x in items)
+
+
 class _Encoder:
     def __init__(self) -> None:
         self.arrays: list[np.ndarray] = []
@@ -159,14 +189,17 @@ class _Encoder:
         if isinstance(v, np.generic):
             return {"$": "scalar", "a": self.array(np.asarray(v))}
         if t is tuple:
-            return {"$": "tuple", "v": [self.value(x, d) for x in v]}
+            return {"$": "tuple", "v": list(v) if _plain(v) else [self.value(x, d) for x in v]}
         if t is list:
-            return [self.value(x, d) for x in v]
+            return list(v) if _plain(v) else [self.value(x, d) for x in v]
         if t is dict:
             return {"$": "dict", "v": [[self.value(k, d), self.value(x, d)] for k, x in v.items()]}
         if t in (set, frozenset):  # in a fixed order: a set's iteration order follows the string hash seed
             return {"$": t.__name__, "v": [self.value(x, d) for x in sorted(v, key=lambda x: (type(x).__name__,
                                                                                           repr(x)))]}
+        spec = _dataclass_spec(t)
+        if spec is not None:
+            return {"$": "dc", "c": spec[0], "f": [[n, self.value(getattr(v, n), d)] for n in spec[1]]}
         if t in (bytes, bytearray):
             return {"$": t.__name__, "a": self.array(np.frombuffer(bytes(v), dtype=np.uint8))}
         if t is complex:
