@@ -688,15 +688,24 @@ def _unpack(where: Any, packs: list[np.ndarray]) -> list[np.ndarray]:
 
 
 def _encode(value: Any, key: str, env_id: str) -> bytes:
+    # Each intermediate form is dropped as soon as the next one exists: for a plan of 20,000
+    # windows the document, its JSON text and the file's bytes are each hundreds of MB
+    # (docs/performance.md, section 10).
     doc, arrays = codec.encode(value)
     where, packs = _pack(arrays)
+    del arrays
     header = {"format": ENTRY_FORMAT, "key": key, "environment": env_id, "arrays": where,
               "packs": len(packs), "value": doc}
     text = json.dumps(header, sort_keys=True, separators=(",", ":"), allow_nan=False)
+    del header, doc, where
+    raw = text.encode("utf-8")
+    del text
     buf = io.BytesIO()
-    members = {"header": np.frombuffer(text.encode("utf-8"), dtype=np.uint8)}
+    members = {"header": np.frombuffer(raw, dtype=np.uint8)}
     members.update({f"p{j}": a for j, a in enumerate(packs)})
+    del packs
     np.savez(buf, **members)  # stored, not compressed: no member can expand beyond the file
+    del members, raw
     return buf.getvalue()
 
 
