@@ -440,3 +440,141 @@ def test_the_allow_list_is_read_without_importing_relspan_report():
             "sorted(m for m in sys.modules if m.startswith(('relspan.report', 'matplotlib')))[:5]")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert done.returncode == 0, done.stderr
+
+
+def _long_value(n: int = 100):
+    """A result-like value with long sequences (written as segments) and short ones (kept inline)."""
+    rng = np.random.default_rng(11)
+    return {"windows": tuple(Result(i % 3, rng.standard_normal((i % 5, 2))) for i in range(n)),
+            "labels": [f"w{i}" for i in range(n)],                       # plain: never segmented
+            "by_id": {(i, "x"): np.arange(i % 4, dtype=np.int32) for i in range(n)},
+            "short": (Result(1, np.array([np.nan, -0.0])),),
+            "nested": [[Result(j, np.ones(1)) for j in range(40)] for _ in range(20)],
+            "full": Result(2, np.array([0.5, 1.25]))}
+
+
+def _same(a, b) -> bool:
+    """Bit-for-bit equal documents and arrays (the codec's own strictest equality)."""
+    da, aa = codec.encode(a)
+    db, ab = codec.encode(b)
+    return (json.dumps(da, sort_keys=True) == json.dumps(db, sort_keys=True) and len(aa) == len(ab)
+            and all(x.dtype == y.dtype and x.shape == y.shape and x.tobytes() == y.tobytes()
+                    for x, y in zip(aa, ab)))
+
+
+def _members(path: Path) -> dict:
+    with np.load(path, allow_pickle=False) as npz:
+        return {k: npz[k] for k in npz.files}
+
+
+def _write_members(path: Path, members: dict) -> None:
+    with open(path, "wb") as fh:
+        np.savez(fh, **members)
+
+
+class TestSegmentedEntries:
+    """Long sequences are written and read segment by segment: a 20,000-window result was one
+    JSON document in memory (about 2.5 GB beside the result on writing; docs/performance.md)."""
+
+    def test_long_sequences_round_trip_bit_for_bit_through_segments(self, tmp_path):
+        value = _long_value()
+        c = ResultCache(tmp_path)
+        assert c.put(KEY, value)
+        members = _members(c.path_for(KEY))
+        assert "s" in members and any(k.startswith("q") for k in members)
+        header = json.loads(members["header"].tobytes())
+        # 100 windows, 100 dict items and the outer list of 20 (its inner lists stay inside
+        # their segment): 7 + 7 + 2 segments of at most SEGMENT_ITEMS items
+        assert len(header["segments"]) == 16
+        assert header["value"]["$"] == "dict"
+        got = c.get(KEY)
+        assert type(got["windows"]) is tuple and type(got["nested"]) is list
+        assert list(got["by_id"]) == list(value["by_id"])
+        assert _same(got, value)
+        got["windows"][1].angles[0, 0] = 7.0       # arrays own their memory
+        assert got["windows"][2].angles.size == 0 or got["windows"][2].angles[0, 0] != 7.0
+
+    def test_the_document_held_in_memory_does_not_grow_with_the_sequences(self):
+        sizes = {}
+        for n in (50, 2000):
+            segs = []
+
+            def segment(doc, arrays):
+                segs.append((len(doc), len(arrays)))
+                return len(segs) - 1
+
+            top, arrays = codec.encode(_long_value(n), segment=segment)
+            # plain lists (numbers, text) stay inline: a label per window is cheap as JSON
+            sizes[n] = len(json.dumps([kv for kv in top["v"] if kv[0] != "labels"]))
+            assert max(k for k, _ in segs) <= codec.SEGMENT_ITEMS
+            assert len(arrays) == 2                    # "short"'s and "full"'s stay with the header
+        # the same document but for the segment numbers it names
+        assert abs(sizes[2000] - sizes[50]) < 30 and sizes[2000] < 2000
+
+    def test_without_the_callback_the_documents_are_unchanged(self):
+        doc, _ = codec.encode(_long_value(40))
+        assert "segs" not in json.dumps(doc)
+
+    @pytest.mark.filterwarnings("ignore::relspan.errors.RelspanNote")
+    @pytest.mark.parametrize("damage", ["order", "lengths", "short_list", "nested", "pack_flip",
+                                        "extra_array", "object_pack", "text_flip", "drop_segments"])
+    def test_damaged_or_forged_segments_are_misses(self, tmp_path, damage, monkeypatch):
+        boom = tmp_path / "ran"
+        monkeypatch.setenv("RELSPAN_TEST_BOOM", str(boom))
+        c = ResultCache(tmp_path / "cache")
+        c.put(KEY, _long_value())
+        path = c.path_for(KEY)
+        if damage in ("pack_flip", "text_flip"):
+            # a flipped byte inside a segment's array or text: the member's CRC no longer matches
+            with zipfile.ZipFile(path) as zf:
+                info = zf.getinfo("q0.npy" if damage == "pack_flip" else "s.npy")
+            blob = bytearray(path.read_bytes())
+            name_len, extra_len = int.from_bytes(blob[info.header_offset + 26:info.header_offset + 28], "little"), \
+                int.from_bytes(blob[info.header_offset + 28:info.header_offset + 30], "little")
+            start = info.header_offset + 30 + name_len + extra_len
+            blob[start + info.file_size - 3] ^= 0x01
+            path.write_bytes(bytes(blob))
+        else:
+            m = _members(path)
+            header = json.loads(m["header"].tobytes())
+            if damage == "order":
+                header["value"]["v"][0][1]["v"][0] = 1
+            elif damage == "lengths":
+                header["segments"][0] += 1
+            elif damage == "short_list":
+                header["value"]["v"][0][1]["v"][2] -= 1
+            elif damage == "nested":     # a segment that refers to further segments
+                text = m["s"].tobytes()
+                first = json.loads(text[:header["segments"][0]])
+                first["v"][0] = {"$": "segs", "t": "list", "v": [1, 1, 1]}
+                raw = json.dumps(first).encode()
+                m["s"] = np.frombuffer(raw + text[header["segments"][0]:], dtype=np.uint8)
+                header["segments"][0] = len(raw)
+            elif damage == "extra_array":
+                m["q0"] = np.concatenate([m["q0"], m["q0"][:1]])
+            elif damage == "object_pack":
+                evil = np.empty(1, dtype=object)
+                evil[0] = _Boom()
+                m["q0"] = evil                      # numpy pickles object arrays when writing
+            elif damage == "drop_segments":
+                del m["s"]
+            m["header"] = np.frombuffer(json.dumps(header).encode(), dtype=np.uint8)
+            _write_members(path, m)
+        with pytest.warns(RelspanNote, match="not a valid relspan cache entry"):
+            assert c.get(KEY, "miss") == "miss"
+        assert c.stats.corrupt == 1 and not boom.exists()
+
+    def test_segment_files_spill_beside_the_entry_and_leave_nothing(self, tmp_path, monkeypatch):
+        monkeypatch.setattr(cache_module, "_SPOOL_BYTES", 64)   # every segment file goes to disk
+        c = ResultCache(tmp_path)
+        value = _long_value()
+        assert c.put(KEY, value)
+        assert _same(c.get(KEY), value)
+        assert sorted(p.name for p in c.path_for(KEY).parent.iterdir()) == [f"{KEY}.npz"]
+
+    def test_a_value_refused_halfway_leaves_no_file(self, tmp_path):
+        value = {"windows": [Result(i, np.zeros(1)) for i in range(40)] + [lambda: 0]}
+        c = ResultCache(tmp_path)
+        with pytest.raises(CodecError):
+            c.put(KEY, value)
+        assert not list(tmp_path.rglob("*.part")) and not c.path_for(KEY).exists()

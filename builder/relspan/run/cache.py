@@ -11,7 +11,9 @@ and the SHA-256 of their bytes).
 Entries are data, never pickles: a result is encoded by
 :mod:`relspan.run.codec` into a JSON document (classes named and looked up in
 an allow-list) plus plain numpy arrays, and stored as one uncompressed ``.npz``
-file read back with ``allow_pickle=False``. Nothing in a cache folder can run
+file read back with ``allow_pickle=False``. Long sequences (a plan's windows)
+are written and read back segment by segment (:func:`_write_entry`,
+:func:`_decode`), so neither side ever holds a whole result as one document. Nothing in a cache folder can run
 code, whatever its content; an entry that is missing, truncated, forged or
 names a class outside the allow-list is a miss (with a one-line note), never
 an error.
@@ -36,6 +38,7 @@ import math
 import os
 import io
 import re
+import shutil
 import tempfile
 import time
 import zipfile
@@ -60,7 +63,7 @@ DEFAULT_CACHE_DIRNAME = ".relspan-cache"
 KEY_FORMAT = "relspan-task-key/1"
 
 #: the entry format (header ``format`` field); entries of any other format are ignored
-ENTRY_FORMAT = "relspan-cache-entry/3"
+ENTRY_FORMAT = "relspan-cache-entry/4"
 
 #: entries of this environment not read or written for this many days are pruned
 PRUNE_AFTER_DAYS = 30
@@ -82,7 +85,10 @@ NUMERIC_LIBRARIES = ("numpy", "scipy", "pandas", "matplotlib", "pyarrow",
 _ENV_PREFIX = "env-"
 _ENV_FILE = "ENVIRONMENT.json"
 _ENTRY_RE = re.compile(r"^[0-9a-f]{64}\.npz$")
-_ARRAY_RE = re.compile(r"^p[0-9]{1,9}\.npy$")
+_ARRAY_RE = re.compile(r"^[pq][0-9]{1,9}\.npy$")
+_SEGMENTS_MEMBER = "s.npy"
+#: bytes of segment text or arrays kept in memory before they spill to an unnamed temporary file
+_SPOOL_BYTES = 8 << 20
 _TAG = "\x00"  # prefix of the keys that mark non-JSON values; user dict keys may not start with it
 _README = """\
 This folder is relspan's result cache.
@@ -442,12 +448,13 @@ class ResultCache:
             self._count(misses=1)
             return default
         try:
-            blob = path.read_bytes()
+            fh = open(path, "rb")
         except OSError:
             self._count(misses=1)
             return default
         try:
-            value = _decode(blob, key, self._env_id)
+            with fh:
+                value = _decode(fh, key, self._env_id)
         except codec.CodecError as err:
             self._count(misses=1, corrupt=1)
             with self._lock:
@@ -481,7 +488,6 @@ class ResultCache:
         path = self.path_for(key)
         if path is None:
             return False
-        blob = _encode(value, key, self._env_id)
         try:
             env_folder = path.parent.parent
             env_folder.mkdir(exist_ok=True)
@@ -489,7 +495,7 @@ class ResultCache:
                 self._write_atomic(env_folder / _ENV_FILE,
                                    json.dumps(self._env, indent=2, sort_keys=True).encode("utf-8"))
             path.parent.mkdir(exist_ok=True)
-            self._write_atomic(path, blob)
+            self._write_atomic(path, lambda fh: _write_entry(fh, value, key, self._env_id, path.parent))
         except OSError as exc:
             self._count(write_errors=1)
             with self._lock:
@@ -628,11 +634,15 @@ class ResultCache:
         return removed
 
     @staticmethod
-    def _write_atomic(path: Path, data: bytes) -> None:
+    def _write_atomic(path: Path, data) -> None:
+        """Write ``data`` (bytes, or a function that writes into the open file) as ``path``, whole or not at all."""
         fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-", suffix=".part")
         try:
             with os.fdopen(fd, "wb") as fh:
-                fh.write(data)
+                if callable(data):
+                    data(fh)
+                else:
+                    fh.write(data)
             os.replace(tmp, path)
         except BaseException:
             try:
@@ -687,47 +697,221 @@ def _unpack(where: Any, packs: list[np.ndarray]) -> list[np.ndarray]:
     return out
 
 
+class _SegmentSpill:
+    """The segments of one entry as they are encoded: their JSON texts and their arrays, by dtype.
+
+    Each goes to a spooled temporary file (memory up to :data:`_SPOOL_BYTES`, then an unnamed
+    file in ``folder``); :meth:`write_members` copies them into the entry's zip in pieces.
+    A segment's arrays are written in order, so a reader takes them in order: a place is
+    ``[pack, shape]``, with no offset to check.
+    """
+
+    def __init__(self, folder: Path | None) -> None:
+        self.folder = folder
+        self.text = self._spool()
+        self.lengths: list[int] = []
+        self.codes: list[str] = []
+        self.packs: list = []
+        self.sizes: list[int] = []
+
+    def _spool(self):
+        return tempfile.SpooledTemporaryFile(max_size=_SPOOL_BYTES, dir=self.folder, prefix=".tmp-",
+                                             suffix=".part")
+
+    def __call__(self, doc: Any, arrays: list[np.ndarray]) -> int:
+        places = []
+        for a in arrays:
+            code = a.dtype.str
+            try:
+                j = self.codes.index(code)
+            except ValueError:
+                j = len(self.codes)
+                self.codes.append(code)
+                self.packs.append(self._spool())
+                self.sizes.append(0)
+            places.append([j, list(a.shape)])
+            self.packs[j].write(a.tobytes())
+            self.sizes[j] += a.size
+        raw = json.dumps({"a": places, "v": doc}, sort_keys=True, separators=(",", ":"),
+                         allow_nan=False).encode("utf-8")
+        self.text.write(raw)
+        self.lengths.append(len(raw))
+        return len(self.lengths) - 1
+
+    def write_members(self, zf: zipfile.ZipFile) -> None:
+        members = [(f"q{j}.npy", np.dtype(c), n, f) for j, (c, n, f) in
+                   enumerate(zip(self.codes, self.sizes, self.packs))]
+        if self.lengths:
+            members.insert(0, (_SEGMENTS_MEMBER, np.dtype(np.uint8), sum(self.lengths), self.text))
+        for name, dtype, count, spool in members:
+            spool.seek(0)
+            with zf.open(name, "w", force_zip64=True) as out:
+                np.lib.format.write_array_header_1_0(out, {"descr": np.lib.format.dtype_to_descr(dtype),
+                                                           "fortran_order": False, "shape": (count,)})
+                shutil.copyfileobj(spool, out, 1 << 20)
+
+    def close(self) -> None:
+        for f in [self.text, *self.packs]:
+            f.close()
+
+
+def _write_entry(fh, value: Any, key: str, env_id: str, spill_dir: Path | None = None) -> None:
+    """Write ``value`` as the entry ``key`` into the open binary file ``fh``.
+
+    The long sequences of ``value`` are encoded segment by segment into spooled temporary
+    files (:class:`_SegmentSpill`) as the codec reaches them; only the rest of the document
+    (the header) and its arrays are held in memory. Members: ``header.npy`` (the JSON
+    header as bytes), ``p<j>.npy`` (the header's arrays, one pack per dtype), ``s.npy``
+    (the segments' JSON texts, one after another) and ``q<j>.npy`` (their arrays).
+    For a plan of 20,000 windows this holds a few MB at a time where one document, its
+    JSON text and the file's bytes took about 2.5 GB (docs/performance.md, section 11).
+    """
+    spill = _SegmentSpill(spill_dir)
+    try:
+        doc, arrays = codec.encode(value, segment=spill)
+        where, packs = _pack(arrays)
+        del arrays
+        header = {"format": ENTRY_FORMAT, "key": key, "environment": env_id, "arrays": where,
+                  "packs": len(packs), "segments": spill.lengths, "segment_packs": len(spill.codes),
+                  "value": doc}
+        raw = json.dumps(header, sort_keys=True, separators=(",", ":"), allow_nan=False).encode("utf-8")
+        del header, doc, where
+        # stored, not compressed: no member can expand beyond the file
+        with zipfile.ZipFile(fh, "w", zipfile.ZIP_STORED, allowZip64=True) as zf:
+            members = [("header.npy", np.frombuffer(raw, dtype=np.uint8))]
+            members += [(f"p{j}.npy", a) for j, a in enumerate(packs)]
+            for name, a in members:
+                with zf.open(name, "w", force_zip64=True) as out:
+                    np.lib.format.write_array(out, a, allow_pickle=False)
+            spill.write_members(zf)
+    finally:
+        spill.close()
+
+
 def _encode(value: Any, key: str, env_id: str) -> bytes:
-    # Each intermediate form is dropped as soon as the next one exists: for a plan of 20,000
-    # windows the document, its JSON text and the file's bytes are each hundreds of MB
-    # (docs/performance.md, section 10).
-    doc, arrays = codec.encode(value)
-    where, packs = _pack(arrays)
-    del arrays
-    header = {"format": ENTRY_FORMAT, "key": key, "environment": env_id, "arrays": where,
-              "packs": len(packs), "value": doc}
-    text = json.dumps(header, sort_keys=True, separators=(",", ":"), allow_nan=False)
-    del header, doc, where
-    raw = text.encode("utf-8")
-    del text
+    """The bytes of the entry ``key`` holding ``value`` (what :meth:`ResultCache.put` writes)."""
     buf = io.BytesIO()
-    members = {"header": np.frombuffer(raw, dtype=np.uint8)}
-    members.update({f"p{j}": a for j, a in enumerate(packs)})
-    del packs
-    np.savez(buf, **members)  # stored, not compressed: no member can expand beyond the file
-    del members, raw
+    _write_entry(buf, value, key, env_id)
     return buf.getvalue()
 
 
-def _decode(blob: bytes, key: str, env_id: str) -> Any:
-    """The value stored in ``blob``; CodecError for anything that is not our own entry."""
+def _npy_stream(zf: zipfile.ZipFile, name: str):
+    """``(open member, dtype, items)`` of a one-dimensional plain array member, read as a stream."""
+    fh = zf.open(name)
     try:
-        with zipfile.ZipFile(io.BytesIO(blob)) as zf:
+        version = np.lib.format.read_magic(fh)
+        if version == (1, 0):
+            shape, fortran, dtype = np.lib.format.read_array_header_1_0(fh)
+        elif version == (2, 0):
+            shape, fortran, dtype = np.lib.format.read_array_header_2_0(fh)
+        else:
+            raise codec.CodecError(f"an array member of npy version {version}")
+        if len(shape) != 1 or dtype.hasobject or dtype.fields is not None or dtype.kind not in "biufcmMSU":
+            raise codec.CodecError("a malformed pack")
+    except BaseException:
+        fh.close()
+        raise
+    return fh, dtype, shape[0]
+
+
+class _SegmentReader:
+    """The segments of an entry, read in the order written: each segment's text and its arrays."""
+
+    def __init__(self) -> None:
+        self.lengths: list[int] = []
+        self.streams: list = []
+        self.text = None
+        self.packs: list = []
+        self.next = 0
+
+    def open(self, zf: zipfile.ZipFile, lengths: Any, n_packs: Any, names: set) -> None:
+        if not (isinstance(lengths, list) and all(type(x) is int and x >= 0 for x in lengths)) \
+                or type(n_packs) is not int or not 0 <= n_packs <= len(names):
+            raise codec.CodecError("a malformed header")
+        self.lengths = lengths
+        if lengths:
+            self.text, dtype, count = _npy_stream(zf, _SEGMENTS_MEMBER)
+            self.streams.append(self.text)
+            if dtype != np.uint8 or count != sum(lengths):
+                raise codec.CodecError("segments of the wrong size")
+        for j in range(n_packs):
+            stream = _npy_stream(zf, f"q{j}.npy")
+            self.streams.append(stream[0])
+            self.packs.append(stream)
+
+    def __call__(self, number: int) -> tuple[Any, list[np.ndarray]]:
+        if number != self.next or number >= len(self.lengths):
+            raise codec.CodecError("segments out of order")
+        self.next += 1
+        n = self.lengths[number]
+        raw = self.text.read(n)
+        if len(raw) != n:
+            raise codec.CodecError("a truncated segment")
+        seg = json.loads(raw.decode("utf-8"))
+        if not (isinstance(seg, dict) and isinstance(seg.get("a"), list) and "v" in seg):
+            raise codec.CodecError("a malformed segment")
+        places = seg["a"]
+        need = [0] * len(self.packs)
+        for item in places:
+            if not (isinstance(item, list) and len(item) == 2 and type(item[0]) is int
+                    and 0 <= item[0] < len(self.packs) and isinstance(item[1], list)
+                    and len(item[1]) <= 32 and all(type(d) is int and d >= 0 for d in item[1])):
+                raise codec.CodecError("a malformed array place")
+            need[item[0]] += math.prod(item[1])
+        # one read per pack and segment; each array is copied out (owning its memory, as before)
+        blocks = []
+        for j, (fh, dtype, _count) in enumerate(self.packs):
+            size = need[j] * dtype.itemsize
+            raw_pack = fh.read(size) if size else b""
+            if len(raw_pack) != size:
+                raise codec.CodecError("an array beyond its pack")
+            blocks.append([np.frombuffer(raw_pack, dtype=dtype), 0])
+        arrays = []
+        for j, shape in places:
+            block = blocks[j]
+            size = math.prod(shape)
+            arrays.append(block[0][block[1]:block[1] + size].reshape(shape).copy())
+            block[1] += size
+        return seg["v"], arrays
+
+    def finish(self) -> None:
+        """Every segment read and every byte of every member used (the last read checks the CRC)."""
+        if self.next != len(self.lengths) or any(fh.read(1) for fh in self.streams):
+            raise codec.CodecError("segments or arrays left unread")
+
+    def close(self) -> None:
+        for fh in self.streams:
+            fh.close()
+
+
+def _decode(source, key: str, env_id: str) -> Any:
+    """The value stored in ``source`` (the entry's bytes or its open file); CodecError for
+    anything that is not our own entry."""
+    if isinstance(source, (bytes, bytearray)):
+        source = io.BytesIO(source)
+    reader = _SegmentReader()
+    try:
+        size = source.seek(0, 2)
+        source.seek(0)
+        with zipfile.ZipFile(source) as zf:
             infos = zf.infolist()
             total = 0
+            names = set()
             for info in infos:
                 if info.compress_type != zipfile.ZIP_STORED:
                     raise codec.CodecError("a compressed member (relspan stores entries uncompressed)")
-                if info.filename != "header.npy" and not _ARRAY_RE.match(info.filename):
+                if info.filename not in ("header.npy", _SEGMENTS_MEMBER) and not _ARRAY_RE.match(info.filename):
                     raise codec.CodecError(f"an unexpected member {info.filename!r}")
                 total += info.file_size
-            if total > len(blob):
+                names.add(info.filename)
+            if total > size:
                 raise codec.CodecError("members larger than the file")
-        with np.load(io.BytesIO(blob), allow_pickle=False) as npz:
-            raw = npz["header"]
+            with zf.open("header.npy") as fh:
+                raw = np.lib.format.read_array(fh, allow_pickle=False)
             if raw.dtype != np.uint8 or raw.ndim != 1:
                 raise codec.CodecError("a malformed header")
             header = json.loads(raw.tobytes().decode("utf-8"))
+            del raw
             if not isinstance(header, dict) or header.get("format") != ENTRY_FORMAT:
                 raise codec.CodecError("another entry format")
             if header.get("key") != key:
@@ -737,13 +921,22 @@ def _decode(blob: bytes, key: str, env_id: str) -> Any:
             n = header.get("packs")
             if type(n) is not int or not 0 <= n <= len(infos):
                 raise codec.CodecError("a malformed header")
-            packs = [npz[f"p{j}"] for j in range(n)]
+            packs = []
+            for j in range(n):
+                with zf.open(f"p{j}.npy") as fh:
+                    packs.append(np.lib.format.read_array(fh, allow_pickle=False))
             if any(p.ndim != 1 or p.dtype.hasobject for p in packs):
                 raise codec.CodecError("a malformed pack")
             arrays = _unpack(header.get("arrays"), packs)
+            del packs
+            reader.open(zf, header.get("segments"), header.get("segment_packs"), names)
+            value = codec.decode(header["value"], arrays, segments=reader)
+            reader.finish()
+            return value
     except codec.CodecError:
         raise
     except (zipfile.BadZipFile, ValueError, KeyError, OSError, EOFError, UnicodeDecodeError,
             RecursionError, NotImplementedError) as err:
         raise codec.CodecError(f"{type(err).__name__}: {' '.join(str(err).split())[:120]}") from None
-    return codec.decode(header["value"], arrays)
+    finally:
+        reader.close()

@@ -24,6 +24,16 @@ documents. Anything the codec does not know raises :class:`CodecError`.
 
 The round trip is exact: floats keep every bit (JSON's shortest round-trip
 text, NaN and infinities tagged), dict order is kept, tuples stay tuples.
+
+**Segments.** Given a ``segment`` callback, :func:`encode` writes the items of
+every long sequence or dict (more than :data:`SEGMENT_ITEMS` items, outside
+another segment) as *segments* of :data:`SEGMENT_ITEMS` items: each segment's
+document and arrays go to the callback as soon as they exist, and the
+enclosing document keeps only a ``segs`` reference. A result of 20,000
+windows is then never one document in memory (as Python lists and dicts it
+took about 1.3 GB; docs/performance.md). :func:`decode` asks a ``segments``
+callback for them in the same order. Without the callbacks the documents are
+those of earlier versions.
 """
 
 from __future__ import annotations
@@ -39,13 +49,18 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["CodecError", "encode", "decode", "allow", "FORMAT"]
+__all__ = ["CodecError", "encode", "decode", "allow", "FORMAT", "SEGMENT_ITEMS"]
 
 #: the document format; part of every cache entry's header
 FORMAT = "relspan-codec/1"
 
 #: nesting deeper than this is refused (a crafted document cannot exhaust the stack)
 MAX_DEPTH = 200
+
+#: items per segment, and the length above which a sequence or dict is written as segments
+#: (when :func:`encode` is given a ``segment`` callback): a window's result is about 75 kB as a
+#: document, so a segment of 16 windows holds about 1.2 MB
+SEGMENT_ITEMS = 16
 
 
 class CodecError(ValueError):
@@ -159,8 +174,30 @@ def _plain(items) -> bool:
 
 
 class _Encoder:
-    def __init__(self) -> None:
+    def __init__(self, segment=None) -> None:
         self.arrays: list[np.ndarray] = []
+        self.segment = segment      # callback(doc, arrays) -> segment number, or None
+        self.inside = False         # encoding a segment's items (segments do not nest)
+
+    def _segmented(self, items: list, kind: str, d: int) -> dict:
+        """``items`` written as segments of SEGMENT_ITEMS; the reference that replaces them."""
+        first = None
+        for start in range(0, len(items), SEGMENT_ITEMS):
+            outer, self.arrays, self.inside = self.arrays, [], True
+            try:
+                if kind == "dict":
+                    doc = [[self.value(k, d), self.value(x, d)] for k, x in items[start:start + SEGMENT_ITEMS]]
+                else:
+                    doc = [self.value(x, d) for x in items[start:start + SEGMENT_ITEMS]]
+                arrays = self.arrays
+            finally:
+                self.arrays, self.inside = outer, False
+            number = self.segment(doc, arrays)
+            first = number if first is None else first
+        return {"$": "segs", "t": kind, "v": [first, -(-len(items) // SEGMENT_ITEMS), len(items)]}
+
+    def _long(self, n: int) -> bool:
+        return self.segment is not None and not self.inside and n > SEGMENT_ITEMS
 
     def array(self, a: np.ndarray) -> dict:
         if a.dtype.hasobject:
@@ -188,11 +225,16 @@ class _Encoder:
             return self.array(v)
         if isinstance(v, np.generic):
             return {"$": "scalar", "a": self.array(np.asarray(v))}
-        if t is tuple:
-            return {"$": "tuple", "v": list(v) if _plain(v) else [self.value(x, d) for x in v]}
-        if t is list:
-            return list(v) if _plain(v) else [self.value(x, d) for x in v]
+        if t is tuple or t is list:
+            if _plain(v):
+                return {"$": "tuple", "v": list(v)} if t is tuple else list(v)
+            if self._long(len(v)):
+                return self._segmented(list(v), t.__name__, d)
+            items = [self.value(x, d) for x in v]
+            return {"$": "tuple", "v": items} if t is tuple else items
         if t is dict:
+            if self._long(len(v)):
+                return self._segmented(list(v.items()), "dict", d)
             return {"$": "dict", "v": [[self.value(k, d), self.value(x, d)] for k, x in v.items()]}
         if t in (set, frozenset):  # in a fixed order: a set's iteration order follows the string hash seed
             return {"$": t.__name__, "v": [self.value(x, d) for x in sorted(v, key=lambda x: (type(x).__name__,
@@ -277,9 +319,13 @@ class _Encoder:
         return {"$": "index", "a": self._values(idx), "name": name}
 
 
-def encode(value: Any) -> tuple[Any, list[np.ndarray]]:
-    """``(document, arrays)``: a JSON-ready document and the arrays it refers to by position."""
-    enc = _Encoder()
+def encode(value: Any, segment=None) -> tuple[Any, list[np.ndarray]]:
+    """``(document, arrays)``: a JSON-ready document and the arrays it refers to by position.
+
+    ``segment(doc, arrays) -> int``, if given, receives the segments of long sequences and
+    dicts in order (see the module's notes) and returns each one's number: 0, 1, 2, ...
+    """
+    enc = _Encoder(segment)
     try:
         doc = enc.value(value)
     except RecursionError:
@@ -290,8 +336,39 @@ def encode(value: Any) -> tuple[Any, list[np.ndarray]]:
 # --------------------------------------------------------------------------- decode
 
 class _Decoder:
-    def __init__(self, arrays) -> None:
+    def __init__(self, arrays, segments=None) -> None:
         self.arrays = arrays
+        self.segments = segments    # callback(number) -> (doc, arrays), or None
+        self.next_segment = 0
+
+    def _segmented(self, doc: dict, d: int) -> Any:
+        """The items of a ``segs`` reference, read segment by segment in the order written."""
+        kind, ref = doc.get("t"), doc.get("v")
+        if self.segments is None or kind not in ("tuple", "list", "dict") or not (
+                isinstance(ref, list) and len(ref) == 3 and all(type(x) is int for x in ref)):
+            raise CodecError("a malformed or unexpected segment reference")
+        first, count, total = ref
+        if first != self.next_segment or not 0 <= total <= count * SEGMENT_ITEMS \
+                or count != -(-total // SEGMENT_ITEMS):
+            raise CodecError("segments out of order")
+        items: list = []
+        for number in range(first, first + count):
+            sdoc, arrays = self.segments(number)
+            part = _Decoder(arrays).value(sdoc, d)   # segments do not nest
+            if not isinstance(part, list):
+                raise CodecError("a malformed segment")
+            items.extend(part)
+        self.next_segment = first + count
+        if len(items) != total:
+            raise CodecError("a segment of the wrong length")
+        if kind == "dict":
+            out = {}
+            for pair in items:
+                if not isinstance(pair, list) or len(pair) != 2:
+                    raise CodecError("bad dict item")
+                out[pair[0]] = pair[1]
+            return out
+        return tuple(items) if kind == "tuple" else items
 
     def array(self, doc: Any) -> np.ndarray:
         if not isinstance(doc, dict):
@@ -339,6 +416,8 @@ class _Decoder:
             return a[()]
         if tag == "tuple":
             return tuple(self.value(x, d) for x in self._list(doc["v"]))
+        if tag == "segs":
+            return self._segmented(doc, d)
         if tag == "dict":
             out = {}
             for pair in self._list(doc["v"]):
@@ -455,10 +534,14 @@ class _Decoder:
 _TEXT_DTYPES = ("str", "string")
 
 
-def decode(doc: Any, arrays) -> Any:
-    """The value :func:`encode` was given; raises :class:`CodecError` on anything else."""
+def decode(doc: Any, arrays, segments=None) -> Any:
+    """The value :func:`encode` was given; raises :class:`CodecError` on anything else.
+
+    ``segments(number) -> (doc, arrays)`` returns the segments :func:`encode` gave its
+    ``segment`` callback; each is asked for once, in the order written.
+    """
     try:
-        return _Decoder(list(arrays)).value(doc)
+        return _Decoder(list(arrays), segments).value(doc)
     except CodecError:
         raise
     except (KeyError, TypeError, ValueError, AttributeError, RecursionError, ImportError) as err:
