@@ -14,7 +14,9 @@ name in the document:
 * classes added by :func:`allow` (tests, extensions).
 
 Dataclasses are encoded generically from :func:`dataclasses.fields`, so a
-result type that gains a field needs no change here; they are rebuilt without
+result type that gains a field needs no change here (a value's document lists
+its fields' values in order, with a fingerprint of the field names; a document
+whose fingerprint no longer matches its class is refused); they are rebuilt without
 running ``__init__`` or ``__post_init__`` (fields are set directly), so decoding
 runs no code of any class beyond an enum lookup and the constructors of
 ``__reduce__`` classes of relspan's own. Arrays are stored by the caller (see
@@ -40,6 +42,7 @@ from __future__ import annotations
 
 import dataclasses
 import enum
+import hashlib
 import importlib
 import math
 import os
@@ -52,7 +55,7 @@ import numpy as np
 __all__ = ["CodecError", "encode", "decode", "allow", "FORMAT", "SEGMENT_ITEMS"]
 
 #: the document format; part of every cache entry's header
-FORMAT = "relspan-codec/1"
+FORMAT = "relspan-codec/2"
 
 #: nesting deeper than this is refused (a crafted document cannot exhaust the stack)
 MAX_DEPTH = 200
@@ -77,6 +80,7 @@ def allow(cls: type) -> type:
     Usable as a decorator. Only code can extend the list; a document never can.
     """
     _EXTRA[_name_of(cls)] = cls
+    _DC_FOUND.clear()   # a name allowed again may now mean another class
     return cls
 
 
@@ -143,13 +147,19 @@ _FOUND: dict[str, type] = {}
 
 # --------------------------------------------------------------------------- encode
 
-#: per class: ``(name, field names)`` when its values are written as dataclasses ("dc"), False when
-#: they never are (the checks of :meth:`_Encoder.value` made once per class instead of once per
+#: per class: ``(name, field names, their fingerprint)`` when its values are written as dataclasses
+#: ("dc"), False when they never are (the checks of :meth:`_Encoder.value` made once per class instead of once per
 #: value: a window's result holds hundreds of dataclass values)
 _DC_SPECS: dict[type, tuple[str, tuple[str, ...]] | bool] = {}
 
 
-def _dataclass_spec(t: type) -> tuple[str, tuple[str, ...]] | None:
+def _fields_mark(names) -> str:
+    """8 hex digits naming a dataclass's field names in order (a document written before a field
+    was added, removed, renamed or moved no longer matches its class)."""
+    return hashlib.sha256(",".join(names).encode("utf-8")).hexdigest()[:8]
+
+
+def _dataclass_spec(t: type) -> tuple[str, tuple[str, ...], str] | None:
     """What :meth:`_Encoder.value` writes for a dataclass value of class ``t`` (None: not that branch).
 
     Only classes that reach the dataclass branch there qualify: not enums or warnings (their
@@ -164,8 +174,20 @@ def _dataclass_spec(t: type) -> tuple[str, tuple[str, ...]] | None:
         if not dataclasses.is_dataclass(t) or issubclass(t, (enum.Enum, RelspanWarning)):
             spec = _DC_SPECS[t] = False            # never: this class is not a dataclass there
         elif _encodable_class(t):
-            spec = _DC_SPECS[t] = (_name_of(t), tuple(f.name for f in dataclasses.fields(t)))
+            names = tuple(f.name for f in dataclasses.fields(t))
+            spec = _DC_SPECS[t] = (_name_of(t), names, _fields_mark(names))
     return spec or None
+
+
+def _as_itself(x) -> bool:
+    """True when :meth:`_Encoder.value` writes ``x`` as itself (the test it makes first, inlined
+    by the hot loops: a window's result holds hundreds of such values)."""
+    t = type(x)
+    return t is str or t is int or t is bool or x is None or (t is float and math.isfinite(x))
+
+
+#: the types json.loads returns for scalars; a document's scalar is its own value
+_JSON_SCALARS = (str, int, float, bool, type(None))
 
 
 def _plain(items) -> bool:
@@ -206,7 +228,9 @@ class _Encoder:
         if a.dtype.fields is not None or a.dtype.kind not in "biufcmMSU":
             raise CodecError(f"cannot store an array of dtype {a.dtype}")
         self.arrays.append(np.array(a, copy=True, order="C"))
-        return {"$": "array", "i": len(self.arrays) - 1, "ro": not a.flags.writeable}
+        if a.flags.writeable:
+            return {"$": "array", "i": len(self.arrays) - 1}
+        return {"$": "array", "i": len(self.arrays) - 1, "ro": True}
 
     def value(self, v: Any, depth: int = 0) -> Any:
         if depth > MAX_DEPTH:
@@ -230,7 +254,7 @@ class _Encoder:
                 return {"$": "tuple", "v": list(v)} if t is tuple else list(v)
             if self._long(len(v)):
                 return self._segmented(list(v), t.__name__, d)
-            items = [self.value(x, d) for x in v]
+            items = [x if _as_itself(x) else self.value(x, d) for x in v]
             return {"$": "tuple", "v": items} if t is tuple else items
         if t is dict:
             if self._long(len(v)):
@@ -241,7 +265,9 @@ class _Encoder:
                                                                                           repr(x)))]}
         spec = _dataclass_spec(t)
         if spec is not None:
-            return {"$": "dc", "c": spec[0], "f": [[n, self.value(getattr(v, n), d)] for n in spec[1]]}
+            values = [getattr(v, n) for n in spec[1]]
+            return {"$": "dc", "c": spec[0], "h": spec[2],
+                    "v": [x if _as_itself(x) else self.value(x, d) for x in values]}
         if t in (bytes, bytearray):
             return {"$": t.__name__, "a": self.array(np.frombuffer(bytes(v), dtype=np.uint8))}
         if t is complex:
@@ -260,8 +286,9 @@ class _Encoder:
             return {"$": "warning", "c": _name_of(t), "args": self.value(tuple(v.args), d),
                     "attrs": self.value(dict(vars(v)), d)}
         if dataclasses.is_dataclass(v) and not isinstance(v, type) and _encodable_class(t):
-            fields = [[f.name, self.value(getattr(v, f.name), d)] for f in dataclasses.fields(v)]
-            return {"$": "dc", "c": _name_of(t), "f": fields}
+            names = [f.name for f in dataclasses.fields(v)]
+            return {"$": "dc", "c": _name_of(t), "h": _fields_mark(names),
+                    "v": [self.value(getattr(v, n), d) for n in names]}
         if _encodable_class(t) and "__reduce__" in vars(t):
             red = v.__reduce__()
             if isinstance(red, tuple) and len(red) == 2 and red[0] is t and isinstance(red[1], tuple):
@@ -398,10 +425,19 @@ class _Decoder:
         if doc is None or isinstance(doc, (bool, str, int, float)):
             return doc
         if isinstance(doc, list):
-            return [self.value(x, d) for x in doc]
+            return [x if type(x) in _JSON_SCALARS else self.value(x, d) for x in doc]
         if not isinstance(doc, dict) or not isinstance(doc.get("$"), str):
             raise CodecError("not a codec document")
         tag = doc["$"]
+        if tag == "dc":
+            cls, names = self._dataclass(doc.get("c"), doc.get("h"))
+            stored = self._list(doc["v"])
+            if len(stored) != len(names):
+                raise CodecError(f"the fields of {doc['c']} have changed")
+            obj = object.__new__(cls)
+            for name, item in zip(names, stored):
+                object.__setattr__(obj, name, item if type(item) in _JSON_SCALARS else self.value(item, d))
+            return obj
         if tag == "float":
             text = doc["v"]
             if text not in ("nan", "inf", "-inf"):
@@ -415,7 +451,7 @@ class _Decoder:
                 raise CodecError("bad scalar")
             return a[()]
         if tag == "tuple":
-            return tuple(self.value(x, d) for x in self._list(doc["v"]))
+            return tuple([x if type(x) in _JSON_SCALARS else self.value(x, d) for x in self._list(doc["v"])])
         if tag == "segs":
             return self._segmented(doc, d)
         if tag == "dict":
@@ -466,24 +502,27 @@ class _Decoder:
             w.args = args
             vars(w).update(attrs)
             return w
-        if tag == "dc":
-            cls = _lookup(doc["c"])
-            if not dataclasses.is_dataclass(cls):
-                raise CodecError(f"{doc['c']} is not a dataclass")
-            names = [f.name for f in dataclasses.fields(cls)]
-            stored = self._list(doc["f"])
-            if [p[0] if isinstance(p, list) and len(p) == 2 else None for p in stored] != names:
-                raise CodecError(f"the fields of {doc['c']} have changed")
-            obj = object.__new__(cls)
-            for name, item in stored:
-                object.__setattr__(obj, name, self.value(item, d))
-            return obj
         if tag == "obj":
             cls = _lookup(doc["c"])
             if "__reduce__" not in vars(cls) or dataclasses.is_dataclass(cls):
                 raise CodecError(f"{doc['c']} is not rebuilt from arguments")
             return cls(*[self.value(x, d) for x in self._list(doc["args"])])
         raise CodecError(f"unknown tag {tag!r}")
+
+    @staticmethod
+    def _dataclass(name: Any, mark: Any) -> tuple[type, tuple[str, ...]]:
+        """The allowed dataclass ``name`` and its field names, if they are those the document was
+        written with (``mark``); found once per class and fingerprint."""
+        found = _DC_FOUND.get((name, mark))
+        if found is None:
+            cls = _lookup(name)
+            if not dataclasses.is_dataclass(cls):
+                raise CodecError(f"{name} is not a dataclass")
+            names = tuple(f.name for f in dataclasses.fields(cls))
+            if mark != _fields_mark(names):
+                raise CodecError(f"the fields of {name} have changed")
+            found = _DC_FOUND[(name, mark)] = (cls, names)
+        return found
 
     @staticmethod
     def _list(v: Any) -> list:
@@ -528,6 +567,10 @@ class _Decoder:
         frame = pd.DataFrame({j: a for j, a in enumerate(data)}, index=index, copy=False)
         frame.columns = columns
         return frame
+
+
+#: (class name, fields' fingerprint) -> (class, field names), as checked by ``_Decoder._dataclass``
+_DC_FOUND: dict[tuple[str, str], tuple[type, tuple[str, ...]]] = {}
 
 
 #: pandas text dtypes stored as text (``str`` is pandas 3's default, ``string`` the NA-flavoured one)
