@@ -227,7 +227,9 @@ class _Encoder:
                     "items": [self.value(v, 1) for v in a.ravel(order="C").tolist()]}
         if a.dtype.fields is not None or a.dtype.kind not in "biufcmMSU":
             raise CodecError(f"cannot store an array of dtype {a.dtype}")
-        self.arrays.append(np.array(a, copy=True, order="C"))
+        # not copied: the caller writes the arrays out before it changes them (relspan.run.cache
+        # packs or spills them within the same call); a view of another layout becomes C order
+        self.arrays.append(a if a.flags.c_contiguous else np.array(a, order="C"))
         if a.flags.writeable:
             return {"$": "array", "i": len(self.arrays) - 1}
         return {"$": "array", "i": len(self.arrays) - 1, "ro": True}
@@ -348,6 +350,9 @@ class _Encoder:
 
 def encode(value: Any, segment=None) -> tuple[Any, list[np.ndarray]]:
     """``(document, arrays)``: a JSON-ready document and the arrays it refers to by position.
+
+    The arrays are the value's own where they are C-contiguous (not copies): store them before
+    the value changes.
 
     ``segment(doc, arrays) -> int``, if given, receives the segments of long sequences and
     dicts in order (see the module's notes) and returns each one's number: 0, 1, 2, ...
