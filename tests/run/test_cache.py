@@ -578,3 +578,30 @@ class TestSegmentedEntries:
         with pytest.raises(CodecError):
             c.put(KEY, value)
         assert not list(tmp_path.rglob("*.part")) and not c.path_for(KEY).exists()
+
+
+def test_text_is_stored_unescaped_and_a_lone_surrogate_survives(tmp_path):
+    value = {"label": "rows 1\u201310", "odd": "caf\udce9", "many": [f"\u00e9{i}" for i in range(40)]}
+    c = ResultCache(tmp_path)
+    c.put(KEY, value)
+    assert "rows 1\u201310".encode() in c.path_for(KEY).read_bytes()
+    assert c.get(KEY) == value
+
+
+def test_the_collector_is_paused_while_an_entry_is_read_and_restored_after(tmp_path, monkeypatch):
+    import gc
+
+    seen = []
+    real = codec.decode
+    monkeypatch.setattr(codec, "decode", lambda *a, **k: (seen.append(gc.isenabled()), real(*a, **k))[1])
+    c = ResultCache(tmp_path)
+    c.put(KEY, [1, 2])
+    assert gc.isenabled()
+    assert c.get(KEY) == [1, 2]
+    assert seen == [False] and gc.isenabled()
+    gc.disable()
+    try:
+        c.get(KEY)
+        assert not gc.isenabled()          # left as it was found
+    finally:
+        gc.enable()

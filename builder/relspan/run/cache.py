@@ -31,7 +31,9 @@ entries not used for :data:`PRUNE_AFTER_DAYS` days and stale temporary files.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
+import gc
 import hashlib
 import json
 import math
@@ -697,6 +699,30 @@ def _unpack(where: Any, packs: list[np.ndarray]) -> list[np.ndarray]:
     return out
 
 
+def _json_bytes(doc: Any) -> bytes:
+    """An entry's JSON as UTF-8 (text left unescaped: ``json.loads`` reads it in about half the
+    time of ``\\u`` escapes; a lone surrogate from a file's text is kept by ``surrogatepass``)."""
+    return json.dumps(doc, sort_keys=True, separators=(",", ":"), allow_nan=False,
+                      ensure_ascii=False).encode("utf-8", "surrogatepass")
+
+
+@contextlib.contextmanager
+def _no_collections():
+    """The cyclic garbage collector paused while an entry is written or read.
+
+    Both build trees of new objects (documents, results) that hold no reference cycles; the
+    collector's full passes over the growing result took about half of reading a 2,000-window
+    entry (docs/performance.md, section 11). It is re-enabled as it was found.
+    """
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was:
+            gc.enable()
+
+
 class _SegmentSpill:
     """The segments of one entry as they are encoded: their JSON texts and their arrays, by dtype.
 
@@ -735,8 +761,7 @@ class _SegmentSpill:
             self.sizes[j] += a.size
         for j, parts in pieces.items():   # one write per pack and segment (a spooled write costs ~5 us)
             self.packs[j].write(b"".join(parts))
-        raw = json.dumps({"a": places, "v": doc}, sort_keys=True, separators=(",", ":"),
-                         allow_nan=False).encode("utf-8")
+        raw = _json_bytes({"a": places, "v": doc})
         self.text.write(raw)
         self.lengths.append(len(raw))
         return len(self.lengths) - 1
@@ -758,6 +783,7 @@ class _SegmentSpill:
             f.close()
 
 
+@_no_collections()
 def _write_entry(fh, value: Any, key: str, env_id: str, spill_dir: Path | None = None) -> None:
     """Write ``value`` as the entry ``key`` into the open binary file ``fh``.
 
@@ -777,7 +803,7 @@ def _write_entry(fh, value: Any, key: str, env_id: str, spill_dir: Path | None =
         header = {"format": ENTRY_FORMAT, "key": key, "environment": env_id, "arrays": where,
                   "packs": len(packs), "segments": spill.lengths, "segment_packs": len(spill.codes),
                   "value": doc}
-        raw = json.dumps(header, sort_keys=True, separators=(",", ":"), allow_nan=False).encode("utf-8")
+        raw = _json_bytes(header)
         del header, doc, where
         # stored, not compressed: no member can expand beyond the file
         with zipfile.ZipFile(fh, "w", zipfile.ZIP_STORED, allowZip64=True) as zf:
@@ -850,7 +876,7 @@ class _SegmentReader:
         raw = self.text.read(n)
         if len(raw) != n:
             raise codec.CodecError("a truncated segment")
-        seg = json.loads(raw.decode("utf-8"))
+        seg = json.loads(raw.decode("utf-8", "surrogatepass"))
         if not (isinstance(seg, dict) and isinstance(seg.get("a"), list) and "v" in seg):
             raise codec.CodecError("a malformed segment")
         places = seg["a"]
@@ -887,6 +913,7 @@ class _SegmentReader:
             fh.close()
 
 
+@_no_collections()
 def _decode(source, key: str, env_id: str) -> Any:
     """The value stored in ``source`` (the entry's bytes or its open file); CodecError for
     anything that is not our own entry."""
@@ -913,7 +940,7 @@ def _decode(source, key: str, env_id: str) -> Any:
                 raw = np.lib.format.read_array(fh, allow_pickle=False)
             if raw.dtype != np.uint8 or raw.ndim != 1:
                 raise codec.CodecError("a malformed header")
-            header = json.loads(raw.tobytes().decode("utf-8"))
+            header = json.loads(raw.tobytes().decode("utf-8", "surrogatepass"))
             del raw
             if not isinstance(header, dict) or header.get("format") != ENTRY_FORMAT:
                 raise codec.CodecError("another entry format")
