@@ -13,8 +13,8 @@ Entries are data, never pickles: a result is encoded by
 an allow-list) plus plain numpy arrays, and stored as one uncompressed ``.npz``
 file read back with ``allow_pickle=False``. Long sequences (a plan's windows)
 are written and read back segment by segment (:func:`_write_entry`,
-:func:`_decode`), so neither side ever holds a whole result as one document. Nothing in a cache folder can run
-code, whatever its content; an entry that is missing, truncated, forged or
+:func:`_decode`), so neither side ever holds a whole result as one document.
+Nothing in a cache folder can run code, whatever its content; an entry that is missing, truncated, forged or
 names a class outside the allow-list is a miss (with a one-line note), never
 an error.
 
