@@ -291,14 +291,18 @@ def test_plain_sequences_are_written_as_the_item_by_item_walk_writes_them():
     from relspan.run import codec
 
     value = {"t": (1, 2.5, "x", -0.0), "l": [1.0, 3], "mixed": (1.0, float("nan"), True, np.float64(2.0), None),
-             "nested": [(1.0, 2.0), [float("inf")]], "bools": [True, False]}
+             "nested": [(1.0, 2.0), [float("inf")]], "bools": [True, False],
+             "dc": Inner(2, np.zeros(1)), "long": [1.5] * 40 + [None]}
     fast = codec.encode(value)
-    orig = codec._plain
+    orig = codec._as_itself
     try:
-        codec._plain = lambda items: False
+        codec._as_itself = lambda x: False         # every item through _Encoder.value
         slow = codec.encode(value)
     finally:
-        codec._plain = orig
+        codec._as_itself = orig
     assert json.dumps(fast[0]) == json.dumps(slow[0]) and len(fast[1]) == len(slow[1])
+    segs = []
+    seg_doc = codec.encode(value, segment=lambda doc, arrays: segs.append(doc) or len(segs) - 1)[0]
+    assert not segs and json.dumps(seg_doc) == json.dumps(fast[0])   # plain long lists stay inline
     back = codec.decode(*fast)
     assert back["t"] == (1, 2.5, "x", -0.0) and type(back["mixed"][2]) is bool and np.isnan(back["mixed"][1])

@@ -191,8 +191,9 @@ _JSON_SCALARS = (str, int, float, bool, type(None))
 
 
 def _plain(items) -> bool:
-    """True when every item is written as itself: a str, an int or a finite float (not a bool)."""
-    return all(type(x) is str or type(x) is int or (type(x) is float and math.isfinite(x)) for x in items)
+    """True when every item is written as itself (:func:`_as_itself`): such a sequence is kept
+    inline however long it is (its JSON is compact, and it is never split into segments)."""
+    return all(map(_as_itself, items))
 
 
 class _Encoder:
@@ -238,9 +239,11 @@ class _Encoder:
         if depth > MAX_DEPTH:
             raise CodecError("value nested too deeply")
         d = depth + 1
+        t = type(v)
+        if t is np.ndarray:                 # the commonest non-scalar, first
+            return self.array(v)
         if v is None or isinstance(v, (bool, str)):
             return v
-        t = type(v)
         if t is int:
             return v
         if t is float:
@@ -252,9 +255,7 @@ class _Encoder:
         if isinstance(v, np.generic):
             return {"$": "scalar", "a": self.array(np.asarray(v))}
         if t is tuple or t is list:
-            if _plain(v):
-                return {"$": "tuple", "v": list(v)} if t is tuple else list(v)
-            if self._long(len(v)):
+            if self._long(len(v)) and not _plain(v):   # long plain sequences stay inline
                 return self._segmented(list(v), t.__name__, d)
             items = [x if _as_itself(x) else self.value(x, d) for x in v]
             return {"$": "tuple", "v": items} if t is tuple else items
