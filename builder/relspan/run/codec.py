@@ -31,11 +31,11 @@ text, NaN and infinities tagged), dict order is kept, tuples stay tuples.
 every long sequence or dict (more than :data:`SEGMENT_ITEMS` items, outside
 another segment) as *segments* of :data:`SEGMENT_ITEMS` items: each segment's
 document and arrays go to the callback as soon as they exist, and the
-enclosing document keeps only a ``segs`` reference. A result of 20,000
-windows is then never one document in memory (as Python lists and dicts it
-took about 1.3 GB; docs/performance.md). :func:`decode` asks a ``segments``
-callback for them in the same order. Without the callbacks the documents are
-those of earlier versions.
+enclosing document keeps only a ``segs`` reference. A result of many windows
+is then never one document in memory (as Python lists and dicts the document
+of 2,000 windows took 150 MB, measured with tracemalloc; docs/performance.md,
+section 11). :func:`decode` asks a ``segments`` callback for them in the same
+order. Without the callbacks nothing is split.
 """
 
 from __future__ import annotations
@@ -61,8 +61,8 @@ FORMAT = "relspan-codec/2"
 MAX_DEPTH = 200
 
 #: items per segment, and the length above which a sequence or dict is written as segments
-#: (when :func:`encode` is given a ``segment`` callback): a window's result is about 75 kB as a
-#: document, so a segment of 16 windows holds about 1.2 MB
+#: (when :func:`encode` is given a ``segment`` callback): a window's result is about 10 kB of
+#: JSON text, so a segment of 16 windows is about 160 kB
 SEGMENT_ITEMS = 16
 
 
