@@ -22,6 +22,8 @@ from relspan.run import codec
 from relspan.run.cache import ENTRY_FORMAT, ResultCache, canonical_json, task_key
 from relspan.run.codec import CodecError
 
+from .test_codec import same_doc
+
 KEY = task_key(task="demo", n=1)
 
 
@@ -453,15 +455,6 @@ def _long_value(n: int = 100):
             "full": Result(2, np.array([0.5, 1.25]))}
 
 
-def _same(a, b) -> bool:
-    """Bit-for-bit equal documents and arrays (the codec's own strictest equality)."""
-    da, aa = codec.encode(a)
-    db, ab = codec.encode(b)
-    return (json.dumps(da, sort_keys=True) == json.dumps(db, sort_keys=True) and len(aa) == len(ab)
-            and all(x.dtype == y.dtype and x.shape == y.shape and x.tobytes() == y.tobytes()
-                    for x, y in zip(aa, ab)))
-
-
 def _members(path: Path) -> dict:
     with np.load(path, allow_pickle=False) as npz:
         return {k: npz[k] for k in npz.files}
@@ -490,7 +483,7 @@ class TestSegmentedEntries:
         got = c.get(KEY)
         assert type(got["windows"]) is tuple and type(got["nested"]) is list
         assert list(got["by_id"]) == list(value["by_id"])
-        assert _same(got, value)
+        assert same_doc(got, value)
         got["windows"][1].angles[0, 0] = 7.0       # arrays own their memory
         assert got["windows"][2].angles.size == 0 or got["windows"][2].angles[0, 0] != 7.0
 
@@ -569,7 +562,7 @@ class TestSegmentedEntries:
         c = ResultCache(tmp_path)
         value = _long_value()
         assert c.put(KEY, value)
-        assert _same(c.get(KEY), value)
+        assert same_doc(c.get(KEY), value)
         assert sorted(p.name for p in c.path_for(KEY).parent.iterdir()) == [f"{KEY}.npz"]
 
     def test_a_value_refused_halfway_leaves_no_file(self, tmp_path):
