@@ -167,17 +167,30 @@ class TestAllowList:
             codec.decode(doc, [])
 
 
-def test_a_whole_demo_analysis_round_trips_exactly():
-    """Every result type of a real run (plans, windows, findings, warnings, pandas overview)."""
+def test_a_whole_demo_analysis_round_trips_exactly(tmp_path, monkeypatch):
+    """Every result type of a real run (plans, windows, findings, warnings, pandas overview),
+    through the codec alone and through a cache entry written in segments: the demo's plans
+    have at most 14 windows, so segments of 2 items make every longer sequence a segmented one."""
+    from relspan.run.cache import ResultCache, task_key
     from relspan.run.pipeline import run_analysis
     from relspan.spec import load_spec
 
     run = run_analysis(load_spec(REPO / "specs" / "demo.yaml"), jobs=1, use_cache=False, progress=False)
+    cache = ResultCache(tmp_path)
+    monkeypatch.setattr(codec, "SEGMENT_ITEMS", 2)
     for ds in run.datasets:
         back = round_trip((ds, run.warnings))
         assert type(back[0]) is type(ds)
         assert same_doc(back, (ds, run.warnings))
         assert back[0].prepared.overview.values.equals(ds.prepared.overview.values)
+        key = task_key(dataset=ds.spec.id)
+        cache.put(key, (ds, run.warnings))
+        with np.load(cache.path_for(key), allow_pickle=False) as npz:
+            assert len(json.loads(npz["header"].tobytes())["segments"]) > 10
+        cached = cache.get(key)
+        assert same_doc(cached, (ds, run.warnings))
+        assert cached[0].prepared.overview.values.equals(ds.prepared.overview.values)
+    assert cache.stats.hits == len(run.datasets) and cache.stats.corrupt == 0
 
 
 @pytest.fixture
