@@ -20,9 +20,18 @@ def jsonable(x: Any) -> Any:
     """Plain Python (lists, floats, ints, str, None) for JSON; NaN and infinities become None.
 
     Nested results (anything with a ``to_dict`` method) become their
-    ``to_dict()``; other values pass through unchanged.
+    ``to_dict()``; other values pass through unchanged. Arrays of booleans,
+    integers and floats are converted by one ``tolist`` (element by element
+    only where a float is not finite), which gives the same values.
     """
+    t = type(x)
+    if t is float:
+        return x if math.isfinite(x) else None
+    if t is str or t is int or t is bool or x is None:
+        return x
     if isinstance(x, np.ndarray):
+        if x.dtype.kind in "biu" or (x.dtype.kind == "f" and bool(np.isfinite(x).all())):
+            return x.tolist()  # plain bools, ints or finite floats (a 0-d array: one of them)
         return [jsonable(v) for v in x.tolist()] if x.ndim else jsonable(x.item())
     if isinstance(x, (list, tuple)):
         return [jsonable(v) for v in x]
