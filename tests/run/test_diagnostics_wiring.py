@@ -202,6 +202,37 @@ class TestInfluence:
         on_plane = np.abs(x[:, 2] - x[:, 0] - x[:, 1]) < 1e-12
         assert np.all(on_plane[fit.support])
 
+    @pytest.mark.parametrize("case", ["plain", "exact fits", "ties and singular starts", "many rows, chunked"])
+    def test_stacked_random_starts_give_the_one_by_one_trials_bit_for_bit(self, case, monkeypatch):
+        # the starts computed together must be those computed start by start (the same draws, the same
+        # subsets, the same log determinants to the bit), also where some starts are exact fits and
+        # where a singular start makes the draws redo one by one (invented rows)
+        from relspan.analysis import influence
+
+        rng = np.random.default_rng({"plain": 1, "exact fits": 2, "ties and singular starts": 3}.get(case, 4))
+        t, n = (260, 4) if case != "many rows, chunked" else (900, 6)
+        x = rng.standard_normal((t, n)) @ rng.standard_normal((n, n))
+        if case == "exact fits":
+            x[: 2 * t // 3, 1:] = x[: 2 * t // 3, :1]  # two thirds of the rows on a line
+        elif case == "ties and singular starts":
+            x = np.round(x / 2.0)  # few distinct values: some (n + 1)-row starts are singular
+        elif case == "many rows, chunked":
+            monkeypatch.setattr(influence, "_STACK_VALUES", 5 * n * t)  # five starts at a time
+        h = (t + n + 1) // 2
+        if case == "ties and singular starts":
+            drawn = np.random.default_rng(5)
+            starts = np.array([drawn.choice(t, size=n + 1, replace=False) for _ in range(200)])
+            assert np.any(np.linalg.matrix_rank(influence._mean_cov_many(x[starts])[1]) < n)
+        g_stacked, g_alone = np.random.default_rng(5), np.random.default_rng(5)
+        stacked = influence._random_starts(x, h, 200, g_stacked)
+        alone = influence._random_starts_one_by_one(x, h, 200, g_alone)
+        assert g_stacked.bit_generator.state == g_alone.bit_generator.state  # the nested search draws on
+        assert len(stacked) == len(alone) > 0
+        for (ld_a, sub_a), (ld_b, sub_b) in zip(stacked, alone):
+            assert ld_a == ld_b and np.array_equal(sub_a, sub_b)
+        if case == "exact fits":
+            assert any(ld == -np.inf for ld, _ in stacked)
+
     def test_one_gross_outlier_in_300_rows_is_named_as_deciding_the_count(self):
         from relspan.api import analyse_frame
 

@@ -137,7 +137,39 @@ def _c_steps(x: np.ndarray, idx: np.ndarray, h: int, steps: int) -> tuple[float,
 
 def _random_starts(x: np.ndarray, h: int, starts: int, rng: np.random.Generator) -> list:
     """FAST-MCD's first stage on rows ``x``: random ``(n + 1)``-row starts, each widened to the ``h``
-    nearest rows and given two concentration steps; returns the trials ``(log det, subset)``."""
+    nearest rows and given two concentration steps; returns the trials ``(log det, subset)``.
+
+    The starts are drawn as :func:`_random_starts_one_by_one` draws them and computed together
+    (stacked means, covariances, factorisations and distances, :data:`_STACK_VALUES` values at a
+    time); each start's arithmetic is that of computing it alone, so the trials are the same
+    (tests compare them bit for bit). Where a drawn start is singular, the paper's rule draws
+    more rows for it, which changes every later draw: then the starts are redrawn one by one.
+    """
+    t, n = x.shape
+    starts = int(starts)
+    if starts <= 0:
+        return []
+    state = rng.bit_generator.state
+    idx = np.array([rng.choice(t, size=n + 1, replace=False) for _ in range(starts)])
+    m, c = _mean_cov_many(x[idx])
+    if bool(np.any(np.linalg.matrix_rank(c) < n)):
+        rng.bit_generator.state = state
+        return _random_starts_one_by_one(x, h, starts, rng)
+    trials: list = []
+    per = max(1, _STACK_VALUES // max(1, n * t))
+    for lo in range(0, starts, per):
+        sl = slice(lo, lo + per)
+        d = _sq_dist_many(x, m[sl], c[sl] + 1e-300 * np.eye(n))
+        ok = [i for i, di in enumerate(d) if di is not None]
+        if not ok:
+            continue
+        sub = np.sort(np.argpartition(np.array([d[i] for i in ok]), h - 1, axis=1)[:, :h], axis=1)
+        trials += _c_steps_many(x, sub, h, 2)
+    return trials
+
+
+def _random_starts_one_by_one(x: np.ndarray, h: int, starts: int, rng: np.random.Generator) -> list:
+    """:func:`_random_starts` start by start, drawing more rows for a singular start (the paper's rule)."""
     t, n = x.shape
     trials = []
     for _ in range(int(starts)):
@@ -154,6 +186,72 @@ def _random_starts(x: np.ndarray, h: int, starts: int, rng: np.random.Generator)
         sub = np.sort(np.argpartition(d, h - 1)[:h])
         trials.append(_c_steps(x, sub, h, 2))
     return trials
+
+
+#: most values (starts x rows x variables) of distances computed at once by the stacked starts
+_STACK_VALUES = 1 << 21
+
+
+def _mean_cov_many(xs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`_mean_cov` of each ``xs[b]`` (``(B, k, n)``), stacked."""
+    m = xs.mean(axis=1)
+    d = xs - m[:, None, :]
+    return m, (np.swapaxes(d, 1, 2) @ d) / xs.shape[1]
+
+
+def _sq_dist_many(x: np.ndarray, m: np.ndarray, c: np.ndarray) -> list:
+    """:func:`_sq_dist` of the rows ``x`` for each mean ``m[b]`` and covariance ``c[b]`` (None where
+    ``c[b]`` has no Cholesky factor)."""
+    try:
+        chol = np.linalg.cholesky(c)
+    except np.linalg.LinAlgError:  # some covariance is not positive definite: each on its own
+        return [_sq_dist(x, m[b], c[b]) for b in range(m.shape[0])]
+    z = np.linalg.solve(chol, np.swapaxes(x[None] - m[:, None, :], 1, 2))
+    return list(np.sum(z * z, axis=1))
+
+
+def _c_steps_many(x: np.ndarray, idx: np.ndarray, h: int, steps: int) -> list:
+    """:func:`_c_steps` from each subset ``idx[b]`` (``(B, h)``), stacked; returns the trials in order."""
+    out: list = [None] * idx.shape[0]
+    logdet = np.full(idx.shape[0], np.inf)
+    idx = idx.copy()
+    act = np.arange(idx.shape[0])
+    for _ in range(steps):
+        if not act.size:
+            break
+        m, c = _mean_cov_many(x[idx[act]])
+        sign, ld = np.linalg.slogdet(c)
+        keep = []
+        for j in np.flatnonzero(sign <= 0):  # an exact fit: h rows on a hyperplane (determinant 0)
+            out[act[j]] = (-np.inf, idx[act[j]])
+        good = np.flatnonzero(sign > 0)
+        d = _sq_dist_many(x, m[good], c[good]) if good.size else []
+        rows = []
+        for j, dj in zip(good, d):
+            if dj is None:
+                out[act[j]] = (-np.inf, idx[act[j]])
+            else:
+                keep.append(j)
+                rows.append(dj)
+        if not keep:
+            act = act[:0]
+            break
+        keep = np.array(keep)
+        new = np.sort(np.argpartition(np.array(rows), h - 1, axis=1)[:, :h], axis=1)
+        b = act[keep]
+        done = (ld[keep] >= logdet[b] - 1e-12) & np.all(new == idx[b], axis=1)
+        for j in np.flatnonzero(done):
+            out[b[j]] = (ld[keep[j]], idx[b[j]])
+        moving = ~done
+        logdet[b[moving]] = ld[keep[moving]]
+        idx[b[moving]] = new[moving]
+        act = b[moving]
+    if act.size:
+        _, c = _mean_cov_many(x[idx[act]])
+        sign, ld = np.linalg.slogdet(c)
+        for j, b in enumerate(act):
+            out[b] = ((ld[j] if sign[j] > 0 else -np.inf), idx[b])
+    return out
 
 
 def _best(trials: list, keep: int) -> list:
