@@ -67,7 +67,8 @@ from relspan.analysis.resample import (DEFAULT_LEVEL, DEFAULT_RESAMPLES, Covaria
 
 __all__ = ["ResamplingOptions", "CoefficientInterval", "CoefficientIntervals", "OuterSet", "WindowInference",
            "window_inference", "resampling_options", "equal_noise_corank_rule", "equal_noise_corank_stack",
-           "imbens_manski_outer", "imbens_manski_critical", "diagonal_corank_of", "diagonal_coranks_of", "DEFAULT_DIAGONAL_RESAMPLES",
+           "imbens_manski_outer", "imbens_manski_critical", "diagonal_corank_of", "diagonal_coranks_of",
+           "DEFAULT_DIAGONAL_RESAMPLES",
            "EQUAL_RULE", "FULL_SAMPLE_PLAN", "DIAGONAL_PLAN_KINDS",
            "DIAGONAL_SCOPE_RULE", "diagonal_scope", "MANY_WINDOWS", "MANY_WINDOWS_RESAMPLES",
            "MANY_WINDOWS_RULE", "eigenvalue_gradient", "eigenvalue_intervals", "SE_RESOLUTION"]
