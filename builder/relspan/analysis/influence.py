@@ -221,12 +221,11 @@ def _c_steps_many(x: np.ndarray, idx: np.ndarray, h: int, steps: int) -> list:
             break
         m, c = _mean_cov_many(x[idx[act]])
         sign, ld = np.linalg.slogdet(c)
-        keep = []
         for j in np.flatnonzero(sign <= 0):  # an exact fit: h rows on a hyperplane (determinant 0)
             out[act[j]] = (-np.inf, idx[act[j]])
         good = np.flatnonzero(sign > 0)
         d = _sq_dist_many(x, m[good], c[good]) if good.size else []
-        rows = []
+        keep, rows = [], []
         for j, dj in zip(good, d):
             if dj is None:
                 out[act[j]] = (-np.inf, idx[act[j]])
