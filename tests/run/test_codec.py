@@ -260,33 +260,48 @@ def test_planted_pickle_and_forged_entry_in_a_sent_project_run_nothing(project, 
     assert not list(cache.rglob("*.pkl")), "the build prunes the old-format files"
 
 
+def _forget_classes(codec) -> None:
+    """Empty the encoder's per-class memories (the next values take the full checks)."""
+    codec._DC_SPECS.clear()
+    codec._FAST_DC.clear()
+    codec._FAST_OBJ.clear()
+
+
 def test_the_per_class_shortcut_writes_the_documents_of_the_checks_it_replaces():
-    # the encoder remembers, per class, that its values are written as dataclasses; the documents
-    # must be those of the full checks, and a dataclass allowed only later must be found then
+    # the encoder remembers, per class, that its values are written as dataclasses (or rebuilt from
+    # their __reduce__ arguments); the documents must be those of the full checks, and a dataclass
+    # allowed only later must be found then
     import dataclasses as dc
     import json
 
-    from relspan.analysis.inference import CoefficientInterval
+    from relspan.analysis.inference import CoefficientInterval, CoefficientIntervals
     from relspan.analysis.intervals import Interval
     from relspan.run import codec
 
+    packed = CoefficientIntervals.from_rows(("x", "y"), [(0, 1)], [(1.5, 0.5, 2.5, 0.9, "percentile", 99)],
+                                            0.9, "percentile")
     value = {"a": (CoefficientInterval("x", "y", Interval(1.0, 0.5, float("nan"), 0.9, "percentile", 99)),),
-             "b": [Interval(2.0, 1.0, 3.0, 0.8, "basic", 10)]}
-    codec._DC_SPECS.clear()
+             "b": [Interval(2.0, 1.0, 3.0, 0.8, "basic", 10)], 3.5: packed, b"k": (packed, b"\x00\x01")}
+    _forget_classes(codec)
     first = json.dumps(codec.encode(value)[0])
     assert Interval in codec._DC_SPECS and codec._DC_SPECS[Interval][1] == tuple(
         f.name for f in dc.fields(Interval))
+    assert Interval in codec._FAST_DC and CoefficientIntervals in codec._FAST_OBJ
     assert json.dumps(codec.encode(value)[0]) == first          # from the remembered classes
-    codec._DC_SPECS.clear()
+    back = codec.decode(*codec.encode(value))
+    assert json.dumps(codec.encode(back)[0]) == first
+    assert back["a"][0].interval.high != back["a"][0].interval.high    # NaN kept
+    _forget_classes(codec)
     codec._DC_SPECS.update({Interval: False, CoefficientInterval: False})   # never remembered: full checks
     slow = codec._Encoder()
     orig = codec._dataclass_spec
     try:
         codec._dataclass_spec = lambda t: None
         assert json.dumps(slow.value(value)) == first
+        assert not codec._FAST_DC
     finally:
         codec._dataclass_spec = orig
-        codec._DC_SPECS.clear()
+        _forget_classes(codec)
 
     @dc.dataclass
     class Later:
@@ -319,3 +334,51 @@ def test_plain_sequences_are_written_as_the_item_by_item_walk_writes_them():
     assert not segs and json.dumps(seg_doc) == json.dumps(fast[0])   # plain long lists stay inline
     back = codec.decode(*fast)
     assert back["t"] == (1, 2.5, "x", -0.0) and type(back["mixed"][2]) is bool and np.isnan(back["mixed"][1])
+
+
+class _Stored:
+    """A data descriptor used as a dataclass field: the value lives under another name."""
+
+    def __set_name__(self, owner, name):
+        self.name = "_" + name
+
+    def __get__(self, obj, typ=None):
+        return 0.0 if obj is None else getattr(obj, self.name)
+
+    def __set__(self, obj, value):
+        object.__setattr__(obj, self.name, float(value))
+
+
+def test_decoded_dataclasses_get_their_fields_as_a_field_by_field_assignment_would():
+    # the decoder fills an instance's __dict__ in one update where that is what assigning each field
+    # would do; slots and data descriptors under a field's name keep the assignment
+    import dataclasses as dc
+
+    from relspan.run import codec
+
+    @dc.dataclass(frozen=True)
+    class Plain:
+        a: float
+        b: tuple
+
+    @dc.dataclass(frozen=True, slots=True)
+    class Slotted:
+        a: float
+        b: tuple
+
+    @dc.dataclass
+    class Described:
+        a: _Stored = _Stored()
+        b: int = 0
+
+    for cls in (Plain, Slotted, Described):
+        codec.allow(cls)
+    assert codec._fields_in_dict(Plain, ("a", "b"))
+    assert not codec._fields_in_dict(Slotted, ("a", "b"))
+    assert not codec._fields_in_dict(Described, ("a", "b"))
+    for value in (Plain(1.5, (2, "x")), Slotted(1.5, (2, "x")), Described(3, 4)):
+        back = codec.decode(*codec.encode([value, value]))
+        assert back == [value, value] and type(back[0]) is type(value)
+        if hasattr(value, "__dict__"):
+            assert vars(back[0]) == vars(value) and list(vars(back[0])) == list(vars(value))
+    assert codec.decode(*codec.encode(Described(3, 4))).a == 3.0

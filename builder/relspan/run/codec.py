@@ -45,8 +45,10 @@ import enum
 import hashlib
 import importlib
 import math
+import operator
 import os
 import pkgutil
+from math import isfinite
 from pathlib import PurePath, PurePosixPath, PureWindowsPath
 from typing import Any
 
@@ -179,6 +181,38 @@ def _dataclass_spec(t: type) -> tuple[str, tuple[str, ...], str] | None:
     return spec or None
 
 
+#: the exact types :meth:`_Encoder.value` writes as themselves without a test of the value (a float
+#: also needs to be finite)
+_SELF_TYPES = frozenset({str, int, bool, type(None)})
+
+#: per dataclass: ``(name, fingerprint, field values getter)``, recorded the first time one of its values
+#: reaches the dataclass branch of :meth:`_Encoder.value` (every test before it depends on the type
+#: alone, so each later value of the class goes straight there)
+_FAST_DC: dict[type, tuple] = {}
+
+#: dtypes of arrays already found plain (written by reference; not object, structured or void)
+_PLAIN_DTYPES: set = set()
+
+
+#: per class rebuilt from its ``__reduce__`` arguments: its name, recorded as for :data:`_FAST_DC`
+_FAST_OBJ: dict[type, str] = {}
+
+
+def _cannot_store(t: type) -> CodecError:
+    return CodecError(f"cannot store a value of type {t.__module__}.{t.__qualname__} in the "
+                      "result cache; teach relspan.run.codec about it")
+
+
+def _field_getter(names: tuple[str, ...]):
+    """A function giving the values of fields ``names`` of an object, as a tuple (one C call)."""
+    if not names:
+        return lambda v: ()
+    if len(names) == 1:
+        name = names[0]
+        return lambda v: (getattr(v, name),)
+    return operator.attrgetter(*names)
+
+
 def _as_itself(x) -> bool:
     """True when :meth:`_Encoder.value` writes ``x`` as itself (the test it makes first, inlined
     by the hot loops: a window's result holds hundreds of such values)."""
@@ -187,7 +221,7 @@ def _as_itself(x) -> bool:
 
 
 #: the types json.loads returns for scalars; a document's scalar is its own value
-_JSON_SCALARS = (str, int, float, bool, type(None))
+_JSON_SCALARS = frozenset({str, int, float, bool, type(None)})
 
 
 def _plain(items) -> bool:
@@ -223,33 +257,49 @@ class _Encoder:
         return self.segment is not None and not self.inside and n > SEGMENT_ITEMS
 
     def array(self, a: np.ndarray) -> dict:
-        if a.dtype.hasobject:
-            return {"$": "objarray", "shape": list(a.shape),
-                    "items": [self.value(v, 1) for v in a.ravel(order="C").tolist()]}
-        if a.dtype.fields is not None or a.dtype.kind not in "biufcmMSU":
-            raise CodecError(f"cannot store an array of dtype {a.dtype}")
+        dt = a.dtype
+        if dt not in _PLAIN_DTYPES:
+            if dt.hasobject:
+                return {"$": "objarray", "shape": list(a.shape),
+                        "items": [self.value(v, 1) for v in a.ravel(order="C").tolist()]}
+            if dt.fields is not None or dt.kind not in "biufcmMSU":
+                raise CodecError(f"cannot store an array of dtype {dt}")
+            _PLAIN_DTYPES.add(dt)
         # not copied: the caller writes the arrays out before it changes them (relspan.run.cache
         # packs or spills them within the same call); a view of another layout becomes C order
-        self.arrays.append(a if a.flags.c_contiguous else np.array(a, order="C"))
-        if a.flags.writeable:
-            return {"$": "array", "i": len(self.arrays) - 1}
-        return {"$": "array", "i": len(self.arrays) - 1, "ro": True}
+        flags = a.flags
+        arrays = self.arrays
+        arrays.append(a if flags.c_contiguous else np.array(a, order="C"))
+        if flags.writeable:
+            return {"$": "array", "i": len(arrays) - 1}
+        return {"$": "array", "i": len(arrays) - 1, "ro": True}
 
     def value(self, v: Any, depth: int = 0) -> Any:
         if depth > MAX_DEPTH:
             raise CodecError("value nested too deeply")
-        d = depth + 1
         t = type(v)
         if t is np.ndarray:                 # the commonest non-scalar, first
             return self.array(v)
-        if v is None or isinstance(v, (bool, str)):
+        if t in _SELF_TYPES:                # str, int, bool, None (exact types: subclasses go below)
             return v
-        if t is int:
-            return v
+        d = depth + 1
+        fast = _FAST_DC.get(t)
+        if fast is not None:                # a dataclass already seen to reach its branch below
+            name, mark, get = fast
+            return {"$": "dc", "c": name, "h": mark,
+                    "v": [x if (tx := type(x)) in _SELF_TYPES or (tx is float and isfinite(x))
+                          else self.value(x, d) for x in get(v)]}
+        if t is bytes:
+            return {"$": "bytes", "a": self.array(np.frombuffer(v, dtype=np.uint8))}
+        obj_name = _FAST_OBJ.get(t)
+        if obj_name is not None:            # a class already seen to reach the last branch below
+            return self._reduced(v, t, obj_name, d)
         if t is float:
-            if math.isfinite(v):
+            if isfinite(v):
                 return v
             return {"$": "float", "v": repr(v)}
+        if v is None or isinstance(v, (bool, str)):
+            return v
         if isinstance(v, np.ndarray):
             return self.array(v)
         if isinstance(v, np.generic):
@@ -257,17 +307,24 @@ class _Encoder:
         if t is tuple or t is list:
             if self._long(len(v)) and not _plain(v):   # long plain sequences stay inline
                 return self._segmented(list(v), t.__name__, d)
-            items = [x if _as_itself(x) else self.value(x, d) for x in v]
+            items = [x if (tx := type(x)) in _SELF_TYPES or (tx is float and isfinite(x))
+                     else self.value(x, d) for x in v]
             return {"$": "tuple", "v": items} if t is tuple else items
         if t is dict:
             if self._long(len(v)):
                 return self._segmented(list(v.items()), "dict", d)
-            return {"$": "dict", "v": [[self.value(k, d), self.value(x, d)] for k, x in v.items()]}
+            return {"$": "dict", "v": [[k if (tk := type(k)) in _SELF_TYPES or (tk is float and isfinite(k))
+                                        else self.value(k, d),
+                                        x if (tx := type(x)) in _SELF_TYPES or (tx is float and isfinite(x))
+                                        else self.value(x, d)] for k, x in v.items()]}
         if t in (set, frozenset):  # in a fixed order: a set's iteration order follows the string hash seed
             return {"$": t.__name__, "v": [self.value(x, d) for x in sorted(v, key=lambda x: (type(x).__name__,
                                                                                           repr(x)))]}
         spec = _dataclass_spec(t)
         if spec is not None:
+            # every test above depends on the type alone, so values of this class always come here:
+            # the next ones take the fast path at the top
+            _FAST_DC[t] = (spec[0], spec[2], _field_getter(spec[1]))
             values = [getattr(v, n) for n in spec[1]]
             return {"$": "dc", "c": spec[0], "h": spec[2],
                     "v": [x if _as_itself(x) else self.value(x, d) for x in values]}
@@ -293,11 +350,18 @@ class _Encoder:
             return {"$": "dc", "c": _name_of(t), "h": _fields_mark(names),
                     "v": [self.value(getattr(v, n), d) for n in names]}
         if _encodable_class(t) and "__reduce__" in vars(t):
-            red = v.__reduce__()
-            if isinstance(red, tuple) and len(red) == 2 and red[0] is t and isinstance(red[1], tuple):
-                return {"$": "obj", "c": _name_of(t), "args": [self.value(x, d) for x in red[1]]}
-        raise CodecError(f"cannot store a value of type {t.__module__}.{t.__qualname__} in the "
-                         "result cache; teach relspan.run.codec about it")
+            # as for dataclasses, every test above depends on the type alone: the next values of
+            # this class come straight here
+            _FAST_OBJ[t] = _name_of(t)
+            return self._reduced(v, t, _FAST_OBJ[t], d)
+        raise _cannot_store(t)
+
+    def _reduced(self, v: Any, t: type, name: str, d: int) -> dict:
+        """An allowed class rebuilt from the plain arguments of its ``__reduce__``: ``(t, args)``."""
+        red = v.__reduce__()
+        if isinstance(red, tuple) and len(red) == 2 and red[0] is t and isinstance(red[1], tuple):
+            return {"$": "obj", "c": name, "args": [self.value(x, d) for x in red[1]]}
+        raise _cannot_store(t)
 
     def _pandas(self, v: Any, d: int):
         import pandas as pd
@@ -428,6 +492,19 @@ class _Decoder:
         if depth > MAX_DEPTH:
             raise CodecError("document nested too deeply")
         d = depth + 1
+        t = type(doc)
+        if t is dict:
+            tag = doc.get("$")
+            if tag == "array":               # the commonest tags first, each as below
+                return self._plain_array(doc)
+            if tag == "tuple":
+                return tuple([x if type(x) in _JSON_SCALARS else self.value(x, d) for x in self._list(doc["v"])])
+            if tag == "dc":
+                return self._dc(doc, d)
+            if tag == "dict":
+                return self._dict(doc, d)
+        elif t is list:
+            return [x if type(x) in _JSON_SCALARS else self.value(x, d) for x in doc]
         if doc is None or isinstance(doc, (bool, str, int, float)):
             return doc
         if isinstance(doc, list):
@@ -436,14 +513,7 @@ class _Decoder:
             raise CodecError("not a codec document")
         tag = doc["$"]
         if tag == "dc":
-            cls, names = self._dataclass(doc.get("c"), doc.get("h"))
-            stored = self._list(doc["v"])
-            if len(stored) != len(names):
-                raise CodecError(f"the fields of {doc['c']} have changed")
-            obj = object.__new__(cls)
-            for name, item in zip(names, stored):
-                object.__setattr__(obj, name, item if type(item) in _JSON_SCALARS else self.value(item, d))
-            return obj
+            return self._dc(doc, d)
         if tag == "float":
             text = doc["v"]
             if text not in ("nan", "inf", "-inf"):
@@ -461,12 +531,7 @@ class _Decoder:
         if tag == "segs":
             return self._segmented(doc, d)
         if tag == "dict":
-            out = {}
-            for pair in self._list(doc["v"]):
-                if not isinstance(pair, list) or len(pair) != 2:
-                    raise CodecError("bad dict item")
-                out[self.value(pair[0], d)] = self.value(pair[1], d)
-            return out
+            return self._dict(doc, d)
         if tag in ("set", "frozenset"):
             items = [self.value(x, d) for x in self._list(doc["v"])]
             return set(items) if tag == "set" else frozenset(items)
@@ -515,8 +580,45 @@ class _Decoder:
             return cls(*[self.value(x, d) for x in self._list(doc["args"])])
         raise CodecError(f"unknown tag {tag!r}")
 
+    def _dc(self, doc: dict, d: int) -> Any:
+        """A dataclass value, its fields set directly (no ``__init__`` runs)."""
+        cls, names, plain = self._dataclass(doc.get("c"), doc.get("h"))
+        stored = self._list(doc["v"])
+        if len(stored) != len(names):
+            raise CodecError(f"the fields of {doc['c']} have changed")
+        obj = object.__new__(cls)
+        values = [item if type(item) in _JSON_SCALARS else self.value(item, d) for item in stored]
+        if plain:       # fields kept in the instance's __dict__: set together, in the same order
+            obj.__dict__.update(zip(names, values))
+        else:
+            for name, item in zip(names, values):
+                object.__setattr__(obj, name, item)
+        return obj
+
+    def _dict(self, doc: dict, d: int) -> dict:
+        out = {}
+        for pair in self._list(doc["v"]):
+            if type(pair) is not list and not isinstance(pair, list) or len(pair) != 2:
+                raise CodecError("bad dict item")
+            k, x = pair
+            out[k if type(k) in _JSON_SCALARS else self.value(k, d)] = (
+                x if type(x) in _JSON_SCALARS else self.value(x, d))
+        return out
+
+    def _plain_array(self, doc: dict) -> np.ndarray:
+        """:meth:`array` of a reference whose tag is ``"array"``."""
+        i = doc["i"]
+        if type(i) is not int or not 0 <= i < len(self.arrays):
+            raise CodecError("array reference out of range")
+        a = self.arrays[i]
+        if type(a) is not np.ndarray and not isinstance(a, np.ndarray) or a.dtype.hasobject:
+            raise CodecError("not a plain array")
+        if doc.get("ro"):
+            a.setflags(write=False)
+        return a
+
     @staticmethod
-    def _dataclass(name: Any, mark: Any) -> tuple[type, tuple[str, ...]]:
+    def _dataclass(name: Any, mark: Any) -> tuple[type, tuple[str, ...], bool]:
         """The allowed dataclass ``name`` and its field names, if they are those the document was
         written with (``mark``); found once per class and fingerprint."""
         found = _DC_FOUND.get((name, mark))
@@ -527,7 +629,7 @@ class _Decoder:
             names = tuple(f.name for f in dataclasses.fields(cls))
             if mark != _fields_mark(names):
                 raise CodecError(f"the fields of {name} have changed")
-            found = _DC_FOUND[(name, mark)] = (cls, names)
+            found = _DC_FOUND[(name, mark)] = (cls, names, _fields_in_dict(cls, names))
         return found
 
     @staticmethod
@@ -575,8 +677,25 @@ class _Decoder:
         return frame
 
 
-#: (class name, fields' fingerprint) -> (class, field names), as checked by ``_Decoder._dataclass``
-_DC_FOUND: dict[tuple[str, str], tuple[type, tuple[str, ...]]] = {}
+#: (class name, fields' fingerprint) -> (class, field names, whether they live in the instance's
+#: ``__dict__``), as checked by ``_Decoder._dataclass``
+_DC_FOUND: dict[tuple[str, str], tuple[type, tuple[str, ...], bool]] = {}
+
+
+def _fields_in_dict(cls: type, names: tuple[str, ...]) -> bool:
+    """True when setting each field with ``object.__setattr__`` only puts it in the instance's
+    ``__dict__``: the instances have one, and no class in the MRO defines a descriptor that would
+    take the assignment (slots, properties) under a field's name."""
+    if "__dict__" not in dir(cls) or any("__slots__" in vars(k) for k in cls.__mro__[:-1]):
+        return False
+    for name in names:
+        for k in cls.__mro__:
+            if name in vars(k):
+                kind = type(vars(k)[name])
+                if hasattr(kind, "__set__") or hasattr(kind, "__delete__"):
+                    return False
+                break
+    return True
 
 
 #: pandas text dtypes stored as text (``str`` is pandas 3's default, ``string`` the NA-flavoured one)
