@@ -880,27 +880,37 @@ class _SegmentReader:
         if not (isinstance(seg, dict) and isinstance(seg.get("a"), list) and "v" in seg):
             raise codec.CodecError("a malformed segment")
         places = seg["a"]
-        need = [0] * len(self.packs)
-        for item in places:
-            if not (isinstance(item, list) and len(item) == 2 and type(item[0]) is int
-                    and 0 <= item[0] < len(self.packs) and isinstance(item[1], list)
-                    and len(item[1]) <= 32 and all(type(d) is int and d >= 0 for d in item[1])):
+        packs = self.packs
+        n_packs = len(packs)
+        need = [0] * n_packs
+        sizes = []
+        for item in places:   # [pack, shape] each, checked before anything is read
+            if type(item) is not list or len(item) != 2:
                 raise codec.CodecError("a malformed array place")
-            need[item[0]] += math.prod(item[1])
+            j, shape = item
+            if type(j) is not int or not 0 <= j < n_packs or type(shape) is not list or len(shape) > 32:
+                raise codec.CodecError("a malformed array place")
+            size = 1
+            for dim in shape:
+                if type(dim) is not int or dim < 0:
+                    raise codec.CodecError("a malformed array place")
+                size *= dim
+            need[j] += size
+            sizes.append(size)
         # one read per pack and segment; each array is copied out (owning its memory, as before)
-        blocks = []
-        for j, (fh, dtype, _count) in enumerate(self.packs):
+        flats = []
+        for j, (fh, dtype, _count) in enumerate(packs):
             size = need[j] * dtype.itemsize
             raw_pack = fh.read(size) if size else b""
             if len(raw_pack) != size:
                 raise codec.CodecError("an array beyond its pack")
-            blocks.append([np.frombuffer(raw_pack, dtype=dtype), 0])
+            flats.append(np.frombuffer(raw_pack, dtype=dtype))
+        at = [0] * n_packs
         arrays = []
-        for j, shape in places:
-            block = blocks[j]
-            size = math.prod(shape)
-            arrays.append(block[0][block[1]:block[1] + size].reshape(shape).copy())
-            block[1] += size
+        for (j, shape), size in zip(places, sizes):
+            off = at[j]
+            arrays.append(flats[j][off:off + size].reshape(shape).copy())
+            at[j] = off + size
         return seg["v"], arrays
 
     def finish(self) -> None:
