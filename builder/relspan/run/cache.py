@@ -739,26 +739,40 @@ class _SegmentSpill:
         self.codes: list[str] = []
         self.packs: list = []
         self.sizes: list[int] = []
+        self.seen: dict[int, tuple[np.dtype, int]] = {}   # id(dtype) -> (dtype, pack)
 
     def _spool(self):
         return tempfile.SpooledTemporaryFile(max_size=_SPOOL_BYTES, dir=self.folder, prefix=".tmp-",
                                              suffix=".part")
 
+    def _pack_of(self, dt: np.dtype) -> int:
+        """The pack of arrays of dtype ``dt`` (by its ``str``), opened on first use."""
+        code = dt.str
+        try:
+            j = self.codes.index(code)
+        except ValueError:
+            j = len(self.codes)
+            self.codes.append(code)
+            self.packs.append(self._spool())
+            self.sizes.append(0)
+        self.seen[id(dt)] = (dt, j)     # the dtype object is kept, so its id is not reused
+        return j
+
     def __call__(self, doc: Any, arrays: list[np.ndarray]) -> int:
         places = []
         pieces: dict[int, list[bytes]] = {}
+        seen = self.seen
+        sizes = self.sizes
         for a in arrays:
-            code = a.dtype.str
-            try:
-                j = self.codes.index(code)
-            except ValueError:
-                j = len(self.codes)
-                self.codes.append(code)
-                self.packs.append(self._spool())
-                self.sizes.append(0)
+            dt = a.dtype
+            got = seen.get(id(dt))
+            if got is not None and got[0] is dt:
+                j = got[1]
+            else:
+                j = self._pack_of(dt)
             places.append([j, list(a.shape)])
             pieces.setdefault(j, []).append(a.tobytes())
-            self.sizes[j] += a.size
+            sizes[j] += a.size
         for j, parts in pieces.items():   # one write per pack and segment (a spooled write costs ~5 us)
             self.packs[j].write(b"".join(parts))
         raw = _json_bytes({"a": places, "v": doc})
