@@ -23,6 +23,7 @@ References
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -33,7 +34,7 @@ from relspan.analysis._export import jsonable
 from relspan.analysis.elementary import ElementaryRegressions
 from relspan.errors import OptionsError
 
-__all__ = ["ElementaryFlat", "elementary_flat", "DEFAULT_NEAR_ZERO"]
+__all__ = ["ElementaryFlat", "elementary_flat", "elementary_flats", "DEFAULT_NEAR_ZERO"]
 
 #: below this smallest |coefficient of ref| in a unit-length (correlation-scale) relation,
 #: the affine form is numerically unsafe (a point is > 1000 unit lengths out) and the projective form is used
@@ -165,66 +166,112 @@ def elementary_flat(er: ElementaryRegressions, *, q: int, ref: int | str,
     >>> round(fl.rms_distance, 3)
     0.51
     """
-    n = er.n
-    if er.singular:
-        raise OptionsError("the window's covariance is singular, so its elementary regressions are not "
-                           "unique and have no flat.", key="er",
-                           fix="Use er.exact_relations (the relations that hold exactly) instead.")
+    return elementary_flats([er], q=q, ref=ref, near_zero=near_zero)[0]
+
+
+def elementary_flats(ers: Sequence[ElementaryRegressions], *, q: int, ref: int | str,
+                     near_zero: float = DEFAULT_NEAR_ZERO) -> list[ElementaryFlat]:
+    """:func:`elementary_flat` of many windows at once (one per item of ``ers``, in order).
+
+    The windows' decompositions are batched (one SVD call for the stack of each
+    shape); each window's numbers are those :func:`elementary_flat` gives it alone
+    (the same LAPACK calls and reductions, matrix by matrix). Every item must have
+    the same variables; each is checked as :func:`elementary_flat` checks one.
+    """
+    ers = list(ers)
+    if not ers:
+        return []
+    n = ers[0].n
+    for er in ers:
+        if er.singular:
+            raise OptionsError("the window's covariance is singular, so its elementary regressions are not "
+                               "unique and have no flat.", key="er",
+                               fix="Use er.exact_relations (the relations that hold exactly) instead.")
+        if er.n != n:
+            raise OptionsError(f"every window must have the same {n} variables; one has {er.n}.", key="ers",
+                               fix="Pass the windows of one dataset.")
     if isinstance(q, bool) or not isinstance(q, (int, np.integer)) or not 1 <= q <= n - 1:
         raise OptionsError(f"q must be a corank from 1 to {n - 1}; got {q!r}.", key="q",
                            fix=f"Pass q between 1 and {n - 1}.")
     q = int(q)
-    r = er.index(ref)
+    refs = [er.index(ref) for er in ers]
+    out: list[ElementaryFlat | None] = [None] * len(ers)
+    for r in sorted(set(refs)):
+        group = [i for i, ri in enumerate(refs) if ri == r]
+        for i, flat in zip(group, _flats_at(r, [ers[i] for i in group], q, near_zero)):
+            out[i] = flat
+    return out
+
+
+def _flats_at(r: int, ers: list[ElementaryRegressions], q: int, near_zero: float) -> list[ElementaryFlat]:
+    """The flats of windows normalised on the same variable ``r`` (the body of :func:`elementary_flats`)."""
+    n = ers[0].n
     others = [k for k in range(n) if k != r]
-    point_names = tuple(er.names[k] for k in others)
+    relations = np.stack([er.relations for er in ers])            # (W, n, n)
+    std = np.stack([er.std for er in ers])                          # (W, n)
 
     # projective form on the correlation scale
-    a_corr = er.relations * er.std[None, :]
-    u = a_corr / np.linalg.norm(a_corr, axis=1, keepdims=True)
-    _, sv, vt = np.linalg.svd(u)
-    vq = vt[:q]
-    resid = u - (u @ vq.T) @ vq
-    sines = np.linalg.norm(resid, axis=1)
-    rms_sine = float(np.sqrt(np.mean(sines**2)))
-    proj_basis = orthonormal_rows(vq / er.std[None, :])
-    strength = float(np.min(np.abs(u[:, r])))
+    a_corr = relations * std[:, None, :]
+    u = a_corr / np.linalg.norm(a_corr, axis=2, keepdims=True)
+    _, _, vt = np.linalg.svd(u)
+    vq = vt[:, :q]
+    resid = u - (u @ np.swapaxes(vq, 1, 2)) @ vq
+    sines = np.linalg.norm(resid, axis=2)
+    strength = np.min(np.abs(u[:, :, r]), axis=1)
 
-    norm = er.normalised(r)
-    points = norm[:, others]
-    center = directions = distances = None
-    rms = float("nan")
-    finite = bool(np.all(np.isfinite(points)))
-    if strength >= near_zero and finite:
-        center = points.mean(axis=0)
-        dev = points - center
+    with np.errstate(divide="ignore", invalid="ignore"):
+        norm = relations / relations[:, :, [r]]                     # ElementaryRegressions.normalised
+    points = norm[:, :, others]
+    finite = np.all(np.isfinite(points), axis=(1, 2))
+    affine = [i for i in range(len(ers)) if strength[i] >= near_zero and finite[i]]
+    center = dev = wt = None
+    if affine:
+        center = points[affine].mean(axis=1)
+        dev = points[affine] - center[:, None, :]
         if q > 1:
             _, _, wt = np.linalg.svd(dev, full_matrices=False)
-            directions = fix_signs(wt[:q - 1])
-            off = dev - (dev @ directions.T) @ directions
+    at = {i: k for k, i in enumerate(affine)}
+
+    out = []
+    for i, er in enumerate(ers):
+        u_i, s_i, v_i = u[i].copy(), sines[i].copy(), vq[i]
+        rms_sine = float(np.sqrt(np.mean(s_i**2)))
+        proj_basis = orthonormal_rows(v_i / er.std[None, :])
+        st = float(strength[i])
+        p_i = points[i].copy()
+        c_i = directions = distances = None
+        rms = float("nan")
+        if i in at:
+            k = at[i]
+            c_i, d_i = center[k].copy(), dev[k]
+            if q > 1:
+                directions = fix_signs(wt[k, :q - 1])
+                off = d_i - (d_i @ directions.T) @ directions
+            else:
+                directions = np.zeros((0, n - 1))
+                off = d_i
+            distances = np.linalg.norm(off, axis=1)
+            rms = float(np.sqrt(np.mean(distances**2)))
+            lift = np.zeros((q, n))
+            lift[0, others] = c_i
+            lift[0, r] = 1.0
+            for j in range(q - 1):
+                lift[j + 1, others] = directions[j]
+            basis = orthonormal_rows(lift)
+            form = "affine"
+            reason = (f"Every elementary relation has a clear coefficient on {er.names[r]} "
+                      f"(smallest unit-length share {st:.3g}), so the relations normalised on it "
+                      "are finite points and the affine flat is used.")
         else:
-            directions = np.zeros((0, n - 1))
-            off = dev
-        distances = np.linalg.norm(off, axis=1)
-        rms = float(np.sqrt(np.mean(distances**2)))
-        lift = np.zeros((q, n))
-        lift[0, others] = center
-        lift[0, r] = 1.0
-        for i in range(q - 1):
-            lift[i + 1, others] = directions[i]
-        basis = orthonormal_rows(lift)
-        form = "affine"
-        reason = (f"Every elementary relation has a clear coefficient on {er.names[r]} "
-                  f"(smallest unit-length share {strength:.3g}), so the relations normalised on it "
-                  "are finite points and the affine flat is used.")
-    else:
-        basis = proj_basis
-        form = "projective"
-        reason = (f"Some elementary relation has a near-zero coefficient on {er.names[r]} (smallest "
-                  f"unit-length share {strength:.3g} < {near_zero:g}); normalising on it would send "
-                  "that point towards infinity, so the projective form (unit-length relations, best "
-                  "subspace) is used.")
-    return ElementaryFlat(names=er.names, q=q, ref=r, form=form, form_reason=reason, ref_strength=strength,
-                          point_names=point_names, points=points, center=center, directions=directions,
-                          distances=distances, rms_distance=rms, unit_relations=u,
-                          projective_basis=proj_basis, residual_sines=sines, rms_sine=rms_sine,
-                          basis=basis)
+            basis = proj_basis
+            form = "projective"
+            reason = (f"Some elementary relation has a near-zero coefficient on {er.names[r]} (smallest "
+                      f"unit-length share {st:.3g} < {near_zero:g}); normalising on it would send "
+                      "that point towards infinity, so the projective form (unit-length relations, best "
+                      "subspace) is used.")
+        out.append(ElementaryFlat(names=er.names, q=q, ref=r, form=form, form_reason=reason, ref_strength=st,
+                                  point_names=tuple(er.names[k] for k in others), points=p_i, center=c_i,
+                                  directions=directions, distances=distances, rms_distance=rms,
+                                  unit_relations=u_i, projective_basis=proj_basis, residual_sines=s_i,
+                                  rms_sine=rms_sine, basis=basis))
+    return out

@@ -282,11 +282,26 @@ def _choose_examined(ds: DatasetSpec, full: WindowAnalysis) -> tuple[tuple[int, 
 
 def _flats(analysis: WindowAnalysis, examined: Sequence[int]) -> dict:
     """The elementary-regression flat of one window for each examined corank (none when singular)."""
-    from relspan.analysis.flat import elementary_flat
+    return _plan_flats([analysis], examined)[0]
 
-    if analysis.elementary.singular:
-        return {}
-    return {q: elementary_flat(analysis.elementary, q=q, ref=analysis.ref) for q in examined if q >= 1}
+
+def _plan_flats(analyses: Sequence[WindowAnalysis], examined: Sequence[int]) -> tuple[dict, ...]:
+    """:func:`_flats` of every window, computed together (one batched call per corank and reference
+    variable: :func:`relspan.analysis.flat.elementary_flats`, the same numbers as window by window)."""
+    from relspan.analysis.flat import elementary_flats
+
+    out: list[dict] = [{} for _ in analyses]
+    groups: dict[int, list[int]] = {}
+    for i, a in enumerate(analyses):
+        if not a.elementary.singular:
+            groups.setdefault(a.ref, []).append(i)
+    for q in examined:
+        if q < 1:
+            continue
+        for ref, idx in groups.items():
+            for i, flat in zip(idx, elementary_flats([analyses[i].elementary for i in idx], q=q, ref=ref)):
+                out[i][q] = flat
+    return tuple(out)
 
 
 def _plan_summaries(ds: DatasetSpec, prepared, plan: WindowPlanSpec, windows: Sequence,
@@ -309,7 +324,7 @@ def _plan_summaries(ds: DatasetSpec, prepared, plan: WindowPlanSpec, windows: Se
                               labels=labels, plausible=plausible)
     return PlanResult(plan=plan, windows=tuple(windows), analyses=tuple(analyses),
                       stability=stability, swings=swings, coranks=coranks,
-                      flats=tuple(_flats(a, examined) for a in analyses))
+                      flats=_plan_flats(analyses, examined))
 
 
 def analyse_prepared(ds: DatasetSpec, prepared, plans: Sequence[WindowPlanSpec], *, executor=None,
