@@ -110,6 +110,19 @@ def test_many_windows_at_once_give_each_window_the_numbers_it_gets_alone(n):
     assert forms == {"affine", "projective"}
 
 
+def test_the_batches_do_not_change_the_numbers(monkeypatch):
+    from relspan.analysis import flat as F
+
+    ers = _windows(5, 13, seed=7)
+    whole = F.elementary_flats(ers, q=2, ref=1)
+    monkeypatch.setattr(F, "_BATCH", 4)
+    parts = F.elementary_flats(ers, q=2, ref=1)
+    for a, b in zip(whole, parts):
+        for field in ("points", "center", "directions", "distances", "rms_distance", "unit_relations",
+                      "projective_basis", "residual_sines", "rms_sine", "basis", "form_reason"):
+            assert _same(getattr(a, field), getattr(b, field)), field
+
+
 def test_the_checks_of_one_window_hold_for_each_of_many():
     ers = _windows(4, 3, seed=1)
     with pytest.raises(OptionsError, match="q must be a corank"):

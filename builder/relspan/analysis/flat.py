@@ -198,9 +198,15 @@ def elementary_flats(ers: Sequence[ElementaryRegressions], *, q: int, ref: int |
     out: list[ElementaryFlat | None] = [None] * len(ers)
     for r in sorted(set(refs)):
         group = [i for i, ri in enumerate(refs) if ri == r]
-        for i, flat in zip(group, _flats_at(r, [ers[i] for i in group], q, near_zero)):
-            out[i] = flat
+        for start in range(0, len(group), _BATCH):       # a few MB of stacked arrays at a time
+            part = group[start:start + _BATCH]
+            for i, flat in zip(part, _flats_at(r, [ers[i] for i in part], q, near_zero)):
+                out[i] = flat
     return out
+
+
+#: windows decomposed together by :func:`elementary_flats` (their numbers do not depend on it)
+_BATCH = 512
 
 
 def _flats_at(r: int, ers: list[ElementaryRegressions], q: int, near_zero: float) -> list[ElementaryFlat]:
