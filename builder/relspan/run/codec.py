@@ -495,10 +495,11 @@ class _Decoder:
         t = type(doc)
         if t is dict:
             tag = doc.get("$")
-            if tag == "array":               # the commonest tags first, each as below
+            if tag == "array":               # the commonest tags first (a dict subclass, and every
+                # other tag, take the general chain below)
                 return self._plain_array(doc)
             if tag == "tuple":
-                return tuple([x if type(x) in _JSON_SCALARS else self.value(x, d) for x in self._list(doc["v"])])
+                return self._tuple(doc, d)
             if tag == "dc":
                 return self._dc(doc, d)
             if tag == "dict":
@@ -527,7 +528,7 @@ class _Decoder:
                 raise CodecError("bad scalar")
             return a[()]
         if tag == "tuple":
-            return tuple([x if type(x) in _JSON_SCALARS else self.value(x, d) for x in self._list(doc["v"])])
+            return self._tuple(doc, d)
         if tag == "segs":
             return self._segmented(doc, d)
         if tag == "dict":
@@ -594,6 +595,9 @@ class _Decoder:
             for name, item in zip(names, values):
                 object.__setattr__(obj, name, item)
         return obj
+
+    def _tuple(self, doc: dict, d: int) -> tuple:
+        return tuple([x if type(x) in _JSON_SCALARS else self.value(x, d) for x in self._list(doc["v"])])
 
     def _dict(self, doc: dict, d: int) -> dict:
         out = {}
